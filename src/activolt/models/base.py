@@ -1,0 +1,98 @@
+"""What every activity-coefficient model provides, and the parameter description it uses.
+
+A model is a pair of consistent functions of molality, ln γ±(m; θ) and the osmotic coefficient
+φ(m; θ), that obey the Gibbs–Duhem relation d[m(1 − φ)]/dm = −m d ln γ±/dm, together with a
+description of its parameters θ: their units, whether they enter ln γ± linearly, and the
+conventional value at which a parameter is held when the data cannot determine it.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..electrolytes import Electrolyte
+from ..solvent import DebyeHueckelConstants
+
+#: ln γ± or φ as a function of (electrolyte, molality [mol kg⁻¹], constants, parameters).
+ModelFunction = Callable[[Electrolyte, np.ndarray, DebyeHueckelConstants, Mapping[str, float]],
+                         np.ndarray]
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One parameter of an activity-coefficient model.
+
+    Attributes
+    ----------
+    name : str
+        Name with its unit, e.g. ``"a_angstrom"``.
+    symbol : str
+        How a chemist writes it, e.g. ``"å"``.
+    unit : str
+        Unit as printed in reports.
+    description : str
+        What it is, in a few words.
+    linear : bool
+        Whether ln γ± is linear in this parameter.
+    conventional : Callable[[DebyeHueckelConstants], float]
+        The value held when the data cannot determine the parameter.
+    convention : str
+        Where the conventional value comes from, for the record.
+    minimum, maximum : float
+        Bounds for fitting.
+    """
+
+    name: str
+    symbol: str
+    unit: str
+    description: str
+    linear: bool
+    conventional: Callable[[DebyeHueckelConstants], float]
+    convention: str
+    minimum: float = -math.inf
+    maximum: float = math.inf
+
+
+@dataclass(frozen=True)
+class ActivityModel:
+    """A model family of ln γ± and φ for a single electrolyte in water.
+
+    Attributes
+    ----------
+    name : str
+        Published method name in lower case, used on the command line.
+    title : str
+        Name as printed, e.g. ``"Hückel equation"``.
+    parameters : tuple of Parameter
+        Adjustable parameters, in a fixed order.
+    ln_gamma : ModelFunction
+        ln γ± [-].
+    osmotic_coefficient : ModelFunction
+        φ [-].
+    max_ionic_strength : float
+        Ionic strength up to which the family is commonly considered adequate [mol kg⁻¹].
+    """
+
+    name: str
+    title: str
+    parameters: tuple[Parameter, ...]
+    ln_gamma: ModelFunction
+    osmotic_coefficient: ModelFunction
+    max_ionic_strength: float
+
+    @property
+    def parameter_names(self) -> tuple[str, ...]:
+        """Names of the parameters in order."""
+        return tuple(p.name for p in self.parameters)
+
+    def parameter(self, name: str) -> Parameter:
+        """The parameter called ``name``; ``KeyError`` listing the valid ones otherwise."""
+        for p in self.parameters:
+            if p.name == name:
+                return p
+        raise KeyError(f"model '{self.name}' has no parameter '{name}'; "
+                       f"it has: {', '.join(self.parameter_names) or 'none'}")
