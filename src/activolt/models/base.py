@@ -38,8 +38,9 @@ class Parameter:
         What it is, in a few words.
     linear : bool
         Whether ln γ± is linear in this parameter.
-    conventional : Callable[[DebyeHueckelConstants], float]
-        The value held when the data cannot determine the parameter.
+    conventional : Callable[[Electrolyte, DebyeHueckelConstants], float]
+        The value held when the data cannot determine the parameter (it may depend on the
+        electrolyte, e.g. a published value, and on the temperature through the constants).
     convention : str
         Where the conventional value comes from, for the record.
     minimum, maximum : float
@@ -51,7 +52,7 @@ class Parameter:
     unit: str
     description: str
     linear: bool
-    conventional: Callable[[DebyeHueckelConstants], float]
+    conventional: Callable[[Electrolyte, DebyeHueckelConstants], float]
     convention: str
     minimum: float = -math.inf
     maximum: float = math.inf

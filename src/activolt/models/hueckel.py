@@ -75,7 +75,7 @@ def osmotic_coefficient(
     )
 
 
-def _bates_guggenheim_a(constants: DebyeHueckelConstants) -> float:
+def _bates_guggenheim_a(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
     return float(BATES_GUGGENHEIM_BA / np.mean(constants.b))
 
 
@@ -100,7 +100,7 @@ MODEL = ActivityModel(
             unit="kg mol⁻¹",
             description="linear (Hückel) term in ln γ±",
             linear=True,
-            conventional=lambda constants: 0.0,
+            conventional=lambda electrolyte, constants: 0.0,
             convention="no linear term (b = 0)",
         ),
     ),
