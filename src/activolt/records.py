@@ -1,0 +1,168 @@
+"""The JSON record of a reduction: what a lab archives or uploads.
+
+The layout is versioned by ``record_schema`` (``activolt-record/1``) and described by the JSON
+Schema shipped beside this module (``record_schema.json``). Keys are only ever added.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from datetime import UTC, datetime
+from importlib.resources import files
+from typing import Any
+
+from . import __version__
+from .reduce import Reduction
+from .report.cautions import cautions_for
+from .report.comparison import compare_with_published
+from .thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
+
+RECORD_SCHEMA = "activolt-record/1"
+
+
+def _number(value: float) -> float | None:
+    return None if value is None or not math.isfinite(value) else float(value)
+
+
+def _with_u(value: Any, method: str) -> dict[str, Any]:
+    return {"value": _number(value.nominal_value), "uncertainty": _number(value.std_dev),
+            "method": method}
+
+
+def record_schema() -> dict[str, Any]:
+    """The JSON Schema of the record."""
+    text = (files("activolt") / "record_schema.json").read_text(encoding="utf-8")
+    return json.loads(text)
+
+
+def build_record(reduction: Reduction, created: datetime | None = None) -> dict[str, Any]:
+    """The JSON-ready record of ``reduction`` (see ``record_schema.json``)."""
+    run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
+    e0 = reduction.standard_potential
+    covariance_note = ("linear propagation of the fit covariance, "
+                       + ("scaled by the reduced χ² (unit weights)" if stats.covariance_scaled
+                          else "from the stated reading uncertainties, not scaled"))
+    metadata_info: dict[str, Any] = {}
+    if run.metadata_path is not None:
+        metadata_info = {
+            "metadata_file": str(run.metadata_path),
+            "metadata_sha256": hashlib.sha256(run.metadata_path.read_bytes()).hexdigest(),
+        }
+    points = []
+    for _, row in reduction.points.iterrows():
+        points.append({
+            "line": int(row["line"]),
+            "molality_mol_kg": float(row["molality_mol_kg"]),
+            "u_molality_mol_kg": _number(row["u_molality_mol_kg"]),
+            "emf_V": _number(row["emf_V"]),
+            "u_emf_V": _number(row["u_emf_V"]),
+            "temperature_K": float(row["temperature_K"]),
+            "electrode": row["electrode"] or None,
+            "fitted_emf_V": _number(row["fitted_emf_V"]),
+            "residual_V": _number(row["residual_V"]),
+            "gamma_pm": _number(row["gamma_pm"]),
+            "u_gamma_pm": _number(row["u_gamma_pm"]),
+            "gamma_pm_model": _number(row["gamma_pm_model"]),
+            "u_gamma_pm_model": _number(row["u_gamma_pm_model"]),
+            "flag": row["flag"] if isinstance(row["flag"], str) else None,
+            "note": row["note"] or None,
+        })
+    cross = reduction.linear_extrapolation
+    comparison = compare_with_published(reduction)
+    return {
+        "record_schema": RECORD_SCHEMA,
+        "software": {"name": "activolt", "version": __version__},
+        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "input": {"file": str(run.path), "sha256": run.sha256, **metadata_info},
+        "run_info": dict(meta.info),
+        "electrolyte": meta.electrolyte.formula,
+        "electrons": meta.electrons,
+        "cell": meta.cell,
+        "temperature_K": reduction.temperature_K,
+        "standard_pressure_kPa": meta.standard_pressure_Pa / 1e3,
+        "model": {
+            "name": reduction.model.name,
+            "title": reduction.model.title,
+            "parameters": {
+                p.name: {"value": p.value, "uncertainty": _number(p.uncertainty),
+                         "unit": p.unit, "fixed": p.fixed, "reason": p.reason}
+                for p in reduction.parameters
+            },
+        },
+        "standard_potential_V": {
+            **_with_u(e0, covariance_note),
+            "coverage_factor_95": stats.coverage_factor,
+            "expanded_uncertainty_95": stats.coverage_factor * e0.std_dev,
+        },
+        "delta_g_kJ_mol": _with_u(standard_gibbs_energy_kJ_mol(e0, meta.electrons),
+                                  "ΔG° = −nFE°, propagated from E°"),
+        "log10_K": _with_u(log10_equilibrium_constant(e0, meta.electrons,
+                                                      reduction.temperature_K),
+                           "log10 K = nFE°/(RT ln 10), propagated from E°"),
+        "covariance": {"parameters": list(reduction.free_names),
+                       "matrix": reduction.covariance.tolist()},
+        "gamma_uncertainty_method": (
+            "γ± = exp[(E° − E)/k − ln m±] from each reading; covariance propagated with the "
+            "correlation between E° and the readings it is made of (GUM, JCGM 100:2008, 5.2)"
+            + ", plus u(m)/m"),
+        "points": points,
+        "fit": {
+            "n_points": stats.n_points, "n_free": stats.n_free, "dof": stats.dof,
+            "chi2": stats.chi2, "reduced_chi2": stats.reduced_chi2, "aic": stats.aic,
+            "bic": stats.bic, "residual_sd_V": stats.residual_sd_V,
+            "covariance_scaled": stats.covariance_scaled,
+            "weighting": ("stated reading uncertainties" if not stats.covariance_scaled
+                          else "unit weights"),
+        },
+        "cross_check": None if cross is None else {
+            "method": "straight-line extrapolation of E + k ln m± − k ln γ(extended "
+                      "Debye–Hückel, Bå = 1.5) against m",
+            "standard_potential_V": {"value": cross.standard_potential_V,
+                                     "uncertainty": cross.u_standard_potential_V},
+            "n_points": cross.n_points,
+            "max_ionic_strength_mol_kg": cross.max_ionic_strength,
+        },
+        "published_comparison": [] if comparison is None else [
+            {"molality_mol_kg": float(r.molality_mol_kg),
+             "gamma_pm_published": _number(r.gamma_pm_published),
+             "interpolated": bool(r.interpolated), "difference": _number(r.difference)}
+            for r in comparison.itertuples()
+        ],
+        "published_source": None if comparison is None else comparison["source"].iloc[0],
+        "notes": list(reduction.notes),
+        "warnings": list(reduction.warnings),
+        "cautions": cautions_for(meta.electrolyte, meta.cell),
+    }
+
+
+def record_json(reduction: Reduction, created: datetime | None = None) -> str:
+    """The record as JSON text (UTF-8, indented, NaN written as null)."""
+    return json.dumps(build_record(reduction, created), ensure_ascii=False, indent=2,
+                      allow_nan=False) + "\n"
+
+
+def points_csv(reduction: Reduction) -> str:
+    """The points table as CSV text, units in the column names, flagged rows included."""
+    table = reduction.points
+    out = {
+        "line": table["line"],
+        "molality_mol_kg": table["molality_mol_kg"],
+        "u_molality_mol_kg": table["u_molality_mol_kg"],
+        "temperature_C": table["temperature_K"] - 273.15,
+        "emf_mV": table["emf_V"] * 1e3,
+        "u_emf_mV": table["u_emf_V"] * 1e3,
+        "fitted_emf_mV": table["fitted_emf_V"] * 1e3,
+        "residual_mV": table["residual_V"] * 1e3,
+        "gamma_pm": table["gamma_pm"],
+        "u_gamma_pm": table["u_gamma_pm"],
+        "gamma_pm_model": table["gamma_pm_model"],
+        "u_gamma_pm_model": table["u_gamma_pm_model"],
+        "electrode": table["electrode"],
+        "flag": table["flag"].where(table["flag"].notna(), ""),
+        "note": table["note"],
+    }
+    import pandas as pd
+
+    return pd.DataFrame(out).to_csv(index=False, float_format="%.10g", lineterminator="\n")

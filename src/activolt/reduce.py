@@ -1,0 +1,491 @@
+"""The reduction: fit E° and the activity-coefficient model to E(m), then γ± at every point.
+
+For each usable reading i,
+
+.. math:: E_i = E° − k_i [\\ln m_{±,i} + \\ln γ_±(m_i; θ)], \\qquad k_i = ν R T_i / (n F)
+
+is fitted by weighted non-linear least squares (lmfit) in E° and the free model parameters θ.
+A parameter the data cannot determine (too few points, at a bound, relative standard uncertainty
+beyond a limit, or a linear term not distinguishable from zero) is held at its conventional value
+and the result says which and why. γ± at each point then follows from the measured E_i and the
+fitted E°, with the covariance propagated as in :mod:`activolt.uncertainty`. A Hitchcock-type
+linearised extrapolation is computed beside it as a cross-check.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+from uncertainties import correlated_values
+from uncertainties.core import AffineScalarFunc
+
+from .electrolytes import Electrolyte, nernst_factor
+from .errors import FitError, InputError
+from .models import ActivityModel, get_model
+from .models.hueckel import BATES_GUGGENHEIM_BA
+from .runs import Run, usable_points
+from .solvent import DebyeHueckelConstants, debye_hueckel_constants
+from .uncertainty import ln_gamma_covariance, sensitivity_matrix, student_t_factor
+
+E0 = "standard_potential_V"
+#: Largest spread of temperatures in one run that is reduced to one E° [K].
+MAX_TEMPERATURE_SPREAD_K = 2.0
+#: Relative standard uncertainty beyond which a non-linear parameter counts as undetermined.
+MAX_RELATIVE_UNCERTAINTY = 0.5
+#: Ionic strength up to which the Hitchcock-type cross-check uses points [mol kg⁻¹].
+LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH = 0.1
+_MIN_POINTS = 3
+
+
+@dataclass(frozen=True)
+class FittedParameter:
+    """A model parameter as fitted or held.
+
+    ``uncertainty`` is the standard uncertainty (k = 1) in the parameter's unit, NaN if held.
+    ``reason`` says why a held parameter was held (a convention, the user, the data).
+    """
+
+    name: str
+    symbol: str
+    unit: str
+    value: float
+    uncertainty: float
+    fixed: bool
+    reason: str | None = None
+
+
+@dataclass(frozen=True)
+class FitStatistics:
+    """How well the model describes the readings.
+
+    ``chi2`` is Σ((E_i − Ê_i)/u_i)² when readings carry stated uncertainties (dimensionless),
+    otherwise Σ(E_i − Ê_i)² [V²]; ``covariance_scaled`` says whether the covariance was multiplied
+    by the reduced χ² (unit weights) or not (stated uncertainties).
+    """
+
+    n_points: int
+    n_free: int
+    dof: int
+    chi2: float
+    reduced_chi2: float
+    aic: float
+    bic: float
+    residual_sd_V: float
+    covariance_scaled: bool
+    coverage_factor: float
+
+
+@dataclass(frozen=True)
+class LinearExtrapolation:
+    """Hitchcock-type cross-check: E + k ln m± − k ln γ_DH against m, a straight line to m = 0.
+
+    ln γ_DH is the extended Debye–Hückel term with the Bates–Guggenheim Bå = 1.5 kg^½ mol^-½;
+    only points with I ≤ ``max_ionic_strength`` are used.
+    """
+
+    standard_potential_V: float
+    u_standard_potential_V: float
+    slope_V_kg_mol: float
+    n_points: int
+    max_ionic_strength: float
+
+
+@dataclass(frozen=True)
+class Reduction:
+    """The result of reducing one run: E°, the model, γ± at every point, diagnostics."""
+
+    run: Run
+    model: ActivityModel
+    temperature_K: float
+    standard_potential: AffineScalarFunc
+    parameters: tuple[FittedParameter, ...]
+    free_names: tuple[str, ...]
+    covariance: np.ndarray
+    statistics: FitStatistics
+    points: pd.DataFrame
+    gamma_covariance: np.ndarray
+    linear_extrapolation: LinearExtrapolation | None
+    warnings: tuple[str, ...] = ()
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def electrolyte(self) -> Electrolyte:
+        """The electrolyte of the run."""
+        return self.run.metadata.electrolyte
+
+    @property
+    def parameter_values(self) -> dict[str, float]:
+        """Every model parameter's value, fitted or held."""
+        return {p.name: p.value for p in self.parameters}
+
+    def correlated_parameters(self) -> dict[str, AffineScalarFunc]:
+        """E° and the free parameters as correlated uncertain numbers (k = 1)."""
+        values = [self.standard_potential.nominal_value] + [
+            p.value for p in self.parameters if p.name in self.free_names
+        ]
+        names = (E0, *[n for n in self.free_names if n != E0])
+        return dict(zip(names, correlated_values(values, self.covariance), strict=True))
+
+    def ln_gamma_model(self, molality: np.ndarray, temperature_K: float | None = None
+                       ) -> np.ndarray:
+        """ln γ± of the fitted model at any molality [mol kg⁻¹] (at the run temperature)."""
+        t = self.temperature_K if temperature_K is None else temperature_K
+        m = np.atleast_1d(np.asarray(molality, dtype=float))
+        constants = debye_hueckel_constants(np.full(m.shape, t))
+        return self.model.ln_gamma(self.electrolyte, m, constants, self.parameter_values)
+
+    def to_frame(self) -> pd.DataFrame:
+        """The points table (all rows, flagged ones included)."""
+        return self.points.copy()
+
+    def report(self) -> str:
+        """A short plain-text report."""
+        from .report.text import format_report
+
+        return format_report(self)
+
+
+@dataclass(frozen=True)
+class _Data:
+    molality: np.ndarray
+    emf_V: np.ndarray
+    weights: np.ndarray
+    nernst_V: np.ndarray
+    ln_mean_molality: np.ndarray
+    constants: DebyeHueckelConstants
+    stated_uncertainty: bool
+
+
+def _prepare(run: Run) -> _Data:
+    points = usable_points(run)
+    meta = run.metadata
+    molality = points["molality_mol_kg"].to_numpy(float)
+    temperature = points["temperature_K"].to_numpy(float)
+    stated = run.emf_uncertainty_given
+    u = points["u_emf_V"].to_numpy(float) if stated else np.ones(len(points))
+    return _Data(
+        molality=molality,
+        emf_V=points["emf_V"].to_numpy(float),
+        weights=1.0 / u**2,
+        nernst_V=nernst_factor(meta.electrolyte, meta.electrons, temperature),
+        ln_mean_molality=np.log(meta.electrolyte.mean_molality(molality)),
+        constants=debye_hueckel_constants(temperature),
+        stated_uncertainty=stated,
+    )
+
+
+def _model_emf(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
+               values: Mapping[str, float]) -> np.ndarray:
+    ln_gamma = model.ln_gamma(electrolyte, data.molality, data.constants, values)
+    return e0 - data.nernst_V * (data.ln_mean_molality + ln_gamma)
+
+
+def _jacobian(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
+              values: Mapping[str, float], free: list[str]) -> np.ndarray:
+    """∂E_model/∂(E°, free parameters) by central differences (E° column exact)."""
+    columns = [np.ones_like(data.molality)]
+    for name in free:
+        step = 1e-6 * max(1.0, abs(values[name]))
+        up = _model_emf(model, electrolyte, data, e0, {**values, name: values[name] + step})
+        down = _model_emf(model, electrolyte, data, e0, {**values, name: values[name] - step})
+        columns.append((up - down) / (2.0 * step))
+    return np.column_stack(columns)
+
+
+@dataclass
+class _Fit:
+    e0: float
+    values: dict[str, float]
+    free: list[str]
+    covariance: np.ndarray
+    chi2: float
+    dof: int
+    aic: float
+    bic: float
+    residual_V: np.ndarray
+    jacobian: np.ndarray
+
+
+def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+              values: dict[str, float], free: list[str]) -> _Fit:
+    import lmfit
+
+    sqrt_w = np.sqrt(data.weights)
+    # Start E° from the held/initial values, exactly (linear in E°).
+    start = _model_emf(model, electrolyte, data, 0.0, values)
+    e0_start = float(np.sum(data.weights * (data.emf_V - start)) / np.sum(data.weights))
+    params = lmfit.Parameters()
+    params.add(E0, value=e0_start)
+    for name in free:
+        spec = model.parameter(name)
+        params.add(name, value=values[name], min=spec.minimum, max=spec.maximum)
+
+    def residual(p: lmfit.Parameters) -> np.ndarray:
+        trial = {**values, **{n: p[n].value for n in free}}
+        return (data.emf_V - _model_emf(model, electrolyte, data, p[E0].value, trial)) * sqrt_w
+
+    result = lmfit.minimize(residual, params, method="leastsq",
+                            scale_covar=not data.stated_uncertainty)
+    if not result.success:
+        raise FitError(f"the fit did not converge ({result.message})")
+    fitted = {**values, **{n: float(result.params[n].value) for n in free}}
+    e0 = float(result.params[E0].value)
+    jac = _jacobian(model, electrolyte, data, e0, fitted, free)
+    normal = jac.T @ (jac * data.weights[:, None])
+    residual_V = data.emf_V - _model_emf(model, electrolyte, data, e0, fitted)
+    chi2 = float(np.sum(data.weights * residual_V**2))
+    dof = len(data.emf_V) - 1 - len(free)
+    try:
+        covariance = np.linalg.inv(normal)
+    except np.linalg.LinAlgError:
+        raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
+                       "independent for these data); hold a parameter with --fix") from None
+    if not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0):
+        raise FitError("the covariance of the fit cannot be estimated; hold a parameter "
+                       "with --fix")
+    if not data.stated_uncertainty:
+        covariance = covariance * chi2 / dof
+    return _Fit(e0=e0, values=fitted, free=list(free), covariance=covariance, chi2=chi2, dof=dof,
+                aic=float(result.aic), bic=float(result.bic), residual_V=residual_V,
+                jacobian=jac)
+
+
+def _undetermined(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
+    """The parameter to hold next and why, or None when every free parameter is determined."""
+    worst: tuple[float, str, str] | None = None
+    for index, name in enumerate(fit.free, start=1):
+        spec = model.parameter(name)
+        value, u = fit.values[name], math.sqrt(fit.covariance[index, index])
+        span = spec.maximum - spec.minimum if math.isfinite(spec.maximum - spec.minimum) else 1.0
+        if min(abs(value - spec.minimum), abs(spec.maximum - value)) < 1e-4 * span:
+            return name, f"the fit ran to the bound {value:g} {spec.unit}"
+        if spec.linear:
+            ratio = u / abs(value) if value != 0.0 else math.inf
+            reason = (f"not distinguishable from zero with these data "
+                      f"({value:.3g} ± {u:.2g} {spec.unit})")
+            limit = 1.0
+        else:
+            ratio = u / abs(value) if value != 0.0 else math.inf
+            reason = (f"not determined by these data ({value:.3g} ± {u:.2g} {spec.unit})")
+            limit = MAX_RELATIVE_UNCERTAINTY
+        # Non-linear parameters are held before linear ones.
+        score = ratio / limit + (0.0 if spec.linear else 1e-9)
+        if ratio > limit and (worst is None or (not spec.linear, score) > (
+                not model.parameter(worst[1]).linear, worst[0])):
+            worst = (score, name, reason)
+    return None if worst is None else (worst[1], worst[2])
+
+
+def _linear_extrapolation(run: Run, data: _Data) -> LinearExtrapolation | None:
+    electrolyte = run.metadata.electrolyte
+    ionic = electrolyte.ionic_strength(data.molality)
+    use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
+    if use.sum() < 3:
+        return None
+    sqrt_i = np.sqrt(ionic[use])
+    a = data.constants.agamma[use]
+    ln_gamma_dh = -electrolyte.charge_product * a * sqrt_i / (1.0 + BATES_GUGGENHEIM_BA * sqrt_i)
+    k = data.nernst_V[use]
+    y = data.emf_V[use] + k * (data.ln_mean_molality[use] + ln_gamma_dh)
+    x = data.molality[use]
+    design = np.column_stack([np.ones_like(x), x])
+    w = data.weights[use]
+    normal = design.T @ (design * w[:, None])
+    coef = np.linalg.solve(normal, design.T @ (w * y))
+    resid = y - design @ coef
+    cov = np.linalg.inv(normal)
+    dof = len(x) - 2
+    if not data.stated_uncertainty:
+        cov = cov * float(np.sum(w * resid**2)) / dof
+    return LinearExtrapolation(
+        standard_potential_V=float(coef[0]), u_standard_potential_V=float(math.sqrt(cov[0, 0])),
+        slope_V_kg_mol=float(coef[1]), n_points=int(use.sum()),
+        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH,
+    )
+
+
+def reduce_run(run: Run, model: str = "hueckel",
+               fixed: Mapping[str, float] | None = None) -> Reduction:
+    """Fit E° and the activity-coefficient model to a run; γ± with uncertainties at each point.
+
+    Parameters
+    ----------
+    run : Run
+        A validated run (:func:`activolt.runs.read_run`).
+    model : str
+        Model name (``limiting``, ``hueckel``, …; see :data:`activolt.models.MODELS`).
+    fixed : mapping, optional
+        Parameters to hold at given values, e.g. ``{"a_angstrom": 4.3}``.
+
+    Returns
+    -------
+    Reduction
+
+    Raises
+    ------
+    InputError
+        Too few usable readings, an unknown model or parameter, or temperatures too spread out.
+    FitError
+        The fit did not converge or its covariance cannot be estimated.
+    """
+    try:
+        family = get_model(model)
+    except ValueError as error:
+        raise InputError(str(error), column="--model") from None
+    fixed = dict(fixed or {})
+    for name in fixed:
+        try:
+            family.parameter(name)
+        except KeyError as error:
+            raise InputError(str(error.args[0]), column="--fix") from None
+
+    data = _prepare(run)
+    n = len(data.emf_V)
+    if n < _MIN_POINTS:
+        raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
+                         f"{_MIN_POINTS} to give E° with an uncertainty", file=str(run.path))
+    electrolyte = run.metadata.electrolyte
+    temperature = run.points.loc[run.points["flag"].isna(), "temperature_K"].to_numpy(float)
+    spread = float(temperature.max() - temperature.min())
+    if spread > MAX_TEMPERATURE_SPREAD_K:
+        raise InputError(f"the readings span {spread:.2f} K; one E° needs one temperature "
+                         "(within 2 K): split the run by temperature", file=str(run.path))
+    warnings = list(run.warnings)
+    notes: list[str] = []
+    if spread > 0.2:
+        warnings.append(f"the readings span {spread:.2f} K; ln γ± uses each row's temperature, "
+                        "but E° refers to the mean temperature and its own change with T over "
+                        "that span is not corrected")
+
+    values: dict[str, float] = {}
+    reasons: dict[str, str] = {}
+    for spec in family.parameters:
+        if spec.name in fixed:
+            values[spec.name] = float(fixed[spec.name])
+            reasons[spec.name] = "held at the value given by the user"
+        else:
+            values[spec.name] = spec.conventional(electrolyte, data.constants)
+    free = [p.name for p in family.parameters if p.name not in fixed]
+
+    # Hold parameters until every free one is determined and at least one degree of freedom is
+    # left; held parameters take their conventional values.
+    first_fit: _Fit | None = None
+    while True:
+        while free and n - 1 - len(free) < 1:
+            name = next((f for f in free if not family.parameter(f).linear), free[-1])
+            free.remove(name)
+            reasons[name] = f"too few readings to fit it ({n})"
+        fit = _fit_once(family, electrolyte, data, values, free)
+        first_fit = first_fit or fit
+        hold = _undetermined(family, fit)
+        if hold is None:
+            break
+        name, why = hold
+        free.remove(name)
+        values = {**fit.values, name: family.parameter(name).conventional(electrolyte,
+                                                                          data.constants)}
+        reasons[name] = why
+
+    for name, why in reasons.items():
+        if name in fixed:
+            continue
+        spec = family.parameter(name)
+        notes.append(f"{spec.symbol} held at {values[name]:.4g} {spec.unit} "
+                     f"({spec.convention}): {why}")
+    if first_fit is not fit and first_fit is not None:
+        shift_mV = (fit.e0 - first_fit.e0) * 1e3
+        notes.append(f"holding {', '.join(n for n in reasons if n not in fixed)} moved E° by "
+                     f"{shift_mV:+.3f} mV from the fit with every parameter free")
+
+    max_ionic = float(electrolyte.ionic_strength(data.molality).max())
+    if max_ionic > family.max_ionic_strength:
+        warnings.append(
+            f"the {family.title} is used up to I = {max_ionic:.3g} mol/kg, beyond the "
+            f"{family.max_ionic_strength:g} mol/kg where it is commonly adequate; "
+            "try another model"
+        )
+    stats = _statistics(fit, data)
+    if data.stated_uncertainty and stats.dof >= 3:
+        from scipy import stats as sps
+
+        p_value = float(sps.chi2.sf(fit.chi2, stats.dof))
+        if p_value < 0.01 or p_value > 0.99:
+            warnings.append(
+                f"reduced χ² = {stats.reduced_chi2:.3g} with {stats.dof} degrees of freedom is "
+                "inconsistent with the stated reading uncertainties "
+                f"(p = {p_value:.2g}); check u(EMF) or the model"
+            )
+
+    table, gamma_cov = _points_table(run, family, data, fit)
+    parameters = tuple(
+        FittedParameter(
+            name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
+            uncertainty=(math.sqrt(fit.covariance[fit.free.index(p.name) + 1,
+                                                   fit.free.index(p.name) + 1])
+                         if p.name in fit.free else math.nan),
+            fixed=p.name not in fit.free, reason=reasons.get(p.name),
+        )
+        for p in family.parameters
+    )
+    e0_value = correlated_values([fit.e0], fit.covariance[:1, :1])[0]
+    return Reduction(
+        run=run, model=family, temperature_K=float(np.mean(temperature)),
+        standard_potential=e0_value, parameters=parameters,
+        free_names=(E0, *fit.free), covariance=fit.covariance, statistics=stats,
+        points=table, gamma_covariance=gamma_cov,
+        linear_extrapolation=_linear_extrapolation(run, data),
+        warnings=tuple(warnings), notes=tuple(notes),
+    )
+
+
+def _statistics(fit: _Fit, data: _Data) -> FitStatistics:
+    n = len(data.emf_V)
+    return FitStatistics(
+        n_points=n, n_free=1 + len(fit.free), dof=fit.dof, chi2=fit.chi2,
+        reduced_chi2=fit.chi2 / fit.dof, aic=fit.aic, bic=fit.bic,
+        residual_sd_V=float(math.sqrt(np.sum(fit.residual_V**2) / fit.dof)),
+        covariance_scaled=not data.stated_uncertainty,
+        coverage_factor=student_t_factor(0 if data.stated_uncertainty else fit.dof),
+    )
+
+
+def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit
+                  ) -> tuple[pd.DataFrame, np.ndarray]:
+    """All rows of the run with fitted EMF, residual and γ± (measured and model)."""
+    electrolyte = run.metadata.electrolyte
+    s = sensitivity_matrix(fit.jacobian, data.weights)[0]
+    if data.stated_uncertainty:
+        reading_var = 1.0 / data.weights
+    else:
+        reading_var = np.full(len(data.emf_V), fit.chi2 / fit.dof)
+    usable = run.points["flag"].isna().to_numpy()
+    u_m = run.points.loc[usable, "u_molality_mol_kg"].to_numpy(float)
+    cov_ln = ln_gamma_covariance(s, reading_var, data.nernst_V, (u_m / data.molality) ** 2)
+    ln_gamma = (fit.e0 - data.emf_V) / data.nernst_V - data.ln_mean_molality
+    gamma = np.exp(ln_gamma)
+    gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]
+
+    ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, fit.values)
+    # Model γ± uncertainty from the parameter covariance: d ln γ / dθ = −(∂E/∂θ)/k.
+    grad = -fit.jacobian[:, 1:] / data.nernst_V[:, None]
+    cov_theta = fit.covariance[1:, 1:]
+    var_model = np.einsum("ij,jk,ik->i", grad, cov_theta, grad) if fit.free else np.zeros(
+        len(data.molality))
+
+    table = run.points.copy()
+    for column in ("fitted_emf_V", "residual_V", "ln_gamma_pm", "gamma_pm", "u_gamma_pm",
+                   "gamma_pm_model", "u_gamma_pm_model"):
+        table[column] = np.nan
+    table.loc[usable, "fitted_emf_V"] = data.emf_V - fit.residual_V
+    table.loc[usable, "residual_V"] = fit.residual_V
+    table.loc[usable, "ln_gamma_pm"] = ln_gamma
+    table.loc[usable, "gamma_pm"] = gamma
+    table.loc[usable, "u_gamma_pm"] = np.sqrt(np.diag(gamma_cov))
+    gamma_model = np.exp(ln_gamma_model)
+    table.loc[usable, "gamma_pm_model"] = gamma_model
+    table.loc[usable, "u_gamma_pm_model"] = gamma_model * np.sqrt(var_model)
+    return table, gamma_cov

@@ -1,0 +1,177 @@
+"""Figures of a reduction: the extrapolation to m = 0, the residuals, and γ± against √m.
+
+Each ``plot_*`` function draws on a given matplotlib ``Axes`` (or a new one) and returns it;
+:func:`render_figures` returns PNG bytes, so that nothing is written until every figure is made.
+matplotlib is imported only here, when a figure is wanted.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from ..electrolytes import nernst_factor
+from ..models.hueckel import BATES_GUGGENHEIM_BA
+from ..reduce import Reduction
+from ..reference.published import published_gamma
+from ..solvent import debye_hueckel_constants
+
+if TYPE_CHECKING:
+    from matplotlib.axes import Axes
+
+
+def _axes(ax: Axes | None) -> Axes:
+    if ax is not None:
+        return ax
+    from matplotlib.figure import Figure
+
+    return Figure(figsize=(6.4, 4.4), layout="constrained").add_subplot()
+
+
+def _ln_gamma_reference(reduction: Reduction, molality: np.ndarray,
+                        temperature_K: np.ndarray) -> np.ndarray:
+    """Extended Debye–Hückel ln γ± with Bå = 1.5, the term taken out in the extrapolation plot."""
+    electrolyte = reduction.electrolyte
+    sqrt_i = np.sqrt(electrolyte.ionic_strength(molality))
+    a_gamma = debye_hueckel_constants(temperature_K).agamma
+    return -electrolyte.charge_product * a_gamma * sqrt_i / (1.0 + BATES_GUGGENHEIM_BA * sqrt_i)
+
+
+def extrapolation_function_V(reduction: Reduction) -> tuple[np.ndarray, np.ndarray]:
+    """(m, y) at the readings: y = E + k ln m± + k ln γ_DH, which tends to E° as m → 0 [V]."""
+    points = reduction.points[reduction.points["gamma_pm"].notna()]
+    meta = reduction.run.metadata
+    m = points["molality_mol_kg"].to_numpy(float)
+    t = points["temperature_K"].to_numpy(float)
+    k = nernst_factor(meta.electrolyte, meta.electrons, t)
+    y = (points["emf_V"].to_numpy(float)
+         + k * (np.log(meta.electrolyte.mean_molality(m)) + _ln_gamma_reference(reduction, m, t)))
+    return m, y
+
+
+def _model_curve(reduction: Reduction, molality: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The fitted model in the coordinates of the extrapolation plot, and its standard
+    uncertainty from the parameter covariance [V]."""
+    meta = reduction.run.metadata
+    t = np.full(molality.shape, reduction.temperature_K)
+    k = nernst_factor(meta.electrolyte, meta.electrons, t)
+    constants = debye_hueckel_constants(t)
+    values = reduction.parameter_values
+    reference = _ln_gamma_reference(reduction, molality, t)
+
+    def curve(e0: float, trial: dict[str, float]) -> np.ndarray:
+        ln_gamma = reduction.model.ln_gamma(meta.electrolyte, molality, constants, trial)
+        return e0 - k * (ln_gamma - reference)
+
+    e0 = reduction.standard_potential.nominal_value
+    y = curve(e0, values)
+    gradient = [np.ones_like(molality)]
+    for name in reduction.free_names[1:]:
+        step = 1e-6 * max(1.0, abs(values[name]))
+        gradient.append((curve(e0, {**values, name: values[name] + step})
+                         - curve(e0, {**values, name: values[name] - step})) / (2 * step))
+    g = np.column_stack(gradient)
+    u = np.sqrt(np.einsum("ij,jk,ik->i", g, reduction.covariance, g))
+    return y, u
+
+
+def plot_extrapolation(reduction: Reduction, ax: Axes | None = None) -> Axes:
+    """The extrapolation to infinite dilution against √m, with the fit, its 95 % band and E°."""
+    ax = _axes(ax)
+    m, y = extrapolation_function_V(reduction)
+    stats = reduction.statistics
+    grid = np.linspace(0.0, float(m.max()) * 1.02, 300) ** 1.0
+    grid[0] = 1e-12
+    y_fit, u_fit = _model_curve(reduction, grid)
+    k95 = stats.coverage_factor
+    x_grid = np.sqrt(grid)
+    ax.fill_between(x_grid, (y_fit - k95 * u_fit) * 1e3, (y_fit + k95 * u_fit) * 1e3,
+                    color="tab:blue", alpha=0.2, lw=0, label="95 % band of the fit")
+    ax.plot(x_grid, y_fit * 1e3, color="tab:blue", label=f"fit: {reduction.model.title}")
+    ax.plot(np.sqrt(m), y * 1e3, "o", color="black", ms=4, label="readings")
+    cross = reduction.linear_extrapolation
+    if cross is not None:
+        m_line = np.linspace(0.0, cross.max_ionic_strength
+                             / reduction.electrolyte.ionic_strength_factor, 50)
+        m_line = m_line[m_line <= m.max()]
+        ax.plot(np.sqrt(m_line), (cross.standard_potential_V + cross.slope_V_kg_mol * m_line)
+                * 1e3, "--", color="tab:orange", label="straight-line cross-check")
+    e0 = reduction.standard_potential
+    ax.errorbar([0.0], [e0.nominal_value * 1e3], yerr=[k95 * e0.std_dev * 1e3], fmt="D",
+                color="tab:red", ms=6, capsize=4, zorder=5,
+                label=f"E° = {e0.nominal_value * 1e3:.{_places(e0.std_dev * 1e3)}f} mV")
+    ax.set_xlabel("√(m / (mol kg⁻¹))")
+    ax.set_ylabel("E + k ln m± + k ln γ(DH, Bå = 1.5) / mV")
+    ax.set_title(f"Extrapolation to infinite dilution — {reduction.electrolyte.formula}, "
+                 f"{reduction.temperature_K - 273.15:.2f} °C")
+    ax.legend(fontsize="small")
+    return ax
+
+
+def _places(u: float) -> int:
+    return max(0, 1 - math.floor(math.log10(u))) if u > 0 and math.isfinite(u) else 3
+
+
+def plot_residuals(reduction: Reduction, ax: Axes | None = None) -> Axes:
+    """Residuals E − Ê against molality (log scale) with the ±2u band."""
+    ax = _axes(ax)
+    points = reduction.points[reduction.points["residual_V"].notna()]
+    m = points["molality_mol_kg"].to_numpy(float)
+    r = points["residual_V"].to_numpy(float) * 1e3
+    stats = reduction.statistics
+    if stats.covariance_scaled:
+        s = stats.residual_sd_V * 1e3
+        ax.axhspan(-2 * s, 2 * s, color="tab:blue", alpha=0.15,
+                   label=f"±2s (residual s.d. {s:.2g} mV)")
+    else:
+        u = points["u_emf_V"].to_numpy(float) * 1e3
+        ax.fill_between(m, -2 * u, 2 * u, color="tab:blue", alpha=0.15, step="mid",
+                        label="±2u (stated reading uncertainty)")
+    ax.axhline(0.0, color="grey", lw=0.8)
+    ax.plot(m, r, "o", color="black", ms=4, label="residual")
+    ax.set_xscale("log")
+    ax.set_xlabel("m / (mol kg⁻¹)")
+    ax.set_ylabel("E − E(fit) / mV")
+    ax.set_title("Residuals")
+    ax.legend(fontsize="small")
+    return ax
+
+
+def plot_gamma(reduction: Reduction, ax: Axes | None = None) -> Axes:
+    """γ± from the readings against √m, the fitted model, and published values where known."""
+    ax = _axes(ax)
+    points = reduction.points[reduction.points["gamma_pm"].notna()]
+    m = points["molality_mol_kg"].to_numpy(float)
+    grid = np.linspace(1e-8, float(m.max()) * 1.02, 300)
+    ax.plot(np.sqrt(grid), np.exp(reduction.ln_gamma_model(grid)), color="tab:blue",
+            label=f"fit: {reduction.model.title}")
+    ax.errorbar(np.sqrt(m), points["gamma_pm"], yerr=2 * points["u_gamma_pm"], fmt="o",
+                color="black", ms=4, capsize=2, label="this run (±2u)")
+    table = published_gamma(reduction.electrolyte.formula, reduction.temperature_K)
+    if table is not None:
+        shown = table[table["molality_mol_kg"] <= m.max() * 1.5]
+        ax.plot(np.sqrt(shown["molality_mol_kg"]), shown["gamma_pm"], "s", mfc="none",
+                color="tab:green", label="published (see report)")
+    ax.set_xlabel("√(m / (mol kg⁻¹))")
+    ax.set_ylabel("γ±")
+    ax.set_title(f"Mean ionic activity coefficient — {reduction.electrolyte.formula}")
+    ax.legend(fontsize="small")
+    return ax
+
+
+FIGURES = {"extrapolation": plot_extrapolation, "residuals": plot_residuals,
+           "gamma": plot_gamma}
+
+
+def render_figures(reduction: Reduction, dpi: int = 110) -> dict[str, bytes]:
+    """Every figure as PNG bytes, by name (``extrapolation``, ``residuals``, ``gamma``)."""
+    rendered = {}
+    for name, draw in FIGURES.items():
+        ax = draw(reduction)
+        buffer = io.BytesIO()
+        ax.figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
+        rendered[name] = buffer.getvalue()
+    return rendered

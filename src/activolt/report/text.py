@@ -1,0 +1,89 @@
+"""The plain-text report of a reduction, as printed by ``activolt reduce``."""
+
+from __future__ import annotations
+
+import math
+
+from ..reduce import Reduction
+from .cautions import cautions_for
+from .comparison import compare_with_published
+from .numbers import decimals_for, format_with_uncertainty
+
+
+def _e0_line(reduction: Reduction) -> str:
+    e0 = reduction.standard_potential
+    stats = reduction.statistics
+    u_mV = e0.std_dev * 1e3
+    expanded = stats.coverage_factor * u_mV
+    basis = reduction.run.metadata.standard_pressure_Pa / 1e3
+    return (f"E° = {format_with_uncertainty(e0.nominal_value * 1e3, u_mV, 'mV')} (k = 1); "
+            f"95 % interval ± {expanded:.{decimals_for(expanded)}f} mV "
+            f"(k = {stats.coverage_factor:.2f}); basis p° = {basis:g} kPa")
+
+
+def format_report(reduction: Reduction) -> str:
+    """A short report: E° ± u, the model, the fit, γ± at each point, warnings and cautions."""
+    run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
+    t_C = reduction.temperature_K - 273.15
+    lines = [
+        f"activolt reduction of {run.path.name}",
+        f"  electrolyte {meta.electrolyte.formula} ({meta.electrolyte.charge_type}), "
+        f"n = {meta.electrons}, t = {t_C:.2f} °C, {stats.n_points} readings used"
+        + (f" of {len(run.points)}" if len(run.points) != stats.n_points else ""),
+        f"  model: {reduction.model.title}",
+        "",
+        "  " + _e0_line(reduction),
+    ]
+    for p in reduction.parameters:
+        shown = format_with_uncertainty(p.value, p.uncertainty, p.unit)
+        lines.append(f"  {p.symbol} = {shown}" + (f" — {p.reason}" if p.fixed and p.reason
+                                                   else ""))
+    weighting = ("weights from the stated reading uncertainties; covariance not scaled"
+                 if not stats.covariance_scaled else
+                 "unit weights; covariance scaled by the reduced χ² "
+                 f"(residual s.d. {stats.residual_sd_V * 1e3:.3g} mV)")
+    lines += [
+        f"  fit: χ² = {stats.chi2:.4g}, reduced χ² = {stats.reduced_chi2:.3g}, "
+        f"{stats.dof} degrees of freedom, AIC = {stats.aic:.1f}, BIC = {stats.bic:.1f}",
+        f"  {weighting}",
+    ]
+    cross = reduction.linear_extrapolation
+    if cross is not None:
+        difference = (cross.standard_potential_V - reduction.standard_potential.nominal_value)
+        lines.append(
+            "  cross-check, straight-line extrapolation (extended Debye–Hückel, Bå = 1.5, "
+            f"{cross.n_points} points with I ≤ {cross.max_ionic_strength:g} mol/kg): E° = "
+            + format_with_uncertainty(cross.standard_potential_V * 1e3,
+                                      cross.u_standard_potential_V * 1e3, "mV")
+            + f" ({difference * 1e3:+.3f} mV from the fit)"
+        )
+    lines += ["", "  m / (mol/kg)   E / mV      residual / mV   γ± (u)"]
+    for _, row in reduction.points.iterrows():
+        if isinstance(row["flag"], str):
+            lines.append(f"  {row['molality_mol_kg']:<13.6g}  {'—':<10}  {'':<14}  "
+                         f"flagged: {row['flag']}")
+            continue
+        gamma = format_with_uncertainty(row["gamma_pm"], row["u_gamma_pm"])
+        lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['emf_V'] * 1e3:<10.3f}  "
+                     f"{row['residual_V'] * 1e3:<+14.4f}  {gamma}")
+    comparison = compare_with_published(reduction)
+    if comparison is not None:
+        lines += ["", "  γ± against published values (i = interpolated between table entries)",
+                  "  m / (mol/kg)   this run   published   difference"]
+        for _, row in comparison.iterrows():
+            if math.isnan(row["gamma_pm_published"]):
+                continue
+            places = max(3, decimals_for(row["u_gamma_pm"]))
+            mark = "i" if row["interpolated"] else " "
+            lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['gamma_pm']:<9.{places}f}  "
+                         f"{row['gamma_pm_published']:<9.3f}{mark}  "
+                         f"{row['difference']:+.{places}f}")
+        lines.append(f"  published: {comparison['source'].iloc[0]}")
+    if reduction.notes:
+        lines += [""] + [f"  note: {n}" for n in reduction.notes]
+    if reduction.warnings:
+        lines += [""] + [f"  warning: {w}" for w in reduction.warnings]
+    cautions = cautions_for(meta.electrolyte, meta.cell)
+    if cautions:
+        lines += ["", "  safety:"] + [f"  - {c}" for c in cautions]
+    return "\n".join(lines) + "\n"

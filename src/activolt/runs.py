@@ -1,0 +1,494 @@
+"""Reading and validating a run: the table of readings (CSV) and its metadata (TOML).
+
+The contract is in ``shared/design.md`` and the README: one row per solution measured, units in
+the column names, metadata next to the table with the same stem. Every problem is reported as an
+:class:`~activolt.errors.InputError` naming the file, the line and the column and saying what to
+do. Inputs are never modified.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import math
+import re
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
+from .electrolytes import Electrolyte, parse_electrolyte
+from .errors import InputError
+
+#: Columns the reader understands, each with its unit as written in the name.
+KNOWN_COLUMNS: tuple[str, ...] = (
+    "molality_mol_kg", "emf_V", "emf_mV", "u_emf_V", "u_emf_mV", "u_molality_mol_kg",
+    "temperature_C", "temperature_K", "pressure_kPa", "electrode", "series", "note",
+)
+#: Columns read now but whose values the reduction does not use yet (named in a warning).
+NOT_YET_USED_COLUMNS: tuple[str, ...] = ("pressure_kPa",)
+#: Metadata keys the reader understands.
+KNOWN_METADATA_KEYS: tuple[str, ...] = (
+    "electrolyte", "electrons", "temperature_C", "temperature_K", "cell",
+    "standard_pressure_kPa", "lab", "operator", "instrument", "date", "description",
+    "electrode", "notes",
+)
+_TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
+                       "notes")
+_LIQUID_WATER_C = (0.0, 100.0)
+_LARGEST_MOLALITY_MOL_KG = 30.0
+_LARGEST_EMF_V = 5.0
+_PRESSURE_RANGE_KPA = (50.0, 150.0)
+_MISSING = {"", "nan", "na", "n/a", "-"}
+
+
+@dataclass(frozen=True)
+class RunMetadata:
+    """What the cell is and at which conditions it was measured.
+
+    Attributes
+    ----------
+    electrolyte : Electrolyte
+        The electrolyte formed by the cell reaction.
+    electrons : int
+        n, electrons per formula unit formed [-].
+    standard_pressure_Pa : float
+        The pressure basis of E° [Pa]: 100 000 (IUPAC) or 101 325 (older tables).
+    temperature_K : float or None
+        The run temperature from the metadata [K]; per-row values in the table win.
+    cell : str or None
+        The cell diagram as written, if given.
+    info : dict
+        Descriptive text (lab, operator, instrument, date, description, …), kept in the record.
+    """
+
+    electrolyte: Electrolyte
+    electrons: int
+    standard_pressure_Pa: float = STANDARD_PRESSURE_PA
+    temperature_K: float | None = None
+    cell: str | None = None
+    info: Mapping[str, str] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Run:
+    """A validated run: the readings in SI units, the metadata and what the reader noticed.
+
+    Attributes
+    ----------
+    path : pathlib.Path
+        The run table.
+    sha256 : str
+        SHA-256 of the run table's bytes, for the record.
+    metadata_path : pathlib.Path or None
+        The metadata file, if one was read.
+    points : pandas.DataFrame
+        One row per solution: ``line`` (in the file), ``molality_mol_kg``, ``emf_V`` (NaN where
+        the reading is missing), ``u_emf_V`` (NaN when not given), ``u_molality_mol_kg`` (0 when
+        not given), ``temperature_K``, ``pressure_Pa`` (NaN when not given), ``electrode``,
+        ``series``, ``note`` and ``flag`` (None, or why the point cannot be used).
+    metadata : RunMetadata
+    warnings : tuple of str
+        What the user should know about the input (unused columns, flagged rows, …).
+    """
+
+    path: Path
+    sha256: str
+    metadata_path: Path | None
+    points: pd.DataFrame
+    metadata: RunMetadata
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def emf_uncertainty_given(self) -> bool:
+        """Whether every usable reading has a stated standard uncertainty."""
+        usable = self.points["flag"].isna()
+        return bool(usable.any() and self.points.loc[usable, "u_emf_V"].notna().all())
+
+
+def _decode(path: Path, raw: bytes) -> str:
+    try:
+        return raw.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        line = raw[: error.start].count(b"\n") + 1
+        raise InputError(
+            "the file is not UTF-8 text; save it as UTF-8 (CSV UTF-8) and try again",
+            file=str(path), line=line,
+        ) from None
+
+
+def _number(text: str, decimal_comma: bool, path: Path, line: int, column: str) -> float:
+    cleaned = text.strip()
+    if decimal_comma:
+        cleaned = cleaned.replace(",", ".")
+    try:
+        value = float(cleaned)
+    except ValueError:
+        raise InputError(
+            f"'{text.strip()}' is not a number; write a plain decimal number"
+            + (" (decimal comma or point)" if decimal_comma else " with a decimal point"),
+            file=str(path), line=line, column=column,
+        ) from None
+    if math.isinf(value):
+        raise InputError(f"'{text.strip()}' is not a finite number", file=str(path), line=line,
+                         column=column)
+    return value
+
+
+def _rows(path: Path, text: str) -> tuple[int, list[str], list[tuple[int, list[str]]], bool]:
+    """Header line number, column names, data rows with their line numbers, decimal comma."""
+    numbered = [(i + 1, line) for i, line in enumerate(text.splitlines())]
+    content = [(n, line) for n, line in numbered
+               if line.strip() and not line.lstrip().startswith("#")]
+    if not content:
+        raise InputError("the run table is empty; it needs a header line and one row per "
+                         "solution", file=str(path))
+    header_line, header = content[0]
+    separator = ";" if header.count(";") > header.count(",") else ","
+    reader = csv.reader([line for _, line in content], delimiter=separator)
+    parsed = list(reader)
+    names = [name.strip() for name in parsed[0]]
+    rows = [(n, fields) for (n, _), fields in zip(content[1:], parsed[1:], strict=True)]
+    return header_line, names, rows, separator == ";"
+
+
+def _check_columns(path: Path, header_line: int, names: list[str]) -> list[str]:
+    warnings: list[str] = []
+    seen: set[str] = set()
+    for name in names:
+        if name == "":
+            raise InputError("a column has no name; name every column in the header",
+                             file=str(path), line=header_line)
+        if name in seen:
+            raise InputError("the column appears twice; keep one of them", file=str(path),
+                             line=header_line, column=name)
+        seen.add(name)
+    for name in names:
+        if name not in KNOWN_COLUMNS:
+            lowered = {k.lower(): k for k in KNOWN_COLUMNS}
+            hint = f" (did you mean '{lowered[name.lower()]}'?)" if name.lower() in lowered else ""
+            warnings.append(f"column '{name}' is not one activolt reads; it is ignored{hint}")
+        elif name in NOT_YET_USED_COLUMNS:
+            warnings.append(
+                f"column '{name}' is read and kept in the points table but not used in the "
+                "reduction yet (no gas-pressure correction is applied)"
+            )
+    if "molality_mol_kg" not in seen:
+        raise InputError("the column 'molality_mol_kg' is missing; add it (molality in mol/kg)",
+                         file=str(path), line=header_line)
+    for group, what in ((("emf_V", "emf_mV"), "the EMF"), (("u_emf_V", "u_emf_mV"), "u(EMF)"),
+                        (("temperature_C", "temperature_K"), "the temperature")):
+        present = [g for g in group if g in seen]
+        if len(present) > 1:
+            raise InputError(f"both '{present[0]}' and '{present[1]}' give {what}; keep one",
+                             file=str(path), line=header_line, column=present[1])
+    if "emf_V" not in seen and "emf_mV" not in seen:
+        raise InputError("no EMF column; add 'emf_V' (volts) or 'emf_mV' (millivolts)",
+                         file=str(path), line=header_line)
+    return warnings
+
+
+def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
+    header_line, names, rows, decimal_comma = _rows(path, text)
+    warnings = _check_columns(path, header_line, names)
+    if not rows:
+        raise InputError("the run table has a header but no readings", file=str(path),
+                         line=header_line)
+    emf_column = "emf_V" if "emf_V" in names else "emf_mV"
+    emf_scale = 1.0 if emf_column == "emf_V" else 1e-3
+    u_emf_column = next((c for c in ("u_emf_V", "u_emf_mV") if c in names), None)
+    u_emf_scale = 1.0 if u_emf_column == "u_emf_V" else 1e-3
+    temperature_column = next((c for c in ("temperature_C", "temperature_K") if c in names), None)
+
+    records: list[dict[str, Any]] = []
+    for line, fields in rows:
+        if len(fields) != len(names):
+            raise InputError(
+                f"the row has {len(fields)} fields but the header names {len(names)} columns; "
+                "check for a missing or extra separator"
+                + (" (with ';' as separator, write decimal commas without quotes)"
+                   if decimal_comma else " (a decimal comma needs ';' as separator)"),
+                file=str(path), line=line,
+            )
+        cells = dict(zip(names, fields, strict=True))
+
+        def number(column: str, cells: dict[str, str] = cells, line: int = line) -> float:
+            return _number(cells[column], decimal_comma, path, line, column)
+
+        def is_missing(column: str, cells: dict[str, str] = cells) -> bool:
+            return cells[column].strip().lower() in _MISSING
+
+        record: dict[str, Any] = {"line": line, "flag": None}
+        if is_missing("molality_mol_kg"):
+            raise InputError("the molality is empty; give the molality of every solution",
+                             file=str(path), line=line, column="molality_mol_kg")
+        molality = number("molality_mol_kg")
+        if molality <= 0.0:
+            raise InputError(f"molality {molality:g} mol/kg is not positive; a dilution series "
+                             "needs molalities > 0", file=str(path), line=line,
+                             column="molality_mol_kg")
+        if molality > _LARGEST_MOLALITY_MOL_KG:
+            raise InputError(f"molality {molality:g} mol/kg is implausibly large (> "
+                             f"{_LARGEST_MOLALITY_MOL_KG:g}); check the unit (mol/kg)",
+                             file=str(path), line=line, column="molality_mol_kg")
+        record["molality_mol_kg"] = molality
+
+        if is_missing(emf_column):
+            record["emf_V"] = math.nan
+            record["flag"] = "no reading"
+        else:
+            emf = number(emf_column) * emf_scale
+            if abs(emf) > _LARGEST_EMF_V:
+                hint = ("it looks like millivolts in a volt column; name the column 'emf_mV'"
+                        if emf_column == "emf_V" else "check the unit of the column")
+                raise InputError(f"EMF {emf:g} V is implausible for a cell (> {_LARGEST_EMF_V:g}"
+                                 f" V); {hint}", file=str(path), line=line, column=emf_column)
+            record["emf_V"] = emf
+
+        u_emf = math.nan
+        if u_emf_column is not None and not is_missing(u_emf_column):
+            u_emf = number(u_emf_column) * u_emf_scale
+            if u_emf <= 0.0:
+                raise InputError("a standard uncertainty must be positive; leave the cell empty "
+                                 "if it is not known", file=str(path), line=line,
+                                 column=u_emf_column)
+        record["u_emf_V"] = u_emf
+
+        u_molality = 0.0
+        if "u_molality_mol_kg" in cells and not is_missing("u_molality_mol_kg"):
+            u_molality = number("u_molality_mol_kg")
+            if u_molality < 0.0 or u_molality >= molality:
+                raise InputError("u(molality) must be ≥ 0 and smaller than the molality",
+                                 file=str(path), line=line, column="u_molality_mol_kg")
+        record["u_molality_mol_kg"] = u_molality
+
+        temperature_K = math.nan
+        if temperature_column is not None and not is_missing(temperature_column):
+            value = number(temperature_column)
+            temperature_K = value + ZERO_CELSIUS_K if temperature_column.endswith("C") else value
+            _check_temperature(temperature_K, path, line, temperature_column)
+        record["temperature_K"] = temperature_K
+
+        pressure_Pa = math.nan
+        if "pressure_kPa" in cells and not is_missing("pressure_kPa"):
+            pressure_kPa = number("pressure_kPa")
+            low, high = _PRESSURE_RANGE_KPA
+            if not low <= pressure_kPa <= high:
+                raise InputError(f"barometric pressure {pressure_kPa:g} kPa is implausible "
+                                 f"(expected {low:g}–{high:g} kPa); check the unit (kPa)",
+                                 file=str(path), line=line, column="pressure_kPa")
+            pressure_Pa = pressure_kPa * 1e3
+        record["pressure_Pa"] = pressure_Pa
+        for text_column in ("electrode", "series", "note"):
+            record[text_column] = cells[text_column].strip() if text_column in cells else ""
+        records.append(record)
+
+    points = pd.DataFrame.from_records(records)
+    if emf_column == "emf_mV":
+        usable = points["emf_V"].dropna()
+        if len(usable) and (usable.abs() < 5e-3).all():
+            raise InputError("every reading is below 5 mV in magnitude; if the values are "
+                             "volts, name the column 'emf_V'", file=str(path),
+                             line=header_line, column="emf_mV")
+    missing = points.loc[points["flag"].notna(), "line"].tolist()
+    if missing:
+        warnings.append(
+            f"{len(missing)} row(s) have no reading (line(s) {', '.join(map(str, missing))}); "
+            "they are kept in the record, flagged, and left out of the fit"
+        )
+    return points, warnings
+
+
+def _check_temperature(temperature_K: float, path: Path, line: int | None, column: str) -> None:
+    low, high = _LIQUID_WATER_C
+    if not low < temperature_K - ZERO_CELSIUS_K <= high:
+        raise InputError(
+            f"temperature {temperature_K - ZERO_CELSIUS_K:.2f} °C is outside liquid water "
+            f"({low:g}–{high:g} °C); check the value and its unit (°C or K)",
+            file=str(path), line=line, column=column,
+        )
+
+
+def _key_line(text: str, key: str) -> int | None:
+    match = re.search(rf"^\s*{re.escape(key)}\s*=", text, flags=re.MULTILINE)
+    return text[: match.start()].count("\n") + 1 if match else None
+
+
+def _read_metadata_text(path: Path) -> tuple[dict[str, Any], str]:
+    try:
+        text = _decode(path, path.read_bytes())
+    except OSError as error:
+        raise InputError(f"cannot read the metadata file ({error.strerror}); check the path",
+                         file=str(path)) from None
+    try:
+        return tomllib.loads(text), text
+    except tomllib.TOMLDecodeError as error:
+        found = re.search(r"line (\d+), column (\d+)", str(error))
+        problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", str(error))
+        raise InputError(
+            f"the metadata is not valid TOML ({problem}"
+            + (f", at character {found.group(2)}" if found else "")
+            + "); write it as key = value lines, text in double quotes",
+            file=str(path), line=int(found.group(1)) if found else None,
+        ) from None
+
+
+def _metadata(
+    meta: Mapping[str, Any], text: str, path: Path | None, overrides: Mapping[str, Any]
+) -> tuple[RunMetadata, list[str]]:
+    where = str(path) if path is not None else "command line"
+    warnings: list[str] = []
+    for key in meta:
+        if key not in KNOWN_METADATA_KEYS:
+            warnings.append(f"{where}: key '{key}' is not one activolt reads; it is ignored")
+    merged = {**meta, **{k: v for k, v in overrides.items() if v is not None}}
+
+    def fail(key: str, problem: str) -> InputError:
+        from_file = key in meta and key not in overrides
+        return InputError(problem, file=where if from_file else "command line",
+                          line=_key_line(text, key) if from_file else None,
+                          column=key)
+
+    if "electrolyte" not in merged:
+        raise InputError("the electrolyte is not given; add electrolyte = \"HCl\" (for example) "
+                         "to the metadata or give --electrolyte", file=where)
+    if not isinstance(merged["electrolyte"], str):
+        raise fail("electrolyte", "electrolyte must be a formula in double quotes, e.g. \"HCl\"")
+    try:
+        electrolyte = parse_electrolyte(merged["electrolyte"])
+    except ValueError as error:
+        raise fail("electrolyte", str(error)) from None
+
+    if "electrons" not in merged:
+        raise InputError("the number of electrons is not given; add electrons = 1 (for example) "
+                         "to the metadata or give --electrons", file=where)
+    electrons = merged["electrons"]
+    if isinstance(electrons, bool) or not isinstance(electrons, int) or electrons < 1:
+        raise fail("electrons", f"electrons must be a whole number ≥ 1 (n per formula unit), "
+                                f"got {electrons!r}")
+
+    temperature_K = None
+    if "temperature_C" in merged and "temperature_K" in merged:
+        raise fail("temperature_K", "give temperature_C or temperature_K, not both")
+    for key, offset in (("temperature_C", ZERO_CELSIUS_K), ("temperature_K", 0.0)):
+        if key in merged:
+            value = merged[key]
+            if isinstance(value, bool) or not isinstance(value, int | float):
+                raise fail(key, f"{key} must be a number, got {value!r}")
+            temperature_K = float(value) + offset
+            try:
+                _check_temperature(temperature_K, Path(where), None, key)
+            except InputError as error:
+                raise fail(key, error.problem) from None
+
+    pressure_kPa = merged.get("standard_pressure_kPa", STANDARD_PRESSURE_PA / 1e3)
+    if isinstance(pressure_kPa, bool) or not isinstance(pressure_kPa, int | float) or not any(
+        math.isclose(pressure_kPa, p / 1e3) for p in (STANDARD_PRESSURE_PA, ATMOSPHERE_PA)
+    ):
+        raise fail("standard_pressure_kPa",
+                   f"standard_pressure_kPa must be 100 (IUPAC) or 101.325 (1 atm), got "
+                   f"{pressure_kPa!r}")
+
+    cell = merged.get("cell")
+    if cell is not None and not isinstance(cell, str):
+        raise fail("cell", "cell must be a cell diagram in double quotes")
+    info = {k: str(merged[k]) for k in _TEXT_METADATA_KEYS if k in merged}
+    metadata = RunMetadata(
+        electrolyte=electrolyte, electrons=electrons,
+        standard_pressure_Pa=float(pressure_kPa) * 1e3, temperature_K=temperature_K,
+        cell=cell, info=info,
+    )
+    return metadata, warnings
+
+
+def read_run(
+    path: str | Path,
+    metadata_path: str | Path | None = None,
+    overrides: Mapping[str, Any] | None = None,
+    series: str | None = None,
+) -> Run:
+    """Read and validate a run table and its metadata.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The run table (CSV; comma or semicolon separated, ``#`` comment lines).
+    metadata_path : str or pathlib.Path, optional
+        The metadata (TOML). Default: the table's path with the suffix ``.toml``.
+    overrides : mapping, optional
+        Metadata given on the command line (``electrolyte``, ``electrons``, ``temperature_C``,
+        ``temperature_K``, ``standard_pressure_kPa``); they win over the file.
+    series : str, optional
+        Which series to take when the table's ``series`` column names several.
+
+    Returns
+    -------
+    Run
+
+    Raises
+    ------
+    InputError
+        For every problem with the input, naming file, line and column.
+    """
+    path = Path(path)
+    overrides = dict(overrides or {})
+    try:
+        raw = path.read_bytes()
+    except OSError as error:
+        raise InputError(f"cannot read the run table ({error.strerror}); check the path",
+                         file=str(path)) from None
+    points, warnings = _read_table(path, _decode(path, raw))
+
+    if metadata_path is None and path.with_suffix(".toml").is_file():
+        metadata_path = path.with_suffix(".toml")
+    if metadata_path is not None:
+        metadata_path = Path(metadata_path)
+        meta, text = _read_metadata_text(metadata_path)
+    elif {"electrolyte", "electrons"} <= {k for k, v in overrides.items() if v is not None}:
+        meta, text = {}, ""
+    else:
+        raise InputError(
+            f"no metadata: write {path.with_suffix('.toml').name} next to the table (electrolyte,"
+            " electrons, temperature_C), or give --meta FILE, or --electrolyte and --electrons",
+            file=str(path),
+        )
+    metadata, meta_warnings = _metadata(meta, text, metadata_path, overrides)
+    warnings.extend(meta_warnings)
+
+    missing_temperature = points["temperature_K"].isna()
+    if missing_temperature.any():
+        if metadata.temperature_K is None:
+            line = int(points.loc[missing_temperature, "line"].iloc[0])
+            raise InputError("no temperature for this row; add temperature_C to the metadata or "
+                             "a temperature_C column", file=str(path), line=line)
+        points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
+
+    names = sorted(set(points["series"]))
+    if series is not None:
+        if series not in names:
+            raise InputError(f"there is no series '{series}'; the table has: "
+                             f"{', '.join(n or '(unnamed)' for n in names)}", file=str(path),
+                             column="series")
+        points = points[points["series"] == series].reset_index(drop=True)
+    elif len(names) > 1:
+        raise InputError(f"the table holds {len(names)} series ({', '.join(names)}); choose one "
+                         "with --series NAME", file=str(path), column="series")
+    points["flag"] = points["flag"].astype(object)
+    return Run(
+        path=path, sha256=hashlib.sha256(raw).hexdigest(), metadata_path=metadata_path,
+        points=points, metadata=metadata, warnings=tuple(warnings),
+    )
+
+
+def usable_points(run: Run) -> pd.DataFrame:
+    """The rows of ``run`` that enter the fit (no flag)."""
+    return run.points[run.points["flag"].isna()].reset_index(drop=True)
+
+
+__all__ = ["KNOWN_COLUMNS", "KNOWN_METADATA_KEYS", "Run", "RunMetadata", "read_run",
+           "usable_points"]
+

@@ -1,0 +1,65 @@
+"""Make the demo run of the (invented) Kestrel Bay Electrochemistry Laboratory.
+
+A Harned cell Pt | H2(g, 1 atm) | HCl(aq, m) | AgCl(s) | Ag(s) at 25 °C over 15 molalities from
+0.001 to 1 mol/kg. The "true" γ± are the published HCl values shipped with activolt
+(interpolated between table entries), E° = 0.22234 V (Bates & Bower 1954, 1 atm basis), and the
+readings carry normal noise of 0.02 mV, the stated reading uncertainty. Demo data only: never a
+check value. Run from the project root:  .venv/bin/python sample_data/make_sample_run.py
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from activolt.electrolytes import nernst_factor, parse_electrolyte
+from activolt.reference.published import interpolate_gamma, published_gamma
+
+HERE = Path(__file__).resolve().parent
+STEM = "kestrel_hcl_25C"
+E0_V = 0.22234
+TEMPERATURE_K = 298.15
+NOISE_V = 0.02e-3
+MOLALITIES = (0.001, 0.002, 0.003, 0.005, 0.007, 0.01, 0.02, 0.03, 0.05, 0.07, 0.1, 0.2, 0.3,
+              0.5, 0.7, 1.0)
+NO_READING = 0.007  # a solution whose reading was lost, to show a flagged row
+
+
+def main() -> None:
+    hcl = parse_electrolyte("HCl")
+    m = np.array(MOLALITIES)
+    gamma = interpolate_gamma(published_gamma("HCl", TEMPERATURE_K), m, hcl, TEMPERATURE_K)
+    k = float(nernst_factor(hcl, 1, TEMPERATURE_K))
+    rng = np.random.default_rng(20261202)
+    emf_V = E0_V - k * np.log(m * gamma) + rng.normal(0.0, NOISE_V, m.size)
+    lines = [
+        "# Kestrel Bay Electrochemistry Laboratory — Harned cell dilution series, HCl, 25 °C",
+        "# Cell: Pt | H2(g) | HCl(aq, m) | AgCl(s) | Ag(s); readings corrected to 1 atm H2.",
+        "# Demo data made by make_sample_run.py (invented lab and electrodes).",
+        "molality_mol_kg,emf_mV,u_emf_mV,electrode,note",
+    ]
+    for i, (molality, emf) in enumerate(zip(m, emf_V, strict=True)):
+        electrode = f"KB-AgCl-{7 + i % 3:02d}"
+        if molality == NO_READING:
+            lines.append(f"{molality:.4f},,0.020,{electrode},cell drifted; no stable reading")
+        else:
+            lines.append(f"{molality:.4f},{emf * 1e3:.3f},0.020,{electrode},")
+    (HERE / f"{STEM}.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    (HERE / f"{STEM}.toml").write_text(
+        '# Run metadata for kestrel_hcl_25C.csv (invented lab, demo only)\n'
+        'electrolyte = "HCl"\n'
+        "electrons = 1\n"
+        "temperature_C = 25.0\n"
+        "standard_pressure_kPa = 101.325  # readings corrected to 1 atm hydrogen\n"
+        'lab = "Kestrel Bay Electrochemistry Laboratory"\n'
+        'operator = "R. Okonkwo-Lind"\n'
+        'instrument = "KB-DVM-2 electrometer, input impedance > 10^13 ohm"\n'
+        'date = "2026-11-18"\n'
+        'description = "Ag|AgCl batch KB-AgCl-07..09 acceptance run"\n',
+        encoding="utf-8",
+    )
+
+
+if __name__ == "__main__":
+    main()
