@@ -22,7 +22,7 @@ def standard_gibbs_energy_kJ_mol(standard_potential_V: AffineScalarFunc | float,
     Harned cell, E° = 0.22234 V (Bates & Bower 1954), n = 1:
 
     >>> round(standard_gibbs_energy_kJ_mol(0.22234, 1), 3)
-    -21.452
+    -21.453
     """
     return -electrons * FARADAY_C_MOL * standard_potential_V / 1e3
 
