@@ -8,12 +8,6 @@ from typing import Final
 
 CODATA_YEAR: Final = 2018
 
-#: Molar gas constant R [J mol⁻¹ K⁻¹] (exact since the 2019 SI).
-GAS_CONSTANT_J_MOL_K: Final = 8.314462618
-
-#: Faraday constant F [C mol⁻¹] (exact since the 2019 SI).
-FARADAY_C_MOL: Final = 96485.33212
-
 #: Avogadro constant N_A [mol⁻¹] (exact).
 AVOGADRO_PER_MOL: Final = 6.02214076e23
 
@@ -22,6 +16,12 @@ ELEMENTARY_CHARGE_C: Final = 1.602176634e-19
 
 #: Boltzmann constant k_B [J K⁻¹] (exact).
 BOLTZMANN_J_K: Final = 1.380649e-23
+
+#: Molar gas constant R = N_A k_B = 8.314 462 618… J mol⁻¹ K⁻¹ (exact since the 2019 SI).
+GAS_CONSTANT_J_MOL_K: Final = AVOGADRO_PER_MOL * BOLTZMANN_J_K
+
+#: Faraday constant F = N_A e = 96 485.332 12… C mol⁻¹ (exact since the 2019 SI).
+FARADAY_C_MOL: Final = AVOGADRO_PER_MOL * ELEMENTARY_CHARGE_C
 
 #: Vacuum electric permittivity ε₀ [F m⁻¹] (CODATA 2018).
 VACUUM_PERMITTIVITY_F_M: Final = 8.8541878128e-12

@@ -5,8 +5,9 @@ For each usable reading i,
 .. math:: E_i = E° − k_i [\\ln m_{±,i} + \\ln γ_±(m_i; θ)], \\qquad k_i = ν R T_i / (n F)
 
 is fitted by weighted non-linear least squares (lmfit) in E° and the free model parameters θ.
-A parameter the data cannot determine (too few points, at a bound, relative standard uncertainty
-beyond a limit, or a linear term not distinguishable from zero) is held at its conventional value
+A parameter the data cannot determine (too few points, a fit that runs to a bound or leaves a
+non-linear parameter with a relative standard uncertainty beyond 50 %, or a parameter whose
+fitting does not lower the Bayesian information criterion) is held at its conventional value
 and the result says which and why. γ± at each point then follows from the measured E_i and the
 fitted E°, with the covariance propagated as in :mod:`activolt.uncertainty`. A Hitchcock-type
 linearised extrapolation is computed beside it as a cross-check.
@@ -30,6 +31,9 @@ from .models.hueckel import BATES_GUGGENHEIM_BA
 from .runs import Run, usable_points
 from .solvent import DebyeHueckelConstants, debye_hueckel_constants
 from .uncertainty import ln_gamma_covariance, sensitivity_matrix, student_t_factor
+
+__all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction", "reduce_run",
+           "sensitivity_matrix"]
 
 E0 = "standard_potential_V"
 #: Largest spread of temperatures in one run that is reduced to one E° [K].
@@ -249,35 +253,61 @@ def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
                        "with --fix")
     if not data.stated_uncertainty:
         covariance = covariance * chi2 / dof
+    aic, bic = _information_criteria(chi2, len(data.emf_V), 1 + len(free),
+                                     data.stated_uncertainty)
     return _Fit(e0=e0, values=fitted, free=list(free), covariance=covariance, chi2=chi2, dof=dof,
-                aic=float(result.aic), bic=float(result.bic), residual_V=residual_V,
+                aic=aic, bic=bic, residual_V=residual_V,
                 jacobian=jac)
 
 
-def _undetermined(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
-    """The parameter to hold next and why, or None when every free parameter is determined."""
-    worst: tuple[float, str, str] | None = None
+def _information_criteria(chi2: float, n: int, n_free: int, stated: bool) -> tuple[float, float]:
+    """(AIC, BIC) of a least-squares fit with ``n_free`` adjustable parameters.
+
+    With stated reading uncertainties the likelihood is known up to a constant and the criteria
+    are χ² + 2p and χ² + p ln n; with unit weights the variance is estimated too and they are
+    n ln(χ²/n) + 2p and n ln(χ²/n) + p ln n (Burnham & Anderson 2002, Model Selection and
+    Multimodel Inference, §2.2).
+    """
+    base = chi2 if stated else n * math.log(chi2 / n)
+    return base + 2.0 * n_free, base + n_free * math.log(n)
+
+
+def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
+    """A free parameter that ran to a bound or whose uncertainty is not finite, and why."""
     for index, name in enumerate(fit.free, start=1):
         spec = model.parameter(name)
-        value, u = fit.values[name], math.sqrt(fit.covariance[index, index])
-        span = spec.maximum - spec.minimum if math.isfinite(spec.maximum - spec.minimum) else 1.0
+        value, variance = fit.values[name], fit.covariance[index, index]
+        span = spec.maximum - spec.minimum
+        span = span if math.isfinite(span) else 1.0
         if min(abs(value - spec.minimum), abs(spec.maximum - value)) < 1e-4 * span:
             return name, f"the fit ran to the bound {value:g} {spec.unit}"
-        if spec.linear:
-            ratio = u / abs(value) if value != 0.0 else math.inf
-            reason = (f"not distinguishable from zero with these data "
-                      f"({value:.3g} ± {u:.2g} {spec.unit})")
-            limit = 1.0
-        else:
-            ratio = u / abs(value) if value != 0.0 else math.inf
-            reason = (f"not determined by these data ({value:.3g} ± {u:.2g} {spec.unit})")
-            limit = MAX_RELATIVE_UNCERTAINTY
-        # Non-linear parameters are held before linear ones.
-        score = ratio / limit + (0.0 if spec.linear else 1e-9)
-        if ratio > limit and (worst is None or (not spec.linear, score) > (
-                not model.parameter(worst[1]).linear, worst[0])):
-            worst = (score, name, reason)
-    return None if worst is None else (worst[1], worst[2])
+        if not math.isfinite(variance) or variance <= 0.0:
+            return name, "its uncertainty cannot be estimated from these data"
+        u = math.sqrt(variance)
+        if not spec.linear and u > MAX_RELATIVE_UNCERTAINTY * abs(value):
+            return name, f"not determined by these data ({value:.3g} ± {u:.2g} {spec.unit})"
+    return None
+
+
+def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+                   fit: _Fit, values: dict[str, float]) -> tuple[str, str] | None:
+    """A free parameter whose fitting the data do not support (BIC no better than holding it
+    at its conventional value), non-linear parameters first; and why."""
+    order = sorted(fit.free, key=lambda name: model.parameter(name).linear)
+    for name in order:
+        held_values = {**fit.values, name: model.parameter(name).conventional(
+            electrolyte, data.constants)}
+        try:
+            held = _fit_once(model, electrolyte, data, held_values,
+                             [f for f in fit.free if f != name])
+        except FitError:
+            continue
+        if held.bic <= fit.bic:
+            spec = model.parameter(name)
+            return name, (f"the data do not support fitting it (BIC {held.bic:.1f} held vs "
+                          f"{fit.bic:.1f} fitted; fitted value {fit.values[name]:.3g} "
+                          f"{spec.unit})")
+    return None
 
 
 def _linear_extrapolation(run: Run, data: _Data) -> LinearExtrapolation | None:
@@ -381,7 +411,8 @@ def reduce_run(run: Run, model: str = "hueckel",
             reasons[name] = f"too few readings to fit it ({n})"
         fit = _fit_once(family, electrolyte, data, values, free)
         first_fit = first_fit or fit
-        hold = _undetermined(family, fit)
+        hold = _hard_failure(family, fit) or _not_supported(family, electrolyte, data, fit,
+                                                             values)
         if hold is None:
             break
         name, why = hold
@@ -400,6 +431,15 @@ def reduce_run(run: Run, model: str = "hueckel",
         shift_mV = (fit.e0 - first_fit.e0) * 1e3
         notes.append(f"holding {', '.join(n for n in reasons if n not in fixed)} moved E° by "
                      f"{shift_mV:+.3f} mV from the fit with every parameter free")
+
+    type_b = _held_parameter_covariance(family, electrolyte, data, fit,
+                                        [n for n in reasons if n not in fixed])
+    if type_b is not None:
+        fit.covariance = fit.covariance + type_b
+        notes.append(
+            "u(E°) includes a component of "
+            f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
+            "conventional value(s) (GUM Type B)")
 
     max_ionic = float(electrolyte.ionic_strength(data.molality).max())
     if max_ionic > family.max_ionic_strength:
@@ -420,7 +460,8 @@ def reduce_run(run: Run, model: str = "hueckel",
                 f"(p = {p_value:.2g}); check u(EMF) or the model"
             )
 
-    table, gamma_cov = _points_table(run, family, data, fit)
+    table, gamma_cov = _points_table(run, family, data, fit,
+                                     0.0 if type_b is None else float(type_b[0, 0]))
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
@@ -453,8 +494,31 @@ def _statistics(fit: _Fit, data: _Data) -> FitStatistics:
     )
 
 
-def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit
-                  ) -> tuple[pd.DataFrame, np.ndarray]:
+def _held_parameter_covariance(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+                               fit: _Fit, held: list[str]) -> np.ndarray | None:
+    """Covariance added to (E°, free parameters) by parameters held at conventional values
+    with a stated uncertainty: Δp = −S (∂E/∂θ_h) Δθ_h, to first order (GUM 5.1.2)."""
+    total = np.zeros_like(fit.covariance)
+    sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
+    found = False
+    for name in held:
+        spec = model.parameter(name)
+        if spec.conventional_uncertainty is None:
+            continue
+        u = spec.conventional_uncertainty(electrolyte, data.constants)
+        step = 1e-6 * max(1.0, abs(fit.values[name]))
+        up = _model_emf(model, electrolyte, data, fit.e0, {**fit.values,
+                                                          name: fit.values[name] + step})
+        down = _model_emf(model, electrolyte, data, fit.e0, {**fit.values,
+                                                            name: fit.values[name] - step})
+        moved = -sensitivity @ ((up - down) / (2.0 * step))
+        total += np.outer(moved, moved) * u**2
+        found = True
+    return total if found else None
+
+
+def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
+                  e0_type_b_variance_V2: float) -> tuple[pd.DataFrame, np.ndarray]:
     """All rows of the run with fitted EMF, residual and γ± (measured and model)."""
     electrolyte = run.metadata.electrolyte
     s = sensitivity_matrix(fit.jacobian, data.weights)[0]
@@ -464,7 +528,8 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit
         reading_var = np.full(len(data.emf_V), fit.chi2 / fit.dof)
     usable = run.points["flag"].isna().to_numpy()
     u_m = run.points.loc[usable, "u_molality_mol_kg"].to_numpy(float)
-    cov_ln = ln_gamma_covariance(s, reading_var, data.nernst_V, (u_m / data.molality) ** 2)
+    cov_ln = ln_gamma_covariance(s, reading_var, data.nernst_V, (u_m / data.molality) ** 2,
+                                 e0_type_b_variance_V2=e0_type_b_variance_V2)
     ln_gamma = (fit.e0 - data.emf_V) / data.nernst_V - data.ln_mean_molality
     gamma = np.exp(ln_gamma)
     gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]

@@ -52,6 +52,7 @@ def ln_gamma_covariance(
     nernst_factor_V: npt.ArrayLike,
     relative_molality_variance: npt.ArrayLike,
     keep_correlation: bool = True,
+    e0_type_b_variance_V2: float = 0.0,
 ) -> np.ndarray:
     """Covariance matrix of ln γ± at the measured points.
 
@@ -68,6 +69,9 @@ def ln_gamma_covariance(
     keep_correlation : bool
         True (the correct propagation) keeps that E° is made of the same readings; False treats
         E° and E_i as independent, u²(E°) + u²(E_i), for comparison only.
+    e0_type_b_variance_V2 : float
+        Variance of E° from parameters held at conventional values (Type B) [V²]; it moves every
+        γ± together.
 
     Returns
     -------
@@ -84,6 +88,7 @@ def ln_gamma_covariance(
     else:
         var_e0 = float(np.sum(s**2 * v))
         cov = np.full((n, n), var_e0) + np.diag(v)
+    cov = cov + e0_type_b_variance_V2
     return d[:, None] * cov * d[None, :] + np.diag(np.asarray(relative_molality_variance, float))
 
 

@@ -6,11 +6,14 @@ writing its module and listing it in :data:`MODELS` (see DEVELOPERS.md).
 
 from __future__ import annotations
 
-from . import hueckel, limiting
+from . import davies, hueckel, limiting, pitzer, sit
 from .base import ActivityModel, Parameter
 
 #: Every model by its command-line name.
-MODELS: dict[str, ActivityModel] = {m.name: m for m in (limiting.MODEL, hueckel.MODEL)}
+MODELS: dict[str, ActivityModel] = {
+    m.name: m
+    for m in (limiting.MODEL, hueckel.MODEL, davies.MODEL, sit.MODEL, pitzer.MODEL)
+}
 
 
 def get_model(name: str) -> ActivityModel:

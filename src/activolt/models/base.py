@@ -45,6 +45,9 @@ class Parameter:
         Where the conventional value comes from, for the record.
     minimum, maximum : float
         Bounds for fitting.
+    conventional_uncertainty : Callable[[Electrolyte, DebyeHueckelConstants], float] or None
+        Standard uncertainty of the conventional value (GUM Type B), propagated to E° whenever the
+        parameter is held at the convention because the data cannot determine it; None means 0.
     """
 
     name: str
@@ -56,6 +59,7 @@ class Parameter:
     convention: str
     minimum: float = -math.inf
     maximum: float = math.inf
+    conventional_uncertainty: Callable[[Electrolyte, DebyeHueckelConstants], float] | None = None
 
 
 @dataclass(frozen=True)

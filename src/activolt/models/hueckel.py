@@ -23,6 +23,10 @@ from .base import ActivityModel, Parameter
 
 #: Bates–Guggenheim convention, Bå = 1.5 kg^½ mol^-½ (IUPAC Gold Book).
 BATES_GUGGENHEIM_BA = 1.5
+#: Standard uncertainty given to Bå when it is held at the convention: a rectangular
+#: distribution over 1.0–2.0 kg^½ mol^-½ (å ≈ 3–6 Å, the range of Kielland's (1937) ion sizes
+#: for common 1:1 electrolytes), 0.5/√3 ≈ 0.29 (GUM, JCGM 100:2008, 4.3.7).
+BATES_GUGGENHEIM_BA_UNCERTAINTY = 0.5 / 3**0.5
 
 
 def sigma(y: np.ndarray) -> np.ndarray:
@@ -79,6 +83,10 @@ def _bates_guggenheim_a(electrolyte: Electrolyte, constants: DebyeHueckelConstan
     return float(BATES_GUGGENHEIM_BA / np.mean(constants.b))
 
 
+def _bates_guggenheim_u_a(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
+    return float(BATES_GUGGENHEIM_BA_UNCERTAINTY / np.mean(constants.b))
+
+
 MODEL = ActivityModel(
     name="hueckel",
     title="Hückel equation",
@@ -90,9 +98,11 @@ MODEL = ActivityModel(
             description="ion-size parameter",
             linear=False,
             conventional=_bates_guggenheim_a,
-            convention="Bates–Guggenheim convention Bå = 1.5 kg^½ mol^-½",
+            convention="Bates–Guggenheim convention Bå = 1.5 kg^½ mol^-½, "
+                       "u(Bå) = 0.29 (rectangular 1.0–2.0)",
             minimum=0.0,
             maximum=20.0,
+            conventional_uncertainty=_bates_guggenheim_u_a,
         ),
         Parameter(
             name="b_kg_mol",

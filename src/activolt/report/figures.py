@@ -78,12 +78,18 @@ def _model_curve(reduction: Reduction, molality: np.ndarray) -> tuple[np.ndarray
     return y, u
 
 
-def plot_extrapolation(reduction: Reduction, ax: Axes | None = None) -> Axes:
-    """The extrapolation to infinite dilution against √m, with the fit, its 95 % band and E°."""
+def plot_extrapolation(reduction: Reduction, ax: Axes | None = None,
+                       max_molality: float | None = None) -> Axes:
+    """The extrapolation to infinite dilution against √m, with the fit, its 95 % band and E°.
+
+    ``max_molality`` [mol kg⁻¹] limits the plot to the dilute end, where E° is decided.
+    """
     ax = _axes(ax)
     m, y = extrapolation_function_V(reduction)
+    if max_molality is not None:
+        y, m = y[m <= max_molality], m[m <= max_molality]
     stats = reduction.statistics
-    grid = np.linspace(0.0, float(m.max()) * 1.02, 300) ** 1.0
+    grid = np.linspace(0.0, float(np.sqrt(m.max())) * 1.02, 300) ** 2
     grid[0] = 1e-12
     y_fit, u_fit = _model_curve(reduction, grid)
     k95 = stats.coverage_factor
@@ -105,8 +111,9 @@ def plot_extrapolation(reduction: Reduction, ax: Axes | None = None) -> Axes:
                 label=f"E° = {e0.nominal_value * 1e3:.{_places(e0.std_dev * 1e3)}f} mV")
     ax.set_xlabel("√(m / (mol kg⁻¹))")
     ax.set_ylabel("E + k ln m± + k ln γ(DH, Bå = 1.5) / mV")
-    ax.set_title(f"Extrapolation to infinite dilution — {reduction.electrolyte.formula}, "
-                 f"{reduction.temperature_K - 273.15:.2f} °C")
+    ax.set_title(("Dilute end" if max_molality is not None else
+                  "Extrapolation to infinite dilution") + f" — {reduction.electrolyte.formula}, "
+                 f"{reduction.temperature_K - 273.15:.2f} °C", fontsize="medium")
     ax.legend(fontsize="small")
     return ax
 
@@ -162,7 +169,22 @@ def plot_gamma(reduction: Reduction, ax: Axes | None = None) -> Axes:
     return ax
 
 
-FIGURES = {"extrapolation": plot_extrapolation, "residuals": plot_residuals,
+def _extrapolation_figure(reduction: Reduction) -> Axes:
+    """The whole range beside the dilute end (I ≤ 0.1 mol/kg) when the run goes beyond it."""
+    from matplotlib.figure import Figure
+
+    dilute = 0.1 / reduction.electrolyte.ionic_strength_factor
+    m = reduction.points.loc[reduction.points["gamma_pm"].notna(), "molality_mol_kg"]
+    if (m <= dilute).sum() < 3 or m.max() <= dilute:
+        return plot_extrapolation(reduction)
+    figure = Figure(figsize=(12.0, 4.6), layout="constrained")
+    whole, end = figure.subplots(1, 2)
+    plot_extrapolation(reduction, whole)
+    plot_extrapolation(reduction, end, max_molality=dilute)
+    return whole
+
+
+FIGURES = {"extrapolation": _extrapolation_figure, "residuals": plot_residuals,
            "gamma": plot_gamma}
 
 

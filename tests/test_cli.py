@@ -1,0 +1,56 @@
+"""The command line on good input: the demo, default output folder, record elsewhere.
+
+Behaviour checks of the CLI contract (shared/design.md); the demo data are invented and used
+here only to exercise the command, never as check values (common practice).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+
+from synthetic import emf_from_gamma, write_run
+
+from activolt.cli import main
+from activolt.reference.published import published_gamma
+
+
+def _run(tmp_path):
+    table = published_gamma("HCl", 298.15)
+    m, gamma = table.molality_mol_kg.to_numpy()[:7], table.gamma_pm.to_numpy()[:7]
+    return write_run(tmp_path, m, emf_from_gamma(m, gamma, 0.22234), u_emf_V=2e-5)
+
+
+def test_demo_writes_everything(tmp_path, capsys):
+    out = tmp_path / "demo"
+    assert main(["demo", "--out", str(out)]) == 0
+    printed = capsys.readouterr().out
+    assert "E° =" in printed and "written:" in printed
+    names = sorted(p.name for p in out.iterdir())
+    assert names == sorted(f"kestrel_hcl_25C.{n}" for n in
+                           ("record.json", "points.csv", "report.txt", "extrapolation.png",
+                            "residuals.png", "gamma.png"))
+    assert (out / "kestrel_hcl_25C.extrapolation.png").read_bytes()[:4] == b"\x89PNG"
+
+
+def test_reduce_defaults_next_to_the_run_and_leaves_input_alone(tmp_path, capsys):
+    path = _run(tmp_path)
+    before = hashlib.sha256(path.read_bytes()).hexdigest()
+    assert main(["reduce", str(path), "--no-figures"]) == 0
+    folder = tmp_path / "run_activolt"
+    assert sorted(p.name for p in folder.iterdir()) == [
+        "run.points.csv", "run.record.json", "run.report.txt"]
+    assert hashlib.sha256(path.read_bytes()).hexdigest() == before
+    assert not list(tmp_path.rglob("*.tmp"))  # atomic writes leave no temporary files
+
+
+def test_json_elsewhere_and_model_choice(tmp_path, capsys):
+    path = _run(tmp_path)
+    record = tmp_path / "records" / "r.json"
+    assert main(["reduce", str(path), "--json", str(record), "--out", str(tmp_path / "o"),
+                 "--model", "hueckel", "--fix", "a_angstrom=4.3", "--no-figures"]) == 0
+    data = json.loads(record.read_text())
+    assert data["model"]["parameters"]["a_angstrom"] == {
+        "value": 4.3, "uncertainty": None, "unit": "Å", "fixed": True,
+        "reason": "held at the value given by the user"}
+    assert not (tmp_path / "o" / "run.record.json").exists()

@@ -1,0 +1,51 @@
+"""Human output: digits that the uncertainty supports, and the safety cautions.
+
+Rounding rule: the uncertainty to two significant digits and the value to the same decimal
+place (GUM, JCGM 100:2008, 7.2.6).
+"""
+
+from __future__ import annotations
+
+import pytest
+from synthetic import emf_from_gamma, write_run
+
+from activolt.electrolytes import parse_electrolyte
+from activolt.reduce import reduce_run
+from activolt.reference.published import published_gamma
+from activolt.report.cautions import ACID, HYDROGEN, MERCURY, cautions_for
+from activolt.report.numbers import format_with_uncertainty
+from activolt.runs import read_run
+
+
+@pytest.mark.parametrize(("value", "u", "expected"), [
+    (0.2223456, 0.0000123, "0.222346 ± 0.000012"),
+    (222.3456, 0.0123, "222.346 ± 0.012"),
+    (1234.5, 56.0, "1234 ± 56"),
+    (0.80912, 0.00034, "0.80912 ± 0.00034"),
+])
+def test_digits_follow_the_uncertainty(value, u, expected):
+    assert format_with_uncertainty(value, u) == expected
+
+
+def test_cautions_by_cell():
+    assert cautions_for(parse_electrolyte("HCl")) [:2] == [HYDROGEN, ACID]
+    assert cautions_for(parse_electrolyte("KCl")) == []
+    amalgam = cautions_for(parse_electrolyte("KCl"), "Ag(s) | AgCl(s) | KCl(aq) | K(Hg)")
+    assert amalgam[0] == MERCURY and "local codes" in amalgam[-1]
+
+
+def test_report_text(tmp_path):
+    table = published_gamma("HCl", 298.15)
+    table = table[table.molality_mol_kg <= 1.0]
+    m, gamma = table.molality_mol_kg.to_numpy(), table.gamma_pm.to_numpy()
+    emf = emf_from_gamma(m, gamma, 0.22234)  # Bates & Bower (1954), Table 1
+    reduction = reduce_run(read_run(write_run(tmp_path, m, emf, u_emf_V=2e-5)))
+    text = reduction.report()
+    e0_line = next(line for line in text.splitlines() if "E° =" in line)
+    u_mV = reduction.standard_potential.std_dev * 1e3
+    assert format_with_uncertainty(reduction.standard_potential.nominal_value * 1e3, u_mV,
+                                   "mV") in e0_line
+    assert "basis p° = 100 kPa" in e0_line
+    assert "covariance not scaled" in text
+    assert "against published values" in text and "Robinson & Stokes" in text
+    assert "Hydrogen gas is flammable" in text

@@ -1,0 +1,103 @@
+"""Uncertainty of γ±: propagation with the E°–reading correlation, checked by Monte Carlo.
+
+The Monte Carlo here is the reference (GUM Supplement 1, JCGM 101:2008, §7): the same synthetic
+run is re-measured many times with the stated reading noise and reduced again; the scatter of
+each γ± is its true standard uncertainty. The truth is the Hückel equation with å = 4.3 Å and
+b = 0.27 kg/mol, close to the HCl values a fit of Robinson & Stokes (1959, Appendix 8.10) gives
+(regression pin of this project's fit, not a literature value); E° = 0.22234 V (Bates & Bower
+1954, Table 1).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+from synthetic import emf_from_gamma, write_run
+
+from activolt.electrolytes import nernst_factor, parse_electrolyte
+from activolt.models.hueckel import ln_gamma
+from activolt.reduce import reduce_run, sensitivity_matrix
+from activolt.runs import read_run
+from activolt.solvent import debye_hueckel_constants
+from activolt.uncertainty import ln_gamma_covariance, student_t_factor
+
+HCL = parse_electrolyte("HCl")
+MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0])
+U_EMF_V = 2e-5
+E0_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C
+TRUTH = {"a_angstrom": 4.3, "b_kg_mol": 0.27}
+
+
+def _truth_gamma() -> np.ndarray:
+    constants = debye_hueckel_constants(np.full(MOLALITY.size, 298.15))
+    return np.exp(ln_gamma(HCL, MOLALITY, constants, TRUTH))
+
+
+@pytest.fixture(scope="module")
+def monte_carlo(tmp_path_factory):
+    gamma = _truth_gamma()
+    exact = emf_from_gamma(MOLALITY, gamma, E0_V)
+    folder = tmp_path_factory.mktemp("mc")
+    rng = np.random.default_rng(2024)
+    run = read_run(write_run(folder, MOLALITY, exact + rng.normal(0, U_EMF_V, MOLALITY.size),
+                             u_emf_V=U_EMF_V))
+    first = reduce_run(run)
+    trials = []
+    for _ in range(300):
+        points = run.points.copy()
+        points["emf_V"] = exact + rng.normal(0.0, U_EMF_V, MOLALITY.size)
+        trial = reduce_run(dataclasses.replace(run, points=points))
+        trials.append(np.append(trial.points["gamma_pm"].to_numpy(),
+                                trial.standard_potential.nominal_value))
+    return first, np.array(trials)
+
+
+def test_correlated_propagation_matches_monte_carlo(monte_carlo):
+    first, trials = monte_carlo
+    observed = trials[:, :-1].std(axis=0, ddof=1)
+    predicted = first.points["u_gamma_pm"].to_numpy()
+    # 300 trials: the standard deviation itself is known to about 1/√(2·299) ≈ 4 %; allow 15 %.
+    np.testing.assert_allclose(predicted, observed, rtol=0.15)
+    # E° as well.
+    assert first.standard_potential.std_dev == pytest.approx(trials[:, -1].std(ddof=1), rel=0.15)
+
+
+def test_ignoring_the_correlation_gives_a_different_and_wrong_answer(monte_carlo):
+    first, trials = monte_carlo
+    observed = trials[:, :-1].std(axis=0, ddof=1)
+    data_k = nernst_factor(HCL, 1, np.full(MOLALITY.size, 298.15))
+    # Rebuild the naive propagation from the reduction's own Jacobian.
+    from activolt.reduce import _jacobian, _prepare
+
+    data = _prepare(first.run)
+    jac = _jacobian(first.model, HCL, data, first.standard_potential.nominal_value,
+                    first.parameter_values, list(first.free_names[1:]))
+    s = sensitivity_matrix(jac, data.weights)[0]
+    variance = np.full(MOLALITY.size, U_EMF_V**2)
+    zeros = np.zeros(MOLALITY.size)
+    naive = np.sqrt(np.diag(ln_gamma_covariance(s, variance, data_k, zeros,
+                                                keep_correlation=False)))
+    correct = np.sqrt(np.diag(ln_gamma_covariance(s, variance, data_k, zeros)))
+    gamma = first.points["gamma_pm"].to_numpy()
+    np.testing.assert_allclose(correct * gamma, first.points["u_gamma_pm"], rtol=1e-12)
+    # At the dilute end, where E° leans on the same readings, the naive answer is far off.
+    ratio = naive * gamma / observed
+    assert ratio.max() > 1.3 or ratio.min() < 0.7
+    assert np.max(np.abs(correct * gamma / observed - 1)) < 0.15
+
+
+def test_student_t_factor():
+    # t(0.975, ν): 12.706 (ν = 1), 2.228 (ν = 10), 1.960 (ν = ∞); any Student t table, e.g.
+    # NIST/SEMATECH e-Handbook of Statistical Methods, Table 1.3.6.7.2.
+    assert student_t_factor(1) == pytest.approx(12.706, abs=1e-3)
+    assert student_t_factor(10) == pytest.approx(2.228, abs=1e-3)
+    assert student_t_factor(0) == pytest.approx(1.960, abs=1e-3)
+
+
+def test_sensitivity_of_a_straight_line_intercept():
+    # Ordinary least squares through x = 0, 1, 2: intercept = (5y0 + 2y1 − y2)/6 (hand
+    # derivation from the normal equations; common practice).
+    j = np.array([[1.0, 0.0], [1.0, 1.0], [1.0, 2.0]])
+    np.testing.assert_allclose(sensitivity_matrix(j, np.ones(3))[0], [5 / 6, 2 / 6, -1 / 6])
