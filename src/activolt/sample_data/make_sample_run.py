@@ -1,10 +1,10 @@
 """Make the demo run of the (invented) Kestrel Bay Electrochemistry Laboratory.
 
 A Harned cell Pt | H2(g, 1 atm) | HCl(aq, m) | AgCl(s) | Ag(s) at 25 °C over 15 molalities from
-0.001 to 1 mol/kg. The "true" γ± are the published HCl values shipped with activolt
-(interpolated between table entries), E° = 0.22234 V (Bates & Bower 1954, 1 atm basis), and the
-readings carry normal noise of 0.02 mV, the stated reading uncertainty. Demo data only: never a
-check value. Run from the project root:  .venv/bin/python sample_data/make_sample_run.py
+0.001 to 1 mol/kg. The "true" γ± follow the Pitzer equations with the published HCl parameters
+shipped with activolt (Pitzer & Mayorga 1973), E° = 0.22234 V (Bates & Bower 1954, 1 atm basis),
+and the readings carry normal noise of 0.02 mV, the stated reading uncertainty. Demo data only:
+never a check value. Run from the project root:  .venv/bin/python sample_data/make_sample_run.py
 """
 
 from __future__ import annotations
@@ -14,7 +14,9 @@ from pathlib import Path
 import numpy as np
 
 from activolt.electrolytes import nernst_factor, parse_electrolyte
-from activolt.reference.published import interpolate_gamma, published_gamma
+from activolt.models import pitzer
+from activolt.reference.parameters import pitzer_parameters
+from activolt.solvent import debye_hueckel_constants
 
 HERE = Path(__file__).resolve().parent
 STEM = "kestrel_hcl_25C"
@@ -29,7 +31,10 @@ NO_READING = 0.007  # a solution whose reading was lost, to show a flagged row
 def main() -> None:
     hcl = parse_electrolyte("HCl")
     m = np.array(MOLALITIES)
-    gamma = interpolate_gamma(published_gamma("HCl", TEMPERATURE_K), m, hcl, TEMPERATURE_K)
+    published = pitzer_parameters("HCl")
+    values = {name: published[name] for name in pitzer.MODEL.parameter_names}
+    constants = debye_hueckel_constants(np.full(m.size, TEMPERATURE_K))
+    gamma = np.exp(pitzer.ln_gamma(hcl, m, constants, values))
     k = float(nernst_factor(hcl, 1, TEMPERATURE_K))
     rng = np.random.default_rng(20261202)
     emf_V = E0_V - k * np.log(m * gamma) + rng.normal(0.0, NOISE_V, m.size)
