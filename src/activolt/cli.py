@@ -103,6 +103,15 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     return written
 
 
+def _one_line(error: InputError) -> str:
+    """The error as one line; a command-line option is named as an option, not a column."""
+    if error.column is not None and error.column.startswith("--"):
+        where = "command line" if error.file in (None, "command line") else error.file
+        error = InputError(error.problem, file=f"{where}, option '{error.column}'",
+                           line=error.line)
+    return " ".join(part.strip() for part in str(error).splitlines())
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
     try:
@@ -116,7 +125,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             written = _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
                               args.json, args.series, overrides, not args.no_figures)
     except InputError as error:
-        print(f"activolt: error: {error}", file=sys.stderr)
+        print(f"activolt: error: {_one_line(error)}", file=sys.stderr)
         return 2
     except FitError as error:
         print(f"activolt: the fit could not be done: {error}", file=sys.stderr)

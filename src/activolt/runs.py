@@ -149,11 +149,15 @@ def _rows(path: Path, text: str) -> tuple[int, list[str], list[tuple[int, list[s
                          "solution", file=str(path))
     header_line, header = content[0]
     separator = ";" if header.count(";") > header.count(",") else ","
-    reader = csv.reader([line for _, line in content], delimiter=separator)
-    parsed = list(reader)
-    names = [name.strip() for name in parsed[0]]
-    rows = [(n, fields) for (n, _), fields in zip(content[1:], parsed[1:], strict=True)]
-    return header_line, names, rows, separator == ";"
+    parsed: list[tuple[int, list[str]]] = []
+    for n, line in content:  # one line at a time: a stray quote must not swallow the next rows
+        try:
+            parsed.append((n, next(csv.reader([line], delimiter=separator, strict=True))))
+        except csv.Error:
+            raise InputError('a quote (") is not closed or is followed by text; quote whole '
+                             "fields only, or remove the quote", file=str(path), line=n) from None
+    names = [name.strip() for name in parsed[0][1]]
+    return header_line, names, parsed[1:], separator == ";"
 
 
 def _check_columns(path: Path, header_line: int, names: list[str]) -> list[str]:
@@ -294,18 +298,13 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
             raise InputError("every reading is below 5 mV in magnitude; if the values are "
                              "volts, name the column 'emf_V'", file=str(path),
                              line=header_line, column="emf_mV")
-    missing = points.loc[points["flag"].notna(), "line"].tolist()
-    if missing:
-        warnings.append(
-            f"{len(missing)} row(s) have no reading (line(s) {', '.join(map(str, missing))}); "
-            "they are kept in the record, flagged, and left out of the fit"
-        )
     return points, warnings
 
 
 def _check_temperature(temperature_K: float, path: Path, line: int | None, column: str) -> None:
     low, high = _LIQUID_WATER_C
-    if not low < temperature_K - ZERO_CELSIUS_K <= high:
+    # both ends included, as in activolt.solvent (0 °C, the ice point, is a classic run temperature)
+    if not low - 1e-9 <= temperature_K - ZERO_CELSIUS_K <= high + 1e-9:
         raise InputError(
             f"temperature {temperature_K - ZERO_CELSIUS_K:.2f} °C is outside liquid water "
             f"({low:g}–{high:g} °C); check the value and its unit (°C or K)",
@@ -345,13 +344,16 @@ def _metadata(
     for key in meta:
         if key not in KNOWN_METADATA_KEYS:
             warnings.append(f"{where}: key '{key}' is not one activolt reads; it is ignored")
-    merged = {**meta, **{k: v for k, v in overrides.items() if v is not None}}
+    given = {k: v for k, v in overrides.items() if v is not None}
+    # a temperature given on the command line replaces the file's, whichever its unit
+    temperature_keys = {"temperature_C", "temperature_K"}
+    replaced = temperature_keys if given.keys() & temperature_keys else set()
+    merged = {**{k: v for k, v in meta.items() if k not in replaced}, **given}
 
     def fail(key: str, problem: str) -> InputError:
-        from_file = key in meta and key not in overrides
-        return InputError(problem, file=where if from_file else "command line",
-                          line=_key_line(text, key) if from_file else None,
-                          column=key)
+        if key in meta and overrides.get(key) is None:
+            return InputError(problem, file=where, line=_key_line(text, key), column=key)
+        return InputError(problem, file="command line", column=f"--{key.replace('_', '-')}")
 
     if "electrolyte" not in merged:
         raise InputError("the electrolyte is not given; add electrolyte = \"HCl\" (for example) "
@@ -459,14 +461,7 @@ def read_run(
     metadata, meta_warnings = _metadata(meta, text, metadata_path, overrides)
     warnings.extend(meta_warnings)
 
-    missing_temperature = points["temperature_K"].isna()
-    if missing_temperature.any():
-        if metadata.temperature_K is None:
-            line = int(points.loc[missing_temperature, "line"].iloc[0])
-            raise InputError("no temperature for this row; add temperature_C to the metadata or "
-                             "a temperature_C column", file=str(path), line=line)
-        points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
-
+    # the series first: temperatures and flagged rows of other series do not concern this one
     names = sorted(set(points["series"]))
     if series is not None:
         if series not in names:
@@ -475,8 +470,23 @@ def read_run(
                              column="series")
         points = points[points["series"] == series].reset_index(drop=True)
     elif len(names) > 1:
-        raise InputError(f"the table holds {len(names)} series ({', '.join(names)}); choose one "
+        raise InputError(f"the table holds {len(names)} series "
+                         f"({', '.join(n or '(unnamed)' for n in names)}); choose one "
                          "with --series NAME", file=str(path), column="series")
+    missing_temperature = points["temperature_K"].isna()
+    if missing_temperature.any():
+        if metadata.temperature_K is None:
+            line = int(points.loc[missing_temperature, "line"].iloc[0])
+            raise InputError("no temperature for this row; add temperature_C to the metadata or "
+                             "a temperature_C column", file=str(path), line=line)
+        points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
+
+    missing = points.loc[points["flag"].notna(), "line"].tolist()
+    if missing:
+        warnings.append(
+            f"{len(missing)} row(s) have no reading (line(s) {', '.join(map(str, missing))}); "
+            "they are kept in the record, flagged, and left out of the fit"
+        )
     points["flag"] = points["flag"].astype(object)
     return Run(
         path=path, sha256=hashlib.sha256(raw).hexdigest(), metadata_path=metadata_path,
