@@ -205,12 +205,13 @@ def test_wrong_case_column_gets_a_hint(tmp_path):
     assert any("'Note'" in w and "did you mean 'note'" in w for w in run.warnings), run.warnings
 
 
-def test_pressure_column_is_read_but_not_used_yet(tmp_path):
+def test_pressure_column_without_a_gas_cell_is_named_in_a_warning(tmp_path):
     text = "molality_mol_kg,emf_mV,pressure_kPa\n" + "".join(
         f"{m},{e},101.2\n" for m, e in ROWS_MV)
     run = read_run(run_files(tmp_path, text))
     assert run.points["pressure_Pa"].tolist() == pytest.approx([101.2e3] * len(ROWS_MV))
-    assert any("'pressure_kPa'" in w and "not used" in w and "yet" in w for w in run.warnings)
+    assert any("pressure" in w and "not used" in w and "cell diagram" in w
+               for w in run.warnings)
 
 
 def test_unknown_metadata_key_is_named_in_a_warning(tmp_path):

@@ -74,12 +74,16 @@ def test_ignoring_the_correlation_gives_a_different_and_wrong_answer(monte_carlo
     data = _prepare(first.run)
     jac = _jacobian(first.model, HCL, data, first.standard_potential.nominal_value,
                     first.parameter_values, list(first.free_names[1:]))
-    s = sensitivity_matrix(jac, data.weights)[0]
+    sensitivity = sensitivity_matrix(jac, data.weights)
     variance = np.full(MOLALITY.size, U_EMF_V**2)
     zeros = np.zeros(MOLALITY.size)
-    naive = np.sqrt(np.diag(ln_gamma_covariance(s, variance, data_k, zeros,
-                                                keep_correlation=False)))
-    correct = np.sqrt(np.diag(ln_gamma_covariance(s, variance, data_k, zeros)))
+    # ln γ± = (E° − E)/k − ln m±: ∂/∂E° = 1/k, ∂/∂E_i = −1/k.
+    g_p = np.zeros((MOLALITY.size, sensitivity.shape[0]))
+    g_p[:, 0] = 1.0 / data_k
+    naive = np.sqrt(np.diag(ln_gamma_covariance(g_p, -1.0 / data_k, sensitivity, variance,
+                                                zeros, keep_correlation=False)))
+    correct = np.sqrt(np.diag(ln_gamma_covariance(g_p, -1.0 / data_k, sensitivity, variance,
+                                                  zeros)))
     gamma = first.points["gamma_pm"].to_numpy()
     np.testing.assert_allclose(correct * gamma, first.points["u_gamma_pm"], rtol=1e-12)
     # At the dilute end, where E° leans on the same readings, the naive answer is far off.

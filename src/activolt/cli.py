@@ -38,6 +38,15 @@ def _fixed_value(text: str) -> tuple[str, float]:
             f"'{text}' is not NAME=VALUE, e.g. a_angstrom=4.3") from None
 
 
+def _slope_value(text: str) -> str | float:
+    if text == "fit":
+        return text
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is neither 'fit' nor a number") from None
+
+
 def _parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="activolt", description="Standard potentials and mean ionic activity "
                      "coefficients from EMF dilution series of cells without liquid junction.")
@@ -61,7 +70,19 @@ def _parser() -> argparse.ArgumentParser:
                         help="temperature in °C for rows without one (overrides the metadata)")
     reduce.add_argument("--standard-pressure-kPa", type=float, dest="standard_pressure_kPa",
                         help="pressure basis of E°: 100 or 101.325")
+    reduce.add_argument("--cell", help="cell diagram, e.g. \"Pt | H2(g) | HCl(aq) | AgCl(s) | "
+                        "Ag(s)\" (overrides the metadata)")
+    reduce.add_argument("--slope-factor", type=_slope_value, dest="slope_factor",
+                        help="'fit' to fit the slope factor s of the cell response (ion-selective "
+                             "electrode pairs), or a fixed value; default 1 (Nernstian)")
     reduce.add_argument("--no-figures", action="store_true", help="skip the figures")
+
+    cell = commands.add_parser("cell", help="a cell's reaction, n, E°, ΔG° and K from its "
+                               "diagram")
+    cell.add_argument("diagram", help="IUPAC cell diagram in quotes")
+    cell.add_argument("--temperature-C", type=float, dest="temperature_C", default=25.0,
+                      help="temperature in °C; default 25")
+    cell.add_argument("--json", type=Path, help="also write the summary as JSON here")
 
     demo = commands.add_parser("demo", help="reduce the bundled sample run")
     demo.add_argument("--out", type=Path, default=Path("demo_output"),
@@ -72,7 +93,6 @@ def _parser() -> argparse.ArgumentParser:
 def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, float],
             out: Path | None, json_path: Path | None, series: str | None,
             overrides: dict[str, object], figures: bool) -> list[Path]:
-    from .files import write_atomically
     from .records import points_csv, record_json
     from .reduce import reduce_run
     from .runs import read_run
@@ -92,14 +112,53 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
 
         for name, png in render_figures(reduction).items():
             outputs[out / f"{stem}.{name}.png"] = png
+    written = _write_all(outputs)
+    sys.stdout.write(report)
+    return written
+
+
+def _write_all(outputs: dict[Path, bytes | str]) -> list[Path]:
+    """Create the folders and write every output atomically; an OSError becomes bad input."""
+    from .files import write_atomically
+
     for folder in {p.parent for p in outputs}:
         try:
             folder.mkdir(parents=True, exist_ok=True)
         except OSError as error:
             raise InputError(f"cannot create the output folder ({error.strerror}); choose "
                              "another with --out", file=str(folder)) from None
-    written = [write_atomically(path, content) for path, content in outputs.items()]
-    sys.stdout.write(report)
+    written = []
+    for path, content in outputs.items():
+        try:
+            written.append(write_atomically(path, content))
+        except OSError as error:
+            raise InputError(f"cannot write this file ({error.strerror}); choose another place",
+                             file=str(path)) from None
+    return written
+
+
+def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Path]:
+    import json
+
+    from .cells import DiagramError, cell_summary, format_cell_summary
+    from .constants import ZERO_CELSIUS_K
+
+    if not 0.0 <= temperature_C <= 100.0:
+        raise InputError(f"temperature {temperature_C:g} °C is outside liquid water (0–100 °C)",
+                         file="command line", column="--temperature-C")
+    try:
+        summary = cell_summary(diagram, temperature_C + ZERO_CELSIUS_K)
+    except DiagramError as error:
+        start = max(0, error.position - 12)
+        raise InputError(f"{error.message} (at character {error.position + 1}: "
+                         f"'{diagram[start:error.position]}▶{diagram[error.position:][:12]}')",
+                         file="command line, the cell diagram") from None
+    text = format_cell_summary(summary)
+    written = []
+    if json_path is not None:
+        written = _write_all({json_path: json.dumps(summary, ensure_ascii=False, indent=2)
+                              + "\n"})
+    sys.stdout.write(text if text.endswith("\n") else text + "\n")
     return written
 
 
@@ -119,18 +178,26 @@ def main(argv: Sequence[str] | None = None) -> int:
         if args.command == "demo":
             run_path = Path(str(files("activolt") / "sample_data" / DEMO_RUN))
             written = _reduce(run_path, None, "hueckel", {}, args.out, None, None, {}, True)
+        elif args.command == "cell":
+            written = _cell(args.diagram, args.temperature_C, args.json)
         else:
             overrides = {k: getattr(args, k) for k in
-                         ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa")}
+                         ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa",
+                          "cell", "slope_factor")}
             written = _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
                               args.json, args.series, overrides, not args.no_figures)
+    except SystemExit as stop:  # --help and --version
+        return int(stop.code or 0)
+    except BrokenPipeError:  # output piped into a command that stopped reading
+        return 0
     except InputError as error:
         print(f"activolt: error: {_one_line(error)}", file=sys.stderr)
         return 2
     except FitError as error:
         print(f"activolt: the fit could not be done: {error}", file=sys.stderr)
         return 1
-    print("\nwritten:\n" + "\n".join(f"  {p}" for p in written))
+    if written:
+        print("\nwritten:\n" + "\n".join(f"  {p}" for p in written))
     return 0
 
 

@@ -59,6 +59,8 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
             "emf_V": _number(row["emf_V"]),
             "u_emf_V": _number(row["u_emf_V"]),
             "temperature_K": float(row["temperature_K"]),
+            "pressure_correction_V": _number(row["pressure_correction_V"]),
+            "gas_partial_pressure_Pa": _number(row["gas_pressure_Pa"]),
             "electrode": row["electrode"] or None,
             "fitted_emf_V": _number(row["fitted_emf_V"]),
             "residual_V": _number(row["residual_V"]),
@@ -71,6 +73,7 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
         })
     cross = reduction.linear_extrapolation
     comparison = compare_with_published(reduction)
+    other = reduction.standard_potential_other_basis_V
     return {
         "record_schema": RECORD_SCHEMA,
         "software": {"name": "activolt", "version": __version__},
@@ -96,6 +99,12 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
             "coverage_factor_95": stats.coverage_factor,
             "expanded_uncertainty_95": stats.coverage_factor * e0.std_dev,
         },
+        "standard_potential_other_basis": None if other is None else {
+            "standard_pressure_kPa": other[0] / 1e3, "value_V": other[1],
+            "uncertainty_V": e0.std_dev,
+            "method": "shifted by (RT/nF) Σ ν_gas ln(p°_new/p°_old); same uncertainty"},
+        "corrections": list(reduction.corrections),
+        "electrolyte_sign": meta.electrolyte_sign,
         "delta_g_kJ_mol": _with_u(standard_gibbs_energy_kJ_mol(e0, meta.electrons),
                                   "ΔG° = −nFE°, propagated from E°"),
         "log10_K": _with_u(log10_equilibrium_constant(e0, meta.electrons,

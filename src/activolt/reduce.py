@@ -20,13 +20,14 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import numpy as np
+import numpy.typing as npt
 import pandas as pd
 from uncertainties import correlated_values
 from uncertainties.core import AffineScalarFunc
 
 from .electrolytes import Electrolyte, nernst_factor
 from .errors import FitError, InputError
-from .models import ActivityModel, get_model
+from .models import ActivityModel, Parameter, get_model
 from .models.hueckel import BATES_GUGGENHEIM_BA
 from .runs import Run, usable_points
 from .solvent import DebyeHueckelConstants, debye_hueckel_constants
@@ -36,6 +37,14 @@ __all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction
            "sensitivity_matrix"]
 
 E0 = "standard_potential_V"
+SLOPE = "slope_factor"
+#: The slope factor s of the cell response, E = E° − s k ln(m± γ±), fitted on request (pairs of
+#: ion-selective electrodes are often slightly sub-Nernstian); s = 1 is the Nernstian response.
+SLOPE_PARAMETER = Parameter(
+    name=SLOPE, symbol="s", unit="", description="slope factor of the cell response",
+    linear=False, conventional=lambda electrolyte, constants: 1.0,
+    convention="Nernstian response s = 1", minimum=0.5, maximum=1.2,
+)
 #: Largest spread of temperatures in one run that is reduced to one E° [K].
 MAX_TEMPERATURE_SPREAD_K = 2.0
 #: Relative standard uncertainty beyond which a non-linear parameter counts as undetermined.
@@ -115,6 +124,17 @@ class Reduction:
     linear_extrapolation: LinearExtrapolation | None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = field(default=())
+    corrections: tuple[str, ...] = field(default=())
+    other_basis: tuple[float, float] | None = None
+
+    @property
+    def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
+        """(pressure basis [Pa], E° on that basis [V]) for the other common standard pressure,
+        when the cell holds a gas; the uncertainty is that of E°."""
+        if self.other_basis is None:
+            return None
+        pressure_Pa, shift_V = self.other_basis
+        return pressure_Pa, self.standard_potential.nominal_value + shift_V
 
     @property
     def electrolyte(self) -> Electrolyte:
@@ -123,8 +143,24 @@ class Reduction:
 
     @property
     def parameter_values(self) -> dict[str, float]:
-        """Every model parameter's value, fitted or held."""
+        """Every parameter's value, fitted or held (the slope factor included when fitted)."""
         return {p.name: p.value for p in self.parameters}
+
+    @property
+    def model_parameter_values(self) -> dict[str, float]:
+        """The activity-coefficient model's parameter values only."""
+        return {name: self.parameter_values[name] for name in self.model.parameter_names}
+
+    @property
+    def slope_factor(self) -> float:
+        """The slope factor s of the cell response: fitted, or as given (1 = Nernstian)."""
+        return self.parameter_values.get(SLOPE, self.run.metadata.slope_factor)
+
+    def response_factor_V(self, temperature_K: npt.ArrayLike) -> np.ndarray:
+        """σ s k = σ s νRT/(nF) at T [V]: E = E° − σ s k ln(m± γ±)."""
+        meta = self.run.metadata
+        return (meta.electrolyte_sign * self.slope_factor
+                * nernst_factor(meta.electrolyte, meta.electrons, temperature_K))
 
     def correlated_parameters(self) -> dict[str, AffineScalarFunc]:
         """E° and the free parameters as correlated uncertain numbers (k = 1)."""
@@ -140,7 +176,7 @@ class Reduction:
         t = self.temperature_K if temperature_K is None else temperature_K
         m = np.atleast_1d(np.asarray(molality, dtype=float))
         constants = debye_hueckel_constants(np.full(m.shape, t))
-        return self.model.ln_gamma(self.electrolyte, m, constants, self.parameter_values)
+        return self.model.ln_gamma(self.electrolyte, m, constants, self.model_parameter_values)
 
     def to_frame(self) -> pd.DataFrame:
         """The points table (all rows, flagged ones included)."""
@@ -162,6 +198,38 @@ class _Data:
     ln_mean_molality: np.ndarray
     constants: DebyeHueckelConstants
     stated_uncertainty: bool
+    sign: int = 1
+    slope: float = 1.0
+    correction_V: np.ndarray | None = None
+    gas_pressure_Pa: np.ndarray | None = None
+
+
+def _gas_correction(run: Run, points: pd.DataFrame) -> tuple[np.ndarray | None,
+                                                             np.ndarray | None]:
+    """(ΔE to p° [V], partial pressure of the cell's gas [Pa]) per usable row, or (None, None)
+    when the cell holds no gas or no barometric pressure is given."""
+    meta = run.metadata
+    if not meta.gas_coefficients:
+        return None, None
+    pressure = points["pressure_Pa"].to_numpy(float)
+    if meta.barometric_pressure_Pa is not None:
+        pressure = np.where(np.isnan(pressure), meta.barometric_pressure_Pa, pressure)
+    if np.isnan(pressure).all():
+        return None, None
+    if np.isnan(pressure).any():
+        line = int(points.loc[np.isnan(pressure), "line"].iloc[0])
+        raise InputError("no barometric pressure for this row while others have one; fill the "
+                         "column or give pressure_kPa in the metadata", file=str(run.path),
+                         line=line, column="pressure_kPa")
+    from .corrections import gas_pressure_correction, hydrogen_partial_pressure
+
+    temperature = points["temperature_K"].to_numpy(float)
+    partial = hydrogen_partial_pressure(pressure, temperature,
+                                        bubbler_depth_m=meta.bubbler_depth_m)
+    correction = gas_pressure_correction(
+        temperature, meta.electrons, meta.gas_coefficients,
+        {gas: partial for gas in meta.gas_coefficients}, meta.standard_pressure_Pa)
+    return correction, partial
 
 
 def _prepare(run: Run) -> _Data:
@@ -171,21 +239,35 @@ def _prepare(run: Run) -> _Data:
     temperature = points["temperature_K"].to_numpy(float)
     stated = run.emf_uncertainty_given
     u = points["u_emf_V"].to_numpy(float) if stated else np.ones(len(points))
+    correction, partial = _gas_correction(run, points)
+    emf = points["emf_V"].to_numpy(float)
     return _Data(
         molality=molality,
-        emf_V=points["emf_V"].to_numpy(float),
+        emf_V=emf if correction is None else emf + correction,
         weights=1.0 / u**2,
         nernst_V=nernst_factor(meta.electrolyte, meta.electrons, temperature),
         ln_mean_molality=np.log(meta.electrolyte.mean_molality(molality)),
         constants=debye_hueckel_constants(temperature),
         stated_uncertainty=stated,
+        sign=meta.electrolyte_sign,
+        slope=meta.slope_factor,
+        correction_V=correction,
+        gas_pressure_Pa=partial,
     )
+
+
+def _spec(model: ActivityModel, name: str) -> Parameter:
+    """The description of a model parameter or of the slope factor."""
+    return SLOPE_PARAMETER if name == SLOPE else model.parameter(name)
 
 
 def _model_emf(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
                values: Mapping[str, float]) -> np.ndarray:
-    ln_gamma = model.ln_gamma(electrolyte, data.molality, data.constants, values)
-    return e0 - data.nernst_V * (data.ln_mean_molality + ln_gamma)
+    """E = E° − σ s k [ln m± + ln γ±(m; θ)], σ = +1 (electrolyte formed) or −1 (consumed)."""
+    model_values = {name: values[name] for name in model.parameter_names}
+    ln_gamma = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
+    slope = values.get(SLOPE, data.slope)
+    return e0 - data.sign * slope * data.nernst_V * (data.ln_mean_molality + ln_gamma)
 
 
 def _jacobian(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
@@ -225,7 +307,7 @@ def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
     params = lmfit.Parameters()
     params.add(E0, value=e0_start)
     for name in free:
-        spec = model.parameter(name)
+        spec = _spec(model, name)
         params.add(name, value=values[name], min=spec.minimum, max=spec.maximum)
 
     def residual(p: lmfit.Parameters) -> np.ndarray:
@@ -275,7 +357,7 @@ def _information_criteria(chi2: float, n: int, n_free: int, stated: bool) -> tup
 def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
     """A free parameter that ran to a bound or whose uncertainty is not finite, and why."""
     for index, name in enumerate(fit.free, start=1):
-        spec = model.parameter(name)
+        spec = _spec(model, name)
         value, variance = fit.values[name], fit.covariance[index, index]
         span = spec.maximum - spec.minimum
         span = span if math.isfinite(span) else 1.0
@@ -293,9 +375,9 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
                    fit: _Fit, values: dict[str, float]) -> tuple[str, str] | None:
     """A free parameter whose fitting the data do not support (BIC no better than holding it
     at its conventional value), non-linear parameters first; and why."""
-    order = sorted(fit.free, key=lambda name: model.parameter(name).linear)
+    order = sorted(fit.free, key=lambda name: _spec(model, name).linear)
     for name in order:
-        held_values = {**fit.values, name: model.parameter(name).conventional(
+        held_values = {**fit.values, name: _spec(model, name).conventional(
             electrolyte, data.constants)}
         try:
             held = _fit_once(model, electrolyte, data, held_values,
@@ -303,14 +385,14 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
         except FitError:
             continue
         if held.bic <= fit.bic:
-            spec = model.parameter(name)
+            spec = _spec(model, name)
             return name, (f"the data do not support fitting it (BIC {held.bic:.1f} held vs "
                           f"{fit.bic:.1f} fitted; fitted value {fit.values[name]:.3g} "
                           f"{spec.unit})")
     return None
 
 
-def _linear_extrapolation(run: Run, data: _Data) -> LinearExtrapolation | None:
+def _linear_extrapolation(run: Run, data: _Data, slope: float) -> LinearExtrapolation | None:
     electrolyte = run.metadata.electrolyte
     ionic = electrolyte.ionic_strength(data.molality)
     use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
@@ -319,7 +401,7 @@ def _linear_extrapolation(run: Run, data: _Data) -> LinearExtrapolation | None:
     sqrt_i = np.sqrt(ionic[use])
     a = data.constants.agamma[use]
     ln_gamma_dh = -electrolyte.charge_product * a * sqrt_i / (1.0 + BATES_GUGGENHEIM_BA * sqrt_i)
-    k = data.nernst_V[use]
+    k = data.sign * slope * data.nernst_V[use]
     y = data.emf_V[use] + k * (data.ln_mean_molality[use] + ln_gamma_dh)
     x = data.molality[use]
     design = np.column_stack([np.ones_like(x), x])
@@ -367,11 +449,11 @@ def reduce_run(run: Run, model: str = "hueckel",
     except ValueError as error:
         raise InputError(str(error), column="--model") from None
     fixed = dict(fixed or {})
+    specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
     for name in fixed:
-        try:
-            family.parameter(name)
-        except KeyError as error:
-            raise InputError(str(error.args[0]), column="--fix") from None
+        if name not in {p.name for p in specs}:
+            raise InputError(f"model '{family.name}' has no parameter '{name}'; it has: "
+                             f"{', '.join(p.name for p in specs) or 'none'}", column="--fix")
 
     data = _prepare(run)
     n = len(data.emf_V)
@@ -393,20 +475,20 @@ def reduce_run(run: Run, model: str = "hueckel",
 
     values: dict[str, float] = {}
     reasons: dict[str, str] = {}
-    for spec in family.parameters:
+    for spec in specs:
         if spec.name in fixed:
             values[spec.name] = float(fixed[spec.name])
             reasons[spec.name] = "held at the value given by the user"
         else:
             values[spec.name] = spec.conventional(electrolyte, data.constants)
-    free = [p.name for p in family.parameters if p.name not in fixed]
+    free = [p.name for p in specs if p.name not in fixed]
 
     # Hold parameters until every free one is determined and at least one degree of freedom is
     # left; held parameters take their conventional values.
     first_fit: _Fit | None = None
     while True:
         while free and n - 1 - len(free) < 1:
-            name = next((f for f in free if not family.parameter(f).linear), free[-1])
+            name = next((f for f in free if not _spec(family, f).linear), free[-1])
             free.remove(name)
             reasons[name] = f"too few readings to fit it ({n})"
         fit = _fit_once(family, electrolyte, data, values, free)
@@ -417,14 +499,14 @@ def reduce_run(run: Run, model: str = "hueckel",
             break
         name, why = hold
         free.remove(name)
-        values = {**fit.values, name: family.parameter(name).conventional(electrolyte,
-                                                                          data.constants)}
+        values = {**fit.values, name: _spec(family, name).conventional(electrolyte,
+                                                                       data.constants)}
         reasons[name] = why
 
     for name, why in reasons.items():
         if name in fixed:
             continue
-        spec = family.parameter(name)
+        spec = _spec(family, name)
         notes.append(f"{spec.symbol} held at {values[name]:.4g} {spec.unit} "
                      f"({spec.convention}): {why}")
     if first_fit is not fit and first_fit is not None:
@@ -460,8 +542,7 @@ def reduce_run(run: Run, model: str = "hueckel",
                 f"(p = {p_value:.2g}); check u(EMF) or the model"
             )
 
-    table, gamma_cov = _points_table(run, family, data, fit,
-                                     0.0 if type_b is None else float(type_b[0, 0]))
+    table, gamma_cov = _points_table(run, family, data, fit, type_b)
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
@@ -470,17 +551,51 @@ def reduce_run(run: Run, model: str = "hueckel",
                          if p.name in fit.free else math.nan),
             fixed=p.name not in fit.free, reason=reasons.get(p.name),
         )
-        for p in family.parameters
+        for p in specs
     )
     e0_value = correlated_values([fit.e0], fit.covariance[:1, :1])[0]
+    corrections, other_basis = _corrections_summary(run, data, float(np.mean(temperature)))
     return Reduction(
         run=run, model=family, temperature_K=float(np.mean(temperature)),
         standard_potential=e0_value, parameters=parameters,
         free_names=(E0, *fit.free), covariance=fit.covariance, statistics=stats,
         points=table, gamma_covariance=gamma_cov,
-        linear_extrapolation=_linear_extrapolation(run, data),
+        linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
         warnings=tuple(warnings), notes=tuple(notes),
+        corrections=corrections, other_basis=other_basis,
     )
+
+
+def _corrections_summary(run: Run, data: _Data, temperature_K: float
+                         ) -> tuple[tuple[str, ...], tuple[float, float] | None]:
+    """What was corrected, with sizes in mV, and the shift of E° to the other pressure basis."""
+    meta = run.metadata
+    lines: list[str] = []
+    basis_kPa = meta.standard_pressure_Pa / 1e3
+    if not meta.gas_coefficients:
+        return (), None
+    gases = ", ".join(meta.gas_coefficients)
+    if data.correction_V is None:
+        lines.append(f"no barometric pressure given: the readings are taken as already referred "
+                     f"to {gases} at p° = {basis_kPa:g} kPa")
+    else:
+        low, high = data.correction_V.min() * 1e3, data.correction_V.max() * 1e3
+        lines.append(
+            f"{gases} partial pressure = barometric − water vapour (IAPWS)"
+            + (f" + bubbler depth {meta.bubbler_depth_m * 100:g} cm" if meta.bubbler_depth_m
+               else "")
+            + f"; readings corrected to p° = {basis_kPa:g} kPa by {low:+.3f} to {high:+.3f} mV "
+            "(vapour-pressure lowering by the solute not applied)")
+    from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA
+    from .corrections import standard_pressure_basis_shift
+
+    other = (ATMOSPHERE_PA if math.isclose(meta.standard_pressure_Pa, STANDARD_PRESSURE_PA)
+             else STANDARD_PRESSURE_PA)
+    shift = float(standard_pressure_basis_shift(temperature_K, meta.electrons,
+                                                meta.gas_coefficients,
+                                                meta.standard_pressure_Pa, other))
+    lines.append(f"on the {other / 1e3:g} kPa basis E° is {shift * 1e3:+.3f} mV different")
+    return tuple(lines), (other, shift)
 
 
 def _statistics(fit: _Fit, data: _Data) -> FitStatistics:
@@ -502,7 +617,7 @@ def _held_parameter_covariance(model: ActivityModel, electrolyte: Electrolyte, d
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     found = False
     for name in held:
-        spec = model.parameter(name)
+        spec = _spec(model, name)
         if spec.conventional_uncertainty is None:
             continue
         u = spec.conventional_uncertainty(electrolyte, data.constants)
@@ -518,33 +633,51 @@ def _held_parameter_covariance(model: ActivityModel, electrolyte: Electrolyte, d
 
 
 def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
-                  e0_type_b_variance_V2: float) -> tuple[pd.DataFrame, np.ndarray]:
+                  type_b: np.ndarray | None) -> tuple[pd.DataFrame, np.ndarray]:
     """All rows of the run with fitted EMF, residual and γ± (measured and model)."""
     electrolyte = run.metadata.electrolyte
-    s = sensitivity_matrix(fit.jacobian, data.weights)[0]
-    if data.stated_uncertainty:
-        reading_var = 1.0 / data.weights
-    else:
-        reading_var = np.full(len(data.emf_V), fit.chi2 / fit.dof)
+    n = len(data.emf_V)
+    sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
+    reading_var = (1.0 / data.weights if data.stated_uncertainty
+                   else np.full(n, fit.chi2 / fit.dof))
     usable = run.points["flag"].isna().to_numpy()
     u_m = run.points.loc[usable, "u_molality_mol_kg"].to_numpy(float)
-    cov_ln = ln_gamma_covariance(s, reading_var, data.nernst_V, (u_m / data.molality) ** 2,
-                                 e0_type_b_variance_V2=e0_type_b_variance_V2)
-    ln_gamma = (fit.e0 - data.emf_V) / data.nernst_V - data.ln_mean_molality
+
+    # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
+    slope = fit.values.get(SLOPE, data.slope)
+    scale = data.sign / (slope * data.nernst_V)
+    ln_gamma = (fit.e0 - data.emf_V) * scale - data.ln_mean_molality
+    parameter_gradient = np.zeros((n, 1 + len(fit.free)))
+    parameter_gradient[:, 0] = scale
+    if SLOPE in fit.free:
+        parameter_gradient[:, 1 + fit.free.index(SLOPE)] = -(fit.e0 - data.emf_V) * scale / slope
+    cov_ln = ln_gamma_covariance(parameter_gradient, -scale, sensitivity, reading_var,
+                                 (u_m / data.molality) ** 2, type_b_covariance=type_b)
     gamma = np.exp(ln_gamma)
     gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]
 
-    ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, fit.values)
-    # Model γ± uncertainty from the parameter covariance: d ln γ / dθ = −(∂E/∂θ)/k.
-    grad = -fit.jacobian[:, 1:] / data.nernst_V[:, None]
-    cov_theta = fit.covariance[1:, 1:]
-    var_model = np.einsum("ij,jk,ik->i", grad, cov_theta, grad) if fit.free else np.zeros(
-        len(data.molality))
+    # Model γ± and its uncertainty from the parameter covariance.
+    model_values = {name: fit.values[name] for name in model.parameter_names}
+    ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
+    model_free = [name for name in fit.free if name != SLOPE]
+    grad = np.zeros((n, 1 + len(fit.free)))
+    for name in model_free:
+        step = 1e-6 * max(1.0, abs(fit.values[name]))
+        up = model.ln_gamma(electrolyte, data.molality, data.constants,
+                            {**model_values, name: model_values[name] + step})
+        down = model.ln_gamma(electrolyte, data.molality, data.constants,
+                              {**model_values, name: model_values[name] - step})
+        grad[:, 1 + fit.free.index(name)] = (up - down) / (2.0 * step)
+    var_model = np.einsum("ij,jk,ik->i", grad, fit.covariance, grad)
 
     table = run.points.copy()
-    for column in ("fitted_emf_V", "residual_V", "ln_gamma_pm", "gamma_pm", "u_gamma_pm",
-                   "gamma_pm_model", "u_gamma_pm_model"):
+    for column in ("pressure_correction_V", "gas_pressure_Pa", "fitted_emf_V", "residual_V",
+                   "ln_gamma_pm", "gamma_pm", "u_gamma_pm", "gamma_pm_model",
+                   "u_gamma_pm_model"):
         table[column] = np.nan
+    if data.correction_V is not None:
+        table.loc[usable, "pressure_correction_V"] = data.correction_V
+        table.loc[usable, "gas_pressure_Pa"] = data.gas_pressure_Pa
     table.loc[usable, "fitted_emf_V"] = data.emf_V - fit.residual_V
     table.loc[usable, "residual_V"] = fit.residual_V
     table.loc[usable, "ln_gamma_pm"] = ln_gamma

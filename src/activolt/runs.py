@@ -30,12 +30,12 @@ KNOWN_COLUMNS: tuple[str, ...] = (
     "temperature_C", "temperature_K", "pressure_kPa", "electrode", "series", "note",
 )
 #: Columns read now but whose values the reduction does not use yet (named in a warning).
-NOT_YET_USED_COLUMNS: tuple[str, ...] = ("pressure_kPa",)
+NOT_YET_USED_COLUMNS: tuple[str, ...] = ()
 #: Metadata keys the reader understands.
 KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "electrolyte", "electrons", "temperature_C", "temperature_K", "cell",
-    "standard_pressure_kPa", "lab", "operator", "instrument", "date", "description",
-    "electrode", "notes",
+    "standard_pressure_kPa", "pressure_kPa", "bubbler_depth_cm", "slope_factor",
+    "lab", "operator", "instrument", "date", "description", "electrode", "notes",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
                        "notes")
@@ -64,6 +64,18 @@ class RunMetadata:
         The cell diagram as written, if given.
     info : dict
         Descriptive text (lab, operator, instrument, date, description, …), kept in the record.
+    electrolyte_sign : int
+        +1 when the cell reaction forms the electrolyte, −1 when it consumes it.
+    gas_coefficients : mapping
+        Gases in the cell reaction (as written for n electrons) and their signed coefficients.
+    barometric_pressure_Pa : float or None
+        Run-level barometric pressure [Pa]; per-row ``pressure_kPa`` values win.
+    bubbler_depth_m : float
+        Depth of solution above the hydrogen outlet [m], for the hydrostatic term.
+    slope_factor : float
+        Fixed slope factor s of the cell response, E = E° − s k ln(m± γ±) (1 = Nernstian).
+    fit_slope_factor : bool
+        Whether s is fitted alongside E° (ion-selective electrode pairs).
     """
 
     electrolyte: Electrolyte
@@ -72,6 +84,12 @@ class RunMetadata:
     temperature_K: float | None = None
     cell: str | None = None
     info: Mapping[str, str] = field(default_factory=dict)
+    electrolyte_sign: int = 1
+    gas_coefficients: Mapping[str, float] = field(default_factory=dict)
+    barometric_pressure_Pa: float | None = None
+    bubbler_depth_m: float = 0.0
+    slope_factor: float = 1.0
+    fit_slope_factor: bool = False
 
 
 @dataclass(frozen=True)
@@ -355,23 +373,14 @@ def _metadata(
             return InputError(problem, file=where, line=_key_line(text, key), column=key)
         return InputError(problem, file="command line", column=f"--{key.replace('_', '-')}")
 
-    if "electrolyte" not in merged:
-        raise InputError("the electrolyte is not given; add electrolyte = \"HCl\" (for example) "
-                         "to the metadata or give --electrolyte", file=where)
-    if not isinstance(merged["electrolyte"], str):
-        raise fail("electrolyte", "electrolyte must be a formula in double quotes, e.g. \"HCl\"")
-    try:
-        electrolyte = parse_electrolyte(merged["electrolyte"])
-    except ValueError as error:
-        raise fail("electrolyte", str(error)) from None
-
-    if "electrons" not in merged:
-        raise InputError("the number of electrons is not given; add electrons = 1 (for example) "
-                         "to the metadata or give --electrons", file=where)
-    electrons = merged["electrons"]
-    if isinstance(electrons, bool) or not isinstance(electrons, int) or electrons < 1:
-        raise fail("electrons", f"electrons must be a whole number ≥ 1 (n per formula unit), "
-                                f"got {electrons!r}")
+    cell = merged.get("cell")
+    stoichiometry = None
+    if cell is not None:
+        if not isinstance(cell, str):
+            raise fail("cell", "cell must be a cell diagram in double quotes")
+        stoichiometry = _cell_stoichiometry(cell, fail)
+    electrolyte = _electrolyte(merged, stoichiometry, where, fail)
+    electrons = _electrons(merged, stoichiometry, where, fail)
 
     temperature_K = None
     if "temperature_C" in merged and "temperature_K" in merged:
@@ -395,16 +404,102 @@ def _metadata(
                    f"standard_pressure_kPa must be 100 (IUPAC) or 101.325 (1 atm), got "
                    f"{pressure_kPa!r}")
 
-    cell = merged.get("cell")
-    if cell is not None and not isinstance(cell, str):
-        raise fail("cell", "cell must be a cell diagram in double quotes")
+    barometric_Pa = None
+    if "pressure_kPa" in merged:
+        value = merged["pressure_kPa"]
+        low, high = _PRESSURE_RANGE_KPA
+        if isinstance(value, bool) or not isinstance(value, int | float) or not (
+                low <= value <= high):
+            raise fail("pressure_kPa", f"pressure_kPa (barometric) must be a number from {low:g} "
+                                       f"to {high:g} kPa, got {value!r}")
+        barometric_Pa = float(value) * 1e3
+    bubbler_m = 0.0
+    if "bubbler_depth_cm" in merged:
+        value = merged["bubbler_depth_cm"]
+        if isinstance(value, bool) or not isinstance(value, int | float) or not 0 <= value <= 50:
+            raise fail("bubbler_depth_cm", "bubbler_depth_cm must be a depth from 0 to 50 cm "
+                                           f"of solution above the gas outlet, got {value!r}")
+        bubbler_m = float(value) / 100.0
+
+    slope = merged.get("slope_factor", 1.0)
+    fit_slope = slope == "fit"
+    if not fit_slope and (isinstance(slope, bool) or not isinstance(slope, int | float)
+                          or not 0.5 <= slope <= 1.2):
+        raise fail("slope_factor", "slope_factor must be \"fit\" or a number from 0.5 to 1.2 "
+                                   f"(1 = Nernstian), got {slope!r}")
+
     info = {k: str(merged[k]) for k in _TEXT_METADATA_KEYS if k in merged}
     metadata = RunMetadata(
         electrolyte=electrolyte, electrons=electrons,
         standard_pressure_Pa=float(pressure_kPa) * 1e3, temperature_K=temperature_K,
         cell=cell, info=info,
+        electrolyte_sign=1 if stoichiometry is None else int(stoichiometry.electrolyte_units),
+        gas_coefficients={} if stoichiometry is None else dict(stoichiometry.gas_coefficients),
+        barometric_pressure_Pa=barometric_Pa, bubbler_depth_m=bubbler_m,
+        slope_factor=1.0 if fit_slope else float(slope), fit_slope_factor=fit_slope,
     )
     return metadata, warnings
+
+
+def _cell_stoichiometry(cell: str, fail: Any) -> Any:
+    """What the reduction needs from a cell diagram; an InputError pointing into it otherwise."""
+    from .cells import DiagramError, cell_from_diagram
+
+    try:
+        stoichiometry = cell_from_diagram(cell)
+    except DiagramError as error:
+        raise fail("cell", f"{error.message} (at character {error.position + 1} of the "
+                           "diagram)") from None
+    if stoichiometry.liquid_junction:
+        raise fail("cell", "the cell has a liquid junction (||); activolt reduces cells "
+                           "without liquid junction — write one solution between the electrodes")
+    if stoichiometry.electrolyte is None:
+        raise fail("cell", "no single electrolyte is formed or consumed by this cell; check the "
+                           "electrodes and the solution")
+    return stoichiometry
+
+
+def _electrolyte(merged: Mapping[str, Any], stoichiometry: Any, where: str,
+                 fail: Any) -> Electrolyte:
+    if "electrolyte" not in merged:
+        if stoichiometry is not None:
+            return stoichiometry.electrolyte
+        raise InputError("the electrolyte is not given; add electrolyte = \"HCl\" (for example) "
+                         "or a cell diagram to the metadata, or give --electrolyte", file=where)
+    if not isinstance(merged["electrolyte"], str):
+        raise fail("electrolyte", "electrolyte must be a formula in double quotes, e.g. \"HCl\"")
+    try:
+        electrolyte = parse_electrolyte(merged["electrolyte"])
+    except ValueError as error:
+        raise fail("electrolyte", str(error)) from None
+    if stoichiometry is not None and electrolyte != stoichiometry.electrolyte:
+        raise fail("electrolyte", f"the cell diagram's electrolyte is "
+                                  f"{stoichiometry.electrolyte.formula}, not "
+                                  f"{electrolyte.formula}; remove one of the two")
+    return electrolyte
+
+
+def _electrons(merged: Mapping[str, Any], stoichiometry: Any, where: str, fail: Any) -> int:
+    from_cell = None
+    if stoichiometry is not None:
+        n = stoichiometry.electrons
+        if n != int(n):
+            raise fail("cell", f"the cell reaction transfers {n} electrons per formula unit; "
+                               "activolt needs a whole number")
+        from_cell = int(n)
+    if "electrons" not in merged:
+        if from_cell is not None:
+            return from_cell
+        raise InputError("the number of electrons is not given; add electrons = 1 (for example) "
+                         "to the metadata or give --electrons", file=where)
+    electrons = merged["electrons"]
+    if isinstance(electrons, bool) or not isinstance(electrons, int) or electrons < 1:
+        raise fail("electrons", f"electrons must be a whole number ≥ 1 (n per formula unit), "
+                                f"got {electrons!r}")
+    if from_cell is not None and electrons != from_cell:
+        raise fail("electrons", f"the cell diagram gives n = {from_cell}, not {electrons}; "
+                                "remove one of the two")
+    return electrons
 
 
 def read_run(
@@ -460,6 +555,14 @@ def read_run(
         )
     metadata, meta_warnings = _metadata(meta, text, metadata_path, overrides)
     warnings.extend(meta_warnings)
+    has_pressure = points["pressure_Pa"].notna().any() or metadata.barometric_pressure_Pa
+    if has_pressure and not metadata.gas_coefficients:
+        warnings.append(
+            "barometric pressures are given but not used: "
+            + ("the cell has no gas electrode" if metadata.cell else
+               "without a cell diagram activolt does not know the cell holds a gas; add cell = "
+               "\"Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)\" (for example) to the metadata")
+        )
 
     # the series first: temperatures and flagged rows of other series do not concern this one
     names = sorted(set(points["series"]))

@@ -1,15 +1,15 @@
 """Propagation of the fit's covariance to E°, γ± and what follows, keeping every correlation.
 
-The reduction gives E° as a linear function of the readings near the optimum,
-E° ≈ E°̂ + Σ_j s_j (E_j − Ê_j), with s the first row of the sensitivity matrix
-S = (JᵀWJ)⁻¹JᵀW. γ± at point i comes from the same readings:
+The reduction gives the fitted parameters (E° first) as a linear function of the readings near
+the optimum, δp = S δE with the sensitivity matrix S = (JᵀWJ)⁻¹JᵀW. γ± at point i comes from
+the fitted E° and the same readings:
 
-.. math:: \\ln γ_{±,i} = \\frac{E° − E_i}{k_i} − \\ln m_{±,i}
+.. math:: \\ln γ_{±,i} = σ \\frac{E° − E_i}{s k_i} − \\ln m_{±,i}
 
-so ln γ± = D (s 1ᵀ − I)ᵀ E + const, and its covariance is D A V Aᵀ D with A = 1 sᵀ − I,
-D = diag(1/k), V the covariance of the readings (GUM, JCGM 100:2008, §5.2: correlated input
-quantities). Treating E° and E_i as independent — a common shortcut — double-counts the reading
-E_i, which enters E° as well; :func:`ln_gamma_covariance` can do that for comparison.
+(σ = ±1 as the cell forms or consumes the electrolyte, s the slope factor, 1 unless fitted), so
+its covariance must follow E through both E° and E_i (GUM, JCGM 100:2008, §5.2: correlated input
+quantities). Treating E° and E_i as independent — a common shortcut — ignores that E_i is part of
+E°; :func:`ln_gamma_covariance` can do that for comparison.
 """
 
 from __future__ import annotations
@@ -47,49 +47,62 @@ def sensitivity_matrix(jacobian: np.ndarray, weights: np.ndarray) -> np.ndarray:
 
 
 def ln_gamma_covariance(
-    e0_sensitivity: npt.ArrayLike,
+    parameter_gradient: npt.ArrayLike,
+    reading_gradient: npt.ArrayLike,
+    sensitivity: npt.ArrayLike,
     reading_variance_V2: npt.ArrayLike,
-    nernst_factor_V: npt.ArrayLike,
     relative_molality_variance: npt.ArrayLike,
     keep_correlation: bool = True,
-    e0_type_b_variance_V2: float = 0.0,
+    type_b_covariance: npt.ArrayLike | None = None,
 ) -> np.ndarray:
     """Covariance matrix of ln γ± at the measured points.
 
+    ln γ±,i is a function of the fitted parameters p (E° first) and of its own reading E_i; the
+    parameters are themselves linear in the readings near the optimum, δp = S δE. Hence
+    δ ln γ± = (G_p S + diag g_E) δE, and
+
+    .. math:: \\mathrm{cov}(\\ln γ_±) = M V M^T + G_p T G_p^T + \\mathrm{diag}(u^2(m)/m^2),
+              \\quad M = G_p S + \\mathrm{diag}(g_E)
+
+    with V the covariance of the readings and T the Type B covariance of p from parameters held
+    at conventional values (GUM, JCGM 100:2008, 5.2).
+
     Parameters
     ----------
-    e0_sensitivity : array_like
-        s_j = ∂E°/∂E_j, shape (N,) [-].
+    parameter_gradient : array_like
+        G_p = ∂ ln γ±,i / ∂p_k, shape (N, P) [per parameter unit].
+    reading_gradient : array_like
+        g_E,i = ∂ ln γ±,i / ∂E_i, shape (N,) [V⁻¹].
+    sensitivity : array_like
+        S = ∂p/∂E, shape (P, N) (:func:`sensitivity_matrix`).
     reading_variance_V2 : array_like
-        Variance of each reading u²(E_j) (stated, or the fit's residual variance) [V²].
-    nernst_factor_V : array_like
-        k_i = νRT/(nF) at each point [V].
+        Variance of each reading (stated, or the fit's residual variance) [V²].
     relative_molality_variance : array_like
         (u(m_i)/m_i)² [-].
     keep_correlation : bool
-        True (the correct propagation) keeps that E° is made of the same readings; False treats
-        E° and E_i as independent, u²(E°) + u²(E_i), for comparison only.
-    e0_type_b_variance_V2 : float
-        Variance of E° from parameters held at conventional values (Type B) [V²]; it moves every
-        γ± together.
+        True (the correct propagation) keeps that p is made of the same readings; False treats
+        p and E_i as independent, G_p cov(p) G_pᵀ + g_E² V, for comparison only.
+    type_b_covariance : array_like, optional
+        T, shape (P, P) [parameter units²].
 
     Returns
     -------
     numpy.ndarray
         Covariance of ln γ±, shape (N, N) [-].
     """
-    s = np.asarray(e0_sensitivity, dtype=float)
+    g_p = np.asarray(parameter_gradient, dtype=float)
+    g_e = np.asarray(reading_gradient, dtype=float)
+    s = np.asarray(sensitivity, dtype=float)
     v = np.asarray(reading_variance_V2, dtype=float)
-    d = 1.0 / np.asarray(nernst_factor_V, dtype=float)
-    n = s.size
     if keep_correlation:
-        a = np.outer(np.ones(n), s) - np.eye(n)
-        cov = (a * v) @ a.T
+        m = g_p @ s + np.diag(g_e)
+        cov = (m * v) @ m.T
     else:
-        var_e0 = float(np.sum(s**2 * v))
-        cov = np.full((n, n), var_e0) + np.diag(v)
-    cov = cov + e0_type_b_variance_V2
-    return d[:, None] * cov * d[None, :] + np.diag(np.asarray(relative_molality_variance, float))
+        cov_p = (s * v) @ s.T
+        cov = g_p @ cov_p @ g_p.T + np.diag(g_e**2 * v)
+    if type_b_covariance is not None:
+        cov = cov + g_p @ np.asarray(type_b_covariance, dtype=float) @ g_p.T
+    return cov + np.diag(np.asarray(relative_molality_variance, dtype=float))
 
 
 def student_t_factor(dof: int, coverage: float = 0.95) -> float:

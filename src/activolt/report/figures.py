@@ -46,9 +46,9 @@ def extrapolation_function_V(reduction: Reduction) -> tuple[np.ndarray, np.ndarr
     meta = reduction.run.metadata
     m = points["molality_mol_kg"].to_numpy(float)
     t = points["temperature_K"].to_numpy(float)
-    k = nernst_factor(meta.electrolyte, meta.electrons, t)
-    y = (points["emf_V"].to_numpy(float)
-         + k * (np.log(meta.electrolyte.mean_molality(m)) + _ln_gamma_reference(reduction, m, t)))
+    k = reduction.response_factor_V(t)
+    emf = points["emf_V"].to_numpy(float) + points["pressure_correction_V"].fillna(0.0).to_numpy()
+    y = emf + k * (np.log(meta.electrolyte.mean_molality(m)) + _ln_gamma_reference(reduction, m, t))
     return m, y
 
 
@@ -57,14 +57,19 @@ def _model_curve(reduction: Reduction, molality: np.ndarray) -> tuple[np.ndarray
     uncertainty from the parameter covariance [V]."""
     meta = reduction.run.metadata
     t = np.full(molality.shape, reduction.temperature_K)
-    k = nernst_factor(meta.electrolyte, meta.electrons, t)
+    k = nernst_factor(meta.electrolyte, meta.electrons, t) * meta.electrolyte_sign
     constants = debye_hueckel_constants(t)
     values = reduction.parameter_values
     reference = _ln_gamma_reference(reduction, molality, t)
+    ln_m = np.log(meta.electrolyte.mean_molality(molality))
 
     def curve(e0: float, trial: dict[str, float]) -> np.ndarray:
-        ln_gamma = reduction.model.ln_gamma(meta.electrolyte, molality, constants, trial)
-        return e0 - k * (ln_gamma - reference)
+        model_values = {name: trial[name] for name in reduction.model.parameter_names}
+        ln_gamma = reduction.model.ln_gamma(meta.electrolyte, molality, constants, model_values)
+        slope = trial.get("slope_factor", meta.slope_factor)
+        # E(m) − E° on the fit, moved into the plot's coordinates with the plotted slope.
+        s_plot = reduction.slope_factor
+        return e0 - slope * k * (ln_m + ln_gamma) + s_plot * k * (ln_m + reference)
 
     e0 = reduction.standard_potential.nominal_value
     y = curve(e0, values)

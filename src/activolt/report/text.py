@@ -27,6 +27,7 @@ def format_report(reduction: Reduction) -> str:
     t_C = reduction.temperature_K - 273.15
     lines = [
         f"activolt reduction of {run.path.name}",
+        *([f"  cell: {meta.cell}"] if meta.cell else []),
         f"  electrolyte {meta.electrolyte.formula} ({meta.electrolyte.charge_type}), "
         f"n = {meta.electrons}, t = {t_C:.2f} °C, {stats.n_points} readings used"
         + (f" of {len(run.points)}" if len(run.points) != stats.n_points else ""),
@@ -34,6 +35,11 @@ def format_report(reduction: Reduction) -> str:
         "",
         "  " + _e0_line(reduction),
     ]
+    other = reduction.standard_potential_other_basis_V
+    if other is not None:
+        lines.append(f"  on the {other[0] / 1e3:g} kPa basis: E° = "
+                     + format_with_uncertainty(other[1] * 1e3,
+                                               reduction.standard_potential.std_dev * 1e3, "mV"))
     for p in reduction.parameters:
         shown = format_with_uncertainty(p.value, p.uncertainty, p.unit)
         lines.append(f"  {p.symbol} = {shown}" + (f" — {p.reason}" if p.fixed and p.reason
@@ -79,6 +85,8 @@ def format_report(reduction: Reduction) -> str:
                          f"{row['gamma_pm_published']:<9.3f}{mark}  "
                          f"{row['difference']:+.{places}f}")
         lines.append(f"  published: {comparison['source'].iloc[0]}")
+    if reduction.corrections:
+        lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
         lines += [""] + [f"  note: {n}" for n in reduction.notes]
     if reduction.warnings:

@@ -1,9 +1,11 @@
 """Make the demo run of the (invented) Kestrel Bay Electrochemistry Laboratory.
 
-A Harned cell Pt | H2(g, 1 atm) | HCl(aq, m) | AgCl(s) | Ag(s) at 25 °C over 15 molalities from
-0.001 to 1 mol/kg. The "true" γ± follow the Pitzer equations with the published HCl parameters
-shipped with activolt (Pitzer & Mayorga 1973), E° = 0.22234 V (Bates & Bower 1954, 1 atm basis),
-and the readings carry normal noise of 0.02 mV, the stated reading uncertainty. Demo data only:
+A Harned cell Pt | H2(g) | HCl(aq, m) | AgCl(s) | Ag(s) at 25 °C over 16 molalities from
+0.001 to 1 mol/kg, read at the day's barometric pressure (the hydrogen partial pressure is the
+barometric pressure less the vapour pressure of water). The "true" γ± follow the Pitzer
+equations with the published HCl parameters shipped with activolt (Pitzer & Mayorga 1973),
+E° = 0.22234 V (Bates & Bower 1954, 1 atm basis), and the readings carry normal noise of
+0.02 mV, the stated reading uncertainty. Demo data only:
 never a check value. Run from the project root:  .venv/bin/python sample_data/make_sample_run.py
 """
 
@@ -13,6 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
+from activolt.corrections import hydrogen_partial_pressure, hydrogen_pressure_correction
 from activolt.electrolytes import nernst_factor, parse_electrolyte
 from activolt.models import pitzer
 from activolt.reference.parameters import pitzer_parameters
@@ -37,26 +40,30 @@ def main() -> None:
     gamma = np.exp(pitzer.ln_gamma(hcl, m, constants, values))
     k = float(nernst_factor(hcl, 1, TEMPERATURE_K))
     rng = np.random.default_rng(20261202)
-    emf_V = E0_V - k * np.log(m * gamma) + rng.normal(0.0, NOISE_V, m.size)
+    emf_1atm_V = E0_V - k * np.log(m * gamma)
+    barometric_kPa = np.round(101.9 - 0.07 * np.arange(m.size) + rng.normal(0, 0.05, m.size), 2)
+    p_h2 = hydrogen_partial_pressure(barometric_kPa * 1e3, TEMPERATURE_K)
+    to_1atm = hydrogen_pressure_correction(TEMPERATURE_K, p_h2, 101325.0)
+    emf_V = emf_1atm_V - to_1atm + rng.normal(0.0, NOISE_V, m.size)
     lines = [
         "# Kestrel Bay Electrochemistry Laboratory — Harned cell dilution series, HCl, 25 °C",
-        "# Cell: Pt | H2(g) | HCl(aq, m) | AgCl(s) | Ag(s); readings corrected to 1 atm H2.",
+        "# Cell: Pt | H2(g) | HCl(aq, m) | AgCl(s) | Ag(s); readings as taken, barometer beside.",
         "# Demo data made by make_sample_run.py (invented lab and electrodes).",
-        "molality_mol_kg,emf_mV,u_emf_mV,electrode,note",
+        "molality_mol_kg,emf_mV,u_emf_mV,pressure_kPa,electrode,note",
     ]
-    for i, (molality, emf) in enumerate(zip(m, emf_V, strict=True)):
+    for i, (molality, emf, bar) in enumerate(zip(m, emf_V, barometric_kPa, strict=True)):
         electrode = f"KB-AgCl-{7 + i % 3:02d}"
         if molality == NO_READING:
-            lines.append(f"{molality:.4f},,0.020,{electrode},cell drifted; no stable reading")
+            lines.append(f"{molality:.4f},,0.020,{bar:.2f},{electrode},"
+                         "cell drifted; no stable reading")
         else:
-            lines.append(f"{molality:.4f},{emf * 1e3:.3f},0.020,{electrode},")
+            lines.append(f"{molality:.4f},{emf * 1e3:.3f},0.020,{bar:.2f},{electrode},")
     (HERE / f"{STEM}.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     (HERE / f"{STEM}.toml").write_text(
         '# Run metadata for kestrel_hcl_25C.csv (invented lab, demo only)\n'
-        'electrolyte = "HCl"\n'
-        "electrons = 1\n"
+        'cell = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"\n'
         "temperature_C = 25.0\n"
-        "standard_pressure_kPa = 101.325  # readings corrected to 1 atm hydrogen\n"
+        "standard_pressure_kPa = 100  # IUPAC basis; the report also gives E° on 1 atm\n"
         'lab = "Kestrel Bay Electrochemistry Laboratory"\n'
         'operator = "R. Okonkwo-Lind"\n'
         'instrument = "KB-DVM-2 electrometer, input impedance > 10^13 ohm"\n'
