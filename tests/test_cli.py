@@ -54,3 +54,22 @@ def test_json_elsewhere_and_model_choice(tmp_path, capsys):
         "value": 4.3, "uncertainty": None, "unit": "Å", "fixed": True,
         "reason": "held at the value given by the user"}
     assert not (tmp_path / "o" / "run.record.json").exists()
+
+
+def test_cell_command_prints_and_writes_json(tmp_path, capsys):
+    # Daniell cell: E° = 1.10 V, n = 2 (CRC Handbook electrochemical series: Cu 0.3419,
+    # Zn −0.7618 V).
+    out = tmp_path / "cell.json"
+    assert main(["cell", "Zn(s) | ZnSO4(aq) || CuSO4(aq) | Cu(s)", "--json", str(out)]) == 0
+    printed = capsys.readouterr().out
+    assert "n = 2" in printed and "liquid junction" in printed
+    data = json.loads(out.read_text())
+    assert data["electrons"] == 2
+    assert abs(data["standard_potential_V"]["value"] - 1.1037) < 1e-4
+    assert {"delta_g_kJ_mol", "log10_K", "reaction"} <= set(data)
+
+
+def test_cell_command_bad_diagram_is_one_line(tmp_path, capsys):
+    assert main(["cell", "Zn(s) | ZnSO4(aq) || || CuSO4(aq) | Cu(s)"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "salt bridges" in err[0] and "character" in err[0]
