@@ -104,6 +104,11 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
             "uncertainty_V": e0.std_dev,
             "method": "shifted by (RT/nF) Σ ν_gas ln(p°_new/p°_old); same uncertainty"},
         "corrections": list(reduction.corrections),
+        "catalogue_standard_potential_V": None if reduction.catalogue is None else {
+            "value": reduction.catalogue.standard_potential_V,
+            "uncertainty": reduction.catalogue.u_standard_potential_V,
+            "couples": reduction.catalogue.couples,
+            "method": "electrode catalogue at the run temperature, on the run's pressure basis"},
         "electrolyte_sign": meta.electrolyte_sign,
         "delta_g_kJ_mol": _with_u(standard_gibbs_energy_kJ_mol(e0, meta.electrons),
                                   "ΔG° = −nFE°, propagated from E°"),

@@ -108,6 +108,16 @@ class LinearExtrapolation:
 
 
 @dataclass(frozen=True)
+class CatalogueValue:
+    """E° of the run's cell from the electrode catalogue, at the run temperature and on the
+    run's pressure basis, for comparison with the fitted value."""
+
+    standard_potential_V: float
+    u_standard_potential_V: float
+    couples: str
+
+
+@dataclass(frozen=True)
 class Reduction:
     """The result of reducing one run: E°, the model, γ± at every point, diagnostics."""
 
@@ -126,6 +136,7 @@ class Reduction:
     notes: tuple[str, ...] = field(default=())
     corrections: tuple[str, ...] = field(default=())
     other_basis: tuple[float, float] | None = None
+    catalogue: CatalogueValue | None = None
 
     @property
     def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
@@ -555,6 +566,7 @@ def reduce_run(run: Run, model: str = "hueckel",
     )
     e0_value = correlated_values([fit.e0], fit.covariance[:1, :1])[0]
     corrections, other_basis = _corrections_summary(run, data, float(np.mean(temperature)))
+    catalogue = _catalogue_value(run, float(np.mean(temperature)))
     return Reduction(
         run=run, model=family, temperature_K=float(np.mean(temperature)),
         standard_potential=e0_value, parameters=parameters,
@@ -562,8 +574,29 @@ def reduce_run(run: Run, model: str = "hueckel",
         points=table, gamma_covariance=gamma_cov,
         linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
         warnings=tuple(warnings), notes=tuple(notes),
-        corrections=corrections, other_basis=other_basis,
+        corrections=corrections, other_basis=other_basis, catalogue=catalogue,
     )
+
+
+def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
+    """The catalogue's E° of the run's cell (when both couples are known), on the run's basis."""
+    meta = run.metadata
+    if meta.cell is None:
+        return None
+    from .cells import cell_summary
+    from .corrections import standard_pressure_basis_shift
+
+    summary = cell_summary(meta.cell, temperature_K)
+    e0 = summary.get("standard_potential_V")
+    if e0 is None or e0.get("value") is None:
+        return None
+    value = e0["value"]
+    if meta.gas_coefficients:
+        value += float(standard_pressure_basis_shift(
+            temperature_K, meta.electrons, meta.gas_coefficients,
+            summary["standard_pressure_kPa"] * 1e3, meta.standard_pressure_Pa))
+    couples = f"{summary['left']['couple']} and {summary['right']['couple']}"
+    return CatalogueValue(value, e0["uncertainty"], couples)
 
 
 def _corrections_summary(run: Run, data: _Data, temperature_K: float

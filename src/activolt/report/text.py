@@ -40,6 +40,17 @@ def format_report(reduction: Reduction) -> str:
         lines.append(f"  on the {other[0] / 1e3:g} kPa basis: E° = "
                      + format_with_uncertainty(other[1] * 1e3,
                                                reduction.standard_potential.std_dev * 1e3, "mV"))
+    catalogue = reduction.catalogue
+    if catalogue is not None:
+        difference = reduction.standard_potential - catalogue.standard_potential_V
+        u_diff = (reduction.standard_potential.std_dev**2
+                  + catalogue.u_standard_potential_V**2) ** 0.5
+        lines.append(
+            f"  catalogue E° ({catalogue.couples}, same T and basis): "
+            + format_with_uncertainty(catalogue.standard_potential_V * 1e3,
+                                      catalogue.u_standard_potential_V * 1e3, "mV")
+            + "; this run − catalogue = "
+            + format_with_uncertainty(difference.nominal_value * 1e3, u_diff * 1e3, "mV"))
     for p in reduction.parameters:
         shown = format_with_uncertainty(p.value, p.uncertainty, p.unit)
         lines.append(f"  {p.symbol} = {shown}" + (f" — {p.reason}" if p.fixed and p.reason
