@@ -119,7 +119,13 @@ class CatalogueValue:
 
 @dataclass(frozen=True)
 class Reduction:
-    """The result of reducing one run: E°, the model, γ± at every point, diagnostics."""
+    """The result of reducing one run: E°, the model, γ± at every point, diagnostics.
+
+    ``covariance`` is over (E°, free parameters) — ``free_names`` — and includes the Type B
+    part that parameters held at a conventional value with a stated uncertainty add to them.
+    ``uncertain_covariance`` extends it to those held parameters themselves
+    (``uncertain_names``), for quantities that depend on them directly (model γ±, φ, a_w).
+    """
 
     run: Run
     model: ActivityModel
@@ -137,6 +143,8 @@ class Reduction:
     corrections: tuple[str, ...] = field(default=())
     other_basis: tuple[float, float] | None = None
     catalogue: CatalogueValue | None = None
+    uncertain_names: tuple[str, ...] = ()
+    uncertain_covariance: np.ndarray | None = None
 
     @property
     def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
@@ -384,23 +392,43 @@ def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
 
 def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
                    fit: _Fit, values: dict[str, float]) -> tuple[str, str] | None:
-    """A free parameter whose fitting the data do not support (BIC no better than holding it
-    at its conventional value), non-linear parameters first; and why."""
-    order = sorted(fit.free, key=lambda name: _spec(model, name).linear)
-    for name in order:
-        held_values = {**fit.values, name: _spec(model, name).conventional(
-            electrolyte, data.constants)}
+    """The free parameter to hold next, and why, or None.
+
+    A parameter whose conventional value carries a stated uncertainty is held when the data
+    determine it less precisely than the convention does (u_fit > u_conv): the more precise
+    source wins, and the convention's uncertainty then enters as a Type B component. Any other
+    parameter is held when holding it at its conventional value gives a BIC no higher than
+    fitting it; among several, the one with the lowest BIC, non-linear parameters first on a tie
+    (backward elimination; Burnham & Anderson 2002, §3.4).
+    """
+    best_convention: tuple[float, str, str] | None = None
+    best_bic: tuple[float, bool, str] | None = None
+    for index, name in enumerate(fit.free, start=1):
+        spec = _spec(model, name)
+        conventional = spec.conventional(electrolyte, data.constants)
+        u_fit = math.sqrt(fit.covariance[index, index])
+        if spec.conventional_uncertainty is not None:
+            u_conv = spec.conventional_uncertainty(electrolyte, data.constants)
+            if u_fit > u_conv and (best_convention is None or u_fit / u_conv > best_convention[0]):
+                best_convention = (u_fit / u_conv, name, (
+                    f"the convention {conventional:.4g} ± {u_conv:.2g} {spec.unit} is more "
+                    f"precise than these data ({fit.values[name]:.3g} ± {u_fit:.2g})"))
+            continue
         try:
-            held = _fit_once(model, electrolyte, data, held_values,
+            held = _fit_once(model, electrolyte, data, {**fit.values, name: conventional},
                              [f for f in fit.free if f != name])
         except FitError:
             continue
-        if held.bic <= fit.bic:
-            spec = _spec(model, name)
-            return name, (f"the data do not support fitting it (BIC {held.bic:.1f} held vs "
-                          f"{fit.bic:.1f} fitted; fitted value {fit.values[name]:.3g} "
-                          f"{spec.unit})")
-    return None
+        if held.bic <= fit.bic and (best_bic is None or (held.bic, spec.linear) < best_bic[:2]):
+            best_bic = (held.bic, spec.linear, name)
+    if best_convention is not None:
+        return best_convention[1], best_convention[2]
+    if best_bic is None:
+        return None
+    bic, _, name = best_bic
+    spec = _spec(model, name)
+    return name, (f"the data do not support fitting it (BIC {bic:.1f} held vs {fit.bic:.1f} "
+                  f"fitted; fitted value {fit.values[name]:.3g} {spec.unit})")
 
 
 def _linear_extrapolation(run: Run, data: _Data, slope: float) -> LinearExtrapolation | None:
@@ -492,7 +520,10 @@ def reduce_run(run: Run, model: str = "hueckel",
             reasons[spec.name] = "held at the value given by the user"
         else:
             values[spec.name] = spec.conventional(electrolyte, data.constants)
-    free = [p.name for p in specs if p.name not in fixed]
+            if spec.applies_to is not None and not spec.applies_to(electrolyte):
+                reasons[spec.name] = (f"not used for {electrolyte.charge_type} electrolytes "
+                                      f"({spec.description})")
+    free = [p.name for p in specs if p.name not in reasons]
 
     # Hold parameters until every free one is determined and at least one degree of freedom is
     # left; held parameters take their conventional values.
@@ -525,10 +556,18 @@ def reduce_run(run: Run, model: str = "hueckel",
         notes.append(f"holding {', '.join(n for n in reasons if n not in fixed)} moved E° by "
                      f"{shift_mV:+.3f} mV from the fit with every parameter free")
 
-    type_b = _held_parameter_covariance(family, electrolyte, data, fit,
-                                        [n for n in reasons if n not in fixed])
-    if type_b is not None:
+    effects = _held_parameter_effects(family, electrolyte, data, fit,
+                                      [n for n in reasons if n not in fixed])
+    type_b = None
+    uncertain_names = (E0, *fit.free)
+    if effects is not None:
+        held_names, moves, variances = effects
+        type_b = (moves * variances) @ moves.T
+        cross = moves * variances
         fit.covariance = fit.covariance + type_b
+        uncertain_names = (*uncertain_names, *held_names)
+        uncertain_covariance = np.block([[fit.covariance, cross],
+                                         [cross.T, np.diag(variances)]])
         notes.append(
             "u(E°) includes a component of "
             f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
@@ -553,7 +592,10 @@ def reduce_run(run: Run, model: str = "hueckel",
                 f"(p = {p_value:.2g}); check u(EMF) or the model"
             )
 
-    table, gamma_cov = _points_table(run, family, data, fit, type_b)
+    if effects is None:
+        uncertain_covariance = fit.covariance
+    table, gamma_cov = _points_table(run, family, data, fit, type_b, uncertain_names,
+                                     uncertain_covariance)
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
@@ -575,6 +617,7 @@ def reduce_run(run: Run, model: str = "hueckel",
         linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
         warnings=tuple(warnings), notes=tuple(notes),
         corrections=corrections, other_basis=other_basis, catalogue=catalogue,
+        uncertain_names=uncertain_names, uncertain_covariance=uncertain_covariance,
     )
 
 
@@ -642,31 +685,34 @@ def _statistics(fit: _Fit, data: _Data) -> FitStatistics:
     )
 
 
-def _held_parameter_covariance(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
-                               fit: _Fit, held: list[str]) -> np.ndarray | None:
-    """Covariance added to (E°, free parameters) by parameters held at conventional values
-    with a stated uncertainty: Δp = −S (∂E/∂θ_h) Δθ_h, to first order (GUM 5.1.2)."""
-    total = np.zeros_like(fit.covariance)
+def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+                            fit: _Fit, held: list[str]
+                            ) -> tuple[list[str], np.ndarray, np.ndarray] | None:
+    """Parameters held at conventional values with a stated uncertainty: their names, how
+    (E°, free parameters) move with each, M = −S ∂E/∂θ_h (P × H), and their variances u²(θ_h)
+    (GUM 5.1.2, to first order); None when there are none."""
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
-    found = False
+    names, columns, variances = [], [], []
     for name in held:
         spec = _spec(model, name)
         if spec.conventional_uncertainty is None:
             continue
-        u = spec.conventional_uncertainty(electrolyte, data.constants)
         step = 1e-6 * max(1.0, abs(fit.values[name]))
         up = _model_emf(model, electrolyte, data, fit.e0, {**fit.values,
                                                           name: fit.values[name] + step})
         down = _model_emf(model, electrolyte, data, fit.e0, {**fit.values,
                                                             name: fit.values[name] - step})
-        moved = -sensitivity @ ((up - down) / (2.0 * step))
-        total += np.outer(moved, moved) * u**2
-        found = True
-    return total if found else None
+        names.append(name)
+        columns.append(-sensitivity @ ((up - down) / (2.0 * step)))
+        variances.append(spec.conventional_uncertainty(electrolyte, data.constants) ** 2)
+    if not names:
+        return None
+    return names, np.column_stack(columns), np.asarray(variances)
 
 
 def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
-                  type_b: np.ndarray | None) -> tuple[pd.DataFrame, np.ndarray]:
+                  type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
+                  uncertain_covariance: np.ndarray) -> tuple[pd.DataFrame, np.ndarray]:
     """All rows of the run with fitted EMF, residual and γ± (measured and model)."""
     electrolyte = run.metadata.electrolyte
     n = len(data.emf_V)
@@ -692,16 +738,17 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
     # Model γ± and its uncertainty from the parameter covariance.
     model_values = {name: fit.values[name] for name in model.parameter_names}
     ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
-    model_free = [name for name in fit.free if name != SLOPE]
-    grad = np.zeros((n, 1 + len(fit.free)))
-    for name in model_free:
+    grad = np.zeros((n, len(uncertain_names)))
+    for index, name in enumerate(uncertain_names):
+        if name not in model_values:
+            continue
         step = 1e-6 * max(1.0, abs(fit.values[name]))
         up = model.ln_gamma(electrolyte, data.molality, data.constants,
                             {**model_values, name: model_values[name] + step})
         down = model.ln_gamma(electrolyte, data.molality, data.constants,
                               {**model_values, name: model_values[name] - step})
-        grad[:, 1 + fit.free.index(name)] = (up - down) / (2.0 * step)
-    var_model = np.einsum("ij,jk,ik->i", grad, fit.covariance, grad)
+        grad[:, index] = (up - down) / (2.0 * step)
+    var_model = np.einsum("ij,jk,ik->i", grad, uncertain_covariance, grad)
 
     table = run.points.copy()
     for column in ("pressure_correction_V", "gas_pressure_Pa", "fitted_emf_V", "residual_V",

@@ -48,6 +48,9 @@ class Parameter:
     conventional_uncertainty : Callable[[Electrolyte, DebyeHueckelConstants], float] or None
         Standard uncertainty of the conventional value (GUM Type B), propagated to E° whenever the
         parameter is held at the convention because the data cannot determine it; None means 0.
+    applies_to : Callable[[Electrolyte], bool] or None
+        Whether the parameter has a meaning for an electrolyte's charge type; where it has not,
+        the reduction holds it at its conventional value and says why. None means always.
     """
 
     name: str
@@ -60,6 +63,7 @@ class Parameter:
     minimum: float = -math.inf
     maximum: float = math.inf
     conventional_uncertainty: Callable[[Electrolyte, DebyeHueckelConstants], float] | None = None
+    applies_to: Callable[[Electrolyte], bool] | None = None
 
 
 @dataclass(frozen=True)

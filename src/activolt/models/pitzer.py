@@ -31,7 +31,7 @@ CRC Press, ch. 3, eqs. 59–66.
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 
 import numpy as np
 import numpy.typing as npt
@@ -390,6 +390,22 @@ def _conventional(name: str):
 
 _CONVENTION = "published value at 25 °C (reference table pitzer_parameters), else 0"
 
+#: Standard uncertainties given to published Pitzer parameters when a reduction holds them
+#: (GUM Type B): twice the difference between two published NaCl sets at 25 °C — Pitzer &
+#: Mayorga (1973) 0.0765, 0.2664, 0.00127 against Pitzer, Peiper & Busey (1984) 0.0754, 0.2770,
+#: 0.00140 (reference-values.md) — rounded up; common practice for a parameter set of unknown
+#: standard error. Parameters with no published value (held at 0) get the same.
+PUBLISHED_PARAMETER_UNCERTAINTY = {"beta0_kg_mol": 0.003, "beta1_kg_mol": 0.03,
+                                   "cphi_kg2_mol2": 0.0003}
+
+
+def _published_uncertainty(name: str) -> Callable[[Electrolyte, DebyeHueckelConstants], float]:
+    def uncertainty(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
+        return PUBLISHED_PARAMETER_UNCERTAINTY[name]
+
+    return uncertainty
+
+
 MODEL = ActivityModel(
     name="pitzer",
     title="Pitzer equations",
@@ -402,6 +418,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("beta0_kg_mol"),
             convention=_CONVENTION,
+            conventional_uncertainty=_published_uncertainty("beta0_kg_mol"),
             minimum=-2.0,
             maximum=2.0,
         ),
@@ -413,6 +430,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("beta1_kg_mol"),
             convention=_CONVENTION,
+            conventional_uncertainty=_published_uncertainty("beta1_kg_mol"),
             minimum=-10.0,
             maximum=20.0,
         ),
@@ -424,6 +442,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("beta2_kg_mol"),
             convention=_CONVENTION,
+            applies_to=lambda electrolyte: alphas(electrolyte)[0] != 2.0,
             minimum=-200.0,
             maximum=10.0,
         ),
@@ -435,6 +454,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("cphi_kg2_mol2"),
             convention=_CONVENTION,
+            conventional_uncertainty=_published_uncertainty("cphi_kg2_mol2"),
             minimum=-0.5,
             maximum=0.5,
         ),

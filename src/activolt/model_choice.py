@@ -1,0 +1,634 @@
+r"""Which activity-coefficient model a run supports, and what the choice adds to u(E°).
+
+A run is reduced with every applicable model (:func:`compare_models`). Each fit is judged
+*adequate* or *inadequate* by the criteria below, all stated in advance and all recorded:
+
+1. **χ² against the stated reading uncertainties** (only when every reading carries one): the
+   fit is inadequate when the upper-tail probability of its χ² with ν = N − P degrees of freedom
+   is below :data:`CHI2_P_MIN` (0.01), i.e. the residuals are too large for the stated u(E).
+2. **Residual variance relative to the best fit** (only without stated uncertainties, where χ²
+   cannot be judged absolutely): with s² = χ²/ν, the fit is inadequate when the F-test
+   probability of s²/s²_min (ν, ν_min) is below :data:`VARIANCE_RATIO_P_MIN` (0.01), s²_min being
+   the smallest residual variance among the fitted models.
+3. **Wald–Wolfowitz runs test of the residual signs**, in order of increasing molality: the fit
+   is inadequate when the residual signs form *fewer* runs than chance allows, exact lower-tail
+   probability below :data:`RUNS_P_MIN` (0.05). A model that misses a curvature leaves long runs
+   of one sign; too many runs (alternating signs) point to the measurement sequence rather than
+   to the model, and only give a note. The two-sided probability is reported as well.
+4. **Ionic-strength range**: the fit is inadequate when the run reaches beyond the ionic
+   strength up to which the model family is commonly adequate
+   (:attr:`~activolt.models.base.ActivityModel.max_ionic_strength`).
+
+Parameters held at a conventional value (by the reduction or by this module) do not make a fit
+inadequate; they are listed as notes. A model whose reduction fails (:class:`FitError`) is
+skipped, with the reason.
+
+**Model-choice component of u(E°).** The E° of the adequate models differ because the models
+extrapolate differently to m = 0. With E°_max and E°_min the largest and smallest E° among the
+adequate models, the model-choice standard uncertainty is taken as a rectangular distribution
+over that range (GUM, JCGM 100:2008, 4.3.7):
+
+.. math:: u_\mathrm{model} = \frac{E°_\max − E°_\min}{2\sqrt{3}}
+
+It is 0 when fewer than two models are adequate (then the run cannot tell; a note says so). The
+recommended model is the adequate one with the lowest BIC, and its combined standard uncertainty
+is
+
+.. math:: u(E°) = \sqrt{u_\mathrm{fit}^2 + u_\mathrm{model}^2}
+
+**Pitzer β(2).** The β(2) term is published only for 2:2 and higher charge types (Pitzer &
+Mayorga 1974); for other charge types it trades off against E° in a fit. The comparison holds it
+at 0 for those charge types unless the caller gives a value in ``fixed``.
+
+References
+----------
+.. [1] Wald, A. & Wolfowitz, J. (1940). On a test whether two samples are from the same
+   population. Ann. Math. Statist. 11, 147–162. https://doi.org/10.1214/aoms/1177731909
+.. [2] Swed, F. S. & Eisenhart, C. (1943). Tables for testing randomness of grouping in a
+   sequence of alternatives. Ann. Math. Statist. 14, 66–87 (exact distribution of the number of
+   runs; from memory).
+.. [3] JCGM 100:2008 (GUM), Evaluation of measurement data — Guide to the expression of
+   uncertainty in measurement, 4.3.7 and 5.1.2.
+.. [4] Schwarz, G. (1978). Estimating the dimension of a model. Ann. Statist. 6, 461–464;
+   Burnham, K. P. & Anderson, D. R. (2002). Model Selection and Multimodel Inference, §2.2.
+.. [5] Pitzer, K. S. & Mayorga, G. (1974). J. Solution Chem. 3, 539–546.
+   https://doi.org/10.1007/BF00648138
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import numpy.typing as npt
+
+from .errors import FitError, InputError
+from .models import MODELS, get_model
+from .models.pitzer import alphas
+from .reduce import FitStatistics, FittedParameter, Reduction, reduce_run
+from .runs import Run, usable_points
+
+__all__ = [
+    "CHI2_P_MIN",
+    "RUNS_P_MIN",
+    "VARIANCE_RATIO_P_MIN",
+    "ModelAssessment",
+    "ModelComparison",
+    "RunsTest",
+    "SkippedModel",
+    "compare_models",
+    "comparison_record",
+    "runs_test",
+]
+
+#: A fit with stated reading uncertainties is inadequate below this χ² upper-tail probability.
+CHI2_P_MIN = 0.01
+#: Without stated uncertainties, a fit is inadequate below this F-test probability of its
+#: residual variance relative to the smallest among the fitted models.
+VARIANCE_RATIO_P_MIN = 0.01
+#: A fit is inadequate when its residual signs form fewer runs than this lower-tail probability.
+RUNS_P_MIN = 0.05
+#: The rule for the model-choice component, as printed and recorded.
+MODEL_CHOICE_RULE = ("u_model = (max E° − min E°)/(2√3) over the adequate models: a rectangular "
+                     "distribution over their range (GUM 4.3.7); 0 with fewer than two")
+#: The rule for the recommendation, as printed and recorded.
+RECOMMENDATION_RULE = "the adequate model with the lowest BIC"
+
+
+@dataclass(frozen=True)
+class RunsTest:
+    """Wald–Wolfowitz runs test of a sequence of signs.
+
+    Attributes
+    ----------
+    n_positive, n_negative : int
+        Numbers of positive and negative values (zeros are left out) [-].
+    runs : int
+        Number of runs (maximal blocks of one sign) [-].
+    expected_runs : float
+        Mean number of runs given the counts, 2 n₊ n₋ / n + 1 [-].
+    sd_runs : float
+        Its standard deviation [-].
+    z : float
+        (runs − expected)/sd, the normal approximation [-]; NaN when sd is 0.
+    p_value_two_sided : float
+        Exact two-sided probability, 2 min(P(R ≤ r), P(R ≥ r)), capped at 1 [-].
+    p_value_fewer : float
+        Exact lower-tail probability P(R ≤ r): too few runs, the sign of a systematic misfit [-].
+    """
+
+    n_positive: int
+    n_negative: int
+    runs: int
+    expected_runs: float
+    sd_runs: float
+    z: float
+    p_value_two_sided: float
+    p_value_fewer: float
+
+
+@dataclass(frozen=True)
+class ModelAssessment:
+    """One model's fit to the run and the verdict on its adequacy.
+
+    Attributes
+    ----------
+    name, title : str
+        The model's command-line name and printed title.
+    standard_potential_V, u_standard_potential_V : float
+        E° and its standard uncertainty from the fit (k = 1) [V].
+    parameters : tuple of FittedParameter
+        Every model parameter, fitted or held.
+    statistics : FitStatistics
+        χ², reduced χ², AIC, BIC, degrees of freedom.
+    chi2_p_value : float
+        Upper-tail probability of χ² with the fit's degrees of freedom; NaN without stated
+        reading uncertainties [-].
+    variance_ratio_p_value : float
+        F-test probability of the residual variance relative to the smallest among the fitted
+        models; NaN with stated reading uncertainties [-].
+    runs_test : RunsTest
+        Runs test of the residual signs in order of increasing molality.
+    max_ionic_strength_mol_kg : float
+        Largest ionic strength in the run [mol kg⁻¹].
+    model_max_ionic_strength_mol_kg : float
+        Ionic strength up to which the family is commonly adequate [mol kg⁻¹].
+    adequate : bool
+        Whether every criterion is met.
+    reasons : tuple of str
+        Why the fit is inadequate (empty when adequate).
+    notes : tuple of str
+        Held parameters and other remarks that do not affect the verdict.
+    warnings : tuple of str
+        The reduction's own warnings.
+    reduction : Reduction
+        The full reduction (not compared, not printed), for reuse without refitting.
+    """
+
+    name: str
+    title: str
+    standard_potential_V: float
+    u_standard_potential_V: float
+    parameters: tuple[FittedParameter, ...]
+    statistics: FitStatistics
+    chi2_p_value: float
+    variance_ratio_p_value: float
+    runs_test: RunsTest
+    max_ionic_strength_mol_kg: float
+    model_max_ionic_strength_mol_kg: float
+    adequate: bool
+    reasons: tuple[str, ...]
+    notes: tuple[str, ...]
+    warnings: tuple[str, ...]
+    reduction: Reduction = field(repr=False, compare=False)
+
+    @property
+    def verdict(self) -> str:
+        """``"adequate"`` or ``"inadequate: <reasons>"``."""
+        return "adequate" if self.adequate else "inadequate: " + "; ".join(self.reasons)
+
+
+@dataclass(frozen=True)
+class SkippedModel:
+    """A model that could not be fitted to the run, and why."""
+
+    name: str
+    title: str
+    reason: str
+
+
+@dataclass(frozen=True)
+class ModelComparison:
+    """The run reduced with several models; the spread of E° and the recommendation.
+
+    Attributes
+    ----------
+    electrolyte : str
+        Formula of the electrolyte.
+    temperature_K : float
+        Mean temperature of the run [K].
+    n_points : int
+        Usable readings [-].
+    stated_uncertainty : bool
+        Whether every reading carries a stated uncertainty (χ² judged absolutely).
+    assessments : tuple of ModelAssessment
+        One per fitted model, in the order asked.
+    skipped : tuple of SkippedModel
+        Models that could not be fitted.
+    spread_V : float
+        max E° − min E° over the adequate models (0 with fewer than two) [V].
+    u_model_choice_V : float
+        Model-choice standard uncertainty, ``spread_V``/(2√3); NaN when no model is adequate [V].
+    recommended : str or None
+        Name of the recommended model; None when no model is adequate.
+    standard_potential_V, u_fit_V, u_combined_V : float
+        E° of the recommended model, its fit uncertainty and the combined
+        √(u_fit² + u_model²) (k = 1); NaN when no model is adequate [V].
+    notes, warnings : tuple of str
+        Remarks, and what the user must know (inadequate fits, no adequate model).
+    """
+
+    electrolyte: str
+    temperature_K: float
+    n_points: int
+    stated_uncertainty: bool
+    assessments: tuple[ModelAssessment, ...]
+    skipped: tuple[SkippedModel, ...]
+    spread_V: float
+    u_model_choice_V: float
+    recommended: str | None
+    standard_potential_V: float
+    u_fit_V: float
+    u_combined_V: float
+    notes: tuple[str, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def adequate_models(self) -> tuple[str, ...]:
+        """Names of the adequate models, in the order asked."""
+        return tuple(a.name for a in self.assessments if a.adequate)
+
+    def assessment(self, name: str) -> ModelAssessment:
+        """The assessment of model ``name``; ``KeyError`` listing the fitted ones otherwise."""
+        for a in self.assessments:
+            if a.name == name:
+                return a
+        raise KeyError(f"model '{name}' was not fitted; fitted: "
+                       f"{', '.join(a.name for a in self.assessments) or 'none'}")
+
+    @property
+    def recommended_reduction(self) -> Reduction | None:
+        """The reduction of the recommended model, or None."""
+        return None if self.recommended is None else self.assessment(self.recommended).reduction
+
+
+def _log_run_probability(runs: int, n1: int, n2: int) -> float:
+    """ln P(R = runs | n1, n2) for a random arrangement (Swed & Eisenhart 1943)."""
+    total = math.comb(n1 + n2, n1)
+    if runs % 2 == 0:
+        k = runs // 2
+        ways = 2 * math.comb(n1 - 1, k - 1) * math.comb(n2 - 1, k - 1)
+    else:
+        k = (runs - 1) // 2
+        ways = (math.comb(n1 - 1, k) * math.comb(n2 - 1, k - 1)
+                + math.comb(n1 - 1, k - 1) * math.comb(n2 - 1, k))
+    return -math.inf if ways == 0 else math.log(ways) - math.log(total)
+
+
+def runs_test(values: npt.ArrayLike) -> RunsTest:
+    r"""Wald–Wolfowitz runs test of the signs of a sequence.
+
+    Parameters
+    ----------
+    values : array_like
+        The sequence in its natural order (residuals ordered by molality) [any unit]. Zeros and
+        NaN are left out.
+
+    Returns
+    -------
+    RunsTest
+        Counts, runs, the normal-approximation z and the exact probabilities. With only one sign
+        present the test cannot be made: z and the probabilities are NaN.
+
+    Notes
+    -----
+    Given n₊ positive and n₋ negative values (n = n₊ + n₋), the number of runs R of a random
+    arrangement has
+
+    .. math:: μ_R = \frac{2 n_+ n_-}{n} + 1, \qquad
+              σ_R^2 = \frac{2 n_+ n_- (2 n_+ n_- − n)}{n^2 (n − 1)}
+
+    (Wald & Wolfowitz 1940). The probabilities are exact, from the distribution of R
+    (Swed & Eisenhart 1943): with k = R/2 for even R,
+    P(R) = 2 C(n₊−1, k−1) C(n₋−1, k−1) / C(n, n₊), and with k = (R−1)/2 for odd R,
+    P(R) = [C(n₊−1, k) C(n₋−1, k−1) + C(n₊−1, k−1) C(n₋−1, k)] / C(n, n₊).
+
+    References
+    ----------
+    .. [1] Wald, A. & Wolfowitz, J. (1940). Ann. Math. Statist. 11, 147–162.
+       https://doi.org/10.1214/aoms/1177731909
+    .. [2] Swed, F. S. & Eisenhart, C. (1943). Ann. Math. Statist. 14, 66–87.
+
+    Examples
+    --------
+    Four positive and four negative values in two blocks of two: R = 4 runs, μ_R = 5, and
+    P(R ≤ 4) = 26/70 (hand count over the C(8, 4) = 70 arrangements):
+
+    >>> t = runs_test([1, 1, -1, -1, 1, 1, -1, -1])
+    >>> t.runs, t.expected_runs, round(t.p_value_fewer, 4), round(26 / 70, 4)
+    (4, 5.0, 0.3714, 0.3714)
+    """
+    x = np.asarray(values, dtype=float).ravel()
+    signs = np.sign(x[np.isfinite(x) & (x != 0.0)])
+    n1 = int(np.sum(signs > 0))
+    n2 = int(np.sum(signs < 0))
+    n = n1 + n2
+    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n else 0
+    if n1 == 0 or n2 == 0:
+        return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=float(runs),
+                        sd_runs=0.0, z=math.nan, p_value_two_sided=math.nan,
+                        p_value_fewer=math.nan)
+    expected = 2.0 * n1 * n2 / n + 1.0
+    variance = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1)) if n > 1 else 0.0
+    sd = math.sqrt(variance)
+    z = (runs - expected) / sd if sd > 0.0 else math.nan
+    probabilities = {r: math.exp(_log_run_probability(r, n1, n2))
+                     for r in range(2, n + 1)}
+    fewer = min(1.0, sum(p for r, p in probabilities.items() if r <= runs))
+    more = min(1.0, sum(p for r, p in probabilities.items() if r >= runs))
+    return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=expected,
+                    sd_runs=sd, z=z, p_value_two_sided=min(1.0, 2.0 * min(fewer, more)),
+                    p_value_fewer=fewer)
+
+
+def _p(p: float) -> str:
+    """A probability for a message: two significant digits, never a bare 0."""
+    return f"= {p:.2g}" if p >= 1e-300 else "< 1e-300"
+
+
+def _default_fixed(name: str, run: Run) -> dict[str, float]:
+    """Parameters the comparison holds by convention: Pitzer β(2) = 0 unless 2:2 or higher."""
+    electrolyte = run.metadata.electrolyte
+    if name == "pitzer" and alphas(electrolyte)[0] == 2.0:
+        return {"beta2_kg_mol": 0.0}
+    return {}
+
+
+def _residuals_by_molality(reduction: Reduction) -> np.ndarray:
+    points = reduction.points[reduction.points["flag"].isna()]
+    order = np.lexsort((points["line"].to_numpy(), points["molality_mol_kg"].to_numpy(float)))
+    return points["residual_V"].to_numpy(float)[order]
+
+
+def _assess(name: str, reduction: Reduction, stated: bool, held_notes: list[str]
+            ) -> ModelAssessment:
+    from scipy import stats as sps
+
+    model = reduction.model
+    st = reduction.statistics
+    reasons: list[str] = []
+    notes = list(held_notes) + list(reduction.notes)
+    chi2_p = math.nan
+    if stated:
+        chi2_p = float(sps.chi2.sf(st.chi2, st.dof))
+        if chi2_p < CHI2_P_MIN:
+            reasons.append(f"χ² = {st.chi2:.3g} with {st.dof} degrees of freedom is improbable "
+                           f"for the stated reading uncertainties (p {_p(chi2_p)})")
+    runs = runs_test(_residuals_by_molality(reduction))
+    if math.isfinite(runs.p_value_fewer) and runs.p_value_fewer < RUNS_P_MIN:
+        reasons.append(f"the residuals run in {runs.runs} blocks of one sign where "
+                       f"{runs.expected_runs:.1f} are expected (runs test p = "
+                       f"{runs.p_value_fewer:.2g}): a systematic misfit")
+    elif (math.isfinite(runs.p_value_two_sided) and runs.p_value_two_sided < RUNS_P_MIN
+          and runs.runs > runs.expected_runs):
+        notes.append(f"the residual signs alternate more often than chance allows ({runs.runs} "
+                     f"runs, {runs.expected_runs:.1f} expected, p = "
+                     f"{runs.p_value_two_sided:.2g}); look at the order of the measurements")
+    electrolyte = reduction.electrolyte
+    usable = usable_points(reduction.run)
+    max_ionic = float(electrolyte.ionic_strength(
+        usable["molality_mol_kg"].to_numpy(float)).max())
+    if max_ionic > model.max_ionic_strength * (1.0 + 1e-9):
+        reasons.append(f"the {model.title} stretched to I = {max_ionic:.3g} mol/kg (commonly "
+                       f"adequate to {model.max_ionic_strength:g} mol/kg)")
+    e0 = reduction.standard_potential
+    return ModelAssessment(
+        name=name, title=model.title, standard_potential_V=float(e0.nominal_value),
+        u_standard_potential_V=float(e0.std_dev), parameters=reduction.parameters,
+        statistics=st, chi2_p_value=chi2_p, variance_ratio_p_value=math.nan, runs_test=runs,
+        max_ionic_strength_mol_kg=max_ionic,
+        model_max_ionic_strength_mol_kg=float(model.max_ionic_strength),
+        adequate=not reasons, reasons=tuple(reasons), notes=tuple(notes),
+        warnings=tuple(w for w in reduction.warnings if w not in reduction.run.warnings),
+        reduction=reduction,
+    )
+
+
+def _with_variance_ratio(assessments: list[ModelAssessment]) -> list[ModelAssessment]:
+    """Criterion 2 (no stated uncertainties): F-test against the smallest residual variance."""
+    from dataclasses import replace
+
+    from scipy import stats as sps
+
+    best = min(assessments, key=lambda a: a.statistics.reduced_chi2)
+    if not best.statistics.reduced_chi2 > 0.0:
+        return assessments
+    out = []
+    for a in assessments:
+        st = a.statistics
+        ratio = st.reduced_chi2 / best.statistics.reduced_chi2
+        p = float(sps.f.sf(ratio, st.dof, best.statistics.dof)) if a is not best else 1.0
+        reasons = list(a.reasons)
+        if p < VARIANCE_RATIO_P_MIN:
+            reasons.append(f"residual variance {ratio:.3g} times that of the {best.title} "
+                           f"(F-test p {_p(p)})")
+        out.append(replace(a, variance_ratio_p_value=p, adequate=not reasons,
+                           reasons=tuple(reasons)))
+    return out
+
+
+def compare_models(run: Run, models: Sequence[str] | None = None,
+                   fixed: Mapping[str, Mapping[str, float]] | None = None) -> ModelComparison:
+    r"""Reduce a run with several activity-coefficient models and judge each fit.
+
+    Parameters
+    ----------
+    run : Run
+        A validated run (:func:`activolt.runs.read_run`).
+    models : sequence of str, optional
+        Model names (see :data:`activolt.models.MODELS`); default: all of them.
+    fixed : mapping of str to mapping of str to float, optional
+        Parameters to hold, per model, e.g. ``{"hueckel": {"a_angstrom": 4.3}}``.
+
+    Returns
+    -------
+    ModelComparison
+        Every fit with its verdict, the spread of E° among the adequate models, the model-choice
+        component of u(E°) and the recommended model with its combined u(E°).
+
+    Raises
+    ------
+    InputError
+        An unknown model name, a model in ``fixed`` that is not compared, an unknown parameter,
+        or a run that no model can reduce (too few readings, temperatures too spread out).
+    FitError
+        When no model could be fitted (the message gives each reason).
+
+    Notes
+    -----
+    The adequacy criteria, the model-choice rule and the recommendation rule are given in the
+    module docstring (:mod:`activolt.model_choice`):
+
+    .. math:: u_\mathrm{model} = \frac{E°_\max − E°_\min}{2\sqrt{3}}, \qquad
+              u(E°) = \sqrt{u_\mathrm{fit}^2 + u_\mathrm{model}^2}
+
+    GUM (JCGM 100:2008) 4.3.7; Wald & Wolfowitz (1940); BIC after Schwarz (1978).
+
+    Examples
+    --------
+    The shipped demo run (HCl to 1 mol/kg, 25 °C): the Davies equation is used beyond the
+    0.5 mol/kg where it is commonly adequate, and u_model follows the stated rule:
+
+    >>> from importlib.resources import files
+    >>> from activolt.runs import read_run
+    >>> c = compare_models(read_run(files("activolt") / "sample_data" / "kestrel_hcl_25C.csv"),
+    ...                    ["davies", "hueckel", "pitzer"])
+    >>> c.assessment("davies").verdict.endswith("(commonly adequate to 0.5 mol/kg)")
+    True
+    >>> bool(abs(c.u_model_choice_V - c.spread_V / (2 * 3**0.5)) < 1e-15)
+    True
+    """
+    names = list(MODELS) if models is None else list(models)
+    if not names:
+        raise InputError("no model to compare; give at least one model name", column="--model")
+    for name in names:
+        try:
+            get_model(name)
+        except ValueError as error:
+            raise InputError(str(error), column="--model") from None
+    fixed = {k: dict(v) for k, v in (fixed or {}).items()}
+    for name in fixed:
+        if name not in names:
+            raise InputError(f"parameters are held for model '{name}', which is not compared; "
+                             f"compared: {', '.join(names)}", column="--fix")
+    stated = run.emf_uncertainty_given
+    assessments: list[ModelAssessment] = []
+    skipped: list[SkippedModel] = []
+    for name in names:
+        family = get_model(name)
+        convention = {k: v for k, v in _default_fixed(name, run).items()
+                      if k not in fixed.get(name, {})}
+        held = {**convention, **fixed.get(name, {})}
+        held_notes = [
+            f"{family.parameter(k).symbol} held at {v:g} {family.parameter(k).unit}: published "
+            f"only for 2:2 and higher charge types (Pitzer & Mayorga 1974)"
+            for k, v in convention.items()
+        ]
+        try:
+            reduction = reduce_run(run, name, held or None)
+        except FitError as error:
+            skipped.append(SkippedModel(name=name, title=family.title, reason=str(error)))
+            continue
+        assessments.append(_assess(name, reduction, stated, held_notes))
+    if not assessments:
+        raise FitError("no model could be fitted: " + "; ".join(
+            f"{s.name}: {s.reason}" for s in skipped))
+    if not stated:
+        assessments = _with_variance_ratio(assessments)
+
+    warnings: list[str] = []
+    notes: list[str] = []
+    for a in assessments:
+        if not a.adequate:
+            warnings.append(f"model {a.name} ({a.title}) is inadequate for this run: "
+                            + "; ".join(a.reasons))
+    for s in skipped:
+        warnings.append(f"model {s.name} ({s.title}) could not be fitted: {s.reason}")
+    if not stated:
+        notes.append("the readings carry no stated uncertainty: χ² cannot be judged absolutely; "
+                     "each fit's residual variance is compared with the smallest (F-test)")
+
+    adequate = [a for a in assessments if a.adequate]
+    if adequate:
+        e0s = [a.standard_potential_V for a in adequate]
+        spread = max(e0s) - min(e0s) if len(adequate) > 1 else 0.0
+        u_model = spread / (2.0 * math.sqrt(3.0))
+        if len(adequate) == 1:
+            notes.append(f"only one model ({adequate[0].name}) is adequate: the run cannot show "
+                         "how much the choice of model moves E°; the model-choice component is 0")
+        best = min(adequate, key=lambda a: a.statistics.bic)
+        recommended: str | None = best.name
+        e0, u_fit = best.standard_potential_V, best.u_standard_potential_V
+        u_combined = math.hypot(u_fit, u_model)
+    else:
+        spread, u_model, recommended = math.nan, math.nan, None
+        e0 = u_fit = u_combined = math.nan
+        warnings.append("no model is adequate for this run: no E° is recommended; restrict the "
+                        "molality range, check the readings, or state their uncertainties")
+    return ModelComparison(
+        electrolyte=run.metadata.electrolyte.formula,
+        temperature_K=float(np.mean(usable_points(run)["temperature_K"].to_numpy(float))),
+        n_points=len(usable_points(run)), stated_uncertainty=stated,
+        assessments=tuple(assessments), skipped=tuple(skipped), spread_V=spread,
+        u_model_choice_V=u_model, recommended=recommended, standard_potential_V=e0,
+        u_fit_V=u_fit, u_combined_V=u_combined, notes=tuple(notes), warnings=tuple(warnings),
+    )
+
+
+def _number(value: float) -> float | None:
+    """A finite float, or None for JSON."""
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def comparison_record(comparison: ModelComparison) -> dict:
+    """The comparison as a JSON-ready dict for the record (units in the key names).
+
+    Parameters
+    ----------
+    comparison : ModelComparison
+        From :func:`compare_models`.
+
+    Returns
+    -------
+    dict
+        ``criteria``, ``models`` (one entry per fitted model: E°, parameters, fit statistics,
+        runs test, ionic-strength range, verdict), ``skipped``, ``adequate_models``,
+        ``spread_V``, ``u_model_choice_V``, ``model_choice_rule``, ``recommended_model``,
+        ``recommendation_rule``, ``standard_potential_V`` (value, u_fit, u_model_choice and the
+        combined uncertainty, k = 1), ``notes`` and ``warnings``. Non-finite numbers are None.
+    """
+    models = []
+    for a in comparison.assessments:
+        st, rt = a.statistics, a.runs_test
+        models.append({
+            "name": a.name,
+            "title": a.title,
+            "standard_potential_V": {"value": _number(a.standard_potential_V),
+                                     "uncertainty": _number(a.u_standard_potential_V)},
+            "parameters": {
+                p.name: {"value": _number(p.value), "uncertainty": _number(p.uncertainty),
+                         "fixed": p.fixed, "reason": p.reason}
+                for p in a.parameters
+            },
+            "fit": {"n_points": st.n_points, "n_free": st.n_free, "dof": st.dof,
+                    "chi2": _number(st.chi2), "reduced_chi2": _number(st.reduced_chi2),
+                    "aic": _number(st.aic), "bic": _number(st.bic),
+                    "chi2_p_value": _number(a.chi2_p_value),
+                    "variance_ratio_p_value": _number(a.variance_ratio_p_value),
+                    "covariance_scaled": st.covariance_scaled},
+            "runs_test": {"n_positive": rt.n_positive, "n_negative": rt.n_negative,
+                          "runs": rt.runs, "expected_runs": _number(rt.expected_runs),
+                          "z": _number(rt.z), "p_value_two_sided": _number(rt.p_value_two_sided),
+                          "p_value_fewer": _number(rt.p_value_fewer)},
+            "max_ionic_strength_mol_kg": _number(a.max_ionic_strength_mol_kg),
+            "model_max_ionic_strength_mol_kg": _number(a.model_max_ionic_strength_mol_kg),
+            "adequate": a.adequate,
+            "verdict": a.verdict,
+            "notes": list(a.notes),
+            "warnings": list(a.warnings),
+        })
+    return {
+        "criteria": {"chi2_p_min": CHI2_P_MIN, "variance_ratio_p_min": VARIANCE_RATIO_P_MIN,
+                     "runs_fewer_p_min": RUNS_P_MIN,
+                     "ionic_strength": "within the model's commonly adequate range"},
+        "stated_reading_uncertainty": comparison.stated_uncertainty,
+        "n_points": comparison.n_points,
+        "temperature_K": _number(comparison.temperature_K),
+        "models": models,
+        "skipped": [{"name": s.name, "reason": s.reason} for s in comparison.skipped],
+        "adequate_models": list(comparison.adequate_models),
+        "spread_V": _number(comparison.spread_V),
+        "u_model_choice_V": _number(comparison.u_model_choice_V),
+        "model_choice_rule": MODEL_CHOICE_RULE,
+        "recommended_model": comparison.recommended,
+        "recommendation_rule": RECOMMENDATION_RULE,
+        "standard_potential_V": {"value": _number(comparison.standard_potential_V),
+                                 "u_fit": _number(comparison.u_fit_V),
+                                 "u_model_choice": _number(comparison.u_model_choice_V),
+                                 "uncertainty": _number(comparison.u_combined_V)},
+        "notes": list(comparison.notes),
+        "warnings": list(comparison.warnings),
+    }
