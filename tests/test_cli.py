@@ -15,10 +15,10 @@ from activolt.cli import main
 from activolt.reference.published import published_gamma
 
 
-def _run(tmp_path):
+def _run(tmp_path, u_emf_V=2e-5):
     table = published_gamma("HCl", 298.15)
     m, gamma = table.molality_mol_kg.to_numpy()[:7], table.gamma_pm.to_numpy()[:7]
-    return write_run(tmp_path, m, emf_from_gamma(m, gamma, 0.22234), u_emf_V=2e-5)
+    return write_run(tmp_path, m, emf_from_gamma(m, gamma, 0.22234), u_emf_V=u_emf_V)
 
 
 def test_demo_writes_everything(tmp_path, capsys):
@@ -73,3 +73,29 @@ def test_cell_command_bad_diagram_is_one_line(tmp_path, capsys):
     assert main(["cell", "Zn(s) | ZnSO4(aq) || || CuSO4(aq) | Cu(s)"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "salt bridges" in err[0] and "character" in err[0]
+
+
+def test_model_all_compares_and_records(tmp_path, capsys):
+    # Seven HCl readings from the published γ± (Robinson & Stokes 1959; shipped table); the
+    # table's three decimals are worth about 0.03 mV, so that is the stated u (common practice).
+    path = _run(tmp_path, u_emf_V=5e-5)
+    record = tmp_path / "r.json"
+    assert main(["reduce", str(path), "--model", "all", "--json", str(record),
+                 "--out", str(tmp_path / "o"), "--no-figures"]) == 0
+    printed = capsys.readouterr().out
+    assert "Model comparison" in printed and "Recommended:" in printed
+    data = json.loads(record.read_text())
+    comparison = data["model_comparison"]
+    assert comparison is not None and data["model"]["name"] == comparison["recommended_model"]
+    e0 = data["standard_potential_V"]
+    assert e0["uncertainty"] >= e0["u_fit"] > 0
+    assert any("limiting" in w for w in data["warnings"])  # stretched to 1 mol/kg
+    assert data["derived_properties"]["points"]
+
+
+def test_model_list_with_a_fix_no_model_has_is_bad_input(tmp_path, capsys):
+    path = _run(tmp_path)
+    assert main(["reduce", str(path), "--model", "hueckel,pitzer", "--fix", "epsilon_kg_mol=0.1",
+                 "--no-figures", "--out", str(tmp_path / "o")]) == 2
+    assert "no compared model has a parameter" in capsys.readouterr().err
+    assert not (tmp_path / "o").exists()

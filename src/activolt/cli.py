@@ -57,7 +57,9 @@ def _parser() -> argparse.ArgumentParser:
     reduce.add_argument("run", type=Path, help="run table (CSV)")
     reduce.add_argument("--meta", type=Path, help="run metadata (TOML); default RUN.toml")
     reduce.add_argument("--model", default="hueckel",
-                        help="activity-coefficient model (limiting, hueckel); default hueckel")
+                        help="activity-coefficient model: limiting, hueckel, davies, sit, pitzer; "
+                             "'all' (or a comma-separated list) to fit several, compare them and "
+                             "report the recommended one; default hueckel")
     reduce.add_argument("--fix", action="append", type=_fixed_value, default=[],
                         metavar="NAME=VALUE", help="hold a model parameter, e.g. a_angstrom=4.3")
     reduce.add_argument("--out", type=Path,
@@ -98,12 +100,26 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     from .runs import read_run
 
     run = read_run(run_path, meta, overrides=overrides, series=series)
-    reduction = reduce_run(run, model=model, fixed=fixed)
+    comparison = None
+    if model == "all" or "," in model:
+        from .model_choice import compare_models
+        from .models import MODELS
+        from .report.model_table import format_model_comparison
+
+        names = list(MODELS) if model == "all" else [m.strip() for m in model.split(",")]
+        comparison = compare_models(run, names, _fixed_per_model(names, fixed))
+        reduction = comparison.recommended_reduction
+        if reduction is None:
+            raise FitError(comparison.warnings[-1])
+        report = reduction.report() + "\n" + format_model_comparison(comparison)
+    else:
+        reduction = reduce_run(run, model=model, fixed=fixed)
+        report = reduction.report()
     stem = run_path.stem
     out = out if out is not None else run_path.parent / f"{stem}_activolt"
-    report = reduction.report()
     outputs: dict[Path, bytes | str] = {
-        (json_path or out / f"{stem}.record.json"): record_json(reduction),
+        (json_path or out / f"{stem}.record.json"): record_json(reduction,
+                                                                comparison=comparison),
         out / f"{stem}.points.csv": points_csv(reduction),
         out / f"{stem}.report.txt": report,
     }
@@ -115,6 +131,22 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     written = _write_all(outputs)
     sys.stdout.write(report)
     return written
+
+
+def _fixed_per_model(names: list[str], fixed: dict[str, float]) -> dict[str, dict[str, float]]:
+    """--fix values for each compared model that has the parameter; one no model has is an
+    error."""
+    from .models import get_model
+
+    per_model: dict[str, dict[str, float]] = {}
+    for parameter, value in fixed.items():
+        owners = [n for n in names if parameter in get_model(n).parameter_names]
+        if not owners:
+            raise InputError(f"no compared model has a parameter '{parameter}'",
+                             file="command line", column="--fix")
+        for name in owners:
+            per_model.setdefault(name, {})[parameter] = value
+    return per_model
 
 
 def _write_all(outputs: dict[Path, bytes | str]) -> list[Path]:

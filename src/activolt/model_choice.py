@@ -66,7 +66,6 @@ import numpy.typing as npt
 
 from .errors import FitError, InputError
 from .models import MODELS, get_model
-from .models.pitzer import alphas
 from .reduce import FitStatistics, FittedParameter, Reduction, reduce_run
 from .runs import Run, usable_points
 
@@ -348,28 +347,20 @@ def _p(p: float) -> str:
     return f"= {p:.2g}" if p >= 1e-300 else "< 1e-300"
 
 
-def _default_fixed(name: str, run: Run) -> dict[str, float]:
-    """Parameters the comparison holds by convention: Pitzer β(2) = 0 unless 2:2 or higher."""
-    electrolyte = run.metadata.electrolyte
-    if name == "pitzer" and alphas(electrolyte)[0] == 2.0:
-        return {"beta2_kg_mol": 0.0}
-    return {}
-
-
 def _residuals_by_molality(reduction: Reduction) -> np.ndarray:
     points = reduction.points[reduction.points["flag"].isna()]
     order = np.lexsort((points["line"].to_numpy(), points["molality_mol_kg"].to_numpy(float)))
     return points["residual_V"].to_numpy(float)[order]
 
 
-def _assess(name: str, reduction: Reduction, stated: bool, held_notes: list[str]
+def _assess(name: str, reduction: Reduction, stated: bool
             ) -> ModelAssessment:
     from scipy import stats as sps
 
     model = reduction.model
     st = reduction.statistics
     reasons: list[str] = []
-    notes = list(held_notes) + list(reduction.notes)
+    notes = list(reduction.notes)
     chi2_p = math.nan
     if stated:
         chi2_p = float(sps.chi2.sf(st.chi2, st.dof))
@@ -498,20 +489,12 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     skipped: list[SkippedModel] = []
     for name in names:
         family = get_model(name)
-        convention = {k: v for k, v in _default_fixed(name, run).items()
-                      if k not in fixed.get(name, {})}
-        held = {**convention, **fixed.get(name, {})}
-        held_notes = [
-            f"{family.parameter(k).symbol} held at {v:g} {family.parameter(k).unit}: published "
-            f"only for 2:2 and higher charge types (Pitzer & Mayorga 1974)"
-            for k, v in convention.items()
-        ]
         try:
-            reduction = reduce_run(run, name, held or None)
+            reduction = reduce_run(run, name, fixed.get(name) or None)
         except FitError as error:
             skipped.append(SkippedModel(name=name, title=family.title, reason=str(error)))
             continue
-        assessments.append(_assess(name, reduction, stated, held_notes))
+        assessments.append(_assess(name, reduction, stated))
     if not assessments:
         raise FitError("no model could be fitted: " + "; ".join(
             f"{s.name}: {s.reason}" for s in skipped))

@@ -14,6 +14,8 @@ from importlib.resources import files
 from typing import Any
 
 from . import __version__
+from .model_choice import ModelComparison, comparison_record
+from .properties import derived_properties
 from .reduce import Reduction
 from .report.cautions import cautions_for
 from .report.comparison import compare_with_published
@@ -37,8 +39,14 @@ def record_schema() -> dict[str, Any]:
     return json.loads(text)
 
 
-def build_record(reduction: Reduction, created: datetime | None = None) -> dict[str, Any]:
-    """The JSON-ready record of ``reduction`` (see ``record_schema.json``)."""
+def build_record(reduction: Reduction, created: datetime | None = None,
+                 comparison: ModelComparison | None = None) -> dict[str, Any]:
+    """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
+
+    With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
+    comparison is kept under ``model_comparison`` and the stated u(E°) includes the
+    model-choice component.
+    """
     run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
     e0 = reduction.standard_potential
     covariance_note = ("linear propagation of the fit covariance, "
@@ -72,8 +80,21 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
             "note": row["note"] or None,
         })
     cross = reduction.linear_extrapolation
-    comparison = compare_with_published(reduction)
+    published = compare_with_published(reduction)
     other = reduction.standard_potential_other_basis_V
+    e0_record = {**_with_u(e0, covariance_note),
+                 "coverage_factor_95": stats.coverage_factor,
+                 "expanded_uncertainty_95": stats.coverage_factor * e0.std_dev}
+    warnings = list(reduction.warnings)
+    if comparison is not None:
+        e0_record.update(
+            uncertainty=comparison.u_combined_V, u_fit=comparison.u_fit_V,
+            u_model_choice=comparison.u_model_choice_V,
+            expanded_uncertainty_95=stats.coverage_factor * comparison.u_combined_V,
+            method=covariance_note + ", combined with the model-choice component "
+                   "(spread of E° among adequate models, rectangular)")
+        warnings += [w for w in comparison.warnings if w not in warnings]
+    properties = derived_properties(reduction)
     return {
         "record_schema": RECORD_SCHEMA,
         "software": {"name": "activolt", "version": __version__},
@@ -94,11 +115,7 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
                 for p in reduction.parameters
             },
         },
-        "standard_potential_V": {
-            **_with_u(e0, covariance_note),
-            "coverage_factor_95": stats.coverage_factor,
-            "expanded_uncertainty_95": stats.coverage_factor * e0.std_dev,
-        },
+        "standard_potential_V": e0_record,
         "standard_potential_other_basis": None if other is None else {
             "standard_pressure_kPa": other[0] / 1e3, "value_V": other[1],
             "uncertainty_V": e0.std_dev,
@@ -138,23 +155,31 @@ def build_record(reduction: Reduction, created: datetime | None = None) -> dict[
             "n_points": cross.n_points,
             "max_ionic_strength_mol_kg": cross.max_ionic_strength,
         },
-        "published_comparison": [] if comparison is None else [
+        "published_comparison": [] if published is None else [
             {"molality_mol_kg": float(r.molality_mol_kg),
              "gamma_pm_published": _number(r.gamma_pm_published),
              "interpolated": bool(r.interpolated), "difference": _number(r.difference)}
-            for r in comparison.itertuples()
+            for r in published.itertuples()
         ],
-        "published_source": None if comparison is None else comparison["source"].iloc[0],
+        "published_source": None if published is None else published["source"].iloc[0],
+        "derived_properties": {
+            "method": "; ".join(properties.attrs.get("notes", [])),
+            "points": [{k: _number(v) if isinstance(v, float) else v
+                        for k, v in row.items()}
+                       for row in properties.to_dict(orient="records")],
+        },
+        "model_comparison": None if comparison is None else comparison_record(comparison),
         "notes": list(reduction.notes),
-        "warnings": list(reduction.warnings),
+        "warnings": warnings,
         "cautions": cautions_for(meta.electrolyte, meta.cell),
     }
 
 
-def record_json(reduction: Reduction, created: datetime | None = None) -> str:
+def record_json(reduction: Reduction, created: datetime | None = None,
+                comparison: ModelComparison | None = None) -> str:
     """The record as JSON text (UTF-8, indented, NaN written as null)."""
-    return json.dumps(build_record(reduction, created), ensure_ascii=False, indent=2,
-                      allow_nan=False) + "\n"
+    return json.dumps(build_record(reduction, created, comparison), ensure_ascii=False,
+                      indent=2, allow_nan=False) + "\n"
 
 
 def points_csv(reduction: Reduction) -> str:

@@ -96,6 +96,19 @@ def format_report(reduction: Reduction) -> str:
                          f"{row['gamma_pm_published']:<9.3f}{mark}  "
                          f"{row['difference']:+.{places}f}")
         lines.append(f"  published: {comparison['source'].iloc[0]}")
+    from ..properties import derived_properties
+
+    properties = derived_properties(reduction)
+    cells = [[f"{row['molality_mol_kg']:.6g}"] + [
+        format_with_uncertainty(row[name], row[f"u_{name}"])
+        for name in ("osmotic_coefficient", "water_activity", "excess_gibbs_rt_mol_kg")]
+        for _, row in properties.iterrows()]
+    header = ["m / (mol/kg)", "φ", "a_w", "G^E/(RT) / (mol/kg)"]
+    widths = [max(len(r[i]) for r in [*cells, header]) for i in range(4)]
+    lines += ["", "  derived from the fitted model (k = 1)"]
+    for row in [header, *cells]:
+        lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
+                     .rstrip())
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
