@@ -1,0 +1,339 @@
+r"""Fit diagnostics: leverage, leave-one-out residuals, Cook's distance and point flags.
+
+Every function works on what a weighted least-squares fit leaves behind — the Jacobian J
+(N × P) at the optimum, the weights w (1/u², or 1), the residuals r = y − f(p̂) (unweighted) and
+whether the covariance was scaled by χ²/(N − P) — so it serves the reduction of a run as well as
+any other fit (:mod:`activolt.fitting`). With A = W^½ J and e = W^½ r,
+
+.. math:: H = A (A^T A)^{-1} A^T, \qquad h_{ii} = H_{ii}
+
+is the weighted hat matrix (Σ h_ii = P). For a non-linear model these are the first-order
+(linearised) diagnostics at the optimum.
+
+The scale s. When the readings carry stated standard uncertainties (covariance not scaled), the
+diagnostics use s = 1: the stated u_i is the scale, and a reading is judged against it. The
+alternative, a scale estimated from the scatter, would let one bad reading inflate s for every
+other point; with a small stated u the opposite danger matters more: one bad reading pulls the
+fitted curve, its neighbours' residuals grow to several u, and a one-pass test would flag them
+too. :func:`flag_points` therefore works sequentially: it flags the worst point only, removes it
+(an exact linearised refit), and tests the rest again — so a neighbour is flagged only if it is
+still out of line once the bad reading no longer pulls the fit. With unit weights (no stated u)
+the scale is estimated, leaving the point out: s_(i)² = (χ² − e_i²/(1 − h_ii))/(N − P − 1).
+
+References
+----------
+.. [1] Cook, R. D. (1977). Detection of influential observation in linear regression.
+   Technometrics 19, 15–18. https://doi.org/10.1080/00401706.1977.10489493
+.. [2] Belsley, D. A., Kuh, E. & Welsch, R. E. (1980). *Regression Diagnostics: Identifying
+   Influential Data and Sources of Collinearity*. Wiley, ch. 2.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import numpy.typing as npt
+
+__all__ = [
+    "COOKS_DISTANCE_THRESHOLD", "FAMILY_LEVEL", "INFLUENCE_LEVEL", "cooks_distance",
+    "flag_points", "leverage", "outlier_threshold", "studentized_residuals",
+]
+
+#: Family-wise false-alarm probability of the outlier test over a whole run (Bonferroni).
+FAMILY_LEVEL = 0.05
+#: Cook's distance beyond which a point counts as influential: D = 1 moves the estimates to about
+#: the edge of their 50 % joint confidence region (Cook 1977, comparison with the F(P, N − P)
+#: median; common practice).
+COOKS_DISTANCE_THRESHOLD = 1.0
+#: Two-sided level at which an influential point must also disagree with the others to be flagged.
+INFLUENCE_LEVEL = 0.05
+
+
+def _arrays(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.ArrayLike | None = None
+            ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    j = np.asarray(jacobian, dtype=float)
+    w = np.asarray(weights, dtype=float)
+    if j.ndim != 2 or w.shape != (j.shape[0],):
+        raise ValueError(f"jacobian has shape {j.shape} and weights {w.shape}; expected (N, P) "
+                         "and (N,)")
+    if j.shape[0] <= j.shape[1]:
+        raise ValueError(f"{j.shape[0]} points and {j.shape[1]} parameters leave no degree of "
+                         "freedom")
+    if not np.all(np.isfinite(j)) or not np.all(np.isfinite(w)) or np.any(w <= 0.0):
+        raise ValueError("the Jacobian must be finite and the weights positive and finite")
+    a = j * np.sqrt(w)[:, None]
+    e = None
+    if residuals is not None:
+        r = np.asarray(residuals, dtype=float)
+        if r.shape != w.shape:
+            raise ValueError(f"residuals have shape {r.shape}; expected {w.shape}")
+        if not np.all(np.isfinite(r)):
+            raise ValueError("the residuals hold NaN or infinite values")
+        e = r * np.sqrt(w)
+    return j, a, e
+
+
+def _hat_diagonal(a: np.ndarray) -> np.ndarray:
+    norms = np.linalg.norm(a, axis=0)
+    q, _ = np.linalg.qr(a / np.where(norms > 0.0, norms, 1.0))
+    return np.sum(q**2, axis=1)
+
+
+def leverage(jacobian: npt.ArrayLike, weights: npt.ArrayLike) -> np.ndarray:
+    """Leverage h_ii, the diagonal of the weighted hat matrix.
+
+    Parameters
+    ----------
+    jacobian : array_like
+        ∂f_i/∂p_k at the optimum, shape (N, P) [unit of y per parameter unit].
+    weights : array_like
+        w_i = 1/u_i² or 1, shape (N,) [1/(unit of y)²].
+
+    Returns
+    -------
+    numpy.ndarray
+        h_ii in [0, 1], summing to P [-].
+
+    Notes
+    -----
+    .. math:: h_{ii} = [W^{1/2} J (J^T W J)^{-1} J^T W^{1/2}]_{ii} = \\lVert Q_{i\\cdot} \\rVert^2
+
+    with Q from the QR factorisation of W^½ J (Belsley, Kuh & Welsch 1980, §2.1).
+
+    Examples
+    --------
+    A straight line through x = 0, 1, 2: h = 5/6, 1/3, 5/6 (hand computation).
+
+    >>> j = np.array([[1.0, 0.0], [1.0, 1.0], [1.0, 2.0]])
+    >>> [round(float(h), 4) for h in leverage(j, np.ones(3) * 4.0)]
+    [0.8333, 0.3333, 0.8333]
+    """
+    _, a, _ = _arrays(jacobian, weights)
+    return _hat_diagonal(a)
+
+
+def _studentized(a: np.ndarray, e: np.ndarray, scaled: bool) -> tuple[np.ndarray, np.ndarray]:
+    """(t_i, h_ii) for the points of a fit with weighted design a and weighted residuals e."""
+    n, p = a.shape
+    h = np.minimum(_hat_diagonal(a), 1.0 - 1e-15)
+    deleted = e**2 / (1.0 - h)  # the fall of χ² when point i is left out
+    if scaled:
+        if n - p - 1 < 1:
+            raise ValueError("leave-one-out scale needs N − P − 1 ≥ 1")
+        variance = (float(np.sum(e**2)) - deleted) / (n - p - 1)
+        scale = np.sqrt(np.maximum(variance, np.finfo(float).tiny))
+    else:
+        scale = np.ones(n)
+    return e / (scale * np.sqrt(1.0 - h)), h
+
+
+def studentized_residuals(jacobian: npt.ArrayLike, weights: npt.ArrayLike,
+                          residuals: npt.ArrayLike, covariance_scaled: bool) -> np.ndarray:
+    r"""Externally studentized (leave-one-out) residuals.
+
+    Parameters
+    ----------
+    jacobian : array_like
+        ∂f_i/∂p_k at the optimum, shape (N, P).
+    weights : array_like
+        w_i = 1/u_i² or 1, shape (N,) [1/(unit of y)²].
+    residuals : array_like
+        r_i = y_i − f_i(p̂), shape (N,) [unit of y].
+    covariance_scaled : bool
+        False with stated uncertainties (s = 1, see the module notes), True with unit weights
+        (the scale is estimated leaving point i out).
+
+    Returns
+    -------
+    numpy.ndarray
+        t_i [-]: the residual of point i from a fit without it, over its standard uncertainty.
+
+    Notes
+    -----
+    .. math:: t_i = \frac{r_i \sqrt{w_i}}{s_{(i)} \sqrt{1 − h_{ii}}}, \qquad
+              s_{(i)}^2 = \frac{χ^2 − r_i^2 w_i/(1 − h_{ii})}{N − P − 1}
+
+    (s_(i) = 1 with stated uncertainties). For a linear model t_i equals
+    (y_i − ŷ_(i)) / u(y_i − ŷ_(i)) with ŷ_(i) the prediction of the fit without point i, exactly
+    (Belsley, Kuh & Welsch 1980, eq. 2.26); with unit weights it follows Student's t with
+    N − P − 1 degrees of freedom, with stated uncertainties the standard normal distribution.
+    """
+    _, a, e = _arrays(jacobian, weights, residuals)
+    return _studentized(a, e, covariance_scaled)[0]
+
+
+def cooks_distance(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.ArrayLike,
+                   covariance_scaled: bool) -> np.ndarray:
+    r"""Cook's distance of every point.
+
+    Parameters
+    ----------
+    jacobian, weights, residuals, covariance_scaled
+        As in :func:`studentized_residuals`.
+
+    Returns
+    -------
+    numpy.ndarray
+        D_i ≥ 0 [-].
+
+    Notes
+    -----
+    .. math:: D_i = \frac{(\hat p − \hat p_{(i)})^T J^T W J (\hat p − \hat p_{(i)})}{P s^2}
+              = \frac{e_i^2}{P s^2} \frac{h_{ii}}{(1 − h_{ii})^2}
+
+    with e_i = r_i √w_i, s² = χ²/(N − P) for unit weights and s = 1 with stated uncertainties
+    (Cook 1977, eq. 5). D_i = 1 moves the estimates to about the edge of their 50 % joint
+    confidence region.
+    """
+    _, a, e = _arrays(jacobian, weights, residuals)
+    n, p = a.shape
+    h = np.minimum(_hat_diagonal(a), 1.0 - 1e-15)
+    s2 = float(np.sum(e**2)) / (n - p) if covariance_scaled else 1.0
+    return e**2 * h / (p * s2 * (1.0 - h) ** 2)
+
+
+def outlier_threshold(n_points: int, n_parameters: int, covariance_scaled: bool,
+                      level: float = FAMILY_LEVEL) -> float:
+    r"""Bonferroni threshold on |t_i| for a run of N points.
+
+    Parameters
+    ----------
+    n_points : int
+        N, the points tested.
+    n_parameters : int
+        P, the adjusted parameters.
+    covariance_scaled : bool
+        Whether t_i follows Student's t (N − P − 1 degrees of freedom; unit weights) or the
+        standard normal distribution (stated uncertainties).
+    level : float
+        Family-wise probability that a clean run has any point beyond the threshold [-].
+
+    Returns
+    -------
+    float
+        The (1 − level/(2N)) quantile [-].
+
+    Notes
+    -----
+    Testing N residuals each at level α/N keeps the chance of any false flag in a clean run
+    below α (Bonferroni inequality; Belsley, Kuh & Welsch 1980, §2.1 on studentized residuals).
+
+    Examples
+    --------
+    Ten readings with stated uncertainties: z(1 − 0.05/20) (normal quantile table).
+
+    >>> round(outlier_threshold(10, 3, False), 3)
+    2.807
+    """
+    from scipy import stats
+
+    if n_points < 1:
+        raise ValueError("no points to test")
+    q = 1.0 - level / (2.0 * n_points)
+    if covariance_scaled:
+        dof = n_points - n_parameters - 1
+        if dof < 1:
+            raise ValueError("a scaled outlier test needs N − P − 1 ≥ 1")
+        return float(stats.t.ppf(q, dof))
+    return float(stats.norm.ppf(q))
+
+
+def _refit(a: np.ndarray, e: np.ndarray, keep: np.ndarray) -> np.ndarray:
+    """Weighted residuals of every point after refitting the linearised model on ``keep``."""
+    step, *_ = np.linalg.lstsq(a[keep], e[keep], rcond=None)
+    return e - a @ step
+
+
+def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.ArrayLike,
+                covariance_scaled: bool, *, outlier_limit: float | None = None,
+                cooks_limit: float = COOKS_DISTANCE_THRESHOLD,
+                level: float = FAMILY_LEVEL, influence_level: float = INFLUENCE_LEVEL,
+                max_flags: int | None = None) -> list[str | None]:
+    r"""Which points look wrong, and why: None for a point that does not.
+
+    Parameters
+    ----------
+    jacobian, weights, residuals, covariance_scaled
+        As in :func:`studentized_residuals`.
+    outlier_limit : float, optional
+        Threshold on |t_i| (default :func:`outlier_threshold` for the run at ``level``).
+    cooks_limit : float
+        Threshold on Cook's distance (default 1; Cook 1977).
+    level : float
+        Family-wise level of the outlier test (default 5 %).
+    influence_level : float
+        Two-sided level at which an influential point must also disagree with the others
+        (default 5 %: |t| beyond 1.96 with stated uncertainties).
+    max_flags : int, optional
+        At most this many outliers (default ⌊(N − P)/2⌋, at least 1); the rest of the run must
+        stay the majority.
+
+    Returns
+    -------
+    list of (str or None)
+        Per point, e.g. ``"studentized residual 8.3 beyond 2.81"`` or
+        ``"Cook's distance 1.7 beyond 1 with studentized residual 2.4"``.
+
+    Notes
+    -----
+    1. Outliers, one at a time: compute t_i for the points still in; if the largest |t_i|
+       exceeds the Bonferroni threshold, flag that point, refit the linearised model without it
+       (exactly: e ← e − A δ with δ the least-squares step on the remaining rows), and repeat.
+       For a single gross error δ at point k of an otherwise exact run, |t_k| ≥ |t_j| for every
+       other j (|H_jk| ≤ √((1 − h_jj)(1 − h_kk)), the Cauchy–Schwarz inequality on the
+       projector I − H), so the bad reading is the one removed first and its neighbours are
+       tested again without its pull.
+    2. Influence, on the points left: Cook's distance D_i beyond ``cooks_limit`` flags a point
+       only if its t_i is also beyond the two-sided ``influence_level`` quantile. The ends of a
+       dilution series carry large leverage by design (h_ii → 1 at the most concentrated point
+       of a three-parameter fit), so D_i = t_i² h_ii / (P (1 − h_ii)) exceeds 1 there even for a
+       reading within its uncertainty; influence alone is the design, not a fault of the
+       reading (Belsley, Kuh & Welsch 1980, §2.1; Cook 1977).
+
+    Examples
+    --------
+    A straight line with one reading 40 u off (u = 1):
+
+    >>> x = np.arange(8.0)
+    >>> y = 1.0 + 0.5 * x + np.array([0.3, -0.5, 0.2, 40.0, -0.1, 0.4, -0.6, 0.1])
+    >>> j = np.column_stack([np.ones_like(x), x])
+    >>> from activolt.fitting import linear_least_squares
+    >>> fit = linear_least_squares(j, y, np.ones_like(x))
+    >>> flags = flag_points(j, fit.weights, fit.residuals, covariance_scaled=False)
+    >>> [i for i, f in enumerate(flags) if f]
+    [3]
+    """
+    from scipy import stats
+
+    _, a, e = _arrays(jacobian, weights, residuals)
+    n, p = a.shape
+    limit = (outlier_threshold(n, p, covariance_scaled, level) if outlier_limit is None
+             else float(outlier_limit))
+    extra = 1 if covariance_scaled else 0
+    most = max(1, (n - p) // 2) if max_flags is None else int(max_flags)
+    flags: list[str | None] = [None] * n
+    keep = np.ones(n, dtype=bool)
+    current = e.copy()
+    while keep.sum() - p - extra >= 1 and (~keep).sum() < most:
+        index = np.flatnonzero(keep)
+        t, _ = _studentized(a[keep], current[keep], covariance_scaled)
+        worst = int(np.argmax(np.abs(t)))
+        if not abs(t[worst]) > limit:
+            break
+        point = int(index[worst])
+        flags[point] = f"studentized residual {t[worst]:.3g} beyond {limit:.3g}"
+        keep[point] = False
+        current = _refit(a, e, keep)
+
+    if keep.sum() - p - extra >= 1:
+        index = np.flatnonzero(keep)
+        t, h = _studentized(a[keep], current[keep], covariance_scaled)
+        s2 = (float(np.sum(current[keep] ** 2)) / (keep.sum() - p) if covariance_scaled
+              else 1.0)
+        distance = current[keep] ** 2 * h / (p * s2 * (1.0 - h) ** 2)
+        quantile = (float(stats.t.ppf(1.0 - influence_level / 2.0, keep.sum() - p - 1))
+                    if covariance_scaled else float(stats.norm.ppf(1.0 - influence_level / 2.0)))
+        for k, point in enumerate(index):
+            if distance[k] > cooks_limit and abs(t[k]) > quantile:
+                flags[int(point)] = (f"Cook's distance {distance[k]:.3g} beyond {cooks_limit:g} "
+                                     f"with studentized residual {t[k]:.3g}")
+    return flags

@@ -1,0 +1,199 @@
+"""Monte Carlo propagation (JCGM 101:2008) against the linear propagation of the reduction.
+
+The well-conditioned run: HCl at 25 °C, ten molalities 0.001–1 mol/kg (a classic dilution
+series), readings with stated u(E) = 0.02 mV, the Hückel equation with E°, å and b all free.
+Truth: E° = 0.22234 V (Bates & Bower 1954, Table 1) and the Hückel γ± with å = 4.3 Å,
+b = 0.27 kg/mol (the truth of tests/test_uncertainty.py; a regression pin of this project's fit to
+Robinson & Stokes 1959, not a literature value). For such a run the model is nearly linear in its
+parameters over the reading noise, so Monte Carlo and linear propagation must agree; with 2000
+trials a standard deviation is known to about 1/√(2·1999) ≈ 1.6 %, so 10 % is a firm bound.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+
+import numpy as np
+import pytest
+from synthetic import emf_from_gamma, write_run
+
+from activolt.electrolytes import parse_electrolyte
+from activolt.models.hueckel import ln_gamma
+from activolt.montecarlo import coverage_interval, monte_carlo
+from activolt.reduce import reduce_run
+from activolt.runs import read_run
+from activolt.solvent import debye_hueckel_constants
+
+HCL = parse_electrolyte("HCl")
+MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0])
+U_EMF_V = 2e-5
+E0_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C
+TRUTH = {"a_angstrom": 4.3, "b_kg_mol": 0.27}
+
+
+def _exact_emf() -> np.ndarray:
+    constants = debye_hueckel_constants(np.full(MOLALITY.size, 298.15))
+    return emf_from_gamma(MOLALITY, np.exp(ln_gamma(HCL, MOLALITY, constants, TRUTH)), E0_V)
+
+
+@pytest.fixture(scope="module")
+def run(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("mc")
+    emf = _exact_emf() + np.random.default_rng(2024).normal(0.0, U_EMF_V, MOLALITY.size)
+    return read_run(write_run(folder, MOLALITY, emf, u_emf_V=U_EMF_V))
+
+
+@pytest.fixture(scope="module")
+def reduction(run):
+    return reduce_run(run, "hueckel")
+
+
+@pytest.fixture(scope="module")
+def result(run, reduction):
+    return monte_carlo(run, "hueckel", trials=2000, seed=7, reduction=reduction)
+
+
+def test_the_run_is_well_conditioned(reduction):
+    assert reduction.free_names == ("standard_potential_V", "a_angstrom", "b_kg_mol")
+
+
+def test_monte_carlo_agrees_with_linear_propagation(result, reduction):
+    assert result.failed == 0 and result.trials == 2000
+    ratio = result.standard_potential.standard_deviation / reduction.standard_potential.std_dev
+    assert ratio == pytest.approx(1.0, abs=0.10)
+    # γ± at every point as well (15 %: ten quantities, each known to 1.6 %).
+    linear = reduction.points["u_gamma_pm"].to_numpy()
+    np.testing.assert_allclose(result.points["u_gamma_pm"], linear, rtol=0.15)
+    # The Monte Carlo mean stays on the reduction's estimate (to a tenth of u; 2000 trials put
+    # the mean within 1.96/√2000 ≈ 0.04 u of the expectation).
+    assert abs(result.standard_potential.mean - reduction.standard_potential.nominal_value) < (
+        0.1 * reduction.standard_potential.std_dev)
+
+
+def test_coverage_interval_contains_the_mean_and_is_about_four_u_wide(result):
+    summary = result.standard_potential
+    assert summary.low < summary.mean < summary.high
+    # Normal output: the 95 % interval is ±1.96 u (normal table); allow 10 %.
+    assert (summary.high - summary.low) / (2 * 1.96 * summary.standard_deviation) == (
+        pytest.approx(1.0, abs=0.10))
+    points = result.points
+    assert np.all((points["gamma_pm_low"] < points["gamma_pm_mean"])
+                  & (points["gamma_pm_mean"] < points["gamma_pm_high"]))
+
+
+def test_seed_makes_results_reproducible(run, reduction):
+    first = monte_carlo(run, trials=200, seed=3, reduction=reduction)
+    again = monte_carlo(run, trials=200, seed=3, reduction=reduction)
+    other = monte_carlo(run, trials=200, seed=4, reduction=reduction)
+    np.testing.assert_array_equal(first.standard_potential_samples,
+                                  again.standard_potential_samples)
+    np.testing.assert_array_equal(first.gamma_samples, again.gamma_samples)
+    assert first.seed == 3
+    assert not np.array_equal(first.standard_potential_samples,
+                              other.standard_potential_samples)
+
+
+def test_held_parameters_stay_held(tmp_path):
+    # Five dilute readings: the reduction holds å (and says why); every trial must hold it too.
+    m = MOLALITY[:5]
+    emf = _exact_emf()[:5] + np.random.default_rng(1).normal(0.0, U_EMF_V, 5)
+    short = read_run(write_run(tmp_path, m, emf, u_emf_V=U_EMF_V))
+    reduction = reduce_run(short, "hueckel")
+    result = monte_carlo(short, trials=300, seed=1, reduction=reduction)
+    assert result.free_names == reduction.free_names
+    assert set(result.held) == {p.name for p in reduction.parameters if p.fixed}
+    if any(p.fixed and p.reason for p in reduction.parameters):
+        assert any("Type B" in note for note in result.notes)
+
+
+def test_unstated_reading_uncertainty_uses_the_residual_scatter(tmp_path):
+    emf = _exact_emf() + np.random.default_rng(9).normal(0.0, U_EMF_V, MOLALITY.size)
+    plain = read_run(write_run(tmp_path, MOLALITY, emf))
+    reduction = reduce_run(plain, "hueckel")
+    result = monte_carlo(plain, trials=1000, seed=2, reduction=reduction)
+    assert result.reading_uncertainty == "residual standard deviation"
+    assert any("residual standard deviation" in note for note in result.notes)
+    # The linear u is scaled by the residual variance too: they agree (10 %).
+    ratio = result.standard_potential.standard_deviation / reduction.standard_potential.std_dev
+    assert ratio == pytest.approx(1.0, abs=0.10)
+
+
+def test_molality_uncertainty_acts_like_a_reading_uncertainty(run, reduction):
+    # The fit sees y_i = E_i + k_i ln m±,i = E° − k_i ln γ±,i, so a molality error moves y_i by
+    # k_i u(m_i)/m_i exactly as a reading error would: it enters E° and γ± together. The linear
+    # propagation that keeps this is D A V_y Aᵀ D with A = 1 sᵀ − I, D = diag(1/k),
+    # V_y = diag(u²(E) + k² u²(m)/m²) (GUM, JCGM 100:2008, 5.2; derivation in this docstring).
+    from activolt.electrolytes import nernst_factor
+    from activolt.reduce import _jacobian, _prepare
+    from activolt.uncertainty import sensitivity_matrix
+
+    points = run.points.copy()
+    points["u_molality_mol_kg"] = 1e-3 * points["molality_mol_kg"]  # 0.1 % relative
+    uncertain = dataclasses.replace(run, points=points)
+    result = monte_carlo(uncertain, trials=2000, seed=5, reduction=reduction)
+    data = _prepare(run)
+    jac = _jacobian(reduction.model, HCL, data, reduction.standard_potential.nominal_value,
+                    reduction.parameter_values, list(reduction.free_names[1:]))
+    s = sensitivity_matrix(jac, data.weights)[0]
+    k = nernst_factor(HCL, 1, 298.15)
+    v_y = U_EMF_V**2 + (k * 1e-3) ** 2
+    a = np.outer(np.ones(s.size), s) - np.eye(s.size)
+    u_ln_gamma = np.sqrt(np.diag(a @ a.T) * v_y) / k
+    np.testing.assert_allclose(result.points["u_gamma_pm"] / result.points["gamma_pm_mean"],
+                               u_ln_gamma, rtol=0.10)
+    u_e0 = np.sqrt(np.sum(s**2) * v_y)
+    assert result.standard_potential.standard_deviation == pytest.approx(u_e0, rel=0.10)
+
+
+def test_temperature_uncertainty_widens_the_distribution(run, reduction):
+    base = monte_carlo(run, trials=1000, seed=5, reduction=reduction)
+    with_t = monte_carlo(run, trials=1000, seed=5, reduction=reduction, temperature_u_K=0.05)
+    assert with_t.standard_potential.standard_deviation > (
+        base.standard_potential.standard_deviation)
+    assert with_t.temperature_u_K == 0.05 and any("u(T)" in note for note in with_t.notes)
+
+
+def test_linear_model_is_solved_in_one_step(tmp_path):
+    # The limiting law has E° as its only free parameter: the mean over trials of E° equals the
+    # weighted mean of E + k ln(m± γ_DH) over the drawn readings (regression check, exact).
+    m = np.array([1e-4, 2e-4, 5e-4, 1e-3])
+    sqrt_m = np.sqrt(m)
+    a_gamma = 3 * 0.3913  # A_φ at 25 °C, IAPWS-derived (reference-values.md)
+    emf = emf_from_gamma(m, np.exp(-a_gamma * sqrt_m), E0_V)
+    dilute = read_run(write_run(tmp_path, m, emf, u_emf_V=U_EMF_V))
+    reduction = reduce_run(dilute, "limiting")
+    result = monte_carlo(dilute, "limiting", trials=500, seed=0, reduction=reduction)
+    # u(E°) of a weighted mean of four equal readings: u/2 (exact).
+    assert result.standard_potential.standard_deviation == pytest.approx(U_EMF_V / 2, rel=0.1)
+    assert reduction.standard_potential.std_dev == pytest.approx(U_EMF_V / 2, rel=1e-6)
+
+
+def test_one_by_one_path_agrees_with_the_vectorised_path(run, reduction, monkeypatch):
+    # The robust path (the fitting core per trial) must give the same fits (regression check).
+    import activolt.montecarlo as montecarlo_module
+
+    fast = monte_carlo(run, trials=30, seed=11, reduction=reduction)
+    monkeypatch.setattr(montecarlo_module, "_gauss_newton",
+                        lambda *args: np.zeros(args[1].shape[0], dtype=bool))
+    slow = monte_carlo(run, trials=30, seed=11, reduction=reduction)
+    assert any("one by one" in note for note in slow.notes)
+    np.testing.assert_allclose(slow.standard_potential_samples,
+                               fast.standard_potential_samples, rtol=0, atol=1e-4 * U_EMF_V)
+    np.testing.assert_allclose(slow.gamma_samples, fast.gamma_samples, rtol=1e-7)
+
+
+def test_coverage_interval_rule():
+    # JCGM 101:2008, 7.7: M = 1000, p = 0.95 → q = 950, r = 25: [y_(25), y_(975)].
+    assert coverage_interval(np.arange(1.0, 1001.0)) == (25.0, 975.0)
+    low, high = coverage_interval(np.random.default_rng(0).normal(size=200_000))
+    # Normal quantiles ±1.960 (any table); 200 000 samples give them to about ±0.01.
+    assert low == pytest.approx(-1.960, abs=0.02) and high == pytest.approx(1.960, abs=0.02)
+    with pytest.raises(ValueError, match="two samples"):
+        coverage_interval(np.array([1.0]))
+
+
+def test_errors(run, reduction):
+    with pytest.raises(ValueError, match="at least 10"):
+        monte_carlo(run, trials=5, reduction=reduction)
+    with pytest.raises(ValueError, match="temperature_u_K"):
+        monte_carlo(run, trials=100, temperature_u_K=-1.0, reduction=reduction)
