@@ -105,3 +105,33 @@ def test_sensitivity_of_a_straight_line_intercept():
     # derivation from the normal equations; common practice).
     j = np.array([[1.0, 0.0], [1.0, 1.0], [1.0, 2.0]])
     np.testing.assert_allclose(sensitivity_matrix(j, np.ones(3))[0], [5 / 6, 2 / 6, -1 / 6])
+
+
+def test_molality_uncertainty_by_effective_variance_matches_monte_carlo(tmp_path):
+    # u(m) = 0.1 % of m (a typical gravimetric dilution; common practice) enters the fit as an
+    # effective reading variance (Orear 1982, Am. J. Phys. 50, 912); the GUM-S1 Monte Carlo of
+    # the whole reduction (JCGM 101:2008) is the reference, within 10 %.
+    from activolt.montecarlo import monte_carlo
+
+    gamma = _truth_gamma()
+    emf = emf_from_gamma(MOLALITY, gamma, E0_V)
+    emf = emf + np.random.default_rng(8).normal(0, U_EMF_V, MOLALITY.size)
+    path = write_run(tmp_path, MOLALITY, emf, u_emf_V=U_EMF_V)
+    lines = path.read_text().splitlines()
+    lines = [lines[0] + ",u_molality_mol_kg"] + [
+        f"{line},{float(line.split(',')[0]) * 1e-3!r}" for line in lines[1:]]
+    path.write_text("\n".join(lines) + "\n")
+    reduction = reduce_run(read_run(path))
+    mc = monte_carlo(reduction.run, trials=4000, seed=3, reduction=reduction)
+    assert reduction.standard_potential.std_dev == pytest.approx(
+        mc.standard_potential.standard_deviation, rel=0.10)
+    # γ± here is the value on the curve at the stated molality; the Monte Carlo follows the
+    # solution actually made. They differ by (∂ ln γ±/∂m) u(m), which shows only at the
+    # concentrated end: compare up to 0.5 mol/kg.
+    dilute = MOLALITY <= 0.5
+    np.testing.assert_allclose(reduction.points["u_gamma_pm"][dilute],
+                               mc.points["u_gamma_pm"][dilute], rtol=0.10)
+    # and the molality uncertainty matters here: u(E°) grows by more than a third
+    without = reduce_run(read_run(write_run(tmp_path, MOLALITY, emf, u_emf_V=U_EMF_V,
+                                            stem="plain")))
+    assert reduction.standard_potential.std_dev > 1.33 * without.standard_potential.std_dev

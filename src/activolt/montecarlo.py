@@ -275,7 +275,7 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
     notes: list[str] = []
 
     if data.stated_uncertainty:
-        u_emf = 1.0 / np.sqrt(data.weights)
+        u_emf = data.u_emf_V
         reading = "stated"
     else:
         u_emf = np.full(n, reduction.statistics.residual_sd_V)

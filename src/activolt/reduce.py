@@ -15,6 +15,7 @@ linearised extrapolation is computed beside it as a cross-check.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -221,6 +222,8 @@ class _Data:
     slope: float = 1.0
     correction_V: np.ndarray | None = None
     gas_pressure_Pa: np.ndarray | None = None
+    u_emf_V: np.ndarray | None = None
+    u_molality_mol_kg: np.ndarray | None = None
 
 
 def _gas_correction(run: Run, points: pd.DataFrame) -> tuple[np.ndarray | None,
@@ -260,6 +263,7 @@ def _prepare(run: Run) -> _Data:
     u = points["u_emf_V"].to_numpy(float) if stated else np.ones(len(points))
     correction, partial = _gas_correction(run, points)
     emf = points["emf_V"].to_numpy(float)
+    u_molality = points["u_molality_mol_kg"].to_numpy(float)
     return _Data(
         molality=molality,
         emf_V=emf if correction is None else emf + correction,
@@ -272,7 +276,26 @@ def _prepare(run: Run) -> _Data:
         slope=meta.slope_factor,
         correction_V=correction,
         gas_pressure_Pa=partial,
+        u_emf_V=u if stated else None,
+        u_molality_mol_kg=u_molality,
     )
+
+
+def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+                             fit: _Fit) -> _Data:
+    """Weights 1/[u²(E) + (∂E/∂m)² u²(m)] (effective variance; Orear 1982, Am. J. Phys. 50,
+    912), the slope taken from ``fit``; unchanged when no u(m) or no u(E) is stated."""
+    if not data.stated_uncertainty or data.u_molality_mol_kg is None or not np.any(
+            data.u_molality_mol_kg > 0):
+        return data
+    step = 1e-6 * data.molality
+    shifted = [dataclasses.replace(
+        data, molality=m, ln_mean_molality=np.log(electrolyte.mean_molality(m)))
+        for m in (data.molality + step, data.molality - step)]
+    up, down = (_model_emf(model, electrolyte, d, fit.e0, fit.values) for d in shifted)
+    slope_V_kg_mol = (up - down) / (2.0 * step)
+    variance = data.u_emf_V**2 + (slope_V_kg_mol * data.u_molality_mol_kg) ** 2
+    return dataclasses.replace(data, weights=1.0 / variance)
 
 
 def _spec(model: ActivityModel, name: str) -> Parameter:
@@ -534,6 +557,11 @@ def reduce_run(run: Run, model: str = "hueckel",
             free.remove(name)
             reasons[name] = f"too few readings to fit it ({n})"
         fit = _fit_once(family, electrolyte, data, values, free)
+        if first_fit is None:
+            effective = _with_effective_variance(family, electrolyte, data, fit)
+            if effective is not data:
+                data = effective
+                fit = _fit_once(family, electrolyte, data, values, free)
         first_fit = first_fit or fit
         hold = _hard_failure(family, fit) or _not_supported(family, electrolyte, data, fit,
                                                              values)
@@ -720,7 +748,6 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
     reading_var = (1.0 / data.weights if data.stated_uncertainty
                    else np.full(n, fit.chi2 / fit.dof))
     usable = run.points["flag"].isna().to_numpy()
-    u_m = run.points.loc[usable, "u_molality_mol_kg"].to_numpy(float)
 
     # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
     slope = fit.values.get(SLOPE, data.slope)
@@ -730,8 +757,10 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
     parameter_gradient[:, 0] = scale
     if SLOPE in fit.free:
         parameter_gradient[:, 1 + fit.free.index(SLOPE)] = -(fit.e0 - data.emf_V) * scale / slope
+    # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
+    # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     cov_ln = ln_gamma_covariance(parameter_gradient, -scale, sensitivity, reading_var,
-                                 (u_m / data.molality) ** 2, type_b_covariance=type_b)
+                                 np.zeros(n), type_b_covariance=type_b)
     gamma = np.exp(ln_gamma)
     gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]
 
