@@ -52,8 +52,13 @@ def test_record_contents(reduction):
     assert e0["value"] == pytest.approx(reduction.standard_potential.nominal_value)
     assert e0["uncertainty"] > 0 and "not scaled" in e0["method"]
     assert len(record["points"]) == 8  # seven readings and the flagged row
-    flagged = [p for p in record["points"] if p["flag"]]
-    assert len(flagged) == 1 and flagged[0]["emf_V"] is None and flagged[0]["gamma_pm"] is None
+    left_out = [p for p in record["points"] if not p["used_in_fit"]]
+    assert len(left_out) == 1 and left_out[0]["emf_V"] is None
+    assert left_out[0]["gamma_pm"] is None and left_out[0]["flag"] == "no reading"
+    assert all(p["flag"] for p in record["points"] if p["leverage"] is None)
+    budget = record["uncertainty_budget"]
+    assert budget["combined_u_V"] == pytest.approx(
+        sum(line["u_V"] ** 2 for line in budget["lines"]) ** 0.5, rel=1e-6)
     assert any("no reading" in w for w in record["warnings"])
     assert record["fit"]["dof"] == record["fit"]["n_points"] - record["fit"]["n_free"]
     assert set(record["model"]["parameters"]) == {"a_angstrom", "b_kg_mol"}

@@ -77,6 +77,13 @@ def _parser() -> argparse.ArgumentParser:
     reduce.add_argument("--slope-factor", type=_slope_value, dest="slope_factor",
                         help="'fit' to fit the slope factor s of the cell response (ion-selective "
                              "electrode pairs), or a fixed value; default 1 (Nernstian)")
+    reduce.add_argument("--exclude", action="append", default=[], metavar="line=N:REASON",
+                        help="leave a reading out of the fit, by file line or by molality "
+                             "(m=0.005:REASON); the reason is kept in the record")
+    reduce.add_argument("--monte-carlo", type=int, dest="monte_carlo", metavar="TRIALS",
+                        help="also propagate by Monte Carlo (GUM Supplement 1) with this many "
+                             "trials")
+    reduce.add_argument("--seed", type=int, default=0, help="seed of the Monte Carlo; default 0")
     reduce.add_argument("--no-figures", action="store_true", help="skip the figures")
 
     cell = commands.add_parser("cell", help="a cell's reaction, n, E°, ΔG° and K from its "
@@ -94,12 +101,17 @@ def _parser() -> argparse.ArgumentParser:
 
 def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, float],
             out: Path | None, json_path: Path | None, series: str | None,
-            overrides: dict[str, object], figures: bool) -> list[Path]:
+            overrides: dict[str, object], figures: bool, exclude: tuple[str, ...] = (),
+            trials: int | None = None, seed: int = 0) -> list[Path]:
     from .records import points_csv, record_json
     from .reduce import reduce_run
-    from .runs import read_run
+    from .runs import Exclusion, exclude_points, read_run
 
     run = read_run(run_path, meta, overrides=overrides, series=series)
+    exclusions = [Exclusion.parse(text) for text in exclude]
+    if trials is not None and not 10 <= trials <= 1_000_000:
+        raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
+                         file="command line", column="--monte-carlo")
     comparison = None
     if model == "all" or "," in model:
         from .model_choice import compare_models
@@ -107,19 +119,29 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         from .report.model_table import format_model_comparison
 
         names = list(MODELS) if model == "all" else [m.strip() for m in model.split(",")]
+        if exclusions:
+            run = exclude_points(run, exclusions)
         comparison = compare_models(run, names, _fixed_per_model(names, fixed))
         reduction = comparison.recommended_reduction
         if reduction is None:
             raise FitError(comparison.warnings[-1])
         report = reduction.report() + "\n" + format_model_comparison(comparison)
     else:
-        reduction = reduce_run(run, model=model, fixed=fixed)
+        reduction = reduce_run(run, model=model, fixed=fixed, exclude=exclusions)
         report = reduction.report()
+    monte = None
+    if trials is not None:
+        from .montecarlo import monte_carlo
+        from .report.text import format_monte_carlo
+
+        monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
+                            temperature_u_K=run.metadata.u_temperature_K)
+        report += "\n" + format_monte_carlo(monte, reduction)
     stem = run_path.stem
     out = out if out is not None else run_path.parent / f"{stem}_activolt"
     outputs: dict[Path, bytes | str] = {
-        (json_path or out / f"{stem}.record.json"): record_json(reduction,
-                                                                comparison=comparison),
+        (json_path or out / f"{stem}.record.json"): record_json(
+            reduction, comparison=comparison, monte_carlo=monte),
         out / f"{stem}.points.csv": points_csv(reduction),
         out / f"{stem}.report.txt": report,
     }
@@ -217,7 +239,8 @@ def main(argv: Sequence[str] | None = None) -> int:
                          ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa",
                           "cell", "slope_factor")}
             written = _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
-                              args.json, args.series, overrides, not args.no_figures)
+                              args.json, args.series, overrides, not args.no_figures,
+                              tuple(args.exclude), args.monte_carlo, args.seed)
     except SystemExit as stop:  # --help and --version
         return int(stop.code or 0)
     except BrokenPipeError:  # output piped into a command that stopped reading

@@ -15,6 +15,7 @@ from typing import Any
 
 from . import __version__
 from .model_choice import ModelComparison, comparison_record
+from .montecarlo import MonteCarloResult
 from .properties import derived_properties
 from .reduce import Reduction
 from .report.cautions import cautions_for
@@ -40,7 +41,8 @@ def record_schema() -> dict[str, Any]:
 
 
 def build_record(reduction: Reduction, created: datetime | None = None,
-                 comparison: ModelComparison | None = None) -> dict[str, Any]:
+                 comparison: ModelComparison | None = None,
+                 monte_carlo: MonteCarloResult | None = None) -> dict[str, Any]:
     """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
 
     With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
@@ -76,7 +78,12 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "u_gamma_pm": _number(row["u_gamma_pm"]),
             "gamma_pm_model": _number(row["gamma_pm_model"]),
             "u_gamma_pm_model": _number(row["u_gamma_pm_model"]),
-            "flag": row["flag"] if isinstance(row["flag"], str) else None,
+            "flag": (row["flag"] if isinstance(row["flag"], str)
+                     else row["diagnostic"] if isinstance(row["diagnostic"], str) else None),
+            "used_in_fit": not isinstance(row["flag"], str),
+            "leverage": _number(row["leverage"]),
+            "studentized_residual": _number(row["studentized_residual"]),
+            "cooks_distance": _number(row["cooks_distance"]),
             "note": row["note"] or None,
         })
     cross = reduction.linear_extrapolation
@@ -169,6 +176,25 @@ def build_record(reduction: Reduction, created: datetime | None = None,
                        for row in properties.to_dict(orient="records")],
         },
         "model_comparison": None if comparison is None else comparison_record(comparison),
+        "uncertainty_budget": {
+            "quantity": "standard_potential_V",
+            "lines": [{"component": b.component, "u_V": b.u_V, "method": b.method}
+                      for b in reduction.budget],
+            "combined_u_V": reduction.standard_potential.std_dev,
+        },
+        "monte_carlo": None if monte_carlo is None else {
+            "method": "GUM Supplement 1 (JCGM 101:2008): inputs drawn from their stated "
+                      "distributions, every trial refitted",
+            "trials": monte_carlo.trials, "failed": monte_carlo.failed,
+            "seed": monte_carlo.seed,
+            "standard_potential_V": {
+                "mean": monte_carlo.standard_potential.mean,
+                "uncertainty": monte_carlo.standard_potential.standard_deviation,
+                "interval_95": [monte_carlo.standard_potential.low,
+                                monte_carlo.standard_potential.high]},
+            "u_gamma_pm": [float(v) for v in monte_carlo.points["u_gamma_pm"]],
+            "notes": list(monte_carlo.notes),
+        },
         "notes": list(reduction.notes),
         "warnings": warnings,
         "cautions": cautions_for(meta.electrolyte, meta.cell),
@@ -176,10 +202,11 @@ def build_record(reduction: Reduction, created: datetime | None = None,
 
 
 def record_json(reduction: Reduction, created: datetime | None = None,
-                comparison: ModelComparison | None = None) -> str:
+                comparison: ModelComparison | None = None,
+                monte_carlo: MonteCarloResult | None = None) -> str:
     """The record as JSON text (UTF-8, indented, NaN written as null)."""
-    return json.dumps(build_record(reduction, created, comparison), ensure_ascii=False,
-                      indent=2, allow_nan=False) + "\n"
+    return json.dumps(build_record(reduction, created, comparison, monte_carlo),
+                      ensure_ascii=False, indent=2, allow_nan=False) + "\n"
 
 
 def points_csv(reduction: Reduction) -> str:
@@ -199,7 +226,11 @@ def points_csv(reduction: Reduction) -> str:
         "gamma_pm_model": table["gamma_pm_model"],
         "u_gamma_pm_model": table["u_gamma_pm_model"],
         "electrode": table["electrode"],
+        "leverage": table["leverage"],
+        "studentized_residual": table["studentized_residual"],
+        "cooks_distance": table["cooks_distance"],
         "flag": table["flag"].where(table["flag"].notna(), ""),
+        "diagnostic": table["diagnostic"].where(table["diagnostic"].notna(), ""),
         "note": table["note"],
     }
     import pandas as pd

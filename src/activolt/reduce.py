@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -30,9 +30,9 @@ from .electrolytes import Electrolyte, nernst_factor
 from .errors import FitError, InputError
 from .models import ActivityModel, Parameter, get_model
 from .models.hueckel import BATES_GUGGENHEIM_BA
-from .runs import Run, usable_points
+from .runs import Exclusion, Run, exclude_points, usable_points
 from .solvent import DebyeHueckelConstants, debye_hueckel_constants
-from .uncertainty import ln_gamma_covariance, sensitivity_matrix, student_t_factor
+from .uncertainty import BudgetLine, ln_gamma_covariance, sensitivity_matrix, student_t_factor
 
 __all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction", "reduce_run",
            "sensitivity_matrix"]
@@ -146,6 +146,7 @@ class Reduction:
     catalogue: CatalogueValue | None = None
     uncertain_names: tuple[str, ...] = ()
     uncertain_covariance: np.ndarray | None = None
+    budget: tuple[BudgetLine, ...] = ()
 
     @property
     def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
@@ -483,7 +484,8 @@ def _linear_extrapolation(run: Run, data: _Data, slope: float) -> LinearExtrapol
 
 
 def reduce_run(run: Run, model: str = "hueckel",
-               fixed: Mapping[str, float] | None = None) -> Reduction:
+               fixed: Mapping[str, float] | None = None,
+               exclude: Sequence[Exclusion] = ()) -> Reduction:
     """Fit E° and the activity-coefficient model to a run; γ± with uncertainties at each point.
 
     Parameters
@@ -494,6 +496,9 @@ def reduce_run(run: Run, model: str = "hueckel",
         Model name (``limiting``, ``hueckel``, …; see :data:`activolt.models.MODELS`).
     fixed : mapping, optional
         Parameters to hold at given values, e.g. ``{"a_angstrom": 4.3}``.
+    exclude : sequence of Exclusion, optional
+        Readings to leave out, each with the user's reason; they stay in the points table,
+        flagged, and the change of E° their exclusion makes is reported.
 
     Returns
     -------
@@ -506,6 +511,16 @@ def reduce_run(run: Run, model: str = "hueckel",
     FitError
         The fit did not converge or its covariance cannot be estimated.
     """
+    if exclude:
+        complete = reduce_run(run, model, fixed)
+        reduction = reduce_run(exclude_points(run, list(exclude)), model, fixed)
+        shift = reduction.standard_potential - complete.standard_potential
+        u = complete.standard_potential.std_dev
+        what = "; ".join(f"line {e.line}" if e.line is not None else
+                         f"m = {e.molality_mol_kg:g} mol/kg" for e in exclude)
+        message = (f"excluding {what} moved E° by {shift.nominal_value * 1e3:+.4f} mV "
+                   f"({shift.nominal_value / u:+.2g} u of the fit with every reading)")
+        return dataclasses.replace(reduction, warnings=(*reduction.warnings, message))
     try:
         family = get_model(model)
     except ValueError as error:
@@ -601,6 +616,14 @@ def reduce_run(run: Run, model: str = "hueckel",
             f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
             "conventional value(s) (GUM Type B)")
 
+    common = _common_input_effects(run, family, electrolyte, data, fit)
+    for _, u, moves, _ in common:
+        fit.covariance = fit.covariance + np.outer(moves, moves) * u**2
+    if effects is not None:
+        uncertain_covariance = np.block([[fit.covariance, cross],
+                                         [cross.T, np.diag(variances)]])
+    budget = _budget(run, data, fit, type_b, common)
+
     max_ionic = float(electrolyte.ionic_strength(data.molality).max())
     if max_ionic > family.max_ionic_strength:
         warnings.append(
@@ -622,8 +645,11 @@ def reduce_run(run: Run, model: str = "hueckel",
 
     if effects is None:
         uncertain_covariance = fit.covariance
+    common_ln_gamma = sum((np.outer(d, d) * u**2 for _, u, _, d in common),
+                          start=np.zeros((n, n)))
     table, gamma_cov = _points_table(run, family, data, fit, type_b, uncertain_names,
-                                     uncertain_covariance)
+                                     uncertain_covariance, common_ln_gamma)
+    warnings += _diagnose(table, data, fit)
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
@@ -646,7 +672,121 @@ def reduce_run(run: Run, model: str = "hueckel",
         warnings=tuple(warnings), notes=tuple(notes),
         corrections=corrections, other_basis=other_basis, catalogue=catalogue,
         uncertain_names=uncertain_names, uncertain_covariance=uncertain_covariance,
+        budget=budget,
     )
+
+
+#: Steps for the sensitivity of the reduction to inputs common to every reading.
+_TEMPERATURE_STEP_K = 0.01
+_PRESSURE_STEP_PA = 10.0
+
+
+def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrolyte,
+                          data: _Data, fit: _Fit
+                          ) -> list[tuple[str, float, np.ndarray, np.ndarray]]:
+    """For each input shared by all readings with a stated uncertainty (the run temperature, the
+    barometric pressure): (name, u, ∂(E°, free parameters)/∂input, ∂ ln γ±/∂input), from a
+    refit with the input shifted (GUM 5.1.3, sensitivity coefficients by finite difference)."""
+    meta = run.metadata
+    effects = []
+    shifts = []
+    if meta.u_temperature_K > 0:
+        points = run.points.assign(temperature_K=run.points["temperature_K"]
+                                   + _TEMPERATURE_STEP_K)
+        shifts.append(("temperature", meta.u_temperature_K, _TEMPERATURE_STEP_K, points, meta))
+    if meta.u_pressure_Pa > 0 and data.correction_V is not None:
+        points = run.points.assign(pressure_Pa=run.points["pressure_Pa"] + _PRESSURE_STEP_PA)
+        barometric = (None if meta.barometric_pressure_Pa is None
+                      else meta.barometric_pressure_Pa + _PRESSURE_STEP_PA)
+        shifts.append(("barometric pressure", meta.u_pressure_Pa, _PRESSURE_STEP_PA, points,
+                       dataclasses.replace(meta, barometric_pressure_Pa=barometric)))
+    base = np.array([fit.e0, *[fit.values[n] for n in fit.free]])
+    slope = fit.values.get(SLOPE, data.slope)
+    ln_gamma = (fit.e0 - data.emf_V) * data.sign / (slope * data.nernst_V) - data.ln_mean_molality
+    for name, u, step, points, metadata in shifts:
+        shifted = dataclasses.replace(
+            _prepare(dataclasses.replace(run, points=points, metadata=metadata)),
+            weights=data.weights)
+        refit = _fit_once(family, electrolyte, shifted, fit.values, fit.free)
+        moved = np.array([refit.e0, *[refit.values[n] for n in fit.free]])
+        slope2 = refit.values.get(SLOPE, data.slope)
+        ln_gamma2 = ((refit.e0 - shifted.emf_V) * data.sign / (slope2 * shifted.nernst_V)
+                     - shifted.ln_mean_molality)
+        effects.append((name, u, (moved - base) / step, (ln_gamma2 - ln_gamma) / step))
+    return effects
+
+
+def _budget(run: Run, data: _Data, fit: _Fit, type_b: np.ndarray | None,
+            common: list[tuple[str, float, np.ndarray, np.ndarray]]) -> tuple[BudgetLine, ...]:
+    """Contributions to u(E°), each as the standard uncertainty it alone gives E°."""
+    s = sensitivity_matrix(fit.jacobian, data.weights)[0]
+    lines = []
+    if data.stated_uncertainty:
+        reading = float(np.sqrt(np.sum(s**2 * data.u_emf_V**2)))
+        lines.append(BudgetLine("readings", reading, "stated u(EMF) of each reading, through "
+                                "the fit (linear propagation)"))
+        molality_var = np.maximum(1.0 / data.weights - data.u_emf_V**2, 0.0)
+        if np.any(molality_var > 0):
+            lines.append(BudgetLine("molalities", float(np.sqrt(np.sum(s**2 * molality_var))),
+                                    "stated u(m) as effective reading variance (∂E/∂m)² u²(m)"))
+    else:
+        scatter = fit.chi2 / fit.dof
+        lines.append(BudgetLine("readings", float(np.sqrt(np.sum(s**2) * scatter)),
+                                "scatter of the readings about the fit (Type A, covariance "
+                                f"scaled by the reduced χ², {fit.dof} degrees of freedom)"))
+        if run.points["u_molality_mol_kg"].gt(0).any():
+            lines.append(BudgetLine("molalities", 0.0, "with no stated u(EMF) the scatter of "
+                                    "the readings already carries u(m)"))
+    if type_b is not None:
+        lines.append(BudgetLine("held conventional values", float(np.sqrt(type_b[0, 0])),
+                                "uncertainty of the conventions at which undetermined "
+                                "parameters were held (Type B)"))
+    for name, u, moves, _ in common:
+        lines.append(BudgetLine(name, float(abs(moves[0]) * u),
+                                f"stated u = {u:g} {'K' if name == 'temperature' else 'Pa'}, "
+                                "common to all readings; sensitivity by refitting"))
+    meta = run.metadata
+    if meta.u_temperature_K == 0:
+        lines.append(BudgetLine("temperature", 0.0, "no u(T) stated (metadata "
+                                "u_temperature_K)"))
+    if data.correction_V is not None and meta.u_pressure_Pa == 0:
+        lines.append(BudgetLine("barometric pressure", 0.0, "no u(p) stated (metadata "
+                                "u_pressure_kPa)"))
+    return tuple(lines)
+
+
+def _diagnose(table: pd.DataFrame, data: _Data, fit: _Fit) -> list[str]:
+    """Leverage, studentized residuals and Cook's distance of the used readings (in ``table``),
+    and a ``diagnostic`` reason where one stands out; warnings naming them."""
+    from .diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
+
+    used = table["flag"].isna().to_numpy()
+    scaled = not data.stated_uncertainty
+    table["diagnostic"] = None
+    table["diagnostic"] = table["diagnostic"].astype(object)
+    n, p = fit.jacobian.shape
+    if scaled and n - p - 1 < 1:
+        for name in ("leverage", "studentized_residual", "cooks_distance"):
+            table[name] = np.nan
+        return ["too few readings for leave-one-out diagnostics (they need N − P − 1 ≥ 1 when "
+                "the scatter is estimated from the fit)"]
+    columns = {
+        "leverage": leverage(fit.jacobian, data.weights),
+        "studentized_residual": studentized_residuals(fit.jacobian, data.weights,
+                                                      fit.residual_V, scaled),
+        "cooks_distance": cooks_distance(fit.jacobian, data.weights, fit.residual_V, scaled),
+    }
+    for name, values in columns.items():
+        table[name] = np.nan
+        table.loc[used, name] = values
+    reasons = flag_points(fit.jacobian, data.weights, fit.residual_V, scaled)
+    table.loc[used, "diagnostic"] = pd.Series(reasons, dtype=object).to_numpy()
+    warnings = []
+    for _, row in table[table["diagnostic"].notna()].iterrows():
+        warnings.append(f"reading at m = {row['molality_mol_kg']:g} mol/kg (line "
+                        f"{int(row['line'])}) stands out: {row['diagnostic']}; it is kept in "
+                        "the fit — check it, and exclude it with a reason if it is faulty")
+    return warnings
 
 
 def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
@@ -740,7 +880,8 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
 
 def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
                   type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
-                  uncertain_covariance: np.ndarray) -> tuple[pd.DataFrame, np.ndarray]:
+                  uncertain_covariance: np.ndarray, common_ln_gamma: np.ndarray
+                  ) -> tuple[pd.DataFrame, np.ndarray]:
     """All rows of the run with fitted EMF, residual and γ± (measured and model)."""
     electrolyte = run.metadata.electrolyte
     n = len(data.emf_V)
@@ -760,7 +901,7 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     cov_ln = ln_gamma_covariance(parameter_gradient, -scale, sensitivity, reading_var,
-                                 np.zeros(n), type_b_covariance=type_b)
+                                 np.zeros(n), type_b_covariance=type_b) + common_ln_gamma
     gamma = np.exp(ln_gamma)
     gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]
 

@@ -9,6 +9,7 @@ do. Inputs are never modified.
 from __future__ import annotations
 
 import csv
+import dataclasses
 import hashlib
 import math
 import re
@@ -18,6 +19,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
@@ -35,6 +37,7 @@ NOT_YET_USED_COLUMNS: tuple[str, ...] = ()
 KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "electrolyte", "electrons", "temperature_C", "temperature_K", "cell",
     "standard_pressure_kPa", "pressure_kPa", "bubbler_depth_cm", "slope_factor",
+    "u_temperature_K", "u_pressure_kPa",
     "lab", "operator", "instrument", "date", "description", "electrode", "notes",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
@@ -76,6 +79,10 @@ class RunMetadata:
         Fixed slope factor s of the cell response, E = E° − s k ln(m± γ±) (1 = Nernstian).
     fit_slope_factor : bool
         Whether s is fitted alongside E° (ion-selective electrode pairs).
+    u_temperature_K : float
+        Standard uncertainty of the run temperature, common to all rows [K].
+    u_pressure_Pa : float
+        Standard uncertainty of the barometric pressure, common to all rows [Pa].
     """
 
     electrolyte: Electrolyte
@@ -90,6 +97,8 @@ class RunMetadata:
     bubbler_depth_m: float = 0.0
     slope_factor: float = 1.0
     fit_slope_factor: bool = False
+    u_temperature_K: float = 0.0
+    u_pressure_Pa: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -428,6 +437,15 @@ def _metadata(
         raise fail("slope_factor", "slope_factor must be \"fit\" or a number from 0.5 to 1.2 "
                                    f"(1 = Nernstian), got {slope!r}")
 
+    common_u = {}
+    for key, limit in (("u_temperature_K", 5.0), ("u_pressure_kPa", 5.0)):
+        value = merged.get(key, 0.0)
+        if isinstance(value, bool) or not isinstance(value, int | float) or not (
+                0.0 <= value <= limit):
+            raise fail(key, f"{key} must be a standard uncertainty from 0 to {limit:g}, "
+                            f"got {value!r}")
+        common_u[key] = float(value)
+
     info = {k: str(merged[k]) for k in _TEXT_METADATA_KEYS if k in merged}
     metadata = RunMetadata(
         electrolyte=electrolyte, electrons=electrons,
@@ -437,6 +455,8 @@ def _metadata(
         gas_coefficients={} if stoichiometry is None else dict(stoichiometry.gas_coefficients),
         barometric_pressure_Pa=barometric_Pa, bubbler_depth_m=bubbler_m,
         slope_factor=1.0 if fit_slope else float(slope), fit_slope_factor=fit_slope,
+        u_temperature_K=common_u["u_temperature_K"],
+        u_pressure_Pa=common_u["u_pressure_kPa"] * 1e3,
     )
     return metadata, warnings
 
@@ -597,11 +617,63 @@ def read_run(
     )
 
 
+@dataclass(frozen=True)
+class Exclusion:
+    """A reading the user leaves out of the fit, by file line or by molality, with a reason."""
+
+    reason: str
+    line: int | None = None
+    molality_mol_kg: float | None = None
+
+    @classmethod
+    def parse(cls, text: str) -> Exclusion:
+        """From ``line=N:reason`` or ``m=VALUE:reason`` (molality in mol/kg).
+
+        Examples
+        --------
+        >>> Exclusion.parse("m=0.005:bubbles on the electrode")
+        Exclusion(reason='bubbles on the electrode', line=None, molality_mol_kg=0.005)
+        """
+        selector, _, reason = text.partition(":")
+        key, _, value = selector.partition("=")
+        reason = reason.strip()
+        try:
+            if not reason:
+                raise ValueError
+            if key.strip() == "line":
+                return cls(reason=reason, line=int(value))
+            if key.strip() == "m":
+                return cls(reason=reason, molality_mol_kg=float(value))
+            raise ValueError
+        except ValueError:
+            raise InputError(f"'{text}' is not line=N:reason or m=VALUE:reason (a reason is "
+                             "required; it is kept in the record)", file="command line",
+                             column="--exclude") from None
+
+
+def exclude_points(run: Run, exclusions: list[Exclusion]) -> Run:
+    """The run with the chosen readings flagged ``excluded: <reason>`` (kept, not deleted)."""
+    points = run.points.copy()
+    for exclusion in exclusions:
+        if exclusion.line is not None:
+            chosen = points["line"] == exclusion.line
+            what = f"line {exclusion.line}"
+        else:
+            chosen = np.isclose(points["molality_mol_kg"], exclusion.molality_mol_kg,
+                                rtol=1e-9, atol=0.0)
+            what = f"molality {exclusion.molality_mol_kg:g} mol/kg"
+        if not chosen.any():
+            raise InputError(f"no reading at {what} to exclude; check --exclude",
+                             file=str(run.path), column="--exclude")
+        points.loc[chosen & points["flag"].isna(), "flag"] = f"excluded: {exclusion.reason}"
+    return dataclasses.replace(run, points=points)
+
+
 def usable_points(run: Run) -> pd.DataFrame:
     """The rows of ``run`` that enter the fit (no flag)."""
     return run.points[run.points["flag"].isna()].reset_index(drop=True)
 
 
-__all__ = ["KNOWN_COLUMNS", "KNOWN_METADATA_KEYS", "Run", "RunMetadata", "read_run",
-           "usable_points"]
+__all__ = ["KNOWN_COLUMNS", "KNOWN_METADATA_KEYS", "Exclusion", "Run", "RunMetadata",
+           "exclude_points", "read_run", "usable_points"]
 

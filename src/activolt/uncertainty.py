@@ -14,6 +14,8 @@ E°; :func:`ln_gamma_covariance` can do that for comparison.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import numpy.typing as npt
 
@@ -103,6 +105,20 @@ def ln_gamma_covariance(
     if type_b_covariance is not None:
         cov = cov + g_p @ np.asarray(type_b_covariance, dtype=float) @ g_p.T
     return cov + np.diag(np.asarray(relative_molality_variance, dtype=float))
+
+
+@dataclass(frozen=True)
+class BudgetLine:
+    """One contribution to the standard uncertainty of E°.
+
+    ``u_V`` is the standard uncertainty this input alone gives E° [V]; ``method`` says how it was
+    obtained (GUM, JCGM 100:2008: Type A from the fit, Type B from a stated or conventional
+    uncertainty).
+    """
+
+    component: str
+    u_V: float
+    method: str
 
 
 def student_t_factor(dof: int, coverage: float = 0.95) -> float:

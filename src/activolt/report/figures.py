@@ -144,6 +144,10 @@ def plot_residuals(reduction: Reduction, ax: Axes | None = None) -> Axes:
                         label="±2u (stated reading uncertainty)")
     ax.axhline(0.0, color="grey", lw=0.8)
     ax.plot(m, r, "o", color="black", ms=4, label="residual")
+    standing_out = points["diagnostic"].notna().to_numpy() if "diagnostic" in points else None
+    if standing_out is not None and standing_out.any():
+        ax.plot(m[standing_out], r[standing_out], "o", ms=11, mfc="none", mec="tab:red",
+                label="stands out (see report)")
     ax.set_xscale("log")
     ax.set_xlabel("m / (mol kg⁻¹)")
     ax.set_ylabel("E − E(fit) / mV")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+from ..montecarlo import MonteCarloResult
 from ..reduce import Reduction
 from .cautions import cautions_for
 from .comparison import compare_with_published
@@ -81,8 +82,9 @@ def format_report(reduction: Reduction) -> str:
                          f"flagged: {row['flag']}")
             continue
         gamma = format_with_uncertainty(row["gamma_pm"], row["u_gamma_pm"])
+        mark = "  ← stands out" if isinstance(row.get("diagnostic"), str) else ""
         lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['emf_V'] * 1e3:<10.3f}  "
-                     f"{row['residual_V'] * 1e3:<+14.4f}  {gamma}")
+                     f"{row['residual_V'] * 1e3:<+14.4f}  {gamma}{mark}")
     comparison = compare_with_published(reduction)
     if comparison is not None:
         lines += ["", "  γ± against published values (i = interpolated between table entries)",
@@ -109,6 +111,13 @@ def format_report(reduction: Reduction) -> str:
     for row in [header, *cells]:
         lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
                      .rstrip())
+    if reduction.budget:
+        lines += ["", "  uncertainty budget of E° (k = 1; each line alone)"]
+        width = max(len(b.component) for b in reduction.budget)
+        for b in reduction.budget:
+            lines.append(f"  {b.component:<{width}}  {b.u_V * 1e3:8.4f} mV   {b.method}")
+        lines.append(f"  {'combined':<{width}}  {reduction.standard_potential.std_dev * 1e3:8.4f}"
+                     " mV")
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
@@ -118,4 +127,20 @@ def format_report(reduction: Reduction) -> str:
     cautions = cautions_for(meta.electrolyte, meta.cell)
     if cautions:
         lines += ["", "  safety:"] + [f"  - {c}" for c in cautions]
+    return "\n".join(lines) + "\n"
+
+
+def format_monte_carlo(result: MonteCarloResult, reduction: Reduction) -> str:
+    """The Monte Carlo propagation beside the linear one."""
+    e0 = result.standard_potential
+    linear_u = reduction.standard_potential.std_dev * 1e3
+    places = decimals_for(e0.standard_deviation * 1e3)
+    lines = [
+        f"  Monte Carlo (GUM Supplement 1): {result.trials - result.failed} trials, seed "
+        f"{result.seed}",
+        f"  E°: u = {e0.standard_deviation * 1e3:.{places}f} mV (linear propagation "
+        f"{linear_u:.{places}f} mV); 95 % interval [{e0.low * 1e3:.{places}f}, "
+        f"{e0.high * 1e3:.{places}f}] mV",
+    ]
+    lines += [f"  note: {n}" for n in result.notes]
     return "\n".join(lines) + "\n"
