@@ -81,6 +81,11 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "flag": (row["flag"] if isinstance(row["flag"], str)
                      else row["diagnostic"] if isinstance(row["diagnostic"], str) else None),
             "used_in_fit": not isinstance(row["flag"], str),
+            "U95_gamma_pm": _number(row["u_gamma_pm"] * stats.coverage_factor),
+            "u_gamma_pm_budget": {
+                column.removeprefix("u_gamma_pm_"): _number(row[column])
+                for column in row.index if column.startswith("u_gamma_pm_")
+                and column != "u_gamma_pm_model"},
             "leverage": _number(row["leverage"]),
             "studentized_residual": _number(row["studentized_residual"]),
             "cooks_distance": _number(row["cooks_distance"]),

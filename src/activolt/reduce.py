@@ -645,10 +645,8 @@ def reduce_run(run: Run, model: str = "hueckel",
 
     if effects is None:
         uncertain_covariance = fit.covariance
-    common_ln_gamma = sum((np.outer(d, d) * u**2 for _, u, _, d in common),
-                          start=np.zeros((n, n)))
     table, gamma_cov = _points_table(run, family, data, fit, type_b, uncertain_names,
-                                     uncertain_covariance, common_ln_gamma)
+                                     uncertain_covariance, common)
     warnings += _diagnose(table, data, fit)
     parameters = tuple(
         FittedParameter(
@@ -880,9 +878,11 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
 
 def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
                   type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
-                  uncertain_covariance: np.ndarray, common_ln_gamma: np.ndarray
+                  uncertain_covariance: np.ndarray,
+                  common: list[tuple[str, float, np.ndarray, np.ndarray]]
                   ) -> tuple[pd.DataFrame, np.ndarray]:
-    """All rows of the run with fitted EMF, residual and γ± (measured and model)."""
+    """All rows of the run with fitted EMF, residual and γ± (measured and model), and the
+    budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
     electrolyte = run.metadata.electrolyte
     n = len(data.emf_V)
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
@@ -900,8 +900,25 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
         parameter_gradient[:, 1 + fit.free.index(SLOPE)] = -(fit.e0 - data.emf_V) * scale / slope
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
-    cov_ln = ln_gamma_covariance(parameter_gradient, -scale, sensitivity, reading_var,
-                                 np.zeros(n), type_b_covariance=type_b) + common_ln_gamma
+    def part(variance: np.ndarray, with_type_b: bool = False) -> np.ndarray:
+        return ln_gamma_covariance(parameter_gradient, -scale, sensitivity, variance,
+                                   np.zeros(n), type_b_covariance=type_b if with_type_b else None)
+
+    cov_ln = part(reading_var, with_type_b=True)
+    budget: dict[str, np.ndarray] = {}
+    if data.stated_uncertainty:
+        budget["readings"] = np.diag(part(data.u_emf_V**2))
+        molality_var = np.maximum(reading_var - data.u_emf_V**2, 0.0)
+        if np.any(molality_var > 0):
+            budget["molalities"] = np.diag(part(molality_var))
+    else:
+        budget["readings"] = np.diag(part(reading_var))
+    if type_b is not None:
+        budget["conventions"] = np.einsum("ij,jk,ik->i", parameter_gradient, type_b,
+                                          parameter_gradient)
+    for name, u, _, d in common:
+        cov_ln = cov_ln + np.outer(d, d) * u**2
+        budget[name.split()[-1]] = (d * u) ** 2
     gamma = np.exp(ln_gamma)
     gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]
 
@@ -936,4 +953,7 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
     gamma_model = np.exp(ln_gamma_model)
     table.loc[usable, "gamma_pm_model"] = gamma_model
     table.loc[usable, "u_gamma_pm_model"] = gamma_model * np.sqrt(var_model)
+    for name, variance in budget.items():
+        table[f"u_gamma_pm_{name}"] = np.nan
+        table.loc[usable, f"u_gamma_pm_{name}"] = gamma * np.sqrt(variance)
     return table, gamma_cov

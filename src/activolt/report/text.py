@@ -118,6 +118,7 @@ def format_report(reduction: Reduction) -> str:
             lines.append(f"  {b.component:<{width}}  {b.u_V * 1e3:8.4f} mV   {b.method}")
         lines.append(f"  {'combined':<{width}}  {reduction.standard_potential.std_dev * 1e3:8.4f}"
                      " mV")
+    lines += _gamma_budget_lines(reduction)
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
@@ -128,6 +129,24 @@ def format_report(reduction: Reduction) -> str:
     if cautions:
         lines += ["", "  safety:"] + [f"  - {c}" for c in cautions]
     return "\n".join(lines) + "\n"
+
+
+def _gamma_budget_lines(reduction: Reduction) -> list[str]:
+    """u(γ±) by input at the most dilute, a middle and the most concentrated reading."""
+    points = reduction.points[reduction.points["gamma_pm"].notna()]
+    columns = [c for c in points.columns
+               if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
+    if points.empty or not columns:
+        return []
+    chosen = points.iloc[sorted({0, len(points) // 2, len(points) - 1})]
+    names = [c.removeprefix("u_gamma_pm_") for c in columns]
+    lines = ["", "  uncertainty budget of γ± (k = 1; each input alone)",
+             "  m / (mol/kg)   " + "".join(f"{name:<14}" for name in names) + "combined"]
+    for _, row in chosen.iterrows():
+        lines.append(f"  {row['molality_mol_kg']:<13.6g}  "
+                     + "".join(f"{row[c]:<14.2g}" for c in columns)
+                     + f"{row['u_gamma_pm']:.2g}")
+    return lines
 
 
 def format_monte_carlo(result: MonteCarloResult, reduction: Reduction) -> str:

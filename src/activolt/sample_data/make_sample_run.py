@@ -28,6 +28,7 @@ TEMPERATURE_K = 298.15
 NOISE_V = 0.02e-3
 MOLALITIES = (0.001, 0.002, 0.003, 0.005, 0.007, 0.01, 0.02, 0.03, 0.05, 0.07, 0.1, 0.2, 0.3,
               0.5, 0.7, 1.0)
+U_MOLALITY_RELATIVE = 5e-4  # gravimetric dilution, 0.05 % of m
 NO_READING = 0.007  # a solution whose reading was lost, to show a flagged row
 
 
@@ -49,21 +50,24 @@ def main() -> None:
         "# Kestrel Bay Electrochemistry Laboratory — Harned cell dilution series, HCl, 25 °C",
         "# Cell: Pt | H2(g) | HCl(aq, m) | AgCl(s) | Ag(s); readings as taken, barometer beside.",
         "# Demo data made by make_sample_run.py (invented lab and electrodes).",
-        "molality_mol_kg,emf_mV,u_emf_mV,pressure_kPa,electrode,note",
+        "molality_mol_kg,u_molality_mol_kg,emf_mV,u_emf_mV,pressure_kPa,electrode,note",
     ]
     for i, (molality, emf, bar) in enumerate(zip(m, emf_V, barometric_kPa, strict=True)):
         electrode = f"KB-AgCl-{7 + i % 3:02d}"
         if molality == NO_READING:
-            lines.append(f"{molality:.4f},,0.020,{bar:.2f},{electrode},"
-                         "cell drifted; no stable reading")
+            lines.append(f"{molality:.4f},{molality * U_MOLALITY_RELATIVE:.2g},,0.020,{bar:.2f},"
+                         f"{electrode},cell drifted; no stable reading")
         else:
-            lines.append(f"{molality:.4f},{emf * 1e3:.3f},0.020,{bar:.2f},{electrode},")
+            lines.append(f"{molality:.4f},{molality * U_MOLALITY_RELATIVE:.2g},{emf * 1e3:.3f},"
+                         f"0.020,{bar:.2f},{electrode},")
     (HERE / f"{STEM}.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
     (HERE / f"{STEM}.toml").write_text(
         '# Run metadata for kestrel_hcl_25C.csv (invented lab, demo only)\n'
         'cell = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"\n'
         "temperature_C = 25.0\n"
         "standard_pressure_kPa = 100  # IUPAC basis; the report also gives E° on 1 atm\n"
+        "u_temperature_K = 0.02       # thermostat bath, calibrated thermometer\n"
+        "u_pressure_kPa = 0.03        # barometer\n"
         'lab = "Kestrel Bay Electrochemistry Laboratory"\n'
         'operator = "R. Okonkwo-Lind"\n'
         'instrument = "KB-DVM-2 electrometer, input impedance > 10^13 ohm"\n'
