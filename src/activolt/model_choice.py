@@ -67,6 +67,7 @@ import numpy.typing as npt
 from .errors import FitError, InputError
 from .models import MODELS, get_model
 from .reduce import FitStatistics, FittedParameter, Reduction, reduce_run
+from .report.numbers import json_number
 from .runs import Run, usable_points
 
 __all__ = [
@@ -540,12 +541,6 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     )
 
 
-def _number(value: float) -> float | None:
-    """A finite float, or None for JSON."""
-    value = float(value)
-    return value if math.isfinite(value) else None
-
-
 def comparison_record(comparison: ModelComparison) -> dict:
     """The comparison as a JSON-ready dict for the record (units in the key names).
 
@@ -569,25 +564,26 @@ def comparison_record(comparison: ModelComparison) -> dict:
         models.append({
             "name": a.name,
             "title": a.title,
-            "standard_potential_V": {"value": _number(a.standard_potential_V),
-                                     "uncertainty": _number(a.u_standard_potential_V)},
+            "standard_potential_V": {"value": json_number(a.standard_potential_V),
+                                     "uncertainty": json_number(a.u_standard_potential_V)},
             "parameters": {
-                p.name: {"value": _number(p.value), "uncertainty": _number(p.uncertainty),
+                p.name: {"value": json_number(p.value), "uncertainty": json_number(p.uncertainty),
                          "fixed": p.fixed, "reason": p.reason}
                 for p in a.parameters
             },
             "fit": {"n_points": st.n_points, "n_free": st.n_free, "dof": st.dof,
-                    "chi2": _number(st.chi2), "reduced_chi2": _number(st.reduced_chi2),
-                    "aic": _number(st.aic), "bic": _number(st.bic),
-                    "chi2_p_value": _number(a.chi2_p_value),
-                    "variance_ratio_p_value": _number(a.variance_ratio_p_value),
+                    "chi2": json_number(st.chi2), "reduced_chi2": json_number(st.reduced_chi2),
+                    "aic": json_number(st.aic), "bic": json_number(st.bic),
+                    "chi2_p_value": json_number(a.chi2_p_value),
+                    "variance_ratio_p_value": json_number(a.variance_ratio_p_value),
                     "covariance_scaled": st.covariance_scaled},
             "runs_test": {"n_positive": rt.n_positive, "n_negative": rt.n_negative,
-                          "runs": rt.runs, "expected_runs": _number(rt.expected_runs),
-                          "z": _number(rt.z), "p_value_two_sided": _number(rt.p_value_two_sided),
-                          "p_value_fewer": _number(rt.p_value_fewer)},
-            "max_ionic_strength_mol_kg": _number(a.max_ionic_strength_mol_kg),
-            "model_max_ionic_strength_mol_kg": _number(a.model_max_ionic_strength_mol_kg),
+                          "runs": rt.runs, "expected_runs": json_number(rt.expected_runs),
+                          "z": json_number(rt.z),
+                          "p_value_two_sided": json_number(rt.p_value_two_sided),
+                          "p_value_fewer": json_number(rt.p_value_fewer)},
+            "max_ionic_strength_mol_kg": json_number(a.max_ionic_strength_mol_kg),
+            "model_max_ionic_strength_mol_kg": json_number(a.model_max_ionic_strength_mol_kg),
             "adequate": a.adequate,
             "verdict": a.verdict,
             "notes": list(a.notes),
@@ -599,19 +595,19 @@ def comparison_record(comparison: ModelComparison) -> dict:
                      "ionic_strength": "within the model's commonly adequate range"},
         "stated_reading_uncertainty": comparison.stated_uncertainty,
         "n_points": comparison.n_points,
-        "temperature_K": _number(comparison.temperature_K),
+        "temperature_K": json_number(comparison.temperature_K),
         "models": models,
         "skipped": [{"name": s.name, "reason": s.reason} for s in comparison.skipped],
         "adequate_models": list(comparison.adequate_models),
-        "spread_V": _number(comparison.spread_V),
-        "u_model_choice_V": _number(comparison.u_model_choice_V),
+        "spread_V": json_number(comparison.spread_V),
+        "u_model_choice_V": json_number(comparison.u_model_choice_V),
         "model_choice_rule": MODEL_CHOICE_RULE,
         "recommended_model": comparison.recommended,
         "recommendation_rule": RECOMMENDATION_RULE,
-        "standard_potential_V": {"value": _number(comparison.standard_potential_V),
-                                 "u_fit": _number(comparison.u_fit_V),
-                                 "u_model_choice": _number(comparison.u_model_choice_V),
-                                 "uncertainty": _number(comparison.u_combined_V)},
+        "standard_potential_V": {"value": json_number(comparison.standard_potential_V),
+                                 "u_fit": json_number(comparison.u_fit_V),
+                                 "u_model_choice": json_number(comparison.u_model_choice_V),
+                                 "uncertainty": json_number(comparison.u_combined_V)},
         "notes": list(comparison.notes),
         "warnings": list(comparison.warnings),
     }

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import math
 from datetime import UTC, datetime
 from importlib.resources import files
 from typing import Any
@@ -20,17 +19,14 @@ from .properties import derived_properties
 from .reduce import Reduction
 from .report.cautions import cautions_for
 from .report.comparison import compare_with_published
+from .report.numbers import json_number
 from .thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
 
 RECORD_SCHEMA = "activolt-record/1"
 
 
-def _number(value: float) -> float | None:
-    return None if value is None or not math.isfinite(value) else float(value)
-
-
 def _with_u(value: Any, method: str) -> dict[str, Any]:
-    return {"value": _number(value.nominal_value), "uncertainty": _number(value.std_dev),
+    return {"value": json_number(value.nominal_value), "uncertainty": json_number(value.std_dev),
             "method": method}
 
 
@@ -65,30 +61,30 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         points.append({
             "line": int(row["line"]),
             "molality_mol_kg": float(row["molality_mol_kg"]),
-            "u_molality_mol_kg": _number(row["u_molality_mol_kg"]),
-            "emf_V": _number(row["emf_V"]),
-            "u_emf_V": _number(row["u_emf_V"]),
+            "u_molality_mol_kg": json_number(row["u_molality_mol_kg"]),
+            "emf_V": json_number(row["emf_V"]),
+            "u_emf_V": json_number(row["u_emf_V"]),
             "temperature_K": float(row["temperature_K"]),
-            "pressure_correction_V": _number(row["pressure_correction_V"]),
-            "gas_partial_pressure_Pa": _number(row["gas_pressure_Pa"]),
+            "pressure_correction_V": json_number(row["pressure_correction_V"]),
+            "gas_partial_pressure_Pa": json_number(row["gas_pressure_Pa"]),
             "electrode": row["electrode"] or None,
-            "fitted_emf_V": _number(row["fitted_emf_V"]),
-            "residual_V": _number(row["residual_V"]),
-            "gamma_pm": _number(row["gamma_pm"]),
-            "u_gamma_pm": _number(row["u_gamma_pm"]),
-            "gamma_pm_model": _number(row["gamma_pm_model"]),
-            "u_gamma_pm_model": _number(row["u_gamma_pm_model"]),
+            "fitted_emf_V": json_number(row["fitted_emf_V"]),
+            "residual_V": json_number(row["residual_V"]),
+            "gamma_pm": json_number(row["gamma_pm"]),
+            "u_gamma_pm": json_number(row["u_gamma_pm"]),
+            "gamma_pm_model": json_number(row["gamma_pm_model"]),
+            "u_gamma_pm_model": json_number(row["u_gamma_pm_model"]),
             "flag": (row["flag"] if isinstance(row["flag"], str)
                      else row["diagnostic"] if isinstance(row["diagnostic"], str) else None),
             "used_in_fit": not isinstance(row["flag"], str),
-            "U95_gamma_pm": _number(row["u_gamma_pm"] * stats.coverage_factor),
+            "U95_gamma_pm": json_number(row["u_gamma_pm"] * stats.coverage_factor),
             "u_gamma_pm_budget": {
-                column.removeprefix("u_gamma_pm_"): _number(row[column])
+                column.removeprefix("u_gamma_pm_"): json_number(row[column])
                 for column in row.index if column.startswith("u_gamma_pm_")
                 and column != "u_gamma_pm_model"},
-            "leverage": _number(row["leverage"]),
-            "studentized_residual": _number(row["studentized_residual"]),
-            "cooks_distance": _number(row["cooks_distance"]),
+            "leverage": json_number(row["leverage"]),
+            "studentized_residual": json_number(row["studentized_residual"]),
+            "cooks_distance": json_number(row["cooks_distance"]),
             "note": row["note"] or None,
         })
     cross = reduction.linear_extrapolation
@@ -122,7 +118,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "name": reduction.model.name,
             "title": reduction.model.title,
             "parameters": {
-                p.name: {"value": p.value, "uncertainty": _number(p.uncertainty),
+                p.name: {"value": p.value, "uncertainty": json_number(p.uncertainty),
                          "unit": p.unit, "fixed": p.fixed, "reason": p.reason}
                 for p in reduction.parameters
             },
@@ -169,14 +165,14 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         },
         "published_comparison": [] if published is None else [
             {"molality_mol_kg": float(r.molality_mol_kg),
-             "gamma_pm_published": _number(r.gamma_pm_published),
-             "interpolated": bool(r.interpolated), "difference": _number(r.difference)}
+             "gamma_pm_published": json_number(r.gamma_pm_published),
+             "interpolated": bool(r.interpolated), "difference": json_number(r.difference)}
             for r in published.itertuples()
         ],
         "published_source": None if published is None else published["source"].iloc[0],
         "derived_properties": {
             "method": "; ".join(properties.attrs.get("notes", [])),
-            "points": [{k: _number(v) if isinstance(v, float) else v
+            "points": [{k: json_number(v) if isinstance(v, float) else v
                         for k, v in row.items()}
                        for row in properties.to_dict(orient="records")],
         },

@@ -105,3 +105,26 @@ class ActivityModel:
                 return p
         raise KeyError(f"model '{self.name}' has no parameter '{name}'; "
                        f"it has: {', '.join(self.parameter_names) or 'none'}")
+
+
+def checked_values(model: str, names: tuple[str, ...],
+                   parameters: Mapping[str, float]) -> dict[str, np.ndarray]:
+    """The parameters ``names`` of ``model`` as arrays; ValueError naming any unknown or missing
+    one and listing the valid names.
+
+    Examples
+    --------
+    >>> checked_values("sit", ("epsilon_kg_mol",), {"eps": 0.1})
+    Traceback (most recent call last):
+    ...
+    ValueError: model 'sit' parameters unknown: eps; valid names: epsilon_kg_mol
+    """
+    unknown = sorted(set(parameters) - set(names))
+    missing = [name for name in names if name not in parameters]
+    if not names and unknown:
+        raise ValueError(f"model '{model}' has no parameters, got: {', '.join(unknown)}; "
+                         "valid names: none")
+    if unknown or missing:
+        problem = f"unknown: {', '.join(unknown)}" if unknown else f"missing: {', '.join(missing)}"
+        raise ValueError(f"model '{model}' parameters {problem}; valid names: {', '.join(names)}")
+    return {name: np.asarray(parameters[name], dtype=float) for name in names}

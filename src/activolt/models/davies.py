@@ -25,7 +25,7 @@ import numpy.typing as npt
 
 from ..electrolytes import Electrolyte
 from ..solvent import DebyeHueckelConstants
-from .base import ActivityModel
+from .base import ActivityModel, checked_values
 from .hueckel import sigma
 
 #: Coefficient of the linear term of the Davies equation [kg mol⁻¹] (Davies 1962).
@@ -33,11 +33,7 @@ DAVIES_LINEAR_COEFFICIENT = 0.3
 
 
 def _check_no_parameters(parameters: Mapping[str, float]) -> None:
-    unknown = sorted(set(parameters))
-    if unknown:
-        raise ValueError(
-            f"model 'davies' has no parameters, got: {', '.join(unknown)}; valid names: none"
-        )
+    checked_values("davies", (), parameters)
 
 
 def ln_gamma(

@@ -39,7 +39,7 @@ import numpy.typing as npt
 from ..electrolytes import Electrolyte
 from ..reference.parameters import PitzerEntry, pitzer_parameters
 from ..solvent import DebyeHueckelConstants
-from .base import ActivityModel, Parameter
+from .base import ActivityModel, Parameter, checked_values
 
 #: Pitzer's universal b [kg^½ mol^-½] (Pitzer 1973).
 PITZER_B = 1.2
@@ -96,14 +96,7 @@ def _h(x: np.ndarray) -> np.ndarray:
 
 
 def _values(parameters: Mapping[str, float]) -> dict[str, np.ndarray]:
-    unknown = sorted(set(parameters) - set(PARAMETER_NAMES))
-    missing = [name for name in PARAMETER_NAMES if name not in parameters]
-    if unknown or missing:
-        problem = f"unknown: {', '.join(unknown)}" if unknown else f"missing: {', '.join(missing)}"
-        raise ValueError(
-            f"model 'pitzer' parameters {problem}; valid names: {', '.join(PARAMETER_NAMES)}"
-        )
-    return {name: np.asarray(parameters[name], dtype=float) for name in PARAMETER_NAMES}
+    return checked_values("pitzer", PARAMETER_NAMES, parameters)
 
 
 def _factors(electrolyte: Electrolyte) -> tuple[float, float]:

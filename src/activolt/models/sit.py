@@ -36,7 +36,7 @@ from ..electrolytes import Electrolyte
 from ..reference import load_table
 from ..reference.parameters import sit_epsilon
 from ..solvent import DebyeHueckelConstants
-from .base import ActivityModel, Parameter
+from .base import ActivityModel, Parameter, checked_values
 from .hueckel import sigma
 
 #: The product Bå of the SIT Debye–Hückel term [kg^½ mol^-½], fixed at all temperatures (NEA).
@@ -49,14 +49,7 @@ _LN10 = math.log(10.0)
 
 
 def _values(parameters: Mapping[str, float]) -> dict[str, np.ndarray]:
-    unknown = sorted(set(parameters) - set(PARAMETER_NAMES))
-    missing = [name for name in PARAMETER_NAMES if name not in parameters]
-    if unknown or missing:
-        problem = f"unknown: {', '.join(unknown)}" if unknown else f"missing: {', '.join(missing)}"
-        raise ValueError(
-            f"model 'sit' parameters {problem}; valid names: {', '.join(PARAMETER_NAMES)}"
-        )
-    return {name: np.asarray(parameters[name], dtype=float) for name in PARAMETER_NAMES}
+    return checked_values("sit", PARAMETER_NAMES, parameters)
 
 
 def stoichiometric_factor(electrolyte: Electrolyte) -> float:

@@ -34,3 +34,17 @@ def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
         return f"{value:.4g}{suffix} (held)"
     places = decimals_for(uncertainty, significant)
     return f"{value:.{places}f} ± {uncertainty:.{places}f}{suffix}"
+
+
+def json_number(value: float | None) -> float | None:
+    """A finite float for a JSON record, or None (null) for a missing or non-finite value.
+
+    Examples
+    --------
+    >>> json_number(float("nan")) is None, json_number(2)
+    (True, 2.0)
+    """
+    if value is None:
+        return None
+    value = float(value)
+    return value if math.isfinite(value) else None
