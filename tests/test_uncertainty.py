@@ -85,7 +85,8 @@ def test_ignoring_the_correlation_gives_a_different_and_wrong_answer(monte_carlo
     correct = np.sqrt(np.diag(ln_gamma_covariance(g_p, -1.0 / data_k, sensitivity, variance,
                                                   zeros)))
     gamma = first.points["gamma_pm"].to_numpy()
-    np.testing.assert_allclose(correct * gamma, first.points["u_gamma_pm"], rtol=1e-12)
+    # the same propagation, up to the finite-difference step of the Jacobian
+    np.testing.assert_allclose(correct * gamma, first.points["u_gamma_pm"], rtol=1e-6)
     # At the dilute end, where E° leans on the same readings, the naive answer is far off.
     ratio = naive * gamma / observed
     assert ratio.max() > 1.3 or ratio.min() < 0.7

@@ -2,15 +2,18 @@
 
 For each usable reading i,
 
-.. math:: E_i = E° − k_i [\\ln m_{±,i} + \\ln γ_±(m_i; θ)], \\qquad k_i = ν R T_i / (n F)
+.. math:: E_i = E° − σ s k_i [\\ln m_{±,i} + \\ln γ_±(m_i; θ)], \\qquad k_i = ν R T_i / (n F)
 
-is fitted by weighted non-linear least squares (lmfit) in E° and the free model parameters θ.
-A parameter the data cannot determine (too few points, a fit that runs to a bound or leaves a
-non-linear parameter with a relative standard uncertainty beyond 50 %, or a parameter whose
-fitting does not lower the Bayesian information criterion) is held at its conventional value
-and the result says which and why. γ± at each point then follows from the measured E_i and the
-fitted E°, with the covariance propagated as in :mod:`activolt.uncertainty`. A Hitchcock-type
-linearised extrapolation is computed beside it as a cross-check.
+(σ = +1 when the cell forms the electrolyte, −1 when it consumes it; s the slope factor, 1 unless
+fitted) is fitted by weighted least squares (:mod:`activolt.fitting`) in E° and the free model
+parameters θ, u(m) entering by the effective-variance method. A parameter the data cannot
+determine is held at its conventional value and the result says which and why: too few points,
+a fit that runs to a bound, a non-linear parameter with a relative standard uncertainty beyond
+50 %, a convention with a stated uncertainty more precise than the data, or a parameter whose
+fitting does not lower the Bayesian information criterion. γ± at each point then follows from
+the measured E_i and the fitted E°, with the covariance propagated as in
+:mod:`activolt.uncertainty`. A Hitchcock-type linearised extrapolation is computed beside it as a
+cross-check.
 """
 
 from __future__ import annotations
@@ -341,60 +344,33 @@ class _Fit:
 
 def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
               values: dict[str, float], free: list[str]) -> _Fit:
-    import lmfit
+    """One weighted fit of E° and the ``free`` parameters, the others held at ``values``,
+    by the project's least-squares core (:func:`activolt.fitting.weighted_least_squares`)."""
+    from .fitting import weighted_least_squares
 
-    sqrt_w = np.sqrt(data.weights)
-    # Start E° from the held/initial values, exactly (linear in E°).
+    # Start E° from the held/initial values, exactly (the model is linear in E°).
     start = _model_emf(model, electrolyte, data, 0.0, values)
     e0_start = float(np.sum(data.weights * (data.emf_V - start)) / np.sum(data.weights))
-    params = lmfit.Parameters()
-    params.add(E0, value=e0_start)
-    for name in free:
-        spec = _spec(model, name)
-        params.add(name, value=values[name], min=spec.minimum, max=spec.maximum)
 
-    def residual(p: lmfit.Parameters) -> np.ndarray:
-        trial = {**values, **{n: p[n].value for n in free}}
-        return (data.emf_V - _model_emf(model, electrolyte, data, p[E0].value, trial)) * sqrt_w
+    def predicted(p: Mapping[str, float]) -> np.ndarray:
+        return _model_emf(model, electrolyte, data, p[E0], {**values, **{n: p[n] for n in free}})
 
-    result = lmfit.minimize(residual, params, method="leastsq",
-                            scale_covar=not data.stated_uncertainty)
-    if not result.success:
-        raise FitError(f"the fit did not converge ({result.message})")
-    fitted = {**values, **{n: float(result.params[n].value) for n in free}}
-    e0 = float(result.params[E0].value)
-    jac = _jacobian(model, electrolyte, data, e0, fitted, free)
-    normal = jac.T @ (jac * data.weights[:, None])
-    residual_V = data.emf_V - _model_emf(model, electrolyte, data, e0, fitted)
-    chi2 = float(np.sum(data.weights * residual_V**2))
-    dof = len(data.emf_V) - 1 - len(free)
+    specs = {name: _spec(model, name) for name in free}
     try:
-        covariance = np.linalg.inv(normal)
-    except np.linalg.LinAlgError:
-        raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
-                       "independent for these data); hold a parameter with --fix") from None
+        result = weighted_least_squares(
+            predicted, {E0: e0_start, **{name: values[name] for name in free}}, data.emf_V,
+            data.weights, {name: (spec.minimum, spec.maximum) for name, spec in specs.items()},
+            scale_covariance=not data.stated_uncertainty)
+    except ValueError as error:
+        raise FitError(f"the fit cannot be done ({error}); hold a parameter with --fix") from None
+    covariance = result.covariance
     if not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0):
-        raise FitError("the covariance of the fit cannot be estimated; hold a parameter "
-                       "with --fix")
-    if not data.stated_uncertainty:
-        covariance = covariance * chi2 / dof
-    aic, bic = _information_criteria(chi2, len(data.emf_V), 1 + len(free),
-                                     data.stated_uncertainty)
-    return _Fit(e0=e0, values=fitted, free=list(free), covariance=covariance, chi2=chi2, dof=dof,
-                aic=aic, bic=bic, residual_V=residual_V,
-                jacobian=jac)
-
-
-def _information_criteria(chi2: float, n: int, n_free: int, stated: bool) -> tuple[float, float]:
-    """(AIC, BIC) of a least-squares fit with ``n_free`` adjustable parameters.
-
-    With stated reading uncertainties the likelihood is known up to a constant and the criteria
-    are χ² + 2p and χ² + p ln n; with unit weights the variance is estimated too and they are
-    n ln(χ²/n) + 2p and n ln(χ²/n) + p ln n (Burnham & Anderson 2002, Model Selection and
-    Multimodel Inference, §2.2).
-    """
-    base = chi2 if stated else n * math.log(chi2 / n)
-    return base + 2.0 * n_free, base + n_free * math.log(n)
+        raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
+                       "independent for these data); hold a parameter with --fix")
+    fitted = {**values, **{n: result.values[n] for n in free}}
+    return _Fit(e0=result.values[E0], values=fitted, free=list(free), covariance=covariance,
+                chi2=result.chi2, dof=result.dof, aic=result.aic, bic=result.bic,
+                residual_V=result.residuals, jacobian=result.jacobian)
 
 
 def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
