@@ -319,7 +319,7 @@ def weighted_least_squares(
 
     Notes
     -----
-    lmfit's ``leastsq`` (MINPACK Levenberg–Marquardt; Moré 1978, Lecture Notes in Mathematics
+    lmfit's ``leastsq`` (MINPACK Levenberg–Marquardt; Moré 1978, Springer LNM
     630, 105) finds the optimum; up to four Gauss–Newton steps with the central-difference
     Jacobian and a QR solve then polish it (a step is kept only if it lowers χ² and stays within
     the bounds), which brings linear and mildly non-linear problems to the digits NIST certifies.
