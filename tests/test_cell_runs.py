@@ -137,3 +137,24 @@ def test_ion_selective_pair_slope_factor(tmp_path):
     assert abs(s.value - 0.985) < 3 * s.uncertainty + 0.002
     assert abs(reduction.standard_potential.nominal_value - 0.15) < (
         3 * reduction.standard_potential.std_dev + 0.2e-3)
+
+
+def test_solute_vapour_lowering_moves_the_concentrated_readings(tmp_path):
+    # With the water vapour over 1 mol/kg HCl lowered to a_w p_w, a_w ≈ 0.965 (reference-values.md,
+    # from memory), p_H2 rises by 0.035 p_w and the correction to p° falls by
+    # (RT/2F) ln[(p − 0.965 p_w)/(p − p_w)] ≈ 0.0145 mV at 101.325 kPa and 25 °C.
+    m = np.array([0.001, 0.005, 0.01, 0.05, 0.1, 0.5, 1.0])
+    faraday = sc.physical_constants["Faraday constant"][0]
+    emf = E0_BAR_V - 2 * sc.R * 298.15 / faraday * np.log(m * _hcl(m))
+    rows = [f"{a},{float(b)!r},2e-5" for a, b in zip(m, emf, strict=True)]
+    meta = f'cell = "{HARNED}"\ntemperature_C = 25.0\npressure_kPa = 101.325\n'
+    plain = reduce_run(read_run(_write(tmp_path, "molality_mol_kg,emf_V,u_emf_V", rows, meta)))
+    lowered = reduce_run(read_run(_write(tmp_path, "molality_mol_kg,emf_V,u_emf_V", rows,
+                                         meta + "solute_vapour_lowering = true\n")))
+    p_w = _PSat_T(298.15) * 1e6
+    expected = sc.R * 298.15 / (2 * faraday) * math.log(
+        (101325 - 0.965 * p_w) / (101325 - p_w))
+    shift = (plain.points["pressure_correction_V"] - lowered.points["pressure_correction_V"])
+    assert shift.iloc[-1] == pytest.approx(expected, abs=0.001e-3)
+    assert shift.iloc[0] == pytest.approx(0.0, abs=0.0002e-3)  # a_w ≈ 1 at 0.001 mol/kg
+    assert any("a_w p_w" in line for line in lowered.corrections)

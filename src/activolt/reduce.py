@@ -230,8 +230,8 @@ class _Data:
     u_molality_mol_kg: np.ndarray | None = None
 
 
-def _gas_correction(run: Run, points: pd.DataFrame) -> tuple[np.ndarray | None,
-                                                             np.ndarray | None]:
+def _gas_correction(run: Run, points: pd.DataFrame, water_activity: npt.ArrayLike = 1.0
+                   ) -> tuple[np.ndarray | None, np.ndarray | None]:
     """(ΔE to p° [V], partial pressure of the cell's gas [Pa]) per usable row, or (None, None)
     when the cell holds no gas or no barometric pressure is given."""
     meta = run.metadata
@@ -250,7 +250,7 @@ def _gas_correction(run: Run, points: pd.DataFrame) -> tuple[np.ndarray | None,
     from .corrections import gas_pressure_correction, hydrogen_partial_pressure
 
     temperature = points["temperature_K"].to_numpy(float)
-    partial = hydrogen_partial_pressure(pressure, temperature,
+    partial = hydrogen_partial_pressure(pressure, temperature, water_activity=water_activity,
                                         bubbler_depth_m=meta.bubbler_depth_m)
     correction = gas_pressure_correction(
         temperature, meta.electrons, meta.gas_coefficients,
@@ -283,6 +283,23 @@ def _prepare(run: Run) -> _Data:
         u_emf_V=u if stated else None,
         u_molality_mol_kg=u_molality,
     )
+
+
+def _with_vapour_lowering(run: Run, model: ActivityModel, data: _Data, fit: _Fit) -> _Data:
+    """Readings corrected again with the water vapour over the solution lowered to a_w p_w,
+    a_w = exp(−ν m M_w φ) from the fitted model (Robinson & Stokes 1959, ch. 2); unchanged when
+    the metadata does not ask for it or no gas correction applies."""
+    if not run.metadata.solute_vapour_lowering or data.correction_V is None:
+        return data
+    from .properties import water_activity
+
+    model_values = {name: fit.values[name] for name in model.parameter_names}
+    phi = model.osmotic_coefficient(run.metadata.electrolyte, data.molality, data.constants,
+                                    model_values)
+    a_w = water_activity(run.metadata.electrolyte, data.molality, phi)
+    correction, partial = _gas_correction(run, usable_points(run), a_w)
+    return dataclasses.replace(data, emf_V=data.emf_V - data.correction_V + correction,
+                               correction_V=correction, gas_pressure_Pa=partial)
 
 
 def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
@@ -549,9 +566,10 @@ def reduce_run(run: Run, model: str = "hueckel",
             reasons[name] = f"too few readings to fit it ({n})"
         fit = _fit_once(family, electrolyte, data, values, free)
         if first_fit is None:
-            effective = _with_effective_variance(family, electrolyte, data, fit)
-            if effective is not data:
-                data = effective
+            refined = _with_effective_variance(
+                family, electrolyte, _with_vapour_lowering(run, family, data, fit), fit)
+            if refined is not data:
+                data = refined
                 fit = _fit_once(family, electrolyte, data, values, free)
         first_fit = first_fit or fit
         hold = _hard_failure(family, fit) or _not_supported(family, electrolyte, data, fit,
@@ -803,7 +821,10 @@ def _corrections_summary(run: Run, data: _Data, temperature_K: float
             + (f" + bubbler depth {meta.bubbler_depth_m * 100:g} cm" if meta.bubbler_depth_m
                else "")
             + f"; readings corrected to p° = {basis_kPa:g} kPa by {low:+.3f} to {high:+.3f} mV "
-            "(vapour-pressure lowering by the solute not applied)")
+            + ("(water vapour lowered to a_w p_w with a_w from the fitted model)"
+               if meta.solute_vapour_lowering else
+               "(vapour-pressure lowering by the solute not applied; set "
+               "solute_vapour_lowering = true to apply it)"))
     from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA
     from .corrections import standard_pressure_basis_shift
 

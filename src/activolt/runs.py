@@ -37,7 +37,7 @@ NOT_YET_USED_COLUMNS: tuple[str, ...] = ()
 KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "electrolyte", "electrons", "temperature_C", "temperature_K", "cell",
     "standard_pressure_kPa", "pressure_kPa", "bubbler_depth_cm", "slope_factor",
-    "u_temperature_K", "u_pressure_kPa",
+    "u_temperature_K", "u_pressure_kPa", "solute_vapour_lowering",
     "lab", "operator", "instrument", "date", "description", "electrode", "notes",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
@@ -83,6 +83,9 @@ class RunMetadata:
         Standard uncertainty of the run temperature, common to all rows [K].
     u_pressure_Pa : float
         Standard uncertainty of the barometric pressure, common to all rows [Pa].
+    solute_vapour_lowering : bool
+        Whether the water vapour over the solution is taken as a_w p_w (a_w from the fitted
+        model) rather than p_w when the gas partial pressure is computed.
     """
 
     electrolyte: Electrolyte
@@ -99,6 +102,7 @@ class RunMetadata:
     fit_slope_factor: bool = False
     u_temperature_K: float = 0.0
     u_pressure_Pa: float = 0.0
+    solute_vapour_lowering: bool = False
 
 
 @dataclass(frozen=True)
@@ -446,6 +450,11 @@ def _metadata(
                             f"got {value!r}")
         common_u[key] = float(value)
 
+    lowering = merged.get("solute_vapour_lowering", False)
+    if not isinstance(lowering, bool):
+        raise fail("solute_vapour_lowering", "solute_vapour_lowering must be true or false, "
+                                             f"got {lowering!r}")
+
     info = {k: str(merged[k]) for k in _TEXT_METADATA_KEYS if k in merged}
     metadata = RunMetadata(
         electrolyte=electrolyte, electrons=electrons,
@@ -457,6 +466,7 @@ def _metadata(
         slope_factor=1.0 if fit_slope else float(slope), fit_slope_factor=fit_slope,
         u_temperature_K=common_u["u_temperature_K"],
         u_pressure_Pa=common_u["u_pressure_kPa"] * 1e3,
+        solute_vapour_lowering=lowering,
     )
     return metadata, warnings
 
