@@ -335,14 +335,13 @@ def _model_emf(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: 
 
 def _jacobian(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
               values: Mapping[str, float], free: list[str]) -> np.ndarray:
-    """∂E_model/∂(E°, free parameters) by central differences (E° column exact)."""
-    columns = [np.ones_like(data.molality)]
-    for name in free:
-        step = 1e-6 * max(1.0, abs(values[name]))
-        up = _model_emf(model, electrolyte, data, e0, {**values, name: values[name] + step})
-        down = _model_emf(model, electrolyte, data, e0, {**values, name: values[name] - step})
-        columns.append((up - down) / (2.0 * step))
-    return np.column_stack(columns)
+    """∂E_model/∂(E°, free parameters) at the given values, by central differences."""
+    from .fitting import central_difference_jacobian
+
+    def predicted(p: Mapping[str, float]) -> np.ndarray:
+        return _model_emf(model, electrolyte, data, p[E0], {**values, **p})
+
+    return central_difference_jacobian(predicted, {E0: e0, **{n: values[n] for n in free}})
 
 
 @dataclass
