@@ -133,16 +133,13 @@ class RunsTest:
 class ModelAssessment:
     """One model's fit to the run and the verdict on its adequacy.
 
+    The fit itself (name, title, E° and its u, parameters, statistics, warnings) is read from
+    ``reduction``; the attributes hold what the comparison adds.
+
     Attributes
     ----------
-    name, title : str
-        The model's command-line name and printed title.
-    standard_potential_V, u_standard_potential_V : float
-        E° and its standard uncertainty from the fit (k = 1) [V].
-    parameters : tuple of FittedParameter
-        Every model parameter, fitted or held.
-    statistics : FitStatistics
-        χ², reduced χ², AIC, BIC, degrees of freedom.
+    reduction : Reduction
+        The full reduction (not compared, not printed), reused without refitting.
     chi2_p_value : float
         Upper-tail probability of χ² with the fit's degrees of freedom; NaN without stated
         reading uncertainties [-].
@@ -153,36 +150,63 @@ class ModelAssessment:
         Runs test of the residual signs in order of increasing molality.
     max_ionic_strength_mol_kg : float
         Largest ionic strength in the run [mol kg⁻¹].
-    model_max_ionic_strength_mol_kg : float
-        Ionic strength up to which the family is commonly adequate [mol kg⁻¹].
     adequate : bool
         Whether every criterion is met.
     reasons : tuple of str
         Why the fit is inadequate (empty when adequate).
     notes : tuple of str
         Held parameters and other remarks that do not affect the verdict.
-    warnings : tuple of str
-        The reduction's own warnings.
-    reduction : Reduction
-        The full reduction (not compared, not printed), for reuse without refitting.
     """
 
-    name: str
-    title: str
-    standard_potential_V: float
-    u_standard_potential_V: float
-    parameters: tuple[FittedParameter, ...]
-    statistics: FitStatistics
+    reduction: Reduction = field(repr=False, compare=False)
     chi2_p_value: float
     variance_ratio_p_value: float
     runs_test: RunsTest
     max_ionic_strength_mol_kg: float
-    model_max_ionic_strength_mol_kg: float
     adequate: bool
     reasons: tuple[str, ...]
     notes: tuple[str, ...]
-    warnings: tuple[str, ...]
-    reduction: Reduction = field(repr=False, compare=False)
+
+    @property
+    def name(self) -> str:
+        """The model's command-line name."""
+        return self.reduction.model.name
+
+    @property
+    def title(self) -> str:
+        """The model's printed title."""
+        return self.reduction.model.title
+
+    @property
+    def standard_potential_V(self) -> float:
+        """E° from the fit [V]."""
+        return float(self.reduction.standard_potential.nominal_value)
+
+    @property
+    def u_standard_potential_V(self) -> float:
+        """Standard uncertainty of E° from the fit (k = 1) [V]."""
+        return float(self.reduction.standard_potential.std_dev)
+
+    @property
+    def parameters(self) -> tuple[FittedParameter, ...]:
+        """Every model parameter, fitted or held."""
+        return self.reduction.parameters
+
+    @property
+    def statistics(self) -> FitStatistics:
+        """χ², reduced χ², AIC, BIC, degrees of freedom."""
+        return self.reduction.statistics
+
+    @property
+    def model_max_ionic_strength_mol_kg(self) -> float:
+        """Ionic strength up to which the family is commonly adequate [mol kg⁻¹]."""
+        return float(self.reduction.model.max_ionic_strength)
+
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        """The reduction's own warnings (those of the run itself left out)."""
+        run_warnings = self.reduction.run.warnings
+        return tuple(w for w in self.reduction.warnings if w not in run_warnings)
 
     @property
     def verdict(self) -> str:
@@ -354,7 +378,7 @@ def _residuals_by_molality(reduction: Reduction) -> np.ndarray:
     return points["residual_V"].to_numpy(float)[order]
 
 
-def _assess(name: str, reduction: Reduction, stated: bool
+def _assess(reduction: Reduction, stated: bool
             ) -> ModelAssessment:
     from scipy import stats as sps
 
@@ -385,16 +409,10 @@ def _assess(name: str, reduction: Reduction, stated: bool
     if max_ionic > model.max_ionic_strength * (1.0 + 1e-9):
         reasons.append(f"the {model.title} stretched to I = {max_ionic:.3g} mol/kg (commonly "
                        f"adequate to {model.max_ionic_strength:g} mol/kg)")
-    e0 = reduction.standard_potential
     return ModelAssessment(
-        name=name, title=model.title, standard_potential_V=float(e0.nominal_value),
-        u_standard_potential_V=float(e0.std_dev), parameters=reduction.parameters,
-        statistics=st, chi2_p_value=chi2_p, variance_ratio_p_value=math.nan, runs_test=runs,
-        max_ionic_strength_mol_kg=max_ionic,
-        model_max_ionic_strength_mol_kg=float(model.max_ionic_strength),
-        adequate=not reasons, reasons=tuple(reasons), notes=tuple(notes),
-        warnings=tuple(w for w in reduction.warnings if w not in reduction.run.warnings),
-        reduction=reduction,
+        reduction=reduction, chi2_p_value=chi2_p, variance_ratio_p_value=math.nan,
+        runs_test=runs, max_ionic_strength_mol_kg=max_ionic, adequate=not reasons,
+        reasons=tuple(reasons), notes=tuple(notes),
     )
 
 
@@ -495,7 +513,7 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
         except FitError as error:
             skipped.append(SkippedModel(name=name, title=family.title, reason=str(error)))
             continue
-        assessments.append(_assess(name, reduction, stated))
+        assessments.append(_assess(reduction, stated))
     if not assessments:
         raise FitError("no model could be fitted: " + "; ".join(
             f"{s.name}: {s.reason}" for s in skipped))
