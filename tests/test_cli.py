@@ -99,3 +99,13 @@ def test_model_list_with_a_fix_no_model_has_is_bad_input(tmp_path, capsys):
                  "--no-figures", "--out", str(tmp_path / "o")]) == 2
     assert "no compared model has a parameter" in capsys.readouterr().err
     assert not (tmp_path / "o").exists()
+
+
+def test_negative_seed_is_bad_input(tmp_path, capsys):
+    # numpy's generators take seeds ≥ 0 (numpy.random.default_rng documentation).
+    path = _run(tmp_path)
+    assert main(["reduce", str(path), "--monte-carlo", "100", "--seed", "-1", "--no-figures",
+                 "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--seed" in err[0]
+    assert not (tmp_path / "o").exists()

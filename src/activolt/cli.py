@@ -115,6 +115,9 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     if trials is not None and not 10 <= trials <= 1_000_000:
         raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
                          file="command line", column="--monte-carlo")
+    if seed < 0:
+        raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
+                         column="--seed")
     comparison = None
     if model == "all" or "," in model:
         from .model_choice import compare_models
