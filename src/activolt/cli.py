@@ -75,6 +75,9 @@ def _parser() -> argparse.ArgumentParser:
                         help="temperature in °C for rows without one (overrides the metadata)")
     reduce.add_argument("--standard-pressure-kPa", type=float, dest="standard_pressure_kPa",
                         help="pressure basis of E°: 100 or 101.325")
+    reduce.add_argument("--volt-unit", dest="volt_unit", metavar="{absolute,international}",
+                        help="the volt of the EMF columns: absolute (default) or international "
+                             "(data before 1948; converted × 1.000330 on reading)")
     reduce.add_argument("--cell", help="cell diagram, e.g. \"Pt | H2(g) | HCl(aq) | AgCl(s) | "
                         "Ag(s)\" (overrides the metadata)")
     reduce.add_argument("--slope-factor", type=_slope_value, dest="slope_factor",
@@ -262,7 +265,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         else:
             overrides = {k: getattr(args, k) for k in
                          ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa",
-                          "cell", "slope_factor")}
+                          "cell", "slope_factor", "volt_unit")}
             written = _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
                               args.json, args.series, overrides, not args.no_figures,
                               tuple(args.exclude), args.monte_carlo, args.seed)

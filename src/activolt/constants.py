@@ -34,3 +34,10 @@ STANDARD_PRESSURE_PA: Final = 100_000.0
 
 #: One standard atmosphere [Pa], the pressure basis of older tables.
 ATMOSPHERE_PA: Final = 101_325.0
+
+#: Absolute volts per international volt [V/V_int]: the US international volt as maintained by
+#: the National Bureau of Standards until 1948, 1 V_int = 1.000330 V (NBS Circular 459, 1947,
+#: "Announcement of changes in electrical and photometric units"; from memory). The mean
+#: international volt of the other national laboratories was 1.00034 V (same source; from
+#: memory). EMF data measured before 1948 (Harned & Ehlers 1933) are in international volts.
+INTERNATIONAL_VOLT_V: Final = 1.000330

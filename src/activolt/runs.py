@@ -22,7 +22,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
+from .constants import (
+    ATMOSPHERE_PA,
+    INTERNATIONAL_VOLT_V,
+    STANDARD_PRESSURE_PA,
+    ZERO_CELSIUS_K,
+)
 from .electrolytes import Electrolyte, parse_electrolyte
 from .errors import InputError
 
@@ -37,7 +42,7 @@ NOT_YET_USED_COLUMNS: tuple[str, ...] = ()
 KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "electrolyte", "electrons", "temperature_C", "temperature_K", "cell",
     "standard_pressure_kPa", "pressure_kPa", "bubbler_depth_cm", "slope_factor",
-    "u_temperature_K", "u_pressure_kPa", "solute_vapour_lowering",
+    "u_temperature_K", "u_pressure_kPa", "solute_vapour_lowering", "volt_unit",
     "lab", "operator", "instrument", "date", "description", "electrode", "notes",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
@@ -47,6 +52,8 @@ _LARGEST_MOLALITY_MOL_KG = 30.0
 _LARGEST_EMF_V = 5.0
 _PRESSURE_RANGE_KPA = (50.0, 150.0)
 _MISSING = {"", "nan", "na", "n/a", "-"}
+#: Volts the EMF column may be written in, with the factor to absolute volts [V per unit].
+VOLT_UNITS: dict[str, float] = {"absolute": 1.0, "international": INTERNATIONAL_VOLT_V}
 
 
 @dataclass(frozen=True)
@@ -86,6 +93,9 @@ class RunMetadata:
     solute_vapour_lowering : bool
         Whether the water vapour over the solution is taken as a_w p_w (a_w from the fitted
         model) rather than p_w when the gas partial pressure is computed.
+    volt_unit : str
+        The volt the EMF and u(EMF) columns are written in: ``"absolute"`` (SI, the default) or
+        ``"international"`` (before 1948); the reader converts to absolute volts.
     """
 
     electrolyte: Electrolyte
@@ -103,6 +113,7 @@ class RunMetadata:
     u_temperature_K: float = 0.0
     u_pressure_Pa: float = 0.0
     solute_vapour_lowering: bool = False
+    volt_unit: str = "absolute"
 
 
 @dataclass(frozen=True)
@@ -455,6 +466,11 @@ def _metadata(
         raise fail("solute_vapour_lowering", "solute_vapour_lowering must be true or false, "
                                              f"got {lowering!r}")
 
+    volt_unit = merged.get("volt_unit", "absolute")
+    if not isinstance(volt_unit, str) or volt_unit not in VOLT_UNITS:
+        raise fail("volt_unit", "volt_unit must be \"absolute\" or \"international\" (before "
+                                f"1948), got {volt_unit!r}")
+
     info = {k: str(merged[k]) for k in _TEXT_METADATA_KEYS if k in merged}
     metadata = RunMetadata(
         electrolyte=electrolyte, electrons=electrons,
@@ -466,7 +482,7 @@ def _metadata(
         slope_factor=1.0 if fit_slope else float(slope), fit_slope_factor=fit_slope,
         u_temperature_K=common_u["u_temperature_K"],
         u_pressure_Pa=common_u["u_pressure_kPa"] * 1e3,
-        solute_vapour_lowering=lowering,
+        solute_vapour_lowering=lowering, volt_unit=volt_unit,
     )
     return metadata, warnings
 
@@ -548,7 +564,8 @@ def read_run(
         The metadata (TOML). Default: the table's path with the suffix ``.toml``.
     overrides : mapping, optional
         Metadata given on the command line (``electrolyte``, ``electrons``, ``temperature_C``,
-        ``temperature_K``, ``standard_pressure_kPa``); they win over the file.
+        ``temperature_K``, ``standard_pressure_kPa``, ``cell``, ``slope_factor``,
+        ``volt_unit``); they win over the file.
     series : str, optional
         Which series to take when the table's ``series`` column names several.
 
@@ -585,6 +602,15 @@ def read_run(
         )
     metadata, meta_warnings = _metadata(meta, text, metadata_path, overrides)
     warnings.extend(meta_warnings)
+    if metadata.volt_unit != "absolute":
+        factor = VOLT_UNITS[metadata.volt_unit]
+        points["emf_V"] = points["emf_V"] * factor
+        points["u_emf_V"] = points["u_emf_V"] * factor
+        warnings.append(
+            f"EMF and u(EMF) are given in {metadata.volt_unit} volts and were converted to "
+            f"absolute volts on reading: × {factor:.6f} (1 V_int = {factor:.6f} V, the US "
+            "international volt of the NBS until 1948, NBS Circular 459, 1947)"
+        )
     has_pressure = points["pressure_Pa"].notna().any() or metadata.barometric_pressure_Pa
     if has_pressure and not metadata.gas_coefficients:
         warnings.append(
