@@ -164,8 +164,9 @@ def test_summary_is_json_ready_and_has_the_keys():
         assert key in summary
     json.dumps(summary)
     assert summary["half_reactions"]["left_oxidation"] == "1/2 H2(g) → H+(aq) + e-"
-    # CRC / Bates & MacAskill (1978): 0.22233 V (1 atm)
-    assert summary["standard_potential_V"]["value"] == pytest.approx(0.22233, abs=5e-6)
+    # Bates & Bower (1954), Table 1: 0.22234 V (1 atm), standard deviation 0.01 mV
+    assert summary["standard_potential_V"]["value"] == pytest.approx(0.22234, abs=5e-7)
+    assert summary["standard_potential_V"]["uncertainty"] == pytest.approx(1e-5, abs=1e-12)
     assert summary["standard_pressure_kPa"] == 101.325
 
 
@@ -183,9 +184,10 @@ def test_summary_warns_when_temperature_dependence_is_unknown():
 
 def test_format_limits_digits_to_the_uncertainty():
     text = format_cell_summary(cell_summary("Na(s) | Na+(aq) || Br-(aq) | Br2(l) | Pt(s)"))
-    # u(E°) = 0.0029 V from the rounding of −2.71 V → four decimals, two-digit uncertainty
-    assert "E°cell = 3.7760 ± 0.0029 V" in text
-    assert "ΔG° = −728.66 ± 0.56 kJ/mol" in text
+    # u(E°) = √(5² + 1²) mV from the catalogue's 5 mV (Na+/Na) and 1 mV (Br2(l)/Br−), common
+    # practice → four decimals, two-digit uncertainty; ΔG° = −2F E°, u = 2F u(E°) (regression pin)
+    assert "E°cell = 3.7760 ± 0.0051 V" in text
+    assert "ΔG° = −728.66 ± 0.98 kJ/mol" in text
     assert "n = 2" in text
     amalgam = format_cell_summary(cell_summary("Ag(s) | AgCl(s) | KCl(aq) | K(Hg)"))
     assert "E°cell = unknown" in amalgam

@@ -25,6 +25,7 @@ cell forms or consumes when the cell has no liquid junction.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import re
 from collections.abc import Mapping
@@ -37,7 +38,7 @@ import numpy.typing as npt
 from uncertainties import UFloat
 
 from .constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, ZERO_CELSIUS_K
-from .electrodes import amalgam_couple, catalogue, couple_names, silver_chloride_standard_potential
+from .electrodes import amalgam_couple, catalogue, couple_at_temperature, couple_names
 from .electrolytes import Electrolyte, parse_electrolyte
 from .reactions import (
     STATES,
@@ -47,7 +48,6 @@ from .reactions import (
     Species,
     combine,
     element_counts,
-    exact_or_uncertain,
     nernst_expression,
     split_charge,
     to_ascii,
@@ -573,7 +573,7 @@ def cell_from_diagram(text: str) -> CellStoichiometry:
 
     Examples
     --------
-    The Harned cell (E° of AgCl/Ag: CRC Handbook, from memory, 1 atm):
+    The Harned cell (E° of AgCl/Ag: Bates & Bower 1954, Table 1, 25 °C, 1 atm):
 
     >>> cell = cell_from_diagram("Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)")
     >>> cell.electrolyte.formula, cell.electrons, cell.gas_coefficients
@@ -581,7 +581,7 @@ def cell_from_diagram(text: str) -> CellStoichiometry:
     >>> cell.reaction_text
     '1/2 H2(g) + AgCl(s) → H+(aq) + Ag(s) + Cl-(aq)'
     >>> round(cell.standard_potential.nominal_value, 5)
-    0.22233
+    0.22234
     """
     diagram = parse_diagram(text)
     left = electrode_couple(diagram.left, diagram.solutions[0], text)
@@ -608,19 +608,6 @@ def _number(quantity: UFloat | None) -> dict[str, float] | None:
     return {"value": float(quantity.nominal_value), "uncertainty": float(quantity.std_dev)}
 
 
-def _harned_at_temperature(cell: CellStoichiometry, temperature_K: float) -> UFloat | None:
-    """E° of an H2 | HCl | AgCl | Ag cell at T from Bates & Bower (1954), 1 atm."""
-    names = {cell.left_couple.name, cell.right_couple.name}
-    if names != {"H+/H2", "AgCl/Ag"} or not 278.15 <= temperature_K <= 368.15:
-        return None
-    potential = float(silver_chloride_standard_potential(temperature_K))
-    sign = 1.0 if cell.right_couple.name == "AgCl/Ag" else -1.0
-    # Bates & Bower (1954): standard deviation 0.01 mV at 25 °C and 0.09 mV at 95 °C; linear
-    # in between (our interpolation), 0.01 mV below 25 °C.
-    uncertainty = 1e-5 + 8e-5 * max(0.0, temperature_K - 298.15) / 70.0
-    return exact_or_uncertain(sign * potential, uncertainty, tag="AgCl/Ag (Bates & Bower 1954)")
-
-
 def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> dict[str, Any]:
     """A JSON-ready summary of a cell: half-reactions, reaction, n, E°, ΔG°, log10 K.
 
@@ -629,9 +616,10 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
     diagram : str
         The cell diagram.
     temperature_K : float
-        Temperature [K] for log10 K and the Nernst factor. The catalogue's E° are for 25 °C;
-        at another temperature they are used unchanged (a warning says so), except for the
-        hydrogen–silver chloride cell, whose E°(T) comes from Bates & Bower (1954).
+        Temperature [K] for E°, log10 K and the Nernst factor. Each couple's E° at T comes
+        from its one E°(T) (:func:`activolt.electrodes.couple_at_temperature`): H+/H2 is zero at
+        every T, AgCl/Ag follows Bates & Bower (1954) smoothly through 25 °C, the others are
+        known at 25 °C only and are then used unchanged (a warning says so).
 
     Returns
     -------
@@ -649,20 +637,32 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
     >>> s = cell_summary("Zn(s) | ZnSO4(aq) || CuSO4(aq) | Cu(s)")
     >>> s["electrons"], round(s["standard_potential_V"]["value"], 2)
     (2, 1.1)
+
+    One reaction, Fe(s) + 2 Fe³⁺ → 3 Fe²⁺, gives one ΔG° whichever couples make it (Fe³⁺/Fe
+    is derived from the other two):
+
+    >>> a = cell_summary("Fe(s) | Fe2+(aq) || Fe3+(aq), Fe2+(aq) | Pt(s)")["delta_g_kJ_mol"]
+    >>> b = cell_summary("Fe(s) | Fe2+(aq) || Fe3+(aq) | Fe(s)")["delta_g_kJ_mol"]
+    >>> round(a["value"], 6) == round(b["value"], 6), round(a["uncertainty"], 6) == round(
+    ...     b["uncertainty"], 6)
+    (True, True)
     """
     cell = cell_from_diagram(diagram)
     reaction = cell.reaction
     warnings: list[str] = []
     potential = reaction.standard_potential
     pressure_Pa = cell.standard_pressure_Pa
-    if abs(temperature_K - 298.15) > 0.005 and potential is not None:
-        at_temperature = _harned_at_temperature(cell, temperature_K)
-        if at_temperature is not None:
-            potential = at_temperature
-            pressure_Pa = 101325.0
-        else:
+    left_couple, right_couple = cell.left_couple, cell.right_couple
+    if potential is not None:
+        left_at = couple_at_temperature(left_couple, temperature_K)
+        right_at = couple_at_temperature(right_couple, temperature_K)
+        if left_at is None or right_at is None:
             warnings.append(f"E° values are for 298.15 K; used unchanged at {temperature_K:.2f} K "
                             "(their temperature dependence is not in the catalogue)")
+        else:
+            left_couple, right_couple = left_at, right_at
+            potential = dataclasses.replace(reaction, left=left_at,
+                                            right=right_at).standard_potential
     if cell.liquid_junction:
         warnings.append("the cell has a liquid junction: its EMF also holds a junction "
                         "potential that E° does not include")
@@ -691,8 +691,8 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
     return {
         "diagram": diagram,
         "temperature_K": float(temperature_K),
-        "left": electrode(cell.left_couple),
-        "right": electrode(cell.right_couple),
+        "left": electrode(left_couple),
+        "right": electrode(right_couple),
         "half_reactions": {"left_oxidation": str(oxidation), "right_reduction": str(reduction)},
         "reaction": cell.reaction_text,
         "electrons": cell.electrons if isinstance(cell.electrons, int) else float(n),
@@ -716,9 +716,12 @@ def format_cell_summary(summary: Mapping[str, Any]) -> str:
 
     Examples
     --------
+    Catalogue E° −2.71 ± 0.005 V (Na+/Na) and 1.066 ± 0.001 V (Br2(l)/Br−), uncertainties
+    common practice; two significant digits of u fix the digits of E°:
+
     >>> text = format_cell_summary(cell_summary("Na(s) | Na+(aq) || Br-(aq) | Br2(l) | Pt(s)"))
     >>> print(text.splitlines()[4])
-    E°cell = 3.7760 ± 0.0029 V (standard pressure 101.325 kPa)
+    E°cell = 3.7760 ± 0.0051 V (standard pressure 101.325 kPa)
     """
     def quantity(key: str, unit: str) -> str:
         number = summary[key]

@@ -2,28 +2,46 @@
 
 The table ``reference/electrodes.csv`` holds, for each couple, its half-reaction written in the
 species notation of :mod:`activolt.reactions`, the electrons n, E° [V] at 25 °C, its standard
-uncertainty and where that uncertainty comes from (``u_kind``), the standard pressure of the value
-(101.325 kPa or 100 kPa) and the source. It also holds the E° of the silver–silver chloride
-electrode from 5 to 95 °C (Bates & Bower 1954), which :func:`silver_chloride_standard_potential`
-interpolates.
+uncertainty and where that uncertainty comes from (``u_kind``, ``u_source``), the standard
+pressure of the value (101.325 kPa or 100 kPa) and the source. A couple that is a combination of
+others (Fe³⁺/Fe from Fe³⁺/Fe²⁺ and Fe²⁺/Fe) is derived from them by n-weighted addition of ΔG°
+(``derived_from``), so that every route through the catalogue gives one ΔG° for one reaction.
+The table also holds the E° of the silver–silver chloride electrode from 5 to 95 °C (Bates &
+Bower 1954), the one E°(T) of that couple (:func:`couple_at_temperature`).
 """
 
 from __future__ import annotations
 
+import dataclasses
+import itertools
+import math
+from collections import Counter
+from dataclasses import dataclass
+from fractions import Fraction
 from functools import lru_cache
 
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
 from scipy.interpolate import CubicSpline
+from uncertainties import UFloat
 
 from .constants import ATMOSPHERE_PA, ZERO_CELSIUS_K
 from .corrections import standard_pressure_basis_shift
-from .reactions import HalfReaction, Species, parse_half_reaction
+from .reactions import (
+    HalfReaction,
+    Species,
+    exact_or_uncertain,
+    linear_combination,
+    parse_half_reaction,
+)
 from .reference import load_table
 
 #: The datasets of the electrode table.
 DATASETS: tuple[str, ...] = ("catalogue", "bates_bower_1954")
+
+#: The kinds of standard uncertainty in the table (see the header of ``electrodes.csv``).
+U_KINDS: tuple[str, ...] = ("exact", "stated", "spread", "widened", "derived", "interpolated")
 
 #: Methods for the Ag/AgCl standard potential as a function of temperature.
 SILVER_CHLORIDE_METHODS: tuple[str, ...] = ("table", "equation")
@@ -33,9 +51,24 @@ SILVER_CHLORIDE_METHODS: tuple[str, ...] = ("table", "equation")
 _BATES_BOWER_COEFFICIENTS = (0.23659, -4.8564e-4, -3.4205e-6, 5.869e-9)
 _BATES_BOWER_EQUATION_RANGE_C = (0.0, 90.0)
 
+#: Temperature [K] of the catalogue's E° values.
+CATALOGUE_TEMPERATURE_K = 298.15
+
+#: Couples whose E° holds at every temperature: the hydrogen electrode, zero by definition.
+_ZERO_AT_EVERY_TEMPERATURE = frozenset({"H+/H2"})
+
+
+def _raw_table() -> pd.DataFrame:
+    return load_table("electrodes")
+
+
+def _parents(row) -> tuple[str, ...]:
+    text = row.derived_from if isinstance(row.derived_from, str) else ""
+    return tuple(name.strip() for name in text.split(";") if name.strip())
+
 
 def electrode_table(dataset: str | None = None) -> pd.DataFrame:
-    """A copy of the electrode table, optionally one dataset only.
+    """A copy of the electrode table, optionally one dataset only; derived rows filled in.
 
     Parameters
     ----------
@@ -46,46 +79,92 @@ def electrode_table(dataset: str | None = None) -> pd.DataFrame:
     -------
     pandas.DataFrame
         Columns ``couple, half_reaction, electrons, standard_potential_V,
-        u_standard_potential_V, u_kind, temperature_K, pressure_basis_kPa, dataset, source,
-        note``.
+        u_standard_potential_V, u_kind, temperature_K, pressure_basis_kPa, dataset,
+        derived_from, source, u_source, note``. The E° and u of a ``derived`` row are computed
+        from its parents (:func:`catalogue`).
 
     Examples
     --------
-    >>> table = electrode_table("catalogue")
-    >>> float(table.set_index("couple").loc["Zn2+/Zn", "standard_potential_V"])  # CRC, memory
+    >>> table = electrode_table("catalogue").set_index("couple")
+    >>> float(table.loc["Zn2+/Zn", "standard_potential_V"])  # CRC Handbook, from memory
     -0.7618
+    >>> round(float(table.loc["Fe3+/Fe", "standard_potential_V"]), 4)  # (0.771 − 2·0.447)/3
+    -0.041
     """
-    table = load_table("electrodes")
+    if dataset is not None and dataset not in DATASETS:
+        raise ValueError(f"unknown dataset '{dataset}'; valid: {', '.join(DATASETS)}")
+    table = _raw_table()
+    derived = table["u_kind"] == "derived"
+    if derived.any():
+        known = {half.name: half for half in _catalogue()}
+        for index in table.index[derived]:
+            half = known[table.at[index, "couple"]]
+            table.at[index, "standard_potential_V"] = half.standard_potential_V
+            table.at[index, "u_standard_potential_V"] = half.u_standard_potential_V
     if dataset is None:
         return table
-    if dataset not in DATASETS:
-        raise ValueError(f"unknown dataset '{dataset}'; valid: {', '.join(DATASETS)}")
     return table[table["dataset"] == dataset].reset_index(drop=True)
+
+
+def _derive(target: HalfReaction, parents: tuple[HalfReaction, ...]) -> HalfReaction:
+    """The target couple with E° from its parents: n E° = Σ a_i n_i E°_i (ΔG° additivity)."""
+    coefficients = linear_combination(target, parents)
+    if any(p.standard_potential is None for p in parents):
+        raise ValueError(f"electrode table, couple {target.name}: a parent has no E°")
+    bases = {p.pressure_basis_Pa for p in parents} | {target.pressure_basis_Pa}
+    if len(bases) != 1:
+        raise ValueError(f"electrode table, couple {target.name}: parents on different "
+                         "standard pressures")
+    total = sum(float(a * p.n) * p.standard_potential  # type: ignore[operator]
+                for a, p in zip(coefficients, parents, strict=True))
+    return dataclasses.replace(target, uncertain_potential=total / float(target.n))
 
 
 @lru_cache(maxsize=1)
 def _catalogue() -> tuple[HalfReaction, ...]:
-    table = electrode_table("catalogue")
-    couples = []
+    table = _raw_table()
+    table = table[table["dataset"] == "catalogue"]
+    parsed: dict[str, HalfReaction] = {}
+    pending: dict[str, tuple[HalfReaction, tuple[str, ...]]] = {}
     for row in table.itertuples(index=False):
+        if row.u_kind not in U_KINDS:
+            raise ValueError(f"electrode table, couple {row.couple}: unknown u_kind "
+                             f"'{row.u_kind}'; valid: {', '.join(U_KINDS)}")
         note = row.note if isinstance(row.note, str) else ""
-        half = parse_half_reaction(
-            row.half_reaction,
-            standard_potential_V=float(row.standard_potential_V),
-            u_standard_potential_V=float(row.u_standard_potential_V),
-            name=row.couple,
-            pressure_basis_Pa=float(row.pressure_basis_kPa) * 1000.0,
-            note=note,
-        )
+        half = parse_half_reaction(row.half_reaction, name=row.couple,
+                                   pressure_basis_Pa=float(row.pressure_basis_kPa) * 1000.0,
+                                   note=note)
         if half.n != row.electrons or not half.is_reduction:
             raise ValueError(f"electrode table, couple {row.couple}: the half-reaction must be a "
                              f"reduction with {row.electrons} electrons")
-        couples.append(half)
-    return tuple(couples)
+        parents = _parents(row)
+        if (row.u_kind == "derived") != bool(parents):
+            raise ValueError(f"electrode table, couple {row.couple}: a derived row names its "
+                             "parents in derived_from, and only a derived row does")
+        if parents:
+            pending[row.couple] = (half, parents)
+            continue
+        potential = exact_or_uncertain(float(row.standard_potential_V),
+                                       float(row.u_standard_potential_V), tag=row.couple)
+        parsed[row.couple] = dataclasses.replace(half, uncertain_potential=potential)
+    while pending:
+        ready = [name for name, (_, parents) in pending.items()
+                 if all(p in parsed for p in parents)]
+        if not ready:
+            raise ValueError(f"electrode table: couples {', '.join(pending)} name parents that "
+                             "are missing or derived from one another in a circle")
+        for name in ready:
+            half, parents = pending.pop(name)
+            parsed[name] = _derive(half, tuple(parsed[p] for p in parents))
+    return tuple(parsed[name] for name in table["couple"])
 
 
 def catalogue() -> tuple[HalfReaction, ...]:
     """All couples of the catalogue at 25 °C, each written as a reduction (immutable).
+
+    Each couple's E° is an uncertain number (``HalfReaction.standard_potential``), the same
+    variable on every call; a derived couple is a function of its parents' variables, so that
+    cells combining them carry the right correlation.
 
     Examples
     --------
@@ -165,11 +244,12 @@ def amalgam_couple(half: HalfReaction) -> HalfReaction | None:
 
 
 @lru_cache(maxsize=1)
-def _bates_bower_spline() -> tuple[CubicSpline, float, float]:
+def _bates_bower() -> tuple[CubicSpline, np.ndarray, np.ndarray]:
     table = electrode_table("bates_bower_1954").sort_values("temperature_K")
     temperature = table["temperature_K"].to_numpy(dtype=float)
     potential = table["standard_potential_V"].to_numpy(dtype=float)
-    return CubicSpline(temperature, potential), float(temperature[0]), float(temperature[-1])
+    uncertainty = table["u_standard_potential_V"].to_numpy(dtype=float)
+    return CubicSpline(temperature, potential), temperature, uncertainty
 
 
 def silver_chloride_standard_potential(
@@ -184,8 +264,9 @@ def silver_chloride_standard_potential(
     temperature_K : array_like
         Temperature [K]; 278.15–368.15 for ``"table"``, 273.15–363.15 for ``"equation"``.
     method : str
-        ``"table"``: a cubic spline through their Table 1 (5–95 °C); ``"equation"``: their
-        smoothing cubic in t/°C. One of :data:`SILVER_CHLORIDE_METHODS`.
+        ``"table"``: a cubic spline through their Table 1 (5–95 °C), the couple's E°(T) in the
+        catalogue; ``"equation"``: their smoothing cubic in t/°C. One of
+        :data:`SILVER_CHLORIDE_METHODS`.
     standard_pressure_Pa : float
         The standard pressure of the result [Pa]: 101325 (their basis, 1 atm) or 100000 (1 bar).
 
@@ -196,12 +277,16 @@ def silver_chloride_standard_potential(
 
     Notes
     -----
+    The spline passes through every row of their table (it interpolates: weighted polynomials
+    of degree 3–6 miss the 25 °C row by 16–28 µV, more than its 0.01 mV standard deviation), so
+    it is smooth through 25 °C and equals the catalogue's 0.22234 V there. Their equation,
+
     .. math:: E° = 0.23659 − 4.8564×10^{-4}\, t − 3.4205×10^{-6}\, t^2 + 5.869×10^{-9}\, t^3
 
     (t in °C; Bates & Bower 1954, J. Res. NBS 53, 283; coefficients other than the first from
-    memory). A change of pressure basis adds (RT/F)·(−½)·ln(p_from/p_to), −0.169 mV from 1 atm
-    to 1 bar at 25 °C (see :func:`activolt.corrections.standard_pressure_basis_shift`).
-    Their standard deviation is 0.01 mV at 25 °C and 0.09 mV at 95 °C.
+    memory), matches the table within 0.12 mV. A change of pressure basis adds
+    (RT/F)·(−½)·ln(p_from/p_to), −0.169 mV from 1 atm to 1 bar at 25 °C (see
+    :func:`activolt.corrections.standard_pressure_basis_shift`).
 
     Examples
     --------
@@ -218,7 +303,8 @@ def silver_chloride_standard_potential(
         )
     temperature = np.asarray(temperature_K, dtype=float)
     if method == "table":
-        spline, low, high = _bates_bower_spline()
+        spline, rows, _ = _bates_bower()
+        low, high = float(rows[0]), float(rows[-1])
     else:
         low, high = (ZERO_CELSIUS_K + t for t in _BATES_BOWER_EQUATION_RANGE_C)
     outside = (temperature < low - 1e-9) | (temperature > high + 1e-9)
@@ -237,3 +323,176 @@ def silver_chloride_standard_potential(
         from_pressure_Pa=ATMOSPHERE_PA, to_pressure_Pa=standard_pressure_Pa,
     )
     return np.asarray(potential + shift, dtype=float)
+
+
+def silver_chloride_standard_uncertainty(temperature_K: npt.ArrayLike) -> np.ndarray:
+    """Standard uncertainty of :func:`silver_chloride_standard_potential` (``"table"``) [V].
+
+    Parameters
+    ----------
+    temperature_K : array_like
+        Temperature [K], 278.15–368.15.
+
+    Returns
+    -------
+    numpy.ndarray
+        u(E°) [V]: their standard deviation, 0.01 mV at 25 °C and 0.09 mV at 95 °C (Bates &
+        Bower 1954), linear in |t − 25 °C| in between and below 25 °C (our reading, in the
+        table's ``u_standard_potential_V`` column), interpolated linearly between rows.
+
+    Examples
+    --------
+    >>> float(silver_chloride_standard_uncertainty(298.15))  # Bates & Bower (1954)
+    1e-05
+    """
+    _, rows, uncertainty = _bates_bower()
+    temperature = np.asarray(temperature_K, dtype=float)
+    outside = (temperature < rows[0] - 1e-9) | (temperature > rows[-1] + 1e-9)
+    if np.any(outside):
+        raise ValueError(f"temperature outside {rows[0]:.2f}–{rows[-1]:.2f} K, the range of "
+                         "Bates & Bower (1954)")
+    return np.asarray(np.interp(temperature, rows, uncertainty), dtype=float)
+
+
+def couple_at_temperature(half: HalfReaction, temperature_K: float) -> HalfReaction | None:
+    """A catalogue couple with its E° at temperature T; None where the catalogue has no E°(T).
+
+    One E°(T) per couple: H+/H2 is zero at every temperature (by definition); AgCl/Ag follows
+    :func:`silver_chloride_standard_potential` (Bates & Bower 1954, 5–95 °C, 1 atm), whose
+    value at 25 °C is the catalogue's, so that it runs smoothly through 25 °C; every other couple
+    is known at 298.15 K (± 0.005 K) only.
+
+    Parameters
+    ----------
+    half : HalfReaction
+        A couple of the catalogue, written either way.
+    temperature_K : float
+        Temperature [K].
+
+    Returns
+    -------
+    HalfReaction or None
+        The couple with E° [V] and its standard uncertainty at T (the catalogue's own couple at
+        298.15 K, keeping its correlations), or None outside the range of its E°(T).
+
+    Examples
+    --------
+    Bates & Bower (1954), Table 1: 0.20449 V at 50 °C:
+
+    >>> round(couple_at_temperature(couple("AgCl/Ag"), 323.15).standard_potential_V, 5)
+    0.20449
+    >>> couple_at_temperature(couple("Zn2+/Zn"), 323.15) is None
+    True
+    """
+    if half.standard_potential_V is None or half.name in _ZERO_AT_EVERY_TEMPERATURE:
+        return half
+    if not half.is_reduction:
+        reduction = couple_at_temperature(half.as_reduction(), temperature_K)
+        return None if reduction is None else reduction.reversed()
+    if half.name == "AgCl/Ag":
+        _, rows, _ = _bates_bower()
+        if not rows[0] <= temperature_K <= rows[-1]:
+            return None
+        if temperature_K == CATALOGUE_TEMPERATURE_K:
+            return half
+        potential = exact_or_uncertain(
+            float(silver_chloride_standard_potential(temperature_K)),
+            float(silver_chloride_standard_uncertainty(temperature_K)),
+            tag=f"AgCl/Ag at {temperature_K:.2f} K (Bates & Bower 1954)")
+        return dataclasses.replace(half, uncertain_potential=potential)
+    if abs(temperature_K - CATALOGUE_TEMPERATURE_K) <= 0.005:
+        return half
+    return None
+
+
+# --- relations between couples --------------------------------------------------------------
+
+@dataclass(frozen=True)
+class CoupleRelation:
+    """Couples of the catalogue whose half-reactions add up to nothing: Σ c_i · couple_i = 0.
+
+    Attributes
+    ----------
+    couples : tuple of str
+        The couples' names, in catalogue order.
+    coefficients : tuple of int
+        c_i, whole numbers without common factor, first one positive; each scales the couple's
+        reduction as written in the catalogue (n_i electrons).
+    residual : UFloat
+        Σ c_i n_i E°_i [V] with its standard uncertainty (correlations kept), which ΔG°
+        additivity makes zero; a consistent catalogue has |residual| within two of its standard
+        uncertainties.
+    """
+
+    couples: tuple[str, ...]
+    coefficients: tuple[int, ...]
+    residual: UFloat
+
+    def consistent(self, coverage_factor: float = 2.0) -> bool:
+        """True when |Σ c_i n_i E°_i| ≤ k·u (k = ``coverage_factor``), or both are zero."""
+        value, u = abs(self.residual.nominal_value), self.residual.std_dev
+        return value <= coverage_factor * u + 1e-12
+
+    def __str__(self) -> str:
+        terms = [f"{c:+d} {name}" for c, name in zip(self.coefficients, self.couples,
+                                                       strict=True)]
+        return " ".join(terms) + " = 0"
+
+
+def _species_set(half: HalfReaction) -> frozenset[Species]:
+    return frozenset(s for s, _ in half.stoichiometry)
+
+
+def couple_relations(max_members: int = 4) -> tuple[CoupleRelation, ...]:
+    r"""Every minimal set of up to ``max_members`` catalogue couples whose reactions add up.
+
+    A set is a relation when some rational c_i, none zero, make Σ c_i · couple_i the empty
+    reaction (electrons included); it is minimal when no smaller subset is one. ΔG° additivity
+    then requires
+
+    .. math:: \sum_i c_i n_i E°_i = 0
+
+    (e.g. Fe³⁺/Fe²⁺ + Fe²⁺/Fe − Fe³⁺/Fe: E°₁ + 2E°₂ − 3E°₃ = 0). Couples without an E°
+    (amalgams) are left out.
+
+    Parameters
+    ----------
+    max_members : int
+        Largest relation searched for (2 or more).
+
+    Returns
+    -------
+    tuple of CoupleRelation
+
+    Examples
+    --------
+    >>> any(set(r.couples) == {"Fe2+/Fe", "Fe3+/Fe", "Fe3+/Fe2+"} for r in couple_relations(3))
+    True
+    """
+    couples = [h for h in _catalogue() if h.standard_potential is not None]
+    species = [_species_set(h) for h in couples]
+    relations = []
+    for size in range(2, max_members + 1):
+        for members in itertools.combinations(range(len(couples)), size):
+            counts = Counter(s for i in members for s in species[i])
+            if any(count < 2 for count in counts.values()):
+                continue  # a species in one member only cannot cancel
+            parts = tuple(couples[i] for i in members[:-1])
+            try:
+                coefficients = linear_combination(couples[members[-1]], parts)
+            except ValueError:
+                continue
+            if any(c == 0 for c in coefficients):
+                continue  # a smaller relation, found on its own
+            signed = [*coefficients, Fraction(-1)]
+            scale = math.lcm(*(c.denominator for c in signed))
+            whole = [c * scale for c in signed]
+            divisor = math.gcd(*(int(c) for c in whole))
+            sign = 1 if whole[0] > 0 else -1
+            whole = [int(sign * c / divisor) for c in whole]
+            halves = [couples[i] for i in members]
+            residual = sum(float(c * h.n) * h.standard_potential  # type: ignore[operator]
+                           for c, h in zip(whole, halves, strict=True))
+            relations.append(CoupleRelation(tuple(h.name for h in halves), tuple(whole),
+                                            residual))
+    return tuple(relations)

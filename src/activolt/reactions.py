@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 import re
 import warnings
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
 
@@ -353,6 +353,10 @@ class HalfReaction:
         Standard pressure on which E° is stated [Pa] (1 atm or 1 bar).
     note : str
         Anything a user must know (e.g. "amalgam activity folded into E°").
+    uncertain_potential : UFloat or None
+        E° as an uncertain number that keeps its correlation with other couples (a couple
+        derived from others shares their variables); when given, it sets
+        ``standard_potential_V`` and ``u_standard_potential_V``.
     """
 
     stoichiometry: Stoichiometry
@@ -362,8 +366,14 @@ class HalfReaction:
     name: str = ""
     pressure_basis_Pa: float | None = None
     note: str = field(default="", compare=False)
+    uncertain_potential: UFloat | None = field(default=None, compare=False, repr=False)
 
     def __post_init__(self) -> None:
+        if self.uncertain_potential is not None:
+            object.__setattr__(self, "standard_potential_V",
+                               float(self.uncertain_potential.nominal_value))
+            object.__setattr__(self, "u_standard_potential_V",
+                               float(self.uncertain_potential.std_dev))
         object.__setattr__(self, "electrons", Fraction(self.electrons))
         object.__setattr__(self, "stoichiometry", _merge(self.stoichiometry))
         if self.electrons == 0:
@@ -391,6 +401,7 @@ class HalfReaction:
         (0.7618, 'Zn(s) → Zn2+(aq) + 2 e-')
         """
         potential = None if self.standard_potential_V is None else -self.standard_potential_V
+        uncertain = None if self.uncertain_potential is None else -self.uncertain_potential
         return HalfReaction(
             stoichiometry=tuple((s, -c) for s, c in self.stoichiometry),
             electrons=-self.electrons,
@@ -399,6 +410,7 @@ class HalfReaction:
             name=self.name,
             pressure_basis_Pa=self.pressure_basis_Pa,
             note=self.note,
+            uncertain_potential=uncertain,
         )
 
     def scaled(self, factor: Fraction | int | str) -> HalfReaction:
@@ -422,6 +434,7 @@ class HalfReaction:
             name=self.name,
             pressure_basis_Pa=self.pressure_basis_Pa,
             note=self.note,
+            uncertain_potential=self.uncertain_potential,
         )
 
     def as_reduction(self) -> HalfReaction:
@@ -430,7 +443,13 @@ class HalfReaction:
 
     @property
     def standard_potential(self) -> UFloat | None:
-        """E° [V] as an uncertain number (None when unknown; u = 0 when none is stated)."""
+        """E° [V] as an uncertain number (None when unknown; u = 0 when none is stated).
+
+        The same variable on every call when the couple carries ``uncertain_potential`` (the
+        catalogue's couples do), so that couples derived from one another stay correlated.
+        """
+        if self.uncertain_potential is not None:
+            return self.uncertain_potential
         if self.standard_potential_V is None:
             return None
         return exact_or_uncertain(self.standard_potential_V, self.u_standard_potential_V or 0.0,
@@ -500,6 +519,87 @@ def parse_half_reaction(text: str, standard_potential_V: float | None = None,
         standard_potential_V=standard_potential_V, u_standard_potential_V=u_standard_potential_V,
         name=name, pressure_basis_Pa=pressure_basis_Pa, note=note,
     )
+
+
+def _vector(half: HalfReaction) -> dict[Species | str, Fraction]:
+    vector: dict[Species | str, Fraction] = dict(half.stoichiometry)
+    vector["e-"] = half.electrons
+    return vector
+
+
+def linear_combination(target: HalfReaction, parts: Sequence[HalfReaction]
+                       ) -> tuple[Fraction, ...]:
+    r"""The coefficients a_i with Σ a_i · part_i = target, as reactions (electrons included).
+
+    Parameters
+    ----------
+    target : HalfReaction
+        The half-reaction to express.
+    parts : sequence of HalfReaction
+        The half-reactions to express it by, each as written.
+
+    Returns
+    -------
+    tuple of Fraction
+        One coefficient per part, in order; negative means the part enters reversed.
+
+    Raises
+    ------
+    ValueError
+        If the target is no combination of the parts, or not a unique one (the parts are
+        themselves linearly dependent).
+
+    Notes
+    -----
+    Since ΔG° = −nFE° of a reduction is additive over reactions, a couple that is such a
+    combination of reductions has
+
+    .. math:: n E° = \sum_i a_i n_i E°_i
+
+    (Bard & Faulkner, *Electrochemical Methods*, 2nd ed., 2001, §2.1; IUPAC Green Book, 3rd ed.,
+    2007, §2.13). Solved exactly in rational numbers by Gauss–Jordan elimination.
+
+    Examples
+    --------
+    Fe³⁺/Fe from Fe³⁺/Fe²⁺ and Fe²⁺/Fe (one of each, as written):
+
+    >>> fe3 = parse_half_reaction("Fe3+(aq) + 3 e- = Fe(s)")
+    >>> fe32 = parse_half_reaction("Fe3+(aq) + e- = Fe2+(aq)")
+    >>> fe2 = parse_half_reaction("Fe2+(aq) + 2 e- = Fe(s)")
+    >>> linear_combination(fe3, [fe32, fe2])
+    (Fraction(1, 1), Fraction(1, 1))
+    """
+    vectors = [_vector(part) for part in parts]
+    goal = _vector(target)
+    keys = list(dict.fromkeys([k for v in vectors for k in v] + list(goal)))
+    rows = [[v.get(key, Fraction(0)) for v in vectors] + [goal.get(key, Fraction(0))]
+            for key in keys]
+    columns, pivot_row, pivots = len(vectors), 0, []
+    for column in range(columns):
+        found = next((r for r in range(pivot_row, len(rows)) if rows[r][column] != 0), None)
+        if found is None:
+            continue
+        rows[pivot_row], rows[found] = rows[found], rows[pivot_row]
+        lead = rows[pivot_row][column]
+        rows[pivot_row] = [value / lead for value in rows[pivot_row]]
+        for r in range(len(rows)):
+            if r != pivot_row and rows[r][column] != 0:
+                factor = rows[r][column]
+                rows[r] = [a - factor * b for a, b in zip(rows[r], rows[pivot_row], strict=True)]
+        pivots.append(column)
+        pivot_row += 1
+    names = target.name or str(target)
+    if any(row[-1] != 0 for row in rows[pivot_row:]):
+        raise ValueError(f"{names} is not a combination of "
+                         f"{', '.join(p.name or str(p) for p in parts)}")
+    if len(pivots) < columns:
+        raise ValueError(f"{names}: the half-reactions "
+                         f"{', '.join(p.name or str(p) for p in parts)} are not independent, so "
+                         "the combination is not unique")
+    coefficients = [Fraction(0)] * columns
+    for row, column in enumerate(pivots):
+        coefficients[column] = rows[row][-1]
+    return tuple(coefficients)
 
 
 def _shared_potentials(left: HalfReaction, right: HalfReaction
