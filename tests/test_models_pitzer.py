@@ -7,7 +7,9 @@ import pandas as pd
 import pytest
 
 from activolt.electrolytes import parse_electrolyte
+from activolt.errors import FitError
 from activolt.models import pitzer
+from activolt.reference import load_table
 from activolt.reference.parameters import pitzer_parameters
 from activolt.solvent import DebyeHueckelConstants, debye_hueckel_constants
 
@@ -122,15 +124,83 @@ def test_cacl2_is_stored_unscaled():
     assert 4 / 3 * p["beta1_kg_mol"] == pytest.approx(2.152, abs=1e-3)
 
 
+# MgSO4 against Robinson & Stokes (1959), Appendix 8.10 (from memory): γ± = 0.150 / 0.0675 /
+# 0.0485 / 0.0417 at 0.1 / 0.5 / 1 / 2 mol/kg. The shipped Pitzer & Mayorga (1974) row (from
+# memory, not confirmed) gives 11–13 % more. The excess is nearly the same in ln γ± at every
+# molality from 0.1 to 2 mol/kg: above I ≈ 0.4 the β(2) term m·h(α2√I) → 2m/(α2² I) =
+# 1/(2α2²) ≈ 0.0035 kg/mol (I = 4m), a constant, so a shift of ln γ± there is set by β(2) —
+# not by an α (α1 = 2 instead of 1.4 gives −30 % at 2 mol/kg, α2 = 50 gives +26 %) nor by a
+# scaling (2:2 salts have 2ν+ν−/ν = 1, nothing to scale). Which normalisation is right is not
+# settled here: checked as a known deviation, with the ratio pinned so a change shows up.
+MGSO4_ROBINSON_STOKES = {0.1: 0.150, 0.5: 0.0675, 1.0: 0.0485, 2.0: 0.0417}
+
+
+@pytest.mark.parametrize(("molality", "expected"), sorted(MGSO4_ROBINSON_STOKES.items()))
+def test_mgso4_known_deviation_from_robinson_stokes(molality, expected):
+    value = float(np.exp(pitzer.ln_gamma(parse_electrolyte("MgSO4"), molality, CONSTANTS_25C,
+                                         params("MgSO4")))[0])
+    assert 1.09 <= value / expected <= 1.14
+
+
+def test_mgso4_deviation_is_a_constant_shift_of_ln_gamma():
+    m = np.array(sorted(MGSO4_ROBINSON_STOKES))
+    ln_calc = pitzer.ln_gamma(parse_electrolyte("MgSO4"), m, CONSTANTS_25C, params("MgSO4"))
+    shift = ln_calc - np.log([MGSO4_ROBINSON_STOKES[x] for x in m])
+    assert np.ptp(shift) < 0.025 and 0.09 < shift.mean() < 0.13
+
+
+def test_k2so4_is_stored_unscaled():
+    # Pitzer & Mayorga (1973), Table III print (4/3)β0 = 0.0666, (4/3)β1 = 1.039 (from memory).
+    p = params("K2SO4")
+    assert 4 / 3 * p["beta0_kg_mol"] == pytest.approx(0.0666, abs=1e-4)
+    assert 4 / 3 * p["beta1_kg_mol"] == pytest.approx(1.039, abs=1e-3)
+    assert p["cphi_kg2_mol2"] == 0.0
+
+
+def test_lacl3_is_stored_unscaled():
+    # Pitzer & Mayorga (1973), Table VIII: unscaled 0.6105, 5.487, −0.0320 (confirmed in a
+    # secondary transcription); printed (3/2)β0 = 0.9158, (3/2)β1 = 8.231, (3^{3/2}/2)Cφ =
+    # −0.0831 (from memory).
+    p = params("LaCl3")
+    assert (p["beta0_kg_mol"], p["beta1_kg_mol"], p["cphi_kg2_mol2"]) == (0.6105, 5.487, -0.0320)
+    assert 1.5 * p["beta0_kg_mol"] == pytest.approx(0.9158, abs=1e-4)
+    assert 1.5 * p["beta1_kg_mol"] == pytest.approx(8.231, abs=1e-3)
+    assert 3**1.5 / 2 * p["cphi_kg2_mol2"] == pytest.approx(-0.0831, abs=1e-4)
+
+
 # ----------------------------------------------------------------------------------------------
 # Structure and edge cases
 # ----------------------------------------------------------------------------------------------
 
-def test_alphas_by_charge_type():
-    # Pitzer & Mayorga (1973, 1974): α1 = 2 unless both ions are at least divalent.
-    assert pitzer.alphas(parse_electrolyte("LaCl3")) == (2.0, 12.0)
-    assert pitzer.alphas(parse_electrolyte("Na2SO4")) == (2.0, 12.0)
-    assert pitzer.alphas(parse_electrolyte("ZnSO4")) == (1.4, 12.0)
+# α1, α2 by charge type: Pitzer & Mayorga (1973) α1 = 2 when an ion is univalent; Pitzer &
+# Mayorga (1974) α1 = 1.4, α2 = 12 for 2:2; Pitzer & Silvester (1978) α1 = 2.0, α2 = 50 for 3:2
+# and 4:2; as summarised in Pitzer (1991), Activity Coefficients in Electrolyte Solutions, 2nd
+# ed., ch. 3 — from memory (not read in a stored copy).
+@pytest.mark.parametrize(
+    ("formula", "charge_type", "expected"),
+    [
+        ("NaCl", "1:1", (2.0, 12.0)),
+        ("CaCl2", "2:1", (2.0, 12.0)),
+        ("Na2SO4", "1:2", (2.0, 12.0)),
+        ("LaCl3", "3:1", (2.0, 12.0)),
+        ("ThCl4", "4:1", (2.0, 12.0)),
+        ("MgSO4", "2:2", (1.4, 12.0)),
+        ("Al2(SO4)3", "3:2", (2.0, 50.0)),
+        ("Th(SO4)2", "4:2", (2.0, 50.0)),
+    ],
+)
+def test_alphas_by_charge_type(formula, charge_type, expected):
+    electrolyte = parse_electrolyte(formula)
+    assert electrolyte.charge_type == charge_type
+    assert pitzer.alphas(electrolyte) == expected
+    assert pitzer.has_beta2(electrolyte) == (min(electrolyte.z_cation,
+                                                 -electrolyte.z_anion) >= 2)
+
+
+def test_alphas_refused_for_unpublished_high_valence_types():
+    # 3:3 (AlPO4): no α1, α2 published by Pitzer (1991, ch. 3; from memory) — none made up.
+    with pytest.raises(ValueError, match="no published Pitzer α1, α2 for 3:3"):
+        pitzer.alphas(parse_electrolyte("AlPO4"))
 
 
 def test_h_series_and_closed_form_agree():
@@ -183,13 +253,54 @@ def test_unknown_or_missing_parameter_names_raise():
         pitzer.MODEL.parameter("beta3_kg_mol")
 
 
-def test_conventional_values_come_from_the_table_else_zero():
-    kcl, cacl2, unknown = (parse_electrolyte(f) for f in ("KCl", "CaCl2", "CsI"))
+def test_conventional_values_come_from_the_table_else_the_charge_type():
+    kcl, cacl2, csi = (parse_electrolyte(f) for f in ("KCl", "CaCl2", "CsI"))
     by_name = {p.name: p for p in pitzer.MODEL.parameters}
+    # Pitzer & Mayorga (1973), Tables II and III (from memory)
     assert by_name["beta0_kg_mol"].conventional(kcl, CONSTANTS_25C) == 0.04835
     assert by_name["beta1_kg_mol"].conventional(cacl2, CONSTANTS_25C) == 1.614
-    assert all(p.conventional(unknown, CONSTANTS_25C) == 0.0 for p in pitzer.MODEL.parameters)
+    # CsI has no row: never 0 held as if published, but the mean of the table's 1:1 salts
+    table = load_table("pitzer_parameters")
+    one_one = table[table["charge_type"] == "1:1"]
+    for name in ("beta0_kg_mol", "beta1_kg_mol", "cphi_kg2_mol2"):
+        assert by_name[name].conventional(csi, CONSTANTS_25C) == pytest.approx(
+            one_one[name].mean(), rel=1e-12)
+        assert by_name[name].conventional_uncertainty(csi, CONSTANTS_25C) == pytest.approx(
+            one_one[name].std(ddof=1), rel=1e-12)
+    assert by_name["beta2_kg_mol"].conventional(csi, CONSTANTS_25C) == 0.0
+    assert by_name["beta2_kg_mol"].conventional_uncertainty(csi, CONSTANTS_25C) == 0.0
     assert all(p.linear for p in pitzer.MODEL.parameters)
+
+
+def test_two_one_and_one_two_are_pooled_for_a_salt_without_row():
+    # Li2SO4 (1:2) has no row: mean of the table's 4 2:1 and 2 1:2 salts (the equations are
+    # symmetric in the ions; Pitzer 1991, ch. 3).
+    table = load_table("pitzer_parameters")
+    pooled = table[table["charge_type"].isin(["2:1", "1:2"])]
+    convention = pitzer.parameter_convention(parse_electrolyte("Li2SO4"), "beta0_kg_mol")
+    assert convention.basis == "charge type"
+    assert convention.value == pytest.approx(pooled["beta0_kg_mol"].mean(), rel=1e-12)
+    assert convention.uncertainty == pytest.approx(pooled["beta0_kg_mol"].std(ddof=1),
+                                                   rel=1e-12)
+
+
+def test_beta2_of_a_two_two_salt_carries_the_charge_type_spread():
+    table = load_table("pitzer_parameters")
+    two_two = table[table["charge_type"] == "2:2"]["beta2_kg_mol"]
+    mgso4 = pitzer.parameter_convention(parse_electrolyte("MgSO4"), "beta2_kg_mol")
+    assert mgso4.basis == "published" and mgso4.value == -37.23  # Pitzer & Mayorga (1974)
+    assert mgso4.uncertainty == pytest.approx(two_two.std(ddof=1), rel=1e-12)
+    beso4 = pitzer.parameter_convention(parse_electrolyte("BeSO4"), "beta2_kg_mol")
+    assert beso4.basis == "charge type"
+    assert beso4.value == pytest.approx(two_two.mean(), rel=1e-12)
+
+
+def test_no_salt_of_the_charge_type_is_refused():
+    # 3:2: the table holds none, so nothing to take a convention from.
+    with pytest.raises(FitError, match=r"Al2\(SO4\)3.*no 3:2 electrolyte.*beta2_kg_mol"):
+        pitzer.parameter_convention(parse_electrolyte("Al2(SO4)3"), "beta0_kg_mol")
+    with pytest.raises(KeyError, match="it has: beta0_kg_mol"):
+        pitzer.parameter_convention(parse_electrolyte("NaCl"), "beta3_kg_mol")
 
 
 def test_published_range_is_available_for_warnings():

@@ -8,7 +8,12 @@ import numpy as np
 import pytest
 
 from activolt.reference import load_table
-from activolt.reference.parameters import ion_size_angstrom, pitzer_parameters, sit_epsilon
+from activolt.reference.parameters import (
+    ion_size_angstrom,
+    pitzer_charge_type_statistics,
+    pitzer_parameters,
+    sit_epsilon,
+)
 
 # ----------------------------------------------------------------------------------------------
 # Loaders
@@ -40,6 +45,40 @@ def test_pitzer_entry_mgso4_has_beta2():
 
 def test_pitzer_unknown_formula_gives_none():
     assert pitzer_parameters("CsI") is None
+
+
+def test_pitzer_entry_lacl3():
+    # Pitzer & Mayorga (1973), Table VIII, unscaled (confirmed in a secondary transcription;
+    # reference-values.md)
+    entry = pitzer_parameters("LaCl3")
+    assert (entry["beta0_kg_mol"], entry["beta1_kg_mol"], entry["cphi_kg2_mol2"]) == (
+        0.6105, 5.487, -0.0320)
+    assert entry["charge_type"] == "3:1" and "Table VIII" in entry["source"]
+
+
+def test_charge_type_statistics_match_the_table():
+    # Computed here with pandas from the shipped table, independently of the loader.
+    table = load_table("pitzer_parameters")
+    for (zc, za), spellings in (((1, -1), ["1:1"]), ((2, -1), ["2:1", "1:2"]),
+                                ((1, -2), ["2:1", "1:2"]), ((2, -2), ["2:2"]),
+                                ((3, -1), ["3:1"])):
+        rows = table[table["charge_type"].isin(spellings)]
+        stats = pitzer_charge_type_statistics(zc, za)
+        assert stats["n"] == len(rows)
+        assert stats["formulas"] == tuple(rows["formula"])
+        for name in ("beta0_kg_mol", "beta1_kg_mol", "beta2_kg_mol", "cphi_kg2_mol2"):
+            assert stats["mean"][name] == pytest.approx(rows[name].mean(), rel=1e-12, abs=1e-15)
+            if len(rows) > 1:
+                assert stats["sd"][name] == pytest.approx(rows[name].std(ddof=1), rel=1e-12,
+                                                          abs=1e-15)
+            else:
+                assert np.isnan(stats["sd"][name])
+
+
+def test_charge_type_statistics_pool_both_spellings_and_miss_absent_types():
+    assert pitzer_charge_type_statistics(2, -1)["charge_types"] == ("1:2", "2:1")
+    assert pitzer_charge_type_statistics(1, 2) == pitzer_charge_type_statistics(2, -1)
+    assert pitzer_charge_type_statistics(3, -2) is None
 
 
 def test_beta2_only_for_two_two():
@@ -105,7 +144,7 @@ TABLES = {
     "pitzer_parameters": {
         "columns": ["formula", "charge_type", "beta0_kg_mol", "beta1_kg_mol", "beta2_kg_mol",
                     "cphi_kg2_mol2", "max_molality_mol_kg", "temperature_C", "source", "note"],
-        "rows": 38,
+        "rows": 39,
         "key": ["formula"],
     },
     "sit_epsilon": {
@@ -124,7 +163,7 @@ TABLES = {
 # Regression pins: SHA-256 (first 16 hex digits) of the numeric columns, in file order, each value
 # written with %.10g. Update deliberately, together with the table, when a value is corrected.
 CHECKSUMS = {
-    "pitzer_parameters": "14d96d6f784d26bd",
+    "pitzer_parameters": "9b40bc9d344931df",
     "sit_epsilon": "6511b38730b560bc",
     "ion_size": "55b2384456c50387",
 }

@@ -16,28 +16,43 @@ r"""Pitzer equations for a single (binary) electrolyte M(ν+)X(ν−) in water.
 
 .. math:: C^γ = \tfrac{3}{2} C^φ
 
-with b = 1.2 kg^½ mol^-½; α1 = 2 kg^½ mol^-½ when either ion is univalent (1:1, 1:2, 2:1, 3:1,
-…); α1 = 1.4 and α2 = 12 kg^½ mol^-½ when both ions are at least divalent (2:2 and higher). The
-β(2) term is published only for the latter; for other charge types it is kept (with α2 = 12) so
-that the functions stay consistent for any parameter values, and its conventional value is 0.
+with b = 1.2 kg^½ mol^-½ and α1, α2 by charge type (:func:`alphas`): α1 = 2 kg^½ mol^-½ when an
+ion is univalent (1:1, 2:1, 1:2, 3:1, 4:1, …), with no β(2) term; α1 = 1.4 and α2 = 12 for 2:2;
+α1 = 2.0 and α2 = 50 for 3:2 and 4:2 (Pitzer & Silvester 1978). For charge types without β(2) the
+term is kept in the functions (with α2 = 12) so that they stay consistent for any parameter
+values; its value there is 0 by definition.
+
+Parameters the data cannot determine are held at a convention (:func:`parameter_convention`): the
+published value of the table ``pitzer_parameters`` with a Type B uncertainty, or, for a salt
+without a row, the mean ± standard deviation of the table's salts of the same charge type — the
+model is refused (:class:`~activolt.errors.FitError`) when the table has no salt of that type.
 
 Pitzer, K. S. & Mayorga, G. (1973). J. Phys. Chem. 77, 2300–2308.
 https://doi.org/10.1021/j100638a009 ; Pitzer, K. S. & Mayorga, G. (1974). J. Solution Chem. 3,
 539–546. https://doi.org/10.1007/BF00648138 ; Pitzer, K. S. (1991). Ion interaction approach:
 theory and data correlation, in *Activity Coefficients in Electrolyte Solutions*, 2nd ed.,
-CRC Press, ch. 3, eqs. 59–66.
+CRC Press, ch. 3, eqs. 59–66 ; Pitzer, K. S. & Silvester, L. F. (1978). Thermodynamics of
+electrolytes. 11. Properties of 3:2, 4:2, and other high-valence types. J. Phys. Chem. 82,
+1239–1242. https://doi.org/10.1021/j100500a009
 """
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Callable, Mapping
+from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
 
 from ..electrolytes import Electrolyte
-from ..reference.parameters import PitzerEntry, pitzer_parameters
+from ..errors import FitError
+from ..reference.parameters import (
+    PitzerEntry,
+    pitzer_charge_type_statistics,
+    pitzer_parameters,
+)
 from ..solvent import DebyeHueckelConstants
 from .base import ActivityModel, Parameter, checked_values
 
@@ -53,6 +68,39 @@ PARAMETER_NAMES: tuple[str, ...] = (
 _SERIES_BELOW = 0.05
 
 
+#: (α1, α2) [kg^½ mol^-½] by the unordered pair of charge magnitudes (larger, smaller) of the
+#: types where both ions are at least divalent. Pitzer & Mayorga (1974) for 2:2; Pitzer &
+#: Silvester (1978) for 3:2 and 4:2, as summarised by Pitzer (1991, ch. 3) — from memory.
+_MULTIVALENT_ALPHAS: dict[tuple[int, int], tuple[float, float]] = {
+    (2, 2): (1.4, 12.0),
+    (3, 2): (2.0, 50.0),
+    (4, 2): (2.0, 50.0),
+}
+
+#: (α1, α2) [kg^½ mol^-½] when an ion is univalent: α1 = 2 (Pitzer & Mayorga 1973); α2 is unused
+#: there (β(2) = 0) and kept at 12 only so the functions are defined.
+_UNIVALENT_ALPHAS = (2.0, 12.0)
+
+
+def _charge_pair(electrolyte: Electrolyte) -> tuple[int, int]:
+    """(larger, smaller) charge magnitude of the two ions."""
+    za, zb = abs(electrolyte.z_cation), abs(electrolyte.z_anion)
+    return (max(za, zb), min(za, zb))
+
+
+def has_beta2(electrolyte: Electrolyte) -> bool:
+    """Whether β(2) is part of the Pitzer equations for this charge type (both ions divalent or
+    higher; Pitzer & Mayorga 1974; Pitzer 1991, ch. 3).
+
+    Examples
+    --------
+    >>> from activolt.electrolytes import parse_electrolyte
+    >>> has_beta2(parse_electrolyte("MgSO4")), has_beta2(parse_electrolyte("LaCl3"))
+    (True, False)
+    """
+    return _charge_pair(electrolyte)[1] >= 2
+
+
 def alphas(electrolyte: Electrolyte) -> tuple[float, float]:
     """(α1, α2) [kg^½ mol^-½] for the electrolyte's charge type.
 
@@ -64,18 +112,38 @@ def alphas(electrolyte: Electrolyte) -> tuple[float, float]:
     Returns
     -------
     tuple of float
-        α1 = 2, α2 = 12 when either ion is univalent; α1 = 1.4, α2 = 12 when both are at least
-        divalent (Pitzer & Mayorga 1974; Pitzer 1991, ch. 3).
+        α1 = 2 when an ion is univalent (1:1, 2:1, 1:2, 3:1, 4:1, …; α2 = 12 is then unused,
+        β(2) being 0); α1 = 1.4, α2 = 12 for 2:2; α1 = 2.0, α2 = 50 for 3:2 and 4:2.
+
+    Raises
+    ------
+    ValueError
+        For a charge type with both ions at least divalent for which no values were published
+        (3:3, 4:3, 4:4, …): no choice of α is made up.
+
+    References
+    ----------
+    .. [1] Pitzer, K. S. & Mayorga, G. (1973). J. Phys. Chem. 77, 2300–2308 (α1 = 2).
+    .. [2] Pitzer, K. S. & Mayorga, G. (1974). J. Solution Chem. 3, 539–546 (2:2: 1.4, 12).
+    .. [3] Pitzer, K. S. & Silvester, L. F. (1978). J. Phys. Chem. 82, 1239–1242 (3:2, 4:2:
+       2.0, 50).
+    .. [4] Pitzer, K. S. (1991). *Activity Coefficients in Electrolyte Solutions*, 2nd ed., CRC
+       Press, ch. 3 (the summary of all three; from memory).
 
     Examples
     --------
     >>> from activolt.electrolytes import parse_electrolyte
-    >>> alphas(parse_electrolyte("NaCl")), alphas(parse_electrolyte("MgSO4"))
-    ((2.0, 12.0), (1.4, 12.0))
+    >>> [alphas(parse_electrolyte(f)) for f in ("NaCl", "MgSO4", "Al2(SO4)3")]
+    [(2.0, 12.0), (1.4, 12.0), (2.0, 50.0)]
     """
-    if min(electrolyte.z_cation, -electrolyte.z_anion) >= 2:
-        return 1.4, 12.0
-    return 2.0, 12.0
+    pair = _charge_pair(electrolyte)
+    if pair[1] == 1:
+        return _UNIVALENT_ALPHAS
+    if pair not in _MULTIVALENT_ALPHAS:
+        raise ValueError(
+            f"no published Pitzer α1, α2 for {electrolyte.charge_type} electrolytes "
+            f"({electrolyte.formula}); published: 1:1, n:1, 2:2, 3:2, 4:2 (Pitzer 1991, ch. 3)")
+    return _MULTIVALENT_ALPHAS[pair]
 
 
 def _h(x: np.ndarray) -> np.ndarray:
@@ -368,35 +436,167 @@ def published_parameters(electrolyte: Electrolyte) -> PitzerEntry | None:
     return entry
 
 
-def _conventional(name: str):
-    def conventional(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
-        entry = published_parameters(electrolyte)
-        return 0.0 if entry is None else float(entry[name])  # type: ignore[literal-required]
-
-    conventional.__name__ = f"conventional_{name}"
-    conventional.__doc__ = (
-        f"Published 25 °C value of {name} for the electrolyte (Pitzer & Mayorga 1973, 1974, "
-        "or as the table's source column says), else 0."
-    )
-    return conventional
-
-
-_CONVENTION = "published value at 25 °C (reference table pitzer_parameters), else 0"
-
 #: Standard uncertainties given to published Pitzer parameters when a reduction holds them
 #: (GUM Type B): twice the difference between two published NaCl sets at 25 °C — Pitzer &
 #: Mayorga (1973) 0.0765, 0.2664, 0.00127 against Pitzer, Peiper & Busey (1984) 0.0754, 0.2770,
 #: 0.00140 (reference-values.md) — rounded up; common practice for a parameter set of unknown
-#: standard error. Parameters with no published value (held at 0) get the same.
+#: standard error. Only for salts with a row in the table; β(2) has no second published set and
+#: takes the spread of its charge type instead (:func:`parameter_convention`).
 PUBLISHED_PARAMETER_UNCERTAINTY = {"beta0_kg_mol": 0.003, "beta1_kg_mol": 0.03,
                                    "cphi_kg2_mol2": 0.0003}
 
+#: A charge type with fewer salts than this in the table gives no usable standard deviation; its
+#: convention's uncertainty is widened to the larger of the spread and the mean's magnitude (100 %).
+MIN_SALTS_FOR_SPREAD = 3
 
-def _published_uncertainty(name: str) -> Callable[[Electrolyte, DebyeHueckelConstants], float]:
+
+@dataclass(frozen=True)
+class PitzerConvention:
+    """The value at which a Pitzer parameter is held for an electrolyte, and where it comes from.
+
+    Attributes
+    ----------
+    value : float
+        Conventional value [kg mol⁻¹ or kg² mol⁻²].
+    uncertainty : float
+        Its standard uncertainty (GUM Type B), same unit.
+    basis : str
+        ``"published"`` (a row of the table), ``"charge type"`` (mean of the table's salts of the
+        same charge type) or ``"not used"`` (β(2) where it is not part of the equations).
+    description : str
+        One line for the record: the value, its uncertainty and their source.
+    """
+
+    value: float
+    uncertainty: float
+    basis: str
+    description: str
+
+
+def _refuse(electrolyte: Electrolyte) -> FitError:
+    needed = [n for n in PARAMETER_NAMES if n != "beta2_kg_mol" or has_beta2(electrolyte)]
+    return FitError(
+        f"the Pitzer model has no published parameters for {electrolyte.formula} and the table "
+        f"pitzer_parameters holds no {electrolyte.charge_type} electrolyte to take a convention "
+        f"from: hold {', '.join(needed)} with --fix (published values for this salt), or reduce "
+        "with a model that needs no published parameters (hueckel, davies)")
+
+
+def parameter_convention(electrolyte: Electrolyte, name: str) -> PitzerConvention:
+    r"""Where a Pitzer parameter is held for an electrolyte when the data cannot determine it.
+
+    Parameters
+    ----------
+    electrolyte : Electrolyte
+        The electrolyte.
+    name : str
+        One of :data:`PARAMETER_NAMES`.
+
+    Returns
+    -------
+    PitzerConvention
+
+    Raises
+    ------
+    FitError
+        When the table has neither a row for the salt nor any salt of its charge type (nothing
+        to take a convention from; the message says what to do).
+    KeyError
+        For an unknown parameter name.
+
+    Notes
+    -----
+    In order:
+
+    1. β(2) where an ion is univalent: 0 ± 0 (not part of the equations).
+    2. A row in ``pitzer_parameters``: the published value, with
+       u = :data:`PUBLISHED_PARAMETER_UNCERTAINTY` for β(0), β(1), Cφ; for β(2) the
+       standard deviation of β(2) over the table's salts of the
+       same charge type (no second published set to compare).
+    3. No row: the mean θ̄ of the table's salts of the same charge type (2:1 and 1:2 pooled,
+       :func:`~activolt.reference.parameters.pitzer_charge_type_statistics`) with
+       u = s, their sample standard deviation, when there are at least
+       :data:`MIN_SALTS_FOR_SPREAD` of them, else u = max(s, |θ̄|).
+    4. No salt of that charge type: refused.
+
+    A reduction holds a parameter at this convention only when the data determine it less
+    precisely than u, so a wide u lets the data decide.
+
+    Examples
+    --------
+    >>> from activolt.electrolytes import parse_electrolyte
+    >>> c = parameter_convention(parse_electrolyte("KCl"), "beta0_kg_mol")
+    >>> c.basis, c.value, c.uncertainty  # Pitzer & Mayorga (1973), Table II (from memory)
+    ('published', 0.04835, 0.003)
+    >>> c = parameter_convention(parse_electrolyte("CsBr"), "beta0_kg_mol")
+    >>> c.basis, round(c.value, 4), round(c.uncertainty, 4)  # the table's 26 1:1 salts
+    ('charge type', 0.0912, 0.0797)
+    """
+    if name not in PARAMETER_NAMES:
+        raise KeyError(f"model 'pitzer' has no parameter '{name}'; it has: "
+                       f"{', '.join(PARAMETER_NAMES)}")
+    if name == "beta2_kg_mol" and not has_beta2(electrolyte):
+        return PitzerConvention(0.0, 0.0, "not used",
+                                f"β(2) = 0: not part of the equations for "
+                                f"{electrolyte.charge_type} electrolytes (Pitzer 1991, ch. 3)")
+    entry = published_parameters(electrolyte)
+    stats = pitzer_charge_type_statistics(electrolyte.z_cation, electrolyte.z_anion)
+    if entry is not None and name in PUBLISHED_PARAMETER_UNCERTAINTY:
+        value, u = float(entry[name]), PUBLISHED_PARAMETER_UNCERTAINTY[name]  # type: ignore[literal-required]
+        return PitzerConvention(value, u, "published",
+                                f"published value {value:.6g} ± {u:.2g} ({entry['source']}; u "
+                                "from two published NaCl sets, Type B)")
+    if stats is None:
+        raise _refuse(electrolyte)
+    mean, sd, n = stats["mean"][name], stats["sd"][name], stats["n"]
+    spread = f"sd of the table's {n} {'/'.join(stats['charge_types'])} salt(s)"
+    if n >= MIN_SALTS_FOR_SPREAD:
+        u, how = sd, spread
+    else:
+        u = max(0.0 if math.isnan(sd) else sd, abs(mean) if entry is None else abs(float(
+            entry[name])))  # type: ignore[literal-required]
+        how = (f"widened to the larger of the {spread} and 100 % of the value: fewer than "
+               f"{MIN_SALTS_FOR_SPREAD} salts give no usable spread")
+    if entry is not None:  # β(2) of a salt with a row
+        value = float(entry[name])  # type: ignore[literal-required]
+        return PitzerConvention(value, u, "published",
+                                f"published value {value:.6g} ({entry['source']}) ± {u:.2g}, "
+                                f"the {how}")
+    if not u > 0.0:
+        raise _refuse(electrolyte)
+    return PitzerConvention(mean, u, "charge type",
+                            f"no published value for {electrolyte.formula}: mean {mean:.4g} ± "
+                            f"{u:.2g} of the table's {n} {'/'.join(stats['charge_types'])} "
+                            f"salt(s) ({', '.join(stats['formulas'])}), u the {how}")
+
+
+def _conventional(name: str) -> Callable[[Electrolyte, DebyeHueckelConstants], float]:
+    def conventional(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
+        return parameter_convention(electrolyte, name).value
+
+    conventional.__name__ = f"conventional_{name}"
+    conventional.__doc__ = f"Conventional value of {name} (:func:`parameter_convention`)."
+    return conventional
+
+
+def _conventional_uncertainty(name: str
+                              ) -> Callable[[Electrolyte, DebyeHueckelConstants], float]:
     def uncertainty(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
-        return PUBLISHED_PARAMETER_UNCERTAINTY[name]
+        return parameter_convention(electrolyte, name).uncertainty
 
+    uncertainty.__name__ = f"conventional_uncertainty_{name}"
+    uncertainty.__doc__ = f"Standard uncertainty of the convention for {name} (Type B)."
     return uncertainty
+
+
+_CONVENTION = (
+    "published value of the table pitzer_parameters ± 0.003 (β0), 0.03 (β1), 0.0003 (Cφ); "
+    "no row: mean ± sd of the table's salts of the same charge type, widened below 3 salts"
+)
+_CONVENTION_BETA2 = (
+    "0 where an ion is univalent; else published value, or mean of the charge type, ± the sd "
+    "of the charge type in the table pitzer_parameters"
+)
 
 
 MODEL = ActivityModel(
@@ -411,7 +611,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("beta0_kg_mol"),
             convention=_CONVENTION,
-            conventional_uncertainty=_published_uncertainty("beta0_kg_mol"),
+            conventional_uncertainty=_conventional_uncertainty("beta0_kg_mol"),
             minimum=-2.0,
             maximum=2.0,
         ),
@@ -423,7 +623,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("beta1_kg_mol"),
             convention=_CONVENTION,
-            conventional_uncertainty=_published_uncertainty("beta1_kg_mol"),
+            conventional_uncertainty=_conventional_uncertainty("beta1_kg_mol"),
             minimum=-10.0,
             maximum=20.0,
         ),
@@ -431,11 +631,13 @@ MODEL = ActivityModel(
             name="beta2_kg_mol",
             symbol="β⁽²⁾",
             unit="kg mol⁻¹",
-            description="ion-pairing term of 2:2 and higher electrolytes (α2 = 12)",
+            description="ion-pairing term of 2:2 and higher electrolytes (α2 = 12 for 2:2, "
+                        "50 for 3:2 and 4:2)",
             linear=True,
             conventional=_conventional("beta2_kg_mol"),
-            convention=_CONVENTION,
-            applies_to=lambda electrolyte: alphas(electrolyte)[0] != 2.0,
+            convention=_CONVENTION_BETA2,
+            conventional_uncertainty=_conventional_uncertainty("beta2_kg_mol"),
+            applies_to=has_beta2,
             minimum=-200.0,
             maximum=10.0,
         ),
@@ -447,7 +649,7 @@ MODEL = ActivityModel(
             linear=True,
             conventional=_conventional("cphi_kg2_mol2"),
             convention=_CONVENTION,
-            conventional_uncertainty=_published_uncertainty("cphi_kg2_mol2"),
+            conventional_uncertainty=_conventional_uncertainty("cphi_kg2_mol2"),
             minimum=-0.5,
             maximum=0.5,
         ),

@@ -2,7 +2,7 @@
 
 - ``pitzer_parameters.csv``: Pitzer β(0), β(1), β(2), Cφ of single electrolytes at 25 °C with the
   upper end of the molality range they were fitted to (Pitzer & Mayorga 1973, 1974; Pitzer, Peiper
-  & Busey 1984);
+  & Busey 1984), and the mean and spread of those values per charge type;
 - ``sit_epsilon.csv``: SIT interaction coefficients ε(cation, anion) at 25 °C with their
   uncertainty (NEA thermochemical database reviews, Appendix B);
 - ``ion_size.csv``: Kielland's (1937) ion-size parameters å.
@@ -13,13 +13,21 @@ An entry the library does not hold gives ``None``; a name that cannot be read as
 
 from __future__ import annotations
 
+import math
 import re
+import statistics
 from functools import lru_cache
 from typing import TypedDict
 
 from . import load_table
 
-__all__ = ["PitzerEntry", "ion_size_angstrom", "pitzer_parameters", "sit_epsilon"]
+__all__ = ["PitzerChargeTypeStatistics", "PitzerEntry", "ion_size_angstrom",
+           "pitzer_charge_type_statistics", "pitzer_parameters", "sit_epsilon"]
+
+#: The Pitzer parameter columns of the table, in order.
+PITZER_PARAMETER_COLUMNS: tuple[str, ...] = (
+    "beta0_kg_mol", "beta1_kg_mol", "beta2_kg_mol", "cphi_kg2_mol2",
+)
 
 
 class PitzerEntry(TypedDict):
@@ -109,6 +117,83 @@ def pitzer_parameters(formula: str) -> PitzerEntry | None:
         beta0_kg_mol=b0, beta1_kg_mol=b1, beta2_kg_mol=b2, cphi_kg2_mol2=cphi,
         max_molality_mol_kg=max_m, temperature_K=temperature, charge_type=charge_type,
         source=source, note=note,
+    )
+
+
+class PitzerChargeTypeStatistics(TypedDict):
+    """Mean and spread of the table's Pitzer parameters over the salts of one charge type.
+
+    Keys: ``charge_types`` (the table's spellings pooled, e.g. ``("1:2", "2:1")``), ``formulas``
+    (the salts, in file order), ``n`` (their number), ``mean`` and ``sd`` (parameter name →
+    arithmetic mean and sample standard deviation with n − 1 in the denominator, NaN when n < 2)
+    [kg mol⁻¹ or kg² mol⁻²].
+    """
+
+    charge_types: tuple[str, ...]
+    formulas: tuple[str, ...]
+    n: int
+    mean: dict[str, float]
+    sd: dict[str, float]
+
+
+def _charge_key(charge_type: str) -> tuple[int, int]:
+    """The unordered pair of charge magnitudes of a table spelling such as ``"1:2"``."""
+    first, second = (abs(int(part)) for part in charge_type.split(":"))
+    return (max(first, second), min(first, second))
+
+
+def pitzer_charge_type_statistics(z_cation: int, z_anion: int
+                                  ) -> PitzerChargeTypeStatistics | None:
+    r"""Mean and standard deviation of each tabulated Pitzer parameter over one charge type.
+
+    Parameters
+    ----------
+    z_cation, z_anion : int
+        Charge numbers of the ions (the sign of ``z_anion`` is ignored) [-].
+
+    Returns
+    -------
+    PitzerChargeTypeStatistics or None
+        Statistics over every row of ``pitzer_parameters.csv`` whose ions carry the same pair of
+        charge magnitudes, or None when the table has no such salt.
+
+    Notes
+    -----
+    2:1 and 1:2 salts (and likewise 3:1 and 1:3, …) are pooled: the single-electrolyte Pitzer
+    equations depend on the ions only through |z+ z−|, ν+ν− and ν, which are symmetric in the
+    two ions (Pitzer 1991, ch. 3, eqs. 59–66), so the parameters of both spellings have the same
+    meaning. The sample standard deviation is
+
+    .. math:: s = \sqrt{\frac{1}{n-1}\sum_i (θ_i − \bar θ)^2}
+
+    References
+    ----------
+    .. [1] Pitzer, K. S. (1991). Ion interaction approach: theory and data correlation, in
+       *Activity Coefficients in Electrolyte Solutions*, 2nd ed., CRC Press, ch. 3.
+
+    Examples
+    --------
+    The 2:2 sulfates of Pitzer & Mayorga (1974) as shipped (values of the table):
+
+    >>> stats = pitzer_charge_type_statistics(2, -2)
+    >>> stats["n"], round(stats["mean"]["beta2_kg_mol"], 2), round(stats["sd"]["beta2_kg_mol"], 2)
+    (6, -41.08, 6.11)
+    >>> pitzer_charge_type_statistics(3, -2) is None
+    True
+    """
+    key = (max(abs(z_cation), abs(z_anion)), min(abs(z_cation), abs(z_anion)))
+    chosen = [(formula, row) for formula, row in _pitzer_rows().items()
+              if _charge_key(row[6]) == key]
+    if not chosen:
+        return None
+    mean, sd = {}, {}
+    for index, name in enumerate(PITZER_PARAMETER_COLUMNS):
+        values = [row[index] for _, row in chosen]
+        mean[name] = statistics.fmean(values)
+        sd[name] = statistics.stdev(values) if len(values) > 1 else math.nan
+    return PitzerChargeTypeStatistics(
+        charge_types=tuple(sorted({row[6] for _, row in chosen})),
+        formulas=tuple(formula for formula, _ in chosen), n=len(chosen), mean=mean, sd=sd,
     )
 
 
