@@ -13,6 +13,7 @@ from importlib.resources import files
 from typing import Any
 
 from . import __version__
+from .constants import INTERNATIONAL_VOLT_V
 from .model_choice import ModelComparison, comparison_record
 from .montecarlo import MonteCarloResult
 from .properties import derived_properties
@@ -20,6 +21,7 @@ from .reduce import Reduction
 from .report.cautions import cautions_for
 from .report.comparison import compare_with_published
 from .report.numbers import json_number
+from .runs import VOLT_UNITS
 from .thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
 
 RECORD_SCHEMA = "activolt-record/1"
@@ -166,10 +168,28 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         "published_comparison": [] if published is None else [
             {"molality_mol_kg": float(r.molality_mol_kg),
              "gamma_pm_published": json_number(r.gamma_pm_published),
-             "interpolated": bool(r.interpolated), "difference": json_number(r.difference)}
+             "interpolated": bool(r.interpolated), "difference": json_number(r.difference),
+             "n_sources": int(r.n_sources),
+             "published_values": [{"source": source, "gamma_pm": json_number(value),
+                                   "interpolated": not printed}
+                                  for source, value, printed in r.published_values],
+             "spread_published": json_number(r.spread_published),
+             "u_published": json_number(r.u_published),
+             "u_difference": json_number(r.u_difference),
+             "difference_over_u": json_number(r.difference_over_u)}
             for r in published.itertuples()
         ],
         "published_source": None if published is None else published["source"].iloc[0],
+        "published_comparison_method": None if published is None else (
+            "gamma_pm_published is the mean of every published table at the molality (each "
+            "printed there or interpolated within the table); spread_published = largest − "
+            "smallest of them; u_published = sqrt((spread/2)^2 + (half a unit of the last "
+            "printed digit)^2); u_difference = sqrt(u_gamma_pm^2 + u_published^2) (k = 1)"),
+        "volt_unit": {
+            "input": meta.volt_unit, "factor_to_absolute": VOLT_UNITS[meta.volt_unit],
+            "method": "EMF and u(EMF) multiplied by the factor on reading; 1 V_int = "
+                      f"{INTERNATIONAL_VOLT_V:.6f} V (US international volt, NBS Circular 459, "
+                      "1947)"},
         "derived_properties": {
             "method": "; ".join(properties.attrs.get("notes", [])),
             "points": [{k: json_number(v) if isinstance(v, float) else v

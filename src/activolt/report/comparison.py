@@ -1,4 +1,4 @@
-"""The run's γ± beside published values at the measured molalities."""
+"""The run's γ± beside published values at the measured molalities, with the tables' own spread."""
 
 from __future__ import annotations
 
@@ -6,35 +6,108 @@ import numpy as np
 import pandas as pd
 
 from ..reduce import Reduction
-from ..reference.published import interpolate_gamma, published_gamma
+from ..reference.published import published_consensus, published_gamma
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
-    """γ± of the run against the published table, or None when there is no table.
+    r"""γ± of the run against every published table, or None when there is none.
 
     Returns
     -------
     pandas.DataFrame or None
-        ``molality_mol_kg``, ``gamma_pm``, ``u_gamma_pm`` (the run), ``gamma_pm_published``
-        (tabulated, or interpolated between table entries: ``interpolated`` says which),
-        ``difference`` (run − published), ``source``.
+        One row per reading with γ±:
+
+        - ``molality_mol_kg``, ``gamma_pm``, ``u_gamma_pm`` (the run);
+        - ``gamma_pm_published``: the mean of the published tables at that molality, each
+          printed or interpolated within the table (NaN where none reaches);
+        - ``interpolated``: no table prints the molality;
+        - ``n_sources``: how many tables give a value there (0: only the mean of all tables
+          could be interpolated);
+        - ``published_values``: tuple of (source, γ±, printed) for each of those tables;
+        - ``spread_published``: largest − smallest of their values;
+        - ``u_published``: √((spread/2)² + (half a unit of the last printed digit)²);
+        - ``difference`` (run − published mean), ``u_difference`` (combined standard
+          uncertainty) and ``difference_over_u`` (their ratio);
+        - ``source``: every table compared with, joined by "; ".
+
+    Notes
+    -----
+    .. math:: u_c = \sqrt{u^2(γ_±) + u_{pub}^2}
+
+    with u(γ±) from the reduction (k = 1) and u_pub from
+    :func:`~activolt.reference.published.published_consensus`. A ratio |difference| / u_c up to
+    about 2 says the run and the tables agree within what both can tell; a much larger one is a
+    disagreement that the tables' own spread does not explain.
     """
     electrolyte = reduction.electrolyte
-    table = published_gamma(electrolyte.formula, reduction.temperature_K)
+    table = published_gamma(electrolyte.formula, reduction.temperature_K, all_sources=True)
     if table is None:
         return None
     points = reduction.points[reduction.points["gamma_pm"].notna()]
     m = points["molality_mol_kg"].to_numpy(float)
-    published = interpolate_gamma(table, m, electrolyte, reduction.temperature_K)
-    on_table = np.isclose(m[:, None], table["molality_mol_kg"].to_numpy(float)[None, :],
-                          rtol=1e-9, atol=0.0).any(axis=1)
-    sources = "; ".join(dict.fromkeys(table["source"]))
+    consensus = published_consensus(table, m, electrolyte, reduction.temperature_K)
+    gamma = points["gamma_pm"].to_numpy(float)
+    u_gamma = points["u_gamma_pm"].to_numpy(float)
+    published = consensus["gamma_pm"].to_numpy(float)
+    u_published = consensus["u_published"].to_numpy(float)
+    difference = gamma - published
+    u_difference = np.hypot(u_gamma, u_published)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
     return pd.DataFrame({
         "molality_mol_kg": m,
-        "gamma_pm": points["gamma_pm"].to_numpy(float),
-        "u_gamma_pm": points["u_gamma_pm"].to_numpy(float),
+        "gamma_pm": gamma,
+        "u_gamma_pm": u_gamma,
         "gamma_pm_published": published,
-        "interpolated": ~on_table,
-        "difference": points["gamma_pm"].to_numpy(float) - published,
-        "source": sources,
+        "interpolated": consensus["interpolated"].to_numpy(bool),
+        "n_sources": consensus["n_sources"].to_numpy(int),
+        "published_values": consensus["values"].tolist(),
+        "spread_published": consensus["spread"].to_numpy(float),
+        "u_published": u_published,
+        "difference": difference,
+        "u_difference": u_difference,
+        "difference_over_u": ratio,
+        "source": "; ".join(dict.fromkeys(table["source"])),
     })
+
+
+def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
+    """The comparison with published γ± as lines of the text report (empty without a table).
+
+    Each row shows the run's γ±, every published table's value (letters name the tables below
+    the rows; a value in parentheses is interpolated within its table), their mean and spread,
+    the run's difference from the mean and that difference in units of the combined standard
+    uncertainty u_c (see :func:`compare_with_published`).
+    """
+    from .numbers import decimals_for
+
+    if comparison is None or comparison["gamma_pm_published"].isna().all():
+        return []
+    sources = list(dict.fromkeys(
+        source for values in comparison["published_values"] for source, _, _ in values))
+    letters = {source: "abcdefghijklmnopqrstuvwxyz"[k] for k, source in enumerate(sources)}
+    rows = []
+    for _, row in comparison.iterrows():
+        if np.isnan(row["gamma_pm_published"]):
+            continue
+        places = max(3, decimals_for(row["u_gamma_pm"]))
+        shown = " ".join((f"{value:.3f}" if printed else f"({value:.4f})") + letters[source]
+                         for source, value, printed in row["published_values"]) or "—"
+        mean = f"{row['gamma_pm_published']:.4f}" + ("i" if row["interpolated"] else " ")
+        ratio = row["difference_over_u"]
+        mark = "  ← beyond 2 u_c" if abs(ratio) > 2.0 else ""
+        rows.append([f"{row['molality_mol_kg']:.6g}", f"{row['gamma_pm']:.{places}f}", shown,
+                     mean, f"{row['spread_published']:.4f}",
+                     f"{row['difference']:+.{places}f}", f"{ratio:+.1f}{mark}"])
+    header = ["m / (mol/kg)", "this run", "published", "mean", "spread", "difference",
+              "difference / u_c"]
+    widths = [max(len(r[i]) for r in [*rows, header]) for i in range(len(header))]
+    lines = ["", "  γ± against published values (k = 1; i = mean interpolated between the "
+                 "molalities the tables print)"]
+    for cells in [header, *rows]:
+        lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(cells, widths, strict=True)))
+                     .rstrip())
+    lines += [f"  {letters[s]}: {s}" for s in sources]
+    lines.append("  spread: largest − smallest of the tables' values (what the tables themselves "
+                 "disagree by); u_c = √(u²(γ±) + (spread/2)² + (half the last printed digit)²)")
+    return lines

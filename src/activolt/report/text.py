@@ -2,12 +2,10 @@
 
 from __future__ import annotations
 
-import math
-
 from ..montecarlo import MonteCarloResult
 from ..reduce import Reduction
 from .cautions import cautions_for
-from .comparison import compare_with_published
+from .comparison import compare_with_published, comparison_lines
 from .numbers import decimals_for, format_with_uncertainty
 
 
@@ -85,19 +83,7 @@ def format_report(reduction: Reduction) -> str:
         mark = "  ← stands out" if isinstance(row.get("diagnostic"), str) else ""
         lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['emf_V'] * 1e3:<10.3f}  "
                      f"{row['residual_V'] * 1e3:<+14.4f}  {gamma}{mark}")
-    comparison = compare_with_published(reduction)
-    if comparison is not None:
-        lines += ["", "  γ± against published values (i = interpolated between table entries)",
-                  "  m / (mol/kg)   this run   published   difference"]
-        for _, row in comparison.iterrows():
-            if math.isnan(row["gamma_pm_published"]):
-                continue
-            places = max(3, decimals_for(row["u_gamma_pm"]))
-            mark = "i" if row["interpolated"] else " "
-            lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['gamma_pm']:<9.{places}f}  "
-                         f"{row['gamma_pm_published']:<9.3f}{mark}  "
-                         f"{row['difference']:+.{places}f}")
-        lines.append(f"  published: {comparison['source'].iloc[0]}")
+    lines += comparison_lines(compare_with_published(reduction))
     from ..properties import derived_properties
 
     properties = derived_properties(reduction)
