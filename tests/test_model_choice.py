@@ -21,7 +21,7 @@ import pandas as pd
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt import model_choice
+from activolt import diagnostics, model_choice
 from activolt.electrolytes import nernst_factor, parse_electrolyte
 from activolt.errors import FitError, InputError
 from activolt.model_choice import (
@@ -88,7 +88,7 @@ def test_runs_test_one_sign_cannot_be_made():
 
 def test_runs_test_exact_probabilities_sum_to_one():
     # The exact distribution (Swed & Eisenhart 1943) over all R for n₊ = 7, n₋ = 5.
-    total = sum(math.exp(model_choice._log_run_probability(r, 7, 5)) for r in range(2, 13))
+    total = sum(math.exp(diagnostics.log_run_probability(r, 7, 5)) for r in range(2, 13))
     assert total == pytest.approx(1.0, abs=1e-12)
 
 
@@ -140,7 +140,11 @@ def test_nacl_hueckel_is_inadequate_and_warned(nacl):
     assert not hueckel.adequate
     assert hueckel.verdict.startswith("inadequate: ")
     assert any("Hückel equation stretched to I = 4 mol/kg" in r for r in hueckel.reasons)
-    assert any("χ²" in r for r in hueckel.reasons)  # 4 mol/kg is far beyond what it can fit
+    # Beyond its range the model fits only the readings within it and flags the others.
+    points = hueckel.reduction.points
+    assert points.loc[points["molality_mol_kg"] > 1.0, "flag"].str.startswith(
+        "beyond the model's range").all()
+    assert not hueckel.covers_run
     assert any(w.startswith("model hueckel") for w in comparison.warnings)
     assert "hueckel" not in comparison.adequate_models
 
@@ -150,16 +154,21 @@ def test_nacl_hueckel_alone_gives_no_recommendation(nacl):
     comparison = compare_models(run, ["hueckel"])
     assert comparison.recommended is None
     assert math.isnan(comparison.standard_potential_V) and math.isnan(comparison.u_combined_V)
-    assert any("no model is adequate" in w for w in comparison.warnings)
+    assert any("no model can describe this run" in w for w in comparison.warnings)
     assert "No model is adequate" in format_model_comparison(comparison)
 
 
-def test_nacl_one_adequate_model_gives_zero_model_component(nacl):
+def test_nacl_spread_includes_models_adequate_within_their_range(nacl):
+    """Pitzer alone covers NaCl to 4 mol/kg; the Hückel equation, adequate on the readings
+    within its range, estimates the same E° and so enters the model-choice spread."""
     _, _, comparison = nacl
     assert comparison.adequate_models == ("pitzer",)
-    assert comparison.spread_V == 0.0 and comparison.u_model_choice_V == 0.0
-    assert comparison.u_combined_V == comparison.u_fit_V
-    assert any("only one model" in n for n in comparison.notes)
+    within = [a for a in comparison.assessments if not a.covers_run and len(a.reasons) == 1]
+    e0s = [comparison.assessment("pitzer").standard_potential_V,
+           *[a.standard_potential_V for a in within]]
+    assert comparison.spread_V == pytest.approx(max(e0s) - min(e0s), abs=1e-15)
+    assert comparison.u_combined_V == pytest.approx(
+        math.hypot(comparison.u_fit_V, comparison.u_model_choice_V), rel=1e-12)
 
 
 def test_nacl_pitzer_beta2_held_by_convention(nacl):
@@ -170,14 +179,21 @@ def test_nacl_pitzer_beta2_held_by_convention(nacl):
 
 
 def test_without_stated_uncertainty_variance_ratio_judges(tmp_path):
-    run, _ = nacl_table_run(tmp_path, stated=False)
-    comparison = compare_models(run, ["hueckel", "pitzer"])
+    """NaCl to 3 mol/kg (I within the SIT range of 3.5 mol/kg) without stated u: SIT's single
+    ε leaves a residual variance many times Pitzer's (F-test)."""
+    table = published_gamma("NaCl", 298.15)
+    table = table[(table["molality_mol_kg"] >= 0.1) & (table["molality_mol_kg"] <= 3.0)]
+    m, gamma = table["molality_mol_kg"].to_numpy(), table["gamma_pm"].to_numpy()
+    emf = emf_from_gamma(m, gamma, E0_TRUTH_V, "NaCl")
+    emf = emf + np.random.default_rng(0).normal(0.0, 1e-5, m.size)
+    run = read_run(write_run(tmp_path, m, emf, electrolyte="NaCl"))
+    comparison = compare_models(run, ["sit", "pitzer"])
     pitzer_fit = comparison.assessment("pitzer")
     assert math.isnan(pitzer_fit.chi2_p_value)
     assert pitzer_fit.variance_ratio_p_value == 1.0 and pitzer_fit.adequate
-    hueckel = comparison.assessment("hueckel")
-    assert hueckel.variance_ratio_p_value < model_choice.VARIANCE_RATIO_P_MIN
-    assert any("F-test" in r for r in hueckel.reasons)
+    sit = comparison.assessment("sit")
+    assert sit.variance_ratio_p_value < model_choice.VARIANCE_RATIO_P_MIN
+    assert any("F-test" in r for r in sit.reasons)
     assert any("no stated uncertainty" in n for n in comparison.notes)
 
 
@@ -208,8 +224,8 @@ def test_spread_rule_and_combined_uncertainty(hcl_dilute):
     assert c.u_combined_V == pytest.approx(math.hypot(best.u_standard_potential_V,
                                                       c.u_model_choice_V), rel=1e-12)
     assert abs(c.standard_potential_V - E0_TRUTH_V) < 2.5 * c.u_combined_V
-    # The Davies equation has no free parameter and misses HCl at 0.5 mol/kg.
-    assert not c.assessment("davies").adequate
+    # The Davies equation has no free parameter and misses HCl at 0.5 mol/kg: refused.
+    assert "davies" in {s.name for s in c.skipped}
 
 
 def test_record_is_json_ready(hcl_dilute):
@@ -217,7 +233,9 @@ def test_record_is_json_ready(hcl_dilute):
     text = json.dumps(record, allow_nan=False)
     assert json.loads(text) == record
     assert record["recommended_model"] == hcl_dilute.recommended
-    assert [m["name"] for m in record["models"]] == list(MODELS)
+    fitted = [m["name"] for m in record["models"]]
+    refused = [m["name"] for m in record["skipped"]]
+    assert sorted(fitted + refused) == sorted(MODELS) and not set(fitted) & set(refused)
     assert record["standard_potential_V"]["uncertainty"] == pytest.approx(
         hcl_dilute.u_combined_V)
     assert set(record["models"][0]) >= {"standard_potential_V", "parameters", "fit",
@@ -237,7 +255,8 @@ def test_table_layout(hcl_dilute):
     shown = f"{recommended.standard_potential_V * 1e3:.{places}f} ± {u_mV:.{places}f}"
     assert shown in rows[hcl_dilute.recommended]
     assert " *" in rows[hcl_dilute.recommended]
-    assert "inadequate" in rows["davies"]
+    assert rows["davies"].rstrip().endswith("refused")
+    assert "davies: the Davies equation does not describe these readings" in text
     assert "GUM 4.3.7" in text and "Recommended:" in text
 
 
@@ -318,8 +337,9 @@ def test_a_model_that_cannot_be_fitted_is_skipped(nacl, monkeypatch):
     comparison = compare_models(run, ["sit", "pitzer"])
     assert [s.name for s in comparison.skipped] == ["sit"]
     assert "simulated" in comparison.skipped[0].reason
-    assert any("could not be fitted" in w for w in comparison.warnings)
-    assert "Not fitted:" in format_model_comparison(comparison)
+    assert any("was refused" in w for w in comparison.warnings)
+    assert "Refused (the model cannot give an honest E° for this run):" in format_model_comparison(
+        comparison)
     assert comparison.recommended == "pitzer"
     assert comparison_record(comparison)["skipped"][0]["name"] == "sit"
     with pytest.raises(FitError, match="no model could be fitted: sit"):

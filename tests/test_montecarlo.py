@@ -165,7 +165,8 @@ def test_linear_model_is_solved_in_one_step(tmp_path):
     result = monte_carlo(dilute, "limiting", trials=500, seed=0, reduction=reduction)
     # u(E°) of a weighted mean of four equal readings: u/2 (exact).
     assert result.standard_potential.standard_deviation == pytest.approx(U_EMF_V / 2, rel=0.1)
-    assert reduction.standard_potential.std_dev == pytest.approx(U_EMF_V / 2, rel=1e-6)
+    readings = {line.component: line.u_V for line in reduction.budget}["readings"]
+    assert readings == pytest.approx(U_EMF_V / 2, rel=1e-6)
 
 
 def test_one_by_one_path_agrees_with_the_vectorised_path(run, reduction, monkeypatch):

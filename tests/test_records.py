@@ -50,7 +50,7 @@ def test_record_contents(reduction):
     assert record["standard_pressure_kPa"] == 100.0
     e0 = record["standard_potential_V"]
     assert e0["value"] == pytest.approx(reduction.standard_potential.nominal_value)
-    assert e0["uncertainty"] > 0 and "not scaled" in e0["method"]
+    assert e0["uncertainty"] > 0 and reduction.statistics.covariance_note in e0["method"]
     assert len(record["points"]) == 8  # seven readings and the flagged row
     left_out = [p for p in record["points"] if not p["used_in_fit"]]
     assert len(left_out) == 1 and left_out[0]["emf_V"] is None

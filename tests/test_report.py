@@ -46,6 +46,6 @@ def test_report_text(tmp_path):
     assert format_with_uncertainty(reduction.standard_potential.nominal_value * 1e3, u_mV,
                                    "mV") in e0_line
     assert "basis p° = 100 kPa" in e0_line
-    assert "covariance not scaled" in text
+    assert reduction.statistics.covariance_note in text
     assert "against published values" in text and "Robinson & Stokes" in text
     assert "Hydrogen gas is flammable" in text

@@ -62,11 +62,11 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-import numpy.typing as npt
 
+from .diagnostics import RunsTest, runs_test
 from .errors import FitError, InputError
 from .models import MODELS, get_model
-from .reduce import FitStatistics, FittedParameter, Reduction, reduce_run
+from .reduce import OUT_OF_RANGE, FitStatistics, FittedParameter, Reduction, reduce_run
 from .report.numbers import json_number
 from .runs import Run, usable_points
 
@@ -91,42 +91,14 @@ VARIANCE_RATIO_P_MIN = 0.01
 #: A fit is inadequate when its residual signs form fewer runs than this lower-tail probability.
 RUNS_P_MIN = 0.05
 #: The rule for the model-choice component, as printed and recorded.
-MODEL_CHOICE_RULE = ("u_model = (max E° − min E°)/(2√3) over the adequate models: a rectangular "
-                     "distribution over their range (GUM 4.3.7); 0 with fewer than two")
+MODEL_CHOICE_RULE = ("u_model = (max E° − min E°)/(2√3) over the adequate models (or, when none "
+                     "is, those fitted over the whole run) and those adequate within their own "
+                     "ionic-strength range: a rectangular distribution over their range "
+                     "(GUM 4.3.7); 0 with fewer than two")
 #: The rule for the recommendation, as printed and recorded.
-RECOMMENDATION_RULE = "the adequate model with the lowest BIC"
-
-
-@dataclass(frozen=True)
-class RunsTest:
-    """Wald–Wolfowitz runs test of a sequence of signs.
-
-    Attributes
-    ----------
-    n_positive, n_negative : int
-        Numbers of positive and negative values (zeros are left out) [-].
-    runs : int
-        Number of runs (maximal blocks of one sign) [-].
-    expected_runs : float
-        Mean number of runs given the counts, 2 n₊ n₋ / n + 1 [-].
-    sd_runs : float
-        Its standard deviation [-].
-    z : float
-        (runs − expected)/sd, the normal approximation [-]; NaN when sd is 0.
-    p_value_two_sided : float
-        Exact two-sided probability, 2 min(P(R ≤ r), P(R ≥ r)), capped at 1 [-].
-    p_value_fewer : float
-        Exact lower-tail probability P(R ≤ r): too few runs, the sign of a systematic misfit [-].
-    """
-
-    n_positive: int
-    n_negative: int
-    runs: int
-    expected_runs: float
-    sd_runs: float
-    z: float
-    p_value_two_sided: float
-    p_value_fewer: float
+RECOMMENDATION_RULE = ("the adequate model with the lowest BIC; when none passes every "
+                       "criterion, the lowest-BIC model fitted over the whole run, with its lack "
+                       "of fit in u(E°)")
 
 
 @dataclass(frozen=True)
@@ -209,6 +181,12 @@ class ModelAssessment:
         return tuple(w for w in self.reduction.warnings if w not in run_warnings)
 
     @property
+    def covers_run(self) -> bool:
+        """Whether the model was fitted to every reading (none left out as beyond its range)."""
+        return self.max_ionic_strength_mol_kg <= self.model_max_ionic_strength_mol_kg * (
+            1.0 + 1e-9)
+
+    @property
     def verdict(self) -> str:
         """``"adequate"`` or ``"inadequate: <reasons>"``."""
         return "adequate" if self.adequate else "inadequate: " + "; ".join(self.reasons)
@@ -288,94 +266,25 @@ class ModelComparison:
         return None if self.recommended is None else self.assessment(self.recommended).reduction
 
 
-def _log_run_probability(runs: int, n1: int, n2: int) -> float:
-    """ln P(R = runs | n1, n2) for a random arrangement (Swed & Eisenhart 1943)."""
-    total = math.comb(n1 + n2, n1)
-    if runs % 2 == 0:
-        k = runs // 2
-        ways = 2 * math.comb(n1 - 1, k - 1) * math.comb(n2 - 1, k - 1)
-    else:
-        k = (runs - 1) // 2
-        ways = (math.comb(n1 - 1, k) * math.comb(n2 - 1, k - 1)
-                + math.comb(n1 - 1, k - 1) * math.comb(n2 - 1, k))
-    return -math.inf if ways == 0 else math.log(ways) - math.log(total)
-
-
-def runs_test(values: npt.ArrayLike) -> RunsTest:
-    r"""Wald–Wolfowitz runs test of the signs of a sequence.
-
-    Parameters
-    ----------
-    values : array_like
-        The sequence in its natural order (residuals ordered by molality) [any unit]. Zeros and
-        NaN are left out.
-
-    Returns
-    -------
-    RunsTest
-        Counts, runs, the normal-approximation z and the exact probabilities. With only one sign
-        present the test cannot be made: z and the probabilities are NaN.
-
-    Notes
-    -----
-    Given n₊ positive and n₋ negative values (n = n₊ + n₋), the number of runs R of a random
-    arrangement has
-
-    .. math:: μ_R = \frac{2 n_+ n_-}{n} + 1, \qquad
-              σ_R^2 = \frac{2 n_+ n_- (2 n_+ n_- − n)}{n^2 (n − 1)}
-
-    (Wald & Wolfowitz 1940). The probabilities are exact, from the distribution of R
-    (Swed & Eisenhart 1943): with k = R/2 for even R,
-    P(R) = 2 C(n₊−1, k−1) C(n₋−1, k−1) / C(n, n₊), and with k = (R−1)/2 for odd R,
-    P(R) = [C(n₊−1, k) C(n₋−1, k−1) + C(n₊−1, k−1) C(n₋−1, k)] / C(n, n₊).
-
-    References
-    ----------
-    .. [1] Wald, A. & Wolfowitz, J. (1940). Ann. Math. Statist. 11, 147–162.
-       https://doi.org/10.1214/aoms/1177731909
-    .. [2] Swed, F. S. & Eisenhart, C. (1943). Ann. Math. Statist. 14, 66–87.
-
-    Examples
-    --------
-    Four positive and four negative values in two blocks of two: R = 4 runs, μ_R = 5, and
-    P(R ≤ 4) = 26/70 (hand count over the C(8, 4) = 70 arrangements):
-
-    >>> t = runs_test([1, 1, -1, -1, 1, 1, -1, -1])
-    >>> t.runs, t.expected_runs, round(t.p_value_fewer, 4), round(26 / 70, 4)
-    (4, 5.0, 0.3714, 0.3714)
-    """
-    x = np.asarray(values, dtype=float).ravel()
-    signs = np.sign(x[np.isfinite(x) & (x != 0.0)])
-    n1 = int(np.sum(signs > 0))
-    n2 = int(np.sum(signs < 0))
-    n = n1 + n2
-    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n else 0
-    if n1 == 0 or n2 == 0:
-        return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=float(runs),
-                        sd_runs=0.0, z=math.nan, p_value_two_sided=math.nan,
-                        p_value_fewer=math.nan)
-    expected = 2.0 * n1 * n2 / n + 1.0
-    variance = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1)) if n > 1 else 0.0
-    sd = math.sqrt(variance)
-    z = (runs - expected) / sd if sd > 0.0 else math.nan
-    probabilities = {r: math.exp(_log_run_probability(r, n1, n2))
-                     for r in range(2, n + 1)}
-    fewer = min(1.0, sum(p for r, p in probabilities.items() if r <= runs))
-    more = min(1.0, sum(p for r, p in probabilities.items() if r >= runs))
-    return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=expected,
-                    sd_runs=sd, z=z, p_value_two_sided=min(1.0, 2.0 * min(fewer, more)),
-                    p_value_fewer=fewer)
-
-
 def _p(p: float) -> str:
     """A probability for a message: two significant digits, never a bare 0."""
     return f"= {p:.2g}" if p >= 1e-300 else "< 1e-300"
 
 
-def _residuals_by_molality(reduction: Reduction) -> np.ndarray:
+def _residuals_by_solution(reduction: Reduction) -> np.ndarray:
+    """Mean residual of each solution (readings at one molality), in order of molality."""
     points = reduction.points[reduction.points["flag"].isna()]
-    order = np.lexsort((points["line"].to_numpy(), points["molality_mol_kg"].to_numpy(float)))
-    return points["residual_V"].to_numpy(float)[order]
+    return points.groupby("molality_mol_kg", sort=True)["residual_V"].mean().to_numpy(float)
+
+
+def _run_range_mol_kg(reduction: Reduction) -> float:
+    """Largest ionic strength among the run's readings the user left in [mol kg⁻¹] (those a
+    model left out as beyond its range included)."""
+    points = reduction.points
+    flags = points["flag"]
+    kept = flags.isna() | flags.astype(str).str.startswith(OUT_OF_RANGE)
+    molality = points.loc[kept, "molality_mol_kg"].to_numpy(float)
+    return float(reduction.electrolyte.ionic_strength(molality).max())
 
 
 def _assess(reduction: Reduction, stated: bool
@@ -392,7 +301,7 @@ def _assess(reduction: Reduction, stated: bool
         if chi2_p < CHI2_P_MIN:
             reasons.append(f"χ² = {st.chi2:.3g} with {st.dof} degrees of freedom is improbable "
                            f"for the stated reading uncertainties (p {_p(chi2_p)})")
-    runs = runs_test(_residuals_by_molality(reduction))
+    runs = runs_test(_residuals_by_solution(reduction))
     if math.isfinite(runs.p_value_fewer) and runs.p_value_fewer < RUNS_P_MIN:
         reasons.append(f"the residuals run in {runs.runs} blocks of one sign where "
                        f"{runs.expected_runs:.1f} are expected (runs test p = "
@@ -402,10 +311,7 @@ def _assess(reduction: Reduction, stated: bool
         notes.append(f"the residual signs alternate more often than chance allows ({runs.runs} "
                      f"runs, {runs.expected_runs:.1f} expected, p = "
                      f"{runs.p_value_two_sided:.2g}); look at the order of the measurements")
-    electrolyte = reduction.electrolyte
-    usable = usable_points(reduction.run)
-    max_ionic = float(electrolyte.ionic_strength(
-        usable["molality_mol_kg"].to_numpy(float)).max())
+    max_ionic = _run_range_mol_kg(reduction)
     if max_ionic > model.max_ionic_strength * (1.0 + 1e-9):
         reasons.append(f"the {model.title} stretched to I = {max_ionic:.3g} mol/kg (commonly "
                        f"adequate to {model.max_ionic_strength:g} mol/kg)")
@@ -478,14 +384,15 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
 
     Examples
     --------
-    The shipped demo run (HCl to 1 mol/kg, 25 °C): the Davies equation is used beyond the
-    0.5 mol/kg where it is commonly adequate, and u_model follows the stated rule:
+    The shipped demo run (HCl to 1 mol/kg, 25 °C): the Davies equation, commonly adequate to
+    0.5 mol/kg, cannot cover the run (fitted within its range, or refused), and u_model follows
+    the stated rule:
 
     >>> from importlib.resources import files
     >>> from activolt.runs import read_run
     >>> c = compare_models(read_run(files("activolt") / "sample_data" / "kestrel_hcl_25C.csv"),
     ...                    ["davies", "hueckel", "pitzer"])
-    >>> c.assessment("davies").verdict.endswith("(commonly adequate to 0.5 mol/kg)")
+    >>> "davies" in {s.name for s in c.skipped} or not c.assessment("davies").covers_run
     True
     >>> bool(abs(c.u_model_choice_V - c.spread_V / (2 * 3**0.5)) < 1e-15)
     True
@@ -527,28 +434,37 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
             warnings.append(f"model {a.name} ({a.title}) is inadequate for this run: "
                             + "; ".join(a.reasons))
     for s in skipped:
-        warnings.append(f"model {s.name} ({s.title}) could not be fitted: {s.reason}")
+        warnings.append(f"model {s.name} ({s.title}) was refused: {s.reason}")
     if not stated:
         notes.append("the readings carry no stated uncertainty: χ² cannot be judged absolutely; "
                      "each fit's residual variance is compared with the smallest (F-test)")
 
     adequate = [a for a in assessments if a.adequate]
-    if adequate:
-        e0s = [a.standard_potential_V for a in adequate]
-        spread = max(e0s) - min(e0s) if len(adequate) > 1 else 0.0
+    basis = adequate or [a for a in assessments if a.covers_run]
+    if basis and not adequate:
+        notes.append("no model passes every criterion strictly: the recommendation is the model "
+                     "of lowest BIC among those fitted over the whole run, its u(E°) carrying its "
+                     "lack of fit (Birge ratio) and the model-choice spread of those models")
+    if basis:
+        # Models adequate over the part of the run within their range estimate the same E°:
+        # their spread is part of the model choice too.
+        within = [a for a in assessments if not a.covers_run and len(a.reasons) == 1]
+        e0s = [a.standard_potential_V for a in (*basis, *within)]
+        spread = max(e0s) - min(e0s) if len(e0s) > 1 else 0.0
         u_model = spread / (2.0 * math.sqrt(3.0))
-        if len(adequate) == 1:
-            notes.append(f"only one model ({adequate[0].name}) is adequate: the run cannot show "
-                         "how much the choice of model moves E°; the model-choice component is 0")
-        best = min(adequate, key=lambda a: a.statistics.bic)
+        if len(basis) == 1:
+            notes.append(f"only one model ({basis[0].name}) is usable: the run cannot show how "
+                         "much the choice of model moves E°; the model-choice component is 0")
+        best = min(basis, key=lambda a: a.statistics.bic)
         recommended: str | None = best.name
         e0, u_fit = best.standard_potential_V, best.u_standard_potential_V
         u_combined = math.hypot(u_fit, u_model)
     else:
         spread, u_model, recommended = math.nan, math.nan, None
         e0 = u_fit = u_combined = math.nan
-        warnings.append("no model is adequate for this run: no E° is recommended; restrict the "
-                        "molality range, check the readings, or state their uncertainties")
+        warnings.append("no model can describe this run over its whole range (each was refused "
+                        "or reaches beyond its range; see above): no E° is recommended; restrict "
+                        "the molality range or check the readings")
     return ModelComparison(
         electrolyte=run.metadata.electrolyte.formula,
         temperature_K=float(np.mean(usable_points(run)["temperature_K"].to_numpy(float))),

@@ -49,9 +49,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     """
     run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
     e0 = reduction.standard_potential
-    covariance_note = ("linear propagation of the fit covariance, "
-                       + ("scaled by the reduced χ² (unit weights)" if stats.covariance_scaled
-                          else "from the stated reading uncertainties, not scaled"))
+    covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
     metadata_info: dict[str, Any] = {}
     if run.metadata_path is not None:
         metadata_info = {
@@ -154,7 +152,10 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "chi2": stats.chi2, "reduced_chi2": stats.reduced_chi2, "aic": stats.aic,
             "bic": stats.bic, "residual_sd_V": stats.residual_sd_V,
             "covariance_scaled": stats.covariance_scaled,
-            "weighting": ("stated reading uncertainties" if not stats.covariance_scaled
+            "birge_ratio": stats.birge_ratio,
+            "chi2_p_value": json_number(stats.chi2_p_value),
+            "runs_test_p_value": json_number(stats.runs_p_value),
+            "weighting": ("stated reading uncertainties" if stats.stated_uncertainty
                           else "unit weights"),
         },
         "cross_check": None if cross is None else {

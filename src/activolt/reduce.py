@@ -56,6 +56,28 @@ MAX_RELATIVE_UNCERTAINTY = 0.5
 #: Ionic strength up to which the Hitchcock-type cross-check uses points [mol kg⁻¹].
 LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH = 0.1
 _MIN_POINTS = 3
+#: With stated reading uncertainties, a fit whose χ² has an upper-tail probability below this
+#: shows lack of fit: its covariance is scaled by the reduced χ² (the square of the Birge ratio
+#: R_B = √χ²ᵣ; Birge 1932, Phys. Rev. 40, 207) and the coverage factor taken from Student's t
+#: with the fit's degrees of freedom — the readings scatter more than stated, and the answer
+#: says so instead of quoting the stated precision.
+LACK_OF_FIT_P = 0.05
+#: A fit is refused as a systematic misfit when the mean residuals of its solutions, in order of
+#: molality, form fewer runs of one sign than chance allows (Wald–Wolfowitz) or follow each other
+#: (lag-1 serial correlation, permutation test) — the smaller p below this — and — with stated
+#: reading uncertainties — its χ² is improbable (p below :data:`SYSTEMATIC_CHI2_P`): scaling
+#: the covariance cannot cover a bias that the model builds into E°.
+SYSTEMATIC_RUNS_P = 0.05
+#: See :data:`SYSTEMATIC_RUNS_P`.
+SYSTEMATIC_CHI2_P = 0.01
+#: Without stated reading uncertainties the size of the misfit cannot be judged; the runs test
+#: alone refuses the fit below this lower-tail probability.
+SYSTEMATIC_RUNS_P_UNIT_WEIGHTS = 0.01
+#: A held convention must agree with what the data say within this many combined standard
+#: uncertainties (about 95 %); one the data contradict is not held (common practice).
+CONVENTION_AGREEMENT = 2.0
+#: Flag of readings beyond the ionic strength up to which a model is commonly adequate.
+OUT_OF_RANGE = "beyond the model's range"
 
 
 @dataclass(frozen=True)
@@ -81,7 +103,10 @@ class FitStatistics:
 
     ``chi2`` is Σ((E_i − Ê_i)/u_i)² when readings carry stated uncertainties (dimensionless),
     otherwise Σ(E_i − Ê_i)² [V²]; ``covariance_scaled`` says whether the covariance was multiplied
-    by the reduced χ² (unit weights) or not (stated uncertainties).
+    by the reduced χ²: always with unit weights, and with stated uncertainties when the fit shows
+    lack of fit (``birge_ratio`` = √χ²ᵣ > 1, see :data:`LACK_OF_FIT_P`). ``chi2_p_value`` is the
+    upper-tail probability of χ² (NaN without stated uncertainties); ``runs_p_value`` the
+    lower-tail probability of the runs test of the residual signs in order of molality.
     """
 
     n_points: int
@@ -94,6 +119,22 @@ class FitStatistics:
     residual_sd_V: float
     covariance_scaled: bool
     coverage_factor: float
+    stated_uncertainty: bool = False
+    birge_ratio: float = 1.0
+    chi2_p_value: float = math.nan
+    runs_p_value: float = math.nan
+
+    @property
+    def covariance_note(self) -> str:
+        """How the covariance was obtained, in words, for reports and records."""
+        if not self.stated_uncertainty:
+            return (f"unit weights; covariance scaled by the reduced χ² "
+                    f"(residual s.d. {self.residual_sd_V * 1e3:.3g} mV)")
+        if self.birge_ratio > 1.0:
+            return (f"weights from the stated reading uncertainties; lack of fit (χ² p = "
+                    f"{self.chi2_p_value:.2g}): covariance scaled by the reduced χ², "
+                    f"Birge ratio {self.birge_ratio:.3g}, coverage factor from Student's t")
+        return "weights from the stated reading uncertainties; covariance not scaled"
 
 
 @dataclass(frozen=True)
@@ -411,8 +452,9 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
     """The free parameter to hold next, and why, or None.
 
     A parameter whose conventional value carries a stated uncertainty is held when the data
-    determine it less precisely than the convention does (u_fit > u_conv): the more precise
-    source wins, and the convention's uncertainty then enters as a Type B component. Any other
+    determine it less precisely than the convention does (u_fit > u_conv) and agree with it
+    (within :data:`CONVENTION_AGREEMENT` combined u): the more precise source wins, and the
+    convention's uncertainty then enters as a Type B component. Any other
     parameter is held when holding it at its conventional value gives a BIC no higher than
     fitting it; among several, the one with the lowest BIC, non-linear parameters first on a tie
     (backward elimination; Burnham & Anderson 2002, §3.4).
@@ -425,7 +467,13 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
         u_fit = math.sqrt(fit.covariance[index, index])
         if spec.conventional_uncertainty is not None:
             u_conv = spec.conventional_uncertainty(electrolyte, data.constants)
-            if u_fit > u_conv and (best_convention is None or u_fit / u_conv > best_convention[0]):
+            # A convention the data contradict (beyond 3 combined u, the fit's u widened by any
+            # excess scatter) is not held: the readings, not the convention, then decide.
+            excess = math.sqrt(max(1.0, fit.chi2 / fit.dof)) if data.stated_uncertainty else 1.0
+            agrees = abs(fit.values[name] - conventional) <= CONVENTION_AGREEMENT * math.hypot(
+                u_fit * excess, u_conv)
+            if agrees and u_fit > u_conv and (best_convention is None
+                                              or u_fit / u_conv > best_convention[0]):
                 best_convention = (u_fit / u_conv, name, (
                     f"the convention {conventional:.4g} ± {u_conv:.2g} {spec.unit} is more "
                     f"precise than these data ({fit.values[name]:.3g} ± {u_fit:.2g})"))
@@ -474,6 +522,111 @@ def _linear_extrapolation(run: Run, data: _Data, slope: float) -> LinearExtrapol
         max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH,
     )
 
+
+def _within_range(run: Run, family: ActivityModel) -> tuple[Run, str | None]:
+    """The run with readings beyond the model's ionic-strength range flagged and left out, and a
+    warning saying so; FitError when fewer than three readings remain within it."""
+    usable = run.points["flag"].isna().to_numpy()
+    ionic = run.metadata.electrolyte.ionic_strength(run.points["molality_mol_kg"].to_numpy(float))
+    limit = family.max_ionic_strength
+    beyond = usable & (ionic > limit * (1.0 + 1e-9))
+    if not beyond.any():
+        return run, None
+    kept = int(usable.sum() - beyond.sum())
+    if kept < _MIN_POINTS:
+        raise FitError(f"the {family.title} is commonly adequate up to I = {limit:g} mol/kg and "
+                       f"only {kept} reading(s) lie within it; choose a model for higher ionic "
+                       "strength (pitzer, sit) or compare all models")
+    points = run.points.copy()
+    points.loc[beyond, "flag"] = (f"{OUT_OF_RANGE}: I > {limit:g} mol/kg, where the "
+                                  f"{family.title} is commonly adequate")
+    return dataclasses.replace(run, points=points), (
+        f"the {family.title} is commonly adequate up to I = {limit:g} mol/kg: only the {kept} "
+        f"readings within it are fitted, {int(beyond.sum())} beyond it are flagged and left out "
+        "(choose pitzer, or compare all models, to use the whole run)")
+
+
+def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: _Data,
+                       fit: _Fit) -> np.ndarray | None:
+    """How (E°, free parameters) would move if the readings followed the model plus the term it
+    leaves out (:attr:`ActivityModel.truncation`): δp = S δE, δE = −σ s k Δln γ± (first order);
+    None for models without such a term."""
+    if family.truncation is None:
+        return None
+    model_values = {name: fit.values[name] for name in family.parameter_names}
+    delta = family.truncation(electrolyte, data.molality, data.constants, model_values)
+    slope = fit.values.get(SLOPE, data.slope)
+    return sensitivity_matrix(fit.jacobian, data.weights) @ (
+        -data.sign * slope * data.nernst_V * delta)
+
+def _solution_means(data: _Data, fit: _Fit) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(molality, weighted mean residual [V], summed weight) of each solution: readings at one
+    molality are replicates of one solution and share its preparation error."""
+    molality, group = np.unique(data.molality, return_inverse=True)
+    weight = np.bincount(group, weights=data.weights)
+    mean = np.bincount(group, weights=data.weights * fit.residual_V) / weight
+    return molality, mean, weight
+
+
+def _judge_fit(family: ActivityModel, data: _Data, fit: _Fit
+               ) -> tuple[float, int, float, float]:
+    """(Birge ratio, its degrees of freedom, χ² p-value, runs-test p-value) of the final fit.
+
+    Lack of fit is judged twice: over the readings (χ² = Σ w r², ν = N − P) and, when solutions
+    were read more than once, over the solutions (χ²_s = Σ_j W_j r̄_j², ν_s = J − P, r̄_j the
+    weighted mean residual of solution j and W_j its summed weight), because replicate readings
+    share their solution's error and would hide it from the first test. Each reduced χ² is taken
+    relative to the scale the covariance already has (1 with stated u(EMF), χ²ᵣ with unit
+    weights); a significant excess (p < :data:`LACK_OF_FIT_P`) gives the Birge ratio
+    R_B = √(largest excess), else 1. The runs test of the solutions' mean residual signs in
+    order of molality, with a significant χ² (:data:`SYSTEMATIC_RUNS_P`), refuses the fit with a
+    FitError: a systematic misfit biases E° in a way no scaling covers.
+    """
+    from scipy.special import chdtrc
+
+    from .diagnostics import runs_test, serial_correlation_test
+
+    n_free = 1 + len(fit.free)
+    _, mean, weight = _solution_means(data, fit)
+    runs = runs_test(mean)
+    runs_p = runs.p_value_fewer
+    rho, serial_p = serial_correlation_test(mean * np.sqrt(weight))
+    order_p = min(runs_p if math.isfinite(runs_p) else 1.0,
+                  serial_p if math.isfinite(serial_p) else 1.0)
+    scale = 1.0 if data.stated_uncertainty else fit.chi2 / fit.dof
+    reduced = fit.chi2 / fit.dof / scale
+    chi2_p = float(chdtrc(fit.dof, fit.chi2 / scale)) if fit.dof > 0 else math.nan
+    candidates = []
+    if data.stated_uncertainty and chi2_p < LACK_OF_FIT_P and reduced > 1.0:
+        candidates.append((reduced, fit.dof))
+    dof_solutions = mean.size - n_free
+    solutions_p = math.nan
+    if mean.size < data.molality.size and dof_solutions >= 1:
+        chi2_solutions = float(np.sum(weight * mean**2)) / scale
+        solutions_p = float(chdtrc(dof_solutions, chi2_solutions))
+        if solutions_p < LACK_OF_FIT_P and chi2_solutions / dof_solutions > 1.0:
+            candidates.append((chi2_solutions / dof_solutions, dof_solutions))
+    significant = min(chi2_p if data.stated_uncertainty else 1.0,
+                      solutions_p if math.isfinite(solutions_p) else 1.0)
+    if data.stated_uncertainty or math.isfinite(solutions_p):
+        systematic = order_p < SYSTEMATIC_RUNS_P and significant < SYSTEMATIC_CHI2_P
+    else:
+        systematic = order_p < SYSTEMATIC_RUNS_P_UNIT_WEIGHTS
+    if systematic:
+        size = (f"reduced χ² = {reduced:.3g} against the stated u(EMF)"
+                if data.stated_uncertainty else
+                f"residual s.d. {math.sqrt(fit.chi2 / fit.dof) * 1e3:.3g} mV")
+        raise FitError(
+            f"the {family.title} does not describe these readings: the residuals of the "
+            f"solutions follow each other in {runs.runs} runs of one sign where "
+            f"{runs.expected_runs:.1f} are expected (runs test p = {runs_p:.2g}; serial "
+            f"correlation {rho:.2f}, p = {serial_p:.2g}), {size}; its E° would carry a bias "
+            "that no uncertainty here covers — choose another model (pitzer), a narrower molality "
+            "range, or compare all models")
+    if not candidates:
+        return 1.0, fit.dof, chi2_p, runs_p
+    excess, dof = max(candidates)
+    return math.sqrt(excess), dof, chi2_p, runs_p
 
 def reduce_run(run: Run, model: str = "hueckel",
                fixed: Mapping[str, float] | None = None,
@@ -524,6 +677,7 @@ def reduce_run(run: Run, model: str = "hueckel",
             raise InputError(f"model '{family.name}' has no parameter '{name}'; it has: "
                              f"{', '.join(p.name for p in specs) or 'none'}", column="--fix")
 
+    run, range_warning = _within_range(run, family)
     data = _prepare(run)
     n = len(data.emf_V)
     if n < _MIN_POINTS:
@@ -535,7 +689,7 @@ def reduce_run(run: Run, model: str = "hueckel",
     if spread > MAX_TEMPERATURE_SPREAD_K:
         raise InputError(f"the readings span {spread:.2f} K; one E° needs one temperature "
                          "(within 2 K): split the run by temperature", file=str(run.path))
-    warnings = list(run.warnings)
+    warnings = list(run.warnings) + ([range_warning] if range_warning else [])
     notes: list[str] = []
     if spread > 0.2:
         warnings.append(f"the readings span {spread:.2f} K; ln γ± uses each row's temperature, "
@@ -592,6 +746,20 @@ def reduce_run(run: Run, model: str = "hueckel",
         notes.append(f"holding {', '.join(n for n in reasons if n not in fixed)} moved E° by "
                      f"{shift_mV:+.3f} mV from the fit with every parameter free")
 
+    birge, birge_dof, chi2_p, runs_p = _judge_fit(family, data, fit)
+    if birge > 1.0:
+        # The stated u(EMF) are contradicted by the scatter: every reading's variance (and so
+        # the covariance, the budget and the γ± uncertainties) is scaled by χ²ᵣ.
+        data = dataclasses.replace(
+            data, weights=data.weights / birge**2,
+            u_emf_V=None if data.u_emf_V is None else data.u_emf_V * birge)
+        fit.covariance = fit.covariance * birge**2
+        warnings.append(
+            f"the readings or solutions scatter about the {family.title} more than "
+            + ("their stated u(EMF) allow" if data.stated_uncertainty else
+               "replicate readings of one solution do")
+            + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
+
     effects = _held_parameter_effects(family, electrolyte, data, fit,
                                       [n for n in reasons if n not in fixed])
     type_b = None
@@ -609,32 +777,22 @@ def reduce_run(run: Run, model: str = "hueckel",
             f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
             "conventional value(s) (GUM Type B)")
 
+    truncation = _truncation_effect(family, electrolyte, data, fit)
+    if truncation is not None:
+        fit.covariance = fit.covariance + np.outer(truncation, truncation)
+        notes.append(f"u(E°) includes {abs(truncation[0]) * 1e3:.3g} mV for the terms the "
+                     f"{family.title} leaves out (extended Debye–Hückel with Bå = 1.5; GUM "
+                     "Type B)")
+
     common = _common_input_effects(run, family, electrolyte, data, fit)
     for _, u, moves, _ in common:
         fit.covariance = fit.covariance + np.outer(moves, moves) * u**2
     if effects is not None:
         uncertain_covariance = np.block([[fit.covariance, cross],
                                          [cross.T, np.diag(variances)]])
-    budget = _budget(run, data, fit, type_b, common)
+    budget = _budget(run, data, fit, type_b, common, birge, truncation)
 
-    max_ionic = float(electrolyte.ionic_strength(data.molality).max())
-    if max_ionic > family.max_ionic_strength:
-        warnings.append(
-            f"the {family.title} is used up to I = {max_ionic:.3g} mol/kg, beyond the "
-            f"{family.max_ionic_strength:g} mol/kg where it is commonly adequate; "
-            "try another model"
-        )
-    stats = _statistics(fit, data)
-    if data.stated_uncertainty and stats.dof >= 3:
-        from scipy import stats as sps
-
-        p_value = float(sps.chi2.sf(fit.chi2, stats.dof))
-        if p_value < 0.01 or p_value > 0.99:
-            warnings.append(
-                f"reduced χ² = {stats.reduced_chi2:.3g} with {stats.dof} degrees of freedom is "
-                "inconsistent with the stated reading uncertainties "
-                f"(p = {p_value:.2g}); check u(EMF) or the model"
-            )
+    stats = _statistics(fit, data, birge, birge_dof, chi2_p, runs_p)
 
     if effects is None:
         uncertain_covariance = fit.covariance
@@ -708,14 +866,18 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
 
 
 def _budget(run: Run, data: _Data, fit: _Fit, type_b: np.ndarray | None,
-            common: list[tuple[str, float, np.ndarray, np.ndarray]]) -> tuple[BudgetLine, ...]:
+            common: list[tuple[str, float, np.ndarray, np.ndarray]],
+            birge: float = 1.0, truncation: np.ndarray | None = None
+            ) -> tuple[BudgetLine, ...]:
     """Contributions to u(E°), each as the standard uncertainty it alone gives E°."""
     s = sensitivity_matrix(fit.jacobian, data.weights)[0]
     lines = []
     if data.stated_uncertainty:
         reading = float(np.sqrt(np.sum(s**2 * data.u_emf_V**2)))
         lines.append(BudgetLine("readings", reading, "stated u(EMF) of each reading, through "
-                                "the fit (linear propagation)"))
+                                "the fit (linear propagation)" + (
+                                    f", scaled by the Birge ratio {birge:.3g} for lack of fit"
+                                    if birge > 1.0 else "")))
         molality_var = np.maximum(1.0 / data.weights - data.u_emf_V**2, 0.0)
         if np.any(molality_var > 0):
             lines.append(BudgetLine("molalities", float(np.sqrt(np.sum(s**2 * molality_var))),
@@ -732,6 +894,10 @@ def _budget(run: Run, data: _Data, fit: _Fit, type_b: np.ndarray | None,
         lines.append(BudgetLine("held conventional values", float(np.sqrt(type_b[0, 0])),
                                 "uncertainty of the conventions at which undetermined "
                                 "parameters were held (Type B)"))
+    if truncation is not None:
+        lines.append(BudgetLine("terms the model leaves out", float(abs(truncation[0])),
+                                "E° shift the next (extended Debye–Hückel, Bå = 1.5) term "
+                                "would cause, taken as a standard uncertainty (Type B)"))
     for name, u, moves, _ in common:
         lines.append(BudgetLine(name, float(abs(moves[0]) * u),
                                 f"stated u = {u:g} {'K' if name == 'temperature' else 'Pa'}, "
@@ -836,14 +1002,18 @@ def _corrections_summary(run: Run, data: _Data, temperature_K: float
     return tuple(lines), (other, shift)
 
 
-def _statistics(fit: _Fit, data: _Data) -> FitStatistics:
+def _statistics(fit: _Fit, data: _Data, birge: float, birge_dof: int, chi2_p: float,
+                runs_p: float) -> FitStatistics:
     n = len(data.emf_V)
+    scaled = not data.stated_uncertainty or birge > 1.0
     return FitStatistics(
         n_points=n, n_free=1 + len(fit.free), dof=fit.dof, chi2=fit.chi2,
         reduced_chi2=fit.chi2 / fit.dof, aic=fit.aic, bic=fit.bic,
         residual_sd_V=float(math.sqrt(np.sum(fit.residual_V**2) / fit.dof)),
-        covariance_scaled=not data.stated_uncertainty,
-        coverage_factor=student_t_factor(0 if data.stated_uncertainty else fit.dof),
+        covariance_scaled=scaled,
+        coverage_factor=student_t_factor(min(fit.dof, birge_dof) if scaled else 0),
+        stated_uncertainty=data.stated_uncertainty, birge_ratio=birge, chi2_p_value=chi2_p,
+        runs_p_value=runs_p,
     )
 
 

@@ -84,6 +84,10 @@ class ActivityModel:
         φ [-].
     max_ionic_strength : float
         Ionic strength up to which the family is commonly considered adequate [mol kg⁻¹].
+    truncation : ModelFunction or None
+        For a model without adjustable parameters that leaves out a known next term: ln γ± of
+        that term at a typical size. The reduction counts the E° shift it would cause as a
+        standard uncertainty (GUM Type B); None when the model's parameters absorb it.
     """
 
     name: str
@@ -92,6 +96,7 @@ class ActivityModel:
     ln_gamma: ModelFunction
     osmotic_coefficient: ModelFunction
     max_ionic_strength: float
+    truncation: ModelFunction | None = None
 
     @property
     def parameter_names(self) -> tuple[str, ...]:

@@ -39,6 +39,27 @@ def osmotic_coefficient(
     return 1.0 - electrolyte.charge_product * constants.aphi * sqrt_i
 
 
+def truncation(
+    electrolyte: Electrolyte,
+    molality: np.ndarray,
+    constants: DebyeHueckelConstants,
+    parameters: Mapping[str, float],
+) -> np.ndarray:
+    r"""ln γ± of the term the limiting law leaves out, at the size of common ion sizes [-].
+
+    .. math:: Δ\ln γ_± = |z_+ z_−| A_γ \sqrt{I}\,\frac{Bå\sqrt{I}}{1 + Bå\sqrt{I}},
+              \qquad Bå = 1.5\ \mathrm{kg^{1/2}\,mol^{-1/2}}
+
+    the difference between the extended Debye–Hückel term with the Bates–Guggenheim Bå
+    (å ≈ 4.6 Å, typical of the ions of common salts; Bates & Guggenheim 1960, Pure Appl. Chem.
+    1, 163) and the limiting law.
+    """
+    sqrt_i = np.sqrt(electrolyte.ionic_strength(molality))
+    ba = 1.5
+    return (electrolyte.charge_product * constants.agamma * sqrt_i
+            * ba * sqrt_i / (1.0 + ba * sqrt_i))
+
+
 MODEL = ActivityModel(
     name="limiting",
     title="Debye–Hückel limiting law",
@@ -46,4 +67,5 @@ MODEL = ActivityModel(
     ln_gamma=ln_gamma,
     osmotic_coefficient=osmotic_coefficient,
     max_ionic_strength=0.01,
+    truncation=truncation,
 )

@@ -75,6 +75,7 @@ def format_model_comparison(comparison: ModelComparison) -> str:
             _general(rt.p_value_fewer),
             "adequate" if a.adequate else "inadequate",
         ))
+    rows += [(s.name, "—", "—", "—", "—", "—", "—", "—", "—", "refused") for s in c.skipped]
     widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header))]
     right = {2, 3, 4, 5, 6, 7, 8}
 
@@ -96,14 +97,20 @@ def format_model_comparison(comparison: ModelComparison) -> str:
         lines += ["", "Why inadequate:"]
         lines += [f"  {a.name}: {'; '.join(a.reasons)}" for a in inadequate]
     if c.skipped:
-        lines += ["", "Not fitted:"]
+        lines += ["", "Refused (the model cannot give an honest E° for this run):"]
         lines += [f"  {s.name}: {s.reason}" for s in c.skipped]
     lines.append("")
     if c.recommended is None:
         lines.append("No model is adequate for this run; no E° is recommended.")
     else:
         adequate = ", ".join(c.adequate_models)
-        if len(c.adequate_models) > 1:
+        if not c.adequate_models:
+            places = decimals_for(c.u_model_choice_V * 1e3) if c.u_model_choice_V > 0 else 3
+            u_model = f"{c.u_model_choice_V * 1e3:.{places}f} mV"
+            lines.append("No model passes every criterion strictly; the models fitted over the "
+                         f"whole run spread E° by {c.spread_V * 1e3:.{places}f} mV; "
+                         f"model-choice component u_model = {u_model}")
+        elif len(c.adequate_models) > 1:
             places = decimals_for(c.u_model_choice_V * 1e3)
             u_model = f"{c.u_model_choice_V * 1e3:.{places}f} mV"
             lines.append(f"Adequate models: {adequate}; spread of E° "

@@ -54,10 +54,7 @@ def format_report(reduction: Reduction) -> str:
         shown = format_with_uncertainty(p.value, p.uncertainty, p.unit)
         lines.append(f"  {p.symbol} = {shown}" + (f" — {p.reason}" if p.fixed and p.reason
                                                    else ""))
-    weighting = ("weights from the stated reading uncertainties; covariance not scaled"
-                 if not stats.covariance_scaled else
-                 "unit weights; covariance scaled by the reduced χ² "
-                 f"(residual s.d. {stats.residual_sd_V * 1e3:.3g} mV)")
+    weighting = stats.covariance_note
     lines += [
         f"  fit: χ² = {stats.chi2:.4g}, reduced χ² = {stats.reduced_chi2:.3g}, "
         f"{stats.dof} degrees of freedom, AIC = {stats.aic:.1f}, BIC = {stats.bic:.1f}",
