@@ -255,6 +255,14 @@ def osmotic_coefficient(
     )
 
 
+def _published_epsilon(electrolyte: Electrolyte) -> tuple[float, float, str] | None:
+    """ε of the electrolyte's ion pair with the ions' charges, so that an ion with several
+    oxidation states (Cu⁺, Cu²⁺) never takes another state's value."""
+    cation = f"{electrolyte.cation} {electrolyte.z_cation}+"
+    anion = f"{electrolyte.anion} {-electrolyte.z_anion}-"
+    return sit_epsilon(cation, anion)
+
+
 def conventional_epsilon(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
     """The published ε(cation, anion) at 25 °C for the electrolyte's ion pair, else 0 [kg mol⁻¹].
 
@@ -279,7 +287,7 @@ def conventional_epsilon(electrolyte: Electrolyte, constants: DebyeHueckelConsta
     >>> conventional_epsilon(parse_electrolyte("HCl"), c)  # NEA reviews, Appendix B (from memory)
     0.12
     """
-    entry = sit_epsilon(electrolyte.cation, electrolyte.anion)
+    entry = _published_epsilon(electrolyte)
     return 0.0 if entry is None else float(entry[0])
 
 
@@ -303,7 +311,7 @@ def conventional_epsilon_uncertainty(
     >>> round(conventional_epsilon_uncertainty(parse_electrolyte("CsI"), c), 3)
     0.176
     """
-    entry = sit_epsilon(electrolyte.cation, electrolyte.anion)
+    entry = _published_epsilon(electrolyte)
     if entry is not None:
         return float(entry[1]) / 2.0
     values = load_table("sit_epsilon")["epsilon_kg_mol"]
