@@ -108,8 +108,6 @@ def test_conventional_uncertainty():
 def test_epsilon_is_looked_up_with_the_ions_charges():
     # ε(Cu²⁺, Cl⁻) = 0.08 kg/mol (NEA TDB reviews, Appendix B; from memory) belongs to CuCl2
     # only: CuCl (Cu⁺) has no published ε here and falls back to the convention 0.
-
-
     c = debye_hueckel_constants(np.array([298.15]))
     assert sit.conventional_epsilon(parse_electrolyte("CuCl2"), c) == 0.08
     assert sit.conventional_epsilon(parse_electrolyte("CuCl"), c) == 0.0
