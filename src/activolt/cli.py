@@ -7,7 +7,10 @@ that could not be done (with the reason).
 from __future__ import annotations
 
 import argparse
+import os
+import signal
 import sys
+import threading
 from collections.abc import Sequence
 from importlib.resources import files
 from pathlib import Path
@@ -15,11 +18,15 @@ from typing import TYPE_CHECKING, NoReturn
 
 from . import __version__
 from .errors import FitError, InputError
+from .safe_text import escape_controls
 
 if TYPE_CHECKING:
     from .reduce import Reduction
 
 DEMO_RUN = "kestrel_hcl_25C.csv"
+#: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
+OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "extrapolation.png", "residuals.png",
+                "gamma.png")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -108,12 +115,28 @@ def _parser() -> argparse.ArgumentParser:
 def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, float],
             out: Path | None, json_path: Path | None, series: str | None,
             overrides: dict[str, object], figures: bool, exclude: tuple[str, ...] = (),
-            trials: int | None = None, seed: int = 0) -> list[Path]:
+            trials: int | None = None, seed: int = 0,
+            written: list[Path] | None = None) -> list[Path]:
+    from .files import check_outputs, write_outputs
     from .records import points_csv, record_json
     from .reduce import reduce_run
     from .runs import Exclusion, exclude_points, read_run
 
     run = read_run(run_path, meta, overrides=overrides, series=series)
+    # Where everything goes, checked before any work: never onto an input, never mixed.
+    stem = run_path.stem
+    base = stem if series is None else f"{stem}.{series_file_name(series)}"
+    out = out if out is not None else run_path.parent / f"{stem}_activolt"
+    owned = [f"{base}.{kind}" for kind in OUTPUT_KINDS]
+    record_name, record_elsewhere = f"{base}.record.json", None
+    if json_path is not None:
+        if os.path.realpath(json_path.parent) == os.path.realpath(out):
+            record_name = json_path.name
+        else:
+            record_name, record_elsewhere = None, json_path
+    inputs = [run.path, *([run.metadata_path] if run.metadata_path is not None else [])]
+    check_outputs(out, [*owned, *([record_name] if record_name else [])],
+                  [record_elsewhere] if record_elsewhere else [], inputs)
     exclusions = [Exclusion.parse(text) for text in exclude]
     if trials is not None and not 10 <= trials <= 1_000_000:
         raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
@@ -147,22 +170,72 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
                             temperature_u_K=run.metadata.u_temperature_K)
         report += "\n" + format_monte_carlo(monte, reduction)
-    stem = run_path.stem
-    out = out if out is not None else run_path.parent / f"{stem}_activolt"
-    outputs: dict[Path, bytes | str] = {
-        (json_path or out / f"{stem}.record.json"): record_json(
-            reduction, comparison=comparison, monte_carlo=monte),
-        out / f"{stem}.points.csv": points_csv(reduction),
-        out / f"{stem}.report.txt": report,
-    }
+    report = escape_controls(report if report.endswith("\n") else report + "\n", keep="\n")
+    record_folder = (record_elsewhere or out / record_name).parent
+    record = record_json(reduction, comparison=comparison, monte_carlo=monte,
+                         record_folder=record_folder)
+    contents: dict[str, bytes | str] = {record_name: record} if record_name else {}
+    contents[f"{base}.points.csv"] = points_csv(reduction)
+    contents[f"{base}.report.txt"] = report
     if figures:
         from .report.figures import render_figures
 
         for name, png in render_figures(reduction).items():
-            outputs[out / f"{stem}.{name}.png"] = png
-    written = _write_all(outputs)
+            contents[f"{base}.{name}.png"] = png
+    done = write_outputs({record_elsewhere: record} if record_elsewhere else None, folder=out,
+                         contents=contents, owned=owned, inputs=inputs)
+    if written is not None:
+        written.extend(done)
     sys.stdout.write(report)
-    return written
+    return done
+
+
+def series_file_name(series: str) -> str:
+    """A series name as part of a file name; two names never give the same part.
+
+    ASCII letters, digits, ``-`` and ``_`` are kept; every other byte of the UTF-8 name is
+    written ``%XX``; the empty name (an unnamed series) is ``%``.
+
+    Examples
+    --------
+    >>> series_file_name("run A"), series_file_name("run_A"), series_file_name("T=25/1")
+    ('run%20A', 'run_A', 'T%3D25%2F1')
+    """
+    if not series:
+        return "%"
+    return "".join(chr(b) if chr(b).isascii() and (chr(b).isalnum() or chr(b) in "-_")
+                   else f"%{b:02X}" for b in series.encode("utf-8"))
+
+
+def _private_matplotlib_config() -> None:
+    """Point MPLCONFIGDIR at a private temporary folder when matplotlib's default config or
+    cache folder cannot be written (matplotlib would otherwise warn on stderr)."""
+    if "MPLCONFIGDIR" in os.environ or "matplotlib" in sys.modules:
+        return
+    try:
+        home = Path.home()
+    except (RuntimeError, KeyError):
+        home = None
+    if sys.platform.startswith(("linux", "freebsd")) and home is not None:
+        folders = [Path(os.environ.get("XDG_CONFIG_HOME") or home / ".config") / "matplotlib",
+                   Path(os.environ.get("XDG_CACHE_HOME") or home / ".cache") / "matplotlib"]
+    else:
+        folders = [] if home is None else [home / ".matplotlib"]
+    writable = bool(folders)
+    for folder in folders:
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+            writable &= folder.is_dir() and os.access(folder, os.W_OK)
+        except OSError:
+            writable = False
+    if not writable:
+        import atexit
+        import shutil
+        import tempfile
+
+        private = tempfile.mkdtemp(prefix="activolt-matplotlib-")
+        atexit.register(shutil.rmtree, private, ignore_errors=True)
+        os.environ["MPLCONFIGDIR"] = private
 
 
 #: Ionic strength beyond which the published models' extrapolations part noticeably [mol/kg].
@@ -199,26 +272,6 @@ def _fixed_per_model(names: list[str], fixed: dict[str, float]) -> dict[str, dic
     return per_model
 
 
-def _write_all(outputs: dict[Path, bytes | str]) -> list[Path]:
-    """Create the folders and write every output atomically; an OSError becomes bad input."""
-    from .files import write_atomically
-
-    for folder in {p.parent for p in outputs}:
-        try:
-            folder.mkdir(parents=True, exist_ok=True)
-        except OSError as error:
-            raise InputError(f"cannot create the output folder ({error.strerror}); choose "
-                             "another with --out", file=str(folder)) from None
-    written = []
-    for path, content in outputs.items():
-        try:
-            written.append(write_atomically(path, content))
-        except OSError as error:
-            raise InputError(f"cannot write this file ({error.strerror}); choose another place",
-                             file=str(path)) from None
-    return written
-
-
 def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Path]:
     import json
 
@@ -235,11 +288,13 @@ def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Pa
         raise InputError(f"{error.message} (at character {error.position + 1}: "
                          f"'{diagram[start:error.position]}▶{diagram[error.position:][:12]}')",
                          file="command line, the cell diagram") from None
-    text = format_cell_summary(summary)
+    text = escape_controls(format_cell_summary(summary), keep="\n")
     written = []
     if json_path is not None:
-        written = _write_all({json_path: json.dumps(summary, ensure_ascii=False, indent=2)
-                              + "\n"})
+        from .files import write_outputs
+
+        written = write_outputs({json_path: json.dumps(summary, ensure_ascii=False, indent=2)
+                                 + "\n"})
     sys.stdout.write(text if text.endswith("\n") else text + "\n")
     return written
 
@@ -253,34 +308,64 @@ def _one_line(error: InputError) -> str:
     return " ".join(part.strip() for part in str(error).splitlines())
 
 
+class _Terminated(KeyboardInterrupt):
+    """SIGTERM, raised as an exception so that the run stops the way Ctrl-C stops it."""
+
+
+def _on_sigterm(_signum: int, _frame: object) -> None:
+    raise _Terminated
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; returns the exit status."""
+    """Run the command line; returns the exit status.
+
+    Ctrl-C (exit status 130) and SIGTERM (143) stop the run with one line on stderr; outputs are
+    then either not written at all or written whole, and no temporary file is left.
+    """
+    in_main_thread = threading.current_thread() is threading.main_thread()
+    previous = signal.signal(signal.SIGTERM, _on_sigterm) if in_main_thread else None
+    written: list[Path] = []
     try:
         args = _parser().parse_args(argv)
+        if args.command != "cell":
+            _private_matplotlib_config()  # lmfit imports matplotlib
         if args.command == "demo":
             run_path = Path(str(files("activolt") / "sample_data" / DEMO_RUN))
-            written = _reduce(run_path, None, "hueckel", {}, args.out, None, None, {}, True)
+            _reduce(run_path, None, "hueckel", {}, args.out, None, None, {}, True,
+                    written=written)
         elif args.command == "cell":
             written = _cell(args.diagram, args.temperature_C, args.json)
         else:
             overrides = {k: getattr(args, k) for k in
                          ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa",
                           "cell", "slope_factor", "volt_unit")}
-            written = _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
-                              args.json, args.series, overrides, not args.no_figures,
-                              tuple(args.exclude), args.monte_carlo, args.seed)
+            _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
+                    args.json, args.series, overrides, not args.no_figures,
+                    tuple(args.exclude), args.monte_carlo, args.seed, written=written)
+        if written:
+            print(escape_controls("\nwritten:\n" + "\n".join(f"  {p}" for p in written),
+                                  keep="\n"))
     except SystemExit as stop:  # --help and --version
         return int(stop.code or 0)
     except BrokenPipeError:  # output piped into a command that stopped reading
         return 0
     except InputError as error:
-        print(f"activolt: error: {_one_line(error)}", file=sys.stderr)
+        print(f"activolt: error: {escape_controls(_one_line(error))}", file=sys.stderr)
         return 2
     except FitError as error:
-        print(f"activolt: the fit could not be done: {error}", file=sys.stderr)
+        print(f"activolt: the fit could not be done: {escape_controls(str(error))}",
+              file=sys.stderr)
         return 1
-    if written:
-        print("\nwritten:\n" + "\n".join(f"  {p}" for p in written))
+    except KeyboardInterrupt as stop:
+        what = "terminated" if isinstance(stop, _Terminated) else "interrupted"
+        outcome = ("after the outputs were written" if written
+                   else "; nothing was written (earlier outputs are unchanged)")
+        print(f"activolt: {what}{'' if outcome.startswith(';') else ' '}{outcome}",
+              file=sys.stderr)
+        return 143 if isinstance(stop, _Terminated) else 130
+    finally:
+        if in_main_thread:
+            signal.signal(signal.SIGTERM, previous if previous is not None else signal.SIG_DFL)
     return 0
 
 

@@ -8,8 +8,10 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 from datetime import UTC, datetime
 from importlib.resources import files
+from pathlib import Path
 from typing import Any
 
 from . import __version__
@@ -22,6 +24,7 @@ from .report.cautions import cautions_for
 from .report.comparison import compare_with_published
 from .report.numbers import json_number
 from .runs import VOLT_UNITS
+from .safe_text import neutralise_formula
 from .thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
 
 RECORD_SCHEMA = "activolt-record/1"
@@ -40,7 +43,8 @@ def record_schema() -> dict[str, Any]:
 
 def build_record(reduction: Reduction, created: datetime | None = None,
                  comparison: ModelComparison | None = None,
-                 monte_carlo: MonteCarloResult | None = None) -> dict[str, Any]:
+                 monte_carlo: MonteCarloResult | None = None,
+                 record_folder: Path | None = None) -> dict[str, Any]:
     """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
 
     With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
@@ -53,7 +57,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     metadata_info: dict[str, Any] = {}
     if run.metadata_path is not None:
         metadata_info = {
-            "metadata_file": str(run.metadata_path),
+            "metadata_file": _path_from(run.metadata_path, record_folder),
             "metadata_sha256": hashlib.sha256(run.metadata_path.read_bytes()).hexdigest(),
         }
     points = []
@@ -107,7 +111,9 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         "record_schema": RECORD_SCHEMA,
         "software": {"name": "activolt", "version": __version__},
         "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "input": {"file": str(run.path), "sha256": run.sha256, **metadata_info},
+        "input": {"file": _path_from(run.path, record_folder), "sha256": run.sha256,
+                  **metadata_info},
+        "series": run_series(run.points),
         "run_info": dict(meta.info),
         "electrolyte": meta.electrolyte.formula,
         "electrons": meta.electrons,
@@ -225,10 +231,32 @@ def build_record(reduction: Reduction, created: datetime | None = None,
 
 def record_json(reduction: Reduction, created: datetime | None = None,
                 comparison: ModelComparison | None = None,
-                monte_carlo: MonteCarloResult | None = None) -> str:
-    """The record as JSON text (UTF-8, indented, NaN written as null)."""
-    return json.dumps(build_record(reduction, created, comparison, monte_carlo),
+                monte_carlo: MonteCarloResult | None = None,
+                record_folder: Path | None = None) -> str:
+    """The record as JSON text (UTF-8, indented, NaN written as null).
+
+    With ``record_folder`` (where the record is written), the input files are named relative
+    to it.
+    """
+    return json.dumps(build_record(reduction, created, comparison, monte_carlo, record_folder),
                       ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+
+
+def _path_from(path: Path, folder: Path | None) -> str:
+    """``path`` relative to ``folder`` (forward slashes), or as given without a folder or when
+    there is no relative path (another drive)."""
+    if folder is None:
+        return str(path)
+    try:
+        return Path(os.path.relpath(os.path.realpath(path), os.path.realpath(folder))).as_posix()
+    except ValueError:
+        return str(Path(path).resolve())
+
+
+def run_series(points: Any) -> str | None:
+    """The name of the series the points hold, or None (no name, or several)."""
+    names = {name for name in points["series"] if isinstance(name, str) and name}
+    return names.pop() if len(names) == 1 else None
 
 
 def points_csv(reduction: Reduction) -> str:
@@ -247,13 +275,14 @@ def points_csv(reduction: Reduction) -> str:
         "u_gamma_pm": table["u_gamma_pm"],
         "gamma_pm_model": table["gamma_pm_model"],
         "u_gamma_pm_model": table["u_gamma_pm_model"],
-        "electrode": table["electrode"],
+        "electrode": table["electrode"].map(neutralise_formula),
+        "series": table["series"].map(neutralise_formula),
         "leverage": table["leverage"],
         "studentized_residual": table["studentized_residual"],
         "cooks_distance": table["cooks_distance"],
         "flag": table["flag"].where(table["flag"].notna(), ""),
         "diagnostic": table["diagnostic"].where(table["diagnostic"].notna(), ""),
-        "note": table["note"],
+        "note": table["note"].map(neutralise_formula),
     }
     import pandas as pd
 

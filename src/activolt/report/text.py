@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from ..montecarlo import MonteCarloResult
 from ..reduce import Reduction
+from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import compare_with_published, comparison_lines
 from .numbers import decimals_for, format_with_uncertainty
@@ -25,7 +26,8 @@ def format_report(reduction: Reduction) -> str:
     run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
     t_C = reduction.temperature_K - 273.15
     lines = [
-        f"activolt reduction of {run.path.name}",
+        f"activolt reduction of {run.path.name}"
+        + (f", series '{series}'" if (series := _series(run.points)) is not None else ""),
         *([f"  cell: {meta.cell}"] if meta.cell else []),
         f"  electrolyte {meta.electrolyte.formula} ({meta.electrolyte.charge_type}), "
         f"n = {meta.electrons}, t = {t_C:.2f} °C, {stats.n_points} readings used"
@@ -111,7 +113,14 @@ def format_report(reduction: Reduction) -> str:
     cautions = cautions_for(meta.electrolyte, meta.cell)
     if cautions:
         lines += ["", "  safety:"] + [f"  - {c}" for c in cautions]
-    return "\n".join(lines) + "\n"
+    # user text (file, series, electrolyte and cell names, reasons, warnings) shown as printable
+    return escape_controls("\n".join(lines) + "\n", keep="\n")
+
+
+def _series(points: object) -> str | None:
+    """The one series named by the points, or None."""
+    names = {n for n in points["series"] if isinstance(n, str) and n}  # type: ignore[index]
+    return names.pop() if len(names) == 1 else None
 
 
 def _gamma_budget_lines(reduction: Reduction) -> list[str]:
