@@ -198,3 +198,80 @@ def test_errors(run, reduction):
         monte_carlo(run, trials=5, reduction=reduction)
     with pytest.raises(ValueError, match="temperature_u_K"):
         monte_carlo(run, trials=100, temperature_u_K=-1.0, reduction=reduction)
+
+
+def test_first_block_draws_as_the_whole_array_version(run, reduction):
+    # Regression pin: E° of the first three trials and γ± of the first trial (most dilute and
+    # most concentrated point), produced by the version that drew all trials as one array,
+    # before the trials were split into blocks. Up to 10 000 trials the numbers must not move.
+    result = monte_carlo(run, trials=200, seed=3, reduction=reduction)
+    np.testing.assert_allclose(result.standard_potential_samples[:3],
+                               [0.22234550759206576, 0.22233522477235607, 0.22235556254741556],
+                               rtol=1e-12)
+    np.testing.assert_allclose(result.gamma_samples[0, [0, -1]],
+                               [0.9643030425400032, 0.8040623192077184], rtol=1e-10)
+
+
+def test_blocks_extend_a_run_without_changing_its_start(run, reduction):
+    # 10 010 trials: the first block is the 10 000-trial run, the second an independent stream.
+    ten_thousand = monte_carlo(run, trials=10_000, seed=5, reduction=reduction)
+    longer = monte_carlo(run, trials=10_010, seed=5, reduction=reduction)
+    np.testing.assert_array_equal(longer.standard_potential_samples[:10_000],
+                                  ten_thousand.standard_potential_samples)
+    tail = longer.standard_potential_samples[10_000:]
+    assert tail.size == 10 and np.unique(tail).size == 10
+    assert not np.isin(tail, ten_thousand.standard_potential_samples[:10]).any()
+
+
+def test_memory_does_not_grow_with_the_trials_beyond_the_samples_kept(run, reduction):
+    # 40 000 trials: beyond the E° and γ± samples kept (3.5 MB), the peak stays that of one
+    # block, 27 MB; the whole-array version needed 86 MB here, growing with the trials to
+    # gigabytes at 10⁶ (regression pins of both versions, measured with tracemalloc).
+    import tracemalloc
+
+    tracemalloc.start()
+    try:
+        result = monte_carlo(run, trials=40_000, seed=1, reduction=reduction)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    kept = result.gamma_samples.nbytes + result.standard_potential_samples.nbytes
+    assert peak - kept < 50e6
+
+
+class _Bar:
+    def __init__(self, stop_after: int | None = None):
+        self.updates: list[int] = []
+        self.closed = False
+        self.stop_after = stop_after
+
+    def update(self, count: int) -> None:
+        self.updates.append(count)
+        if self.stop_after is not None and len(self.updates) >= self.stop_after:
+            raise KeyboardInterrupt
+
+    def close(self) -> None:
+        self.closed = True
+
+
+def test_progress_is_shown_only_when_asked_or_on_a_terminal(run, reduction, monkeypatch):
+    import activolt.montecarlo as mc
+
+    bars: list[_Bar] = []
+    monkeypatch.setattr(mc, "_progress_bar", lambda trials: bars.append(_Bar()) or bars[-1])
+    monte_carlo(run, trials=10_010, seed=2, reduction=reduction)  # stderr is not a terminal
+    assert bars == []
+    monte_carlo(run, trials=10_010, seed=2, reduction=reduction, progress=True)
+    assert bars[0].updates == [10_000, 10] and bars[0].closed
+    monte_carlo(run, trials=500, seed=2, reduction=reduction, progress=True)  # one block: short
+    assert len(bars) == 1
+
+
+def test_an_interrupted_run_closes_its_progress_bar(run, reduction, monkeypatch):
+    import activolt.montecarlo as mc
+
+    bar = _Bar(stop_after=1)
+    monkeypatch.setattr(mc, "_progress_bar", lambda trials: bar)
+    with pytest.raises(KeyboardInterrupt):
+        monte_carlo(run, trials=10_010, seed=2, reduction=reduction, progress=True)
+    assert bar.closed
