@@ -203,6 +203,24 @@ def test_ctrl_c_while_writing_keeps_the_old_set(tmp_path, capsys, monkeypatch):
     assert _snapshot(tmp_path) == before
 
 
+def test_ctrl_c_during_the_swap_is_held_and_undoes_it(tmp_path, capsys, monkeypatch):
+    # SIGINT arrives while the new folder is being swapped in: the swap completes, is undone,
+    # and the run stops as if interrupted just before it.
+    path = _table(tmp_path)
+    assert main(["reduce", str(path), "--no-figures"]) == 0
+    before = _snapshot(tmp_path)
+    real = output_files._Transaction.commit_folder
+
+    def commit_with_ctrl_c(self, folder, new):
+        os.kill(os.getpid(), signal.SIGINT)
+        real(self, folder, new)
+
+    monkeypatch.setattr(output_files._Transaction, "commit_folder", commit_with_ctrl_c)
+    assert main(["reduce", str(path), "--fix", "a_angstrom=4.3", "--no-figures"]) == 130
+    assert "nothing was written" in _one_error_line(capsys)
+    assert _snapshot(tmp_path) == before
+
+
 def test_sigint_of_a_long_monte_carlo(tmp_path):
     # A real Ctrl-C (SIGINT) during 10⁶ Monte Carlo trials.
     path = _table(tmp_path)

@@ -248,17 +248,18 @@ def _exchange(first: Path, second: Path) -> bool:
 
 
 @contextlib.contextmanager
-def _signals_held() -> Iterator[None]:
-    """Hold Ctrl-C and SIGTERM back (main thread only) and deliver them afterwards."""
-    if threading.current_thread() is not threading.main_thread():
-        yield
-        return
+def _signals_held() -> Iterator[list[int]]:
+    """Hold Ctrl-C and SIGTERM back (main thread only) and deliver them afterwards; yields the
+    list of the signals caught meanwhile."""
     caught: list[int] = []
+    if threading.current_thread() is not threading.main_thread():
+        yield caught
+        return
     previous = {}
     for number in (signal.SIGINT, signal.SIGTERM):
         previous[number] = signal.signal(number, lambda signum, _frame: caught.append(signum))
     try:
-        yield
+        yield caught
     finally:
         for number, handler in previous.items():
             signal.signal(number, handler if handler is not None else signal.SIG_DFL)
@@ -514,7 +515,7 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
                 shown = str(path)
                 staged_files[real_files[path]] = transaction.stage_file(real_files[path],
                                                                         content)
-            with _signals_held():
+            with _signals_held() as caught:
                 try:
                     if staged_folder is not None:
                         shown = str(folder)
@@ -522,6 +523,8 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
                     for real, temporary in staged_files.items():
                         shown = targets[real]
                         transaction.commit_file(real, temporary)
+                    if caught:  # stopped while committing: as if it had come just before
+                        raise KeyboardInterrupt
                 except BaseException:
                     transaction.roll_back()
                     raise

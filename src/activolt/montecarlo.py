@@ -323,7 +323,9 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
     failed = np.zeros(trials, dtype=bool)
     one_by_one = 0
     vectorised: bool | None = None
-    show = (sys.stderr.isatty() if progress is None else progress) and trials > _CHUNK_TRIALS
+    if progress is None:
+        progress = sys.stderr is not None and getattr(sys.stderr, "isatty", lambda: False)()
+    show = progress and trials > _CHUNK_TRIALS
     bar = _progress_bar(trials) if show else None
     try:
         for first in range(0, trials, _CHUNK_TRIALS):
