@@ -1,0 +1,400 @@
+r"""The measurement model of a cell without liquid junction, and one batched solver for it.
+
+For each reading i of series s,
+
+.. math:: E_{si} = E°_s − σ\,s_s\,k_{si}\,[\ln m_{±,si} + \ln γ_±(m_{si}; θ_s)], \qquad
+          k_{si} = ν R T_{si}/(n F)
+
+(σ = +1 when the cell forms the electrolyte, −1 when it consumes it; s the slope factor, 1 unless
+fitted). :class:`MeasurementModel` holds the arrays of one or many series with a leading series
+axis (S × N, a mask for ragged series); :func:`solve` fits E° and the free parameters of every
+series at once by weighted least squares — one Gauss–Newton step for parameters that enter
+linearly, a batched Levenberg–Marquardt iteration otherwise (Moré 1978, Springer LNM 630, 105),
+each series converging (or failing, with its reason) on its own — and returns a frozen
+:class:`BatchFit`: values, covariance (JᵀWJ)⁻¹ [× χ²/ν], the Jacobian at the optimum, residuals
+and statistics per series. Held parameters keep their given values per series (a mask of free
+parameters), so one batch can mix series whose data determine different parameters.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from functools import cached_property
+
+import numpy as np
+
+from ..electrolytes import Electrolyte
+from ..models.base import ActivityModel
+from ..solvent import DebyeHueckelConstants
+
+__all__ = ["E0", "SLOPE", "BatchFit", "MeasurementModel", "solve"]
+
+#: Name of E° among the fitted quantities [V].
+E0 = "standard_potential_V"
+#: Name of the slope factor s of the cell response [-].
+SLOPE = "slope_factor"
+
+_MAX_ITERATIONS = 200
+
+
+@dataclass(frozen=True)
+class MeasurementModel:
+    """The cell equation for a batch of series of one electrolyte and one activity model.
+
+    Attributes
+    ----------
+    activity : ActivityModel
+        The activity-coefficient model.
+    electrolyte : Electrolyte
+        The electrolyte.
+    sign : int
+        σ = +1 (the cell forms the electrolyte) or −1 (it consumes it).
+    molality : numpy.ndarray
+        m, shape (S, N) [mol kg⁻¹]; any positive value where masked.
+    nernst_V : numpy.ndarray
+        k = νRT/(nF) of each reading, shape (S, N) [V].
+    constants : DebyeHueckelConstants
+        Debye–Hückel constants of each reading, arrays of shape (S, N).
+    """
+
+    activity: ActivityModel
+    electrolyte: Electrolyte
+    sign: int
+    molality: np.ndarray
+    nernst_V: np.ndarray
+    constants: DebyeHueckelConstants
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        """E°, the model's parameters and the slope factor, in the order of every array."""
+        return (E0, *self.activity.parameter_names, SLOPE)
+
+    @cached_property
+    def ln_mean_molality(self) -> np.ndarray:
+        """ln m± [-], shape (S, N)."""
+        return np.log(self.electrolyte.mean_molality(self.molality))
+
+    def ln_gamma(self, values: np.ndarray) -> np.ndarray:
+        """ln γ± of the model [-], shape (S, N), at parameter values of shape (S, P)."""
+        parameters = {name: values[:, [index]] for index, name in
+                      enumerate(self.activity.parameter_names, start=1)}
+        return np.broadcast_to(self.activity.ln_gamma(self.electrolyte, self.molality,
+                                                      self.constants, parameters),
+                               self.molality.shape)
+
+    def predict(self, values: np.ndarray) -> np.ndarray:
+        """E [V], shape (S, N), at values of shape (S, P) in the order of :attr:`names`.
+
+        .. math:: E = E° − σ s k [\\ln m_± + \\ln γ_±(m; θ)]
+        """
+        slope = values[:, [-1]]
+        return values[:, [0]] - self.sign * slope * self.nernst_V * (
+            self.ln_mean_molality + self.ln_gamma(values))
+
+    def ln_gamma_from_emf(self, emf_V: np.ndarray, values: np.ndarray) -> np.ndarray:
+        """ln γ± from each reading and the fitted E° and s [-]: σ(E° − E)/(s k) − ln m±."""
+        return (self.sign * (values[:, [0]] - emf_V) / (values[:, [-1]] * self.nernst_V)
+                - self.ln_mean_molality)
+
+    def jacobian(self, values: np.ndarray, free: np.ndarray) -> np.ndarray:
+        """∂E/∂(parameters) [V per unit], shape (S, N, P); zero columns for held parameters.
+
+        E° and s enter analytically; a model parameter that enters ln γ± linearly by the
+        difference over a unit step (exact), any other by central differences with steps of
+        10⁻⁶ max(1, |θ|); the model is evaluated once per step for the whole batch.
+        """
+        columns = np.flatnonzero(free.any(axis=0))
+        jac = np.zeros((*self.molality.shape, values.shape[1]))
+        jac[:, :, columns] = np.swapaxes(self.gradient_rows(values, free, columns), 1, 2)
+        return jac
+
+    def gradient_rows(self, values: np.ndarray, free: np.ndarray, columns: np.ndarray,
+                      central: bool = True) -> np.ndarray:
+        """∂E/∂θ_c for the parameters ``columns``, one row per parameter, shape (S, C, N)
+        (zero where a series holds the parameter); ``central=False`` takes forward
+        differences for the non-linear parameters (one model evaluation each, for iterating)."""
+        rows = np.zeros((self.molality.shape[0], columns.size, self.molality.shape[1]))
+        factor = -self.sign * values[:, [-1]] * self.nernst_V
+        base = self.ln_gamma(values)
+        last = values.shape[1] - 1
+        for position, index in enumerate(columns):
+            if index == 0:
+                rows[:, position] = 1.0
+            elif index == last:
+                rows[:, position] = -self.sign * self.nernst_V * (self.ln_mean_molality + base)
+            elif self.activity.parameters[index - 1].linear:
+                up = values.copy()
+                up[:, index] += 1.0
+                rows[:, position] = factor * (self.ln_gamma(up) - base)
+            else:
+                step = 1e-6 * np.maximum(1.0, np.abs(values[:, index]))
+                up = values.copy()
+                up[:, index] += step
+                if central:
+                    down = values.copy()
+                    down[:, index] -= step
+                    difference = (self.ln_gamma(up) - self.ln_gamma(down)) / 2.0
+                else:
+                    difference = self.ln_gamma(up) - base
+                rows[:, position] = factor * difference / step[:, None]
+        held = ~free[:, columns]
+        if held.any():
+            rows[held] = 0.0
+        return rows
+
+
+@dataclass(frozen=True)
+class BatchFit:
+    """The weighted least-squares fit of a batch of series; nothing in it changes after.
+
+    Attributes
+    ----------
+    names : tuple of str
+        Parameter names, E° first (see :attr:`MeasurementModel.names`).
+    values : numpy.ndarray
+        Fitted or held values, shape (S, P) [parameter units].
+    free : numpy.ndarray
+        Which parameters were fitted, shape (S, P), bool.
+    covariance : numpy.ndarray
+        (JᵀWJ)⁻¹ over the free parameters, scaled by χ²/ν where ``scaled``; rows and columns
+        of held parameters are 0; shape (S, P, P).
+    jacobian : numpy.ndarray
+        ∂E/∂θ at the optimum, zero columns for held parameters and zero rows for masked
+        readings, shape (S, N, P) [V per unit].
+    residual_V : numpy.ndarray
+        E − Ê, 0 where masked, shape (S, N) [V].
+    weights : numpy.ndarray
+        w = 1/u² (or 1), 0 where masked, shape (S, N) [V⁻²].
+    chi2 : numpy.ndarray
+        Σ w r², shape (S,).
+    dof : numpy.ndarray
+        N_s − P_s, shape (S,).
+    scaled : numpy.ndarray
+        Whether the covariance was multiplied by χ²/ν (unit weights), shape (S,).
+    converged : numpy.ndarray
+        Per series, shape (S,), bool.
+    failures : tuple of (str or None)
+        Why a series did not converge, None where it did.
+    """
+
+    names: tuple[str, ...]
+    values: np.ndarray
+    free: np.ndarray
+    covariance: np.ndarray
+    jacobian: np.ndarray
+    residual_V: np.ndarray
+    weights: np.ndarray
+    chi2: np.ndarray
+    dof: np.ndarray
+    scaled: np.ndarray
+    converged: np.ndarray
+    failures: tuple[str | None, ...]
+
+    @property
+    def standard_potential_V(self) -> np.ndarray:
+        """E° of each series [V], shape (S,)."""
+        return self.values[:, 0]
+
+    @property
+    def u_standard_potential_V(self) -> np.ndarray:
+        """Standard uncertainty of E° (k = 1) [V], shape (S,)."""
+        return np.sqrt(self.covariance[:, 0, 0])
+
+    @property
+    def sensitivity(self) -> np.ndarray:
+        """S = (JᵀWJ)⁻¹JᵀW, how each free parameter moves with each reading [unit V⁻¹],
+        shape (S, P, N) (unscaled)."""
+        a = self.jacobian * self.weights[:, :, None]
+        normal = np.matmul(np.swapaxes(self.jacobian, 1, 2), a)
+        return np.linalg.solve(_regularised(normal, self.free), np.swapaxes(a, 1, 2))
+
+    def curve(self, model: MeasurementModel) -> tuple[np.ndarray, np.ndarray]:
+        """(Ê [V], u(Ê) [V]) of the fitted model at the model's molalities, shape (S, N):
+        u² = g C gᵀ with g the Jacobian at the optimum (first order)."""
+        jac = model.jacobian(self.values, self.free)
+        variance = np.einsum("snp,spq,snq->sn", jac, self.covariance, jac)
+        return model.predict(self.values), np.sqrt(np.maximum(variance, 0.0))
+
+
+def _regularised(normal: np.ndarray, free: np.ndarray) -> np.ndarray:
+    """The normal matrix with 1 on the diagonal of held parameters (their step is then 0)."""
+    out = normal.copy()
+    held = ~free
+    index = np.arange(free.shape[1])
+    out[:, index, index] += held
+    return out
+
+
+def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
+          start: np.ndarray, free: np.ndarray, linear: np.ndarray,
+          bounds: np.ndarray | None = None, scale_covariance: np.ndarray | bool = False,
+          ) -> BatchFit:
+    r"""Fit E° and the free parameters of every series by weighted least squares.
+
+    Parameters
+    ----------
+    model : MeasurementModel
+        The batch (S series of up to N readings).
+    emf_V : numpy.ndarray
+        Readings (corrected to p° where the cell holds a gas), shape (S, N) [V].
+    weights : numpy.ndarray
+        1/u² of each reading (1 with unit weights), 0 for a masked reading, shape (S, N) [V⁻²].
+    start : numpy.ndarray
+        Starting values (held parameters: their values), shape (S, P) in the order of
+        :attr:`MeasurementModel.names`.
+    free : numpy.ndarray
+        Which parameters to fit, shape (S, P), bool (E° always).
+    linear : numpy.ndarray
+        Whether E is linear in each parameter, shape (P,), bool.
+    bounds : numpy.ndarray, optional
+        (minimum, maximum) of each parameter, shape (P, 2); default unbounded.
+    scale_covariance : bool or numpy.ndarray
+        Multiply the covariance by χ²/ν (unit weights), per series or for all.
+
+    Returns
+    -------
+    BatchFit
+
+    Notes
+    -----
+    With A = W^½ J and r the weighted residuals, each iteration solves
+    (AᵀA + λ diag AᵀA) δ = Aᵀr per series (λ = 0, one Gauss–Newton step, when every free
+    parameter enters linearly: the solution is then exact). λ is divided by 10 after a step
+    that lowers χ² and multiplied by 10 otherwise; a series stops when χ² no longer falls by
+    more than 10⁻¹² relatively and its step is below 10⁻¹⁰ of its values. The covariance is
+    (AᵀA)⁻¹ at the optimum (Bevington & Robinson 2003, *Data Reduction and Error Analysis*,
+    ch. 8; Press et al. 2007, *Numerical Recipes*, §15.5).
+
+    Examples
+    --------
+    Two Hückel series fitted at once (E° = 0.2 V and 0.3 V, b = 0.1 kg/mol, å held at 4 Å):
+
+    >>> import numpy as np
+    >>> from activolt.electrolytes import parse_electrolyte, nernst_factor
+    >>> from activolt.models import get_model
+    >>> from activolt.solvent import debye_hueckel_constants
+    >>> hcl = parse_electrolyte("HCl")
+    >>> m = np.tile(np.geomspace(0.001, 0.1, 6), (2, 1))
+    >>> mm = MeasurementModel(get_model("hueckel"), hcl, 1, m,
+    ...                       nernst_factor(hcl, 1, np.full(m.shape, 298.15)),
+    ...                       debye_hueckel_constants(np.full(m.shape, 298.15)))
+    >>> truth = np.array([[0.2, 4.0, 0.1, 1.0], [0.3, 4.0, 0.1, 1.0]])
+    >>> free = np.array([[True, False, True, False]] * 2)
+    >>> fit = solve(mm, mm.predict(truth), np.ones(m.shape), truth * [1, 1, 0, 1], free,
+    ...             np.array([True, False, True, False]))
+    >>> np.round(fit.values[:, [0, 2]], 9).tolist()
+    [[0.2, 0.1], [0.3, 0.1]]
+    """
+    emf = np.asarray(emf_V, dtype=float)
+    w = np.asarray(weights, dtype=float)
+    values = np.array(start, dtype=float)
+    free = np.asarray(free, dtype=bool)
+    n_series, n_parameters = values.shape
+    limits = (np.tile([-np.inf, np.inf], (n_parameters, 1)) if bounds is None
+              else np.asarray(bounds, dtype=float))
+    sqrt_w = np.sqrt(w)
+    # E° enters linearly: start it at its exact optimum for the other starting values.
+    without_e0 = model.predict(np.concatenate([np.zeros((n_series, 1)), values[:, 1:]], axis=1))
+    offset = np.where(w > 0.0, emf - without_e0, 0.0)
+    values[:, 0] = np.sum(w * offset, axis=1) / np.sum(w, axis=1)
+    residual = np.where(w > 0.0, offset - values[:, [0]], 0.0) * sqrt_w
+    chi2 = np.sum(residual**2, axis=1)
+    only_linear = bool(np.all(linear[np.any(free, axis=0)]))
+    damping = np.full(n_series, 0.0 if only_linear else 1e-5)
+    active = np.isfinite(chi2)
+    converged = np.zeros(n_series, dtype=bool)
+    failures: list[str | None] = [None if ok else "the model gives non-finite values at the start"
+                                  for ok in active]
+    iterations = 1 if only_linear else _MAX_ITERATIONS
+    columns = np.flatnonzero(free.any(axis=0))
+    diagonal = np.arange(columns.size)
+    for _ in range(iterations):
+        if not active.any():
+            break
+        rows = np.flatnonzero(active)
+        sub = _rows(model, rows)
+        used = free[rows][:, columns]
+        at = sub.gradient_rows(values[rows], free[rows], columns, central=False)
+        at *= sqrt_w[rows, None, :]
+        normal = np.matmul(at, np.swapaxes(at, 1, 2))
+        gradient = np.matmul(at, residual[rows, :, None])[..., 0]
+        normal[:, diagonal, diagonal] *= 1.0 + damping[rows, None]
+        regular = _regularised(normal, used)
+        try:
+            compact = np.linalg.solve(regular, gradient[..., None])[..., 0]
+        except np.linalg.LinAlgError:
+            compact = np.stack([_safe_step(d, g, f) for d, g, f in
+                                zip(regular, gradient, used, strict=True)])
+        step = np.zeros((rows.size, n_parameters))
+        step[:, columns] = compact
+        trial = np.clip(values[rows] + step * free[rows], limits[:, 0], limits[:, 1])
+        trial_residual = np.where(w[rows] > 0.0, emf[rows] - sub.predict(trial), 0.0) * sqrt_w[rows]
+        trial_chi2 = np.sum(trial_residual**2, axis=1)
+        better = np.isfinite(trial_chi2) & (trial_chi2 <= chi2[rows] * (1.0 + 1e-12)
+                                            + np.finfo(float).tiny)
+        drop = (chi2[rows] - trial_chi2) / np.maximum(chi2[rows], np.finfo(float).tiny)
+        small = np.all(np.abs(step) <= 1e-10 * np.maximum(np.abs(values[rows]), 1e-12)
+                       + 1e-300, axis=1)
+        values[rows] = np.where(better[:, None], trial, values[rows])
+        residual[rows] = np.where(better[:, None], trial_residual, residual[rows])
+        chi2[rows] = np.where(better, trial_chi2, chi2[rows])
+        if only_linear:
+            converged[rows] = True
+            break
+        damping[rows] = np.where(better, damping[rows] / 10.0, damping[rows] * 10.0)
+        done = (better & ((drop <= 1e-12) | small)) | (~better & small)
+        stuck = damping[rows] > 1e12
+        converged[rows[done | stuck]] = True
+        active[rows[done | stuck]] = False
+    for index in np.flatnonzero(~converged):
+        if failures[index] is None:
+            failures[index] = f"the fit did not converge in {iterations} iterations"
+
+    # The covariance at the optimum.
+    jac = model.jacobian(values, free) * (w > 0.0)[:, :, None]
+    a = jac * sqrt_w[:, :, None]
+    normal = np.matmul(np.swapaxes(a, 1, 2), a)
+    try:
+        covariance = np.linalg.inv(_regularised(normal, free))
+    except np.linalg.LinAlgError:
+        covariance = np.stack([_safe_inverse(n, f) for n, f in
+                               zip(_regularised(normal, free), free, strict=True)])
+    covariance = covariance * free[:, :, None] * free[:, None, :]
+    dof = np.sum(w > 0.0, axis=1) - np.sum(free, axis=1)
+    scaled = np.broadcast_to(np.asarray(scale_covariance, dtype=bool), (n_series,)).copy()
+    factor = np.where(scaled, chi2 / np.maximum(dof, 1), 1.0)
+    covariance = covariance * factor[:, None, None]
+    residual = np.where(w > 0.0, emf - model.predict(values), 0.0)
+    return BatchFit(names=model.names, values=values, free=free, covariance=covariance,
+                    jacobian=jac, residual_V=residual, weights=w, chi2=chi2, dof=dof,
+                    scaled=scaled, converged=converged, failures=tuple(failures))
+
+
+def _rows(model: MeasurementModel, rows: np.ndarray) -> MeasurementModel:
+    """The model restricted to some series."""
+    if rows.size == model.molality.shape[0]:
+        return model
+    c = model.constants
+    return MeasurementModel(model.activity, model.electrolyte, model.sign, model.molality[rows],
+                            model.nernst_V[rows],
+                            DebyeHueckelConstants(c.temperature[rows], c.aphi[rows], c.b[rows]))
+
+
+def _safe_step(normal: np.ndarray, gradient: np.ndarray, free: np.ndarray) -> np.ndarray:
+    """A least-squares step for one series whose normal matrix is singular."""
+    return np.linalg.lstsq(normal, gradient, rcond=None)[0] * free
+
+
+def _safe_inverse(normal: np.ndarray, free: np.ndarray) -> np.ndarray:
+    """The inverse of one series' normal matrix; infinite variances where it is singular."""
+    try:
+        return np.linalg.inv(normal)
+    except np.linalg.LinAlgError:
+        return np.where(np.eye(free.size, dtype=bool) & free[:, None], np.inf, 0.0)
+
+
+def values_from(names: tuple[str, ...], mapping: Mapping[str, float]) -> np.ndarray:
+    """A (1, P) array of values in the order of ``names`` from a mapping (E°, model parameters
+    and the slope factor)."""
+    return np.array([[float(mapping[name]) for name in names]])

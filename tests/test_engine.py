@@ -1,0 +1,128 @@
+"""The batched engine against an independent fit (lmfit, MINPACK Levenberg–Marquardt) of the
+same problem, one series at a time. The series are generated here from the Hückel and Pitzer
+equations (not check values: the check is that two independent solvers agree)."""
+
+from __future__ import annotations
+
+import lmfit
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from activolt.electrolytes import nernst_factor, parse_electrolyte
+from activolt.fit.engine import MeasurementModel, solve
+from activolt.models import get_model
+from activolt.solvent import debye_hueckel_constants
+
+HCL = parse_electrolyte("HCl")
+HUECKEL = get_model("hueckel")
+PITZER = get_model("pitzer")
+
+
+def batch(model, molality, temperature_K=298.15):
+    t = np.full(molality.shape, temperature_K)
+    return MeasurementModel(model, HCL, 1, molality, nernst_factor(HCL, 1, t),
+                            debye_hueckel_constants(t))
+
+
+def specs(model):
+    linear = np.array([True] + [p.linear for p in model.parameters] + [False])
+    bounds = np.array([[-np.inf, np.inf]] + [[p.minimum, p.maximum] for p in model.parameters]
+                      + [[0.5, 1.2]])
+    return linear, bounds
+
+
+def lmfit_one(model, molality, emf, u, start, free):
+    """The same weighted fit by lmfit for one series: (values, covariance of the free ones)."""
+    single = batch(model, molality[None, :])
+    names = single.names
+    _, bounds = specs(model)
+    params = lmfit.Parameters()
+    for index, name in enumerate(names):
+        params.add(name, value=start[index], vary=bool(free[index]),
+                   min=bounds[index, 0], max=bounds[index, 1])
+
+    def residual(p):
+        values = np.array([[p[n].value for n in names]])
+        return (emf - single.predict(values)[0]) / u
+
+    result = lmfit.minimize(residual, params, scale_covar=False, xtol=1e-14, ftol=1e-14)
+    return np.array([result.params[n].value for n in names]), result.covar
+
+
+@settings(max_examples=15, deadline=None)
+@given(seed=st.integers(0, 2**31 - 1), n_series=st.integers(1, 6))
+def test_hueckel_batch_equals_lmfit_per_series(seed, n_series):
+    rng = np.random.default_rng(seed)
+    n = 12
+    molality = np.sort(np.exp(rng.uniform(np.log(1e-3), np.log(0.5), (n_series, n))), axis=1)
+    truth = np.column_stack([rng.uniform(0.2, 0.3, n_series), rng.uniform(3.5, 6.0, n_series),
+                             rng.uniform(0.05, 0.3, n_series), np.ones(n_series)])
+    model = batch(HUECKEL, molality)
+    u = 2e-5
+    emf = model.predict(truth) + rng.normal(0.0, u, molality.shape)
+    free = np.tile([True, True, True, False], (n_series, 1))
+    linear, bounds = specs(HUECKEL)
+    start = np.tile([0.2, 4.5, 0.2, 1.0], (n_series, 1))
+    fit = solve(model, emf, np.full(molality.shape, u**-2), start, free, linear, bounds)
+    assert fit.converged.all()
+    for s in range(n_series):
+        values, covariance = lmfit_one(HUECKEL, molality[s], emf[s], u, start[s], free[s])
+        assert fit.values[s, 0] == pytest.approx(values[0], abs=1e-9)
+        np.testing.assert_allclose(fit.values[s, 1:3], values[1:3], rtol=1e-5)
+        np.testing.assert_allclose(fit.covariance[s][:3, :3], covariance, rtol=1e-3)
+
+
+def test_linear_pitzer_is_solved_in_one_step_and_equals_lmfit():
+    rng = np.random.default_rng(3)
+    molality = np.tile(np.geomspace(0.01, 3.0, 14), (3, 1))
+    truth = np.tile([0.22234, 0.1775, 0.2945, 0.0, 0.0008, 1.0], (3, 1))
+    model = batch(PITZER, molality)
+    emf = model.predict(truth) + rng.normal(0.0, 1e-5, molality.shape)
+    free = np.tile([True, True, True, False, True, False], (3, 1))
+    linear, bounds = specs(PITZER)
+    fit = solve(model, emf, np.full(molality.shape, 1e10), np.tile(
+        [0.0, 0.0, 0.0, 0.0, 0.0, 1.0], (3, 1)), free, linear, bounds)
+    for s in range(3):
+        values, covariance = lmfit_one(PITZER, molality[s], emf[s], 1e-5, truth[s], free[s])
+        assert fit.values[s, 0] == pytest.approx(values[0], abs=1e-10)
+        kept = free[s]
+        # lmfit takes its Jacobian by forward differences: agreement to ~1e-6.
+        np.testing.assert_allclose(fit.covariance[s][np.ix_(kept, kept)], covariance, rtol=1e-5)
+
+
+def test_ragged_series_and_per_series_held_parameters():
+    """A masked reading (weight 0) does not count; one series fits å, the other holds it."""
+    molality = np.tile(np.geomspace(0.001, 0.5, 10), (2, 1))
+    truth = np.array([[0.22, 4.5, 0.2, 1.0], [0.23, 4.0, 0.1, 1.0]])
+    model = batch(HUECKEL, molality)
+    emf = model.predict(truth)
+    weights = np.ones(molality.shape)
+    weights[1, 7:] = 0.0
+    emf[1, 7:] = 99.0  # masked readings: any value
+    free = np.array([[True, True, True, False], [True, False, True, False]])
+    linear, bounds = specs(HUECKEL)
+    fit = solve(model, emf, weights, np.array([[0.2, 5.0, 0.0, 1.0], [0.2, 4.0, 0.0, 1.0]]),
+                free, linear, bounds, scale_covariance=True)
+    np.testing.assert_allclose(fit.values[:, [0, 2]], truth[:, [0, 2]], atol=1e-9)
+    assert fit.values[1, 1] == 4.0 and fit.covariance[1, 1, 1] == 0.0
+    assert list(fit.dof) == [7, 5]
+    assert fit.residual_V[1, 7:].tolist() == [0.0, 0.0, 0.0]
+
+
+def test_curve_uncertainty_is_first_order_propagation():
+    """u(Ê) at the readings equals √(g C gᵀ) computed from the Jacobian (regression of the
+    formula against an explicit loop)."""
+    rng = np.random.default_rng(1)
+    molality = np.geomspace(0.001, 0.1, 8)[None, :]
+    model = batch(HUECKEL, molality)
+    emf = model.predict(np.array([[0.22, 4.5, 0.2, 1.0]])) + rng.normal(0, 2e-5, (1, 8))
+    linear, bounds = specs(HUECKEL)
+    fit = solve(model, emf, np.full((1, 8), 2.5e9), np.array([[0.2, 4.5, 0.2, 1.0]]),
+                np.array([[True, False, True, False]]), linear, bounds)
+    predicted, u = fit.curve(model)
+    g = fit.jacobian[0]
+    expected = np.sqrt([g[i] @ fit.covariance[0] @ g[i] for i in range(8)])
+    np.testing.assert_allclose(u[0], expected, rtol=1e-12)
+    np.testing.assert_allclose(predicted, emf - fit.residual_V, atol=1e-15)
