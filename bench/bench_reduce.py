@@ -25,9 +25,9 @@ IMPORTS = "import numpy, scipy, scipy.optimize, pandas, matplotlib, matplotlib.p
 
 def make_series(folder: Path, n_points: int = 20) -> Path:
     """A 20-point HCl series from the Hückel equation with noise (benchmark input only)."""
-    from activolt.electrolytes import nernst_factor, parse_electrolyte
-    from activolt.models.hueckel import ln_gamma
-    from activolt.solvent import debye_hueckel_constants
+    from activolt.activity.hueckel import ln_gamma
+    from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
+    from activolt.physics.water import debye_hueckel_constants
 
     hcl = parse_electrolyte("HCl")
     m = np.geomspace(0.001, 1.0, n_points)
@@ -44,8 +44,8 @@ def make_series(folder: Path, n_points: int = 20) -> Path:
 
 def library_median_s(path: Path, repeats: int = 40) -> float:
     """Median wall time of read + reduce of one series, after one warm-up."""
-    from activolt.reduce import reduce_run
-    from activolt.runs import read_run
+    from activolt.data.runs import read_run
+    from activolt.procedures.dilution import reduce_run
 
     run = read_run(path)
     reduce_run(run)

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
-from activolt.electrolytes import nernst_factor, parse_electrolyte
+from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
 
 
 def write_run(folder: Path, molality: Sequence[float], emf_V: Sequence[float],

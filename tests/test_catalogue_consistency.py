@@ -22,15 +22,15 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from activolt.cells import cell_from_diagram, cell_summary
-from activolt.cli import main
-from activolt.electrodes import (
+from activolt.chemistry.cells import cell_from_diagram, cell_summary
+from activolt.chemistry.electrodes import (
     catalogue,
     couple,
     couple_at_temperature,
     couple_relations,
     silver_chloride_standard_potential,
 )
+from activolt.cli import main
 
 FARADAY_C_MOL = 96485.33212  # CODATA 2018
 RELATIONS = couple_relations(max_members=4)

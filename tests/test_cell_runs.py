@@ -19,10 +19,10 @@ import pytest
 from iapws.iapws97 import _PSat_T
 from scipy import constants as sc
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.reduce import reduce_run
-from activolt.reference.published import interpolate_gamma, published_gamma
-from activolt.runs import read_run
+from activolt.activity.published import interpolate_gamma, published_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.procedures.dilution import reduce_run
 
 HARNED = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"
 E0_ATM_V = 0.22234  # Bates & Bower (1954), Table 1

@@ -6,14 +6,14 @@ import json
 
 import pytest
 
-from activolt.cells import (
+from activolt.chemistry.cells import (
     DiagramError,
     cell_from_diagram,
     cell_summary,
     format_cell_summary,
     parse_diagram,
 )
-from activolt.corrections import standard_pressure_basis_shift
+from activolt.physics.corrections import standard_pressure_basis_shift
 
 HARNED = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"
 # RT/F = 25.6926 mV at 298.15 K (CODATA 2018; reference-values.md, derived)

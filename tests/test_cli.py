@@ -11,8 +11,8 @@ import json
 
 from synthetic import emf_from_gamma, write_run
 
+from activolt.activity.published import published_gamma
 from activolt.cli import main
-from activolt.reference.published import published_gamma
 
 
 def _run(tmp_path, u_emf_V=2e-5):

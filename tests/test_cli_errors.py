@@ -30,8 +30,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from activolt.cli import main
+from activolt.data.runs import read_run
 from activolt.errors import InputError
-from activolt.runs import read_run
 
 HEADER_COMMENT = "# test run (comment line: data line numbers below are counted from the top)\n"
 #: Demo readings (invented lab) in volts: molality [mol/kg], EMF [V]

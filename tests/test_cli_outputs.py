@@ -23,9 +23,9 @@ from pathlib import Path
 
 import pytest
 
-from activolt import files as output_files
 from activolt.cli import main, series_file_name
-from activolt.records import record_schema
+from activolt.io import files as output_files
+from activolt.io.record import record_schema
 
 ROWS_V = (
     ("0.0010", "0.579126"), ("0.0020", "0.544211"), ("0.0050", "0.498344"),
@@ -173,12 +173,12 @@ def test_temporaries_of_a_dead_run_are_removed(tmp_path, capsys):
 # --- 2. Ctrl-C ----------------------------------------------------------------------------
 
 def test_ctrl_c_during_the_work_is_one_line_and_exit_130(tmp_path, capsys, monkeypatch):
-    import activolt.montecarlo
+    import activolt.procedures.montecarlo
 
     def interrupted(*args, **kwargs):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(activolt.montecarlo, "monte_carlo", interrupted)
+    monkeypatch.setattr(activolt.procedures.montecarlo, "monte_carlo", interrupted)
     path = _table(tmp_path)
     assert main(["reduce", str(path), "--monte-carlo", "100", "--no-figures"]) == 130
     assert "interrupted" in _one_error_line(capsys)
@@ -374,7 +374,7 @@ _SETS = textwrap.dedent("""
 _KILLER = _SETS + textwrap.dedent("""
     import hashlib, json, os, random, signal, sys, time
     from pathlib import Path
-    from activolt.files import write_outputs
+    from activolt.io.files import write_outputs
 
     folder = Path(sys.argv[1])
     owned = sorted(NEW)

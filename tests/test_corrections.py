@@ -9,7 +9,7 @@ import pandas as pd
 import pytest
 
 from activolt.constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA
-from activolt.corrections import (
+from activolt.physics.corrections import (
     gas_pressure_correction,
     hydrogen_partial_pressure,
     hydrogen_pressure_correction,

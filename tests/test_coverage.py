@@ -25,12 +25,12 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models import pitzer
-from activolt.reduce import reduce_run
+from activolt.activity import pitzer
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
 from activolt.reference.parameters import pitzer_parameters
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_constants
 
 E0_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C
 U_EMF_V = 2e-5

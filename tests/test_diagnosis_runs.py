@@ -13,11 +13,11 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models.hueckel import ln_gamma
-from activolt.reduce import reduce_run
-from activolt.runs import Exclusion, read_run
-from activolt.solvent import debye_hueckel_constants
+from activolt.activity.hueckel import ln_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import Exclusion, read_run
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
 
 HCL = parse_electrolyte("HCl")
 MOLALITY = np.array([0.001, 0.002, 0.003, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 0.7, 1.0])

@@ -14,17 +14,17 @@ import pandas as pd
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.diagnostics import (
+from activolt.activity.hueckel import ln_gamma
+from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
+from activolt.fit.diagnostics import (
     cooks_distance,
     flag_points,
     leverage,
     outlier_threshold,
     studentized_residuals,
 )
-from activolt.electrolytes import nernst_factor, parse_electrolyte
-from activolt.fitting import linear_least_squares, weighted_least_squares
-from activolt.models.hueckel import ln_gamma
-from activolt.solvent import debye_hueckel_constants
+from activolt.fit.least_squares import linear_least_squares, weighted_least_squares
+from activolt.physics.water import debye_hueckel_constants
 
 HCL = parse_electrolyte("HCl")
 MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0])
@@ -141,8 +141,8 @@ def test_clean_runs_are_rarely_flagged():
 
 def test_flags_from_a_reduction(tmp_path):
     # Through the reduction's own fit (stated u(E)), an outlier in the middle of the run.
-    from activolt.reduce import _jacobian, _prepare, reduce_run
-    from activolt.runs import read_run
+    from activolt.data.runs import read_run
+    from activolt.procedures.dilution import _jacobian, _prepare, reduce_run
 
     gamma = np.exp(ln_gamma(HCL, MOLALITY, _CONSTANTS, TRUTH))
     emf = emf_from_gamma(MOLALITY, gamma, E0_V)

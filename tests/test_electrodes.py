@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from activolt.electrodes import (
+from activolt.chemistry.electrodes import (
     U_KINDS,
     amalgam_couple,
     catalogue,
@@ -19,7 +19,7 @@ from activolt.electrodes import (
     silver_chloride_standard_potential,
     silver_chloride_standard_uncertainty,
 )
-from activolt.reactions import parse_half_reaction
+from activolt.chemistry.reactions import parse_half_reaction
 
 # --- integrity (guards against accidental edits) --------------------------------------------
 

@@ -14,7 +14,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from activolt.electrolytes import (
+from activolt.chemistry.electrolytes import (
     ANIONS,
     CATIONS,
     MAX_STOICHIOMETRIC_NUMBER,

@@ -10,10 +10,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from activolt.electrolytes import nernst_factor, parse_electrolyte
+from activolt.activity import get_model
+from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
 from activolt.fit.engine import MeasurementModel, solve
-from activolt.models import get_model
-from activolt.solvent import debye_hueckel_constants
+from activolt.physics.water import debye_hueckel_constants
 
 HCL = parse_electrolyte("HCl")
 HUECKEL = get_model("hueckel")

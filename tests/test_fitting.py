@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 
 from activolt.errors import FitError
-from activolt.fitting import (
+from activolt.fit.least_squares import (
     central_difference_jacobian,
     information_criteria,
     linear_least_squares,

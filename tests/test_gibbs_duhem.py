@@ -12,10 +12,10 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models import MODELS, limiting
-from activolt.models.base import ActivityModel
-from activolt.solvent import debye_hueckel_constants
+from activolt.activity import MODELS, limiting
+from activolt.activity.base import ActivityModel
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.physics.water import debye_hueckel_constants
 
 #: One electrolyte per charge type (cation charge first).
 CHARGE_TYPES = {"1:1": "HCl", "2:1": "CaCl2", "1:2": "Na2SO4", "2:2": "MgSO4", "3:1": "LaCl3"}

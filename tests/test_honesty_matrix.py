@@ -21,10 +21,10 @@ from __future__ import annotations
 import pytest
 from published_series import E0_V, RANGES, write_published_series
 
+from activolt.data.runs import read_run
 from activolt.errors import FitError
-from activolt.model_choice import compare_models
-from activolt.reduce import reduce_run
-from activolt.runs import read_run
+from activolt.procedures.dilution import reduce_run
+from activolt.procedures.model_choice import compare_models
 
 MODELS = ("limiting", "hueckel", "davies", "sit", "pitzer")
 SERIES = [(electrolyte, top, index, position)

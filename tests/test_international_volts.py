@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
+from activolt.activity.published import published_gamma
 from activolt.constants import INTERNATIONAL_VOLT_V
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
-from activolt.runs import read_run
+from activolt.data.runs import read_run
+from activolt.procedures.dilution import reduce_run
 
 # NBS Circular 459 (1947): 1 US international volt = 1.000330 absolute volt (from memory).
 NBS_INTERNATIONAL_VOLT_V = 1.000330

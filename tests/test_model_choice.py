@@ -21,21 +21,22 @@ import pandas as pd
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt import diagnostics, model_choice
-from activolt.electrolytes import nernst_factor, parse_electrolyte
+from activolt.activity import MODELS, pitzer
+from activolt.activity.published import published_gamma
+from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
+from activolt.data.runs import read_run
 from activolt.errors import FitError, InputError
-from activolt.model_choice import (
+from activolt.fit import diagnostics
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures import model_choice
+from activolt.procedures.dilution import reduce_run
+from activolt.procedures.model_choice import (
     RunsTest,
     compare_models,
     comparison_record,
     runs_test,
 )
-from activolt.models import MODELS, pitzer
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
 from activolt.report.model_table import format_model_comparison
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_constants
 
 E0_TRUTH_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C; an arbitrary truth here
 #: Pitzer & Mayorga (1973), HCl at 25 °C (from memory); only to generate smooth synthetic data.

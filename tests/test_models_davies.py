@@ -6,9 +6,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models import davies, limiting
-from activolt.solvent import debye_hueckel_constants
+from activolt.activity import davies, limiting
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.physics.water import debye_hueckel_constants
 
 CONSTANTS_25C = debye_hueckel_constants(298.15)
 

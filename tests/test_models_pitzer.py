@@ -6,12 +6,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from activolt.electrolytes import parse_electrolyte
+from activolt.activity import pitzer
+from activolt.chemistry.electrolytes import parse_electrolyte
 from activolt.errors import FitError
-from activolt.models import pitzer
+from activolt.physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from activolt.reference import load_table
 from activolt.reference.parameters import pitzer_parameters
-from activolt.solvent import DebyeHueckelConstants, debye_hueckel_constants
 
 CONSTANTS_25C = debye_hueckel_constants(298.15)  # A_φ = 0.3913 (IAPWS water)
 # Pitzer & Mayorga (1973) used A_φ = 0.392 at 25 °C (reference-values.md).
@@ -101,7 +101,7 @@ def test_osmotic_coefficient_matches_published_tables(salt, molality, expected):
 
 def test_largest_deviation_per_salt_is_as_reported():
     # Regression pin of the deviations stated in the report (values the code produced, A_φ from
-    # activolt.solvent): a change of parameters or equations that moves them shows up here.
+    # activolt.physics.water): a change of parameters or equations that moves them shows up here.
     largest = {}
     for salt, table in GAMMA_25C.items():
         m = np.array(list(table))

@@ -8,9 +8,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models import sit
-from activolt.solvent import debye_hueckel_constants
+from activolt.activity import sit
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.physics.water import debye_hueckel_constants
 
 CONSTANTS_25C = debye_hueckel_constants(298.15)
 HCL = parse_electrolyte("HCl")

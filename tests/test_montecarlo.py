@@ -17,12 +17,12 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models.hueckel import ln_gamma
-from activolt.montecarlo import coverage_interval, monte_carlo
-from activolt.reduce import reduce_run
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_constants
+from activolt.activity.hueckel import ln_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
+from activolt.procedures.montecarlo import coverage_interval, monte_carlo
 
 HCL = parse_electrolyte("HCl")
 MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0])
@@ -123,9 +123,9 @@ def test_molality_uncertainty_acts_like_a_reading_uncertainty(run, reduction):
     # k_i u(m_i)/m_i exactly as a reading error would: it enters E° and γ± together. The linear
     # propagation that keeps this is D A V_y Aᵀ D with A = 1 sᵀ − I, D = diag(1/k),
     # V_y = diag(u²(E) + k² u²(m)/m²) (GUM, JCGM 100:2008, 5.2; derivation in this docstring).
-    from activolt.electrolytes import nernst_factor
-    from activolt.reduce import _jacobian, _prepare
-    from activolt.uncertainty import sensitivity_matrix
+    from activolt.chemistry.electrolytes import nernst_factor
+    from activolt.fit.uncertainty import sensitivity_matrix
+    from activolt.procedures.dilution import _jacobian, _prepare
 
     points = run.points.copy()
     points["u_molality_mol_kg"] = 1e-3 * points["molality_mol_kg"]  # 0.1 % relative
@@ -171,7 +171,7 @@ def test_linear_model_is_solved_in_one_step(tmp_path):
 
 def test_one_by_one_path_agrees_with_the_vectorised_path(run, reduction, monkeypatch):
     # The robust path (the fitting core per trial) must give the same fits (regression check).
-    import activolt.montecarlo as montecarlo_module
+    import activolt.procedures.montecarlo as montecarlo_module
 
     fast = monte_carlo(run, trials=30, seed=11, reduction=reduction)
     monkeypatch.setattr(montecarlo_module, "_gauss_newton",
@@ -255,7 +255,7 @@ class _Bar:
 
 
 def test_progress_is_shown_only_when_asked_or_on_a_terminal(run, reduction, monkeypatch):
-    import activolt.montecarlo as mc
+    import activolt.procedures.montecarlo as mc
 
     bars: list[_Bar] = []
     monkeypatch.setattr(mc, "_progress_bar", lambda trials: bars.append(_Bar()) or bars[-1])
@@ -268,7 +268,7 @@ def test_progress_is_shown_only_when_asked_or_on_a_terminal(run, reduction, monk
 
 
 def test_an_interrupted_run_closes_its_progress_bar(run, reduction, monkeypatch):
-    import activolt.montecarlo as mc
+    import activolt.procedures.montecarlo as mc
 
     bar = _Bar(stop_after=1)
     monkeypatch.setattr(mc, "_progress_bar", lambda trials: bar)

@@ -18,14 +18,14 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
+from activolt.activity import pitzer
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
 from activolt.errors import FitError, InputError
-from activolt.models import pitzer
-from activolt.reduce import reduce_run
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
 from activolt.reference import load_table
 from activolt.reference import parameters as reference_parameters
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_constants
 
 E0_TRUE_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C (confirmed)
 U_EMF_V = 1e-5  # 0.01 mV noise, stated as u_emf

@@ -23,18 +23,18 @@ from hypothesis import strategies as st
 from scipy.integrate import quad
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.models import MODELS, pitzer
-from activolt.properties import (
+from activolt.activity import MODELS, pitzer
+from activolt.activity.properties import (
     MOLAR_MASS_WATER_KG_MOL,
     derived_properties,
     excess_gibbs_energy_rt,
     water_activity,
 )
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_constants
+from activolt.activity.published import published_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
 
 E0_TRUTH_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C; an arbitrary truth here
 NACL_1M_PHI = 0.9355  # Robinson & Stokes (1959), Appendix 8.10 (from memory)

@@ -21,12 +21,12 @@ import pandas as pd
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.records import build_record, record_json, record_schema
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
+from activolt.activity.published import published_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.io.record import build_record, record_json, record_schema
+from activolt.procedures.dilution import reduce_run
 from activolt.report.comparison import compare_with_published, comparison_lines
-from activolt.runs import read_run
 
 # HCl, 25 °C. Robinson & Stokes (1959), Appendix 8.10 (from memory) / Hamer & Wu (1972), CRC
 # Handbook (confirmed in a transcription).

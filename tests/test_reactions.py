@@ -10,9 +10,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from activolt.constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
-from activolt.electrodes import catalogue, couple
-from activolt.reactions import (
+from activolt.chemistry.electrodes import catalogue, couple
+from activolt.chemistry.reactions import (
     BalanceError,
     HalfReaction,
     Species,
@@ -25,6 +24,7 @@ from activolt.reactions import (
     split_charge,
     stoichiometry_from_mapping,
 )
+from activolt.constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
 
 # --- literature checks ----------------------------------------------------------------------
 

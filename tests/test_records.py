@@ -1,6 +1,6 @@
 """The JSON record: schema, contents, and that it says how each uncertainty was obtained.
 
-Contract: shared/design.md ("The JSON record"); schema: src/activolt/record_schema.json.
+Contract: shared/design.md ("The JSON record"); schema: src/activolt/io/record_schema.json.
 Check values are behaviours of the contract (common practice for archival records: inputs
 identified by SHA-256, NaN written as null).
 """
@@ -15,10 +15,10 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.records import build_record, points_csv, record_json, record_schema
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
-from activolt.runs import read_run
+from activolt.activity.published import published_gamma
+from activolt.data.runs import read_run
+from activolt.io.record import build_record, points_csv, record_json, record_schema
+from activolt.procedures.dilution import reduce_run
 
 
 @pytest.fixture(scope="module")

@@ -16,13 +16,13 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
+from activolt.activity.hueckel import BATES_GUGGENHEIM_BA
+from activolt.activity.published import published_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
 from activolt.errors import FitError, InputError
-from activolt.models.hueckel import BATES_GUGGENHEIM_BA
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_b
+from activolt.physics.water import debye_hueckel_b
+from activolt.procedures.dilution import reduce_run
 
 E0_BATES_BOWER_25C_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C (1 atm, absolute volts)
 
@@ -92,7 +92,7 @@ def test_short_dilute_run_holds_ion_size_at_bates_guggenheim(tmp_path):
     extra_m = np.array([0.002, 0.003])
     m_all = np.concatenate([m, extra_m])
     table = published_gamma("HCl", 298.15)
-    from activolt.reference.published import interpolate_gamma
+    from activolt.activity.published import interpolate_gamma
 
     gamma_all = interpolate_gamma(table, m_all, parse_electrolyte("HCl"), 298.15)
     emf = emf_from_gamma(m_all, gamma_all, E0_BATES_BOWER_25C_V)
@@ -139,9 +139,9 @@ def test_covariance_equals_lmfit(tmp_path):
     emf = emf + np.random.default_rng(11).normal(0.0, 1e-5, m.size)
     reduction = reduce_run(read_run(write_run(tmp_path, m, emf, u_emf_V=1e-5)), "hueckel")
     hcl = parse_electrolyte("HCl")
-    from activolt.electrolytes import nernst_factor
-    from activolt.models.hueckel import ln_gamma
-    from activolt.solvent import debye_hueckel_constants
+    from activolt.activity.hueckel import ln_gamma
+    from activolt.chemistry.electrolytes import nernst_factor
+    from activolt.physics.water import debye_hueckel_constants
 
     constants = debye_hueckel_constants(np.full(m.size, 298.15))
     k = nernst_factor(hcl, 1, 298.15)

@@ -12,13 +12,13 @@ import math
 import numpy as np
 import pytest
 
-from activolt.reference import load_table
-from activolt.reference.published import (
+from activolt.activity.published import (
     interpolate_gamma,
     published_consensus,
     published_gamma,
     source_label,
 )
+from activolt.reference import load_table
 
 
 def _checksum(values: np.ndarray) -> str:
@@ -131,7 +131,7 @@ def test_consensus_mean_spread_and_uncertainty_at_printed_molalities():
 
 
 def test_consensus_reads_each_table_where_it_reaches():
-    from activolt.electrolytes import parse_electrolyte
+    from activolt.chemistry.electrolytes import parse_electrolyte
 
     hcl = parse_electrolyte("HCl")
     table = published_gamma("HCl", 298.15, all_sources=True)
@@ -153,7 +153,7 @@ def test_consensus_reads_each_table_where_it_reaches():
 
 
 def test_a_lone_entry_far_from_its_neighbours_is_not_interpolated():
-    from activolt.electrolytes import parse_electrolyte
+    from activolt.chemistry.electrolytes import parse_electrolyte
 
     # Robinson & Stokes NaCl rows: 0.001–0.05 and a lone 2.0 mol/kg (0.668): at 1 mol/kg only
     # Pitzer, Peiper & Busey (0.657, confirmed) speak.
@@ -172,7 +172,7 @@ def test_no_table_at_other_temperatures_or_electrolytes():
 
 
 def test_interpolation_hits_table_values_and_refuses_extrapolation():
-    from activolt.electrolytes import parse_electrolyte
+    from activolt.chemistry.electrolytes import parse_electrolyte
 
     table = published_gamma("NaCl", 298.15)
     m = table["molality_mol_kg"].to_numpy()

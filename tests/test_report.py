@@ -9,12 +9,12 @@ from __future__ import annotations
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import parse_electrolyte
-from activolt.reduce import reduce_run
-from activolt.reference.published import published_gamma
+from activolt.activity.published import published_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.procedures.dilution import reduce_run
 from activolt.report.cautions import ACID, HYDROGEN, MERCURY, cautions_for
 from activolt.report.numbers import format_with_uncertainty
-from activolt.runs import read_run
 
 
 @pytest.mark.parametrize(("value", "u", "expected"), [

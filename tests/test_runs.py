@@ -19,7 +19,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from activolt.runs import read_run, usable_points
+from activolt.data.runs import read_run, usable_points
 
 ZERO_CELSIUS_K = 273.15  # SI: T/K = t/°C + 273.15
 TOML = 'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25.0\n'

@@ -8,13 +8,13 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from activolt import solvent
 from activolt.constants import (
     AVOGADRO_PER_MOL,
     BOLTZMANN_J_K,
     ELEMENTARY_CHARGE_C,
     VACUUM_PERMITTIVITY_F_M,
 )
+from activolt.physics import water as solvent
 
 # Pitzer, Peiper & Busey (1984), J. Phys. Chem. Ref. Data 13, 1: A_φ / (kg^½ mol^-½) by t / °C.
 APHI_PPB_1984 = {0: 0.3767, 10: 0.3821, 20: 0.3882, 25: 0.3915, 30: 0.3949, 40: 0.4023,

@@ -16,12 +16,12 @@ import numpy as np
 import pytest
 from synthetic import emf_from_gamma, write_run
 
-from activolt.electrolytes import nernst_factor, parse_electrolyte
-from activolt.models.hueckel import ln_gamma
-from activolt.reduce import reduce_run, sensitivity_matrix
-from activolt.runs import read_run
-from activolt.solvent import debye_hueckel_constants
-from activolt.uncertainty import ln_gamma_covariance, student_t_factor
+from activolt.activity.hueckel import ln_gamma
+from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.fit.uncertainty import ln_gamma_covariance, student_t_factor
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run, sensitivity_matrix
 
 HCL = parse_electrolyte("HCl")
 MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.0])
@@ -69,7 +69,7 @@ def test_ignoring_the_correlation_gives_a_different_and_wrong_answer(monte_carlo
     observed = trials[:, :-1].std(axis=0, ddof=1)
     data_k = nernst_factor(HCL, 1, np.full(MOLALITY.size, 298.15))
     # Rebuild the naive propagation from the reduction's own Jacobian.
-    from activolt.reduce import _jacobian, _prepare
+    from activolt.procedures.dilution import _jacobian, _prepare
 
     data = _prepare(first.run)
     jac = _jacobian(first.model, HCL, data, first.standard_potential.nominal_value,
@@ -112,7 +112,7 @@ def test_molality_uncertainty_by_effective_variance_matches_monte_carlo(tmp_path
     # u(m) = 0.1 % of m (a typical gravimetric dilution; common practice) enters the fit as an
     # effective reading variance (Orear 1982, Am. J. Phys. 50, 912); the GUM-S1 Monte Carlo of
     # the whole reduction (JCGM 101:2008) is the reference, within 10 %.
-    from activolt.montecarlo import monte_carlo
+    from activolt.procedures.montecarlo import monte_carlo
 
     gamma = _truth_gamma()
     emf = emf_from_gamma(MOLALITY, gamma, E0_V)

@@ -21,7 +21,7 @@ from .errors import FitError, InputError
 from .safe_text import escape_controls
 
 if TYPE_CHECKING:
-    from .reduce import Reduction
+    from .procedures.dilution import Reduction
 
 DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
@@ -117,10 +117,10 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
             overrides: dict[str, object], figures: bool, exclude: tuple[str, ...] = (),
             trials: int | None = None, seed: int = 0,
             written: list[Path] | None = None) -> list[Path]:
-    from .files import check_outputs, write_outputs
-    from .records import points_csv, record_json
-    from .reduce import reduce_run
-    from .runs import Exclusion, exclude_points, read_run
+    from .data.runs import Exclusion, exclude_points, read_run
+    from .io.files import check_outputs, write_outputs
+    from .io.record import points_csv, record_json
+    from .procedures.dilution import reduce_run
 
     run = read_run(run_path, meta, overrides=overrides, series=series)
     # Where everything goes, checked before any work: never onto an input, never mixed.
@@ -146,8 +146,8 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
                          column="--seed")
     comparison = None
     if model == "all" or "," in model:
-        from .model_choice import compare_models
-        from .models import MODELS
+        from .activity import MODELS
+        from .procedures.model_choice import compare_models
         from .report.model_table import format_model_comparison
 
         names = list(MODELS) if model == "all" else [m.strip() for m in model.split(",")]
@@ -164,7 +164,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         report = reduction.report()
     monte = None
     if trials is not None:
-        from .montecarlo import monte_carlo
+        from .procedures.montecarlo import monte_carlo
         from .report.text import format_monte_carlo
 
         monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
@@ -259,7 +259,7 @@ def _with_model_choice_reminder(reduction: Reduction) -> Reduction:
 def _fixed_per_model(names: list[str], fixed: dict[str, float]) -> dict[str, dict[str, float]]:
     """--fix values for each compared model that has the parameter; one no model has is an
     error."""
-    from .models import get_model
+    from .activity import get_model
 
     per_model: dict[str, dict[str, float]] = {}
     for parameter, value in fixed.items():
@@ -275,7 +275,7 @@ def _fixed_per_model(names: list[str], fixed: dict[str, float]) -> dict[str, dic
 def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Path]:
     import json
 
-    from .cells import DiagramError, cell_summary, format_cell_summary
+    from .chemistry.cells import DiagramError, cell_summary, format_cell_summary
     from .constants import ZERO_CELSIUS_K
 
     if not 0.0 <= temperature_C <= 100.0:
@@ -291,7 +291,7 @@ def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Pa
     text = escape_controls(format_cell_summary(summary), keep="\n")
     written = []
     if json_path is not None:
-        from .files import write_outputs
+        from .io.files import write_outputs
 
         written = write_outputs({json_path: json.dumps(summary, ensure_ascii=False, indent=2)
                                  + "\n"})

@@ -24,9 +24,9 @@ from functools import cached_property
 
 import numpy as np
 
-from ..electrolytes import Electrolyte
-from ..models.base import ActivityModel
-from ..solvent import DebyeHueckelConstants
+from ..activity.base import ActivityModel
+from ..chemistry.electrolytes import Electrolyte
+from ..physics.water import DebyeHueckelConstants
 
 __all__ = ["E0", "SLOPE", "BatchFit", "MeasurementModel", "solve"]
 
@@ -271,9 +271,9 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     Two Hückel series fitted at once (E° = 0.2 V and 0.3 V, b = 0.1 kg/mol, å held at 4 Å):
 
     >>> import numpy as np
-    >>> from activolt.electrolytes import parse_electrolyte, nernst_factor
-    >>> from activolt.models import get_model
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte, nernst_factor
+    >>> from activolt.activity import get_model
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> hcl = parse_electrolyte("HCl")
     >>> m = np.tile(np.geomspace(0.001, 0.1, 6), (2, 1))
     >>> mm = MeasurementModel(get_model("hueckel"), hcl, 1, m,

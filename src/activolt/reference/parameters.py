@@ -243,7 +243,8 @@ def sit_epsilon(cation: str, anion: str) -> tuple[float, float, str] | None:
     Parameters
     ----------
     cation, anion : str
-        Ion symbols as in :mod:`activolt.electrolytes` (``"Na"``, ``"SO4"``), optionally with
+        Ion symbols as in :mod:`activolt.chemistry.electrolytes` (``"Na"``, ``"SO4"``), optionally
+        with
         their charge (``"Na+"``, ``"Ca2+"``, ``"SO4 2-"``, ``"SO4^2−"``).
 
     Returns

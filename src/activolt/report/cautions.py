@@ -5,7 +5,7 @@ They state common laboratory practice and always defer to local codes and the la
 
 from __future__ import annotations
 
-from ..electrolytes import Electrolyte
+from ..chemistry.electrolytes import Electrolyte
 
 _DEFER = "Follow your local codes and your laboratory's safety rules; they take precedence."
 HYDROGEN = ("Hydrogen gas is flammable and forms explosive mixtures with air (about 4–75 % by "
@@ -22,7 +22,7 @@ def cautions_for(electrolyte: Electrolyte, cell: str | None = None) -> list[str]
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> len(cautions_for(parse_electrolyte("HCl")))
     3
     >>> cautions_for(parse_electrolyte("KCl"), "Ag(s) | AgCl(s) | KCl(aq) | K(Hg)")[0][:7]

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..reduce import Reduction
-from ..reference.published import published_consensus, published_gamma
+from ..activity.published import published_consensus, published_gamma
+from ..procedures.dilution import Reduction
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -35,7 +35,7 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     .. math:: u_c = \sqrt{u^2(γ_±) + u_{pub}^2}
 
     with u(γ±) from the reduction (k = 1) and u_pub from
-    :func:`~activolt.reference.published.published_consensus`. A ratio |difference| / u_c up to
+    :func:`~activolt.activity.published.published_consensus`. A ratio |difference| / u_c up to
     about 2 says the run and the tables agree within what both can tell; a much larger one is a
     disagreement that the tables' own spread does not explain.
     """

@@ -13,11 +13,11 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..electrolytes import nernst_factor
-from ..models.hueckel import BATES_GUGGENHEIM_BA
-from ..reduce import Reduction
-from ..reference.published import published_gamma
-from ..solvent import debye_hueckel_constants
+from ..activity.hueckel import BATES_GUGGENHEIM_BA
+from ..activity.published import published_gamma
+from ..chemistry.electrolytes import nernst_factor
+from ..physics.water import debye_hueckel_constants
+from ..procedures.dilution import Reduction
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes

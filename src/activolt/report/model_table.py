@@ -1,10 +1,12 @@
-"""The plain-text table of a model comparison (:func:`activolt.model_choice.compare_models`)."""
+"""The plain-text table of a model comparison
+(:func:`activolt.procedures.model_choice.compare_models`).
+"""
 
 from __future__ import annotations
 
 import math
 
-from ..model_choice import MODEL_CHOICE_RULE, RECOMMENDATION_RULE, ModelComparison
+from ..procedures.model_choice import MODEL_CHOICE_RULE, RECOMMENDATION_RULE, ModelComparison
 from .numbers import decimals_for, format_with_uncertainty
 
 __all__ = ["format_model_comparison"]
@@ -31,7 +33,7 @@ def format_model_comparison(comparison: ModelComparison) -> str:
     Parameters
     ----------
     comparison : ModelComparison
-        From :func:`activolt.model_choice.compare_models`.
+        From :func:`activolt.procedures.model_choice.compare_models`.
 
     Returns
     -------
@@ -45,7 +47,7 @@ def format_model_comparison(comparison: ModelComparison) -> str:
 
     Notes
     -----
-    The criteria and rules are those of :mod:`activolt.model_choice` (GUM, JCGM 100:2008,
+    The criteria and rules are those of :mod:`activolt.procedures.model_choice` (GUM, JCGM 100:2008,
     4.3.7; Wald & Wolfowitz 1940, Ann. Math. Statist. 11, 147).
     """
     c = comparison

@@ -15,11 +15,11 @@ from pathlib import Path
 
 import numpy as np
 
-from activolt.corrections import hydrogen_partial_pressure, hydrogen_pressure_correction
-from activolt.electrolytes import nernst_factor, parse_electrolyte
-from activolt.models import pitzer
+from activolt.activity import pitzer
+from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
+from activolt.physics.corrections import hydrogen_partial_pressure, hydrogen_pressure_correction
+from activolt.physics.water import debye_hueckel_constants
 from activolt.reference.parameters import pitzer_parameters
-from activolt.solvent import debye_hueckel_constants
 
 HERE = Path(__file__).resolve().parent
 STEM = "kestrel_hcl_25C"

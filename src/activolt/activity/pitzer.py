@@ -46,14 +46,14 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from ..electrolytes import Electrolyte
+from ..chemistry.electrolytes import Electrolyte
 from ..errors import FitError
+from ..physics.water import DebyeHueckelConstants
 from ..reference.parameters import (
     PitzerEntry,
     pitzer_charge_type_statistics,
     pitzer_parameters,
 )
-from ..solvent import DebyeHueckelConstants
 from .base import ActivityModel, Parameter, checked_values
 
 #: Pitzer's universal b [kg^½ mol^-½] (Pitzer 1973).
@@ -94,7 +94,7 @@ def has_beta2(electrolyte: Electrolyte) -> bool:
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> has_beta2(parse_electrolyte("MgSO4")), has_beta2(parse_electrolyte("LaCl3"))
     (True, False)
     """
@@ -132,7 +132,7 @@ def alphas(electrolyte: Electrolyte) -> tuple[float, float]:
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> [alphas(parse_electrolyte(f)) for f in ("NaCl", "MgSO4", "Al2(SO4)3")]
     [(2.0, 12.0), (1.4, 12.0), (2.0, 50.0)]
     """
@@ -204,8 +204,8 @@ def ln_gamma_terms(
     --------
     The β(0) column is 2 × (2ν+ν−/ν) m: 2 for HCl and 8/3 for CaCl2 at 1 mol kg⁻¹:
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> [round(float(ln_gamma_terms(parse_electrolyte(f), 1.0, c)[1]["beta0_kg_mol"][0]), 4)
     ...  for f in ("HCl", "CaCl2")]
@@ -256,8 +256,8 @@ def osmotic_terms(
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> offset, cols = osmotic_terms(parse_electrolyte("CaCl2"), 1.0, c)
     >>> round(float(cols["cphi_kg2_mol2"][0]), 4)  # 2 × 2^{3/2} / 3
@@ -334,8 +334,8 @@ def ln_gamma(
     HCl at 1 mol kg⁻¹ and 25 °C with the Pitzer & Mayorga (1973) parameters (from memory);
     Robinson & Stokes (1959, Appendix 8.10) give γ± = 0.809:
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> hcl = {"beta0_kg_mol": 0.1775, "beta1_kg_mol": 0.2945, "beta2_kg_mol": 0.0,
     ...        "cphi_kg2_mol2": 0.0008}
     >>> c = debye_hueckel_constants(298.15)
@@ -381,8 +381,8 @@ def osmotic_coefficient(
     NaCl at 1 mol kg⁻¹ and 25 °C with the Pitzer, Peiper & Busey (1984) parameters; Robinson &
     Stokes (1959, Appendix 8.10) give φ = 0.9355 (from memory):
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> nacl = {"beta0_kg_mol": 0.0754, "beta1_kg_mol": 0.2770, "beta2_kg_mol": 0.0,
     ...         "cphi_kg2_mol2": 0.0014}
     >>> c = debye_hueckel_constants(298.15)
@@ -401,7 +401,7 @@ def canonical_formula(electrolyte: Electrolyte) -> str:
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> canonical_formula(parse_electrolyte("(NH4)2SO4")), canonical_formula(
     ...     parse_electrolyte("CaCl2"))
     ('(NH4)2SO4', 'CaCl2')
@@ -425,7 +425,7 @@ def published_parameters(electrolyte: Electrolyte) -> PitzerEntry | None:
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> entry = published_parameters(parse_electrolyte("KCl"))
     >>> entry["beta0_kg_mol"], entry["max_molality_mol_kg"]  # Pitzer & Mayorga (1973)
     (0.04835, 4.8)
@@ -524,7 +524,7 @@ def parameter_convention(electrolyte: Electrolyte, name: str) -> PitzerConventio
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> c = parameter_convention(parse_electrolyte("KCl"), "beta0_kg_mol")
     >>> c.basis, c.value, c.uncertainty  # Pitzer & Mayorga (1973), Table II (from memory)
     ('published', 0.04835, 0.003)

@@ -5,14 +5,16 @@ For each usable reading i,
 .. math:: E_i = E° − σ s k_i [\\ln m_{±,i} + \\ln γ_±(m_i; θ)], \\qquad k_i = ν R T_i / (n F)
 
 (σ = +1 when the cell forms the electrolyte, −1 when it consumes it; s the slope factor, 1 unless
-fitted) is fitted by weighted least squares (:mod:`activolt.fitting`) in E° and the free model
+fitted) is fitted by weighted least squares (:mod:`activolt.fit.least_squares`) in E° and the free
+model
 parameters θ, u(m) entering by the effective-variance method. A parameter the data cannot
 determine is held at its conventional value and the result says which and why: too few points,
 a fit that runs to a bound, a non-linear parameter with a relative standard uncertainty beyond
 50 %, a convention with a stated uncertainty more precise than the data, or a parameter whose
 fitting does not lower the Bayesian information criterion. γ± at each point then follows from
 the measured E_i and the fitted E°, with the covariance propagated as in
-:mod:`activolt.uncertainty`. A Hitchcock-type linearised extrapolation is computed beside it as a
+:mod:`activolt.fit.uncertainty`. A Hitchcock-type linearised extrapolation is computed beside it as
+a
 cross-check.
 """
 
@@ -29,13 +31,13 @@ import pandas as pd
 from uncertainties import correlated_values
 from uncertainties.core import AffineScalarFunc
 
-from .electrolytes import Electrolyte, nernst_factor
-from .errors import FitError, InputError
-from .models import ActivityModel, Parameter, get_model
-from .models.hueckel import BATES_GUGGENHEIM_BA
-from .runs import Exclusion, Run, exclude_points, usable_points
-from .solvent import DebyeHueckelConstants, debye_hueckel_constants
-from .uncertainty import BudgetLine, ln_gamma_covariance, sensitivity_matrix, student_t_factor
+from ..activity import ActivityModel, Parameter, get_model
+from ..activity.hueckel import BATES_GUGGENHEIM_BA
+from ..chemistry.electrolytes import Electrolyte, nernst_factor
+from ..data.runs import Exclusion, Run, exclude_points, usable_points
+from ..errors import FitError, InputError
+from ..fit.uncertainty import BudgetLine, ln_gamma_covariance, sensitivity_matrix, student_t_factor
+from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 
 __all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction", "reduce_run",
            "sensitivity_matrix"]
@@ -249,7 +251,7 @@ class Reduction:
 
     def report(self) -> str:
         """A short plain-text report."""
-        from .report.text import format_report
+        from ..report.text import format_report
 
         return format_report(self)
 
@@ -288,7 +290,7 @@ def _gas_correction(run: Run, points: pd.DataFrame, water_activity: npt.ArrayLik
         raise InputError("no barometric pressure for this row while others have one; fill the "
                          "column or give pressure_kPa in the metadata", file=str(run.path),
                          line=line, column="pressure_kPa")
-    from .corrections import gas_pressure_correction, hydrogen_partial_pressure
+    from ..physics.corrections import gas_pressure_correction, hydrogen_partial_pressure
 
     temperature = points["temperature_K"].to_numpy(float)
     partial = hydrogen_partial_pressure(pressure, temperature, water_activity=water_activity,
@@ -332,7 +334,7 @@ def _with_vapour_lowering(run: Run, model: ActivityModel, data: _Data, fit: _Fit
     the metadata does not ask for it or no gas correction applies."""
     if not run.metadata.solute_vapour_lowering or data.correction_V is None:
         return data
-    from .properties import water_activity
+    from ..activity.properties import water_activity
 
     model_values = {name: fit.values[name] for name in model.parameter_names}
     phi = model.osmotic_coefficient(run.metadata.electrolyte, data.molality, data.constants,
@@ -377,7 +379,7 @@ def _model_emf(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: 
 def _jacobian(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
               values: Mapping[str, float], free: list[str]) -> np.ndarray:
     """∂E_model/∂(E°, free parameters) at the given values, by central differences."""
-    from .fitting import central_difference_jacobian
+    from ..fit.least_squares import central_difference_jacobian
 
     def predicted(p: Mapping[str, float]) -> np.ndarray:
         return _model_emf(model, electrolyte, data, p[E0], {**values, **p})
@@ -402,8 +404,9 @@ class _Fit:
 def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
               values: dict[str, float], free: list[str]) -> _Fit:
     """One weighted fit of E° and the ``free`` parameters, the others held at ``values``,
-    by the project's least-squares core (:func:`activolt.fitting.weighted_least_squares`)."""
-    from .fitting import weighted_least_squares
+    by the project's least-squares core
+    (:func:`activolt.fit.least_squares.weighted_least_squares`)."""
+    from ..fit.least_squares import weighted_least_squares
 
     # Start E° from the held/initial values, exactly (the model is linear in E°).
     start = _model_emf(model, electrolyte, data, 0.0, values)
@@ -584,7 +587,7 @@ def _judge_fit(family: ActivityModel, data: _Data, fit: _Fit
     """
     from scipy.special import chdtrc
 
-    from .diagnostics import runs_test, serial_correlation_test
+    from ..fit.diagnostics import runs_test, serial_correlation_test
 
     n_free = 1 + len(fit.free)
     _, mean, weight = _solution_means(data, fit)
@@ -636,9 +639,9 @@ def reduce_run(run: Run, model: str = "hueckel",
     Parameters
     ----------
     run : Run
-        A validated run (:func:`activolt.runs.read_run`).
+        A validated run (:func:`activolt.data.runs.read_run`).
     model : str
-        Model name (``limiting``, ``hueckel``, …; see :data:`activolt.models.MODELS`).
+        Model name (``limiting``, ``hueckel``, …; see :data:`activolt.activity.MODELS`).
     fixed : mapping, optional
         Parameters to hold at given values, e.g. ``{"a_angstrom": 4.3}``.
     exclude : sequence of Exclusion, optional
@@ -915,7 +918,7 @@ def _budget(run: Run, data: _Data, fit: _Fit, type_b: np.ndarray | None,
 def _diagnose(table: pd.DataFrame, data: _Data, fit: _Fit) -> list[str]:
     """Leverage, studentized residuals and Cook's distance of the used readings (in ``table``),
     and a ``diagnostic`` reason where one stands out; warnings naming them."""
-    from .diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
+    from ..fit.diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
 
     used = table["flag"].isna().to_numpy()
     scaled = not data.stated_uncertainty
@@ -951,8 +954,8 @@ def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
     meta = run.metadata
     if meta.cell is None:
         return None
-    from .cells import cell_summary
-    from .corrections import standard_pressure_basis_shift
+    from ..chemistry.cells import cell_summary
+    from ..physics.corrections import standard_pressure_basis_shift
 
     summary = cell_summary(meta.cell, temperature_K)
     e0 = summary.get("standard_potential_V")
@@ -990,8 +993,8 @@ def _corrections_summary(run: Run, data: _Data, temperature_K: float
                if meta.solute_vapour_lowering else
                "(vapour-pressure lowering by the solute not applied; set "
                "solute_vapour_lowering = true to apply it)"))
-    from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA
-    from .corrections import standard_pressure_basis_shift
+    from ..constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA
+    from ..physics.corrections import standard_pressure_basis_shift
 
     other = (ATMOSPHERE_PA if math.isclose(meta.standard_pressure_Pa, STANDARD_PRESSURE_PA)
              else STANDARD_PRESSURE_PA)

@@ -17,7 +17,7 @@ from collections.abc import Mapping
 import numpy as np
 import numpy.typing as npt
 
-from .constants import (
+from ..constants import (
     FARADAY_C_MOL,
     GAS_CONSTANT_J_MOL_K,
     STANDARD_PRESSURE_PA,

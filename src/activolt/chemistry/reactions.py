@@ -33,7 +33,7 @@ import numpy as np
 import numpy.typing as npt
 from uncertainties import UFloat, ufloat
 
-from .constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
+from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
 from .electrolytes import Electrolyte, nernst_factor, parse_electrolyte
 
 #: The states of aggregation a species may carry: solid, liquid, gas, aqueous, amalgam.
@@ -281,10 +281,11 @@ def check_balance(stoichiometry: Iterable[tuple[Species, Fraction]],
 
     Examples
     --------
-    >>> check_balance([(parse_species("AgCl(s)"), Fraction(-1)), (parse_species("Ag(s)"), 1)])
+    >>> check_balance([(parse_species("AgCl(s)"), Fraction(-1)),
+    ...                (parse_species("Ag(s)"), 1)])  # doctest: +ELLIPSIS
     Traceback (most recent call last):
     ...
-    activolt.reactions.BalanceError: reaction not balanced: Cl 1 on the left, 0 on the right
+    activolt.chemistry.reactions.BalanceError: reaction not balanced: Cl 1 on the left, 0 on ...
     """
     stoichiometry = tuple(stoichiometry)
     left: dict[str, Fraction] = {}

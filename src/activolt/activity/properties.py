@@ -11,7 +11,8 @@ where φ is the osmotic coefficient and M_w the molar mass of water. The Gibbs�
 ties them together: ∂(G^E/RT)/∂m = ν ln γ± and d[m(1 − φ)]/dm = −m d ln γ±/dm.
 
 :func:`derived_properties` evaluates them with the fitted model of a
-:class:`~activolt.reduce.Reduction` at each usable molality, and propagates the covariance of
+:class:`~activolt.procedures.dilution.Reduction` at each usable molality, and propagates the
+covariance of
 the free model parameters to each quantity by numerical gradients (GUM, JCGM 100:2008, 5.2).
 
 References
@@ -31,12 +32,12 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from .constants import GAS_CONSTANT_J_MOL_K
-from .electrolytes import Electrolyte
-from .models.base import ActivityModel
-from .reduce import Reduction
-from .runs import usable_points
-from .solvent import DebyeHueckelConstants, debye_hueckel_constants
+from ..chemistry.electrolytes import Electrolyte
+from ..constants import GAS_CONSTANT_J_MOL_K
+from ..data.runs import usable_points
+from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
+from ..procedures.dilution import Reduction
+from .base import ActivityModel
 
 __all__ = [
     "MOLAR_MASS_WATER_KG_MOL",
@@ -79,7 +80,7 @@ def water_activity(electrolyte: Electrolyte, molality: npt.ArrayLike,
     NaCl at 1 mol/kg with φ = 0.9355 (Robinson & Stokes 1959, Appendix 8.10; from memory);
     their water-activity table gives 0.9669 (from memory):
 
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> round(float(water_activity(parse_electrolyte("NaCl"), 1.0, 0.9355)), 4)
     0.9669
     """
@@ -122,7 +123,7 @@ def excess_gibbs_energy_rt(electrolyte: Electrolyte, molality: npt.ArrayLike,
     give 2 (1 − 0.9355 + ln 0.657) = −0.7111 mol/kg (derived):
 
     >>> import math
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> g = excess_gibbs_energy_rt(parse_electrolyte("NaCl"), 1.0, 0.9355, math.log(0.657))
     >>> round(float(g), 4)
     -0.7111
@@ -159,7 +160,7 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     Parameters
     ----------
     reduction : Reduction
-        From :func:`activolt.reduce.reduce_run`.
+        From :func:`activolt.procedures.dilution.reduce_run`.
 
     Returns
     -------
@@ -191,8 +192,8 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     the Hückel equation; the same source gives φ = 0.943 at 0.1 mol/kg (from memory):
 
     >>> import tempfile, pathlib
-    >>> from activolt.runs import read_run
-    >>> from activolt.reduce import reduce_run
+    >>> from activolt.data.runs import read_run
+    >>> from activolt.procedures.dilution import reduce_run
     >>> folder = pathlib.Path(tempfile.mkdtemp())
     >>> _ = (folder / "r.csv").write_text(
     ...     "molality_mol_kg,emf_V\n0.005,0.49838\n0.01,0.46416\n0.05,0.38585\n0.1,0.35238\n")

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from .constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
+from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
 
 #: Cations known to the formula parser: symbol → the charge numbers it takes in aqueous salts
 #: (common practice: the oxidation states of the usual soluble salts, e.g. Greenwood & Earnshaw,

@@ -9,7 +9,7 @@ with A the decimal-log Debye–Hückel slope at the temperature of each point. I
 
 .. math:: φ = 1 − |z_+ z_−| A_γ \left(\frac{\sqrt{I}}{3} σ(\sqrt{I}) − 0.15\,I\right)
 
-σ is the Debye–Hückel osmotic function of :func:`activolt.models.hueckel.sigma`.
+σ is the Debye–Hückel osmotic function of :func:`activolt.activity.hueckel.sigma`.
 
 Davies, C. W. (1938). The extent of dissociation of salts in water. Part VIII. J. Chem. Soc.,
 2093–2098. https://doi.org/10.1039/JR9380002093 ; Davies, C. W. (1962). *Ion Association*,
@@ -23,8 +23,8 @@ from collections.abc import Mapping
 import numpy as np
 import numpy.typing as npt
 
-from ..electrolytes import Electrolyte
-from ..solvent import DebyeHueckelConstants
+from ..chemistry.electrolytes import Electrolyte
+from ..physics.water import DebyeHueckelConstants
 from .base import ActivityModel, checked_values
 from .hueckel import sigma
 
@@ -77,8 +77,8 @@ def ln_gamma(
     HCl at 0.1 mol kg⁻¹ and 25 °C; the measured γ± is 0.796 (Robinson & Stokes 1959,
     Appendix 8.10), which the Davies equation misses by 0.015:
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> round(float(np.exp(ln_gamma(parse_electrolyte("HCl"), 0.1, c, {}))[0]), 3)
     0.781
@@ -126,8 +126,8 @@ def osmotic_coefficient(
     NaCl at 0.1 mol kg⁻¹ and 25 °C; Robinson & Stokes (1959, Appendix 8.10) give φ = 0.9324
     (from memory):
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> round(float(osmotic_coefficient(parse_electrolyte("NaCl"), 0.1, c, {})[0]), 4)
     0.9361

@@ -14,8 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..electrolytes import Electrolyte
-from ..solvent import DebyeHueckelConstants
+from ..chemistry.electrolytes import Electrolyte
+from ..physics.water import DebyeHueckelConstants
 
 #: ln γ± or φ as a function of (electrolyte, molality [mol kg⁻¹], constants, parameters).
 ModelFunction = Callable[[Electrolyte, np.ndarray, DebyeHueckelConstants, Mapping[str, float]],

@@ -17,8 +17,8 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from ..electrolytes import Electrolyte
-from ..solvent import DebyeHueckelConstants
+from ..chemistry.electrolytes import Electrolyte
+from ..physics.water import DebyeHueckelConstants
 from .base import ActivityModel, Parameter
 
 #: Bates–Guggenheim convention, Bå = 1.5 kg^½ mol^-½ (IUPAC Gold Book).

@@ -1,7 +1,8 @@
 """The electrode catalogue: standard reduction potentials of couples used in potentiometry.
 
 The table ``reference/electrodes.csv`` holds, for each couple, its half-reaction written in the
-species notation of :mod:`activolt.reactions`, the electrons n, E° [V] at 25 °C, its standard
+species notation of :mod:`activolt.chemistry.reactions`, the electrons n, E° [V] at 25 °C, its
+standard
 uncertainty and where that uncertainty comes from (``u_kind``, ``u_source``), the standard
 pressure of the value (101.325 kPa or 100 kPa) and the source. A couple that is a combination of
 others (Fe³⁺/Fe from Fe³⁺/Fe²⁺ and Fe²⁺/Fe) is derived from them by n-weighted addition of ΔG°
@@ -26,8 +27,9 @@ import pandas as pd
 from scipy.interpolate import CubicSpline
 from uncertainties import UFloat
 
-from .constants import ATMOSPHERE_PA, ZERO_CELSIUS_K
-from .corrections import standard_pressure_basis_shift
+from ..constants import ATMOSPHERE_PA, ZERO_CELSIUS_K
+from ..physics.corrections import standard_pressure_basis_shift
+from ..reference import load_table
 from .reactions import (
     HalfReaction,
     Species,
@@ -35,7 +37,6 @@ from .reactions import (
     linear_combination,
     parse_half_reaction,
 )
-from .reference import load_table
 
 #: The datasets of the electrode table.
 DATASETS: tuple[str, ...] = ("catalogue", "bates_bower_1954")
@@ -286,7 +287,7 @@ def silver_chloride_standard_potential(
     (t in °C; Bates & Bower 1954, J. Res. NBS 53, 283; coefficients other than the first from
     memory), matches the table within 0.12 mV. A change of pressure basis adds
     (RT/F)·(−½)·ln(p_from/p_to), −0.169 mV from 1 atm to 1 bar at 25 °C (see
-    :func:`activolt.corrections.standard_pressure_basis_shift`).
+    :func:`activolt.physics.corrections.standard_pressure_basis_shift`).
 
     Examples
     --------

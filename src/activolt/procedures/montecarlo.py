@@ -4,7 +4,7 @@ The propagation of distributions of GUM Supplement 1 (JCGM 101:2008): every inpu
 drawn from its probability distribution, the measurement model — here the whole reduction of the
 run — is evaluated for every draw, and the distribution of the results gives their expectation,
 standard uncertainty and coverage interval. It checks the linear propagation of
-:mod:`activolt.uncertainty`, which keeps only first-order terms.
+:mod:`activolt.fit.uncertainty`, which keeps only first-order terms.
 
 For each trial:
 
@@ -22,7 +22,7 @@ Speed. All trials are fitted at once: a Gauss–Newton iteration on arrays of sh
 points), the Jacobian by central differences of the vectorised model and a batched QR solve per
 step, with step halving where χ² would rise. A model whose free parameters all enter linearly
 converges in one step. Trials that do not converge in 100 steps are fitted one by one with
-:func:`activolt.fitting.weighted_least_squares`.
+:func:`activolt.fit.least_squares.weighted_least_squares`.
 
 References
 ----------
@@ -44,11 +44,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .errors import FitError
-from .models import ActivityModel
-from .reduce import E0, Reduction, _Data, _model_emf, _prepare, reduce_run
-from .runs import Run, usable_points
-from .solvent import DebyeHueckelConstants, debye_hueckel_constants
+from ..activity import ActivityModel
+from ..data.runs import Run, usable_points
+from ..errors import FitError
+from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
+from .dilution import E0, Reduction, _Data, _model_emf, _prepare, reduce_run
 
 __all__ = ["MonteCarloResult", "SampleSummary", "coverage_interval", "monte_carlo"]
 
@@ -221,9 +221,9 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
     run : Run
         The run, as reduced.
     model : str
-        Model name, as for :func:`activolt.reduce.reduce_run`.
+        Model name, as for :func:`activolt.procedures.dilution.reduce_run`.
     fixed : mapping, optional
-        Parameters held by the user, as for :func:`activolt.reduce.reduce_run`.
+        Parameters held by the user, as for :func:`activolt.procedures.dilution.reduce_run`.
     trials : int
         Number of Monte Carlo trials M (≥ 10; JCGM 101 recommends 10⁶ for a coverage interval
         correct to one or two digits — a few thousand give u to a few per cent).
@@ -345,7 +345,7 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
             )
             if temperature_u_K > 0:
                 temperature = np.asarray(data.constants.temperature, dtype=float) + shift
-                from .electrolytes import nernst_factor
+                from ..chemistry.electrolytes import nernst_factor
 
                 batched = dataclasses.replace(
                     batched,
@@ -448,7 +448,7 @@ def _limits(family: ActivityModel, name: str) -> tuple[float, float]:
         spec = family.parameter(name)
     except KeyError:
         try:
-            from .reduce import _spec
+            from .dilution import _spec
         except ImportError:
             return -math.inf, math.inf
         spec = _spec(family, name)
@@ -533,7 +533,7 @@ def _gauss_newton(evaluate, parameters: np.ndarray, observed: np.ndarray, weight
 def _fit_one(family, electrolyte, single: _Data, values: dict[str, float], free: list[str],
              start: np.ndarray, weights: np.ndarray, bounds: np.ndarray) -> np.ndarray:
     """One trial with the fitting core (the slow, robust path)."""
-    from .fitting import weighted_least_squares
+    from ..fit.least_squares import weighted_least_squares
 
     flat = dataclasses.replace(single, **{
         field.name: getattr(single, field.name)[0] for field in dataclasses.fields(single)

@@ -12,8 +12,8 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from ..electrolytes import Electrolyte
-from ..solvent import DebyeHueckelConstants
+from ..chemistry.electrolytes import Electrolyte
+from ..physics.water import DebyeHueckelConstants
 from .base import ActivityModel
 
 

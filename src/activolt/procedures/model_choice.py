@@ -17,7 +17,7 @@ A run is reduced with every applicable model (:func:`compare_models`). Each fit 
    to the model, and only give a note. The two-sided probability is reported as well.
 4. **Ionic-strength range**: the fit is inadequate when the run reaches beyond the ionic
    strength up to which the model family is commonly adequate
-   (:attr:`~activolt.models.base.ActivityModel.max_ionic_strength`).
+   (:attr:`~activolt.activity.base.ActivityModel.max_ionic_strength`).
 
 Parameters held at a conventional value (by the reduction or by this module) do not make a fit
 inadequate; they are listed as notes. A model whose reduction fails (:class:`FitError`) is
@@ -63,12 +63,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .diagnostics import RunsTest, runs_test
-from .errors import FitError, InputError
-from .models import MODELS, get_model
-from .reduce import OUT_OF_RANGE, FitStatistics, FittedParameter, Reduction, reduce_run
-from .report.numbers import json_number
-from .runs import Run, usable_points
+from ..activity import MODELS, get_model
+from ..data.runs import Run, usable_points
+from ..errors import FitError, InputError
+from ..fit.diagnostics import RunsTest, runs_test
+from ..report.numbers import json_number
+from .dilution import OUT_OF_RANGE, FitStatistics, FittedParameter, Reduction, reduce_run
 
 __all__ = [
     "CHI2_P_MIN",
@@ -352,9 +352,9 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     Parameters
     ----------
     run : Run
-        A validated run (:func:`activolt.runs.read_run`).
+        A validated run (:func:`activolt.data.runs.read_run`).
     models : sequence of str, optional
-        Model names (see :data:`activolt.models.MODELS`); default: all of them.
+        Model names (see :data:`activolt.activity.MODELS`); default: all of them.
     fixed : mapping of str to mapping of str to float, optional
         Parameters to hold, per model, e.g. ``{"hueckel": {"a_angstrom": 4.3}}``.
 
@@ -375,7 +375,7 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     Notes
     -----
     The adequacy criteria, the model-choice rule and the recommendation rule are given in the
-    module docstring (:mod:`activolt.model_choice`):
+    module docstring (:mod:`activolt.procedures.model_choice`):
 
     .. math:: u_\mathrm{model} = \frac{E°_\max − E°_\min}{2\sqrt{3}}, \qquad
               u(E°) = \sqrt{u_\mathrm{fit}^2 + u_\mathrm{model}^2}
@@ -389,7 +389,7 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     the stated rule:
 
     >>> from importlib.resources import files
-    >>> from activolt.runs import read_run
+    >>> from activolt.data.runs import read_run
     >>> c = compare_models(read_run(files("activolt") / "sample_data" / "kestrel_hcl_25C.csv"),
     ...                    ["davies", "hueckel", "pitzer"])
     >>> "davies" in {s.name for s in c.skipped} or not c.assessment("davies").covers_run

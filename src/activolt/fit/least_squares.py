@@ -32,7 +32,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from .errors import FitError
+from ..errors import FitError
 
 __all__ = ["LeastSquaresResult", "central_difference_jacobian", "information_criteria",
            "linear_least_squares", "weighted_least_squares"]

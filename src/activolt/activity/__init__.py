@@ -1,6 +1,6 @@
 """Activity-coefficient models, one module per published family, and their registry.
 
-Each module defines ``MODEL``, an :class:`~activolt.models.base.ActivityModel`. Add a family by
+Each module defines ``MODEL``, an :class:`~activolt.activity.base.ActivityModel`. Add a family by
 writing its module and listing it in :data:`MODELS` (see DEVELOPERS.md).
 """
 

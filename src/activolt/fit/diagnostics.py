@@ -3,7 +3,7 @@ r"""Fit diagnostics: leverage, leave-one-out residuals, Cook's distance and poin
 Every function works on what a weighted least-squares fit leaves behind — the Jacobian J
 (N × P) at the optimum, the weights w (1/u², or 1), the residuals r = y − f(p̂) (unweighted) and
 whether the covariance was scaled by χ²/(N − P) — so it serves the reduction of a run as well as
-any other fit (:mod:`activolt.fitting`). With A = W^½ J and e = W^½ r,
+any other fit (:mod:`activolt.fit.least_squares`). With A = W^½ J and e = W^½ r,
 
 .. math:: H = A (A^T A)^{-1} A^T, \qquad h_{ii} = H_{ii}
 
@@ -301,7 +301,7 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
     >>> x = np.arange(8.0)
     >>> y = 1.0 + 0.5 * x + np.array([0.3, -0.5, 0.2, 40.0, -0.1, 0.4, -0.6, 0.1])
     >>> j = np.column_stack([np.ones_like(x), x])
-    >>> from activolt.fitting import linear_least_squares
+    >>> from activolt.fit.least_squares import linear_least_squares
     >>> fit = linear_least_squares(j, y, np.ones_like(x))
     >>> flags = flag_points(j, fit.weights, fit.residuals, covariance_scaled=False)
     >>> [i for i, f in enumerate(flags) if f]

@@ -10,7 +10,7 @@ import math
 
 from uncertainties.core import AffineScalarFunc
 
-from .constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
+from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
 
 
 def standard_gibbs_energy_kJ_mol(standard_potential_V: AffineScalarFunc | float,

@@ -16,11 +16,11 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from ..chemistry.electrolytes import Electrolyte
 from ..constants import ZERO_CELSIUS_K
-from ..electrolytes import Electrolyte
-from ..models.hueckel import BATES_GUGGENHEIM_BA
-from ..solvent import debye_hueckel_constants
-from . import load_table
+from ..physics.water import debye_hueckel_constants
+from ..reference import load_table
+from .hueckel import BATES_GUGGENHEIM_BA
 
 #: Largest difference between the run's temperature and a table's for a comparison [K].
 TEMPERATURE_TOLERANCE_K = 0.5
@@ -230,7 +230,7 @@ def interpolate_gamma(table: pd.DataFrame, molality: npt.ArrayLike, electrolyte:
     Robinson & Stokes (1959, Appendix 8.10) print 0.767 at 0.2 mol/kg (from memory), a molality
     the shipped table does not hold:
 
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> table = published_gamma("HCl", 298.15)
     >>> g = interpolate_gamma(table, [0.1, 0.2, 5.0], parse_electrolyte("HCl"), 298.15)
     >>> [round(float(v), 3) for v in g[:2]], bool(np.isnan(g[2]))

@@ -14,18 +14,18 @@ from importlib.resources import files
 from pathlib import Path
 from typing import Any
 
-from . import __version__
-from .constants import INTERNATIONAL_VOLT_V
-from .model_choice import ModelComparison, comparison_record
-from .montecarlo import MonteCarloResult
-from .properties import derived_properties
-from .reduce import Reduction
-from .report.cautions import cautions_for
-from .report.comparison import compare_with_published
-from .report.numbers import json_number
-from .runs import VOLT_UNITS
-from .safe_text import neutralise_formula
-from .thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
+from .. import __version__
+from ..activity.properties import derived_properties
+from ..constants import INTERNATIONAL_VOLT_V
+from ..data.runs import VOLT_UNITS
+from ..physics.thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
+from ..procedures.dilution import Reduction
+from ..procedures.model_choice import ModelComparison, comparison_record
+from ..procedures.montecarlo import MonteCarloResult
+from ..report.cautions import cautions_for
+from ..report.comparison import compare_with_published
+from ..report.numbers import json_number
+from ..safe_text import neutralise_formula
 
 RECORD_SCHEMA = "activolt-record/1"
 
@@ -37,7 +37,7 @@ def _with_u(value: Any, method: str) -> dict[str, Any]:
 
 def record_schema() -> dict[str, Any]:
     """The JSON Schema of the record."""
-    text = (files("activolt") / "record_schema.json").read_text(encoding="utf-8")
+    text = (files("activolt.io") / "record_schema.json").read_text(encoding="utf-8")
     return json.loads(text)
 
 

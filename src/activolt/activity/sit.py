@@ -32,10 +32,10 @@ from collections.abc import Mapping
 import numpy as np
 import numpy.typing as npt
 
-from ..electrolytes import Electrolyte
+from ..chemistry.electrolytes import Electrolyte
+from ..physics.water import DebyeHueckelConstants
 from ..reference import load_table
 from ..reference.parameters import sit_epsilon
-from ..solvent import DebyeHueckelConstants
 from .base import ActivityModel, Parameter, checked_values
 from .hueckel import sigma
 
@@ -57,7 +57,7 @@ def stoichiometric_factor(electrolyte: Electrolyte) -> float:
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
     >>> [round(stoichiometric_factor(parse_electrolyte(f)), 4) for f in ("HCl", "CaCl2", "LaCl3")]
     [1.0, 1.3333, 1.5]
     """
@@ -94,8 +94,8 @@ def debye_hueckel_term(
     At I = 1 mol kg⁻¹ and 25 °C the NEA reviews (A = 0.509) give D = 0.509/2.5 = 0.2036; here
     A = 0.5098 from IAPWS water:
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> round(float(debye_hueckel_term(parse_electrolyte("NaCl"), 1.0, c)[0]), 4)
     0.2039
@@ -130,8 +130,8 @@ def ln_gamma_terms(
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> offset, columns = ln_gamma_terms(parse_electrolyte("HCl"), 1.0,
     ...                                  debye_hueckel_constants(298.15))
     >>> round(float(columns["epsilon_kg_mol"][0]), 4)  # ln 10 × 1 × 1 mol/kg
@@ -188,8 +188,8 @@ def ln_gamma(
     HCl at 1 mol kg⁻¹ and 25 °C with ε(H⁺, Cl⁻) = 0.12 kg mol⁻¹ (NEA reviews, from memory);
     Robinson & Stokes (1959, Appendix 8.10) give γ± = 0.809:
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> lg = ln_gamma(parse_electrolyte("HCl"), 1.0, c, {"epsilon_kg_mol": 0.12})
     >>> round(float(np.exp(lg)[0]), 3)
@@ -231,15 +231,15 @@ def osmotic_coefficient(
     .. math:: φ = 1 − \frac{|z_+ z_−| A_γ \sqrt{I}}{3} σ(1.5\sqrt{I})
               + \ln 10\, \frac{ν_+ ν_−}{ν}\, ε\, m
 
-    σ as in :func:`activolt.models.hueckel.sigma`.
+    σ as in :func:`activolt.activity.hueckel.sigma`.
 
     Examples
     --------
     NaCl at 1 mol kg⁻¹, 25 °C, ε(Na⁺, Cl⁻) = 0.03 kg mol⁻¹ (NEA reviews, from memory); Robinson &
     Stokes (1959, Appendix 8.10) give φ = 0.9355 (from memory):
 
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> phi = osmotic_coefficient(parse_electrolyte("NaCl"), 1.0, c, {"epsilon_kg_mol": 0.03})
     >>> round(float(phi[0]), 3)
@@ -281,8 +281,8 @@ def conventional_epsilon(electrolyte: Electrolyte, constants: DebyeHueckelConsta
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> conventional_epsilon(parse_electrolyte("HCl"), c)  # NEA reviews, Appendix B (from memory)
     0.12
@@ -303,8 +303,8 @@ def conventional_epsilon_uncertainty(
 
     Examples
     --------
-    >>> from activolt.electrolytes import parse_electrolyte
-    >>> from activolt.solvent import debye_hueckel_constants
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.physics.water import debye_hueckel_constants
     >>> c = debye_hueckel_constants(298.15)
     >>> conventional_epsilon_uncertainty(parse_electrolyte("HCl"), c)  # NEA: ± 0.01 (from memory)
     0.005

@@ -41,7 +41,7 @@ import threading
 from collections.abc import Callable, Collection, Iterator, Mapping, Sequence
 from pathlib import Path
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = ["check_outputs", "write_atomically", "write_outputs"]
 

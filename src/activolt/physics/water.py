@@ -16,7 +16,7 @@ from functools import lru_cache
 import numpy as np
 import numpy.typing as npt
 
-from .constants import (
+from ..constants import (
     AVOGADRO_PER_MOL,
     BOLTZMANN_J_K,
     ELEMENTARY_CHARGE_C,

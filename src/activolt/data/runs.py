@@ -22,14 +22,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .constants import (
+from ..chemistry.electrolytes import Electrolyte, parse_electrolyte
+from ..constants import (
     ATMOSPHERE_PA,
     INTERNATIONAL_VOLT_V,
     STANDARD_PRESSURE_PA,
     ZERO_CELSIUS_K,
 )
-from .electrolytes import Electrolyte, parse_electrolyte
-from .errors import InputError
+from ..errors import InputError
 
 #: Columns the reader understands, each with its unit as written in the name.
 KNOWN_COLUMNS: tuple[str, ...] = (
@@ -345,7 +345,8 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
 
 def _check_temperature(temperature_K: float, path: Path, line: int | None, column: str) -> None:
     low, high = _LIQUID_WATER_C
-    # both ends included, as in activolt.solvent (0 °C, the ice point, is a classic run temperature)
+    # both ends included, as in activolt.physics.water (0 °C, the ice point, is a classic run
+    # temperature)
     if not low - 1e-9 <= temperature_K - ZERO_CELSIUS_K <= high + 1e-9:
         raise InputError(
             f"temperature {temperature_K - ZERO_CELSIUS_K:.2f} °C is outside liquid water "
@@ -489,7 +490,7 @@ def _metadata(
 
 def _cell_stoichiometry(cell: str, fail: Any) -> Any:
     """What the reduction needs from a cell diagram; an InputError pointing into it otherwise."""
-    from .cells import DiagramError, cell_from_diagram
+    from ..chemistry.cells import DiagramError, cell_from_diagram
 
     try:
         stoichiometry = cell_from_diagram(cell)

@@ -5,21 +5,25 @@ ed., 2007, §2.13; Cohen et al., *Quantities, Units and Symbols in Physical Chem
 oxidation happens at the left electrode, reduction at the right, ``|`` is a phase boundary and
 ``||`` a salt bridge. Our plain notation, one phase between bars:
 
-* a species is ``FORMULA[CHARGE](STATE)`` as in :mod:`activolt.reactions`; the state is ``s``,
+* a species is ``FORMULA[CHARGE](STATE)`` as in :mod:`activolt.chemistry.reactions`; the state is
+``s``,
   ``l``, ``g``, ``aq`` or ``Hg`` (an amalgam, e.g. ``K(Hg)``);
 * several species of one phase are separated by commas: ``Pt | Fe2+(aq), Fe3+(aq), Cl-(aq) | …``;
 * an amount may follow the state after a comma: a molality for a solute,
   ``HCl(aq, 0.01 mol/kg)`` (units ``mol/kg``, ``mmol/kg``), or a partial pressure for a gas,
   ``H2(g, 101.325 kPa)`` (units ``Pa``, ``kPa``, ``MPa``, ``bar``, ``atm``);
-* an aqueous neutral formula that :func:`activolt.electrolytes.parse_electrolyte` knows is an
+* an aqueous neutral formula that :func:`activolt.chemistry.electrolytes.parse_electrolyte` knows
+is an
   electrolyte (``HCl(aq)`` gives H+ and Cl−); any other neutral aqueous formula is a molecular
   solute (``C6H4O2(aq)``);
 * inert electronic conductors need no state: ``Pt``, ``Au``, ``C(graphite)`` (or with ``(s)``).
 
-Each electrode's couple is looked up in the electrode catalogue (:mod:`activolt.electrodes`):
+Each electrode's couple is looked up in the electrode catalogue
+(:mod:`activolt.chemistry.electrodes`):
 the couple whose solid, liquid, gaseous and amalgam species are exactly the electrode's phases,
 and whose aqueous species the adjacent solution holds. The two couples combine into the cell
-reaction (:func:`activolt.reactions.combine`), written per formula unit of the electrolyte the
+reaction (:func:`activolt.chemistry.reactions.combine`), written per formula unit of the
+electrolyte the
 cell forms or consumes when the cell has no liquid junction.
 """
 
@@ -37,7 +41,7 @@ import numpy as np
 import numpy.typing as npt
 from uncertainties import UFloat
 
-from .constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, ZERO_CELSIUS_K
+from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, ZERO_CELSIUS_K
 from .electrodes import amalgam_couple, catalogue, couple_at_temperature, couple_names
 from .electrolytes import Electrolyte, parse_electrolyte
 from .reactions import (
@@ -112,7 +116,7 @@ class Component:
     charge : int
         Charge number [-].
     state : str
-        One of :data:`activolt.reactions.STATES` (``"s"`` for inert conductors).
+        One of :data:`activolt.chemistry.reactions.STATES` (``"s"`` for inert conductors).
     inert : bool
         Whether it is an inert electronic conductor (Pt, Au, C).
     molality_mol_kg : float or None
@@ -617,7 +621,8 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
         The cell diagram.
     temperature_K : float
         Temperature [K] for E°, log10 K and the Nernst factor. Each couple's E° at T comes
-        from its one E°(T) (:func:`activolt.electrodes.couple_at_temperature`): H+/H2 is zero at
+        from its one E°(T) (:func:`activolt.chemistry.electrodes.couple_at_temperature`): H+/H2 is
+        zero at
         every T, AgCl/Ag follows Bates & Bower (1954) smoothly through 25 °C, the others are
         known at 25 °C only and are then used unchanged (a warning says so).
 

@@ -1,0 +1,3 @@
+"""Chemistry of the cell: electrolytes, half-reactions, cell diagrams and the electrode
+catalogue.
+"""

@@ -1,0 +1,1 @@
+"""Run tables and their metadata: reading, validation, series."""

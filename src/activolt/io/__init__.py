@@ -1,0 +1,1 @@
+"""Records and files: the JSON record and its schema, writing outputs as whole sets."""

@@ -1,0 +1,3 @@
+"""Physics of the solvent and the cell: water, Debye–Hückel constants, gas-pressure
+corrections, thermodynamic relations.
+"""
