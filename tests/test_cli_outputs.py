@@ -189,7 +189,7 @@ def test_ctrl_c_while_writing_keeps_the_old_set(tmp_path, capsys, monkeypatch):
     path = _table(tmp_path)
     assert main(["reduce", str(path), "--no-figures"]) == 0
     before = _snapshot(tmp_path)
-    real, calls = output_files._write_file, []
+    real, calls = output_files.write_file, []
 
     def write_then_stop(*args):
         calls.append(args)
@@ -197,7 +197,7 @@ def test_ctrl_c_while_writing_keeps_the_old_set(tmp_path, capsys, monkeypatch):
             raise KeyboardInterrupt
         real(*args)
 
-    monkeypatch.setattr(output_files, "_write_file", write_then_stop)
+    monkeypatch.setattr(output_files, "write_file", write_then_stop)
     assert main(["reduce", str(path), "--fix", "a_angstrom=4.3"]) == 130
     assert "nothing was written" in _one_error_line(capsys)
     assert _snapshot(tmp_path) == before
@@ -209,13 +209,13 @@ def test_ctrl_c_during_the_swap_is_held_and_undoes_it(tmp_path, capsys, monkeypa
     path = _table(tmp_path)
     assert main(["reduce", str(path), "--no-figures"]) == 0
     before = _snapshot(tmp_path)
-    real = output_files._Transaction.commit_folder
+    real = output_files.OutputTransaction.commit_folder
 
     def commit_with_ctrl_c(self, folder, new):
         os.kill(os.getpid(), signal.SIGINT)
         real(self, folder, new)
 
-    monkeypatch.setattr(output_files._Transaction, "commit_folder", commit_with_ctrl_c)
+    monkeypatch.setattr(output_files.OutputTransaction, "commit_folder", commit_with_ctrl_c)
     assert main(["reduce", str(path), "--fix", "a_angstrom=4.3", "--no-figures"]) == 130
     assert "nothing was written" in _one_error_line(capsys)
     assert _snapshot(tmp_path) == before
@@ -331,14 +331,14 @@ def test_a_full_disk_leaves_the_old_set_and_nothing_new(tmp_path, capsys, monkey
     path = _table(tmp_path)
     assert main(["reduce", str(path), "--no-figures"]) == 0
     before = _snapshot(tmp_path)
-    real = output_files._write_file
+    real = output_files.write_file
 
     def full(target, data, mode):
         if str(target).endswith(".report.txt"):
             raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(target))
         real(target, data, mode)
 
-    monkeypatch.setattr(output_files, "_write_file", full)
+    monkeypatch.setattr(output_files, "write_file", full)
     assert main(["reduce", str(path), "--fix", "a_angstrom=4.3", "--no-figures",
                  "--json", str(tmp_path / "new" / "deep" / "r.json")]) == 2
     assert "No space left on device" in _one_error_line(capsys)

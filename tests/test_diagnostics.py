@@ -142,16 +142,15 @@ def test_clean_runs_are_rarely_flagged():
 def test_flags_from_a_reduction(tmp_path):
     # Through the reduction's own fit (stated u(E)), an outlier in the middle of the run.
     from activolt.data.runs import read_run
-    from activolt.procedures.dilution import _jacobian, _prepare, reduce_run
+    from activolt.procedures.dilution import reduce_run, reduction_jacobian
 
     gamma = np.exp(ln_gamma(HCL, MOLALITY, _CONSTANTS, TRUTH))
     emf = emf_from_gamma(MOLALITY, gamma, E0_V)
     emf = emf + np.random.default_rng(5).normal(0.0, U_EMF_V, MOLALITY.size)
     emf[4] += 40 * U_EMF_V
     reduction = reduce_run(read_run(write_run(tmp_path, MOLALITY, emf, u_emf_V=U_EMF_V)))
-    data = _prepare(reduction.run)
-    jac = _jacobian(reduction.model, HCL, data, reduction.standard_potential.nominal_value,
-                    reduction.parameter_values, list(reduction.free_names[1:]))
+    data = reduction.data
+    jac = reduction_jacobian(reduction)
     residuals = reduction.points["residual_V"].to_numpy()
     flags = flag_points(jac, data.weights, residuals, reduction.statistics.covariance_scaled)
     assert flags[4] is not None

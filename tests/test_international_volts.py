@@ -15,6 +15,7 @@ from activolt.activity.published import published_gamma
 from activolt.constants import INTERNATIONAL_VOLT_V
 from activolt.data.runs import read_run
 from activolt.procedures.dilution import reduce_run
+from activolt.report.text import format_report
 
 # NBS Circular 459 (1947): 1 US international volt = 1.000330 absolute volt (from memory).
 NBS_INTERNATIONAL_VOLT_V = 1.000330
@@ -63,7 +64,7 @@ def test_reduction_in_international_volts_gives_the_absolute_e0(tmp_path):
     assert e0.nominal_value == pytest.approx(E0_ABSOLUTE_V, abs=2e-5)
     assert abs(e0.nominal_value - E0_INTERNATIONAL_V) > 5e-5
     assert any("international volts" in w for w in reduction.warnings)
-    text = reduction.report()
+    text = format_report(reduction)
     assert "international volts" in text
 
 

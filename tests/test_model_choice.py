@@ -27,13 +27,13 @@ from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
 from activolt.data.runs import read_run
 from activolt.errors import FitError, InputError
 from activolt.fit import diagnostics
+from activolt.io.record import comparison_record
 from activolt.physics.water import debye_hueckel_constants
 from activolt.procedures import model_choice
 from activolt.procedures.dilution import reduce_run
 from activolt.procedures.model_choice import (
     RunsTest,
     compare_models,
-    comparison_record,
     runs_test,
 )
 from activolt.report.model_table import format_model_comparison

@@ -66,8 +66,8 @@ def _covers_or_refuses(run) -> str:
 @pytest.fixture
 def without_lacl3(monkeypatch):
     """The parameter table as if it had no LaCl3 row (no 3:1 salt at all)."""
-    rows = {k: v for k, v in reference_parameters._pitzer_rows().items() if k != "LaCl3"}
-    monkeypatch.setattr(reference_parameters, "_pitzer_rows", lambda: rows)
+    rows = {k: v for k, v in reference_parameters.pitzer_rows().items() if k != "LaCl3"}
+    monkeypatch.setattr(reference_parameters, "pitzer_rows", lambda: rows)
 
 
 # --- LaCl3 with its row in the table ----------------------------------------------------------

@@ -26,7 +26,6 @@ from synthetic import emf_from_gamma, write_run
 from activolt.activity import MODELS, pitzer
 from activolt.activity.properties import (
     MOLAR_MASS_WATER_KG_MOL,
-    derived_properties,
     excess_gibbs_energy_rt,
     water_activity,
 )
@@ -35,6 +34,7 @@ from activolt.chemistry.electrolytes import parse_electrolyte
 from activolt.data.runs import read_run
 from activolt.physics.water import debye_hueckel_constants
 from activolt.procedures.dilution import reduce_run
+from activolt.procedures.properties import derived_properties
 
 E0_TRUTH_V = 0.22234  # Bates & Bower (1954), Table 1, 25 °C; an arbitrary truth here
 NACL_1M_PHI = 0.9355  # Robinson & Stokes (1959), Appendix 8.10 (from memory)

@@ -27,6 +27,7 @@ from activolt.data.runs import read_run
 from activolt.io.record import build_record, record_json, record_schema
 from activolt.procedures.dilution import reduce_run
 from activolt.report.comparison import compare_with_published, comparison_lines
+from activolt.report.text import format_report
 
 # HCl, 25 °C. Robinson & Stokes (1959), Appendix 8.10 (from memory) / Hamer & Wu (1972), CRC
 # Handbook (confirmed in a transcription).
@@ -104,7 +105,7 @@ def reduction(tmp_path_factory):
 
 
 def test_report_of_a_reduction_names_both_hcl_tables(reduction):
-    text = reduction.report()
+    text = format_report(reduction)
     assert "Robinson & Stokes (1959)" in text and "Hamer & Wu (1972)" in text
     assert "difference / u_c" in text
 

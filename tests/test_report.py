@@ -15,6 +15,7 @@ from activolt.data.runs import read_run
 from activolt.procedures.dilution import reduce_run
 from activolt.report.cautions import ACID, HYDROGEN, MERCURY, cautions_for
 from activolt.report.numbers import format_with_uncertainty
+from activolt.report.text import format_report
 
 
 @pytest.mark.parametrize(("value", "u", "expected"), [
@@ -40,7 +41,7 @@ def test_report_text(tmp_path):
     m, gamma = table.molality_mol_kg.to_numpy(), table.gamma_pm.to_numpy()
     emf = emf_from_gamma(m, gamma, 0.22234)  # Bates & Bower (1954), Table 1
     reduction = reduce_run(read_run(write_run(tmp_path, m, emf, u_emf_V=2e-5)))
-    text = reduction.report()
+    text = format_report(reduction)
     e0_line = next(line for line in text.splitlines() if "E° =" in line)
     u_mV = reduction.standard_potential.std_dev * 1e3
     assert format_with_uncertainty(reduction.standard_potential.nominal_value * 1e3, u_mV,

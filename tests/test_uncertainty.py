@@ -69,11 +69,10 @@ def test_ignoring_the_correlation_gives_a_different_and_wrong_answer(monte_carlo
     observed = trials[:, :-1].std(axis=0, ddof=1)
     data_k = nernst_factor(HCL, 1, np.full(MOLALITY.size, 298.15))
     # Rebuild the naive propagation from the reduction's own Jacobian.
-    from activolt.procedures.dilution import _jacobian, _prepare
+    from activolt.procedures.dilution import reduction_jacobian
 
-    data = _prepare(first.run)
-    jac = _jacobian(first.model, HCL, data, first.standard_potential.nominal_value,
-                    first.parameter_values, list(first.free_names[1:]))
+    data = first.data
+    jac = reduction_jacobian(first)
     sensitivity = sensitivity_matrix(jac, data.weights)
     variance = np.full(MOLALITY.size, U_EMF_V**2)
     zeros = np.zeros(MOLALITY.size)

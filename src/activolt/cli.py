@@ -121,6 +121,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     from .io.files import check_outputs, write_outputs
     from .io.record import points_csv, record_json
     from .procedures.dilution import reduce_run
+    from .report.text import format_report
 
     run = read_run(run_path, meta, overrides=overrides, series=series)
     # Where everything goes, checked before any work: never onto an input, never mixed.
@@ -157,11 +158,11 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         reduction = comparison.recommended_reduction
         if reduction is None:
             raise FitError(comparison.warnings[-1])
-        report = reduction.report() + "\n" + format_model_comparison(comparison)
+        report = format_report(reduction) + "\n" + format_model_comparison(comparison)
     else:
         reduction = _with_model_choice_reminder(
             reduce_run(run, model=model, fixed=fixed, exclude=exclusions))
-        report = reduction.report()
+        report = format_report(reduction)
     monte = None
     if trials is not None:
         from .procedures.montecarlo import monte_carlo

@@ -146,7 +146,7 @@ def alphas(electrolyte: Electrolyte) -> tuple[float, float]:
     return _MULTIVALENT_ALPHAS[pair]
 
 
-def _h(x: np.ndarray) -> np.ndarray:
+def h_function(x: np.ndarray) -> np.ndarray:
     """h(x) = 2[1 − (1 + x − x²/2) e^(−x)]/x², with h(0) = 2 [-]."""
     x = np.asarray(x, dtype=float)
     small = np.abs(x) < _SERIES_BELOW
@@ -220,8 +220,8 @@ def ln_gamma_terms(
     arrays = np.broadcast_arrays(
         electrolyte.charge_product * f_gamma,
         pair * molality * 2.0,
-        pair * molality * _h(alpha1 * sqrt_i),
-        pair * molality * _h(alpha2 * sqrt_i),
+        pair * molality * h_function(alpha1 * sqrt_i),
+        pair * molality * h_function(alpha2 * sqrt_i),
         triple * 1.5 * molality**2 + 0.0 * f_gamma,
     )
     offset, *columns = (np.array(a) for a in arrays)

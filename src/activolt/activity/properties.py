@@ -10,10 +10,8 @@ For a single electrolyte M(ν+)X(ν−) at molality m in one kilogram of water,
 where φ is the osmotic coefficient and M_w the molar mass of water. The Gibbs–Duhem relation
 ties them together: ∂(G^E/RT)/∂m = ν ln γ± and d[m(1 − φ)]/dm = −m d ln γ±/dm.
 
-:func:`derived_properties` evaluates them with the fitted model of a
-:class:`~activolt.procedures.dilution.Reduction` at each usable molality, and propagates the
-covariance of
-the free model parameters to each quantity by numerical gradients (GUM, JCGM 100:2008, 5.2).
+:func:`activolt.procedures.properties.derived_properties` evaluates them with the fitted model
+of a reduction and propagates the covariance of its parameters.
 
 References
 ----------
@@ -26,22 +24,13 @@ References
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-
 import numpy as np
 import numpy.typing as npt
-import pandas as pd
 
 from ..chemistry.electrolytes import Electrolyte
-from ..constants import GAS_CONSTANT_J_MOL_K
-from ..data.runs import usable_points
-from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
-from ..procedures.dilution import Reduction
-from .base import ActivityModel
 
 __all__ = [
     "MOLAR_MASS_WATER_KG_MOL",
-    "derived_properties",
     "excess_gibbs_energy_rt",
     "water_activity",
 ]
@@ -132,132 +121,3 @@ def excess_gibbs_energy_rt(electrolyte: Electrolyte, molality: npt.ArrayLike,
     phi = np.asarray(osmotic_coefficient, dtype=float)
     ln_g = np.asarray(ln_gamma, dtype=float)
     return electrolyte.nu * m * (1.0 - phi + ln_g)
-
-
-def _gradients(model: ActivityModel, electrolyte: Electrolyte, molality: np.ndarray,
-               constants: DebyeHueckelConstants, values: Mapping[str, float],
-               free: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray]:
-    """∂φ/∂θ and ∂ln γ±/∂θ over the free parameters, by central differences, shape (N, P)."""
-    d_phi, d_ln = [], []
-    for name in free:
-        step = 1e-6 * max(1.0, abs(values[name]))
-        up = {**values, name: values[name] + step}
-        down = {**values, name: values[name] - step}
-        d_phi.append((model.osmotic_coefficient(electrolyte, molality, constants, up)
-                      - model.osmotic_coefficient(electrolyte, molality, constants, down))
-                     / (2.0 * step))
-        d_ln.append((model.ln_gamma(electrolyte, molality, constants, up)
-                     - model.ln_gamma(electrolyte, molality, constants, down)) / (2.0 * step))
-    shape = (molality.size, 0)
-    if not free:
-        return np.zeros(shape), np.zeros(shape)
-    return np.column_stack(d_phi), np.column_stack(d_ln)
-
-
-def derived_properties(reduction: Reduction) -> pd.DataFrame:
-    r"""φ, a_w and G^E/RT with standard uncertainties at each usable molality of a reduction.
-
-    Parameters
-    ----------
-    reduction : Reduction
-        From :func:`activolt.procedures.dilution.reduce_run`.
-
-    Returns
-    -------
-    pandas.DataFrame
-        One row per usable reading, in the run's order: ``line``, ``molality_mol_kg``,
-        ``temperature_K``, ``ln_gamma_pm_model`` and ``u_ln_gamma_pm_model`` [-],
-        ``osmotic_coefficient`` and ``u_osmotic_coefficient`` [-], ``water_activity`` and
-        ``u_water_activity`` [-], ``excess_gibbs_rt_mol_kg`` and ``u_excess_gibbs_rt_mol_kg``
-        (G^E/RT per kilogram of water) [mol kg⁻¹], ``excess_gibbs_J_kg`` and
-        ``u_excess_gibbs_J_kg`` (G^E per kilogram of water) [J kg⁻¹]. Uncertainties are
-        standard uncertainties (k = 1). ``DataFrame.attrs["notes"]`` says what they include.
-
-    Notes
-    -----
-    With the fitted parameter values θ (fitted and held) of the model at each row's temperature,
-
-    .. math:: a_w = \exp(−ν m M_w φ), \qquad G^E/(RT) = ν m (1 − φ + \ln γ_±)
-
-    (Robinson & Stokes 1959, ch. 2; Pitzer 1991, ch. 3). For each quantity y, u²(y) = gᵀ V g
-    with g = ∂y/∂θ (central differences) over the free parameters and those held at a
-    conventional value with a stated uncertainty, and V their joint covariance,
-    ``reduction.uncertain_covariance`` (GUM 5.2): a held parameter's Type B uncertainty enters
-    both directly and through the free parameters that compensate for it. E° does not enter.
-
-    Examples
-    --------
-    Readings computed for HCl from the γ± of Robinson & Stokes (1959, Appendix 8.10; from
-    memory: 0.929, 0.904, 0.830, 0.796) with E° = 0.22234 V (Bates & Bower 1954), reduced with
-    the Hückel equation; the same source gives φ = 0.943 at 0.1 mol/kg (from memory):
-
-    >>> import tempfile, pathlib
-    >>> from activolt.data.runs import read_run
-    >>> from activolt.procedures.dilution import reduce_run
-    >>> folder = pathlib.Path(tempfile.mkdtemp())
-    >>> _ = (folder / "r.csv").write_text(
-    ...     "molality_mol_kg,emf_V\n0.005,0.49838\n0.01,0.46416\n0.05,0.38585\n0.1,0.35238\n")
-    >>> _ = (folder / "r.toml").write_text('electrolyte = "HCl"\nelectrons = 1\n'
-    ...                                    'temperature_C = 25.0\n')
-    >>> props = derived_properties(reduce_run(read_run(folder / "r.csv"), "hueckel"))
-    >>> round(float(props["osmotic_coefficient"].iloc[-1]), 2)
-    0.94
-    """
-    points = usable_points(reduction.run)
-    electrolyte = reduction.electrolyte
-    model = reduction.model
-    molality = points["molality_mol_kg"].to_numpy(float)
-    temperature = points["temperature_K"].to_numpy(float)
-    constants = debye_hueckel_constants(temperature)
-    values = reduction.model_parameter_values
-    names = reduction.uncertain_names or reduction.free_names
-    matrix = (reduction.covariance if reduction.uncertain_covariance is None
-              else reduction.uncertain_covariance)
-    keep = [i for i, name in enumerate(names) if name in values]
-    free = tuple(names[i] for i in keep)
-
-    phi = np.asarray(model.osmotic_coefficient(electrolyte, molality, constants, values), float)
-    ln_g = np.asarray(model.ln_gamma(electrolyte, molality, constants, values), float)
-    a_w = water_activity(electrolyte, molality, phi)
-    g_rt = excess_gibbs_energy_rt(electrolyte, molality, phi, ln_g)
-
-    d_phi, d_ln = _gradients(model, electrolyte, molality, constants, values, free)
-    cov = np.asarray(matrix, dtype=float)[np.ix_(keep, keep)]
-    factor = electrolyte.nu * molality
-
-    def u(gradient: np.ndarray) -> np.ndarray:
-        if not free:
-            return np.zeros(molality.size)
-        return np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", gradient, cov, gradient), 0.0))
-
-    u_phi = u(d_phi)
-    u_ln_g = u(d_ln)
-    # a_w = exp(−ν m M_w φ): ∂a_w/∂θ = −a_w ν m M_w ∂φ/∂θ.
-    u_aw = a_w * factor * MOLAR_MASS_WATER_KG_MOL * u_phi
-    u_g_rt = u(factor[:, None] * (d_ln - d_phi))
-    rt = GAS_CONSTANT_J_MOL_K * temperature
-
-    frame = pd.DataFrame({
-        "line": points["line"].to_numpy(),
-        "molality_mol_kg": molality,
-        "temperature_K": temperature,
-        "ln_gamma_pm_model": ln_g,
-        "u_ln_gamma_pm_model": u_ln_g,
-        "osmotic_coefficient": phi,
-        "u_osmotic_coefficient": u_phi,
-        "water_activity": a_w,
-        "u_water_activity": u_aw,
-        "excess_gibbs_rt_mol_kg": g_rt,
-        "u_excess_gibbs_rt_mol_kg": u_g_rt,
-        "excess_gibbs_J_kg": g_rt * rt,
-        "u_excess_gibbs_J_kg": u_g_rt * rt,
-    })
-    held = [p.symbol for p in reduction.parameters if p.fixed]
-    notes = [f"from the {model.title} with the fitted parameters; uncertainties (k = 1) from the "
-             "covariance of the free parameters"
-             + (f" ({', '.join(free)})" if free else " (none free: uncertainties 0)")]
-    if held:
-        notes.append("held parameter(s) " + ", ".join(held) + " enter at their held values; "
-                     "their own uncertainty is not propagated here")
-    frame.attrs["notes"] = notes
-    return frame

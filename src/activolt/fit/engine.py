@@ -314,11 +314,18 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             break
         rows = np.flatnonzero(active)
         sub = _rows(model, rows)
-        used = free[rows][:, columns]
         at = sub.gradient_rows(values[rows], free[rows], columns, central=False)
         at *= sqrt_w[rows, None, :]
         normal = np.matmul(at, np.swapaxes(at, 1, 2))
         gradient = np.matmul(at, residual[rows, :, None])[..., 0]
+        # A parameter at a bound that the descent would push beyond it is held for this step
+        # (projected Levenberg–Marquardt), so that the others can settle.
+        current = values[rows][:, columns]
+        pinned = (((current <= limits[columns, 0]) & (gradient < 0.0))
+                  | ((current >= limits[columns, 1]) & (gradient > 0.0)))
+        used = free[rows][:, columns] & ~pinned
+        normal = normal * used[:, :, None] * used[:, None, :]
+        gradient = gradient * used
         normal[:, diagonal, diagonal] *= 1.0 + damping[rows, None]
         regular = _regularised(normal, used)
         try:
@@ -329,6 +336,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         step = np.zeros((rows.size, n_parameters))
         step[:, columns] = compact
         trial = np.clip(values[rows] + step * free[rows], limits[:, 0], limits[:, 1])
+        step = trial - values[rows]
         trial_residual = np.where(w[rows] > 0.0, emf[rows] - sub.predict(trial), 0.0) * sqrt_w[rows]
         trial_chi2 = np.sum(trial_residual**2, axis=1)
         better = np.isfinite(trial_chi2) & (trial_chi2 <= chi2[rows] * (1.0 + 1e-12)

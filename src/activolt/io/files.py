@@ -206,7 +206,9 @@ def _fsync_folder(folder: Path) -> None:
             os.close(handle)
 
 
-def _write_file(path: Path, data: bytes, mode: int) -> None:
+def write_file(path: Path, data: bytes, mode: int) -> None:
+    """Write ``data`` to a new file ``path`` (never an existing one) with permission ``mode``,
+    flushed to disk before it returns."""
     handle = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0),
                      0o600)
     try:
@@ -354,7 +356,7 @@ def _data(content: bytes | str) -> bytes:
     return content.encode("utf-8") if isinstance(content, str) else content
 
 
-class _Transaction:
+class OutputTransaction:
     """The temporaries, the undo steps and the folders made by one :func:`write_outputs`."""
 
     def __init__(self) -> None:
@@ -388,7 +390,7 @@ class _Transaction:
                 except OSError:
                     shutil.copy2(entry.path, new / entry.name, follow_symlinks=False)
         for name, content in contents.items():
-            _write_file(new / name, _data(content), modes.get(name, self.file_mode))
+            write_file(new / name, _data(content), modes.get(name, self.file_mode))
         os.chmod(new, folder_mode)
         _fsync_folder(new)
         return new
@@ -400,7 +402,7 @@ class _Transaction:
         with contextlib.suppress(OSError):
             if path.is_file():
                 mode = stat.S_IMODE(path.stat().st_mode)
-        _write_file(temporary, _data(content), mode)
+        write_file(temporary, _data(content), mode)
         return temporary
 
     def commit_folder(self, folder: Path, new: Path) -> None:
@@ -496,7 +498,7 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
     real_files = {path: Path(os.path.realpath(path.parent)) / path.name for path in files}
     for path, real in real_files.items():
         targets[real] = str(path)
-    transaction = _Transaction()
+    transaction = OutputTransaction()
     committed = False
     shown = str(folder if folder is not None else next(iter(files), ""))
     try:

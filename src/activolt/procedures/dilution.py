@@ -31,26 +31,28 @@ import pandas as pd
 from uncertainties import correlated_values
 from uncertainties.core import AffineScalarFunc
 
-from ..activity import ActivityModel, Parameter, get_model
+from ..activity import ActivityModel, get_model
 from ..activity.hueckel import BATES_GUGGENHEIM_BA
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
+from ..fit.problem import (
+    E0,
+    SLOPE,
+    SLOPE_PARAMETER,
+    SeriesData,
+    emf_jacobian,
+    gas_correction,
+    parameter_spec,
+    predict_emf,
+    prepare_series,
+)
 from ..fit.uncertainty import BudgetLine, ln_gamma_covariance, sensitivity_matrix, student_t_factor
-from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
+from ..physics.water import debye_hueckel_constants
 
 __all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction", "reduce_run",
-           "sensitivity_matrix"]
+           "reduction_jacobian", "sensitivity_matrix"]
 
-E0 = "standard_potential_V"
-SLOPE = "slope_factor"
-#: The slope factor s of the cell response, E = E° − s k ln(m± γ±), fitted on request (pairs of
-#: ion-selective electrodes are often slightly sub-Nernstian); s = 1 is the Nernstian response.
-SLOPE_PARAMETER = Parameter(
-    name=SLOPE, symbol="s", unit="", description="slope factor of the cell response",
-    linear=False, conventional=lambda electrolyte, constants: 1.0,
-    convention="Nernstian response s = 1", minimum=0.5, maximum=1.2,
-)
 #: Largest spread of temperatures in one run that is reduced to one E° [K].
 MAX_TEMPERATURE_SPREAD_K = 2.0
 #: Relative standard uncertainty beyond which a non-linear parameter counts as undetermined.
@@ -172,6 +174,8 @@ class Reduction:
     part that parameters held at a conventional value with a stated uncertainty add to them.
     ``uncertain_covariance`` extends it to those held parameters themselves
     (``uncertain_names``), for quantities that depend on them directly (model γ±, φ, a_w).
+    ``data`` is the measurement problem as finally fitted (readings corrected to p°, weights
+    with every refinement), which the Monte Carlo draws anew.
     """
 
     run: Run
@@ -193,6 +197,7 @@ class Reduction:
     uncertain_names: tuple[str, ...] = ()
     uncertain_covariance: np.ndarray | None = None
     budget: tuple[BudgetLine, ...] = ()
+    data: SeriesData | None = field(default=None, repr=False, compare=False)
 
     @property
     def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
@@ -249,86 +254,10 @@ class Reduction:
         """The points table (all rows, flagged ones included)."""
         return self.points.copy()
 
-    def report(self) -> str:
-        """A short plain-text report."""
-        from ..report.text import format_report
-
-        return format_report(self)
 
 
-@dataclass(frozen=True)
-class _Data:
-    molality: np.ndarray
-    emf_V: np.ndarray
-    weights: np.ndarray
-    nernst_V: np.ndarray
-    ln_mean_molality: np.ndarray
-    constants: DebyeHueckelConstants
-    stated_uncertainty: bool
-    sign: int = 1
-    slope: float = 1.0
-    correction_V: np.ndarray | None = None
-    gas_pressure_Pa: np.ndarray | None = None
-    u_emf_V: np.ndarray | None = None
-    u_molality_mol_kg: np.ndarray | None = None
-
-
-def _gas_correction(run: Run, points: pd.DataFrame, water_activity: npt.ArrayLike = 1.0
-                   ) -> tuple[np.ndarray | None, np.ndarray | None]:
-    """(ΔE to p° [V], partial pressure of the cell's gas [Pa]) per usable row, or (None, None)
-    when the cell holds no gas or no barometric pressure is given."""
-    meta = run.metadata
-    if not meta.gas_coefficients:
-        return None, None
-    pressure = points["pressure_Pa"].to_numpy(float)
-    if meta.barometric_pressure_Pa is not None:
-        pressure = np.where(np.isnan(pressure), meta.barometric_pressure_Pa, pressure)
-    if np.isnan(pressure).all():
-        return None, None
-    if np.isnan(pressure).any():
-        line = int(points.loc[np.isnan(pressure), "line"].iloc[0])
-        raise InputError("no barometric pressure for this row while others have one; fill the "
-                         "column or give pressure_kPa in the metadata", file=str(run.path),
-                         line=line, column="pressure_kPa")
-    from ..physics.corrections import gas_pressure_correction, hydrogen_partial_pressure
-
-    temperature = points["temperature_K"].to_numpy(float)
-    partial = hydrogen_partial_pressure(pressure, temperature, water_activity=water_activity,
-                                        bubbler_depth_m=meta.bubbler_depth_m)
-    correction = gas_pressure_correction(
-        temperature, meta.electrons, meta.gas_coefficients,
-        {gas: partial for gas in meta.gas_coefficients}, meta.standard_pressure_Pa)
-    return correction, partial
-
-
-def _prepare(run: Run) -> _Data:
-    points = usable_points(run)
-    meta = run.metadata
-    molality = points["molality_mol_kg"].to_numpy(float)
-    temperature = points["temperature_K"].to_numpy(float)
-    stated = run.emf_uncertainty_given
-    u = points["u_emf_V"].to_numpy(float) if stated else np.ones(len(points))
-    correction, partial = _gas_correction(run, points)
-    emf = points["emf_V"].to_numpy(float)
-    u_molality = points["u_molality_mol_kg"].to_numpy(float)
-    return _Data(
-        molality=molality,
-        emf_V=emf if correction is None else emf + correction,
-        weights=1.0 / u**2,
-        nernst_V=nernst_factor(meta.electrolyte, meta.electrons, temperature),
-        ln_mean_molality=np.log(meta.electrolyte.mean_molality(molality)),
-        constants=debye_hueckel_constants(temperature),
-        stated_uncertainty=stated,
-        sign=meta.electrolyte_sign,
-        slope=meta.slope_factor,
-        correction_V=correction,
-        gas_pressure_Pa=partial,
-        u_emf_V=u if stated else None,
-        u_molality_mol_kg=u_molality,
-    )
-
-
-def _with_vapour_lowering(run: Run, model: ActivityModel, data: _Data, fit: _Fit) -> _Data:
+def _with_vapour_lowering(run: Run, model: ActivityModel, data: SeriesData,
+                          fit: _Fit) -> SeriesData:
     """Readings corrected again with the water vapour over the solution lowered to a_w p_w,
     a_w = exp(−ν m M_w φ) from the fitted model (Robinson & Stokes 1959, ch. 2); unchanged when
     the metadata does not ask for it or no gas correction applies."""
@@ -340,13 +269,13 @@ def _with_vapour_lowering(run: Run, model: ActivityModel, data: _Data, fit: _Fit
     phi = model.osmotic_coefficient(run.metadata.electrolyte, data.molality, data.constants,
                                     model_values)
     a_w = water_activity(run.metadata.electrolyte, data.molality, phi)
-    correction, partial = _gas_correction(run, usable_points(run), a_w)
+    correction, partial = gas_correction(run, usable_points(run), a_w)
     return dataclasses.replace(data, emf_V=data.emf_V - data.correction_V + correction,
                                correction_V=correction, gas_pressure_Pa=partial)
 
 
-def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
-                             fit: _Fit) -> _Data:
+def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
+                             fit: _Fit) -> SeriesData:
     """Weights 1/[u²(E) + (∂E/∂m)² u²(m)] (effective variance; Orear 1982, Am. J. Phys. 50,
     912), the slope taken from ``fit``; unchanged when no u(m) or no u(E) is stated."""
     if not data.stated_uncertainty or data.u_molality_mol_kg is None or not np.any(
@@ -356,35 +285,10 @@ def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, dat
     shifted = [dataclasses.replace(
         data, molality=m, ln_mean_molality=np.log(electrolyte.mean_molality(m)))
         for m in (data.molality + step, data.molality - step)]
-    up, down = (_model_emf(model, electrolyte, d, fit.e0, fit.values) for d in shifted)
+    up, down = (predict_emf(model, electrolyte, d, fit.e0, fit.values) for d in shifted)
     slope_V_kg_mol = (up - down) / (2.0 * step)
     variance = data.u_emf_V**2 + (slope_V_kg_mol * data.u_molality_mol_kg) ** 2
     return dataclasses.replace(data, weights=1.0 / variance)
-
-
-def _spec(model: ActivityModel, name: str) -> Parameter:
-    """The description of a model parameter or of the slope factor."""
-    return SLOPE_PARAMETER if name == SLOPE else model.parameter(name)
-
-
-def _model_emf(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
-               values: Mapping[str, float]) -> np.ndarray:
-    """E = E° − σ s k [ln m± + ln γ±(m; θ)], σ = +1 (electrolyte formed) or −1 (consumed)."""
-    model_values = {name: values[name] for name in model.parameter_names}
-    ln_gamma = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
-    slope = values.get(SLOPE, data.slope)
-    return e0 - data.sign * slope * data.nernst_V * (data.ln_mean_molality + ln_gamma)
-
-
-def _jacobian(model: ActivityModel, electrolyte: Electrolyte, data: _Data, e0: float,
-              values: Mapping[str, float], free: list[str]) -> np.ndarray:
-    """∂E_model/∂(E°, free parameters) at the given values, by central differences."""
-    from ..fit.least_squares import central_difference_jacobian
-
-    def predicted(p: Mapping[str, float]) -> np.ndarray:
-        return _model_emf(model, electrolyte, data, p[E0], {**values, **p})
-
-    return central_difference_jacobian(predicted, {E0: e0, **{n: values[n] for n in free}})
 
 
 @dataclass
@@ -401,42 +305,50 @@ class _Fit:
     jacobian: np.ndarray
 
 
-def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
               values: dict[str, float], free: list[str]) -> _Fit:
-    """One weighted fit of E° and the ``free`` parameters, the others held at ``values``,
-    by the project's least-squares core
-    (:func:`activolt.fit.least_squares.weighted_least_squares`)."""
-    from ..fit.least_squares import weighted_least_squares
+    """One weighted fit of E° and the ``free`` parameters, the others held at ``values``, by the
+    batched engine (:func:`activolt.fit.engine.solve`) on a batch of one."""
+    from ..fit.engine import solve
+    from ..fit.least_squares import information_criteria
 
-    # Start E° from the held/initial values, exactly (the model is linear in E°).
-    start = _model_emf(model, electrolyte, data, 0.0, values)
-    e0_start = float(np.sum(data.weights * (data.emf_V - start)) / np.sum(data.weights))
-
-    def predicted(p: Mapping[str, float]) -> np.ndarray:
-        return _model_emf(model, electrolyte, data, p[E0], {**values, **{n: p[n] for n in free}})
-
-    specs = {name: _spec(model, name) for name in free}
-    try:
-        result = weighted_least_squares(
-            predicted, {E0: e0_start, **{name: values[name] for name in free}}, data.emf_V,
-            data.weights, {name: (spec.minimum, spec.maximum) for name, spec in specs.items()},
-            scale_covariance=not data.stated_uncertainty)
-    except ValueError as error:
-        raise FitError(f"the fit cannot be done ({error}); hold a parameter with --fix") from None
-    covariance = result.covariance
+    measurement = data.measurement_model(model, electrolyte)
+    names = measurement.names
+    specs = [parameter_spec(model, name) if name != E0 else None for name in names]
+    mask = np.array([[name == E0 or name in free for name in names]])
+    linear = np.array([spec is None or spec.linear for spec in specs])
+    bounds = np.array([[-math.inf, math.inf] if spec is None else [spec.minimum, spec.maximum]
+                       for spec in specs])
+    start = data.values_array(model, 0.0, values)
+    if not np.all((start[0] >= bounds[:, 0]) & (start[0] <= bounds[:, 1])):
+        raise FitError("a starting value lies outside its bounds; hold the parameter at a "
+                       "value within them with --fix")
+    result = solve(measurement, data.emf_V[None, :], data.weights[None, :], start, mask, linear,
+                   bounds, scale_covariance=not data.stated_uncertainty)
+    if not result.converged[0]:
+        raise FitError(f"{result.failures[0]}; hold a parameter with --fix")
+    order = [names.index(name) for name in (E0, *free)]
+    covariance = result.covariance[0][np.ix_(order, order)]
     if not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0):
         raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
                        "independent for these data); hold a parameter with --fix")
-    fitted = {**values, **{n: result.values[n] for n in free}}
-    return _Fit(e0=result.values[E0], values=fitted, free=list(free), covariance=covariance,
-                chi2=result.chi2, dof=result.dof, aic=result.aic, bic=result.bic,
-                residual_V=result.residuals, jacobian=result.jacobian)
+    fitted = {**values, **{name: float(result.values[0, names.index(name)]) for name in free}}
+    n = data.emf_V.size
+    dof = int(result.dof[0])
+    if dof < 1 and not data.stated_uncertainty:
+        raise FitError("no degree of freedom is left to estimate the scatter; hold a parameter "
+                       "with --fix or state u(EMF)")
+    chi2 = float(result.chi2[0])
+    aic, bic = information_criteria(chi2, n, 1 + len(free), not data.stated_uncertainty)
+    return _Fit(e0=float(result.values[0, 0]), values=fitted, free=list(free),
+                covariance=covariance, chi2=chi2, dof=dof, aic=aic, bic=bic,
+                residual_V=result.residual_V[0], jacobian=result.jacobian[0][:, order])
 
 
 def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
     """A free parameter that ran to a bound or whose uncertainty is not finite, and why."""
     for index, name in enumerate(fit.free, start=1):
-        spec = _spec(model, name)
+        spec = parameter_spec(model, name)
         value, variance = fit.values[name], fit.covariance[index, index]
         span = spec.maximum - spec.minimum
         span = span if math.isfinite(span) else 1.0
@@ -450,7 +362,7 @@ def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
     return None
 
 
-def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                    fit: _Fit, values: dict[str, float]) -> tuple[str, str] | None:
     """The free parameter to hold next, and why, or None.
 
@@ -465,7 +377,7 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
     best_convention: tuple[float, str, str] | None = None
     best_bic: tuple[float, bool, str] | None = None
     for index, name in enumerate(fit.free, start=1):
-        spec = _spec(model, name)
+        spec = parameter_spec(model, name)
         conventional = spec.conventional(electrolyte, data.constants)
         u_fit = math.sqrt(fit.covariance[index, index])
         if spec.conventional_uncertainty is not None:
@@ -493,12 +405,12 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
     if best_bic is None:
         return None
     bic, _, name = best_bic
-    spec = _spec(model, name)
+    spec = parameter_spec(model, name)
     return name, (f"the data do not support fitting it (BIC {bic:.1f} held vs {fit.bic:.1f} "
                   f"fitted; fitted value {fit.values[name]:.3g} {spec.unit})")
 
 
-def _linear_extrapolation(run: Run, data: _Data, slope: float) -> LinearExtrapolation | None:
+def _linear_extrapolation(run: Run, data: SeriesData, slope: float) -> LinearExtrapolation | None:
     electrolyte = run.metadata.electrolyte
     ionic = electrolyte.ionic_strength(data.molality)
     use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
@@ -549,7 +461,7 @@ def _within_range(run: Run, family: ActivityModel) -> tuple[Run, str | None]:
         "(choose pitzer, or compare all models, to use the whole run)")
 
 
-def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: _Data,
+def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                        fit: _Fit) -> np.ndarray | None:
     """How (E°, free parameters) would move if the readings followed the model plus the term it
     leaves out (:attr:`ActivityModel.truncation`): δp = S δE, δE = −σ s k Δln γ± (first order);
@@ -562,7 +474,7 @@ def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: _D
     return sensitivity_matrix(fit.jacobian, data.weights) @ (
         -data.sign * slope * data.nernst_V * delta)
 
-def _solution_means(data: _Data, fit: _Fit) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _solution_means(data: SeriesData, fit: _Fit) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(molality, weighted mean residual [V], summed weight) of each solution: readings at one
     molality are replicates of one solution and share its preparation error."""
     molality, group = np.unique(data.molality, return_inverse=True)
@@ -571,7 +483,7 @@ def _solution_means(data: _Data, fit: _Fit) -> tuple[np.ndarray, np.ndarray, np.
     return molality, mean, weight
 
 
-def _judge_fit(family: ActivityModel, data: _Data, fit: _Fit
+def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit
                ) -> tuple[float, int, float, float]:
     """(Birge ratio, its degrees of freedom, χ² p-value, runs-test p-value) of the final fit.
 
@@ -681,7 +593,7 @@ def reduce_run(run: Run, model: str = "hueckel",
                              f"{', '.join(p.name for p in specs) or 'none'}", column="--fix")
 
     run, range_warning = _within_range(run, family)
-    data = _prepare(run)
+    data = prepare_series(run)
     n = len(data.emf_V)
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
@@ -717,7 +629,7 @@ def reduce_run(run: Run, model: str = "hueckel",
     first_fit: _Fit | None = None
     while True:
         while free and n - 1 - len(free) < 1:
-            name = next((f for f in free if not _spec(family, f).linear), free[-1])
+            name = next((f for f in free if not parameter_spec(family, f).linear), free[-1])
             free.remove(name)
             reasons[name] = f"too few readings to fit it ({n})"
         fit = _fit_once(family, electrolyte, data, values, free)
@@ -734,14 +646,14 @@ def reduce_run(run: Run, model: str = "hueckel",
             break
         name, why = hold
         free.remove(name)
-        values = {**fit.values, name: _spec(family, name).conventional(electrolyte,
+        values = {**fit.values, name: parameter_spec(family, name).conventional(electrolyte,
                                                                        data.constants)}
         reasons[name] = why
 
     for name, why in reasons.items():
         if name in fixed:
             continue
-        spec = _spec(family, name)
+        spec = parameter_spec(family, name)
         notes.append(f"{spec.symbol} held at {values[name]:.4g} {spec.unit} "
                      f"({spec.convention}): {why}")
     if first_fit is not fit and first_fit is not None:
@@ -824,7 +736,7 @@ def reduce_run(run: Run, model: str = "hueckel",
         warnings=tuple(warnings), notes=tuple(notes),
         corrections=corrections, other_basis=other_basis, catalogue=catalogue,
         uncertain_names=uncertain_names, uncertain_covariance=uncertain_covariance,
-        budget=budget,
+        budget=budget, data=data,
     )
 
 
@@ -834,7 +746,7 @@ _PRESSURE_STEP_PA = 10.0
 
 
 def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrolyte,
-                          data: _Data, fit: _Fit
+                          data: SeriesData, fit: _Fit
                           ) -> list[tuple[str, float, np.ndarray, np.ndarray]]:
     """For each input shared by all readings with a stated uncertainty (the run temperature, the
     barometric pressure): (name, u, ∂(E°, free parameters)/∂input, ∂ ln γ±/∂input), from a
@@ -857,7 +769,7 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     ln_gamma = (fit.e0 - data.emf_V) * data.sign / (slope * data.nernst_V) - data.ln_mean_molality
     for name, u, step, points, metadata in shifts:
         shifted = dataclasses.replace(
-            _prepare(dataclasses.replace(run, points=points, metadata=metadata)),
+            prepare_series(dataclasses.replace(run, points=points, metadata=metadata)),
             weights=data.weights)
         refit = _fit_once(family, electrolyte, shifted, fit.values, fit.free)
         moved = np.array([refit.e0, *[refit.values[n] for n in fit.free]])
@@ -868,7 +780,7 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     return effects
 
 
-def _budget(run: Run, data: _Data, fit: _Fit, type_b: np.ndarray | None,
+def _budget(run: Run, data: SeriesData, fit: _Fit, type_b: np.ndarray | None,
             common: list[tuple[str, float, np.ndarray, np.ndarray]],
             birge: float = 1.0, truncation: np.ndarray | None = None
             ) -> tuple[BudgetLine, ...]:
@@ -915,7 +827,7 @@ def _budget(run: Run, data: _Data, fit: _Fit, type_b: np.ndarray | None,
     return tuple(lines)
 
 
-def _diagnose(table: pd.DataFrame, data: _Data, fit: _Fit) -> list[str]:
+def _diagnose(table: pd.DataFrame, data: SeriesData, fit: _Fit) -> list[str]:
     """Leverage, studentized residuals and Cook's distance of the used readings (in ``table``),
     and a ``diagnostic`` reason where one stands out; warnings naming them."""
     from ..fit.diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
@@ -970,7 +882,7 @@ def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
     return CatalogueValue(value, e0["uncertainty"], couples)
 
 
-def _corrections_summary(run: Run, data: _Data, temperature_K: float
+def _corrections_summary(run: Run, data: SeriesData, temperature_K: float
                          ) -> tuple[tuple[str, ...], tuple[float, float] | None]:
     """What was corrected, with sizes in mV, and the shift of E° to the other pressure basis."""
     meta = run.metadata
@@ -1005,7 +917,7 @@ def _corrections_summary(run: Run, data: _Data, temperature_K: float
     return tuple(lines), (other, shift)
 
 
-def _statistics(fit: _Fit, data: _Data, birge: float, birge_dof: int, chi2_p: float,
+def _statistics(fit: _Fit, data: SeriesData, birge: float, birge_dof: int, chi2_p: float,
                 runs_p: float) -> FitStatistics:
     n = len(data.emf_V)
     scaled = not data.stated_uncertainty or birge > 1.0
@@ -1020,7 +932,7 @@ def _statistics(fit: _Fit, data: _Data, birge: float, birge_dof: int, chi2_p: fl
     )
 
 
-def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data: _Data,
+def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                             fit: _Fit, held: list[str]
                             ) -> tuple[list[str], np.ndarray, np.ndarray] | None:
     """Parameters held at conventional values with a stated uncertainty: their names, how
@@ -1029,13 +941,13 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     names, columns, variances = [], [], []
     for name in held:
-        spec = _spec(model, name)
+        spec = parameter_spec(model, name)
         if spec.conventional_uncertainty is None:
             continue
         step = 1e-6 * max(1.0, abs(fit.values[name]))
-        up = _model_emf(model, electrolyte, data, fit.e0, {**fit.values,
+        up = predict_emf(model, electrolyte, data, fit.e0, {**fit.values,
                                                           name: fit.values[name] + step})
-        down = _model_emf(model, electrolyte, data, fit.e0, {**fit.values,
+        down = predict_emf(model, electrolyte, data, fit.e0, {**fit.values,
                                                             name: fit.values[name] - step})
         names.append(name)
         columns.append(-sensitivity @ ((up - down) / (2.0 * step)))
@@ -1045,7 +957,7 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
     return names, np.column_stack(columns), np.asarray(variances)
 
 
-def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
+def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
                   type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
                   uncertain_covariance: np.ndarray,
                   common: list[tuple[str, float, np.ndarray, np.ndarray]]
@@ -1126,3 +1038,13 @@ def _points_table(run: Run, model: ActivityModel, data: _Data, fit: _Fit,
         table[f"u_gamma_pm_{name}"] = np.nan
         table.loc[usable, f"u_gamma_pm_{name}"] = gamma * np.sqrt(variance)
     return table, gamma_cov
+
+
+def reduction_jacobian(reduction: Reduction) -> np.ndarray:
+    """∂E/∂(E°, free parameters) of the reduction's final fit at its optimum [V per unit],
+    shape (N, P) over the usable readings (for diagnostics and checks of the propagation)."""
+    if reduction.data is None:
+        raise ValueError("the reduction carries no prepared data")
+    return emf_jacobian(reduction.model, reduction.electrolyte, reduction.data,
+                        reduction.standard_potential.nominal_value, reduction.parameter_values,
+                        list(reduction.free_names[1:]))

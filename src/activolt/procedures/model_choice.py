@@ -67,7 +67,6 @@ from ..activity import MODELS, get_model
 from ..data.runs import Run, usable_points
 from ..errors import FitError, InputError
 from ..fit.diagnostics import RunsTest, runs_test
-from ..report.numbers import json_number
 from .dilution import OUT_OF_RANGE, FitStatistics, FittedParameter, Reduction, reduce_run
 
 __all__ = [
@@ -79,7 +78,6 @@ __all__ = [
     "RunsTest",
     "SkippedModel",
     "compare_models",
-    "comparison_record",
     "runs_test",
 ]
 
@@ -473,75 +471,3 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
         u_model_choice_V=u_model, recommended=recommended, standard_potential_V=e0,
         u_fit_V=u_fit, u_combined_V=u_combined, notes=tuple(notes), warnings=tuple(warnings),
     )
-
-
-def comparison_record(comparison: ModelComparison) -> dict:
-    """The comparison as a JSON-ready dict for the record (units in the key names).
-
-    Parameters
-    ----------
-    comparison : ModelComparison
-        From :func:`compare_models`.
-
-    Returns
-    -------
-    dict
-        ``criteria``, ``models`` (one entry per fitted model: E°, parameters, fit statistics,
-        runs test, ionic-strength range, verdict), ``skipped``, ``adequate_models``,
-        ``spread_V``, ``u_model_choice_V``, ``model_choice_rule``, ``recommended_model``,
-        ``recommendation_rule``, ``standard_potential_V`` (value, u_fit, u_model_choice and the
-        combined uncertainty, k = 1), ``notes`` and ``warnings``. Non-finite numbers are None.
-    """
-    models = []
-    for a in comparison.assessments:
-        st, rt = a.statistics, a.runs_test
-        models.append({
-            "name": a.name,
-            "title": a.title,
-            "standard_potential_V": {"value": json_number(a.standard_potential_V),
-                                     "uncertainty": json_number(a.u_standard_potential_V)},
-            "parameters": {
-                p.name: {"value": json_number(p.value), "uncertainty": json_number(p.uncertainty),
-                         "fixed": p.fixed, "reason": p.reason}
-                for p in a.parameters
-            },
-            "fit": {"n_points": st.n_points, "n_free": st.n_free, "dof": st.dof,
-                    "chi2": json_number(st.chi2), "reduced_chi2": json_number(st.reduced_chi2),
-                    "aic": json_number(st.aic), "bic": json_number(st.bic),
-                    "chi2_p_value": json_number(a.chi2_p_value),
-                    "variance_ratio_p_value": json_number(a.variance_ratio_p_value),
-                    "covariance_scaled": st.covariance_scaled},
-            "runs_test": {"n_positive": rt.n_positive, "n_negative": rt.n_negative,
-                          "runs": rt.runs, "expected_runs": json_number(rt.expected_runs),
-                          "z": json_number(rt.z),
-                          "p_value_two_sided": json_number(rt.p_value_two_sided),
-                          "p_value_fewer": json_number(rt.p_value_fewer)},
-            "max_ionic_strength_mol_kg": json_number(a.max_ionic_strength_mol_kg),
-            "model_max_ionic_strength_mol_kg": json_number(a.model_max_ionic_strength_mol_kg),
-            "adequate": a.adequate,
-            "verdict": a.verdict,
-            "notes": list(a.notes),
-            "warnings": list(a.warnings),
-        })
-    return {
-        "criteria": {"chi2_p_min": CHI2_P_MIN, "variance_ratio_p_min": VARIANCE_RATIO_P_MIN,
-                     "runs_fewer_p_min": RUNS_P_MIN,
-                     "ionic_strength": "within the model's commonly adequate range"},
-        "stated_reading_uncertainty": comparison.stated_uncertainty,
-        "n_points": comparison.n_points,
-        "temperature_K": json_number(comparison.temperature_K),
-        "models": models,
-        "skipped": [{"name": s.name, "reason": s.reason} for s in comparison.skipped],
-        "adequate_models": list(comparison.adequate_models),
-        "spread_V": json_number(comparison.spread_V),
-        "u_model_choice_V": json_number(comparison.u_model_choice_V),
-        "model_choice_rule": MODEL_CHOICE_RULE,
-        "recommended_model": comparison.recommended,
-        "recommendation_rule": RECOMMENDATION_RULE,
-        "standard_potential_V": {"value": json_number(comparison.standard_potential_V),
-                                 "u_fit": json_number(comparison.u_fit_V),
-                                 "u_model_choice": json_number(comparison.u_model_choice_V),
-                                 "uncertainty": json_number(comparison.u_combined_V)},
-        "notes": list(comparison.notes),
-        "warnings": list(comparison.warnings),
-    }

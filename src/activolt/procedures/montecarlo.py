@@ -18,11 +18,11 @@ For each trial:
   are not taken again per trial);
 - γ± at every point follows from the trial's E°, reading and molality, as in the reduction.
 
-Speed. All trials are fitted at once: a Gauss–Newton iteration on arrays of shape (trials,
-points), the Jacobian by central differences of the vectorised model and a batched QR solve per
-step, with step halving where χ² would rise. A model whose free parameters all enter linearly
-converges in one step. Trials that do not converge in 100 steps are fitted one by one with
-:func:`activolt.fit.least_squares.weighted_least_squares`.
+Speed. The trials are the very problem the reduction solved — its prepared readings
+(:attr:`Reduction.data`, with every refinement: gas correction, vapour lowering, effective
+variance, lack-of-fit scaling) — drawn anew and fitted all at once by the batched engine
+(:func:`activolt.fit.engine.solve`), one series per trial. A model whose free parameters all
+enter linearly is solved in one step.
 
 References
 ----------
@@ -33,7 +33,6 @@ References
 
 from __future__ import annotations
 
-import dataclasses
 import math
 import sys
 import time
@@ -44,24 +43,18 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from ..activity import ActivityModel
+from ..chemistry.electrolytes import nernst_factor
 from ..data.runs import Run, usable_points
 from ..errors import FitError
+from ..fit.engine import MeasurementModel, solve
+from ..fit.problem import E0, parameter_spec, prepare_series
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
-from .dilution import E0, Reduction, _Data, _model_emf, _prepare, reduce_run
+from .dilution import Reduction, reduce_run
 
 __all__ = ["MonteCarloResult", "SampleSummary", "coverage_interval", "monte_carlo"]
 
-_MAX_STEPS = 100
 #: Trials drawn and fitted at once: memory stays ~ 10⁴ × N × (free parameters) numbers.
 _CHUNK_TRIALS = 10_000
-_HALVINGS = 8
-#: A trial has converged when every parameter step is below this fraction of the parameter's
-#: standard uncertainty from the original reduction.
-_STEP_TOLERANCE = 1e-7
-#: Relative change of χ² below its rounding error (the residuals are differences of EMFs ~0.1–1 V
-#: known to ~1e-16 relative, of size ~1e-5 V), accepted as no change.
-_CHI2_ROUNDING = 1e-9
 
 
 @dataclass(frozen=True)
@@ -280,14 +273,12 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
         reduction = reduce_run(run, model, fixed)
     family = reduction.model
     electrolyte = run.metadata.electrolyte
-    data = _prepare(run)
+    data = reduction.data if reduction.data is not None else prepare_series(run)
     n = data.emf_V.size
     free = list(reduction.free_names[1:])
     values = dict(reduction.parameter_values)
     held = {k: v for k, v in values.items() if k not in free}
     e0 = float(reduction.standard_potential.nominal_value)
-    start = np.array([e0, *[values[name] for name in free]])
-    uncertainty = np.sqrt(np.diag(reduction.covariance))
     notes: list[str] = []
 
     if data.stated_uncertainty:
@@ -316,13 +307,18 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
 
     started = time.perf_counter()
     names = [E0, *free]
-    bounds = np.array([[-math.inf, math.inf]] + [list(_limits(family, name)) for name in free])
+    measurement = data.measurement_model(family, electrolyte)
+    all_names = measurement.names
+    specs = [None if name == E0 else parameter_spec(family, name) for name in all_names]
+    linear = np.array([spec is None or spec.linear for spec in specs])
+    bounds = np.array([[-math.inf, math.inf] if spec is None else [spec.minimum, spec.maximum]
+                       for spec in specs])
+    free_mask = np.array([name == E0 or name in free for name in all_names])
+    start = data.values_array(family, e0, values)[0]
     stated_u_molality = bool(np.any(u_molality > 0))
     e0_samples = np.empty(trials)
     gamma = np.empty((trials, n))
     failed = np.zeros(trials, dtype=bool)
-    one_by_one = 0
-    vectorised: bool | None = None
     if progress is None:
         progress = sys.stderr is not None and getattr(sys.stderr, "isatty", lambda: False)()
     show = progress and trials > _CHUNK_TRIALS
@@ -337,72 +333,29 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
             molality = (_draw_molality(rng, data.molality, u_molality, count)
                         if stated_u_molality
                         else np.broadcast_to(data.molality, (count, n)).copy())
-            shift = (temperature_u_K * rng.standard_normal((count, 1)) if temperature_u_K > 0
-                     else np.zeros((count, 1)))
-            batched = dataclasses.replace(
-                data, molality=molality, emf_V=emf,
-                ln_mean_molality=np.log(electrolyte.mean_molality(molality)),
-            )
+            temperature = np.broadcast_to(data.constants.temperature, (count, n))
+            constants = DebyeHueckelConstants(temperature, np.broadcast_to(
+                data.constants.aphi, (count, n)), np.broadcast_to(data.constants.b, (count, n)))
+            nernst = np.broadcast_to(data.nernst_V, (count, n))
             if temperature_u_K > 0:
-                temperature = np.asarray(data.constants.temperature, dtype=float) + shift
-                from ..chemistry.electrolytes import nernst_factor
-
-                batched = dataclasses.replace(
-                    batched,
-                    nernst_V=nernst_factor(electrolyte, run.metadata.electrons, temperature),
-                    constants=_constants_at(data.constants, shift))
-
-            def evaluate(parameters: np.ndarray, which: np.ndarray,
-                         source: _Data = batched) -> np.ndarray:
-                subset = _subset(source, which)
-                trial_values = {**values, **{name: parameters[:, k + 1:k + 2]
-                                             for k, name in enumerate(free)}}
-                return np.asarray(_model_emf(family, electrolyte, subset, parameters[:, :1],
-                                             trial_values), dtype=float)
-
-            parameters = np.broadcast_to(start, (count, start.size)).copy()
-            everyone = np.arange(count)
-            if vectorised is None:
-                try:
-                    probe = evaluate(parameters[:2], everyone[:2])
-                    vectorised = probe.shape == (min(2, count), n)
-                except (ValueError, TypeError, IndexError):
-                    vectorised = False
-            done = np.zeros(count, dtype=bool)
-            if vectorised:
-                done = _gauss_newton(evaluate, parameters, emf, data.weights, bounds,
-                                     uncertainty)
-            one_by_one += int((~done).sum())
-            lost = np.zeros(count, dtype=bool)
-            for trial in np.flatnonzero(~done):
-                single = _subset(batched, np.array([trial]))
-                try:
-                    parameters[trial] = _fit_one(family, electrolyte, single, values, free,
-                                                 start, data.weights, bounds)
-                except (FitError, ValueError):
-                    lost[trial] = True
-            good = ~lost
-            # ln γ± from each drawn reading: E = E° − c (ln m± + ln γ±) with c = σ s k, read
-            # off the model (it is linear in ln m±) so that any slope factor or sign is
-            # honoured.
-            fitted = evaluate(parameters[good], everyone[good])
-            shifted = dataclasses.replace(_subset(batched, everyone[good]),
-                                          ln_mean_molality=batched.ln_mean_molality[good] + 1.0)
-            factor = fitted - evaluate(parameters[good], np.arange(int(good.sum())), shifted)
-            ln_gamma = ((parameters[good, :1] - emf[good]) / factor
-                        - batched.ln_mean_molality[good])
+                shift = temperature_u_K * rng.standard_normal((count, 1))
+                nernst = nernst_factor(electrolyte, run.metadata.electrons, temperature + shift)
+                constants = _constants_at(data.constants, shift)
+            batch = MeasurementModel(family, electrolyte, data.sign, molality, nernst,
+                                     constants)
+            fit = solve(batch, emf, np.broadcast_to(data.weights, (count, n)),
+                        np.tile(start, (count, 1)), np.tile(free_mask, (count, 1)), linear,
+                        bounds)
+            lost = ~fit.converged
             chunk = slice(first, first + count)
             failed[chunk] = lost
-            e0_samples[chunk][good] = parameters[good, 0]
-            gamma[chunk][good] = np.exp(ln_gamma)
+            e0_samples[chunk] = fit.values[:, 0]
+            gamma[chunk] = np.exp(batch.ln_gamma_from_emf(emf, fit.values))
             if bar is not None:
                 bar.update(count)
     finally:
         if bar is not None:
             bar.close()
-    if one_by_one:
-        notes.append(f"{one_by_one} of {trials} trials were fitted one by one (the "
-                     "vectorised Gauss–Newton did not settle them)")
     if failed.sum() > trials / 2:
         raise FitError(f"{int(failed.sum())} of {trials} Monte Carlo trials could not be fitted")
     if failed.any():
@@ -440,117 +393,3 @@ def _progress_bar(trials: int) -> Any:
         return None
     return tqdm(total=trials, desc="Monte Carlo", unit=" trials", unit_scale=True, delay=2.0,
                 leave=False, file=sys.stderr)
-
-
-def _limits(family: ActivityModel, name: str) -> tuple[float, float]:
-    """(minimum, maximum) of a model parameter, or of a cell parameter the reduction adds."""
-    try:
-        spec = family.parameter(name)
-    except KeyError:
-        try:
-            from .dilution import _spec
-        except ImportError:
-            return -math.inf, math.inf
-        spec = _spec(family, name)
-    return float(spec.minimum), float(spec.maximum)
-
-
-def _subset(data: _Data, which: np.ndarray) -> _Data:
-    """The trials ``which`` of a batched data set (arrays of shape (trials, N) are sliced)."""
-    changes = {}
-    for field in dataclasses.fields(data):
-        value = getattr(data, field.name)
-        if isinstance(value, np.ndarray) and value.ndim == 2:
-            changes[field.name] = value[which]
-        elif isinstance(value, DebyeHueckelConstants) and np.ndim(value.aphi) == 2:
-            changes[field.name] = DebyeHueckelConstants(
-                temperature=value.temperature[which], aphi=value.aphi[which],
-                b=value.b[which])
-    return dataclasses.replace(data, **changes)
-
-
-def _gauss_newton(evaluate, parameters: np.ndarray, observed: np.ndarray, weights: np.ndarray,
-                  bounds: np.ndarray, uncertainty: np.ndarray) -> np.ndarray:
-    """Fit all trials at once, in place; returns which trials converged."""
-    trials, p = parameters.shape
-    sqrt_w = np.sqrt(weights)
-    active = np.arange(trials)
-    converged = np.zeros(trials, dtype=bool)
-    tolerance = _STEP_TOLERANCE * np.where(uncertainty > 0, uncertainty, 1.0)
-    steps_size = 1e-6 * np.maximum(1.0, np.abs(parameters[0]))
-
-    def chi2(values: np.ndarray, which: np.ndarray) -> np.ndarray:
-        return np.sum(weights * (observed[which] - evaluate(values, which)) ** 2, axis=1)
-
-    current = chi2(parameters, active)
-    for _ in range(_MAX_STEPS):
-        if active.size == 0:
-            break
-        values = parameters[active]
-        model = evaluate(values, active)
-        jacobian = np.empty((active.size, observed.shape[1], p))
-        jacobian[:, :, 0] = 1.0
-        for k in range(1, p):
-            up, down = values.copy(), values.copy()
-            up[:, k] += steps_size[k]
-            down[:, k] -= steps_size[k]
-            jacobian[:, :, k] = (evaluate(up, active) - evaluate(down, active)) / (
-                2.0 * steps_size[k])
-        a = jacobian * sqrt_w[None, :, None]
-        b = (observed[active] - model) * sqrt_w
-        norms = np.linalg.norm(a, axis=1)
-        norms = np.where(norms > 0, norms, 1.0)
-        q, r = np.linalg.qr(a / norms[:, None, :])
-        try:
-            step = np.linalg.solve(r, np.einsum("tnk,tn->tk", q, b)[..., None])[..., 0]
-        except np.linalg.LinAlgError:
-            break
-        step = step / norms
-        factor = np.ones(active.size)
-        trial_values = np.clip(values + step, bounds[:, 0], bounds[:, 1])
-        trial_chi2 = chi2(trial_values, active)
-        for _ in range(_HALVINGS):
-            worse = ~(trial_chi2 <= current[active] * (1.0 + _CHI2_ROUNDING) + 1e-300)
-            if not worse.any():
-                break
-            factor[worse] /= 2.0
-            trial_values[worse] = np.clip(values[worse] + factor[worse, None] * step[worse],
-                                          bounds[:, 0], bounds[:, 1])
-            trial_chi2[worse] = chi2(trial_values[worse], active[worse])
-        better = trial_chi2 <= current[active] * (1.0 + _CHI2_ROUNDING) + 1e-300
-        parameters[active[better]] = trial_values[better]
-        current[active[better]] = trial_chi2[better]
-        # A full step this small means the optimum is reached, whether or not χ² could still
-        # tell the difference through its rounding.
-        small = np.all(np.abs(step) <= tolerance, axis=1)
-        converged[active[small]] = True
-        active = active[~small]
-    # A trial pinned at a bound has not found an interior optimum: fit it one by one.
-    inside = np.all((parameters > bounds[:, 0]) & (parameters < bounds[:, 1]), axis=1)
-    return converged & inside
-
-
-def _fit_one(family, electrolyte, single: _Data, values: dict[str, float], free: list[str],
-             start: np.ndarray, weights: np.ndarray, bounds: np.ndarray) -> np.ndarray:
-    """One trial with the fitting core (the slow, robust path)."""
-    from ..fit.least_squares import weighted_least_squares
-
-    flat = dataclasses.replace(single, **{
-        field.name: getattr(single, field.name)[0] for field in dataclasses.fields(single)
-        if isinstance(getattr(single, field.name), np.ndarray)
-        and getattr(single, field.name).ndim == 2})
-    if isinstance(flat.constants, DebyeHueckelConstants) and np.ndim(flat.constants.aphi) == 2:
-        flat = dataclasses.replace(flat, constants=DebyeHueckelConstants(
-            temperature=flat.constants.temperature[0], aphi=flat.constants.aphi[0],
-            b=flat.constants.b[0]))
-    keys = ["e0", *[f"p{k}" for k in range(len(free))]]
-
-    def model(p: Mapping[str, float]) -> np.ndarray:
-        trial = {**values, **{name: p[key] for name, key in zip(free, keys[1:], strict=True)}}
-        return _model_emf(family, electrolyte, flat, p["e0"], trial)
-
-    limits = {key: (float(low), float(high)) for key, (low, high)
-              in zip(keys, bounds, strict=True) if math.isfinite(low) or math.isfinite(high)}
-    fit = weighted_least_squares(model, dict(zip(keys, start, strict=True)), flat.emf_V,
-                                 weights, bounds=limits, scale_covariance=False)
-    return fit.value_array

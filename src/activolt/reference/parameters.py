@@ -55,7 +55,9 @@ _ION = re.compile(r"^(?P<body>.+?)(?P<sign>[+\-−]*)$")
 
 
 @lru_cache(maxsize=1)
-def _pitzer_rows() -> dict[str, tuple]:
+def pitzer_rows() -> dict[str, tuple]:
+    """Every row of ``pitzer_parameters.csv`` by formula (read once): β(0), β(1), β(2), Cφ,
+    the upper molality [mol kg⁻¹], T [K], charge type, source and note."""
     table = load_table("pitzer_parameters")
     if table["formula"].duplicated().any():
         raise ValueError("reference table 'pitzer_parameters' lists a formula twice")
@@ -109,7 +111,7 @@ def pitzer_parameters(formula: str) -> PitzerEntry | None:
     >>> pitzer_parameters("XyZ") is None
     True
     """
-    row = _pitzer_rows().get(formula.replace(" ", ""))
+    row = pitzer_rows().get(formula.replace(" ", ""))
     if row is None:
         return None
     b0, b1, b2, cphi, max_m, temperature, charge_type, source, note = row
@@ -182,7 +184,7 @@ def pitzer_charge_type_statistics(z_cation: int, z_anion: int
     True
     """
     key = (max(abs(z_cation), abs(z_anion)), min(abs(z_cation), abs(z_anion)))
-    chosen = [(formula, row) for formula, row in _pitzer_rows().items()
+    chosen = [(formula, row) for formula, row in pitzer_rows().items()
               if _charge_key(row[6]) == key]
     if not chosen:
         return None

@@ -83,7 +83,7 @@ def format_report(reduction: Reduction) -> str:
         lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['emf_V'] * 1e3:<10.3f}  "
                      f"{row['residual_V'] * 1e3:<+14.4f}  {gamma}{mark}")
     lines += comparison_lines(compare_with_published(reduction))
-    from ..activity.properties import derived_properties
+    from ..procedures.properties import derived_properties
 
     properties = derived_properties(reduction)
     cells = [[f"{row['molality_mol_kg']:.6g}"] + [
