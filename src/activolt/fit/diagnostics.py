@@ -229,7 +229,7 @@ def outlier_threshold(n_points: int, n_parameters: int, covariance_scaled: bool,
     >>> round(outlier_threshold(10, 3, False), 3)
     2.807
     """
-    from scipy import stats
+    from scipy.special import ndtri, stdtrit
 
     if n_points < 1:
         raise ValueError("no points to test")
@@ -238,8 +238,8 @@ def outlier_threshold(n_points: int, n_parameters: int, covariance_scaled: bool,
         dof = n_points - n_parameters - 1
         if dof < 1:
             raise ValueError("a scaled outlier test needs N − P − 1 ≥ 1")
-        return float(stats.t.ppf(q, dof))
-    return float(stats.norm.ppf(q))
+        return float(stdtrit(dof, q))
+    return float(ndtri(q))
 
 
 def _refit(a: np.ndarray, e: np.ndarray, keep: np.ndarray) -> np.ndarray:
@@ -307,7 +307,7 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
     >>> [i for i, f in enumerate(flags) if f]
     [3]
     """
-    from scipy import stats
+    from scipy.special import ndtri, stdtrit
 
     _, a, e = _arrays(jacobian, weights, residuals)
     n, p = a.shape
@@ -335,8 +335,8 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
         s2 = (float(np.sum(current[keep] ** 2)) / (keep.sum() - p) if covariance_scaled
               else 1.0)
         distance = current[keep] ** 2 * h / (p * s2 * (1.0 - h) ** 2)
-        quantile = (float(stats.t.ppf(1.0 - influence_level / 2.0, keep.sum() - p - 1))
-                    if covariance_scaled else float(stats.norm.ppf(1.0 - influence_level / 2.0)))
+        quantile = (float(stdtrit(keep.sum() - p - 1, 1.0 - influence_level / 2.0))
+                    if covariance_scaled else float(ndtri(1.0 - influence_level / 2.0)))
         for k, point in enumerate(index):
             if distance[k] > cooks_limit and abs(t[k]) > quantile:
                 flags[int(point)] = (f"Cook's distance {distance[k]:.3g} beyond {cooks_limit:g} "

@@ -132,8 +132,8 @@ def student_t_factor(dof: int, coverage: float = 0.95) -> float:
     >>> round(student_t_factor(0), 2), round(student_t_factor(10), 3)
     (1.96, 2.228)
     """
-    from scipy import stats
+    from scipy.special import ndtri, stdtrit
 
     if dof <= 0:
-        return float(stats.norm.ppf(0.5 + coverage / 2.0))
-    return float(stats.t.ppf(0.5 + coverage / 2.0, dof))
+        return float(ndtri(0.5 + coverage / 2.0))
+    return float(stdtrit(dof, 0.5 + coverage / 2.0))
