@@ -135,3 +135,48 @@ def test_molality_uncertainty_by_effective_variance_matches_monte_carlo(tmp_path
     without = reduce_run(read_run(write_run(tmp_path, MOLALITY, emf, u_emf_V=U_EMF_V,
                                             stem="plain")))
     assert reduction.standard_potential.std_dev > 1.33 * without.standard_potential.std_dev
+
+
+def test_temperature_and_pressure_budget_equals_a_refit(tmp_path):
+    """The budget's sensitivity to the run temperature and the barometric pressure (one linear
+    step S δr) equals refitting the run with the input shifted (GUM 5.1.3: both are first-order
+    sensitivity coefficients; the refit is the independent check)."""
+    harned = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"
+    constants = debye_hueckel_constants(np.full(MOLALITY.size, 298.15))
+    emf = emf_from_gamma(MOLALITY, np.exp(ln_gamma(HCL, MOLALITY, constants, TRUTH)), 0.2222)
+    emf = emf + np.random.default_rng(8).normal(0.0, U_EMF_V, MOLALITY.size)
+    rows = [f"{float(m)!r},{float(e)!r},{U_EMF_V!r}" for m, e in zip(MOLALITY, emf, strict=True)]
+    (tmp_path / "run.csv").write_text("molality_mol_kg,emf_V,u_emf_V\n" + "\n".join(rows) + "\n")
+    meta = (f'cell = "{harned}"\ntemperature_C = 25.0\npressure_kPa = 101.0\n'
+            "u_temperature_K = 0.05\nu_pressure_kPa = 0.1\n")
+    (tmp_path / "run.toml").write_text(meta)
+    reduction = reduce_run(read_run(tmp_path / "run.csv"))
+    budget = {line.component: line.u_V for line in reduction.budget}
+    for component, key, step, u in (("temperature", "temperature_C", 0.01, 0.05),
+                                    ("barometric pressure", "pressure_kPa", 0.01, 0.1)):
+        value = 25.0 if key == "temperature_C" else 101.0
+        shifted_meta = meta.replace(f"{key} = {value}", f"{key} = {value + step}")
+        (tmp_path / "shifted.csv").write_text((tmp_path / "run.csv").read_text())
+        (tmp_path / "shifted.toml").write_text(shifted_meta)
+        refit = reduce_run(read_run(tmp_path / "shifted.csv"))
+        slope = (refit.standard_potential.nominal_value
+                 - reduction.standard_potential.nominal_value) / step
+        assert budget[component] == pytest.approx(abs(slope) * u, rel=0.02), component
+
+
+def test_u_gamma_is_the_diagonal_of_the_full_covariance(tmp_path):
+    """u(γ±) in the points table (computed in O(N·P²)) is the square root of the diagonal of
+    the full covariance built on request — with u(T) and a held convention both contributing
+    (regression of the two routes against each other)."""
+    constants = debye_hueckel_constants(np.full(MOLALITY.size, 298.15))
+    emf = emf_from_gamma(MOLALITY, np.exp(ln_gamma(HCL, MOLALITY, constants, TRUTH)), 0.2222)
+    emf = emf + np.random.default_rng(9).normal(0.0, U_EMF_V, MOLALITY.size)
+    path = write_run(tmp_path, MOLALITY, emf, u_emf_V=U_EMF_V)
+    path.with_suffix(".toml").write_text(path.with_suffix(".toml").read_text()
+                                         + "u_temperature_K = 0.05\n")
+    reduction = reduce_run(read_run(path), fixed={"b_kg_mol": 0.27})
+    full = reduction.gamma_covariance()
+    used = reduction.points["flag"].isna()
+    np.testing.assert_allclose(np.sqrt(np.diag(full)),
+                               reduction.points.loc[used, "u_gamma_pm"], rtol=1e-10)
+    assert full.shape == (MOLALITY.size, MOLALITY.size)

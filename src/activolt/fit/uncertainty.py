@@ -137,3 +137,52 @@ def student_t_factor(dof: int, coverage: float = 0.95) -> float:
     if dof <= 0:
         return float(ndtri(0.5 + coverage / 2.0))
     return float(stdtrit(dof, 0.5 + coverage / 2.0))
+
+
+def ln_gamma_variance(
+    parameter_gradient: npt.ArrayLike,
+    reading_gradient: npt.ArrayLike,
+    sensitivity: npt.ArrayLike,
+    reading_variance_V2: npt.ArrayLike,
+    type_b_covariance: npt.ArrayLike | None = None,
+) -> np.ndarray:
+    r"""The diagonal of :func:`ln_gamma_covariance` (correlation kept), in O(N·P²).
+
+    With M = G_p S + diag(g_E) and C = S V Sᵀ (P × P),
+
+    .. math:: \mathrm{var}(\ln γ_{±,i}) = g_{p,i} C g_{p,i}^T + 2 g_{E,i} v_i (G_p S)_{ii}
+              + g_{E,i}^2 v_i \; [+ g_{p,i} T g_{p,i}^T]
+
+    (GUM, JCGM 100:2008, 5.2) — the same numbers without forming the N × N matrix, so that a
+    series of 10⁵ readings needs memory linear in N.
+
+    Parameters
+    ----------
+    parameter_gradient, reading_gradient, sensitivity, reading_variance_V2, type_b_covariance
+        As for :func:`ln_gamma_covariance`.
+
+    Returns
+    -------
+    numpy.ndarray
+        var(ln γ±) at each reading, shape (N,) [-].
+
+    Examples
+    --------
+    >>> g_p = np.array([[1.0, 0.5], [1.0, 0.2], [1.0, -0.3]])
+    >>> s = np.array([[0.3, 0.3, 0.4], [1.0, 0.5, -1.5]])
+    >>> v = np.array([1.0, 2.0, 0.5])
+    >>> full = np.diag(ln_gamma_covariance(g_p, -np.ones(3), s, v, np.zeros(3)))
+    >>> bool(np.allclose(ln_gamma_variance(g_p, -np.ones(3), s, v), full))
+    True
+    """
+    g_p = np.asarray(parameter_gradient, dtype=float)
+    g_e = np.asarray(reading_gradient, dtype=float)
+    s = np.asarray(sensitivity, dtype=float)
+    v = np.asarray(reading_variance_V2, dtype=float)
+    c = (s * v) @ s.T
+    variance = (np.einsum("ip,pq,iq->i", g_p, c, g_p)
+                + 2.0 * g_e * v * np.einsum("ip,pi->i", g_p, s) + g_e**2 * v)
+    if type_b_covariance is not None:
+        variance = variance + np.einsum("ip,pq,iq->i", g_p,
+                                        np.asarray(type_b_covariance, dtype=float), g_p)
+    return variance

@@ -47,7 +47,13 @@ from ..fit.problem import (
     predict_emf,
     prepare_series,
 )
-from ..fit.uncertainty import BudgetLine, ln_gamma_covariance, sensitivity_matrix, student_t_factor
+from ..fit.uncertainty import (
+    BudgetLine,
+    ln_gamma_covariance,
+    ln_gamma_variance,
+    sensitivity_matrix,
+    student_t_factor,
+)
 from ..physics.water import debye_hueckel_constants
 
 __all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction", "reduce_run",
@@ -167,6 +173,31 @@ class CatalogueValue:
 
 
 @dataclass(frozen=True)
+class GammaPropagation:
+    """What the covariance of ln γ± at the usable readings is made of, kept in O(N·P) memory:
+    ``parameter_gradient`` G_p (N × P), ``reading_gradient`` g_E (N), ``sensitivity`` S (P × N),
+    ``reading_variance_V2`` (N), ``type_b_covariance`` (P × P or None) and ``common`` — one
+    vector per input shared by every reading (u × ∂ ln γ±/∂input, N each)."""
+
+    parameter_gradient: np.ndarray
+    reading_gradient: np.ndarray
+    sensitivity: np.ndarray
+    reading_variance_V2: np.ndarray
+    type_b_covariance: np.ndarray | None
+    common: tuple[np.ndarray, ...]
+
+    def ln_gamma_covariance(self) -> np.ndarray:
+        """The full N × N covariance of ln γ± (GUM 5.2), on request only."""
+        cov = ln_gamma_covariance(self.parameter_gradient, self.reading_gradient,
+                                  self.sensitivity, self.reading_variance_V2,
+                                  np.zeros(self.reading_gradient.size),
+                                  type_b_covariance=self.type_b_covariance)
+        for vector in self.common:
+            cov = cov + np.outer(vector, vector)
+        return cov
+
+
+@dataclass(frozen=True)
 class Reduction:
     """The result of reducing one run: E°, the model, γ± at every point, diagnostics.
 
@@ -187,7 +218,7 @@ class Reduction:
     covariance: np.ndarray
     statistics: FitStatistics
     points: pd.DataFrame
-    gamma_covariance: np.ndarray
+    gamma_propagation: GammaPropagation = field(repr=False, compare=False)
     linear_extrapolation: LinearExtrapolation | None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = field(default=())
@@ -253,6 +284,12 @@ class Reduction:
     def to_frame(self) -> pd.DataFrame:
         """The points table (all rows, flagged ones included)."""
         return self.points.copy()
+
+    def gamma_covariance(self) -> np.ndarray:
+        """Covariance of γ± at the usable readings, N × N, built on request (the points table
+        holds its diagonal as ``u_gamma_pm``)."""
+        gamma = self.points.loc[self.points["flag"].isna(), "gamma_pm"].to_numpy(float)
+        return gamma[:, None] * self.gamma_propagation.ln_gamma_covariance() * gamma[None, :]
 
 
 
@@ -711,8 +748,8 @@ def reduce_run(run: Run, model: str = "hueckel",
 
     if effects is None:
         uncertain_covariance = fit.covariance
-    table, gamma_cov = _points_table(run, family, data, fit, type_b, uncertain_names,
-                                     uncertain_covariance, common)
+    table, gamma_propagation = _points_table(run, family, data, fit, type_b, uncertain_names,
+                                             uncertain_covariance, common, truncation)
     warnings += _diagnose(table, data, fit)
     parameters = tuple(
         FittedParameter(
@@ -731,7 +768,7 @@ def reduce_run(run: Run, model: str = "hueckel",
         run=run, model=family, temperature_K=float(np.mean(temperature)),
         standard_potential=e0_value, parameters=parameters,
         free_names=(E0, *fit.free), covariance=fit.covariance, statistics=stats,
-        points=table, gamma_covariance=gamma_cov,
+        points=table, gamma_propagation=gamma_propagation,
         linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
         warnings=tuple(warnings), notes=tuple(notes),
         corrections=corrections, other_basis=other_basis, catalogue=catalogue,
@@ -749,34 +786,45 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
                           data: SeriesData, fit: _Fit
                           ) -> list[tuple[str, float, np.ndarray, np.ndarray]]:
     """For each input shared by all readings with a stated uncertainty (the run temperature, the
-    barometric pressure): (name, u, ∂(E°, free parameters)/∂input, ∂ ln γ±/∂input), from a
-    refit with the input shifted (GUM 5.1.3, sensitivity coefficients by finite difference)."""
+    barometric pressure): (name, u, ∂(E°, free parameters)/∂input, ∂ ln γ±/∂input).
+
+    A shift δx of the input changes every residual by δr (through the gas correction, the Nernst
+    factor and the Debye–Hückel constants); to first order the fit absorbs it as δp = S δr, with
+    S the fit's sensitivity matrix (GUM 5.1.3: sensitivity coefficients by finite difference,
+    then linear propagation — the same as a refit with the input shifted, without refitting).
+    The temperature is stepped downward at the boiling end and upward at the ice point, so
+    that the step stays within liquid water."""
     meta = run.metadata
-    effects = []
     shifts = []
     if meta.u_temperature_K > 0:
-        points = run.points.assign(temperature_K=run.points["temperature_K"]
-                                   + _TEMPERATURE_STEP_K)
-        shifts.append(("temperature", meta.u_temperature_K, _TEMPERATURE_STEP_K, points, meta))
+        hot = float(run.points["temperature_K"].max()) + _TEMPERATURE_STEP_K > 373.15
+        step = -_TEMPERATURE_STEP_K if hot else _TEMPERATURE_STEP_K
+        points = run.points.assign(temperature_K=run.points["temperature_K"] + step)
+        shifts.append(("temperature", meta.u_temperature_K, step, points, meta))
     if meta.u_pressure_Pa > 0 and data.correction_V is not None:
         points = run.points.assign(pressure_Pa=run.points["pressure_Pa"] + _PRESSURE_STEP_PA)
         barometric = (None if meta.barometric_pressure_Pa is None
                       else meta.barometric_pressure_Pa + _PRESSURE_STEP_PA)
         shifts.append(("barometric pressure", meta.u_pressure_Pa, _PRESSURE_STEP_PA, points,
                        dataclasses.replace(meta, barometric_pressure_Pa=barometric)))
-    base = np.array([fit.e0, *[fit.values[n] for n in fit.free]])
+    if not shifts:
+        return []
+    sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
+    plain = prepare_series(run)
+    plain_residual = plain.emf_V - predict_emf(family, electrolyte, plain, fit.e0, fit.values)
     slope = fit.values.get(SLOPE, data.slope)
     ln_gamma = (fit.e0 - data.emf_V) * data.sign / (slope * data.nernst_V) - data.ln_mean_molality
+    effects = []
     for name, u, step, points, metadata in shifts:
-        shifted = dataclasses.replace(
-            prepare_series(dataclasses.replace(run, points=points, metadata=metadata)),
-            weights=data.weights)
-        refit = _fit_once(family, electrolyte, shifted, fit.values, fit.free)
-        moved = np.array([refit.e0, *[refit.values[n] for n in fit.free]])
-        slope2 = refit.values.get(SLOPE, data.slope)
-        ln_gamma2 = ((refit.e0 - shifted.emf_V) * data.sign / (slope2 * shifted.nernst_V)
+        shifted = prepare_series(dataclasses.replace(run, points=points, metadata=metadata))
+        residual = shifted.emf_V - predict_emf(family, electrolyte, shifted, fit.e0, fit.values)
+        moves = sensitivity @ (residual - plain_residual) / step
+        e0 = fit.e0 + moves[0] * step
+        slope2 = slope + (moves[1 + fit.free.index(SLOPE)] * step if SLOPE in fit.free else 0.0)
+        emf = data.emf_V + (shifted.emf_V - plain.emf_V)
+        ln_gamma2 = ((e0 - emf) * data.sign / (slope2 * shifted.nernst_V)
                      - shifted.ln_mean_molality)
-        effects.append((name, u, (moved - base) / step, (ln_gamma2 - ln_gamma) / step))
+        effects.append((name, u, moves, (ln_gamma2 - ln_gamma) / step))
     return effects
 
 
@@ -960,8 +1008,9 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
 def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
                   type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
                   uncertain_covariance: np.ndarray,
-                  common: list[tuple[str, float, np.ndarray, np.ndarray]]
-                  ) -> tuple[pd.DataFrame, np.ndarray]:
+                  common: list[tuple[str, float, np.ndarray, np.ndarray]],
+                  truncation: np.ndarray | None = None
+                  ) -> tuple[pd.DataFrame, GammaPropagation]:
     """All rows of the run with fitted EMF, residual and γ± (measured and model), and the
     budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
     electrolyte = run.metadata.electrolyte
@@ -982,26 +1031,29 @@ def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     def part(variance: np.ndarray, with_type_b: bool = False) -> np.ndarray:
-        return ln_gamma_covariance(parameter_gradient, -scale, sensitivity, variance,
-                                   np.zeros(n), type_b_covariance=type_b if with_type_b else None)
+        return ln_gamma_variance(parameter_gradient, -scale, sensitivity, variance,
+                                 type_b_covariance=type_b if with_type_b else None)
 
-    cov_ln = part(reading_var, with_type_b=True)
+    var_ln = part(reading_var, with_type_b=True)
     budget: dict[str, np.ndarray] = {}
     if data.stated_uncertainty:
-        budget["readings"] = np.diag(part(data.u_emf_V**2))
+        budget["readings"] = part(data.u_emf_V**2)
         molality_var = np.maximum(reading_var - data.u_emf_V**2, 0.0)
         if np.any(molality_var > 0):
-            budget["molalities"] = np.diag(part(molality_var))
+            budget["molalities"] = part(molality_var)
     else:
-        budget["readings"] = np.diag(part(reading_var))
+        budget["readings"] = part(reading_var)
     if type_b is not None:
         budget["conventions"] = np.einsum("ij,jk,ik->i", parameter_gradient, type_b,
                                           parameter_gradient)
+    if truncation is not None:
+        budget["left-out terms"] = (parameter_gradient @ truncation) ** 2
+        var_ln = var_ln + budget["left-out terms"]
     for name, u, _, d in common:
-        cov_ln = cov_ln + np.outer(d, d) * u**2
+        var_ln = var_ln + (d * u) ** 2
         budget[name.split()[-1]] = (d * u) ** 2
     gamma = np.exp(ln_gamma)
-    gamma_cov = gamma[:, None] * cov_ln * gamma[None, :]
+    u_gamma = gamma * np.sqrt(var_ln)
 
     # Model γ± and its uncertainty from the parameter covariance.
     model_values = {name: fit.values[name] for name in model.parameter_names}
@@ -1030,14 +1082,17 @@ def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
     table.loc[usable, "residual_V"] = fit.residual_V
     table.loc[usable, "ln_gamma_pm"] = ln_gamma
     table.loc[usable, "gamma_pm"] = gamma
-    table.loc[usable, "u_gamma_pm"] = np.sqrt(np.diag(gamma_cov))
+    table.loc[usable, "u_gamma_pm"] = u_gamma
     gamma_model = np.exp(ln_gamma_model)
     table.loc[usable, "gamma_pm_model"] = gamma_model
     table.loc[usable, "u_gamma_pm_model"] = gamma_model * np.sqrt(var_model)
     for name, variance in budget.items():
         table[f"u_gamma_pm_{name}"] = np.nan
         table.loc[usable, f"u_gamma_pm_{name}"] = gamma * np.sqrt(variance)
-    return table, gamma_cov
+    extra = tuple(d * u for _, u, _, d in common) + (
+        () if truncation is None else (parameter_gradient @ truncation,))
+    return table, GammaPropagation(parameter_gradient, -scale, sensitivity, reading_var, type_b,
+                                   extra)
 
 
 def reduction_jacobian(reduction: Reduction) -> np.ndarray:
