@@ -12,10 +12,12 @@ import math
 from typing import TYPE_CHECKING
 
 import numpy as np
+import numpy.typing as npt
 
 from ..activity.hueckel import BATES_GUGGENHEIM_BA
 from ..activity.published import published_gamma
 from ..chemistry.electrolytes import nernst_factor
+from ..fit.engine import SLOPE
 from ..physics.water import debye_hueckel_constants
 from ..procedures.dilution import Reduction
 
@@ -52,10 +54,50 @@ def extrapolation_function_V(reduction: Reduction) -> tuple[np.ndarray, np.ndarr
     return m, y
 
 
-def _model_curve(reduction: Reduction, molality: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The fitted model in the coordinates of the extrapolation plot, and its standard
-    uncertainty from the parameter covariance [V]."""
+def extrapolation_band_V(reduction: Reduction, molality_mol_kg: npt.ArrayLike
+                         ) -> tuple[np.ndarray, np.ndarray]:
+    r"""The fitted model in the coordinates of the extrapolation plot and its standard
+    uncertainty, propagated from the fit's covariance.
+
+    Parameters
+    ----------
+    reduction : Reduction
+        The reduction.
+    molality_mol_kg : array_like
+        Molalities [mol kg⁻¹] at which to evaluate the curve (> 0).
+
+    Returns
+    -------
+    y : ndarray
+        :math:`y(m; θ) = Ê(m; θ) + σ s k [\ln m_± + \ln γ_{DH}(m)]` [V], the plotted quantity
+        of :func:`extrapolation_function_V` evaluated on the fit.
+    u : ndarray
+        Its standard uncertainty (k = 1) [V], :math:`u^2 = g^T V g` with :math:`g = ∂y/∂θ`
+        over E°, the free parameters and the held parameters that carry a Type B uncertainty
+        (GUM, JCGM 100:2008, 5.2).
+
+    Notes
+    -----
+    The plotted quantity depends on the fitted slope factor s twice — in the model and in the
+    plot's own coordinate — so s is varied in both: with Ê = E° − σ s k (ln m± + ln γ±),
+    :math:`y = E° − σ s k (\ln γ_± − \ln γ_{DH})`, which tends to E° as m → 0 with the
+    uncertainty of E° alone. (Varying s in the model only gives a band that flares as
+    k ln m± at the dilute end, the band of a quantity that is not plotted.)
+
+    Examples
+    --------
+    At m → 0 the band is E°'s own uncertainty (the demo run; common practice):
+
+    >>> from importlib.resources import files
+    >>> from activolt.data.runs import read_run
+    >>> from activolt.procedures.dilution import reduce_run
+    >>> r = reduce_run(read_run(files("activolt") / "sample_data" / "kestrel_hcl_25C.csv"))
+    >>> y, u = extrapolation_band_V(r, [1e-12])
+    >>> bool(abs(u[0] - r.standard_potential.std_dev) < 1e-3 * r.standard_potential.std_dev)
+    True
+    """
     meta = reduction.run.metadata
+    molality = np.atleast_1d(np.asarray(molality_mol_kg, dtype=float))
     t = np.full(molality.shape, reduction.temperature_K)
     k = nernst_factor(meta.electrolyte, meta.electrons, t) * meta.electrolyte_sign
     constants = debye_hueckel_constants(t)
@@ -66,21 +108,32 @@ def _model_curve(reduction: Reduction, molality: np.ndarray) -> tuple[np.ndarray
     def curve(e0: float, trial: dict[str, float]) -> np.ndarray:
         model_values = {name: trial[name] for name in reduction.model.parameter_names}
         ln_gamma = reduction.model.ln_gamma(meta.electrolyte, molality, constants, model_values)
-        slope = trial.get("slope_factor", meta.slope_factor)
-        # E(m) − E° on the fit, moved into the plot's coordinates with the plotted slope.
-        s_plot = reduction.slope_factor
-        return e0 - slope * k * (ln_m + ln_gamma) + s_plot * k * (ln_m + reference)
+        # The same s in the model and in the plot's coordinate (see Notes).
+        slope = trial.get(SLOPE, meta.slope_factor)
+        return e0 - slope * k * (ln_m + ln_gamma) + slope * k * (ln_m + reference)
 
     e0 = reduction.standard_potential.nominal_value
     y = curve(e0, values)
+    if reduction.uncertain_covariance is not None and reduction.uncertain_names:
+        names, covariance = reduction.uncertain_names, reduction.uncertain_covariance
+    else:
+        names, covariance = reduction.free_names, reduction.covariance
     gradient = [np.ones_like(molality)]
-    for name in reduction.free_names[1:]:
+    for name in names[1:]:
         step = 1e-6 * max(1.0, abs(values[name]))
         gradient.append((curve(e0, {**values, name: values[name] + step})
                          - curve(e0, {**values, name: values[name] - step})) / (2 * step))
     g = np.column_stack(gradient)
-    u = np.sqrt(np.einsum("ij,jk,ik->i", g, reduction.covariance, g))
+    u = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", g, covariance, g), 0.0))
     return y, u
+
+
+def _plain_ticks(ax: Axes) -> None:
+    """Tick labels as the values themselves: no offset ("+2.15e3") and no scientific factor
+    on linear axes, so that a tick reads as the quantity on the axis label."""
+    for axis in ("x", "y"):
+        if (ax.get_xscale() if axis == "x" else ax.get_yscale()) == "linear":
+            ax.ticklabel_format(axis=axis, useOffset=False, style="plain")
 
 
 def plot_extrapolation(reduction: Reduction, ax: Axes | None = None,
@@ -96,7 +149,7 @@ def plot_extrapolation(reduction: Reduction, ax: Axes | None = None,
     stats = reduction.statistics
     grid = np.linspace(0.0, float(np.sqrt(m.max())) * 1.02, 300) ** 2
     grid[0] = 1e-12
-    y_fit, u_fit = _model_curve(reduction, grid)
+    y_fit, u_fit = extrapolation_band_V(reduction, grid)
     k95 = stats.coverage_factor
     x_grid = np.sqrt(grid)
     ax.fill_between(x_grid, (y_fit - k95 * u_fit) * 1e3, (y_fit + k95 * u_fit) * 1e3,
@@ -120,6 +173,7 @@ def plot_extrapolation(reduction: Reduction, ax: Axes | None = None,
                   "Extrapolation to infinite dilution") + f" — {reduction.electrolyte.formula}, "
                  f"{reduction.temperature_K - 273.15:.2f} °C", fontsize="medium")
     ax.legend(fontsize="small")
+    _plain_ticks(ax)
     return ax
 
 
@@ -152,7 +206,10 @@ def plot_residuals(reduction: Reduction, ax: Axes | None = None) -> Axes:
     ax.set_xlabel("m / (mol kg⁻¹)")
     ax.set_ylabel("E − E(fit) / mV")
     ax.set_title("Residuals")
-    ax.legend(fontsize="small")
+    # Below the axes: the residuals fill the plot, and a legend inside would cover some.
+    ax.legend(fontsize="small", loc="upper center", bbox_to_anchor=(0.5, -0.14), ncol=3,
+              frameon=False)
+    _plain_ticks(ax)
     return ax
 
 
@@ -175,6 +232,7 @@ def plot_gamma(reduction: Reduction, ax: Axes | None = None) -> Axes:
     ax.set_ylabel("γ±")
     ax.set_title(f"Mean ionic activity coefficient — {reduction.electrolyte.formula}")
     ax.legend(fontsize="small")
+    _plain_ticks(ax)
     return ax
 
 
