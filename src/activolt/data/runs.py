@@ -549,38 +549,11 @@ def _electrons(merged: Mapping[str, Any], stoichiometry: Any, where: str, fail: 
     return electrons
 
 
-def read_run(
-    path: str | Path,
-    metadata_path: str | Path | None = None,
-    overrides: Mapping[str, Any] | None = None,
-    series: str | None = None,
-) -> Run:
-    """Read and validate a run table and its metadata.
-
-    Parameters
-    ----------
-    path : str or pathlib.Path
-        The run table (CSV; comma or semicolon separated, ``#`` comment lines).
-    metadata_path : str or pathlib.Path, optional
-        The metadata (TOML). Default: the table's path with the suffix ``.toml``.
-    overrides : mapping, optional
-        Metadata given on the command line (``electrolyte``, ``electrons``, ``temperature_C``,
-        ``temperature_K``, ``standard_pressure_kPa``, ``cell``, ``slope_factor``,
-        ``volt_unit``); they win over the file.
-    series : str, optional
-        Which series to take when the table's ``series`` column names several.
-
-    Returns
-    -------
-    Run
-
-    Raises
-    ------
-    InputError
-        For every problem with the input, naming file, line and column.
-    """
-    path = Path(path)
-    overrides = dict(overrides or {})
+def _read_table_and_metadata(
+    path: Path, metadata_path: str | Path | None, overrides: Mapping[str, Any],
+) -> tuple[str, Path | None, pd.DataFrame, RunMetadata, list[str]]:
+    """The whole table parsed once, and its metadata: (sha256, metadata path, points, metadata,
+    warnings); the points of every series, before any series is taken."""
     try:
         raw = path.read_bytes()
     except OSError as error:
@@ -603,6 +576,13 @@ def read_run(
         )
     metadata, meta_warnings = _metadata(meta, text, metadata_path, overrides)
     warnings.extend(meta_warnings)
+    points, warnings = _with_metadata(points, warnings, metadata)
+    return hashlib.sha256(raw).hexdigest(), metadata_path, points, metadata, warnings
+
+
+def _with_metadata(points: pd.DataFrame, warnings: list[str], metadata: RunMetadata
+                   ) -> tuple[pd.DataFrame, list[str]]:
+    """The readings in absolute volts, and what the metadata makes worth a warning."""
     if metadata.volt_unit != "absolute":
         factor = VOLT_UNITS[metadata.volt_unit]
         points["emf_V"] = points["emf_V"] * factor
@@ -620,19 +600,15 @@ def read_run(
                "without a cell diagram activolt does not know the cell holds a gas; add cell = "
                "\"Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)\" (for example) to the metadata")
         )
+    return points, warnings
 
-    # the series first: temperatures and flagged rows of other series do not concern this one
-    names = sorted(set(points["series"]))
-    if series is not None:
-        if series not in names:
-            raise InputError(f"there is no series '{series}'; the table has: "
-                             f"{', '.join(n or '(unnamed)' for n in names)}", file=str(path),
-                             column="series")
-        points = points[points["series"] == series].reset_index(drop=True)
-    elif len(names) > 1:
-        raise InputError(f"the table holds {len(names)} series "
-                         f"({', '.join(n or '(unnamed)' for n in names)}); choose one "
-                         "with --series NAME", file=str(path), column="series")
+
+def _series_run(path: Path, sha256: str, metadata_path: Path | None, points: pd.DataFrame,
+                metadata: RunMetadata, warnings: list[str]) -> Run:
+    """One series' rows (already taken from the table) as a Run: temperatures filled in from
+    the metadata, rows without a reading named in a warning."""
+    points = points.reset_index(drop=True)
+    warnings = list(warnings)
     missing_temperature = points["temperature_K"].isna()
     if missing_temperature.any():
         if metadata.temperature_K is None:
@@ -648,10 +624,166 @@ def read_run(
             "they are kept in the record, flagged, and left out of the fit"
         )
     points["flag"] = points["flag"].astype(object)
-    return Run(
-        path=path, sha256=hashlib.sha256(raw).hexdigest(), metadata_path=metadata_path,
-        points=points, metadata=metadata, warnings=tuple(warnings),
+    return Run(path=path, sha256=sha256, metadata_path=metadata_path, points=points,
+               metadata=metadata, warnings=tuple(warnings))
+
+
+def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: pd.DataFrame,
+                  metadata: RunMetadata, warnings: list[str]) -> tuple[Run, ...]:
+    """Every series of a parsed table as its own Run, in order of first appearance; one pass
+    over the rows (a grouping, not a filter per series)."""
+    return tuple(
+        _series_run(path, sha256, metadata_path, rows, metadata, warnings)
+        for _, rows in points.groupby("series", sort=False)
     )
+
+
+def read_runs(
+    path: str | Path,
+    metadata_path: str | Path | None = None,
+    overrides: Mapping[str, Any] | None = None,
+) -> tuple[Run, ...]:
+    """Read and validate a run table and its metadata once; every series as its own Run.
+
+    The rows are grouped by the table's ``series`` column (rows with an empty ``series`` cell
+    form the unnamed series ``""``); a table without that column is one series. The table is
+    parsed once whatever the number of series, so the time is linear in the rows.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The run table (CSV; comma or semicolon separated, ``#`` comment lines).
+    metadata_path : str or pathlib.Path, optional
+        The metadata (TOML), common to every series. Default: the table's path with the suffix
+        ``.toml``.
+    overrides : mapping, optional
+        Metadata given on the command line, as for :func:`read_run`; they win over the file.
+
+    Returns
+    -------
+    tuple of Run
+        One per series, in order of first appearance in the table; each holds that series'
+        rows only (``points["series"]`` names it), the table's SHA-256 and the warnings about
+        the table, the metadata and its own rows.
+
+    Raises
+    ------
+    InputError
+        For every problem with the input, naming file, line and column — the same checks and
+        messages as :func:`read_run`, over the rows of every series.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> _ = (folder / "r.csv").write_text("molality_mol_kg,emf_V,series\\n0.01,0.46,A\\n"
+    ...                                   "0.02,0.43,A\\n0.01,0.47,B\\n")
+    >>> runs = read_runs(folder / "r.csv", overrides={"electrolyte": "HCl", "electrons": 1,
+    ...                                                "temperature_C": 25.0})
+    >>> [(r.points["series"].iloc[0], len(r.points)) for r in runs]
+    [('A', 2), ('B', 1)]
+    """
+    path = Path(path)
+    return _every_series(path, *_read_table_and_metadata(path, metadata_path,
+                                                         dict(overrides or {})))
+
+
+def runs_from_frame(
+    frame: pd.DataFrame,
+    metadata: Mapping[str, Any],
+    name: str = "DataFrame",
+) -> tuple[Run, ...]:
+    """Every series of a table held in a pandas DataFrame, read as :func:`read_runs` reads a
+    file.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        The run-table columns (``molality_mol_kg``, ``emf_V`` or ``emf_mV``, …, ``series``),
+        one row per solution; the index is not read.
+    metadata : mapping
+        What the TOML metadata would hold (``electrolyte``, ``electrons``, ``temperature_C``,
+        ``cell``, …), common to every series.
+    name : str
+        How messages and the runs name the table. Line numbers count the header as line 1:
+        line N is the frame's row at position N − 2.
+
+    Returns
+    -------
+    tuple of Run
+        One per series, in order of first appearance.
+
+    Raises
+    ------
+    InputError
+        As :func:`read_runs`; a metadata problem names ``metadata`` and the key.
+
+    Notes
+    -----
+    The frame is written as CSV text (floats in their shortest exact form) and read by the
+    file reader, so a frame and a file with the same values give the same runs.
+    """
+    if not isinstance(frame, pd.DataFrame):
+        raise InputError(f"expected a pandas DataFrame of readings, got {type(frame).__name__}",
+                         file=name)
+    path = Path(name)
+    raw = frame.to_csv(index=False, lineterminator="\n").encode("utf-8")
+    points, warnings = _read_table(path, _decode(path, raw))
+    meta_where = Path("metadata")
+    run_metadata, meta_warnings = _metadata(dict(metadata), "", meta_where, {})
+    warnings.extend(meta_warnings)
+    points, warnings = _with_metadata(points, warnings, run_metadata)
+    return _every_series(path, hashlib.sha256(raw).hexdigest(), None, points, run_metadata,
+                         warnings)
+
+
+def read_run(
+    path: str | Path,
+    metadata_path: str | Path | None = None,
+    overrides: Mapping[str, Any] | None = None,
+    series: str | None = None,
+) -> Run:
+    """Read and validate a run table and its metadata.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        The run table (CSV; comma or semicolon separated, ``#`` comment lines).
+    metadata_path : str or pathlib.Path, optional
+        The metadata (TOML). Default: the table's path with the suffix ``.toml``.
+    overrides : mapping, optional
+        Metadata given on the command line (``electrolyte``, ``electrons``, ``temperature_C``,
+        ``temperature_K``, ``standard_pressure_kPa``, ``cell``, ``slope_factor``,
+        ``volt_unit``); they win over the file.
+    series : str, optional
+        Which series to take when the table's ``series`` column names several (the rows of
+        the others are not checked beyond the parsing). :func:`read_runs` gives every series.
+
+    Returns
+    -------
+    Run
+
+    Raises
+    ------
+    InputError
+        For every problem with the input, naming file, line and column.
+    """
+    path = Path(path)
+    sha256, metadata_path, points, metadata, warnings = _read_table_and_metadata(
+        path, metadata_path, dict(overrides or {}))
+    # the series first: temperatures and flagged rows of other series do not concern this one
+    names = sorted(set(points["series"]))
+    if series is not None:
+        if series not in names:
+            raise InputError(f"there is no series '{series}'; the table has: "
+                             f"{', '.join(n or '(unnamed)' for n in names)}", file=str(path),
+                             column="series")
+        points = points[points["series"] == series]
+    elif len(names) > 1:
+        raise InputError(f"the table holds {len(names)} series "
+                         f"({', '.join(n or '(unnamed)' for n in names)}); choose one "
+                         "with --series NAME", file=str(path), column="series")
+    return _series_run(path, sha256, metadata_path, points, metadata, warnings)
 
 
 @dataclass(frozen=True)
@@ -712,5 +844,5 @@ def usable_points(run: Run) -> pd.DataFrame:
 
 
 __all__ = ["KNOWN_COLUMNS", "KNOWN_METADATA_KEYS", "Exclusion", "Run", "RunMetadata",
-           "exclude_points", "read_run", "usable_points"]
+           "exclude_points", "read_run", "read_runs", "runs_from_frame", "usable_points"]
 
