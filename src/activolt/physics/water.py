@@ -51,8 +51,9 @@ def _water_state(temperature_K: float) -> tuple[float, float]:
 
 def _per_temperature(function, temperature: npt.ArrayLike) -> np.ndarray:
     values = np.asarray(temperature, dtype=float)
-    flat = [function(float(t)) for t in values.ravel()]
-    return np.asarray(flat, dtype=float).reshape(values.shape)
+    distinct, where = np.unique(values.ravel(), return_inverse=True)
+    once = np.asarray([function(float(t)) for t in distinct], dtype=float)
+    return once[where].reshape(values.shape)
 
 
 def water_density(temperature: npt.ArrayLike) -> np.ndarray:
