@@ -359,22 +359,22 @@ def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
     start = data.values_array(model, 0.0, values)
     if not np.all((start[0] >= bounds[:, 0]) & (start[0] <= bounds[:, 1])):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
-                       "value within them with --fix")
+                       "value within them")
     result = solve(measurement, data.emf_V[None, :], data.weights[None, :], start, mask, linear,
                    bounds, scale_covariance=not data.stated_uncertainty)
     if not result.converged[0]:
-        raise FitError(f"{result.failures[0]}; hold a parameter with --fix")
+        raise FitError(f"{result.failures[0]}; hold a parameter at a given value")
     order = [names.index(name) for name in (E0, *free)]
     covariance = result.covariance[0][np.ix_(order, order)]
     if not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0):
         raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
-                       "independent for these data); hold a parameter with --fix")
+                       "independent for these data); hold a parameter at a given value")
     fitted = {**values, **{name: float(result.values[0, names.index(name)]) for name in free}}
     n = data.emf_V.size
     dof = int(result.dof[0])
     if dof < 1 and not data.stated_uncertainty:
         raise FitError("no degree of freedom is left to estimate the scatter; hold a parameter "
-                       "with --fix or state u(EMF)")
+                       "at a given value or state u(EMF)")
     chi2 = float(result.chi2[0])
     aic, bic = information_criteria(chi2, n, 1 + len(free), not data.stated_uncertainty)
     return _Fit(e0=float(result.values[0, 0]), values=fitted, free=list(free),
@@ -621,13 +621,13 @@ def reduce_run(run: Run, model: str = "hueckel",
     try:
         family = get_model(model)
     except ValueError as error:
-        raise InputError(str(error), column="--model") from None
+        raise InputError(str(error), column="model") from None
     fixed = dict(fixed or {})
     specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
     for name in fixed:
         if name not in {p.name for p in specs}:
             raise InputError(f"model '{family.name}' has no parameter '{name}'; it has: "
-                             f"{', '.join(p.name for p in specs) or 'none'}", column="--fix")
+                             f"{', '.join(p.name for p in specs) or 'none'}", column="fixed")
 
     run, range_warning = _within_range(run, family)
     data = prepare_series(run)

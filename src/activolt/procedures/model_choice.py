@@ -397,17 +397,17 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     """
     names = list(MODELS) if models is None else list(models)
     if not names:
-        raise InputError("no model to compare; give at least one model name", column="--model")
+        raise InputError("no model to compare; give at least one model name", column="model")
     for name in names:
         try:
             get_model(name)
         except ValueError as error:
-            raise InputError(str(error), column="--model") from None
+            raise InputError(str(error), column="model") from None
     fixed = {k: dict(v) for k, v in (fixed or {}).items()}
     for name in fixed:
         if name not in names:
             raise InputError(f"parameters are held for model '{name}', which is not compared; "
-                             f"compared: {', '.join(names)}", column="--fix")
+                             f"compared: {', '.join(names)}", column="fixed")
     stated = run.emf_uncertainty_given
     assessments: list[ModelAssessment] = []
     skipped: list[SkippedModel] = []
