@@ -91,7 +91,8 @@ def test_lacl3_convention_is_the_published_row():
 def test_lacl3_hidden_is_refused_with_what_to_do(tmp_path, seed, without_lacl3):
     run = _run(tmp_path, "LaCl3", LACL3_PM1973, 3, LACL3_MOLALITY, seed)
     assert _covers_or_refuses(run) == "refused"
-    with pytest.raises(FitError, match=r"no published parameters for LaCl3.*no 3:1.*at given values"):
+    with pytest.raises(FitError,
+                       match=r"no published parameters for LaCl3.*no 3:1.*at given values"):
         reduce_run(run, "pitzer")
 
 

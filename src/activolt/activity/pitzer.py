@@ -478,8 +478,8 @@ def _refuse(electrolyte: Electrolyte) -> FitError:
     return FitError(
         f"the Pitzer model has no published parameters for {electrolyte.formula} and the table "
         f"pitzer_parameters holds no {electrolyte.charge_type} electrolyte to take a convention "
-        f"from: hold {', '.join(needed)} at given values (published values for this salt), or reduce "
-        "with a model that needs no published parameters (hueckel, davies)")
+        f"from: hold {', '.join(needed)} at given values (published values for this salt), or "
+        "reduce with a model that needs no published parameters (hueckel, davies)")
 
 
 def parameter_convention(electrolyte: Electrolyte, name: str) -> PitzerConvention:
