@@ -300,8 +300,14 @@ def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Pa
     return written
 
 
+#: Library argument names and the command-line options that set them.
+_OPTIONS = {"model": "--model", "fixed": "--fix"}
+
+
 def _one_line(error: InputError) -> str:
     """The error as one line; a command-line option is named as an option, not a column."""
+    if error.column in _OPTIONS and error.file is None:
+        error = InputError(error.problem, column=_OPTIONS[error.column], line=error.line)
     if error.column is not None and error.column.startswith("--"):
         where = "command line" if error.file in (None, "command line") else error.file
         error = InputError(error.problem, file=f"{where}, option '{error.column}'",
@@ -354,7 +360,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"activolt: error: {escape_controls(_one_line(error))}", file=sys.stderr)
         return 2
     except FitError as error:
-        print(f"activolt: the fit could not be done: {escape_controls(str(error))}",
+        hint = (" (on the command line: --fix NAME=VALUE)"
+                if "at a given value" in str(error) else "")
+        print(f"activolt: the fit could not be done: {escape_controls(str(error))}{hint}",
               file=sys.stderr)
         return 1
     except KeyboardInterrupt as stop:
