@@ -24,7 +24,7 @@ test-slow: $(STAMP)
 	MPLBACKEND=Agg $(BIN)/python -m pytest -q -m slow
 
 bench: $(STAMP)
-	MPLBACKEND=Agg $(BIN)/python -m pytest -q -m bench -s
+	MPLBACKEND=Agg $(BIN)/python -m pytest -q -m bench -s bench
 
 lint: $(STAMP)
 	$(BIN)/ruff check .
