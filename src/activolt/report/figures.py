@@ -22,6 +22,7 @@ from ..physics.water import debye_hueckel_constants
 from ..procedures.dilution import Reduction
 
 if TYPE_CHECKING:
+    import pandas as pd
     from matplotlib.axes import Axes
 
 
@@ -264,3 +265,59 @@ def render_figures(reduction: Reduction, dpi: int = 110) -> dict[str, bytes]:
         ax.figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
         rendered[name] = buffer.getvalue()
     return rendered
+
+
+def plot_summary(summary: pd.DataFrame, ax: Axes | None = None) -> Axes:
+    """E° ± U95 of every series of a batch, one marker per series, in the summary's order.
+
+    Parameters
+    ----------
+    summary : pandas.DataFrame
+        :attr:`activolt.procedures.many.ManyReductions.summary` (``standard_potential_V``,
+        ``u_standard_potential_V``, ``coverage_factor``, ``series``, ``file``, ``failure``).
+    ax : matplotlib.axes.Axes, optional
+        Where to draw; a new figure by default.
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+
+    Notes
+    -----
+    The bars are the 95 % intervals E° ± k u (k the series' coverage factor); series that were
+    not reduced are counted in the title and marked at the foot of the plot.
+    """
+    ax = _axes(ax)
+    position = np.arange(len(summary))
+    e0_mV = summary["standard_potential_V"].to_numpy(float) * 1e3
+    u95_mV = (summary["coverage_factor"].to_numpy(float)
+              * summary["u_standard_potential_V"].to_numpy(float) * 1e3)
+    reduced = np.isfinite(e0_mV)
+    ax.errorbar(position[reduced], e0_mV[reduced], yerr=u95_mV[reduced], fmt="o", ms=4,
+                capsize=3, label="E° ± U95 (95 % interval)")
+    failed = int((~reduced).sum())
+    if failed:
+        floor = np.nanmin(e0_mV - u95_mV) if reduced.any() else 0.0
+        ax.plot(position[~reduced], np.full(failed, floor), "x", color="tab:red",
+                label="not reduced (see the summary)")
+    several_files = summary["file"].nunique() > 1
+    labels = [(f"{f}: {s}" if several_files else s) or "(unnamed)"
+              for f, s in zip(summary["file"], summary["series"], strict=True)]
+    if len(labels) <= 40:
+        ax.set_xticks(position, labels, rotation=60 if len(labels) > 8 else 0,
+                      ha="right" if len(labels) > 8 else "center", fontsize="small")
+    else:
+        ax.set_xlabel("series (in the summary's order)")
+    ax.set_ylabel("E° / mV")
+    ax.set_title(f"E° of {int(reduced.sum())} series"
+                 + (f" ({failed} not reduced)" if failed else ""))
+    ax.legend(fontsize="small")
+    return ax
+
+
+def render_summary_figure(summary: pd.DataFrame, dpi: int = 110) -> bytes:
+    """:func:`plot_summary` as PNG bytes."""
+    ax = plot_summary(summary)
+    buffer = io.BytesIO()
+    ax.figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
+    return buffer.getvalue()
