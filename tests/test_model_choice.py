@@ -329,10 +329,10 @@ def test_a_model_that_cannot_be_fitted_is_skipped(nacl, monkeypatch):
     run, _, _ = nacl
     real = model_choice.reduce_run
 
-    def failing_sit(run, model, fixed=None):
+    def failing_sit(run, model, fixed=None, **options):
         if model == "sit":
             raise FitError("the fit did not converge (simulated)")
-        return real(run, model, fixed)
+        return real(run, model, fixed, **options)
 
     monkeypatch.setattr(model_choice, "reduce_run", failing_sit)
     comparison = compare_models(run, ["sit", "pitzer"])
@@ -352,3 +352,34 @@ def test_runs_test_result_is_frozen():
     with pytest.raises(AttributeError):
         t.runs = 5  # type: ignore[misc]
     assert isinstance(t, RunsTest)
+
+
+def test_one_u_everywhere_with_the_model_choice_component(hcl_dilute):
+    """The recommended reduction carries u_combined in E°, in the budget (its own line) and in
+    u(γ±); the headline of the report shows that number (regression of the plumbing)."""
+    from activolt.report.text import format_report
+
+    c = hcl_dilute
+    reduction = c.recommended_reduction
+    assert c.u_model_choice_V > 0
+    assert reduction.standard_potential.std_dev == pytest.approx(c.u_combined_V, rel=1e-12)
+    budget = {line.component: line.u_V for line in reduction.budget}
+    assert budget["choice of model"] == pytest.approx(c.u_model_choice_V, rel=1e-12)
+    fit_only = c.assessment(c.recommended).reduction
+    used = reduction.points["flag"].isna()
+    assert (reduction.points.loc[used, "u_gamma_pm"]
+            > fit_only.points.loc[used, "u_gamma_pm"]).all()
+    u_mV = reduction.standard_potential.std_dev * 1e3
+    headline = next(line for line in format_report(reduction).splitlines() if "E° =" in line)
+    assert f"± {u_mV:.{1 - math.floor(math.log10(u_mV))}f} mV" in headline
+
+
+def test_reminder_of_the_model_choice_is_the_library_s(nacl):
+    """A single model over I > 0.1 mol/kg warns that u(E°) leaves out the choice of model;
+    the comparison, which adds that component, does not."""
+    from activolt.procedures.dilution import MODEL_CHOICE_REMINDER
+
+    run, _, comparison = nacl
+    assert MODEL_CHOICE_REMINDER in reduce_run(run, "pitzer").warnings
+    assert MODEL_CHOICE_REMINDER not in comparison.recommended_reduction.warnings
+    assert "--" not in MODEL_CHOICE_REMINDER  # a library message names no option

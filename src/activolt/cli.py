@@ -14,14 +14,11 @@ import threading
 from collections.abc import Sequence
 from importlib.resources import files
 from pathlib import Path
-from typing import TYPE_CHECKING, NoReturn
+from typing import NoReturn
 
 from . import __version__
 from .errors import FitError, InputError
 from .safe_text import escape_controls
-
-if TYPE_CHECKING:
-    from .procedures.dilution import Reduction
 
 DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
@@ -160,8 +157,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
             raise FitError(comparison.warnings[-1])
         report = format_report(reduction) + "\n" + format_model_comparison(comparison)
     else:
-        reduction = _with_model_choice_reminder(
-            reduce_run(run, model=model, fixed=fixed, exclude=exclusions))
+        reduction = reduce_run(run, model=model, fixed=fixed, exclude=exclusions)
         report = format_report(reduction)
     monte = None
     if trials is not None:
@@ -237,24 +233,6 @@ def _private_matplotlib_config() -> None:
         private = tempfile.mkdtemp(prefix="activolt-matplotlib-")
         atexit.register(shutil.rmtree, private, ignore_errors=True)
         os.environ["MPLCONFIGDIR"] = private
-
-
-#: Ionic strength beyond which the published models' extrapolations part noticeably [mol/kg].
-MODEL_CHOICE_REMINDER_IONIC_STRENGTH = 0.1
-
-
-def _with_model_choice_reminder(reduction: Reduction) -> Reduction:
-    """A single-model reduction over a wide range says that u(E°) leaves out the choice of model
-    (simulated runs to 1 mol/kg: Hückel intervals held a Pitzer truth only 70 % of the time)."""
-    import dataclasses
-
-    usable = reduction.points["flag"].isna()
-    ionic = reduction.electrolyte.ionic_strength(reduction.points.loc[usable, "molality_mol_kg"])
-    if float(ionic.max()) <= MODEL_CHOICE_REMINDER_IONIC_STRENGTH:
-        return reduction
-    reminder = ("u(E°) covers this model only; above I = 0.1 mol/kg the choice of model can move "
-                "E° by more — run with --model all to include the model-choice component")
-    return dataclasses.replace(reduction, warnings=(*reduction.warnings, reminder))
 
 
 def _fixed_per_model(names: list[str], fixed: dict[str, float]) -> dict[str, dict[str, float]]:

@@ -67,7 +67,14 @@ from ..activity import MODELS, get_model
 from ..data.runs import Run, usable_points
 from ..errors import FitError, InputError
 from ..fit.diagnostics import RunsTest, runs_test
-from .dilution import OUT_OF_RANGE, FitStatistics, FittedParameter, Reduction, reduce_run
+from .dilution import (
+    OUT_OF_RANGE,
+    FitStatistics,
+    FittedParameter,
+    Reduction,
+    reduce_run,
+    with_model_choice,
+)
 
 __all__ = [
     "CHI2_P_MIN",
@@ -260,8 +267,12 @@ class ModelComparison:
 
     @property
     def recommended_reduction(self) -> Reduction | None:
-        """The reduction of the recommended model, or None."""
-        return None if self.recommended is None else self.assessment(self.recommended).reduction
+        """The reduction of the recommended model with the model-choice component in u(E°),
+        u(γ±) and the budget (one u(E°) everywhere), or None when nothing is recommended."""
+        if self.recommended is None:
+            return None
+        return with_model_choice(self.assessment(self.recommended).reduction,
+                                 self.u_model_choice_V, MODEL_CHOICE_RULE)
 
 
 def _p(p: float) -> str:
@@ -414,7 +425,8 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
     for name in names:
         family = get_model(name)
         try:
-            reduction = reduce_run(run, name, fixed.get(name) or None)
+            reduction = reduce_run(run, name, fixed.get(name) or None,
+                                   remind_model_choice=False)
         except FitError as error:
             skipped.append(SkippedModel(name=name, title=family.title, reason=str(error)))
             continue
