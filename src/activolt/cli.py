@@ -1,7 +1,8 @@
 """The ``activolt`` command line: a thin layer over the library.
 
 Exit status: 0 success, 2 bad input (one line on stderr naming file, line and column), 1 a fit
-that could not be done (with the reason).
+that could not be done (with the reason) — with several series, some series not reduced (each
+named on stderr and in the summary with its reason; the others are written).
 """
 
 from __future__ import annotations
@@ -14,11 +15,14 @@ import threading
 from collections.abc import Sequence
 from importlib.resources import files
 from pathlib import Path
-from typing import NoReturn
+from typing import TYPE_CHECKING, Any, NoReturn
 
 from . import __version__
 from .errors import FitError, InputError
 from .safe_text import escape_controls
+
+if TYPE_CHECKING:
+    from .data.runs import Run
 
 DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
@@ -61,7 +65,10 @@ def _parser() -> argparse.ArgumentParser:
     commands = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     reduce = commands.add_parser("reduce", help="reduce a run to E° and γ±")
-    reduce.add_argument("run", type=Path, help="run table (CSV)")
+    reduce.add_argument("run", type=Path, nargs="+",
+                        help="run table (CSV), several tables, or a folder (every *.csv in it, "
+                             "each with its metadata); every series is reduced unless --series "
+                             "picks one")
     reduce.add_argument("--meta", type=Path, help="run metadata (TOML); default RUN.toml")
     reduce.add_argument("--model", default="hueckel",
                         help="activity-coefficient model: limiting, hueckel, davies, sit, pitzer; "
@@ -94,7 +101,10 @@ def _parser() -> argparse.ArgumentParser:
                         help="also propagate by Monte Carlo (GUM Supplement 1) with this many "
                              "trials")
     reduce.add_argument("--seed", type=int, default=0, help="seed of the Monte Carlo; default 0")
-    reduce.add_argument("--no-figures", action="store_true", help="skip the figures")
+    reduce.add_argument("--figures", choices=FIGURE_CHOICES,
+                        help="all (default): each series' figures, and with several series an "
+                             "overview of E° ± U95; summary: the overview only; none")
+    reduce.add_argument("--no-figures", action="store_true", help="same as --figures none")
 
     cell = commands.add_parser("cell", help="a cell's reaction, n, E°, ΔG° and K from its "
                                "diagram")
@@ -204,6 +214,196 @@ def series_file_name(series: str) -> str:
                    else f"%{b:02X}" for b in series.encode("utf-8"))
 
 
+#: What ``--figures`` takes: every figure, the batch's overview only, or none.
+FIGURE_CHOICES = ("all", "summary", "none")
+
+
+def _figures_choice(figures: str | None, no_figures: bool) -> str:
+    """``--figures``, with ``--no-figures`` as another way of saying ``none``."""
+    if no_figures and figures not in (None, "none"):
+        raise InputError(f"--no-figures and --figures {figures} contradict each other; give one",
+                         file="command line", column="--figures")
+    return "none" if no_figures else (figures or "all")
+
+
+def _run_tables(paths: Sequence[Path]) -> tuple[list[Path], str, Path]:
+    """The run tables named on the command line (a folder gives every ``*.csv`` in it), the
+    batch's name and the folder its outputs go to by default (``NAME_activolt`` next to it)."""
+    tables: list[Path] = []
+    for path in paths:
+        if path.is_dir():
+            found = sorted(p for p in path.glob("*.csv")
+                           if p.is_file() and not p.name.startswith("."))
+            if not found:
+                raise InputError("the folder holds no run table (*.csv); give a folder of run "
+                                 "tables or the tables themselves", file=str(path))
+            tables += found
+        else:
+            tables.append(path)
+    for i, table in enumerate(tables):
+        for other in tables[:i]:
+            if os.path.exists(table) and os.path.exists(other) and os.path.samefile(table,
+                                                                                    other):
+                raise InputError(f"the run table is given twice (also as {other}); give it once",
+                                 file=str(table))
+    first = paths[0]
+    if len(paths) == 1 and first.is_dir():
+        folder = Path(os.path.abspath(first))
+        return tables, folder.name or "batch", folder.parent / f"{folder.name or 'batch'}_activolt"
+    if len(paths) == 1:
+        return tables, first.stem, first.parent / f"{first.stem}_activolt"
+    return tables, "batch", first.parent / "batch_activolt"
+
+
+def _progress(total: int, what: str) -> Any:
+    """A tqdm bar on stderr, shown only on a terminal and only after two seconds."""
+    from tqdm import tqdm
+
+    terminal = sys.stderr is not None and getattr(sys.stderr, "isatty", lambda: False)()
+    return tqdm(total=total, desc=what, unit=" series", delay=2.0, file=sys.stderr,
+                disable=not terminal, leave=False)
+
+
+def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
+                  fixed: dict[str, float], out: Path | None, json_path: Path | None,
+                  series: str | None, overrides: dict[str, object], figures: str,
+                  exclude: tuple[str, ...] = (), trials: int | None = None, seed: int = 0,
+                  written: list[Path] | None = None, runs: Sequence[Run] | None = None) -> int:
+    """Every series of several tables, a folder or a table with a ``series`` column: one output
+    set per series and ``NAME.summary.csv``; returns the exit status (1 when a series failed).
+    """
+    from .data.runs import read_run, read_runs
+    from .io.files import check_outputs, write_outputs
+    from .io.record import points_csv, record_json
+    from .io.summary import summary_csv
+    from .procedures.many import reduce_many, series_name
+    from .report.text import format_report
+
+    if json_path is not None:
+        raise InputError("--json writes the record of one series; with several series each "
+                         "record goes into the output folder (--out), or pick one with --series",
+                         file="command line", column="--json")
+    if exclude:
+        raise InputError("--exclude names a reading of one series; pick the series with --series",
+                         file="command line", column="--exclude")
+    if trials is not None and not 10 <= trials <= 1_000_000:
+        raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
+                         file="command line", column="--monte-carlo")
+    if seed < 0:
+        raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
+                         column="--seed")
+    tables, name, default_out = _run_tables(paths)
+    out = out if out is not None else default_out
+    if runs is None:
+        runs = []
+        for table in tables:
+            runs += ([read_run(table, meta, overrides=overrides, series=series)]
+                     if series is not None else list(read_runs(table, meta, overrides=overrides)))
+    # one set per series, named RUN (a table without series names) or RUN.SERIES
+    per_table: dict[Path, int] = {}
+    for run in runs:
+        per_table[run.path] = per_table.get(run.path, 0) + 1
+    bases: list[str] = []
+    seen: dict[str, Path] = {}
+    for run in runs:
+        label = series_name(run)
+        alone = per_table[run.path] == 1 and label == "" and series is None
+        base = run.path.stem if alone else f"{run.path.stem}.{series_file_name(label)}"
+        if base in seen:
+            raise InputError(f"two run tables give the output name '{base}' (also {seen[base]}); "
+                             "rename one or reduce them separately", file=str(run.path))
+        seen[base] = run.path
+        bases.append(base)
+    summary_names = [f"{name}.summary.csv", f"{name}.summary.png"]
+    owned = [f"{base}.{kind}" for base in bases for kind in OUTPUT_KINDS] + summary_names
+    inputs = list(dict.fromkeys(
+        p for run in runs for p in (run.path, run.metadata_path) if p is not None))
+    check_outputs(out, owned, [], inputs)
+
+    with _progress(len(runs), "reducing") as bar:
+        result = reduce_many(runs, model=model, fixed=fixed, progress=bar.update)
+    contents: dict[str, bytes | str] = {}
+    lines = []
+    with _progress(len(runs), "writing") as bar:
+        for base, outcome in zip(bases, result, strict=True):
+            bar.update(1)
+            label = f"{outcome.run.path.name}" + (f", series '{outcome.series}'"
+                                                  if outcome.series else "")
+            reduction = outcome.reduction
+            if reduction is None:
+                lines.append(f"{label}: not reduced — {outcome.failure}")
+                continue
+            report = format_report(reduction)
+            if outcome.comparison is not None:
+                from .report.model_table import format_model_comparison
+
+                report += "\n" + format_model_comparison(outcome.comparison)
+            monte = None
+            if trials is not None:
+                from .procedures.montecarlo import monte_carlo
+                from .report.text import format_monte_carlo
+
+                monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
+                                    temperature_u_K=reduction.run.metadata.u_temperature_K,
+                                    progress=False)
+                report += "\n" + format_monte_carlo(monte, reduction)
+            contents[f"{base}.record.json"] = record_json(
+                reduction, comparison=outcome.comparison, monte_carlo=monte, record_folder=out)
+            contents[f"{base}.points.csv"] = points_csv(reduction)
+            contents[f"{base}.report.txt"] = escape_controls(
+                report if report.endswith("\n") else report + "\n", keep="\n")
+            if figures == "all":
+                from .report.figures import render_figures
+
+                for kind, png in render_figures(reduction).items():
+                    contents[f"{base}.{kind}.png"] = png
+            e0 = reduction.standard_potential
+            lines.append(f"{label}: E° = {e0.nominal_value * 1e3:.4f} ± {e0.std_dev * 1e3:.4f} mV "
+                         f"(k = 1, {reduction.model.name})")
+    summary = result.summary
+    contents[summary_names[0]] = summary_csv(summary)
+    if figures != "none":
+        from .report.figures import render_summary_figure
+
+        contents[summary_names[1]] = render_summary_figure(summary)
+    done = write_outputs(folder=out, contents=contents, owned=owned, inputs=inputs)
+    if written is not None:
+        written.extend(done)
+    failed = result.failures
+    sys.stdout.write(escape_controls(
+        f"activolt: {len(result) - len(failed)} of {len(result)} series reduced "
+        f"(model {result.model}); summary in {out / summary_names[0]}\n"
+        + "".join(f"  {line}\n" for line in lines), keep="\n"))
+    for outcome in failed:
+        print(escape_controls(f"activolt: {outcome.run.path}"
+                              + (f", series '{outcome.series}'" if outcome.series else "")
+                              + f": not reduced: {outcome.failure}"), file=sys.stderr)
+    return 1 if failed else 0
+
+
+def _reduce_command(args: argparse.Namespace, written: list[Path]) -> int:
+    """``activolt reduce``: one series as before, or a batch (several tables, a folder, or a
+    table with several series and no ``--series``); returns the exit status."""
+    overrides = {k: getattr(args, k) for k in
+                 ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa",
+                  "cell", "slope_factor", "volt_unit")}
+    figures = _figures_choice(args.figures, args.no_figures)
+    common = (args.meta, args.model, dict(args.fix), args.out, args.json, args.series, overrides)
+    options = {"exclude": tuple(args.exclude), "trials": args.monte_carlo, "seed": args.seed,
+               "written": written}
+    paths: list[Path] = args.run
+    runs = None
+    if len(paths) == 1 and not paths[0].is_dir():
+        if args.series is None:
+            from .data.runs import read_runs
+
+            runs = read_runs(paths[0], args.meta, overrides=overrides)
+        if args.series is not None or len(runs) == 1:
+            _reduce(paths[0], *common, figures == "all", **options)
+            return 0
+    return _reduce_batch(paths, *common, figures, runs=runs, **options)
+
+
 def _private_matplotlib_config() -> None:
     """Point MPLCONFIGDIR at a private temporary folder when matplotlib's default config or
     cache folder cannot be written (matplotlib would otherwise warn on stderr)."""
@@ -310,6 +510,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     in_main_thread = threading.current_thread() is threading.main_thread()
     previous = signal.signal(signal.SIGTERM, _on_sigterm) if in_main_thread else None
     written: list[Path] = []
+    status = 0
     try:
         args = _parser().parse_args(argv)
         if args.command != "cell":
@@ -321,13 +522,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         elif args.command == "cell":
             written = _cell(args.diagram, args.temperature_C, args.json)
         else:
-            overrides = {k: getattr(args, k) for k in
-                         ("electrolyte", "electrons", "temperature_C", "standard_pressure_kPa",
-                          "cell", "slope_factor", "volt_unit")}
-            _reduce(args.run, args.meta, args.model, dict(args.fix), args.out,
-                    args.json, args.series, overrides, not args.no_figures,
-                    tuple(args.exclude), args.monte_carlo, args.seed, written=written)
-        if written:
+            status = _reduce_command(args, written)
+        if len(written) > 20:  # a batch: the folder and the count, not every file
+            print(escape_controls(f"\nwritten: {len(written)} files into {written[0].parent}"))
+        elif written:
             print(escape_controls("\nwritten:\n" + "\n".join(f"  {p}" for p in written),
                                   keep="\n"))
     except SystemExit as stop:  # --help and --version
@@ -353,7 +551,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     finally:
         if in_main_thread:
             signal.signal(signal.SIGTERM, previous if previous is not None else signal.SIG_DFL)
-    return 0
+    return status
 
 
 if __name__ == "__main__":  # pragma: no cover
