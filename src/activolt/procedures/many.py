@@ -120,12 +120,13 @@ class ManyReductions:
         """One row per series (columns :data:`SUMMARY_COLUMNS`).
 
         ``standard_potential_V`` and ``u_standard_potential_V`` are E° and its standard
-        uncertainty (k = 1; with models compared, the combined uncertainty with the model-choice
-        component); E° ± ``coverage_factor`` × u is the 95 % interval. ``reduced_chi2`` and
-        ``birge_ratio`` describe the final fit; ``flags`` says, separated by ``;``, what a
-        reader should look at (``lack of fit`` — the covariance was scaled by the reduced χ² —,
-        readings beyond the model's range, excluded, standing out or without a reading) or,
-        for a series not reduced, ``refused: <reason>``; ``failure`` holds that reason (empty
+        uncertainty (k = 1; with models compared, the recommended reduction's, which holds the
+        model-choice component); E° ± ``coverage_factor`` × u is the 95 % interval.
+        ``reduced_chi2`` and ``birge_ratio`` describe the final fit. ``flags`` says, separated
+        by ``;``, what a reader should look at (``lack of fit``: the covariance was scaled by
+        the reduced χ²; readings beyond the model's range, excluded, standing out or without a
+        reading) or, for a series not reduced, ``refused: <reason>``; ``failure`` holds that
+        reason (empty
         otherwise). A series not reduced has NaN numbers.
         """
         rows = [_summary_row(o, self.model) for o in self.outcomes]
@@ -145,12 +146,8 @@ def _summary_row(outcome: SeriesReduction, model: str) -> dict[str, Any]:
                 "failure": outcome.failure}
     stats = reduction.statistics
     e0 = reduction.standard_potential
-    u = e0.std_dev
-    comparison = outcome.comparison
-    if comparison is not None and math.isfinite(comparison.u_combined_V):
-        u = comparison.u_combined_V
     return {**row, "n_points": stats.n_points, "model": reduction.model.name,
-            "standard_potential_V": e0.nominal_value, "u_standard_potential_V": u,
+            "standard_potential_V": e0.nominal_value, "u_standard_potential_V": e0.std_dev,
             "coverage_factor": stats.coverage_factor, "reduced_chi2": stats.reduced_chi2,
             "birge_ratio": stats.birge_ratio, "flags": "; ".join(_flags(reduction)),
             "failure": ""}

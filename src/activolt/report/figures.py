@@ -301,7 +301,8 @@ def plot_summary(summary: pd.DataFrame, ax: Axes | None = None) -> Axes:
         ax.plot(position[~reduced], np.full(failed, floor), "x", color="tab:red",
                 label="not reduced (see the summary)")
     several_files = summary["file"].nunique() > 1
-    labels = [(f"{f}: {s}" if several_files else s) or "(unnamed)"
+    # names are text, never mathtext: a "$" is shown as it is
+    labels = [((f"{f}: {s}" if several_files else s) or "(unnamed)").replace("$", r"\$")
               for f, s in zip(summary["file"], summary["series"], strict=True)]
     if len(labels) <= 40:
         ax.set_xticks(position, labels, rotation=60 if len(labels) > 8 else 0,
