@@ -133,3 +133,149 @@ def test_residual_legend_covers_no_point(harned):
     assert not inside
     # and the legend lies outside the axes altogether
     assert not box.overlaps(ax.get_window_extent(canvas.get_renderer()))
+
+
+# --- 2. report ------------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def harned_comparison(tmp_path_factory):
+    """The Harned run with two replicates a solution, --exclude m=0.01, no stated u(EMF), and
+    the limiting law (inadequate to 1 mol/kg) compared with Hückel."""
+    from activolt.data.runs import Exclusion, exclude_points
+    from activolt.procedures.model_choice import compare_models
+
+    folder = tmp_path_factory.mktemp("replicates")
+    table = published_gamma("HCl", 298.15)
+    table = table[table.molality_mol_kg <= 1.0]
+    m, gamma = table.molality_mol_kg.to_numpy(), table.gamma_pm.to_numpy()
+    emf = E0_ATM_V - 2 * sc.R * 298.15 / FARADAY * np.log(m * gamma)
+    noise = np.random.default_rng(11).normal(0, 0.02e-3, (2, m.size))
+    rows = [f"{a},{float(b + noise[j, i])!r},E{j + 1}" for i, (a, b) in
+            enumerate(zip(m, emf, strict=True)) for j in range(2)]
+    path = _write(folder, "molality_mol_kg,emf_V,electrode", rows,
+                  'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25\n')
+    run = exclude_points(read_run(path), [Exclusion.parse("m=0.01:cracked frit")])
+    return compare_models(run, ["limiting", "hueckel"])
+
+
+def _report(comparison, monte_carlo=None):
+    from activolt.report.text import format_report
+
+    return format_report(comparison.recommended_reduction, comparison=comparison,
+                         monte_carlo=monte_carlo)
+
+
+def test_safety_block_comes_last(harned_comparison):
+    from activolt.procedures.montecarlo import monte_carlo
+
+    reduction = harned_comparison.recommended_reduction
+    monte = monte_carlo(reduction.run, trials=20, seed=1, reduction=reduction)
+    text = _report(harned_comparison, monte)
+    assert text.index("Model comparison") < text.index("Monte Carlo") < text.index("safety:")
+    tail = text[text.index("safety:"):].splitlines()[1:]
+    assert tail and all(line.startswith("  - ") for line in tail)
+
+
+def test_warnings_do_not_repeat_the_reasons(harned_comparison):
+    from activolt.report.model_table import format_model_comparison
+
+    text = format_model_comparison(harned_comparison)
+    limiting = harned_comparison.assessment("limiting")
+    assert not limiting.adequate
+    reason = "; ".join(limiting.reasons)
+    assert any(w.endswith(reason) for w in harned_comparison.warnings)  # the repetition
+    assert text.count(reason) == 1
+
+
+def test_comparison_table_says_why_in_short(harned_comparison):
+    from activolt.report.model_table import format_model_comparison
+
+    lines = format_model_comparison(harned_comparison).splitlines()
+    header = next(line for line in lines if line.startswith("model"))
+    assert header.split()[-1] == "why"
+    row = next(line for line in lines if line.startswith("limiting"))
+    assert "(a) beyond its range" in row
+    assert any(line.startswith("  (a) limiting: ") for line in lines)
+
+
+def test_chi2_with_unit_weights_has_its_unit(harned_comparison):
+    from activolt.report.model_table import format_model_comparison
+
+    text = _report(harned_comparison)
+    fit_line = next(line for line in text.splitlines() if line.startswith("  fit: χ²"))
+    chi2 = harned_comparison.recommended_reduction.statistics.chi2
+    assert f"χ² = {chi2:.4g} V²" in fit_line
+    assert "χ²/ν / V²" in format_model_comparison(harned_comparison)
+
+
+def test_excluded_readings_keep_their_value_and_are_counted(harned_comparison):
+    reduction = harned_comparison.recommended_reduction
+    text = _report(harned_comparison)
+    excluded = reduction.points[reduction.points["molality_mol_kg"] == 0.01]
+    assert len(excluded) == 2
+    for _, row in excluded.iterrows():
+        line = next(line for line in text.splitlines()
+                    if line.startswith("  0.01 ") and f" {row['electrode']} " in line)
+        assert f"{row['emf_V'] * 1e3:.3f}" in line and "excluded: cracked frit" in line
+    lines = ", ".join(str(n) for n in excluded["line"])
+    assert (f"left out of the fit: 2 readings at m = 0.01 mol/kg (lines {lines}) — cracked frit"
+            in text)
+
+
+def test_points_table_has_an_electrode_column_when_the_run_names_them(harned, ion_selective):
+    from activolt.report.text import format_report
+
+    def header(text):
+        return next(line for line in text.splitlines() if line.startswith("  m / (mol/kg)"))
+
+    with_electrodes = format_report(harned)
+    assert header(with_electrodes).split()[3] == "electrode"
+    row = next(line for line in with_electrodes.splitlines() if line.startswith("  0.001 "))
+    assert row.split()[1] == "E1"
+    assert "electrode" not in header(format_report(ion_selective))
+
+
+def test_water_activity_printed_as_one_minus_a_w_with_its_digits(harned):
+    from activolt.procedures.properties import derived_properties
+    from activolt.report.text import format_report
+
+    text = format_report(harned)
+    block = text[text.index("derived from the fitted model"):].splitlines()
+    assert "1 − a_w" in block[1]
+    properties = derived_properties(harned)
+    first = block[2]
+    a_w, u = properties["water_activity"].iloc[0], properties["u_water_activity"].iloc[0]
+    # (mantissa ± u) × 10⁻ⁿ: the mantissa times 10⁻ⁿ is 1 − a_w, to the digits of u
+    cell = first[first.index("(", first.index("±") + 1):].split("   ")[0]
+    mantissa, rest = cell.strip("(").split(" ± ")
+    u_mantissa, power = rest.split(") × 10")
+    exponent = -int(power.translate(str.maketrans("⁻⁰¹²³⁴⁵⁶⁷⁸⁹", "-0123456789")))
+    assert float(mantissa) * 10.0 ** -exponent == pytest.approx(1 - a_w, abs=u)
+    assert float(u_mantissa) * 10.0 ** -exponent == pytest.approx(u, rel=0.05)
+    assert len(u_mantissa.replace(".", "").lstrip("0")) == 2  # two significant digits of u
+    # no number of the table carries more than eight decimals (a_w had eleven)
+    import re
+
+    table = "\n".join(block[:len(properties) + 2])
+    assert not re.search(r"\d\.\d{9,}", table)
+
+
+def test_a_bound_is_printed_as_the_bound(tmp_path):
+    """å of the Hückel equation runs to its lower bound 0 on data with no ion-size term."""
+    from activolt.report.numbers import format_bound_reason
+    from activolt.report.text import format_report
+
+    m = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5])
+    ln_gamma = -1.1744 * np.sqrt(m) - 0.3 * m  # limiting law with a negative b: an input
+    emf = 0.2223 - 2 * sc.R * 298.15 / FARADAY * np.log(m * np.exp(ln_gamma))
+    rows = [f"{a},{float(b)!r},2e-5" for a, b in zip(m, emf, strict=True)]
+    path = _write(tmp_path, "molality_mol_kg,emf_V,u_emf_V", rows,
+                  'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25\n')
+    reduction = reduce_run(read_run(path), "hueckel")
+    held = next(p for p in reduction.parameters if p.name == "a_angstrom")
+    assert "ran to the bound" in held.reason
+    text = format_report(reduction)
+    assert "the fit ran to its lower bound (0 Å)" in text
+    assert "ran to the bound" not in text
+    assert format_bound_reason("the fit ran to the bound 19.9999 Å", {"Å": (0.0, 20.0)}) == (
+        "the fit ran to its upper bound (20 Å)")

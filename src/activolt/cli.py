@@ -156,7 +156,6 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     if model == "all" or "," in model:
         from .activity import MODELS
         from .procedures.model_choice import compare_models
-        from .report.model_table import format_model_comparison
 
         names = list(MODELS) if model == "all" else [m.strip() for m in model.split(",")]
         if exclusions:
@@ -165,18 +164,16 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         reduction = comparison.recommended_reduction
         if reduction is None:
             raise FitError(comparison.warnings[-1])
-        report = format_report(reduction) + "\n" + format_model_comparison(comparison)
     else:
         reduction = reduce_run(run, model=model, fixed=fixed, exclude=exclusions)
-        report = format_report(reduction)
     monte = None
     if trials is not None:
         from .procedures.montecarlo import monte_carlo
-        from .report.text import format_monte_carlo
 
         monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
                             temperature_u_K=run.metadata.u_temperature_K)
-        report += "\n" + format_monte_carlo(monte, reduction)
+    # the model comparison and the Monte Carlo inside the report, the safety cautions last
+    report = format_report(reduction, comparison=comparison, monte_carlo=monte)
     report = escape_controls(report if report.endswith("\n") else report + "\n", keep="\n")
     record_folder = (record_elsewhere or out / record_name).parent
     record = record_json(reduction, comparison=comparison, monte_carlo=monte,

@@ -9,7 +9,7 @@ import math
 from ..procedures.model_choice import MODEL_CHOICE_RULE, RECOMMENDATION_RULE, ModelComparison
 from .numbers import decimals_for, format_with_uncertainty
 
-__all__ = ["format_model_comparison"]
+__all__ = ["SHORT_REASONS", "format_model_comparison", "short_reasons"]
 
 
 def _e0_mV(value_V: float, u_V: float) -> str:
@@ -40,10 +40,11 @@ def format_model_comparison(comparison: ModelComparison) -> str:
     str
         One row per fitted model: E° ± u [mV] (value rounded to the second significant digit
         of u, k = 1), free parameters, reduced χ², AIC, BIC, ΔBIC to the lowest, runs observed /
-        expected and the runs-test probability of so few runs, and the verdict; then why each
-        inadequate model is inadequate, skipped models, the spread of E° and the model-choice
-        component with its rule, the recommendation with the combined u(E°), notes and
-        warnings.
+        expected and the runs-test probability of so few runs, the verdict and, for an
+        inadequate or refused model, its reasons in short with a letter; then under that
+        letter why each inadequate model is inadequate, the refused models, the spread of E°
+        and the model-choice component with its rule, the recommendation with the combined
+        u(E°), notes and the warnings that do not repeat a reason already given.
 
     Notes
     -----
@@ -60,8 +61,13 @@ def format_model_comparison(comparison: ModelComparison) -> str:
     ]
     bics = [a.statistics.bic for a in c.assessments]
     best_bic = min(bics) if bics else math.nan
-    header = ("model", "E° / mV (k = 1)", "free", "χ²/ν", "AIC", "BIC", "ΔBIC", "runs",
-              "p(runs)", "verdict")
+    # With unit weights χ² is a sum of squared residuals: χ²/ν is a variance in V².
+    header = ("model", "E° / mV (k = 1)", "free",
+              "χ²/ν" if c.stated_uncertainty else "χ²/ν / V²", "AIC", "BIC", "ΔBIC", "runs",
+              "p(runs)", "verdict", "why")
+    inadequate = [a for a in c.assessments if not a.adequate]
+    letters = {name: chr(ord("a") + i) for i, name in
+               enumerate([a.name for a in inadequate] + [s.name for s in c.skipped])}
     rows = []
     for a in c.assessments:
         st, rt = a.statistics, a.runs_test
@@ -76,8 +82,10 @@ def format_model_comparison(comparison: ModelComparison) -> str:
             f"{rt.runs}/{rt.expected_runs:.1f}",
             _general(rt.p_value_fewer),
             "adequate" if a.adequate else "inadequate",
+            "" if a.adequate else f"({letters[a.name]}) {short_reasons(a.reasons)}",
         ))
-    rows += [(s.name, "—", "—", "—", "—", "—", "—", "—", "—", "refused") for s in c.skipped]
+    rows += [(s.name, "—", "—", "—", "—", "—", "—", "—", "—", "refused",
+              f"({letters[s.name]}) {short_reasons((s.reason,))}") for s in c.skipped]
     widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header))]
     right = {2, 3, 4, 5, 6, 7, 8}
 
@@ -92,15 +100,15 @@ def format_model_comparison(comparison: ModelComparison) -> str:
         "",
         "free: fitted model parameters besides E°; χ²/ν: reduced χ²; runs: residual-sign runs "
         "observed/expected, p(runs): exact probability of so few (Wald–Wolfowitz runs test); "
-        "* recommended",
+        "why: in short, with the letter of the full reason below; * recommended",
     ]
-    inadequate = [a for a in c.assessments if not a.adequate]
     if inadequate:
         lines += ["", "Why inadequate:"]
-        lines += [f"  {a.name}: {'; '.join(a.reasons)}" for a in inadequate]
+        lines += [f"  ({letters[a.name]}) {a.name}: {'; '.join(a.reasons)}" for a in inadequate]
     if c.skipped:
         lines += ["", "Refused (the model cannot give an honest E° for this run):"]
-        lines += [f"  {s.name}: {s.reason}" for s in c.skipped]
+        lines += [f"  ({letters[s.name]}) {s.name}: {s.reason}" for s in c.skipped]
+    shown = [*("; ".join(a.reasons) for a in inadequate), *(s.reason for s in c.skipped)]
     lines.append("")
     if c.recommended is None:
         lines.append("No model is adequate for this run; no E° is recommended.")
@@ -134,7 +142,37 @@ def format_model_comparison(comparison: ModelComparison) -> str:
         lines += ["", "Notes:"]
         lines += [f"  {n}" for n in c.notes]
         lines += [f"  {name}: {n}" for name, n in model_notes]
-    if c.warnings:
+    # A warning that only repeats a reason printed above is not printed again.
+    warnings = [w for w in dict.fromkeys(c.warnings)
+                if not any(reason and w.endswith(reason) for reason in shown)]
+    if warnings:
         lines += ["", "Warnings:"]
-        lines += [f"  {w}" for w in c.warnings]
+        lines += [f"  {w}" for w in warnings]
     return "\n".join(lines)
+
+
+#: Words of a reason → its short form in the table's "why" column.
+SHORT_REASONS = (
+    ("improbable for the stated", "χ² too large"),
+    ("blocks of one sign", "runs test"),
+    ("runs of one sign", "runs test"),
+    ("serial correlation", "serial correlation"),
+    ("stretched to", "beyond its range"),
+    ("residual variance", "F-test"),
+    ("does not describe", "systematic misfit"),
+)
+
+
+def short_reasons(reasons: tuple[str, ...] | list[str]) -> str:
+    """The reasons a model is inadequate or refused, in a few words each.
+
+    Examples
+    --------
+    >>> short_reasons(["χ² = 53 with 3 degrees of freedom is improbable for the stated reading "
+    ...                "uncertainties (p = 1.9e-11)", "the Davies equation stretched to I = 1"])
+    'χ² too large, beyond its range'
+    >>> short_reasons(["the fit could not converge"])
+    'see below'
+    """
+    found = [short for reason in reasons for key, short in SHORT_REASONS if key in reason]
+    return ", ".join(dict.fromkeys(found)) or "see below"

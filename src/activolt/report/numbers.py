@@ -48,3 +48,86 @@ def json_number(value: float | None) -> float | None:
         return None
     value = float(value)
     return value if math.isfinite(value) else None
+
+
+_SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str:
+    """``(mantissa ± u) × 10ⁿ`` with n the value's decade and the digits set by u.
+
+    For quantities far from 1 whose uncertainty is tiny (1 − a_w ≈ 4 × 10⁻⁵ known to
+    2 × 10⁻¹⁰), where fixed-point notation would print a row of zeros. Rounding as in
+    :func:`format_with_uncertainty` (GUM, JCGM 100:2008, 7.2.6).
+
+    Examples
+    --------
+    >>> format_scaled(3.5617642e-05, 1.6e-10)
+    '(3.561764 ± 0.000016) × 10⁻⁵'
+    >>> format_scaled(-0.0497, 0.00097)
+    '(-4.970 ± 0.097) × 10⁻²'
+    >>> format_scaled(0.0, 1e-9)
+    '0 ± 1e-09'
+    """
+    if value == 0.0 or not math.isfinite(value):
+        return f"{value:g} ± {uncertainty:.{significant}g}"
+    if not math.isfinite(uncertainty):
+        return f"{value:.4g} (held)"
+    exponent = math.floor(math.log10(abs(value)))
+    scale = 10.0 ** exponent
+    inner = format_with_uncertainty(value / scale, uncertainty / scale, significant=significant)
+    return f"({inner}) × 10{str(exponent).translate(_SUPERSCRIPT)}"
+
+
+def format_compact(value: float, uncertainty: float, significant: int = 2) -> str:
+    """:func:`format_with_uncertainty`, or :func:`format_scaled` when |value| < 0.01 (where
+    fixed-point notation would begin with a row of zeros).
+
+    Examples
+    --------
+    >>> format_compact(0.4972, 0.00097), format_compact(-4.76031e-05, 9.2e-10)
+    ('0.49720 ± 0.00097', '(-4.760310 ± 0.000092) × 10⁻⁵')
+    """
+    if value != 0.0 and math.isfinite(value) and abs(value) < 0.01:
+        return format_scaled(value, uncertainty, significant)
+    return format_with_uncertainty(value, uncertainty, significant=significant)
+
+
+def format_bound_reason(reason: str, bounds: dict[str, tuple[float, float]]) -> str:
+    """A reason such as ``"the fit ran to the bound 9.45418e-05 Å"`` with the bound itself:
+    ``"the fit ran to its lower bound (0 Å)"``.
+
+    Parameters
+    ----------
+    reason : str
+        The reason as the reduction gives it.
+    bounds : dict
+        Unit → (minimum, maximum) of the parameter the reason is about.
+
+    Examples
+    --------
+    >>> format_bound_reason("the fit ran to the bound 9.45418e-05 Å", {"Å": (0.0, 20.0)})
+    'the fit ran to its lower bound (0 Å)'
+    >>> format_bound_reason("the fit ran to the bound 1.19999 ", {"": (0.5, 1.2)})
+    'the fit ran to its upper bound (1.2)'
+    >>> format_bound_reason("the fit ran to the bound 0.123456789 x", {})
+    'the fit ran to the bound 0.123 x'
+    """
+    import re
+
+    match = re.search(r"ran to the bound (\S+) ?(.*)$", reason)
+    if match is None:
+        return reason
+    try:
+        value = float(match.group(1))
+    except ValueError:
+        return reason
+    unit = match.group(2).strip()
+    suffix = f" {unit}" if unit else ""
+    if unit in bounds:
+        low, high = bounds[unit]
+        side, bound = ("lower", low) if abs(value - low) <= abs(high - value) else ("upper", high)
+        text = f"ran to its {side} bound ({bound:g}{suffix})"
+    else:
+        text = f"ran to the bound {value:.3g}{suffix}"
+    return reason[:match.start()] + text

@@ -2,12 +2,19 @@
 
 from __future__ import annotations
 
+import math
+
+import pandas as pd
+
+from ..fit.problem import parameter_spec
 from ..procedures.dilution import Reduction
+from ..procedures.model_choice import ModelComparison
 from ..procedures.montecarlo import MonteCarloResult
 from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import compare_with_published, comparison_lines
-from .numbers import decimals_for, format_with_uncertainty
+from .model_table import format_model_comparison
+from .numbers import decimals_for, format_bound_reason, format_compact, format_with_uncertainty
 
 
 def _e0_line(reduction: Reduction) -> str:
@@ -21,8 +28,26 @@ def _e0_line(reduction: Reduction) -> str:
             f"(k = {stats.coverage_factor:.2f}); basis p° = {basis:g} kPa")
 
 
-def format_report(reduction: Reduction) -> str:
-    """A short report: E° ± u, the model, the fit, γ± at each point, warnings and cautions."""
+def format_report(reduction: Reduction, comparison: ModelComparison | None = None,
+                  monte_carlo: MonteCarloResult | None = None) -> str:
+    """The report: E° ± u, the model, the fit, γ± at each point, derived properties, budgets,
+    corrections, notes and warnings; then the model comparison and the Monte Carlo when given;
+    the safety cautions last.
+
+    Parameters
+    ----------
+    reduction : Reduction
+        The reduction reported (with ``comparison``, the recommended one).
+    comparison : ModelComparison, optional
+        From :func:`activolt.procedures.model_choice.compare_models`.
+    monte_carlo : MonteCarloResult, optional
+        From :func:`activolt.procedures.montecarlo.monte_carlo`.
+
+    Returns
+    -------
+    str
+        The report, user text escaped for the terminal, ending with a newline.
+    """
     run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
     t_C = reduction.temperature_K - 273.15
     lines = [
@@ -52,14 +77,19 @@ def format_report(reduction: Reduction) -> str:
                                       catalogue.u_standard_potential_V * 1e3, "mV")
             + "; this run − catalogue = "
             + format_with_uncertainty(difference.nominal_value * 1e3, u_diff * 1e3, "mV"))
+    bounds = _bounds(reduction)
     for p in reduction.parameters:
         shown = format_with_uncertainty(p.value, p.uncertainty, p.unit)
-        lines.append(f"  {p.symbol} = {shown}" + (f" — {p.reason}" if p.fixed and p.reason
+        reason = format_bound_reason(p.reason, bounds.get(p.name, {})) if p.reason else None
+        lines.append(f"  {p.symbol} = {shown}" + (f" — {reason}" if p.fixed and reason
                                                    else ""))
     weighting = stats.covariance_note
+    # With unit weights χ² is the sum of squared residuals, a quantity in V².
+    chi2_unit = "" if stats.stated_uncertainty else " V²"
     lines += [
-        f"  fit: χ² = {stats.chi2:.4g}, reduced χ² = {stats.reduced_chi2:.3g}, "
-        f"{stats.dof} degrees of freedom, AIC = {stats.aic:.1f}, BIC = {stats.bic:.1f}",
+        f"  fit: χ² = {stats.chi2:.4g}{chi2_unit}, reduced χ² = {stats.reduced_chi2:.3g}"
+        f"{chi2_unit}, {stats.dof} degrees of freedom, AIC = {stats.aic:.1f}, "
+        f"BIC = {stats.bic:.1f}",
         f"  {weighting}",
     ]
     cross = reduction.linear_extrapolation
@@ -72,25 +102,19 @@ def format_report(reduction: Reduction) -> str:
                                       cross.u_standard_potential_V * 1e3, "mV")
             + f" ({difference * 1e3:+.3f} mV from the fit)"
         )
-    lines += ["", "  m / (mol/kg)   E / mV      residual / mV   γ± (u)"]
-    for _, row in reduction.points.iterrows():
-        if isinstance(row["flag"], str):
-            lines.append(f"  {row['molality_mol_kg']:<13.6g}  {'—':<10}  {'':<14}  "
-                         f"flagged: {row['flag']}")
-            continue
-        gamma = format_with_uncertainty(row["gamma_pm"], row["u_gamma_pm"])
-        mark = "  ← stands out" if isinstance(row.get("diagnostic"), str) else ""
-        lines.append(f"  {row['molality_mol_kg']:<13.6g}  {row['emf_V'] * 1e3:<10.3f}  "
-                     f"{row['residual_V'] * 1e3:<+14.4f}  {gamma}{mark}")
+    lines += _points_lines(reduction.points)
     lines += comparison_lines(compare_with_published(reduction))
     from ..procedures.properties import derived_properties
 
     properties = derived_properties(reduction)
-    cells = [[f"{row['molality_mol_kg']:.6g}"] + [
-        format_with_uncertainty(row[name], row[f"u_{name}"])
-        for name in ("osmotic_coefficient", "water_activity", "excess_gibbs_rt_mol_kg")]
-        for _, row in properties.iterrows()]
-    header = ["m / (mol/kg)", "φ", "a_w", "G^E/(RT) / (mol/kg)"]
+    # a_w is within 10⁻⁴ of 1 at the dilute end: 1 − a_w shows the digits that carry
+    # information, as many as its uncertainty supports (u(1 − a_w) = u(a_w)).
+    cells = [[f"{row['molality_mol_kg']:.6g}",
+              format_with_uncertainty(row["osmotic_coefficient"], row["u_osmotic_coefficient"]),
+              format_compact(1.0 - row["water_activity"], row["u_water_activity"]),
+              format_compact(row["excess_gibbs_rt_mol_kg"], row["u_excess_gibbs_rt_mol_kg"])]
+             for _, row in properties.iterrows()]
+    header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
     widths = [max(len(r[i]) for r in [*cells, header]) for i in range(4)]
     lines += ["", "  derived from the fitted model (k = 1)"]
     for row in [header, *cells]:
@@ -107,14 +131,92 @@ def format_report(reduction: Reduction) -> str:
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
-        lines += [""] + [f"  note: {n}" for n in reduction.notes]
+        lines += [""] + [f"  note: {_bound_text(n, bounds)}" for n in reduction.notes]
     if reduction.warnings:
-        lines += [""] + [f"  warning: {w}" for w in reduction.warnings]
+        lines += [""] + [f"  warning: {w}" for w in dict.fromkeys(reduction.warnings)]
+    text = "\n".join(lines) + "\n"
+    if comparison is not None:
+        text += "\n" + format_model_comparison(comparison).rstrip("\n") + "\n"
+    if monte_carlo is not None:
+        text += "\n" + format_monte_carlo(monte_carlo, reduction)
     cautions = cautions_for(meta.electrolyte, meta.cell)
     if cautions:
-        lines += ["", "  safety:"] + [f"  - {c}" for c in cautions]
+        text += "\n" + "\n".join(["  safety:", *[f"  - {c}" for c in cautions]]) + "\n"
     # user text (file, series, electrolyte and cell names, reasons, warnings) shown as printable
-    return escape_controls("\n".join(lines) + "\n", keep="\n")
+    return escape_controls(text, keep="\n")
+
+
+def _bounds(reduction: Reduction) -> dict[str, dict[str, tuple[float, float]]]:
+    """Parameter name → {unit: (minimum, maximum)} of the reduction's parameters."""
+    found = {}
+    for p in reduction.parameters:
+        try:
+            spec = parameter_spec(reduction.model, p.name)
+        except KeyError:
+            continue
+        found[p.name] = {spec.unit: (spec.minimum, spec.maximum)}
+    return found
+
+
+def _bound_text(note: str, bounds: dict[str, dict[str, tuple[float, float]]]) -> str:
+    """A note with a "ran to the bound" number written as the bound (any parameter's unit)."""
+    merged = {unit: span for per in bounds.values() for unit, span in per.items()}
+    return format_bound_reason(note, merged)
+
+
+def _points_lines(points: pd.DataFrame) -> list[str]:
+    """The readings: molality, electrode (when the run names them), E, residual, γ± (u);
+    a flagged reading keeps its value and says why it is out of the fit; readings left out
+    with --exclude are counted per reason."""
+    electrodes = "electrode" in points and any(
+        isinstance(e, str) and e.strip() for e in points["electrode"])
+    header = ["m / (mol/kg)", *(["electrode"] if electrodes else []), "E / mV",
+              "residual / mV", "γ± (u)"]
+    rows = []
+    for _, row in points.iterrows():
+        cells = [f"{row['molality_mol_kg']:.6g}"]
+        if electrodes:
+            cells.append(row["electrode"] if isinstance(row["electrode"], str) else "")
+        emf = row["emf_V"]
+        cells.append(f"{emf * 1e3:.3f}" if _finite(emf) else "—")
+        if isinstance(row["flag"], str):
+            cells += ["", f"out of the fit — {row['flag']}"]
+        else:
+            mark = "  ← stands out" if isinstance(row.get("diagnostic"), str) else ""
+            cells += [f"{row['residual_V'] * 1e3:+.4f}",
+                      format_with_uncertainty(row["gamma_pm"], row["u_gamma_pm"]) + mark]
+        rows.append(cells)
+    widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header) - 1)]
+    lines = [""]
+    for cells in [header, *rows]:
+        lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(cells, widths, strict=False))
+                      + "   " + cells[-1]).rstrip())
+    lines += _exclusion_lines(points)
+    return lines
+
+
+def _exclusion_lines(points: pd.DataFrame) -> list[str]:
+    """One line per reason given with --exclude: how many readings, at which molalities."""
+    flags = points["flag"].astype(object)
+    excluded = points[flags.map(lambda f: isinstance(f, str) and f.startswith("excluded"))]
+    lines = []
+    for flag, group in excluded.groupby("flag", sort=False):
+        molalities = ", ".join(f"{m:.6g}" for m in dict.fromkeys(group["molality_mol_kg"]))
+        count = len(group)
+        where = ("" if "line" not in group else
+                 f" (line{'s' if count > 1 else ''} "
+                 + ", ".join(str(int(n)) for n in group["line"] if _finite(n)) + ")")
+        reason = str(flag).removeprefix("excluded").lstrip(": ")
+        lines.append(f"  left out of the fit: {count} reading{'s' if count > 1 else ''} at "
+                     f"m = {molalities} mol/kg{where}" + (f" — {reason}" if reason else ""))
+    return lines
+
+
+def _finite(value: object) -> bool:
+    try:
+        return math.isfinite(float(value))  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return False
 
 
 def _series(points: object) -> str | None:
