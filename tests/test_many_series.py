@@ -1,0 +1,324 @@
+"""Many series everywhere: the reader parses a table once, ``reduce_many`` reduces every series
+on its own (a failure keeps its reason, the others land), and ``activolt reduce`` takes several
+tables, a folder or a table with a ``series`` column.
+
+The readings are synthetic, made by ``tests/synthetic.py`` from γ± of the Hückel equation
+(Debye–Hückel slope from activolt's own water model, Bå = 1.5) and E° = 0.2224 V; they are
+inputs for checking the mechanics, not check values. Every number compared below is a
+regression pin (the code against itself: a batch against the same series reduced alone), none
+is a literature value.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from synthetic import emf_from_gamma
+
+from activolt.cli import main
+from activolt.data.runs import read_run, read_runs, runs_from_frame
+from activolt.errors import InputError
+from activolt.io.summary import summary_csv
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
+from activolt.procedures.many import SUMMARY_COLUMNS, reduce_many, series_name
+
+MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05])
+#: Synthetic E° of the series [V] (inputs, not check values).
+E0_V = {"A": 0.2224, "B": 0.2226}
+U_EMF_V = 2e-5
+TOML = 'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25.0\n'
+METADATA = {"electrolyte": "HCl", "electrons": 1, "temperature_C": 25.0}
+SET = ("record.json", "points.csv", "report.txt")
+FIGURES = ("extrapolation.png", "residuals.png", "gamma.png")
+
+
+def _emf(e0_V: float, molality: np.ndarray = MOLALITY) -> np.ndarray:
+    """E from γ± of the Hückel equation, ln γ± = −A √m / (1 + 1.5 √m) (synthetic)."""
+    a_gamma = debye_hueckel_constants(np.full(molality.shape, 298.15)).agamma
+    gamma = np.exp(-a_gamma * np.sqrt(molality) / (1.0 + 1.5 * np.sqrt(molality)))
+    return emf_from_gamma(molality, gamma, e0_V)
+
+
+def _rows(series: str, e0_V: float, molality: np.ndarray = MOLALITY) -> list[str]:
+    return [f"{float(m)!r},{float(e)!r},{U_EMF_V!r},{series}"
+            for m, e in zip(molality, _emf(e0_V, molality), strict=True)]
+
+
+def _three_series(folder: Path, stem: str = "three") -> Path:
+    """Series A and B, and series "=C" measured at one molality only (it cannot give E°)."""
+    single = np.full(4, 0.01)
+    rows = ["molality_mol_kg,emf_V,u_emf_V,series", *_rows("A", E0_V["A"]),
+            *_rows("B", E0_V["B"]), *_rows("=C", E0_V["A"], single)]
+    path = folder / f"{stem}.csv"
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    (folder / f"{stem}.toml").write_text(TOML, encoding="utf-8")
+    return path
+
+
+def _one_series(folder: Path, stem: str, e0_V: float) -> Path:
+    path = folder / f"{stem}.csv"
+    rows = ["molality_mol_kg,emf_V,u_emf_V", *(r.rsplit(",", 1)[0] for r in _rows("", e0_V))]
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    (folder / f"{stem}.toml").write_text(TOML, encoding="utf-8")
+    return path
+
+
+def _summary(path: Path) -> pd.DataFrame:
+    return pd.read_csv(path, keep_default_na=False, na_values=[""])
+
+
+# --- the reader ------------------------------------------------------------------------------
+
+def test_read_runs_gives_every_series_as_read_run_gives_each(tmp_path):
+    path = _three_series(tmp_path)
+    runs = read_runs(path)
+    assert [series_name(r) for r in runs] == ["A", "B", "=C"]  # order of first appearance
+    for run in runs:
+        alone = read_run(path, series=series_name(run))
+        pd.testing.assert_frame_equal(run.points, alone.points)
+        assert run.warnings == alone.warnings and run.sha256 == alone.sha256
+        assert run.metadata == alone.metadata
+
+
+def test_a_table_without_series_column_is_one_series(tmp_path):
+    runs = read_runs(_one_series(tmp_path, "plain", E0_V["A"]))
+    assert len(runs) == 1 and series_name(runs[0]) == ""
+    assert runs[0].points["line"].tolist() == list(range(2, 2 + len(MOLALITY)))
+
+
+def test_read_runs_reports_bad_input_with_file_line_and_column(tmp_path):
+    path = _three_series(tmp_path)
+    lines = path.read_text(encoding="utf-8").splitlines()
+    lines[9] = "0.0O5," + lines[9].split(",", 1)[1]  # a letter O in series B's molality
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    with pytest.raises(InputError, match="is not a number") as caught:
+        read_runs(path)
+    assert (caught.value.file, caught.value.line, caught.value.column) == (
+        str(path), 10, "molality_mol_kg")
+
+
+def _write_many(path: Path, n_series: int) -> None:
+    rows = ["molality_mol_kg,emf_V,series"]
+    emf = _emf(E0_V["A"])
+    for s in range(n_series):
+        rows += [f"{float(m)!r},{float(e) + 1e-6 * s!r},S{s}"
+                 for m, e in zip(MOLALITY, emf, strict=True)]
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    path.with_suffix(".toml").write_text(TOML, encoding="utf-8")
+
+
+def test_reading_many_series_is_linear_in_rows(tmp_path):
+    small, large = tmp_path / "s200.csv", tmp_path / "s1000.csv"
+    _write_many(small, 200)
+    _write_many(large, 1000)
+    read_runs(small)  # warm up (imports, caches)
+
+    def best_of_two(path: Path) -> float:
+        times = []
+        for _ in range(2):
+            start = time.perf_counter()
+            runs = read_runs(path)
+            times.append(time.perf_counter() - start)
+        assert len(runs) == int(path.stem[1:])
+        return min(times)
+
+    ratio = best_of_two(large) / best_of_two(small)
+    # 5× the rows: linear gives ~5, the former per-series re-parse gave ~25 (common practice:
+    # a ratio bound, not an absolute time, so that a slow machine does not fail the test)
+    assert ratio < 8.0, ratio
+
+
+
+# --- the library -----------------------------------------------------------------------------
+
+def test_reduce_many_on_a_frame_equals_reduce_run_per_series(tmp_path):
+    path = _three_series(tmp_path)
+    frame = pd.read_csv(path, keep_default_na=False, dtype={"series": str})
+    result = reduce_many(frame, metadata=METADATA)
+    assert [o.series for o in result] == ["A", "B", "=C"]
+    for name in ("A", "B"):
+        alone = reduce_run(read_run(path, series=name))
+        outcome = next(o for o in result if o.series == name)
+        batch = outcome.reduction
+        assert batch is not None and outcome.failure is None
+        # regression pin: a batch gives exactly what the series gives alone
+        assert abs(batch.standard_potential.nominal_value
+                   - alone.standard_potential.nominal_value) <= 1e-12
+        assert abs(batch.standard_potential.std_dev - alone.standard_potential.std_dev) <= 1e-12
+        np.testing.assert_allclose(batch.points["gamma_pm"], alone.points["gamma_pm"],
+                                   rtol=0, atol=1e-12)
+    failed = result.failures
+    assert [o.series for o in failed] == ["=C"] and failed[0].failure
+    summary = result.summary
+    assert tuple(summary.columns) == SUMMARY_COLUMNS
+    assert summary["series"].tolist() == ["A", "B", "=C"]
+    assert summary["n_points"].tolist() == [6, 6, 4]
+    assert summary.loc[2, "flags"].startswith("refused: ")
+    assert summary.loc[2, "failure"] == failed[0].failure
+    assert np.isnan(summary.loc[2, "standard_potential_V"])
+    assert (summary.loc[:1, "failure"] == "").all()
+    assert np.isfinite(summary.loc[:1, ["standard_potential_V", "u_standard_potential_V",
+                                        "reduced_chi2", "birge_ratio"]].to_numpy()).all()
+
+
+def test_reduce_many_on_runs_and_the_truth_is_covered(tmp_path):
+    result = reduce_many(read_runs(_three_series(tmp_path)))
+    summary = result.summary.set_index("series")
+    for name, e0 in E0_V.items():  # the synthetic truth within the 95 % interval
+        row = summary.loc[name]
+        assert abs(row["standard_potential_V"] - e0) <= (
+            row["coverage_factor"] * row["u_standard_potential_V"])
+
+
+def test_reduce_many_refuses_bad_input_common_to_every_series(tmp_path):
+    runs = read_runs(_three_series(tmp_path))
+    with pytest.raises(InputError, match="unknown model"):
+        reduce_many(runs, model="debye")
+    with pytest.raises(InputError, match="no model asked for has a parameter 'b'"):
+        reduce_many(runs, fixed={"b": 1.0})
+    with pytest.raises(ValueError, match="metadata"):
+        reduce_many(pd.DataFrame({"molality_mol_kg": [0.01], "emf_V": [0.4]}))
+    with pytest.raises(InputError, match="is not a number") as caught:
+        runs_from_frame(pd.DataFrame({"molality_mol_kg": ["x"], "emf_V": [0.4]}), METADATA)
+    assert caught.value.line == 2  # the header is line 1
+
+
+def test_progress_is_called_once_per_series(tmp_path):
+    calls = []
+    reduce_many(read_runs(_three_series(tmp_path)), progress=calls.append)
+    assert calls == [1, 1, 1]
+
+
+def test_summary_csv_neutralises_formulas(tmp_path):
+    text = summary_csv(reduce_many(read_runs(_three_series(tmp_path))))
+    rows = list(csv.DictReader(io.StringIO(text)))
+    assert [r["series"] for r in rows] == ["A", "B", "'=C"]
+    assert rows[2]["standard_potential_V"] == ""
+
+
+# --- the command line ------------------------------------------------------------------------
+
+def test_a_three_series_file_gives_two_sets_and_a_summary_with_the_failure(tmp_path, capsys):
+    path = _three_series(tmp_path)
+    assert main(["reduce", str(path)]) == 1
+    captured = capsys.readouterr()
+    out = tmp_path / "three_activolt"
+    expected = {f"three.{s}.{kind}" for s in "AB" for kind in SET + FIGURES}
+    assert set(p.name for p in out.iterdir()) == expected | {"three.summary.csv",
+                                                             "three.summary.png"}
+    summary = _summary(out / "three.summary.csv")
+    assert summary["series"].tolist() == ["A", "B", "'=C"]
+    assert summary["failure"].isna().tolist() == [True, True, False]
+    assert summary.loc[2, "flags"].startswith("refused: ")
+    record = json.loads((out / "three.B.record.json").read_text(encoding="utf-8"))
+    assert record["series"] == "B"
+    assert abs(record["standard_potential_V"]["value"] - summary.loc[1, "standard_potential_V"]
+               ) < 1e-9
+    err = captured.err.strip().splitlines()
+    assert len(err) == 1 and "series '=C'" in err[0] and "not reduced" in err[0]
+    assert "2 of 3 series reduced" in captured.out
+
+
+def test_several_files(tmp_path, capsys):
+    a = _one_series(tmp_path, "a", E0_V["A"])
+    b = _one_series(tmp_path, "b", E0_V["B"])
+    out = tmp_path / "o"
+    assert main(["reduce", str(a), str(b), "--out", str(out), "--figures", "none"]) == 0
+    assert set(p.name for p in out.iterdir()) == {
+        *(f"{s}.{kind}" for s in "ab" for kind in SET), "batch.summary.csv"}
+    summary = _summary(out / "batch.summary.csv")
+    assert summary["file"].tolist() == ["a.csv", "b.csv"]
+    alone = reduce_run(read_run(b))
+    assert abs(summary.loc[1, "standard_potential_V"]
+               - alone.standard_potential.nominal_value) < 1e-9  # 10 digits in the CSV
+
+
+def test_a_folder(tmp_path, capsys):
+    folder = tmp_path / "runs"
+    folder.mkdir()
+    _one_series(folder, "day1", E0_V["A"])
+    _three_series(folder, "day2")
+    (folder / "notes.txt").write_text("not a table", encoding="utf-8")
+    assert main(["reduce", str(folder), "--figures", "summary"]) == 1
+    out = tmp_path / "runs_activolt"
+    names = set(p.name for p in out.iterdir())
+    assert names == {"day1.record.json", "day1.points.csv", "day1.report.txt",
+                     *(f"day2.{s}.{kind}" for s in "AB" for kind in SET),
+                     "runs.summary.csv", "runs.summary.png"}
+    summary = _summary(out / "runs.summary.csv")
+    assert list(zip(summary["file"], summary["series"].fillna(""), strict=True)) == [
+        ("day1.csv", ""), ("day2.csv", "A"), ("day2.csv", "B"), ("day2.csv", "'=C")]
+
+
+def test_an_empty_folder_is_bad_input(tmp_path, capsys):
+    (tmp_path / "empty").mkdir()
+    assert main(["reduce", str(tmp_path / "empty")]) == 2
+    assert "no run table" in capsys.readouterr().err
+
+
+def test_series_still_picks_one(tmp_path, capsys):
+    path = _three_series(tmp_path)
+    assert main(["reduce", str(path), "--series", "B", "--no-figures"]) == 0
+    out = tmp_path / "three_activolt"
+    assert set(p.name for p in out.iterdir()) == {f"three.B.{kind}" for kind in SET}
+    assert "series 'B'" in capsys.readouterr().out
+
+
+def test_a_series_that_fails_alone_keeps_the_single_run_behaviour(tmp_path, capsys):
+    # picked alone, the series that cannot give E° is refused as before: one line, no output
+    path = _three_series(tmp_path)
+    assert main(["reduce", str(path), "--series", "=C", "--no-figures"]) in (1, 2)
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "molalit" in err[0]
+    assert not (tmp_path / "three_activolt").exists()
+
+
+def test_all_series_reduced_is_exit_status_0(tmp_path, capsys):
+    path = tmp_path / "two.csv"
+    path.write_text("\n".join(["molality_mol_kg,emf_V,u_emf_V,series", *_rows("A", E0_V["A"]),
+                               *_rows("B", E0_V["B"])]) + "\n", encoding="utf-8")
+    (tmp_path / "two.toml").write_text(TOML, encoding="utf-8")
+    assert main(["reduce", str(path), "--no-figures"]) == 0
+    assert capsys.readouterr().err == ""
+    assert _summary(tmp_path / "two_activolt" / "two.summary.csv")["failure"].isna().all()
+
+
+@pytest.mark.parametrize("args, says", [
+    (["--json", "r.json"], "--json"),
+    (["--exclude", "line=2:bubble"], "--exclude"),
+    (["--no-figures", "--figures", "all"], "contradict"),
+])
+def test_options_for_one_series_are_bad_input_with_several(tmp_path, capsys, args, says):
+    path = _three_series(tmp_path)
+    assert main(["reduce", str(path), *args]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and says in err[0]
+    assert not (tmp_path / "three_activolt").exists()
+
+
+def test_bad_input_in_one_series_writes_nothing(tmp_path, capsys):
+    path = _three_series(tmp_path)
+    text = path.read_text(encoding="utf-8").replace(",B\n", ",B,extra\n", 1)
+    path.write_text(text, encoding="utf-8")
+    assert main(["reduce", str(path)]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "line 8" in err[0]
+    assert not (tmp_path / "three_activolt").exists()
+
+
+def test_the_same_output_name_twice_is_bad_input(tmp_path, capsys):
+    for sub in ("x", "y"):
+        (tmp_path / sub).mkdir()
+        _one_series(tmp_path / sub, "run", E0_V["A"])
+    assert main(["reduce", str(tmp_path / "x" / "run.csv"), str(tmp_path / "y" / "run.csv"),
+                 "--out", str(tmp_path / "o")]) == 2
+    assert "output name 'run'" in capsys.readouterr().err
+    assert not (tmp_path / "o").exists()
