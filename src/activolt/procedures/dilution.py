@@ -459,7 +459,7 @@ def _linear_extrapolation(run: Run, data: SeriesData, slope: float) -> LinearExt
     electrolyte = run.metadata.electrolyte
     ionic = electrolyte.ionic_strength(data.molality)
     use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
-    if use.sum() < 3:
+    if np.unique(data.molality[use]).size < 3:
         return None
     sqrt_i = np.sqrt(ionic[use])
     a = data.constants.agamma[use]
@@ -482,6 +482,21 @@ def _linear_extrapolation(run: Run, data: SeriesData, slope: float) -> LinearExt
         max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH,
     )
 
+
+def _split_fixed(fixed: Mapping[str, float | tuple[float, float]] | None
+                 ) -> tuple[dict[str, float], dict[str, float]]:
+    """Held values, and the standard uncertainties given with some of them: a value or a
+    (value, u) pair per parameter; u must be finite and ≥ 0."""
+    values, uncertainties = {}, {}
+    for name, given in (fixed or {}).items():
+        value, u = (given if isinstance(given, tuple) else (given, 0.0))
+        if not (math.isfinite(float(value)) and math.isfinite(float(u)) and float(u) >= 0.0):
+            raise InputError(f"{name} = {value} ± {u}: a held value and its uncertainty must be "
+                             "finite numbers, the uncertainty ≥ 0", column="fixed")
+        values[name] = float(value)
+        if float(u) > 0.0:
+            uncertainties[name] = float(u)
+    return values, uncertainties
 
 def _within_range(run: Run, family: ActivityModel) -> tuple[Run, str | None]:
     """The run with readings beyond the model's ionic-strength range flagged and left out, and a
@@ -589,7 +604,7 @@ def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit
     return math.sqrt(excess), dof, chi2_p, runs_p
 
 def reduce_run(run: Run, model: str = "hueckel",
-               fixed: Mapping[str, float] | None = None,
+               fixed: Mapping[str, float | tuple[float, float]] | None = None,
                exclude: Sequence[Exclusion] = (), *,
                remind_model_choice: bool = True) -> Reduction:
     """Fit E° and the activity-coefficient model to a run; γ± with uncertainties at each point.
@@ -601,7 +616,9 @@ def reduce_run(run: Run, model: str = "hueckel",
     model : str
         Model name (``limiting``, ``hueckel``, …; see :data:`activolt.activity.MODELS`).
     fixed : mapping, optional
-        Parameters to hold at given values, e.g. ``{"a_angstrom": 4.3}``.
+        Parameters to hold at given values, e.g. ``{"a_angstrom": 4.3}``, or at a value with a
+        standard uncertainty, ``{"a_angstrom": (4.3, 0.2)}``, which then enters u(E°) as a
+        Type B component.
     exclude : sequence of Exclusion, optional
         Readings to leave out, each with the user's reason; they stay in the points table,
         flagged, and the change of E° their exclusion makes is reported.
@@ -636,7 +653,7 @@ def reduce_run(run: Run, model: str = "hueckel",
         family = get_model(model)
     except ValueError as error:
         raise InputError(str(error), column="model") from None
-    fixed = dict(fixed or {})
+    fixed, fixed_u = _split_fixed(fixed)
     specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
     for name in fixed:
         if name not in {p.name for p in specs}:
@@ -667,7 +684,13 @@ def reduce_run(run: Run, model: str = "hueckel",
     for spec in specs:
         if spec.name in fixed:
             values[spec.name] = float(fixed[spec.name])
-            reasons[spec.name] = "held at the value given by the user"
+            if not spec.minimum <= values[spec.name] <= spec.maximum:
+                raise InputError(f"{spec.name} = {values[spec.name]:g} {spec.unit} lies outside "
+                                 f"its physical range [{spec.minimum:g}, {spec.maximum:g}]",
+                                 column="fixed")
+            reasons[spec.name] = ("held at the value given by the user" if spec.name not in
+                                  fixed_u else "held at the value given by the user, with "
+                                  f"u = {fixed_u[spec.name]:g} {spec.unit} (Type B)")
         else:
             values[spec.name] = spec.conventional(electrolyte, data.constants)
             if spec.applies_to is not None and not spec.applies_to(electrolyte):
@@ -677,12 +700,19 @@ def reduce_run(run: Run, model: str = "hueckel",
 
     # Hold parameters until every free one is determined and at least one degree of freedom is
     # left; held parameters take their conventional values.
+    solutions = int(np.unique(data.molality).size)
+    if solutions < 2:
+        raise InputError(f"all {n} usable readings are at one molality (m = "
+                         f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
+                         "series (at least 3 molalities); a single solution gives E° only with "
+                         "a stated γ±, as in the calibration of electrodes", file=str(run.path))
     first_fit: _Fit | None = None
     while True:
-        while free and n - 1 - len(free) < 1:
+        while free and (n - 1 - len(free) < 1 or solutions - 1 - len(free) < 0):
             name = next((f for f in free if not parameter_spec(family, f).linear), free[-1])
             free.remove(name)
-            reasons[name] = f"too few readings to fit it ({n})"
+            reasons[name] = (f"too few readings to fit it ({n})" if n - 1 - len(free) < 0
+                             else f"too few distinct molalities to fit it ({solutions})")
         fit = _fit_once(family, electrolyte, data, values, free)
         if first_fit is None:
             refined = _with_effective_variance(
@@ -727,7 +757,8 @@ def reduce_run(run: Run, model: str = "hueckel",
             + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
 
     effects = _held_parameter_effects(family, electrolyte, data, fit,
-                                      [n for n in reasons if n not in fixed])
+                                      [n for n in reasons if n not in fixed or n in fixed_u],
+                                      fixed_u)
     type_b = None
     uncertain_names = (E0, *fit.free)
     if effects is not None:
@@ -998,16 +1029,21 @@ def _statistics(fit: _Fit, data: SeriesData, birge: float, birge_dof: int, chi2_
 
 
 def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
-                            fit: _Fit, held: list[str]
+                            fit: _Fit, held: list[str], given_u: Mapping[str, float]
                             ) -> tuple[list[str], np.ndarray, np.ndarray] | None:
-    """Parameters held at conventional values with a stated uncertainty: their names, how
-    (E°, free parameters) move with each, M = −S ∂E/∂θ_h (P × H), and their variances u²(θ_h)
-    (GUM 5.1.2, to first order); None when there are none."""
+    """Parameters held with an uncertainty — a convention's stated one, or one the user gave
+    with the value (``given_u``): their names, how (E°, free parameters) move with each,
+    M = −S ∂E/∂θ_h (P × H), and their variances u²(θ_h) (GUM 5.1.2, to first order); None
+    when there are none."""
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     names, columns, variances = [], [], []
     for name in held:
         spec = parameter_spec(model, name)
-        if spec.conventional_uncertainty is None:
+        if name in given_u:
+            u = given_u[name]
+        elif spec.conventional_uncertainty is not None:
+            u = spec.conventional_uncertainty(electrolyte, data.constants)
+        else:
             continue
         step = 1e-6 * max(1.0, abs(fit.values[name]))
         up = predict_emf(model, electrolyte, data, fit.e0, {**fit.values,
@@ -1016,7 +1052,7 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
                                                             name: fit.values[name] - step})
         names.append(name)
         columns.append(-sensitivity @ ((up - down) / (2.0 * step)))
-        variances.append(spec.conventional_uncertainty(electrolyte, data.constants) ** 2)
+        variances.append(u**2)
     if not names:
         return None
     return names, np.column_stack(columns), np.asarray(variances)

@@ -1,0 +1,74 @@
+"""Runs that cannot determine what they are asked for, and values held with an uncertainty.
+
+Readings are generated from the Hückel equation with å = 4.3 Å and b = 0.27 kg/mol and
+E° = 0.22234 V (Bates & Bower 1954, Table 1); they are synthetic (regression of the rules, not
+check values), except where a published source is named.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from synthetic import emf_from_gamma, write_run
+
+from activolt.activity.hueckel import ln_gamma
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.data.runs import read_run
+from activolt.errors import InputError
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
+
+HCL = parse_electrolyte("HCl")
+TRUTH = {"a_angstrom": 4.3, "b_kg_mol": 0.27}
+E0_V = 0.22234  # Bates & Bower (1954), Table 1
+
+
+def _emf(m):
+    constants = debye_hueckel_constants(np.full(m.size, 298.15))
+    return emf_from_gamma(m, np.exp(ln_gamma(HCL, m, constants, TRUTH)), E0_V)
+
+
+@pytest.mark.parametrize("model", ["hueckel", "davies", "pitzer", "limiting"])
+def test_a_single_molality_is_refused_with_what_to_do(tmp_path, model):
+    """Three readings of one 0.01 mol/kg solution (what a QA lab measures): no extrapolation
+    is possible; one clear line, never a singular-matrix traceback."""
+    m = np.full(3, 0.01)
+    run = read_run(write_run(tmp_path, m, _emf(m) + np.array([0.0, 1e-5, -1e-5]),
+                             u_emf_V=1e-5))
+    with pytest.raises(InputError, match=r"one molality \(m = 0.01 mol/kg\).*dilution series"):
+        reduce_run(run, model)
+
+
+def test_two_molalities_hold_what_they_cannot_determine(tmp_path):
+    """Replicates at two molalities determine E° and one more parameter at most: the others
+    are held, each with the reason that names the number of distinct molalities."""
+    m = np.repeat([0.005, 0.05], 4)
+    emf = _emf(m) + np.random.default_rng(1).normal(0.0, 1e-5, m.size)
+    reduction = reduce_run(read_run(write_run(tmp_path, m, emf, u_emf_V=1e-5)), "hueckel")
+    held = {p.name: p.reason for p in reduction.parameters if p.fixed}
+    assert len(held) >= 1
+    assert reduction.linear_extrapolation is None  # a straight line needs three molalities
+    assert abs(reduction.standard_potential.nominal_value - E0_V) <= (
+        3 * reduction.standard_potential.std_dev)
+
+
+def test_a_value_held_with_an_uncertainty_enters_u_e0_as_type_b(tmp_path):
+    m = np.geomspace(0.001, 0.1, 8)
+    emf = _emf(m) + np.random.default_rng(2).normal(0.0, 1e-5, m.size)
+    run = read_run(write_run(tmp_path, m, emf, u_emf_V=1e-5))
+    exact = reduce_run(run, "hueckel", fixed={"a_angstrom": 4.3})
+    uncertain = reduce_run(run, "hueckel", fixed={"a_angstrom": (4.3, 0.2)})
+    assert uncertain.standard_potential.nominal_value == exact.standard_potential.nominal_value
+    assert uncertain.standard_potential.std_dev > exact.standard_potential.std_dev
+    budget = {line.component: line.u_V for line in uncertain.budget}
+    assert budget["held conventional values"] > 0
+    held = {p.name: p.reason for p in uncertain.parameters}
+    assert "u = 0.2 Å (Type B)" in held["a_angstrom"]
+
+
+@pytest.mark.parametrize("value", [float("inf"), 1e308, -5.0])
+def test_a_held_value_outside_its_range_is_refused(tmp_path, value):
+    m = np.geomspace(0.001, 0.1, 8)
+    run = read_run(write_run(tmp_path, m, _emf(m), u_emf_V=1e-5))
+    with pytest.raises(InputError, match="a_angstrom"):
+        reduce_run(run, "hueckel", fixed={"a_angstrom": value})
