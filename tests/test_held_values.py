@@ -72,3 +72,15 @@ def test_a_held_value_outside_its_range_is_refused(tmp_path, value):
     run = read_run(write_run(tmp_path, m, _emf(m), u_emf_V=1e-5))
     with pytest.raises(InputError, match="a_angstrom"):
         reduce_run(run, "hueckel", fixed={"a_angstrom": value})
+
+
+def test_command_line_takes_a_held_value_with_its_uncertainty(tmp_path, capsys):
+    from activolt.cli import main
+
+    m = np.geomspace(0.001, 0.1, 8)
+    path = write_run(tmp_path, m, _emf(m) + np.random.default_rng(3).normal(0, 1e-5, m.size),
+                     u_emf_V=1e-5)
+    assert main(["reduce", str(path), "--fix", "a_angstrom=4.3±0.2", "--figures", "none",
+                 "--out", str(tmp_path / "out")]) == 0
+    report = next((tmp_path / "out").glob("*.report.txt")).read_text(encoding="utf-8")
+    assert "u = 0.2 Å (Type B)" in report

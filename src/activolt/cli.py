@@ -38,15 +38,22 @@ class _Parser(argparse.ArgumentParser):
                          if " " in self.prog else f"{message} (see 'activolt --help')")
 
 
-def _fixed_value(text: str) -> tuple[str, float]:
+def _fixed_value(text: str) -> tuple[str, float | tuple[float, float]]:
+    """NAME=VALUE, or NAME=VALUE±U (also +-, +/-) for a value held with a standard
+    uncertainty."""
     name, sep, value = text.partition("=")
     try:
         if not sep:
             raise ValueError
+        for mark in ("±", "+/-", "+-"):
+            if mark in value:
+                central, _, u = value.partition(mark)
+                return name.strip(), (float(central), float(u))
         return name.strip(), float(value)
     except ValueError:
         raise argparse.ArgumentTypeError(
-            f"'{text}' is not NAME=VALUE, e.g. a_angstrom=4.3") from None
+            f"'{text}' is not NAME=VALUE or NAME=VALUE±U, e.g. a_angstrom=4.3 or "
+            "a_angstrom=4.3±0.2") from None
 
 
 def _slope_value(text: str) -> str | float:
