@@ -84,3 +84,29 @@ def test_command_line_takes_a_held_value_with_its_uncertainty(tmp_path, capsys):
                  "--out", str(tmp_path / "out")]) == 0
     report = next((tmp_path / "out").glob("*.report.txt")).read_text(encoding="utf-8")
     assert "u = 0.2 Å (Type B)" in report
+
+
+def test_monte_carlo_takes_the_run_s_temperature_uncertainty(tmp_path):
+    """Same inputs, same answer: the library's Monte Carlo uses the metadata's u(T) by default,
+    as the command line does (regression of the default)."""
+    from activolt.procedures.montecarlo import monte_carlo
+
+    m = np.geomspace(0.001, 0.1, 8)
+    path = write_run(tmp_path, m, _emf(m), u_emf_V=1e-5)
+    path.with_suffix(".toml").write_text(path.with_suffix(".toml").read_text()
+                                         + "u_temperature_K = 0.5\n")
+    run = read_run(path)
+    reduction = reduce_run(run)
+    default = monte_carlo(run, trials=500, seed=4, reduction=reduction)
+    explicit = monte_carlo(run, trials=500, seed=4, reduction=reduction, temperature_u_K=0.5)
+    assert default.temperature_u_K == 0.5
+    np.testing.assert_array_equal(default.standard_potential_samples,
+                                  explicit.standard_potential_samples)
+
+
+def test_a_reduction_shows_itself_in_one_line(tmp_path):
+    m = np.geomspace(0.001, 0.1, 8)
+    reduction = reduce_run(read_run(write_run(tmp_path, m, _emf(m), u_emf_V=1e-5)))
+    text = repr(reduction)
+    assert "\n" not in text and len(text) < 200
+    assert text.startswith("<Reduction HCl, hueckel, 8 readings: E° = 0.2223")

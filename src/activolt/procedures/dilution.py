@@ -293,6 +293,12 @@ class Reduction:
         """The points table (all rows, flagged ones included)."""
         return self.points.copy()
 
+    def __repr__(self) -> str:
+        e0 = self.standard_potential
+        return (f"<Reduction {self.electrolyte.formula}, {self.model.name}, "
+                f"{self.statistics.n_points} readings: E° = {e0.nominal_value:.6f} ± "
+                f"{e0.std_dev:.1g} V (k = 1), reduced χ² = {self.statistics.reduced_chi2:.3g}>")
+
     def gamma_covariance(self) -> np.ndarray:
         """Covariance of γ± at the usable readings, N × N, built on request (the points table
         holds its diagonal as ``u_gamma_pm``)."""

@@ -204,7 +204,7 @@ def _draw_molality(rng: np.random.Generator, molality: np.ndarray, u: np.ndarray
 
 
 def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | None = None,
-                trials: int = 2000, seed: int = 0, temperature_u_K: float = 0.0, *,
+                trials: int = 2000, seed: int = 0, temperature_u_K: float | None = None, *,
                 reduction: Reduction | None = None, coverage: float = 0.95,
                 progress: bool | None = None) -> MonteCarloResult:
     r"""Propagate the run's input uncertainties to E° and γ± by Monte Carlo (JCGM 101:2008).
@@ -222,8 +222,9 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
         correct to one or two digits — a few thousand give u to a few per cent).
     seed : int
         Seed of the random generator; the same seed gives the same result.
-    temperature_u_K : float
+    temperature_u_K : float, optional
         Standard uncertainty of the run temperature [K]; one draw per trial moves every row.
+        By default the run's own (metadata ``u_temperature_K``), as the reduction used it.
     reduction : Reduction, optional
         The reduction of ``run`` if already done (otherwise it is done here).
     coverage : float
@@ -263,6 +264,8 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
     ``SeedSequence(seed, spawn_key=(k,))``. The same seed and number of trials give the same
     numbers.
     """
+    if temperature_u_K is None:
+        temperature_u_K = run.metadata.u_temperature_K
     if trials < 10:
         raise ValueError("at least 10 trials are needed")
     if not temperature_u_K >= 0.0:
