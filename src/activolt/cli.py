@@ -337,20 +337,14 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
             if reduction is None:
                 lines.append(f"{label}: not reduced — {outcome.failure}")
                 continue
-            report = format_report(reduction)
-            if outcome.comparison is not None:
-                from .report.model_table import format_model_comparison
-
-                report += "\n" + format_model_comparison(outcome.comparison)
             monte = None
             if trials is not None:
                 from .procedures.montecarlo import monte_carlo
-                from .report.text import format_monte_carlo
 
                 monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
                                     temperature_u_K=reduction.run.metadata.u_temperature_K,
                                     progress=False)
-                report += "\n" + format_monte_carlo(monte, reduction)
+            report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte)
             contents[f"{base}.record.json"] = record_json(
                 reduction, comparison=outcome.comparison, monte_carlo=monte, record_folder=out)
             contents[f"{base}.points.csv"] = points_csv(reduction)
