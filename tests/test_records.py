@@ -80,3 +80,20 @@ def test_points_csv_keeps_every_row_with_units_in_names(reduction):
     usable = table[table["gamma_pm"].notna()]
     np.testing.assert_allclose(usable["emf_mV"],
                                reduction.points["emf_V"].dropna().to_numpy() * 1e3)
+
+
+def test_a_record_reads_back_and_round_trips(reduction, tmp_path):
+    """What a lab archives comes back as it was built (regression of the round trip), and a
+    file that is not a record is refused with its reason."""
+    from activolt.errors import InputError
+    from activolt.io.record import load_record, record_json
+
+    text = record_json(reduction)
+    path = tmp_path / "run.record.json"
+    path.write_text(text, encoding="utf-8")
+    assert load_record(path) == json.loads(text)
+    assert load_record(text)["standard_potential_V"]["value"] == pytest.approx(
+        reduction.standard_potential.nominal_value)
+    path.write_text('{"record_schema": "something-else"}', encoding="utf-8")
+    with pytest.raises(InputError, match="not an activolt-record/1 record"):
+        load_record(path)

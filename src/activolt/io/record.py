@@ -17,6 +17,7 @@ from typing import Any
 from .. import __version__
 from ..constants import INTERNATIONAL_VOLT_V
 from ..data.runs import VOLT_UNITS
+from ..errors import InputError
 from ..physics.thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
 from ..procedures.dilution import Reduction
 from ..procedures.model_choice import (
@@ -248,6 +249,39 @@ def record_json(reduction: Reduction, created: datetime | None = None,
     return json.dumps(build_record(reduction, created, comparison, monte_carlo, record_folder),
                       ensure_ascii=False, indent=2, allow_nan=False) + "\n"
 
+
+def load_record(source: str | Path) -> dict[str, Any]:
+    """A record read back from its file (or its JSON text), checked to be an activolt record.
+
+    Parameters
+    ----------
+    source : str or pathlib.Path
+        The record's path, or the JSON text itself.
+
+    Returns
+    -------
+    dict
+        The record as written: ``json.loads`` of :func:`record_json` gives back exactly what
+        :func:`build_record` built (non-finite numbers are null in both).
+
+    Raises
+    ------
+    InputError
+        Not JSON, or JSON that is not an ``activolt-record/1`` record (the first required key
+        missing is named).
+    """
+    text, where = (source.read_text(encoding="utf-8"), str(source)) if isinstance(
+        source, Path) else (source, "record")
+    try:
+        record = json.loads(text)
+    except json.JSONDecodeError as error:
+        raise InputError(f"not JSON: {error.msg}", file=where, line=error.lineno) from None
+    if not isinstance(record, dict) or record.get("record_schema") != RECORD_SCHEMA:
+        raise InputError(f"not an {RECORD_SCHEMA} record", file=where)
+    missing = [key for key in record_schema()["required"] if key not in record]
+    if missing:
+        raise InputError(f"the record lacks '{missing[0]}'", file=where)
+    return record
 
 def _path_from(path: Path, folder: Path | None) -> str:
     """``path`` relative to ``folder`` (forward slashes), or as given without a folder or when
