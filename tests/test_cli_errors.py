@@ -126,11 +126,11 @@ CASES: dict[str, Case] = {
     "zero u_emf": Case(
         csv=table("molality_mol_kg,emf_V,u_emf_V", *good_rows("0.00002")[:2],
                   "0.005,0.498344,0", *good_rows("0.00002")[3:]),
-        line=5, column="u_emf_V", says=(r"must be positive", r"leave the cell empty")),
+        line=5, column="u_emf_V", says=(r"must be positive", r"leave the column out")),
     "negative u_emf": Case(
         csv=table("molality_mol_kg,emf_mV,u_emf_mV", "0.001,579.126,0.02", "0.002,544.211,-0.02",
                   "0.005,498.344,0.02"),
-        line=4, column="u_emf_mV", says=(r"must be positive", r"leave the cell empty")),
+        line=4, column="u_emf_mV", says=(r"must be positive", r"leave the column out")),
     "u_molality not below the molality": Case(
         csv=table("molality_mol_kg,emf_V,u_molality_mol_kg", *good_rows("0.5")), line=3,
         column="u_molality_mol_kg", says=(r"smaller than the molality",)),
@@ -221,13 +221,13 @@ CASES: dict[str, Case] = {
         says=(r"number of electrons is not given", r"add electrons = ")),
     "zero electrons": Case(
         toml='electrolyte = "HCl"\ntemperature_C = 25.0\nelectrons = 0\n', names="toml",
-        line=3, column="electrons", says=(r"whole number ≥ 1",)),
+        line=3, column="electrons", says=(r"whole number from 1 to 8",)),
     "negative electrons": Case(
         toml='electrolyte = "HCl"\nelectrons = -2\ntemperature_C = 25.0\n', names="toml",
-        line=2, column="electrons", says=(r"whole number ≥ 1", r"-2")),
+        line=2, column="electrons", says=(r"whole number from 1 to 8", r"-2")),
     "fractional electrons": Case(
         toml='electrolyte = "HCl"\nelectrons = 1.5\ntemperature_C = 25.0\n', names="toml",
-        line=2, column="electrons", says=(r"whole number ≥ 1",)),
+        line=2, column="electrons", says=(r"whole number from 1 to 8",)),
     "metadata temperature above liquid water": Case(
         toml='electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 150.0\n', names="toml",
         line=3, column="temperature_C", says=(r"outside liquid water", r"check the value")),
@@ -265,7 +265,7 @@ CASES: dict[str, Case] = {
         says=(r"unknown electrolyte 'Hcl'", r"known")),
     "zero electrons on the command line": Case(
         args=("--electrons", "0"), names="command line", column="--electrons",
-        says=(r"whole number ≥ 1",)),
+        says=(r"whole number from 1 to 8",)),
     "command-line temperature outside liquid water": Case(
         args=("--temperature-C", "250"), names="command line", column="--temperature-C",
         says=(r"outside liquid water",)),

@@ -125,9 +125,19 @@ def test_emf_in_volts_and_millivolts_agree(tmp_path):
 
 
 def test_negative_emf_is_accepted(tmp_path):
-    # a cell written the other way round has E < 0; the sign is the user's convention
-    text = "molality_mol_kg,emf_mV\n" + "".join(f"{m},{-e}\n" for m, e in ROWS_MV)
+    # a cell of negative E° has E < 0 and still falls with molality when it forms the
+    # electrolyte (the readings shifted by −1 V: inputs, not check values)
+    text = "molality_mol_kg,emf_mV\n" + "".join(f"{m},{e - 1000}\n" for m, e in ROWS_MV)
     run = read_run(run_files(tmp_path, text))
+    assert run.points["emf_V"].tolist() == pytest.approx([e - 1 for e in expected_emf_V()])
+
+
+def test_negative_emf_of_a_cell_written_the_other_way_round_is_accepted(tmp_path):
+    # the Harned cell written right to left consumes HCl: E = −(E° − k ln m±γ±) < 0
+    text = "molality_mol_kg,emf_mV\n" + "".join(f"{m},{-e}\n" for m, e in ROWS_MV)
+    toml = 'cell = "Ag(s) | AgCl(s) | HCl(aq) | H2(g) | Pt(s)"\ntemperature_C = 25.0\n'
+    run = read_run(run_files(tmp_path, text, toml))
+    assert run.metadata.electrolyte_sign == -1
     assert run.points["emf_V"].tolist() == pytest.approx([-e for e in expected_emf_V()])
 
 
@@ -199,10 +209,18 @@ def test_unknown_column_is_named_in_a_warning(tmp_path):
     assert "ignored" in run.warnings[0]
 
 
-def test_wrong_case_column_gets_a_hint(tmp_path):
-    text = "molality_mol_kg,emf_mV,Note\n" + "".join(f"{m},{e},x\n" for m, e in ROWS_MV)
+def test_documented_columns_are_read_in_any_case(tmp_path):
+    text = "Molality_mol_kg,EMF_mV,Note\n" + "".join(f"{m},{e},x\n" for m, e in ROWS_MV)
     run = read_run(run_files(tmp_path, text))
-    assert any("'Note'" in w and "did you mean 'note'" in w for w in run.warnings), run.warnings
+    assert run.warnings == ()
+    assert run.points["note"].tolist() == ["x"] * len(ROWS_MV)
+    assert run.points["emf_V"].tolist() == pytest.approx(expected_emf_V())
+
+
+def test_misspelt_column_gets_the_nearest_name(tmp_path):
+    text = "molality_mol_kg,emf_mV,notes\n" + "".join(f"{m},{e},x\n" for m, e in ROWS_MV)
+    run = read_run(run_files(tmp_path, text))
+    assert any("'notes'" in w and "did you mean 'note'" in w for w in run.warnings), run.warnings
 
 
 def test_pressure_column_without_a_gas_cell_is_named_in_a_warning(tmp_path):
@@ -329,13 +347,15 @@ STYLES = ("comma", "semicolon", "semicolon-decimal-comma")
 def tables(draw):
     n = draw(st.integers(min_value=1, max_value=12))
     molality = draw(st.lists(st.floats(min_value=1e-4, max_value=20.0), min_size=n, max_size=n))
-    emf_V = draw(st.lists(st.floats(min_value=0.01, max_value=1.5), min_size=n, max_size=n))
-    signs = draw(st.lists(st.sampled_from((1.0, -1.0)), min_size=n, max_size=n))
+    # readings that fall with ln m by 2RT/F as a cell forming HCl must (the reader refuses
+    # tables that rise or stay flat), around a standard potential of either sign
+    e0 = draw(st.floats(min_value=-1.5, max_value=1.5))
+    emf_V = [e0 - 0.0514 * math.log(m) for m in molality]
     temperature_C = draw(st.lists(st.floats(min_value=0.0, max_value=100.0), min_size=n,
                                   max_size=n))
     return {
         "molality": molality,
-        "emf_V": [s * e for s, e in zip(signs, emf_V, strict=True)],
+        "emf_V": emf_V,
         "temperature_C": temperature_C,
         "style": draw(st.sampled_from(STYLES)),
         "millivolts": draw(st.booleans()),

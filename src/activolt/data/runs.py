@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import csv
 import dataclasses
+import difflib
 import hashlib
 import math
 import re
@@ -34,8 +35,24 @@ from ..errors import InputError
 #: Columns the reader understands, each with its unit as written in the name.
 KNOWN_COLUMNS: tuple[str, ...] = (
     "molality_mol_kg", "emf_V", "emf_mV", "u_emf_V", "u_emf_mV", "u_molality_mol_kg",
-    "temperature_C", "temperature_K", "pressure_kPa", "electrode", "series", "note",
+    "temperature_C", "temperature_K", "pressure_kPa", "pressure_hPa", "pressure_mmHg",
+    "electrode", "series", "note",
 )
+#: Barometric-pressure columns and the factor of their unit to pascals [Pa per unit]; the
+#: conventional millimetre of mercury is 133.322387415 Pa (NIST SP 811, 2008, B.8).
+PRESSURE_COLUMNS: dict[str, float] = {"pressure_kPa": 1e3, "pressure_hPa": 1e2,
+                                      "pressure_mmHg": 133.322387415}
+#: The largest run table read [bytes] and the most data rows taken; a dilution series is a
+#: few kilobytes and tens of rows, and nothing larger is read into memory.
+MAX_TABLE_BYTES: int = 32 * 1024 * 1024
+MAX_ROWS: int = 200_000
+#: The largest metadata file read [bytes].
+MAX_METADATA_BYTES: int = 1024 * 1024
+#: Plausible ranges of the inputs: molality [mol/kg] (below 1e-7 mol/kg the ions of water
+#: itself compete), |EMF| [V], electrons per formula unit, u(EMF) [V].
+MOLALITY_RANGE_MOL_KG: tuple[float, float] = (1e-7, 30.0)
+ELECTRONS_RANGE: tuple[int, int] = (1, 8)
+U_EMF_RANGE_V: tuple[float, float] = (1e-9, 0.1)
 #: Columns read now but whose values the reduction does not use yet (named in a warning).
 NOT_YET_USED_COLUMNS: tuple[str, ...] = ()
 #: Metadata keys the reader understands.
@@ -48,10 +65,19 @@ KNOWN_METADATA_KEYS: tuple[str, ...] = (
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
                        "notes")
 _LIQUID_WATER_C = (0.0, 100.0)
-_LARGEST_MOLALITY_MOL_KG = 30.0
+_LARGEST_MOLALITY_MOL_KG = MOLALITY_RANGE_MOL_KG[1]
 _LARGEST_EMF_V = 5.0
 _PRESSURE_RANGE_KPA = (50.0, 150.0)
-_MISSING = {"", "nan", "na", "n/a", "-"}
+#: Cells read as missing (lower case); every spelling of NaN (nan, -nan, +nan, NaN) is too.
+_MISSING = {"", "nan", "-nan", "+nan", "na", "n/a", "#n/a", "-"}
+#: A plain decimal number (ASCII digits only: no digit-group underscores, no other scripts).
+_PLAIN_NUMBER = re.compile(r"[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?")
+#: Line ends: LF, CRLF and CR only (the csv module's own), never the other Unicode breaks.
+_LINE_END = re.compile(r"\r\n|\r|\n")
+#: Separators recognised in the header, with the names used in messages.
+_SEPARATORS = {",": "comma", ";": "semicolon", "\t": "tab"}
+#: Column names that look like a pressure but are none activolt reads.
+_PRESSURE_LIKE = re.compile(r"press|baro|^p_?(bar|atm)", re.IGNORECASE)
 #: Volts the EMF column may be written in, with the factor to absolute volts [V per unit].
 VOLT_UNITS: dict[str, float] = {"absolute": 1.0, "international": INTERNATIONAL_VOLT_V}
 
@@ -163,84 +189,154 @@ def _decode(path: Path, raw: bytes) -> str:
         ) from None
 
 
+def _read_bounded(path: Path, limit: int, what: str) -> bytes:
+    """At most ``limit`` bytes of ``path``; a larger file (or endless input) is refused."""
+    try:
+        with open(path, "rb") as handle:
+            raw = handle.read(limit + 1)
+    except OSError as error:
+        raise InputError(f"cannot read the {what} ({error.strerror}); check the path",
+                         file=str(path)) from None
+    if len(raw) > limit:
+        raise InputError(f"the {what} is larger than {limit // (1024 * 1024)} MB, more than "
+                         "activolt reads (a dilution series is a few kilobytes); check that "
+                         "this is the right file, or split it", file=str(path))
+    return raw
+
+
+def _is_missing(text: str) -> bool:
+    """Whether a cell is empty or says 'not available' (every spelling of NaN included)."""
+    return text.strip().lower() in _MISSING
+
+
 def _number(text: str, decimal_comma: bool, path: Path, line: int, column: str) -> float:
     cleaned = text.strip()
     if decimal_comma:
         cleaned = cleaned.replace(",", ".")
-    try:
-        value = float(cleaned)
-    except ValueError:
+    if cleaned.lstrip("+-").lower() in ("inf", "infinity"):
+        raise InputError(f"'{cleaned}' is not a finite number", file=str(path), line=line,
+                         column=column)
+    if not _PLAIN_NUMBER.fullmatch(cleaned):
         raise InputError(
             f"'{text.strip()}' is not a number; write a plain decimal number"
             + (" (decimal comma or point)" if decimal_comma else " with a decimal point"),
             file=str(path), line=line, column=column,
-        ) from None
+        )
+    value = float(cleaned)
     if math.isinf(value):
-        raise InputError(f"'{text.strip()}' is not a finite number", file=str(path), line=line,
-                         column=column)
+        raise InputError(f"'{text.strip()}' is not a finite number (too large)",
+                         file=str(path), line=line, column=column)
     return value
 
 
-def _rows(path: Path, text: str) -> tuple[int, list[str], list[tuple[int, list[str]]], bool]:
-    """Header line number, column names, data rows with their line numbers, decimal comma."""
-    numbered = [(i + 1, line) for i, line in enumerate(text.splitlines())]
+def _rows(path: Path, text: str
+          ) -> tuple[int, list[str], list[tuple[int, list[str]]], str]:
+    """Header line number, column names, data rows with their line numbers, the separator."""
+    # LF, CRLF and CR end a line; form feeds, U+2028 and the like inside a field do not
+    numbered = enumerate(_LINE_END.split(text), start=1)
     content = [(n, line) for n, line in numbered
                if line.strip() and not line.lstrip().startswith("#")]
     if not content:
         raise InputError("the run table is empty; it needs a header line and one row per "
                          "solution", file=str(path))
+    if len(content) > MAX_ROWS + 1:
+        raise InputError(f"the run table has {len(content) - 1} rows, more than the {MAX_ROWS}"
+                         " activolt reads; split it into series files", file=str(path),
+                         line=content[MAX_ROWS + 1][0])
     header_line, header = content[0]
-    separator = ";" if header.count(";") > header.count(",") else ","
+    counts = {sep: header.count(sep) for sep in _SEPARATORS}
+    separator = max(_SEPARATORS, key=lambda sep: (counts[sep], sep == ","))
     parsed: list[tuple[int, list[str]]] = []
     for n, line in content:  # one line at a time: a stray quote must not swallow the next rows
         try:
             parsed.append((n, next(csv.reader([line], delimiter=separator, strict=True))))
-        except csv.Error:
+        except csv.Error as error:
+            if "field larger than field limit" in str(error):
+                longest = max(len(part) for part in line.split(separator))
+                raise InputError(f"a field is too long ({longest} characters; at most "
+                                 f"{csv.field_size_limit()}); check the row", file=str(path),
+                                 line=n) from None
             raise InputError('a quote (") is not closed or is followed by text; quote whole '
                              "fields only, or remove the quote", file=str(path), line=n) from None
     names = [name.strip() for name in parsed[0][1]]
-    return header_line, names, parsed[1:], separator == ";"
+    while len(names) > 1 and names[-1] == "":  # empty trailing columns (a spreadsheet's ;;)
+        names.pop()
+    rows = []
+    for n, fields in parsed[1:]:
+        if len(fields) > len(names) and not any(f.strip() for f in fields[len(names):]):
+            fields = fields[: len(names)]
+        rows.append((n, fields))
+    return header_line, names, rows, separator
 
 
-def _check_columns(path: Path, header_line: int, names: list[str]) -> list[str]:
+def _columns_found(names: list[str], separator: str) -> str:
+    shown = ", ".join(f"'{name}'" for name in names[:12]) + (", …" if len(names) > 12 else "")
+    return f"with {_SEPARATORS[separator]} as separator the header has {shown}"
+
+
+def _nearest(name: str, candidates: tuple[str, ...] | list[str]) -> str | None:
+    lowered = {c.lower(): c for c in candidates}
+    match = difflib.get_close_matches(name.lower(), list(lowered), n=1, cutoff=0.6)
+    return lowered[match[0]] if match else None
+
+
+def _check_columns(path: Path, header_line: int, names: list[str],
+                   separator: str = ",") -> list[str]:
     warnings: list[str] = []
     seen: set[str] = set()
     for name in names:
         if name == "":
-            raise InputError("a column has no name; name every column in the header",
+            raise InputError("a column has no name; name every column in the header ("
+                             + _columns_found(names, separator) + ")",
                              file=str(path), line=header_line)
         if name in seen:
             raise InputError("the column appears twice; keep one of them", file=str(path),
                              line=header_line, column=name)
         seen.add(name)
+    unknown = [name for name in names if name not in KNOWN_COLUMNS]
+    for name in unknown:
+        nearest = _nearest(name, KNOWN_COLUMNS)
+        hint = f" (did you mean '{nearest}'?)" if nearest else ""
+        warnings.append(f"column '{name}' is not one activolt reads; it is ignored{hint}")
     for name in names:
-        if name not in KNOWN_COLUMNS:
-            lowered = {k.lower(): k for k in KNOWN_COLUMNS}
-            hint = f" (did you mean '{lowered[name.lower()]}'?)" if name.lower() in lowered else ""
-            warnings.append(f"column '{name}' is not one activolt reads; it is ignored{hint}")
-        elif name in NOT_YET_USED_COLUMNS:
+        if name in NOT_YET_USED_COLUMNS:
             warnings.append(
                 f"column '{name}' is read and kept in the points table but not used in the "
                 "reduction yet (no gas-pressure correction is applied)"
             )
+
+    def missing(what: str, wanted: tuple[str, ...]) -> InputError:
+        nearest = next((n for n in unknown if _nearest(n, wanted)), None)
+        hint = (f"; is '{nearest}' meant to be '{_nearest(nearest, wanted)}'?"
+                if nearest else "")
+        return InputError(f"{what}{hint} ({_columns_found(names, separator)})",
+                          file=str(path), line=header_line)
+
     if "molality_mol_kg" not in seen:
-        raise InputError("the column 'molality_mol_kg' is missing; add it (molality in mol/kg)",
-                         file=str(path), line=header_line)
+        raise missing("the column 'molality_mol_kg' is missing; add it (molality in mol/kg)",
+                      ("molality_mol_kg",))
     for group, what in ((("emf_V", "emf_mV"), "the EMF"), (("u_emf_V", "u_emf_mV"), "u(EMF)"),
-                        (("temperature_C", "temperature_K"), "the temperature")):
+                        (("temperature_C", "temperature_K"), "the temperature"),
+                        (tuple(PRESSURE_COLUMNS), "the barometric pressure")):
         present = [g for g in group if g in seen]
         if len(present) > 1:
             raise InputError(f"both '{present[0]}' and '{present[1]}' give {what}; keep one",
                              file=str(path), line=header_line, column=present[1])
     if "emf_V" not in seen and "emf_mV" not in seen:
-        raise InputError("no EMF column; add 'emf_V' (volts) or 'emf_mV' (millivolts)",
-                         file=str(path), line=header_line)
+        raise missing("no EMF column; add 'emf_V' (volts) or 'emf_mV' (millivolts)",
+                      ("emf_V", "emf_mV"))
     return warnings
 
 
 def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
-    header_line, names, rows, decimal_comma = _rows(path, text)
-    warnings = _check_columns(path, header_line, names)
+    """The rows as points, and warnings; ``points.attrs`` keeps ``emf_column`` (as written in
+    the header) and ``pressure_like`` (columns that look like a barometric pressure in a unit
+    activolt does not read) for the checks that need the metadata."""
+    header_line, names, rows, separator = _rows(path, text)
+    decimal_comma = separator != ","
+    canonical = {k.lower(): k for k in KNOWN_COLUMNS}  # documented names in any case
+    names = [canonical.get(name.lower(), name) for name in names]
+    warnings = _check_columns(path, header_line, names, separator)
     if not rows:
         raise InputError("the run table has a header but no readings", file=str(path),
                          line=header_line)
@@ -249,6 +345,9 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
     u_emf_column = next((c for c in ("u_emf_V", "u_emf_mV") if c in names), None)
     u_emf_scale = 1.0 if u_emf_column == "u_emf_V" else 1e-3
     temperature_column = next((c for c in ("temperature_C", "temperature_K") if c in names), None)
+    pressure_column = next((c for c in PRESSURE_COLUMNS if c in names), None)
+    low_m, high_m = MOLALITY_RANGE_MOL_KG
+    low_u, high_u = U_EMF_RANGE_V
 
     records: list[dict[str, Any]] = []
     for line, fields in rows:
@@ -257,7 +356,8 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
                 f"the row has {len(fields)} fields but the header names {len(names)} columns; "
                 "check for a missing or extra separator"
                 + (" (with ';' as separator, write decimal commas without quotes)"
-                   if decimal_comma else " (a decimal comma needs ';' as separator)"),
+                   if separator == ";" else " (a decimal comma needs ';' as separator)"
+                   if separator == "," else ""),
                 file=str(path), line=line,
             )
         cells = dict(zip(names, fields, strict=True))
@@ -266,7 +366,7 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
             return _number(cells[column], decimal_comma, path, line, column)
 
         def is_missing(column: str, cells: dict[str, str] = cells) -> bool:
-            return cells[column].strip().lower() in _MISSING
+            return _is_missing(cells[column])
 
         record: dict[str, Any] = {"line": line, "flag": None}
         if is_missing("molality_mol_kg"):
@@ -277,9 +377,13 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
             raise InputError(f"molality {molality:g} mol/kg is not positive; a dilution series "
                              "needs molalities > 0", file=str(path), line=line,
                              column="molality_mol_kg")
-        if molality > _LARGEST_MOLALITY_MOL_KG:
+        if molality > high_m:
             raise InputError(f"molality {molality:g} mol/kg is implausibly large (> "
-                             f"{_LARGEST_MOLALITY_MOL_KG:g}); check the unit (mol/kg)",
+                             f"{high_m:g}); check the unit (mol/kg)",
+                             file=str(path), line=line, column="molality_mol_kg")
+        if molality < low_m:
+            raise InputError(f"molality {molality:g} mol/kg is implausibly small (< {low_m:g}, "
+                             "where the ions of water itself compete); check the unit (mol/kg)",
                              file=str(path), line=line, column="molality_mol_kg")
         record["molality_mol_kg"] = molality
 
@@ -288,20 +392,25 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
             record["flag"] = "no reading"
         else:
             emf = number(emf_column) * emf_scale
-            if abs(emf) > _LARGEST_EMF_V:
+            if abs(emf) >= _LARGEST_EMF_V:
                 hint = ("it looks like millivolts in a volt column; name the column 'emf_mV'"
                         if emf_column == "emf_V" else "check the unit of the column")
-                raise InputError(f"EMF {emf:g} V is implausible for a cell (> {_LARGEST_EMF_V:g}"
-                                 f" V); {hint}", file=str(path), line=line, column=emf_column)
+                raise InputError(f"EMF {emf:g} V is implausible for a cell (|EMF| ≥ "
+                                 f"{_LARGEST_EMF_V:g} V); {hint}", file=str(path), line=line,
+                                 column=emf_column)
             record["emf_V"] = emf
 
         u_emf = math.nan
         if u_emf_column is not None and not is_missing(u_emf_column):
             u_emf = number(u_emf_column) * u_emf_scale
             if u_emf <= 0.0:
-                raise InputError("a standard uncertainty must be positive; leave the cell empty "
+                raise InputError("a standard uncertainty must be positive; leave the column out "
                                  "if it is not known", file=str(path), line=line,
                                  column=u_emf_column)
+            if not low_u <= u_emf <= high_u:
+                raise InputError(f"u(EMF) {u_emf:g} V is implausible (expected {low_u:g} to "
+                                 f"{high_u:g} V); check the unit of the column",
+                                 file=str(path), line=line, column=u_emf_column)
         record["u_emf_V"] = u_emf
 
         u_molality = 0.0
@@ -315,18 +424,23 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
         temperature_K = math.nan
         if temperature_column is not None and not is_missing(temperature_column):
             value = number(temperature_column)
-            temperature_K = value + ZERO_CELSIUS_K if temperature_column.endswith("C") else value
-            _check_temperature(temperature_K, path, line, temperature_column)
+            temperature_K = _check_temperature(
+                _kelvin(value) if temperature_column.endswith("C") else value,
+                path, line, temperature_column)
         record["temperature_K"] = temperature_K
 
         pressure_Pa = math.nan
-        if "pressure_kPa" in cells and not is_missing("pressure_kPa"):
-            pressure_kPa = number("pressure_kPa")
+        if pressure_column is not None and not is_missing(pressure_column):
+            value = number(pressure_column)
+            pressure_kPa = value * PRESSURE_COLUMNS[pressure_column] / 1e3
+            unit = pressure_column.removeprefix("pressure_")
             low, high = _PRESSURE_RANGE_KPA
             if not low <= pressure_kPa <= high:
-                raise InputError(f"barometric pressure {pressure_kPa:g} kPa is implausible "
-                                 f"(expected {low:g}–{high:g} kPa); check the unit (kPa)",
-                                 file=str(path), line=line, column="pressure_kPa")
+                given = f"{value:g} {unit}" + (f" ({pressure_kPa:.4g} kPa)" if unit != "kPa"
+                                               else "")
+                raise InputError(f"barometric pressure {given} is implausible "
+                                 f"(expected {low:g}–{high:g} kPa); check the unit ({unit})",
+                                 file=str(path), line=line, column=pressure_column)
             pressure_Pa = pressure_kPa * 1e3
         record["pressure_Pa"] = pressure_Pa
         for text_column in ("electrode", "series", "note"):
@@ -340,19 +454,46 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
             raise InputError("every reading is below 5 mV in magnitude; if the values are "
                              "volts, name the column 'emf_V'", file=str(path),
                              line=header_line, column="emf_mV")
+    if u_emf_column is not None:
+        read = points["emf_V"].notna()
+        stated = points["u_emf_V"].notna()
+        if (read & stated).any() and not stated[read].all():
+            first = int(points.loc[read & ~stated, "line"].iloc[0])
+            raise InputError("u(EMF) is empty here but given on other rows; give it for every "
+                             "reading, or leave the column out (the fit then takes the scatter "
+                             "from the residuals)", file=str(path), line=first,
+                             column=u_emf_column)
+        if not stated.any():
+            warnings.append(f"column '{u_emf_column}' is empty; the fit takes the scatter of "
+                            "the readings from the residuals")
+    points.attrs["emf_column"] = emf_column
+    points.attrs["pressure_column"] = pressure_column
+    points.attrs["header_line"] = header_line
+    points.attrs["pressure_like"] = tuple(n for n in names if n not in KNOWN_COLUMNS
+                                          and _PRESSURE_LIKE.search(n))
     return points, warnings
 
 
-def _check_temperature(temperature_K: float, path: Path, line: int | None, column: str) -> None:
+def _kelvin(temperature_C: float) -> float:
+    """°C → K, rounded to 1e-9 K so that 0 °C and 100 °C are exactly 273.15 K and 373.15 K."""
+    return round(temperature_C + ZERO_CELSIUS_K, 9)
+
+
+def _check_temperature(temperature_K: float, path: Path, line: int | None,
+                       column: str) -> float:
+    """The temperature if it lies in liquid water (values within 1e-9 K of an end are moved
+    onto it); an InputError otherwise."""
     low, high = _LIQUID_WATER_C
     # both ends included, as in activolt.physics.water (0 °C, the ice point, is a classic run
     # temperature)
-    if not low - 1e-9 <= temperature_K - ZERO_CELSIUS_K <= high + 1e-9:
+    celsius = temperature_K - ZERO_CELSIUS_K
+    if not low - 1e-9 <= celsius <= high + 1e-9:
         raise InputError(
-            f"temperature {temperature_K - ZERO_CELSIUS_K:.2f} °C is outside liquid water "
+            f"temperature {celsius:.2f} °C is outside liquid water "
             f"({low:g}–{high:g} °C); check the value and its unit (°C or K)",
             file=str(path), line=line, column=column,
         )
+    return min(max(temperature_K, low + ZERO_CELSIUS_K), high + ZERO_CELSIUS_K)
 
 
 def _key_line(text: str, key: str) -> int | None:
@@ -361,11 +502,7 @@ def _key_line(text: str, key: str) -> int | None:
 
 
 def _read_metadata_text(path: Path) -> tuple[dict[str, Any], str]:
-    try:
-        text = _decode(path, path.read_bytes())
-    except OSError as error:
-        raise InputError(f"cannot read the metadata file ({error.strerror}); check the path",
-                         file=str(path)) from None
+    text = _decode(path, _read_bounded(path, MAX_METADATA_BYTES, "metadata file"))
     try:
         return tomllib.loads(text), text
     except tomllib.TOMLDecodeError as error:
@@ -386,7 +523,9 @@ def _metadata(
     warnings: list[str] = []
     for key in meta:
         if key not in KNOWN_METADATA_KEYS:
-            warnings.append(f"{where}: key '{key}' is not one activolt reads; it is ignored")
+            nearest = _nearest(key, KNOWN_METADATA_KEYS)
+            warnings.append(f"{where}: key '{key}' is not one activolt reads; it is ignored"
+                            + (f" (did you mean '{nearest}'?)" if nearest else ""))
     given = {k: v for k, v in overrides.items() if v is not None}
     # a temperature given on the command line replaces the file's, whichever its unit
     temperature_keys = {"temperature_C", "temperature_K"}
@@ -406,18 +545,26 @@ def _metadata(
         stoichiometry = _cell_stoichiometry(cell, fail)
     electrolyte = _electrolyte(merged, stoichiometry, where, fail)
     electrons = _electrons(merged, stoichiometry, where, fail)
+    if stoichiometry is not None and stoichiometry.gas_coefficients:
+        for key in meta:
+            if key not in KNOWN_METADATA_KEYS and _PRESSURE_LIKE.search(key):
+                raise InputError(f"'{key}' is not a key activolt reads, and the cell holds a gas "
+                                 "whose pressure corrects every reading; give the barometric "
+                                 "pressure as pressure_kPa (in kilopascals)", file=where,
+                                 line=_key_line(text, key), column=key)
 
     temperature_K = None
     if "temperature_C" in merged and "temperature_K" in merged:
         raise fail("temperature_K", "give temperature_C or temperature_K, not both")
-    for key, offset in (("temperature_C", ZERO_CELSIUS_K), ("temperature_K", 0.0)):
+    for key in ("temperature_C", "temperature_K"):
         if key in merged:
             value = merged[key]
             if isinstance(value, bool) or not isinstance(value, int | float):
                 raise fail(key, f"{key} must be a number, got {value!r}")
-            temperature_K = float(value) + offset
             try:
-                _check_temperature(temperature_K, Path(where), None, key)
+                temperature_K = _check_temperature(
+                    _kelvin(float(value)) if key == "temperature_C" else float(value),
+                    Path(where), None, key)
             except InputError as error:
                 raise fail(key, error.problem) from None
 
@@ -540,13 +687,180 @@ def _electrons(merged: Mapping[str, Any], stoichiometry: Any, where: str, fail: 
         raise InputError("the number of electrons is not given; add electrons = 1 (for example) "
                          "to the metadata or give --electrons", file=where)
     electrons = merged["electrons"]
-    if isinstance(electrons, bool) or not isinstance(electrons, int) or electrons < 1:
-        raise fail("electrons", f"electrons must be a whole number ≥ 1 (n per formula unit), "
-                                f"got {electrons!r}")
+    low, high = ELECTRONS_RANGE
+    if isinstance(electrons, bool) or not isinstance(electrons, int) or not (
+            low <= electrons <= high):
+        raise fail("electrons", f"electrons must be a whole number from {low} to {high} (n per "
+                                f"formula unit of electrolyte), got {electrons!r}")
     if from_cell is not None and electrons != from_cell:
         raise fail("electrons", f"the cell diagram gives n = {from_cell}, not {electrons}; "
                                 "remove one of the two")
     return electrons
+
+
+#: The polarity check: a reading is refused when it and the catalogue's estimate have opposite
+#: signs and both exceed this margin [V] (γ± = 1 at I ≤ 0.1 mol/kg leaves out < 0.05 V for
+#: charge types up to 2:2 and 3:1 by the Debye–Hückel limiting law; common practice).
+_POLARITY_MARGIN_V = 0.05
+#: |dE°/dT| allowed for when the catalogue holds E° at 25 °C only [V/K] (common practice:
+#: couples of the catalogue lie within about 1.5 mV/K).
+_UNKNOWN_DE0_DT_V_K = 1.5e-3
+#: The slope checks: the fitted d E / d ln m± must point the Nernst way, and be at least this
+#: fraction of the Nernst slope (d ln(m± γ±)/d ln m stays above about 0.3 for the charge types
+#: the models cover; common practice).
+_SLOPE_FRACTION = 0.1
+#: The least gas partial pressure at a gas electrode [Pa]: below 1 kPa (1 % of p°) the pressure
+#: correction is dominated by p_w(T) and the electrode hardly works.
+_LEAST_GAS_PRESSURE_PA = 1e3
+_WATER_DENSITY_KG_M3 = 997.0
+_STANDARD_GRAVITY_M_S2 = 9.80665
+
+
+def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata) -> list[str]:
+    """Checks of one series against physics once its temperatures are known: pressure columns
+    of a gas cell, the gas partial pressure, the direction and size of the EMF's change with
+    molality and its sign against the cell diagram. InputError on the first problem."""
+    emf_column = points.attrs.get("emf_column", "emf_V")
+    like = points.attrs.get("pressure_like", ())
+    if like and metadata.gas_coefficients:
+        raise InputError(
+            f"the column looks like a barometric pressure, but activolt reads "
+            f"{', '.join(PRESSURE_COLUMNS)}; the cell holds a gas whose pressure corrects every "
+            "reading — name the column with its unit", file=str(path),
+            line=points.attrs.get("header_line"), column=like[0])
+    usable = points[points["flag"].isna()]
+    if usable.empty or usable["temperature_K"].isna().any():
+        return []
+    gas_term = _check_gas_pressure(path, usable, metadata)
+    _check_response(path, usable, metadata, emf_column, gas_term)
+    return []
+
+
+def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata) -> np.ndarray:
+    """−(RT/nF) Σ ν_g ln(p_g/p°) per reading [V] (0 without pressures); an InputError where
+    water vapour leaves (almost) no room for the gas."""
+    zero = np.zeros(len(usable))
+    if not metadata.gas_coefficients:
+        return zero
+    from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
+    from ..physics.corrections import water_vapour_pressure
+
+    fallback = math.nan if metadata.barometric_pressure_Pa is None else (
+        metadata.barometric_pressure_Pa)
+    barometric = usable["pressure_Pa"].fillna(fallback).to_numpy(float)
+    temperature = usable["temperature_K"].to_numpy(float)
+    vapour = water_vapour_pressure(temperature)
+    gas = (barometric + _WATER_DENSITY_KG_M3 * _STANDARD_GRAVITY_M_S2 * metadata.bubbler_depth_m
+           - vapour)
+    low = np.isfinite(gas) & (gas < _LEAST_GAS_PRESSURE_PA)
+    if low.any():
+        i = int(np.flatnonzero(low)[0])
+        row = usable.iloc[i]
+        names = " and ".join(g.removesuffix("(g)") for g in metadata.gas_coefficients)
+        in_row = bool(pd.notna(row["pressure_Pa"]))
+        raise InputError(
+            f"at {temperature[i] - ZERO_CELSIUS_K:.2f} °C water vapour ({vapour[i] / 1e3:.1f} kPa)"
+            f" leaves no room for {names} at the barometric pressure {barometric[i] / 1e3:.1f} kPa"
+            f" (p_bar − p_w = {gas[i] / 1e3:.1f} kPa, less than "
+            f"{_LEAST_GAS_PRESSURE_PA / 1e3:g} kPa): the gas electrode cannot work at this "
+            "temperature and pressure — check the temperature and the pressure and its unit",
+            file=str(path), line=int(row["line"]),
+            column=usable.attrs.get("pressure_column") if in_row else None)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ln_ratio = np.log(gas / metadata.standard_pressure_Pa)
+    per_volt = GAS_CONSTANT_J_MOL_K * temperature / (metadata.electrons * FARADAY_C_MOL)
+    term = -per_volt * sum(ln_ratio * nu for nu in metadata.gas_coefficients.values())
+    return np.where(np.isfinite(term), term, 0.0)
+
+
+def _check_response(path: Path, usable: pd.DataFrame, metadata: RunMetadata, emf_column: str,
+                    gas_term: np.ndarray) -> None:
+    """The EMF must change with ln m± the Nernst way (sign σ, size about s νRT/nF), and where
+    the cell diagram gives a catalogue E°, readings must have the sign it predicts."""
+    from ..chemistry.electrolytes import nernst_factor
+
+    electrolyte = metadata.electrolyte
+    molality = usable["molality_mol_kg"].to_numpy(float)
+    emf = usable["emf_V"].to_numpy(float)
+    temperature = usable["temperature_K"].to_numpy(float)
+    sign = 1 if metadata.electrolyte_sign > 0 else -1
+    slope = 1.0 if metadata.fit_slope_factor else metadata.slope_factor
+    response = slope * np.asarray(nernst_factor(electrolyte, metadata.electrons, temperature),
+                                  dtype=float)
+    x = np.log(electrolyte.mean_molality(molality))
+    lines = usable["line"].to_numpy(int)
+    where = f"lines {lines.min()}–{lines.max()}" if len(lines) > 1 else f"line {lines[0]}"
+    verb = "forms" if sign > 0 else "consumes"
+    no_cell = ("" if metadata.cell else "; without a cell diagram activolt takes the cell to "
+               "form the electrolyte — give cell = \"…\" if it consumes it")
+    if metadata.cell is not None and not metadata.fit_slope_factor:
+        _check_polarity(path, usable, metadata, emf_column, gas_term, response, x)
+    if len(x) >= 3 and np.ptp(x) > 0:
+        centred = x - x.mean()
+        spread = float(centred @ centred)
+        b = float(centred @ (emf - emf.mean())) / spread
+        residual = emf - emf.mean() - b * centred
+        se = math.sqrt(float(residual @ residual) / (len(x) - 2) / spread)
+        nernst = float(np.mean(response))
+        if sign * b > 3.0 * se and sign * b > _SLOPE_FRACTION * nernst:
+            raise InputError(
+                f"the EMF {'rises' if b > 0 else 'falls'} with molality ({b * 1e3:+.1f} mV per "
+                f"unit of ln m±, {where}), but a cell that {verb} {electrolyte.formula} gives "
+                f"an EMF that {'falls' if sign > 0 else 'rises'} by about {nernst * 1e3:.1f} mV "
+                "per unit (the Nernst slope νRT/nF); check the polarity of the leads and the "
+                f"cell diagram{no_cell}", file=str(path), column=emf_column)
+        if nernst * np.ptp(x) >= 5e-3 and abs(b) + 3.0 * se < _SLOPE_FRACTION * nernst:
+            raise InputError(
+                f"the EMF hardly changes with molality ({b * 1e3:+.2f} ± {se * 1e3:.2f} mV per "
+                f"unit of ln m±, {where}) where the Nernst equation gives about "
+                f"{-sign * nernst * 1e3:+.1f} mV: from {molality.max():g} to "
+                f"{molality.min():g} mol/kg it should change by about "
+                f"{nernst * np.ptp(x) * 1e3:.0f} mV; check that the column holds the readings",
+                file=str(path), column=emf_column)
+
+
+def _check_polarity(path: Path, usable: pd.DataFrame, metadata: RunMetadata, emf_column: str,
+                    gas_term: np.ndarray, response: np.ndarray, x: np.ndarray) -> None:
+    """Readings at I ≤ 0.1 mol/kg (and the most dilute) must have the sign that the catalogue
+    E° and the Nernst term give, within a margin for what the estimate leaves out."""
+    from ..chemistry.cells import cell_summary
+
+    assert metadata.cell is not None
+    electrolyte = metadata.electrolyte
+    molality = usable["molality_mol_kg"].to_numpy(float)
+    emf = usable["emf_V"].to_numpy(float)
+    temperature = usable["temperature_K"].to_numpy(float)
+    lines = usable["line"].to_numpy(int)
+    sign = 1 if metadata.electrolyte_sign > 0 else -1
+
+    dilute = int(np.argmin(molality))
+    reference_K = float(temperature[dilute])
+    try:
+        summary = cell_summary(metadata.cell, reference_K)
+    except ValueError:  # the check is skipped; the reduction says what is wrong
+        return
+    standard = summary.get("standard_potential_V")
+    if standard is None:
+        return
+    margin = (_POLARITY_MARGIN_V + 2.0 * float(standard["uncertainty"])
+              + _UNKNOWN_DE0_DT_V_K * np.abs(temperature - reference_K))
+    if any("used unchanged" in w for w in summary.get("warnings", ())):
+        margin = margin + _UNKNOWN_DE0_DT_V_K * abs(reference_K - 298.15)
+    ionic = electrolyte.ionic_strength(molality)
+    margin = margin + np.where(ionic > 0.1, 3.0 * response, 0.0)  # |ln γ±| ≤ 3 beyond
+    expected = float(standard["value"]) - sign * response * x + gas_term
+    candidates = (ionic <= 0.1) | (np.arange(len(x)) == dilute)
+    opposite = (candidates & (emf * expected < 0) & (np.abs(emf) > margin)
+                & (np.abs(expected) > margin))
+    if opposite.any():
+        i = int(np.flatnonzero(opposite)[0])
+        raise InputError(
+            f"EMF {emf[i]:+.4f} V has the opposite sign to the cell's: '{metadata.cell}' gives "
+            f"about {expected[i]:+.3f} V at {molality[i]:g} mol/kg (E° = "
+            f"{float(standard['value']):+.4f} V from the electrode catalogue, and the Nernst "
+            "term); check the polarity of the leads (the right-hand electrode of the diagram is "
+            "the positive terminal when E > 0), or write the diagram the other way round",
+            file=str(path), line=int(lines[i]), column=emf_column)
 
 
 def _read_table_and_metadata(
@@ -554,11 +868,7 @@ def _read_table_and_metadata(
 ) -> tuple[str, Path | None, pd.DataFrame, RunMetadata, list[str]]:
     """The whole table parsed once, and its metadata: (sha256, metadata path, points, metadata,
     warnings); the points of every series, before any series is taken."""
-    try:
-        raw = path.read_bytes()
-    except OSError as error:
-        raise InputError(f"cannot read the run table ({error.strerror}); check the path",
-                         file=str(path)) from None
+    raw = _read_bounded(path, MAX_TABLE_BYTES, "run table")
     points, warnings = _read_table(path, _decode(path, raw))
 
     if metadata_path is None and path.with_suffix(".toml").is_file():
@@ -566,13 +876,15 @@ def _read_table_and_metadata(
     if metadata_path is not None:
         metadata_path = Path(metadata_path)
         meta, text = _read_metadata_text(metadata_path)
-    elif {"electrolyte", "electrons"} <= {k for k, v in overrides.items() if v is not None}:
+    elif ({"electrolyte", "electrons"} <= (given := {k for k, v in overrides.items()
+                                                   if v is not None}) or "cell" in given):
         meta, text = {}, ""
     else:
         raise InputError(
-            f"no metadata: write {path.with_suffix('.toml').name} next to the table (electrolyte,"
-            " electrons, temperature_C), or give --meta FILE, or --electrolyte and --electrons",
-            file=str(path),
+            f"no metadata: write {path.with_suffix('.toml').name} next to the table (cell, or "
+            "electrolyte and electrons; and temperature_C), or give --meta FILE, or give the "
+            "cell on the command line: --cell DIAGRAM, or --electrolyte and --electrons (with "
+            "--temperature-C when the table has no temperature column)", file=str(path),
         )
     metadata, meta_warnings = _metadata(meta, text, metadata_path, overrides)
     warnings.extend(meta_warnings)
@@ -616,6 +928,7 @@ def _series_run(path: Path, sha256: str, metadata_path: Path | None, points: pd.
             raise InputError("no temperature for this row; add temperature_C to the metadata or "
                              "a temperature_C column", file=str(path), line=line)
         points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
+    warnings.extend(_check_series(path, points, metadata))
 
     missing = points.loc[points["flag"].notna(), "line"].tolist()
     if missing:
