@@ -194,7 +194,8 @@ def _bates_bower_sd_V(celsius):
 
 
 def _harned(celsius):
-    return cell_summary(HARNED, 273.15 + celsius)["standard_potential_V"]
+    # Bates & Bower's E° are on the 1 atm basis
+    return cell_summary(HARNED, 273.15 + celsius, 101325.0)["standard_potential_V"]
 
 
 def test_harned_e0_is_continuous_through_25C():

@@ -158,7 +158,7 @@ def test_malformed_diagrams(diagram, position, message):
 # --- summary --------------------------------------------------------------------------------
 
 def test_summary_is_json_ready_and_has_the_keys():
-    summary = cell_summary(HARNED, 298.15)
+    summary = cell_summary(HARNED, 298.15, 101325.0)
     for key in ("electrons", "standard_potential_V", "delta_g_kJ_mol", "log10_K", "reaction",
                 "half_reactions"):
         assert key in summary
@@ -172,7 +172,7 @@ def test_summary_is_json_ready_and_has_the_keys():
 
 def test_summary_of_harned_cell_at_another_temperature_uses_bates_bower():
     # Bates & Bower (1954), Table 1: 0.20449 V at 50 °C (1 atm).
-    summary = cell_summary(HARNED, 323.15)
+    summary = cell_summary(HARNED, 323.15, 101325.0)
     assert summary["standard_potential_V"]["value"] == pytest.approx(0.20449, abs=5e-6)
     assert summary["warnings"] == []
 

@@ -14,6 +14,8 @@ Everything else is a behaviour (common practice) or a regression pin, said where
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 from scipy import constants as sc
@@ -279,3 +281,83 @@ def test_a_bound_is_printed_as_the_bound(tmp_path):
     assert "ran to the bound" not in text
     assert format_bound_reason("the fit ran to the bound 19.9999 Å", {"Å": (0.0, 20.0)}) == (
         "the fit ran to its upper bound (20 Å)")
+
+
+# --- 3. activolt cell -----------------------------------------------------------------------
+
+HARNED = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"
+RT_F_V = sc.R * 298.15 / FARADAY  # CODATA 2018 through scipy.constants
+E0_BAR_V = E0_ATM_V - RT_F_V / 2 * math.log(1.01325)  # reference-values.md (derived)
+
+
+def test_cell_reports_on_100_kPa_by_default_like_reduce():
+    from activolt.chemistry.cells import cell_summary
+    from activolt.data.runs import RunMetadata
+
+    summary = cell_summary(HARNED, 298.15)
+    assert summary["standard_pressure_kPa"] == 100.0
+    assert summary["catalogue_pressure_basis_kPa"] == 101.325
+    assert summary["standard_potential_V"]["value"] == pytest.approx(E0_BAR_V, abs=5e-7)
+    atm = cell_summary(HARNED, 298.15, 101325.0)
+    assert atm["standard_potential_V"]["value"] == pytest.approx(E0_ATM_V, abs=5e-7)
+    # ΔG° follows the basis: −F ΔE°
+    assert (summary["delta_g_kJ_mol"]["value"] - atm["delta_g_kJ_mol"]["value"]) == \
+        pytest.approx(-FARADAY * (E0_BAR_V - E0_ATM_V) / 1000, rel=1e-6)
+    # without gas, E° does not depend on the basis
+    daniell = "Zn(s) | ZnSO4(aq) || CuSO4(aq) | Cu(s)"
+    assert cell_summary(daniell)["standard_potential_V"] == \
+        cell_summary(daniell, 298.15, 101325.0)["standard_potential_V"]
+    # reduce's default basis is the same
+    import dataclasses
+
+    default = {f.name: f.default for f in dataclasses.fields(RunMetadata)}
+    assert default["standard_pressure_Pa"] == 100000.0
+
+
+def test_cell_command_basis_option(capsys):
+    from activolt.cli import main
+
+    assert main(["cell", HARNED]) == 0
+    out = capsys.readouterr().out
+    assert f"E°cell = {E0_BAR_V:.6f} ± 0.000010 V (standard pressure 100 kPa)" in out
+    assert main(["cell", HARNED, "--standard-pressure-kPa", "101.325"]) == 0
+    out = capsys.readouterr().out
+    assert f"E°cell = {E0_ATM_V:.6f} ± 0.000010 V (standard pressure 101.325 kPa)" in out
+    assert main(["cell", HARNED, "--standard-pressure-kPa", "90"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--standard-pressure-kPa" in err[0] and "101.325" in err[0]
+
+
+def test_cell_with_amounts_gives_the_ideal_nernst_emf(capsys):
+    from activolt.chemistry.cells import cell_summary
+    from activolt.cli import main
+
+    diagram = "Pt | H2(g, 99.2 kPa) | HCl(aq, 0.01 mol/kg) | AgCl(s) | Ag(s)"
+    # E = E° − (RT/F) ln(m_H+ m_Cl− / (p_H2/p°)^½) with γ = 1 (Harned & Owen 1958, ch. 10)
+    expected = E0_BAR_V - RT_F_V * (math.log(0.01 * 0.01) - 0.5 * math.log(99.2 / 100.0))
+    summary = cell_summary(diagram)
+    assert summary["emf_ideal_V"]["value"] == pytest.approx(expected, abs=1e-7)
+    assert summary["emf_ideal_V"]["uncertainty"] == summary["standard_potential_V"]["uncertainty"]
+    assert "γ = 1" in summary["emf_ideal"]
+    # E itself does not depend on the standard pressure chosen (the basis cancels)
+    atm = cell_summary(diagram, 298.15, 101325.0)
+    assert atm["emf_ideal_V"]["value"] == pytest.approx(expected, abs=1e-9)
+    assert main(["cell", diagram]) == 0
+    out = capsys.readouterr().out
+    assert f"ideal activities (γ = 1) = {expected:.6f} ± 0.000010 V" in out
+
+
+def test_cell_with_amounts_daniell_and_what_is_missing():
+    from activolt.chemistry.cells import cell_summary
+
+    # E − E° = −(RT/2F) ln(a_Zn²⁺/a_Cu²⁺), γ = 1
+    both = cell_summary("Zn(s) | ZnSO4(aq, 0.1 mol/kg) || CuSO4(aq, 0.01 mol/kg) | Cu(s)")
+    shift = both["emf_ideal_V"]["value"] - both["standard_potential_V"]["value"]
+    assert shift == pytest.approx(-RT_F_V / 2 * math.log(10.0), abs=1e-9)
+    assert "no junction potential" in both["emf_ideal"]
+    one = cell_summary("Zn(s) | ZnSO4(aq, 0.1 mol/kg) || CuSO4(aq) | Cu(s)")
+    assert one["emf_ideal_V"] is None and "Cu2+(aq)" in one["emf_ideal"]
+    gas_unwritten = cell_summary("Pt | H2(g) | HCl(aq, 0.01 mol/kg) | AgCl(s) | Ag(s)")
+    assert gas_unwritten["emf_ideal_V"]["value"] == pytest.approx(
+        E0_BAR_V - RT_F_V * math.log(1e-4), abs=1e-7)
+    assert "H2(g) at p°" in gas_unwritten["emf_ideal"]

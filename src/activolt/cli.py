@@ -118,6 +118,9 @@ def _parser() -> argparse.ArgumentParser:
     cell.add_argument("diagram", help="IUPAC cell diagram in quotes")
     cell.add_argument("--temperature-C", type=float, dest="temperature_C", default=25.0,
                       help="temperature in °C; default 25")
+    cell.add_argument("--standard-pressure-kPa", type=float, dest="standard_pressure_kPa",
+                      default=100.0, help="pressure basis of E°, ΔG° and K: 100 (IUPAC, the "
+                      "default, as for reduce) or 101.325 (1 atm)")
     cell.add_argument("--json", type=Path, help="also write the summary as JSON here")
 
     demo = commands.add_parser("demo", help="reduce the bundled sample run")
@@ -449,17 +452,23 @@ def _fixed_per_model(names: list[str], fixed: dict[str, float]) -> dict[str, dic
     return per_model
 
 
-def _cell(diagram: str, temperature_C: float, json_path: Path | None) -> list[Path]:
+def _cell(diagram: str, temperature_C: float, json_path: Path | None,
+          standard_pressure_kPa: float = 100.0) -> list[Path]:
     import json
 
     from .chemistry.cells import DiagramError, cell_summary, format_cell_summary
-    from .constants import ZERO_CELSIUS_K
+    from .constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
 
     if not 0.0 <= temperature_C <= 100.0:
         raise InputError(f"temperature {temperature_C:g} °C is outside liquid water (0–100 °C)",
                          file="command line", column="--temperature-C")
+    if standard_pressure_kPa * 1e3 not in (STANDARD_PRESSURE_PA, ATMOSPHERE_PA):
+        raise InputError(f"standard pressure {standard_pressure_kPa:g} kPa: must be 100 (IUPAC) "
+                         "or 101.325 (1 atm)", file="command line",
+                         column="--standard-pressure-kPa")
     try:
-        summary = cell_summary(diagram, temperature_C + ZERO_CELSIUS_K)
+        summary = cell_summary(diagram, temperature_C + ZERO_CELSIUS_K,
+                               standard_pressure_kPa * 1e3)
     except DiagramError as error:
         start = max(0, error.position - 12)
         raise InputError(f"{error.message} (at character {error.position + 1}: "
@@ -518,7 +527,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             _reduce(run_path, None, "hueckel", {}, args.out, None, None, {}, True,
                     written=written)
         elif args.command == "cell":
-            written = _cell(args.diagram, args.temperature_C, args.json)
+            written = _cell(args.diagram, args.temperature_C, args.json,
+                            args.standard_pressure_kPa)
         else:
             status = _reduce_command(args, written)
         if len(written) > 20:  # a batch: the folder and the count, not every file

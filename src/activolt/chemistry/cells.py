@@ -41,7 +41,14 @@ import numpy as np
 import numpy.typing as npt
 from uncertainties import UFloat
 
-from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, ZERO_CELSIUS_K
+from ..constants import (
+    ATMOSPHERE_PA,
+    FARADAY_C_MOL,
+    GAS_CONSTANT_J_MOL_K,
+    STANDARD_PRESSURE_PA,
+    ZERO_CELSIUS_K,
+)
+from ..physics.corrections import standard_pressure_basis_shift
 from .electrodes import amalgam_couple, catalogue, couple_at_temperature, couple_names
 from .electrolytes import Electrolyte, parse_electrolyte
 from .reactions import (
@@ -246,6 +253,11 @@ def _amount(text: str, state: str, position: int, diagram: str) -> tuple[float |
                 position + match.start(2), diagram)
 
 
+#: Substances of electrodes that are gases at room temperature (the state suggested when a
+#: diagram leaves it out).
+_USUAL_GASES = frozenset({"H2", "O2", "Cl2", "N2", "F2", "CO2", "CO", "NH3", "SO2", "NO", "N2O"})
+
+
 def _component(text: str, position: int, diagram: str) -> Component:
     if text.endswith(")"):
         depth, opening = 0, -1
@@ -262,9 +274,11 @@ def _component(text: str, position: int, diagram: str) -> Component:
     if not head:
         raise _fail(f"'{text}' has no formula before its state", position, diagram)
     if inside is None:
+        likely = ("g" if head in _USUAL_GASES else "l" if head in ("Hg", "Br2")
+                  else "aq" if head[-1:] in "+-" else "s")
         raise _fail(
-            f"missing phase after '{text}': write its state in parentheses, e.g. {text}(s); "
-            f"valid states: {', '.join(STATES)}", position + len(text), diagram)
+            f"missing phase after '{text}': write its state in parentheses, e.g. "
+            f"{text}({likely}); valid states: {', '.join(STATES)}", position + len(text), diagram)
     state_text, _, amount_text = inside.partition(",")
     state = state_text.strip()
     state_position = position + opening + 1 + (len(state_text) - len(state_text.lstrip()))
@@ -596,6 +610,149 @@ def cell_from_diagram(text: str) -> CellStoichiometry:
                              nernst=nernst)
 
 
+# --- EMF at the amounts written in the diagram ----------------------------------------------
+
+#: What "ideal activities" means in :func:`ideal_cell_emf`, in words for reports.
+IDEAL_ACTIVITIES = ("ideal activities: γ = 1 for every solute (a = m/m°, m° = 1 mol/kg), "
+                    "f = p for every gas (a = p/p°), a_w = 1, pure solids and liquids a = 1")
+
+
+@dataclass(frozen=True)
+class IdealEmf:
+    """E of a cell at the amounts written in its diagram, with ideal activities.
+
+    Attributes
+    ----------
+    emf_V : float or None
+        E = E° − (RT/nF) ln Q [V], None when it cannot be computed (``reason`` says why).
+    standard_potential_V : float or None
+        The E° used [V], on ``standard_pressure_Pa``.
+    standard_pressure_Pa : float
+        p° of E° and of the gases' activities p/p° [Pa].
+    ln_q : float or None
+        ln Q with ideal activities [-].
+    reason : str or None
+        Why E was not computed (amounts missing, E° unknown, a species at two amounts).
+    gases_at_standard_pressure : tuple of str
+        Gases written without a pressure, taken at p°.
+    """
+
+    emf_V: float | None
+    standard_potential_V: float | None
+    standard_pressure_Pa: float
+    ln_q: float | None
+    reason: str | None = None
+    gases_at_standard_pressure: tuple[str, ...] = ()
+
+
+def _amounts(diagram: CellDiagram) -> tuple[dict[Species, list[float]], dict[Species,
+                                                                                list[float]]]:
+    """Molality [mol/kg] of each aqueous species and pressure [Pa] of each gas as written
+    (an electrolyte's ions at ν± m); one list entry per place the species is written."""
+    molalities: dict[Species, list[float]] = {}
+    pressures: dict[Species, list[float]] = {}
+    for phase in (*diagram.left, *diagram.solutions, *diagram.right):
+        for c in phase.components:
+            if c.molality_mol_kg is not None:
+                if c.electrolyte is not None:
+                    e = c.electrolyte
+                    for species, nu in ((Species(e.cation, e.z_cation, "aq"), e.nu_cation),
+                                        (Species(e.anion, e.z_anion, "aq"), e.nu_anion)):
+                        molalities.setdefault(species, []).append(nu * c.molality_mol_kg)
+                else:
+                    molalities.setdefault(c.species[0], []).append(c.molality_mol_kg)
+            if c.pressure_Pa is not None:
+                pressures.setdefault(c.species[0], []).append(c.pressure_Pa)
+    return molalities, pressures
+
+
+def ideal_cell_emf(cell: CellStoichiometry, temperature_K: float,
+                   standard_potential_V: float | None,
+                   standard_pressure_Pa: float = STANDARD_PRESSURE_PA) -> IdealEmf:
+    r"""E of a cell at the molalities and pressures written in its diagram, ideal activities.
+
+    Parameters
+    ----------
+    cell : CellStoichiometry
+        From :func:`cell_from_diagram`; its diagram holds the amounts, e.g.
+        ``HCl(aq, 0.01 mol/kg)``, ``H2(g, 100 kPa)``.
+    temperature_K : float
+        Temperature [K].
+    standard_potential_V : float or None
+        E° of the cell at ``temperature_K`` on ``standard_pressure_Pa`` [V].
+    standard_pressure_Pa : float
+        p° [Pa] of E° and of the gases' activities p/p°.
+
+    Returns
+    -------
+    IdealEmf
+
+    Notes
+    -----
+    .. math:: E = E° − \frac{RT}{nF} \ln Q, \qquad Q = \prod_i a_i^{ν_i}
+
+    with ν_i signed (products +) for n electrons, and ideal activities: a = m/m° for solutes
+    (γ = 1), a = p/p° for gases, a_w = 1, pure phases 1 (IUPAC Green Book, 3rd ed., 2007,
+    §2.13). A gas written without a pressure is taken at p° (and listed as such); a solute
+    without a molality leaves E uncomputed. The real E differs by −(RT/nF) Σ ν_i ln γ_i —
+    for a 1:1 electrolyte at 0.01 mol/kg, γ± ≈ 0.90, several millivolts — and, with a liquid
+    junction, by the junction potential.
+
+    Examples
+    --------
+    The Harned cell at 0.01 mol/kg HCl and p(H2) = p° (E° of Bates & Bower 1954, Table 1,
+    on 1 atm): E = E° − (2RT/F) ln 0.01 = E° + 236.6 mV at 25 °C.
+
+    >>> cell = cell_from_diagram("Pt | H2(g, 1 atm) | HCl(aq, 0.01 mol/kg) | AgCl(s) | Ag(s)")
+    >>> result = ideal_cell_emf(cell, 298.15, 0.22234, 101325.0)
+    >>> round(result.emf_V, 4)
+    0.459
+    """
+    nernst = cell.nernst
+    molalities, pressures = _amounts(cell.diagram)
+    needed: list[tuple[Species, Fraction, str]] = []
+    if nernst.electrolyte is not None and nernst.electrolyte_units:
+        e = nernst.electrolyte
+        needed += [(Species(e.cation, e.z_cation, "aq"), nernst.electrolyte_units * e.nu_cation,
+                    "aq"),
+                   (Species(e.anion, e.z_anion, "aq"), nernst.electrolyte_units * e.nu_anion,
+                    "aq")]
+    needed += [(s, c, "aq") for s, c in nernst.solutes]
+    needed += [(s, c, "g") for s, c in nernst.gases]
+
+    def refused(reason: str) -> IdealEmf:
+        return IdealEmf(None, standard_potential_V, standard_pressure_Pa, None, reason)
+
+    if not molalities and not pressures:
+        return refused("no amounts in the diagram; write them as HCl(aq, 0.01 mol/kg) or "
+                       "H2(g, 100 kPa)")
+    if nernst.amalgams:
+        return refused("the amalgam's activity is not known")
+    ln_q = 0.0
+    missing, at_standard = [], []
+    for species, coefficient, kind in needed:
+        amounts = (molalities if kind == "aq" else pressures).get(species)
+        if not amounts and kind == "g":
+            at_standard.append(species.label)
+            continue
+        if not amounts:
+            missing.append(species.label)
+            continue
+        if len(set(amounts)) > 1:
+            return refused(f"{species.label} is written at two amounts (a concentration cell); "
+                           "its activity on each side would be needed")
+        scale = 1.0 if kind == "aq" else standard_pressure_Pa
+        ln_q += float(coefficient) * math.log(amounts[0] / scale)
+    if missing:
+        return refused(f"no amount written for {', '.join(missing)}")
+    if standard_potential_V is None:
+        return IdealEmf(None, None, standard_pressure_Pa, ln_q, "E° is not in the catalogue",
+                        tuple(at_standard))
+    factor = GAS_CONSTANT_J_MOL_K * temperature_K / (float(nernst.electrons) * FARADAY_C_MOL)
+    return IdealEmf(standard_potential_V - factor * ln_q, standard_potential_V,
+                    standard_pressure_Pa, ln_q, None, tuple(at_standard))
+
+
 # --- summary for the command line -----------------------------------------------------------
 
 def _rounded(value: float, uncertainty: float) -> tuple[str, str]:
@@ -612,13 +769,21 @@ def _number(quantity: UFloat | None) -> dict[str, float] | None:
     return {"value": float(quantity.nominal_value), "uncertainty": float(quantity.std_dev)}
 
 
-def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> dict[str, Any]:
-    """A JSON-ready summary of a cell: half-reactions, reaction, n, E°, ΔG°, log10 K.
+def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0,
+                 standard_pressure_Pa: float = STANDARD_PRESSURE_PA) -> dict[str, Any]:
+    """A JSON-ready summary of a cell: half-reactions, reaction, n, E°, ΔG°, log10 K, and E at
+    the amounts written in the diagram (ideal activities).
 
     Parameters
     ----------
     diagram : str
-        The cell diagram.
+        The cell diagram; amounts may be written in it (``HCl(aq, 0.01 mol/kg)``,
+        ``H2(g, 100 kPa)``).
+    standard_pressure_Pa : float
+        p° of E°, ΔG° and K [Pa]: 100 000 (IUPAC, the default, as for ``activolt reduce``) or
+        101 325 (1 atm). The catalogue's E° (on 1 atm) is moved to it by
+        :func:`activolt.physics.corrections.standard_pressure_basis_shift` when the reaction
+        holds a gas; without gas, E° does not depend on it.
     temperature_K : float
         Temperature [K] for E°, log10 K and the Nernst factor. Each couple's E° at T comes
         from its one E°(T) (:func:`activolt.chemistry.electrodes.couple_at_temperature`): H+/H2 is
@@ -631,9 +796,12 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
     dict
         Keys ``diagram, temperature_K, left, right, half_reactions, reaction, electrons,
         electrolyte, electrolyte_units, nernst_factor_V, nernst_equation, gases,
-        liquid_junction, standard_pressure_kPa, standard_potential_V, delta_g_kJ_mol,
-        log10_K, warnings``; quantities as {"value", "uncertainty"} [units in the key], or None
-        when a couple's E° is unknown.
+        liquid_junction, standard_pressure_kPa, catalogue_pressure_basis_kPa,
+        standard_potential_V, delta_g_kJ_mol, log10_K, emf_ideal_V, emf_ideal, notes,
+        warnings``; quantities as {"value", "uncertainty"} [units in the key], or None when a
+        couple's E° is unknown. ``emf_ideal_V`` is E at the diagram's amounts with ideal
+        activities (its uncertainty that of E° alone), None when it cannot be computed;
+        ``emf_ideal`` says what was assumed or why it was not computed.
 
     Examples
     --------
@@ -642,6 +810,13 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
     >>> s = cell_summary("Zn(s) | ZnSO4(aq) || CuSO4(aq) | Cu(s)")
     >>> s["electrons"], round(s["standard_potential_V"]["value"], 2)
     (2, 1.1)
+
+    With amounts, E from the Nernst equation with γ = 1: (RT/2F) ln 10 = 29.6 mV below E°
+    at 25 °C for Zn²⁺ ten times Cu²⁺ (common practice):
+
+    >>> s = cell_summary("Zn(s) | ZnSO4(aq, 0.1 mol/kg) || CuSO4(aq, 0.01 mol/kg) | Cu(s)")
+    >>> round((s["standard_potential_V"]["value"] - s["emf_ideal_V"]["value"]) * 1e3, 1)
+    29.6
 
     One reaction, Fe(s) + 2 Fe³⁺ → 3 Fe²⁺, gives one ΔG° whichever couples make it (Fe³⁺/Fe
     is derived from the other two):
@@ -668,6 +843,24 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
             left_couple, right_couple = left_at, right_at
             potential = dataclasses.replace(reaction, left=left_at,
                                             right=right_at).standard_potential
+    if standard_pressure_Pa not in (STANDARD_PRESSURE_PA, ATMOSPHERE_PA):
+        raise ValueError(f"standard pressure {standard_pressure_Pa / 1e3:g} kPa: must be 100 "
+                         "(IUPAC) or 101.325 (1 atm)")
+    notes: list[str] = []
+    basis_Pa: float | None = standard_pressure_Pa
+    if potential is not None and cell.gas_coefficients:
+        if pressure_Pa is None:
+            basis_Pa = None
+            warnings.append("the couples' E° are on different standard pressures; E° is not "
+                            "moved to one")
+        elif pressure_Pa != standard_pressure_Pa:
+            shift = float(standard_pressure_basis_shift(
+                temperature_K, float(cell.nernst.electrons), cell.gas_coefficients,
+                pressure_Pa, standard_pressure_Pa))
+            potential = potential + shift
+            notes.append(f"catalogue E° on p° = {pressure_Pa / 1e3:g} kPa moved to "
+                         f"{standard_pressure_Pa / 1e3:g} kPa: {shift * 1e3:+.3f} mV (the gases' "
+                         "standard state)".replace("-", "−"))
     if cell.liquid_junction:
         warnings.append("the cell has a liquid junction: its EMF also holds a junction "
                         "potential that E° does not include")
@@ -693,6 +886,21 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
             else half.pressure_basis_Pa / 1000.0,
         }
 
+    ideal = ideal_cell_emf(cell, temperature_K,
+                           None if potential is None else potential.nominal_value,
+                           standard_pressure_Pa)
+    emf_ideal = None
+    if ideal.emf_V is not None and potential is not None:
+        emf_ideal = {"value": float(ideal.emf_V), "uncertainty": float(potential.std_dev)}
+        assumed = IDEAL_ACTIVITIES + "; u from E° alone"
+        if ideal.gases_at_standard_pressure:
+            assumed += (f"; {', '.join(ideal.gases_at_standard_pressure)} at p° (no pressure "
+                        "written)")
+        if cell.liquid_junction:
+            assumed += "; no junction potential"
+        ideal_text = assumed
+    else:
+        ideal_text = ideal.reason
     return {
         "diagram": diagram,
         "temperature_K": float(temperature_K),
@@ -708,10 +916,14 @@ def cell_summary(diagram: str, temperature_K: float = ZERO_CELSIUS_K + 25.0) -> 
         "nernst_equation": cell.nernst.describe(),
         "gases": cell.gas_coefficients,
         "liquid_junction": cell.liquid_junction,
-        "standard_pressure_kPa": None if pressure_Pa is None else pressure_Pa / 1000.0,
+        "standard_pressure_kPa": None if basis_Pa is None else basis_Pa / 1000.0,
+        "catalogue_pressure_basis_kPa": None if pressure_Pa is None else pressure_Pa / 1000.0,
         "standard_potential_V": _number(potential),
         "delta_g_kJ_mol": _number(delta_g),
         "log10_K": _number(log10_k),
+        "emf_ideal_V": emf_ideal,
+        "emf_ideal": ideal_text,
+        "notes": notes,
         "warnings": warnings,
     }
 
@@ -726,7 +938,7 @@ def format_cell_summary(summary: Mapping[str, Any]) -> str:
 
     >>> text = format_cell_summary(cell_summary("Na(s) | Na+(aq) || Br-(aq) | Br2(l) | Pt(s)"))
     >>> print(text.splitlines()[4])
-    E°cell = 3.7760 ± 0.0051 V (standard pressure 101.325 kPa)
+    E°cell = 3.7760 ± 0.0051 V (standard pressure 100 kPa)
     """
     def quantity(key: str, unit: str) -> str:
         number = summary[key]
@@ -746,6 +958,7 @@ def format_cell_summary(summary: Mapping[str, Any]) -> str:
         f"{summary['half_reactions']['right_reduction']}",
         f"Cell reaction: {summary['reaction']}   n = {summary['electrons']}",
         f"E°cell = {quantity('standard_potential_V', ' V')}{basis_text}",
+        *(f"  {n}" for n in summary.get("notes", ())),
         f"ΔG° = {quantity('delta_g_kJ_mol', ' kJ/mol')}",
         f"log10 K = {quantity('log10_K', '')}",
     ]
@@ -755,19 +968,28 @@ def format_cell_summary(summary: Mapping[str, Any]) -> str:
                      f"{summary['nernst_equation']}")
     else:
         lines.append(summary["nernst_equation"])
+    if summary.get("emf_ideal_V") is not None:
+        lines.append("E at the amounts written, ideal activities (γ = 1) = "
+                     f"{quantity('emf_ideal_V', ' V')}")
+        lines.append(f"  assumed: {summary['emf_ideal']}")
+    elif summary.get("emf_ideal") and "no amounts in the diagram" not in summary["emf_ideal"]:
+        lines.append(f"E at the amounts written: not computed — {summary['emf_ideal']}")
     lines.extend(f"Warning: {w}" for w in summary["warnings"])
     return "\n".join(lines)
 
 
 __all__ = [
+    "IDEAL_ACTIVITIES",
     "CellDiagram",
     "CellStoichiometry",
     "Component",
     "DiagramError",
+    "IdealEmf",
     "Phase",
     "cell_from_diagram",
     "cell_summary",
     "electrode_couple",
     "format_cell_summary",
+    "ideal_cell_emf",
     "parse_diagram",
 ]
