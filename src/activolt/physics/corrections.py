@@ -133,15 +133,21 @@ def hydrogen_partial_pressure(
     water = np.asarray(water_activity, dtype=float)
     if np.any(water[np.isfinite(water)] < 0) or np.any(water[np.isfinite(water)] > 1):
         raise ValueError("water activity must lie between 0 and 1")
-    pressure = (
+    total = (
         np.asarray(barometric_pressure_Pa, dtype=float)
         + np.asarray(solution_density_kg_m3, dtype=float) * STANDARD_GRAVITY_M_S2
         * np.asarray(bubbler_depth_m, dtype=float)
-        - water * water_vapour_pressure(temperature_K)
     )
-    if np.any(pressure[np.isfinite(pressure)] <= 0):
-        raise ValueError("hydrogen partial pressure comes out ≤ 0: is the barometric pressure "
-                         "given in pascals?")
+    vapour = water * water_vapour_pressure(temperature_K)
+    pressure = total - vapour
+    bad = np.isfinite(pressure) & (pressure <= 0)
+    if np.any(bad):
+        total_b, vapour_b = np.broadcast_arrays(total, vapour)
+        i = np.flatnonzero(bad)[0]
+        raise ValueError(
+            f"hydrogen partial pressure comes out ≤ 0: water vapour ({vapour_b.flat[i] / 1e3:.4g}"
+            f" kPa) leaves no room for hydrogen at {total_b.flat[i] / 1e3:.4g} kPa — the "
+            "temperature is too high for this pressure, or the pressure is not in pascals")
     return pressure
 
 
