@@ -50,7 +50,7 @@ def test_vapour_pressure_at_boiling_point():
 def test_hydrogen_pressure_and_corrections_at_one_atmosphere():
     # reference-values.md (derived): at p_bar = 101.325 kPa and 25 °C the correction of the
     # Harned cell is +0.408 mV to the 1 atm basis and +0.239 mV to the 1 bar basis.
-    p_h2 = hydrogen_partial_pressure(101325.0, 298.15)
+    p_h2 = hydrogen_partial_pressure(298.15, 101325.0)
     assert float(p_h2) / 1000 == pytest.approx(98.155, abs=0.0005)
     to_atm = hydrogen_pressure_correction(298.15, p_h2, ATMOSPHERE_PA)
     to_bar = hydrogen_pressure_correction(298.15, p_h2, STANDARD_PRESSURE_PA)
@@ -72,9 +72,9 @@ def test_basis_shift_harned_cell():
 def test_water_activity_and_bubbler_depth():
     # Common practice: a_w(HCl, 1 mol/kg) ≈ 0.965 (reference-values.md); a 5 cm head of water.
     p_w = float(water_vapour_pressure(298.15))
-    lowered = hydrogen_partial_pressure(101325.0, 298.15, water_activity=0.965)
+    lowered = hydrogen_partial_pressure(298.15, 101325.0, water_activity=0.965)
     assert float(lowered) == pytest.approx(101325.0 - 0.965 * p_w, rel=1e-12)
-    deeper = hydrogen_partial_pressure(101325.0, 298.15, bubbler_depth_m=0.05,
+    deeper = hydrogen_partial_pressure(298.15, 101325.0, bubbler_depth_m=0.05,
                                        solution_density_kg_m3=1000.0)
     assert float(deeper) - (101325.0 - p_w) == pytest.approx(1000.0 * 9.80665 * 0.05)
 
@@ -101,9 +101,9 @@ def test_errors():
     with pytest.raises(ValueError, match="kelvin"):
         water_vapour_pressure(25.0)
     with pytest.raises(ValueError, match="pascals"):
-        hydrogen_partial_pressure(101.325, 298.15)
+        hydrogen_partial_pressure(298.15, 101.325)
     with pytest.raises(ValueError, match="between 0 and 1"):
-        hydrogen_partial_pressure(101325.0, 298.15, water_activity=1.2)
+        hydrogen_partial_pressure(298.15, 101325.0, water_activity=1.2)
     with pytest.raises(ValueError, match="missing"):
         gas_pressure_correction(298.15, 1, {"H2(g)": -0.5}, {"Cl2(g)": 1e5})
     with pytest.raises(ValueError, match="positive"):

@@ -361,3 +361,23 @@ def test_cell_with_amounts_daniell_and_what_is_missing():
     assert gas_unwritten["emf_ideal_V"]["value"] == pytest.approx(
         E0_BAR_V - RT_F_V * math.log(1e-4), abs=1e-7)
     assert "H2(g) at p°" in gas_unwritten["emf_ideal"]
+
+
+# --- 4. small: argument order, basis with its unit, the package's public names -------------
+
+def test_physics_functions_take_the_temperature_first():
+    import inspect
+
+    from activolt.physics import corrections
+
+    for name, function in inspect.getmembers(corrections, inspect.isfunction):
+        if name.startswith("_") or function.__module__ != corrections.__name__:
+            continue
+        parameters = list(inspect.signature(function).parameters)
+        if "temperature_K" in parameters:
+            assert parameters[0] == "temperature_K", name
+    # IAPWS-95 p_w(25 °C) = 3.1699 kPa (reference-values.md): p_H2 = 101.325 − 3.170 kPa
+    assert float(corrections.hydrogen_partial_pressure(298.15, 101325.0)) == pytest.approx(
+        98155.0, abs=2.0)
+    with pytest.raises(ValueError, match="temperature_K, barometric_pressure_Pa"):
+        corrections.hydrogen_partial_pressure(101325.0, 298.15)  # the old order

@@ -99,7 +99,7 @@ def gas_correction(run: Run, points: pd.DataFrame, water_activity: npt.ArrayLike
     from ..physics.corrections import gas_pressure_correction, hydrogen_partial_pressure
 
     temperature = points["temperature_K"].to_numpy(float)
-    partial = hydrogen_partial_pressure(pressure, temperature, water_activity=water_activity,
+    partial = hydrogen_partial_pressure(temperature, pressure, water_activity=water_activity,
                                         bubbler_depth_m=meta.bubbler_depth_m)
     correction = gas_pressure_correction(
         temperature, meta.electrons, meta.gas_coefficients,

@@ -88,8 +88,8 @@ def water_vapour_pressure(temperature_K: npt.ArrayLike) -> np.ndarray:
 
 
 def hydrogen_partial_pressure(
-    barometric_pressure_Pa: npt.ArrayLike,
     temperature_K: npt.ArrayLike,
+    barometric_pressure_Pa: npt.ArrayLike,
     water_activity: npt.ArrayLike = 1.0,
     bubbler_depth_m: npt.ArrayLike = 0.0,
     solution_density_kg_m3: npt.ArrayLike = 997.0,
@@ -98,10 +98,10 @@ def hydrogen_partial_pressure(
 
     Parameters
     ----------
+    temperature_K : array_like
+        Temperature of the cell [K] (first, as everywhere in :mod:`activolt.physics`).
     barometric_pressure_Pa : array_like
         Barometric pressure [Pa].
-    temperature_K : array_like
-        Temperature of the cell [K].
     water_activity : array_like
         Activity of water in the cell solution [-]; 1 for pure water (no vapour-pressure
         lowering), e.g. 0.965 for 1 mol/kg HCl.
@@ -127,9 +127,12 @@ def hydrogen_partial_pressure(
     --------
     At 101.325 kPa and 25 °C over dilute solution (p_w = 3.1699 kPa, IAPWS-95):
 
-    >>> round(float(hydrogen_partial_pressure(101325.0, 298.15)) / 1000, 3)
+    >>> round(float(hydrogen_partial_pressure(298.15, 101325.0)) / 1000, 3)
     98.155
     """
+    if np.any(np.asarray(temperature_K, dtype=float) > 1000.0):
+        raise ValueError("temperature above 1000 K: the arguments are (temperature_K, "
+                         "barometric_pressure_Pa)")
     water = np.asarray(water_activity, dtype=float)
     if np.any(water[np.isfinite(water)] < 0) or np.any(water[np.isfinite(water)] > 1):
         raise ValueError("water activity must lie between 0 and 1")

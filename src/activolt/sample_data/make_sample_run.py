@@ -43,7 +43,7 @@ def main() -> None:
     rng = np.random.default_rng(20261202)
     emf_1atm_V = E0_V - k * np.log(m * gamma)
     barometric_kPa = np.round(101.9 - 0.07 * np.arange(m.size) + rng.normal(0, 0.05, m.size), 2)
-    p_h2 = hydrogen_partial_pressure(barometric_kPa * 1e3, TEMPERATURE_K)
+    p_h2 = hydrogen_partial_pressure(TEMPERATURE_K, barometric_kPa * 1e3)
     to_1atm = hydrogen_pressure_correction(TEMPERATURE_K, p_h2, 101325.0)
     emf_V = emf_1atm_V - to_1atm + rng.normal(0.0, NOISE_V, m.size)
     lines = [
