@@ -381,3 +381,22 @@ def test_physics_functions_take_the_temperature_first():
         98155.0, abs=2.0)
     with pytest.raises(ValueError, match="temperature_K, barometric_pressure_Pa"):
         corrections.hydrogen_partial_pressure(101325.0, 298.15)  # the old order
+
+
+def test_other_basis_names_its_units(tmp_path):
+    """The E° on the other basis in kPa and V by name; the old (Pa, V) access still works."""
+    m = np.array([0.001, 0.005, 0.01, 0.05, 0.1])
+    table = published_gamma("HCl", 298.15)
+    gamma = np.interp(m, table.molality_mol_kg, table.gamma_pm)
+    emf = E0_BAR_V - 2 * RT_F_V * np.log(m * gamma)
+    rows = [f"{a},{float(b)!r},2e-5" for a, b in zip(m, emf, strict=True)]
+    path = _write(tmp_path, "molality_mol_kg,emf_V,u_emf_V", rows,
+                  f'cell = "{HARNED}"\ntemperature_C = 25\npressure_kPa = 100.0\n')
+    reduction = reduce_run(read_run(path))
+    other = reduction.standard_potential_other_basis
+    assert other.pressure_kPa == 101.325
+    # (RT/2F) ln 1.01325 = 0.169 mV higher on 1 atm (reference-values.md, derived)
+    assert (other.standard_potential_V - reduction.standard_potential.nominal_value) * 1e3 == \
+        pytest.approx(0.169, abs=0.001)
+    pressure_kPa, e0_V = other
+    assert (pressure_kPa * 1e3, e0_V) == reduction.standard_potential_other_basis_V

@@ -24,6 +24,7 @@ import dataclasses
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from typing import NamedTuple
 
 import numpy as np
 import numpy.typing as npt
@@ -205,6 +206,13 @@ class GammaPropagation:
         return cov
 
 
+class OtherBasis(NamedTuple):
+    """E° on the other common standard pressure (1 atm when the run is on 100 kPa, and back)."""
+
+    pressure_kPa: float
+    standard_potential_V: float
+
+
 @dataclass(frozen=True)
 class Reduction:
     """The result of reducing one run: E°, the model, γ± at every point, diagnostics.
@@ -246,6 +254,14 @@ class Reduction:
             return None
         pressure_Pa, shift_V = self.other_basis
         return pressure_Pa, self.standard_potential.nominal_value + shift_V
+
+    @property
+    def standard_potential_other_basis(self) -> OtherBasis | None:
+        """E° on the other common standard pressure, units named: ``(pressure_kPa,
+        standard_potential_V)`` (kPa as on the command line and in the metadata); None when
+        the cell holds no gas. The uncertainty is that of E°."""
+        other = self.standard_potential_other_basis_V
+        return None if other is None else OtherBasis(other[0] / 1e3, other[1])
 
     @property
     def electrolyte(self) -> Electrolyte:

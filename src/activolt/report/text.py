@@ -61,10 +61,10 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
         "",
         "  " + _e0_line(reduction),
     ]
-    other = reduction.standard_potential_other_basis_V
+    other = reduction.standard_potential_other_basis
     if other is not None:
-        lines.append(f"  on the {other[0] / 1e3:g} kPa basis: E° = "
-                     + format_with_uncertainty(other[1] * 1e3,
+        lines.append(f"  on the {other.pressure_kPa:g} kPa basis: E° = "
+                     + format_with_uncertainty(other.standard_potential_V * 1e3,
                                                reduction.standard_potential.std_dev * 1e3, "mV"))
     catalogue = reduction.catalogue
     if catalogue is not None:
