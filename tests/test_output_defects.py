@@ -400,3 +400,33 @@ def test_other_basis_names_its_units(tmp_path):
         pytest.approx(0.169, abs=0.001)
     pressure_kPa, e0_V = other
     assert (pressure_kPa * 1e3, e0_V) == reduction.standard_potential_other_basis_V
+
+
+PUBLIC_API = {
+    "read_run": "activolt.data.runs", "reduce_run": "activolt.procedures.dilution",
+    "compare_models": "activolt.procedures.model_choice",
+    "monte_carlo": "activolt.procedures.montecarlo", "format_report": "activolt.report.text",
+    "build_record": "activolt.io.record", "cell_summary": "activolt.chemistry.cells",
+    "parse_electrolyte": "activolt.chemistry.electrolytes", "get_model": "activolt.activity",
+    "MODELS": "activolt.activity",
+}
+
+
+def test_import_activolt_is_light_and_exports_the_api_lazily():
+    import importlib
+    import subprocess
+    import sys
+
+    probe = ("import sys, activolt; "
+             "print(sorted(m for m in sys.modules if m.startswith('activolt')), "
+             "'numpy' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True,
+                         check=True).stdout.strip()
+    assert out == "['activolt'] False"
+    import activolt
+
+    for name, module in PUBLIC_API.items():
+        assert getattr(activolt, name) is getattr(importlib.import_module(module), name)
+        assert name in dir(activolt) and name in activolt.__all__
+    with pytest.raises(AttributeError, match="no attribute 'reduce'"):
+        activolt.reduce  # noqa: B018
