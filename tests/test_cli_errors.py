@@ -176,12 +176,7 @@ CASES: dict[str, Case] = {
     "enough rows but too few readings": Case(
         csv=table("molality_mol_kg,emf_V", *good_rows()[:2], "0.005,"),
         says=(r"only 2 usable reading", r"at least 3")),
-    "several series without --series": Case(
-        csv=table("molality_mol_kg,emf_V,series", *good_rows("A")[:4], *good_rows("B")[4:]),
-        column="series", says=(r"2 series", r"A, B", r"--series")),
-    "several series, some rows unnamed": Case(
-        csv=table("molality_mol_kg,emf_V,series", *good_rows("")[:4], *good_rows("B")[4:]),
-        column="series", says=(r"2 series \(\(unnamed\), B\)", r"--series")),
+    # several series without --series are all reduced (tests/test_many_series.py)
     "unknown --series": Case(
         csv=table("molality_mol_kg,emf_V,series", *good_rows("A")), args=("--series", "C"),
         column="series", says=(r"no series 'C'", r"the table has: A")),

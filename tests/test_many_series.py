@@ -272,7 +272,7 @@ def test_a_folder(tmp_path, capsys):
 def test_an_empty_folder_is_bad_input(tmp_path, capsys):
     (tmp_path / "empty").mkdir()
     assert main(["reduce", str(tmp_path / "empty")]) == 2
-    assert "no run table" in capsys.readouterr().err
+    assert "the folder holds no *.csv" in capsys.readouterr().err
 
 
 def test_series_still_picks_one(tmp_path, capsys):

@@ -269,8 +269,8 @@ def _run_tables(paths: Sequence[Path]) -> tuple[list[Path], str, Path]:
             found = sorted(p for p in path.glob("*.csv")
                            if p.is_file() and not p.name.startswith("."))
             if not found:
-                raise InputError("the folder holds no run table (*.csv); give a folder of run "
-                                 "tables or the tables themselves", file=str(path))
+                raise InputError("cannot read the run table: the folder holds no *.csv; check "
+                                 "the path, or give a folder of run tables", file=str(path))
             tables += found
         else:
             tables.append(path)
@@ -313,6 +313,7 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     from .procedures.many import reduce_many, series_name
     from .report.text import format_report
 
+    tables, name, default_out = _run_tables(paths)
     if json_path is not None:
         raise InputError("--json writes the record of one series; with several series each "
                          "record goes into the output folder (--out), or pick one with --series",
@@ -326,7 +327,6 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     if seed < 0:
         raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
                          column="--seed")
-    tables, name, default_out = _run_tables(paths)
     out = out if out is not None else default_out
     if runs is None:
         runs = []

@@ -126,8 +126,7 @@ class ManyReductions:
         by ``;``, what a reader should look at (``lack of fit``: the covariance was scaled by
         the reduced χ²; readings beyond the model's range, excluded, standing out or without a
         reading) or, for a series not reduced, ``refused: <reason>``; ``failure`` holds that
-        reason (empty
-        otherwise). A series not reduced has NaN numbers.
+        reason (empty otherwise). A series not reduced has NaN numbers.
         """
         rows = [_summary_row(o, self.model) for o in self.outcomes]
         frame = pd.DataFrame(rows, columns=list(SUMMARY_COLUMNS))
