@@ -32,7 +32,7 @@ import pandas as pd
 from uncertainties import correlated_values
 from uncertainties.core import AffineScalarFunc
 
-from ..activity import ActivityModel, get_model
+from ..activity import ActivityModel, Parameter, get_model
 from ..activity.hueckel import BATES_GUGGENHEIM_BA
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
@@ -358,7 +358,7 @@ def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, dat
     return dataclasses.replace(data, weights=1.0 / variance)
 
 
-@dataclass
+@dataclass(frozen=True)
 class _Fit:
     e0: float
     values: dict[str, float]
@@ -675,19 +675,51 @@ def reduce_run(run: Run, model: str = "hueckel",
         family = get_model(model)
     except ValueError as error:
         raise InputError(str(error), column="model") from None
-    fixed, fixed_u = _split_fixed(fixed)
+    start = _start(run, family, fixed)
+    held = _fit_and_hold(start)
+    judged = _judge(held, start.family)
+    spread = _covariance_components(judged, start)
+    return _assemble(start, judged, spread, remind_model_choice)
+
+
+@dataclass(frozen=True)
+class _Start:
+    """The run checked and prepared, and where each parameter starts."""
+
+    run: Run
+    family: ActivityModel
+    specs: tuple[Parameter, ...]
+    data: SeriesData
+    values: dict[str, float]
+    reasons: dict[str, str]
+    free: list[str]
+    fixed: dict[str, float]
+    fixed_u: dict[str, float]
+    temperature_K: float
+    warnings: list[str]
+
+
+def _start(run: Run, family: ActivityModel,
+           fixed: Mapping[str, float | tuple[float, float]] | None) -> _Start:
+    """Step 1: check the run and the held values, leave out readings beyond the model's range,
+    prepare the readings, and start every parameter at its held or conventional value."""
+    fixed_values, fixed_u = _split_fixed(fixed)
     specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
-    for name in fixed:
+    for name in fixed_values:
         if name not in {p.name for p in specs}:
             raise InputError(f"model '{family.name}' has no parameter '{name}'; it has: "
                              f"{', '.join(p.name for p in specs) or 'none'}", column="fixed")
-
     run, range_warning = _within_range(run, family)
     data = prepare_series(run)
     n = len(data.emf_V)
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
                          f"{_MIN_POINTS} to give E° with an uncertainty", file=str(run.path))
+    if np.unique(data.molality).size < 2:
+        raise InputError(f"all {n} usable readings are at one molality (m = "
+                         f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
+                         "series (at least 3 molalities); a single solution gives E° only with "
+                         "a stated γ±, as in the calibration of electrodes", file=str(run.path))
     electrolyte = run.metadata.electrolyte
     temperature = run.points.loc[run.points["flag"].isna(), "temperature_K"].to_numpy(float)
     spread = float(temperature.max() - temperature.min())
@@ -695,17 +727,15 @@ def reduce_run(run: Run, model: str = "hueckel",
         raise InputError(f"the readings span {spread:.2f} K; one E° needs one temperature "
                          "(within 2 K): split the run by temperature", file=str(run.path))
     warnings = list(run.warnings) + ([range_warning] if range_warning else [])
-    notes: list[str] = []
     if spread > 0.2:
         warnings.append(f"the readings span {spread:.2f} K; ln γ± uses each row's temperature, "
                         "but E° refers to the mean temperature and its own change with T over "
                         "that span is not corrected")
-
     values: dict[str, float] = {}
     reasons: dict[str, str] = {}
     for spec in specs:
-        if spec.name in fixed:
-            values[spec.name] = float(fixed[spec.name])
+        if spec.name in fixed_values:
+            values[spec.name] = fixed_values[spec.name]
             if not spec.minimum <= values[spec.name] <= spec.maximum:
                 raise InputError(f"{spec.name} = {values[spec.name]:g} {spec.unit} lies outside "
                                  f"its physical range [{spec.minimum:g}, {spec.maximum:g}]",
@@ -719,15 +749,32 @@ def reduce_run(run: Run, model: str = "hueckel",
                 reasons[spec.name] = (f"not used for {electrolyte.charge_type} electrolytes "
                                       f"({spec.description})")
     free = [p.name for p in specs if p.name not in reasons]
+    return _Start(run=run, family=family, specs=specs, data=data, values=values,
+                  reasons=reasons, free=free, fixed=fixed_values, fixed_u=fixed_u,
+                  temperature_K=float(np.mean(temperature)), warnings=warnings)
 
-    # Hold parameters until every free one is determined and at least one degree of freedom is
-    # left; held parameters take their conventional values.
+
+@dataclass(frozen=True)
+class _Held:
+    """The fit after holding what the data cannot determine."""
+
+    data: SeriesData
+    fit: _Fit
+    values: dict[str, float]
+    reasons: dict[str, str]
+    notes: tuple[str, ...]
+
+
+def _fit_and_hold(start: _Start) -> _Held:
+    """Step 2: fit, refine the readings once (vapour lowering, effective variance), and hold
+    parameters until every free one is determined and at least one degree of freedom is left;
+    held parameters take their conventional values."""
+    family, run = start.family, start.run
+    electrolyte = run.metadata.electrolyte
+    data, values, reasons, free = start.data, dict(start.values), dict(start.reasons), \
+        list(start.free)
+    n = len(data.emf_V)
     solutions = int(np.unique(data.molality).size)
-    if solutions < 2:
-        raise InputError(f"all {n} usable readings are at one molality (m = "
-                         f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
-                         "series (at least 3 molalities); a single solution gives E° only with "
-                         "a stated γ±, as in the calibration of electrodes", file=str(run.path))
     first_fit: _Fit | None = None
     while True:
         while free and (n - 1 - len(free) < 1 or solutions - 1 - len(free) < 0):
@@ -752,75 +799,127 @@ def reduce_run(run: Run, model: str = "hueckel",
         values = {**fit.values, name: parameter_spec(family, name).conventional(electrolyte,
                                                                        data.constants)}
         reasons[name] = why
-
+    notes = []
     for name, why in reasons.items():
-        if name in fixed:
+        if name in start.fixed:
             continue
         spec = parameter_spec(family, name)
         notes.append(f"{spec.symbol} held at {values[name]:.4g} {spec.unit} "
                      f"({spec.convention}): {why}")
-    if first_fit is not fit and first_fit is not None:
+    if first_fit is not fit:
         shift_mV = (fit.e0 - first_fit.e0) * 1e3
-        notes.append(f"holding {', '.join(n for n in reasons if n not in fixed)} moved E° by "
-                     f"{shift_mV:+.3f} mV from the fit with every parameter free")
+        notes.append(f"holding {', '.join(n for n in reasons if n not in start.fixed)} moved "
+                     f"E° by {shift_mV:+.3f} mV from the fit with every parameter free")
+    return _Held(data=data, fit=fit, values=values, reasons=reasons, notes=tuple(notes))
 
+
+@dataclass(frozen=True)
+class _Judged:
+    """The held fit with its lack of fit judged (and the covariance scaled for it)."""
+
+    held: _Held
+    data: SeriesData
+    fit: _Fit
+    birge: float
+    birge_dof: int
+    chi2_p: float
+    runs_p: float
+    warning: str | None
+
+
+def _judge(held: _Held, family: ActivityModel) -> _Judged:
+    """Step 3: the lack-of-fit rule (:func:`_judge_fit`): refuse a systematic misfit, scale
+    the readings' variances by the Birge ratio where they scatter more than stated."""
+    data, fit = held.data, held.fit
     birge, birge_dof, chi2_p, runs_p = _judge_fit(family, data, fit)
+    warning = None
     if birge > 1.0:
-        # The stated u(EMF) are contradicted by the scatter: every reading's variance (and so
-        # the covariance, the budget and the γ± uncertainties) is scaled by χ²ᵣ.
         data = dataclasses.replace(
             data, weights=data.weights / birge**2,
             u_emf_V=None if data.u_emf_V is None else data.u_emf_V * birge)
-        fit.covariance = fit.covariance * birge**2
-        warnings.append(
-            f"the readings or solutions scatter about the {family.title} more than "
-            + ("their stated u(EMF) allow" if data.stated_uncertainty else
-               "replicate readings of one solution do")
-            + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
+        fit = dataclasses.replace(fit, covariance=fit.covariance * birge**2)
+        warning = (f"the readings or solutions scatter about the {family.title} more than "
+                   + ("their stated u(EMF) allow" if data.stated_uncertainty else
+                      "replicate readings of one solution do")
+                   + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
+    return _Judged(held=held, data=data, fit=fit, birge=birge, birge_dof=birge_dof,
+                   chi2_p=chi2_p, runs_p=runs_p, warning=warning)
 
-    effects = _held_parameter_effects(family, electrolyte, data, fit,
-                                      [n for n in reasons if n not in fixed or n in fixed_u],
-                                      fixed_u)
+
+@dataclass(frozen=True)
+class _Components:
+    """What the covariance of (E°, free parameters) is made of, and the total."""
+
+    covariance: np.ndarray
+    type_b: np.ndarray | None
+    truncation: np.ndarray | None
+    common: list[tuple[str, float, np.ndarray, np.ndarray]]
+    uncertain_names: tuple[str, ...]
+    uncertain_covariance: np.ndarray
+    notes: tuple[str, ...]
+
+
+def _covariance_components(judged: _Judged, start: _Start) -> _Components:
+    """Step 4: the fit's covariance plus the Type B parts of held values, the terms a model
+    leaves out, and the inputs common to every reading (GUM 5.1.2, linear propagation)."""
+    family, run = start.family, start.run
+    electrolyte = run.metadata.electrolyte
+    data, fit = judged.data, judged.fit
+    covariance = fit.covariance
+    notes = []
+    effects = _held_parameter_effects(
+        family, electrolyte, data, fit,
+        [n for n in judged.held.reasons if n not in start.fixed or n in start.fixed_u],
+        start.fixed_u)
     type_b = None
     uncertain_names = (E0, *fit.free)
     if effects is not None:
         held_names, moves, variances = effects
         type_b = (moves * variances) @ moves.T
-        cross = moves * variances
-        fit.covariance = fit.covariance + type_b
+        covariance = covariance + type_b
         uncertain_names = (*uncertain_names, *held_names)
-        uncertain_covariance = np.block([[fit.covariance, cross],
-                                         [cross.T, np.diag(variances)]])
-        notes.append(
-            "u(E°) includes a component of "
-            f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
-            "conventional value(s) (GUM Type B)")
-
+        notes.append("u(E°) includes a component of "
+                     f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
+                     "conventional value(s) (GUM Type B)")
     truncation = _truncation_effect(family, electrolyte, data, fit)
     if truncation is not None:
-        fit.covariance = fit.covariance + np.outer(truncation, truncation)
+        covariance = covariance + np.outer(truncation, truncation)
         notes.append(f"u(E°) includes {abs(truncation[0]) * 1e3:.3g} mV for the terms the "
                      f"{family.title} leaves out (extended Debye–Hückel with Bå = 1.5; GUM "
                      "Type B)")
-
     common = _common_input_effects(run, family, electrolyte, data, fit)
-    for _, u, moves, _ in common:
-        fit.covariance = fit.covariance + np.outer(moves, moves) * u**2
-    if effects is not None:
-        uncertain_covariance = np.block([[fit.covariance, cross],
-                                         [cross.T, np.diag(variances)]])
-    budget = _budget(run, data, fit, type_b, common, birge, truncation)
+    for _, u, shift, _ in common:
+        covariance = covariance + np.outer(shift, shift) * u**2
+    if effects is None:
+        uncertain_covariance = covariance
+    else:
+        cross = moves * variances
+        uncertain_covariance = np.block([[covariance, cross], [cross.T, np.diag(variances)]])
+    return _Components(covariance=covariance, type_b=type_b, truncation=truncation,
+                       common=common, uncertain_names=uncertain_names,
+                       uncertain_covariance=uncertain_covariance, notes=tuple(notes))
 
-    stats = _statistics(fit, data, birge, birge_dof, chi2_p, runs_p)
+
+def _assemble(start: _Start, judged: _Judged, parts: _Components,
+              remind_model_choice: bool) -> Reduction:
+    """Step 5: the points table with γ± and its budget, diagnostics, and the result."""
+    run, family = start.run, start.family
+    electrolyte = run.metadata.electrolyte
+    data = judged.data
+    fit = dataclasses.replace(judged.fit, covariance=parts.covariance)
+    warnings = [*start.warnings, *([judged.warning] if judged.warning else [])]
+    budget = _budget(run, data, fit, parts.type_b, parts.common, judged.birge,
+                     parts.truncation)
+    stats = _statistics(fit, data, judged.birge, judged.birge_dof, judged.chi2_p,
+                        judged.runs_p)
     if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
             MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
         warnings.append(MODEL_CHOICE_REMINDER)
-
-    if effects is None:
-        uncertain_covariance = fit.covariance
-    table, gamma_propagation = _points_table(run, family, data, fit, type_b, uncertain_names,
-                                             uncertain_covariance, common, truncation)
+    table, gamma_propagation = _points_table(run, family, data, fit, parts.type_b,
+                                             parts.uncertain_names, parts.uncertain_covariance,
+                                             parts.common, parts.truncation)
     warnings += _diagnose(table, data, fit)
+    reasons = judged.held.reasons
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
@@ -829,21 +928,21 @@ def reduce_run(run: Run, model: str = "hueckel",
                          if p.name in fit.free else math.nan),
             fixed=p.name not in fit.free, reason=reasons.get(p.name),
         )
-        for p in specs
+        for p in start.specs
     )
     e0_value = correlated_values([fit.e0], fit.covariance[:1, :1])[0]
-    corrections, other_basis = _corrections_summary(run, data, float(np.mean(temperature)))
-    catalogue = _catalogue_value(run, float(np.mean(temperature)))
+    corrections, other_basis = _corrections_summary(run, data, start.temperature_K)
     return Reduction(
-        run=run, model=family, temperature_K=float(np.mean(temperature)),
+        run=run, model=family, temperature_K=start.temperature_K,
         standard_potential=e0_value, parameters=parameters,
         free_names=(E0, *fit.free), covariance=fit.covariance, statistics=stats,
         points=table, gamma_propagation=gamma_propagation,
         linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
-        warnings=tuple(warnings), notes=tuple(notes),
-        corrections=corrections, other_basis=other_basis, catalogue=catalogue,
-        uncertain_names=uncertain_names, uncertain_covariance=uncertain_covariance,
-        budget=budget, data=data,
+        warnings=tuple(warnings), notes=(*judged.held.notes, *parts.notes),
+        corrections=corrections, other_basis=other_basis,
+        catalogue=_catalogue_value(run, start.temperature_K),
+        uncertain_names=parts.uncertain_names,
+        uncertain_covariance=parts.uncertain_covariance, budget=budget, data=data,
     )
 
 
