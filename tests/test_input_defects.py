@@ -149,6 +149,12 @@ REFUSED: dict[str, Case] = {
     "a molality of 1e-320": Case(
         csv=table("molality_mol_kg,emf_V", "1e-320,0.9", *good_rows()), toml=HCL_TOML,
         line=3, column="molality_mol_kg", says=(r"implausibly small", r"mol/kg")),
+    "molalities 1e-12 apart": Case(
+        csv=table("molality_mol_kg,emf_V", "1e-07,0.7587833947112783",
+                  "1.000000000001e-07,0.7587833947112311",
+                  "1.0000000000019999e-07,0.7587833947111842"),
+        toml=HCL_TOML, line=4, column="molality_mol_kg",
+        says=(r"no weighing tells them apart", r"same value")),
     "an EMF of 5 V": Case(
         csv=table("molality_mol_kg,emf_V", "0.0005,5.0", *good_rows()), toml=HCL_TOML,
         line=3, column="emf_V", says=(r"implausible",)),

@@ -731,9 +731,32 @@ def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata) -> li
     usable = points[points["flag"].isna()]
     if usable.empty or usable["temperature_K"].isna().any():
         return []
+    _check_distinct_molalities(path, usable)
     gas_term = _check_gas_pressure(path, usable, metadata)
     _check_response(path, usable, metadata, emf_column, gas_term)
     return []
+
+
+#: Two molalities closer than this (relative) but not equal are refused: no weighing tells
+#: them apart, and they make the extrapolation singular.
+_SAME_MOLALITY_RELATIVE = 1e-9
+
+
+def _check_distinct_molalities(path: Path, usable: pd.DataFrame) -> None:
+    """Molalities are equal (the same solution read again) or apart by more than 1e-9."""
+    order = usable.sort_values("molality_mol_kg", kind="stable")
+    molality = order["molality_mol_kg"].to_numpy(float)
+    gap = np.diff(molality)
+    close = (gap > 0) & (gap <= _SAME_MOLALITY_RELATIVE * molality[1:])
+    if close.any():
+        i = int(np.flatnonzero(close)[0])
+        lines = order["line"].to_numpy(int)
+        first, second = sorted((int(lines[i]), int(lines[i + 1])))
+        raise InputError(
+            f"molality {molality[i + 1]!r} mol/kg differs from {molality[i]!r} (line {first}) by "
+            f"less than {_SAME_MOLALITY_RELATIVE:g} of its value — no weighing tells them apart; "
+            "write the same value for readings of one solution, or check the digits",
+            file=str(path), line=second, column="molality_mol_kg")
 
 
 def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata) -> np.ndarray:
