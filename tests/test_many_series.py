@@ -14,7 +14,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import time
 from pathlib import Path
 
 import numpy as np
@@ -115,27 +114,11 @@ def _write_many(path: Path, n_series: int) -> None:
     path.with_suffix(".toml").write_text(TOML, encoding="utf-8")
 
 
-def test_reading_many_series_is_linear_in_rows(tmp_path, monkeypatch):
-    small, large = tmp_path / "s200.csv", tmp_path / "s1000.csv"
-    _write_many(small, 200)
-    _write_many(large, 1000)
-    read_runs(small)  # warm up (imports, caches)
-
-    def best_of_two(path: Path) -> float:
-        times = []
-        for _ in range(2):
-            start = time.perf_counter()
-            runs = read_runs(path)
-            times.append(time.perf_counter() - start)
-        assert len(runs) == int(path.stem[1:])
-        return min(times)
-
-    ratio = best_of_two(large) / best_of_two(small)
-    # 5× the rows: linear gives ~5, a re-parse per series ~25 (common practice: a ratio bound,
-    # not an absolute time, so that a slow machine does not fail the test)
-    assert ratio < 8.0, ratio
-
-    # and each line is parsed once, whatever the number of series
+def test_reading_many_series_parses_each_line_once(tmp_path, monkeypatch):
+    """A file of many series is read in one pass (the cost is linear in rows; timing itself
+    is measured in bench/, not here): the CSV parser sees the header and every row once."""
+    large = tmp_path / "s300.csv"
+    _write_many(large, 300)
     parsed = []
     reader = csv.reader
 
@@ -144,8 +127,8 @@ def test_reading_many_series_is_linear_in_rows(tmp_path, monkeypatch):
         return reader(*args, **kwargs)
 
     monkeypatch.setattr(csv, "reader", counting)
-    read_runs(large)
-    assert len(parsed) == 1 + 1000 * len(MOLALITY)  # the header and every row, once
+    assert len(read_runs(large)) == 300
+    assert len(parsed) == 1 + 300 * len(MOLALITY)  # the header and every row, once
 
 
 # --- the library -----------------------------------------------------------------------------

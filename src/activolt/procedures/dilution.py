@@ -420,7 +420,10 @@ def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
         span = spec.maximum - spec.minimum
         span = span if math.isfinite(span) else 1.0
         if min(abs(value - spec.minimum), abs(spec.maximum - value)) < 1e-4 * span:
-            return name, f"the fit ran to the bound {value:g} {spec.unit}"
+            side, bound = (("lower", spec.minimum) if value - spec.minimum
+                           <= spec.maximum - value else ("upper", spec.maximum))
+            return name, f"the fit ran to its {side} bound ({bound:g} {spec.unit})".replace(
+                " )", ")")
         if not math.isfinite(variance) or variance <= 0.0:
             return name, "its uncertainty cannot be estimated from these data"
         u = math.sqrt(variance)

@@ -6,7 +6,6 @@ import math
 
 import pandas as pd
 
-from ..fit.problem import parameter_spec
 from ..procedures.dilution import Reduction
 from ..procedures.model_choice import ModelComparison
 from ..procedures.montecarlo import MonteCarloResult
@@ -14,7 +13,7 @@ from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import compare_with_published, comparison_lines
 from .model_table import format_model_comparison
-from .numbers import decimals_for, format_bound_reason, format_compact, format_with_uncertainty
+from .numbers import decimals_for, format_compact, format_with_uncertainty
 
 
 def _e0_line(reduction: Reduction) -> str:
@@ -77,11 +76,9 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
                                       catalogue.u_standard_potential_V * 1e3, "mV")
             + "; this run − catalogue = "
             + format_with_uncertainty(difference.nominal_value * 1e3, u_diff * 1e3, "mV"))
-    bounds = _bounds(reduction)
     for p in reduction.parameters:
         shown = format_with_uncertainty(p.value, p.uncertainty, p.unit)
-        reason = format_bound_reason(p.reason, bounds.get(p.name, {})) if p.reason else None
-        lines.append(f"  {p.symbol} = {shown}" + (f" — {reason}" if p.fixed and reason
+        lines.append(f"  {p.symbol} = {shown}" + (f" — {p.reason}" if p.fixed and p.reason
                                                    else ""))
     weighting = stats.covariance_note
     # With unit weights χ² is the sum of squared residuals, a quantity in V².
@@ -131,7 +128,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
-        lines += [""] + [f"  note: {_bound_text(n, bounds)}" for n in reduction.notes]
+        lines += [""] + [f"  note: {n}" for n in reduction.notes]
     if reduction.warnings:
         lines += [""] + [f"  warning: {w}" for w in dict.fromkeys(reduction.warnings)]
     text = "\n".join(lines) + "\n"
@@ -144,24 +141,6 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
         text += "\n" + "\n".join(["  safety:", *[f"  - {c}" for c in cautions]]) + "\n"
     # user text (file, series, electrolyte and cell names, reasons, warnings) shown as printable
     return escape_controls(text, keep="\n")
-
-
-def _bounds(reduction: Reduction) -> dict[str, dict[str, tuple[float, float]]]:
-    """Parameter name → {unit: (minimum, maximum)} of the reduction's parameters."""
-    found = {}
-    for p in reduction.parameters:
-        try:
-            spec = parameter_spec(reduction.model, p.name)
-        except KeyError:
-            continue
-        found[p.name] = {spec.unit: (spec.minimum, spec.maximum)}
-    return found
-
-
-def _bound_text(note: str, bounds: dict[str, dict[str, tuple[float, float]]]) -> str:
-    """A note with a "ran to the bound" number written as the bound (any parameter's unit)."""
-    merged = {unit: span for per in bounds.values() for unit, span in per.items()}
-    return format_bound_reason(note, merged)
 
 
 def _points_lines(points: pd.DataFrame) -> list[str]:
