@@ -110,3 +110,26 @@ def test_a_reduction_shows_itself_in_one_line(tmp_path):
     text = repr(reduction)
     assert "\n" not in text and len(text) < 200
     assert text.startswith("<Reduction HCl, hueckel, 8 readings: E° = 0.2223")
+
+
+@pytest.mark.parametrize("celsius", [0.0, 100.0])
+def test_monte_carlo_of_u_t_at_the_ends_of_liquid_water(tmp_path, celsius):
+    """At 0 and 100 °C the drawn temperatures need Debye–Hückel constants just outside liquid
+    water: they are interpolated from inside it, and the Monte Carlo agrees with the linear
+    propagation of u(T) (regression of the mechanism; the ratio bound is common practice for
+    2000 trials)."""
+    from activolt.procedures.montecarlo import monte_carlo
+
+    m = np.geomspace(0.001, 0.1, 8)
+    t = 273.15 + celsius
+    constants = debye_hueckel_constants(np.full(m.size, t))
+    emf = emf_from_gamma(m, np.exp(ln_gamma(HCL, m, constants, TRUTH)), 0.2, temperature_K=t)
+    path = write_run(tmp_path, m, emf, u_emf_V=1e-6, temperature_C=celsius)
+    path.with_suffix(".toml").write_text(path.with_suffix(".toml").read_text()
+                                         + "u_temperature_K = 0.2\n")
+    run = read_run(path)
+    reduction = reduce_run(run, fixed={"a_angstrom": 4.3})
+    result = monte_carlo(run, trials=2000, seed=6, reduction=reduction)
+    budget = {line.component: line.u_V for line in reduction.budget}
+    linear = float(np.hypot(budget["temperature"], budget["readings"]))
+    assert result.standard_potential.standard_deviation == pytest.approx(linear, rel=0.1)

@@ -162,8 +162,6 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     if seed < 0:
         raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
                          column="--seed")
-    if trials is not None:
-        _check_monte_carlo_temperature(run)
     comparison = None
     if model == "all" or "," in model:
         from .activity import MODELS
@@ -206,29 +204,6 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     return done
 
 
-#: How far inside liquid water the Monte Carlo needs the run temperature when it draws u(T):
-#: it interpolates the Debye–Hückel constants between T − 1 K and T + 1 K [K].
-MONTE_CARLO_TEMPERATURE_MARGIN_K = 1.0
-
-
-def _check_monte_carlo_temperature(run: Run) -> None:
-    """--monte-carlo with a stated u(T) needs every temperature 1 K inside liquid water."""
-    from .constants import ZERO_CELSIUS_K
-
-    u = run.metadata.u_temperature_K
-    if u <= 0:
-        return
-    celsius = run.points["temperature_K"] - ZERO_CELSIUS_K
-    margin = MONTE_CARLO_TEMPERATURE_MARGIN_K
-    near = (celsius < margin) | (celsius > 100.0 - margin)
-    if near.any():
-        raise InputError(
-            f"--monte-carlo draws the temperature with u(T) = {u:g} K, but the run at "
-            f"{float(celsius[near].iloc[0]):g} °C lies within {margin:g} K of the end of liquid "
-            "water, where the draw cannot be evaluated; leave out --monte-carlo (the linear "
-            "budget includes u(T)), or set u_temperature_K = 0",
-            file=str(run.path), line=int(run.points.loc[near, "line"].iloc[0]),
-            column="--monte-carlo")
 
 
 def series_file_name(series: str) -> str:
@@ -353,10 +328,6 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     inputs = list(dict.fromkeys(
         p for run in runs for p in (run.path, run.metadata_path) if p is not None))
     check_outputs(out, owned, [], inputs)
-    if trials is not None:
-        for run in runs:
-            _check_monte_carlo_temperature(run)
-
     with _progress(len(runs), "reducing") as bar:
         result = reduce_many(runs, model=model, fixed=fixed, progress=bar.update)
     contents: dict[str, bytes | str] = {}

@@ -15,6 +15,7 @@ import numpy as np
 from ..chemistry.electrolytes import Electrolyte
 from ..physics.water import DebyeHueckelConstants
 from .base import ActivityModel
+from .hueckel import extended_debye_hueckel
 
 
 def ln_gamma(
@@ -54,10 +55,8 @@ def truncation(
     (å ≈ 4.6 Å, typical of the ions of common salts; Bates & Guggenheim 1960, Pure Appl. Chem.
     1, 163) and the limiting law.
     """
-    sqrt_i = np.sqrt(electrolyte.ionic_strength(molality))
-    ba = 1.5
-    return (electrolyte.charge_product * constants.agamma * sqrt_i
-            * ba * sqrt_i / (1.0 + ba * sqrt_i))
+    return (extended_debye_hueckel(electrolyte, molality, constants.agamma)
+            - ln_gamma(electrolyte, molality, constants, parameters))
 
 
 MODEL = ActivityModel(

@@ -20,7 +20,7 @@ from ..chemistry.electrolytes import Electrolyte
 from ..constants import ZERO_CELSIUS_K
 from ..physics.water import debye_hueckel_constants
 from ..reference import load_table
-from .hueckel import BATES_GUGGENHEIM_BA
+from .hueckel import extended_debye_hueckel
 
 #: Largest difference between the run's temperature and a table's for a comparison [K].
 TEMPERATURE_TOLERANCE_K = 0.5
@@ -238,11 +238,10 @@ def interpolate_gamma(table: pd.DataFrame, molality: npt.ArrayLike, electrolyte:
     """
     from scipy.interpolate import PchipInterpolator
 
+    a_gamma = float(debye_hueckel_constants(temperature_K).agamma[0])
+
     def extended_dh(m: np.ndarray) -> np.ndarray:
-        sqrt_i = np.sqrt(electrolyte.ionic_strength(m))
-        a_gamma = float(debye_hueckel_constants(temperature_K).agamma[0])
-        return -electrolyte.charge_product * a_gamma * sqrt_i / (1.0 + BATES_GUGGENHEIM_BA
-                                                                  * sqrt_i)
+        return extended_debye_hueckel(electrolyte, m, a_gamma)
 
     mean = table.groupby("molality_mol_kg", sort=True)["gamma_pm"].mean()  # several sources
     m_table = mean.index.to_numpy(float)

@@ -33,10 +33,11 @@ from uncertainties import correlated_values
 from uncertainties.core import AffineScalarFunc
 
 from ..activity import ActivityModel, Parameter, get_model
-from ..activity.hueckel import BATES_GUGGENHEIM_BA
+from ..activity.hueckel import extended_debye_hueckel
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
+from ..fit.least_squares import linear_least_squares
 from ..fit.problem import (
     E0,
     SLOPE,
@@ -57,8 +58,17 @@ from ..fit.uncertainty import (
 )
 from ..physics.water import debye_hueckel_constants
 
-__all__ = ["FitStatistics", "FittedParameter", "LinearExtrapolation", "Reduction", "reduce_run",
-           "reduction_jacobian", "sensitivity_matrix", "with_model_choice"]
+__all__ = [
+    "FitStatistics",
+    "FittedParameter",
+    "LinearExtrapolation",
+    "Reduction",
+    "mean_temperature",
+    "reduce_run",
+    "reduction_jacobian",
+    "sensitivity_matrix",
+    "with_model_choice",
+]
 
 #: Largest spread of temperatures in one run that is reduced to one E° [K].
 MAX_TEMPERATURE_SPREAD_K = 2.0
@@ -486,26 +496,28 @@ def _linear_extrapolation(run: Run, data: SeriesData, slope: float) -> LinearExt
     use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
     if np.unique(data.molality[use]).size < 3:
         return None
-    sqrt_i = np.sqrt(ionic[use])
-    a = data.constants.agamma[use]
-    ln_gamma_dh = -electrolyte.charge_product * a * sqrt_i / (1.0 + BATES_GUGGENHEIM_BA * sqrt_i)
+    ln_gamma_dh = extended_debye_hueckel(electrolyte, data.molality[use],
+                                         data.constants.agamma[use])
     k = data.sign * slope * data.nernst_V[use]
     y = data.emf_V[use] + k * (data.ln_mean_molality[use] + ln_gamma_dh)
     x = data.molality[use]
-    design = np.column_stack([np.ones_like(x), x])
-    w = data.weights[use]
-    normal = design.T @ (design * w[:, None])
-    coef = np.linalg.solve(normal, design.T @ (w * y))
-    resid = y - design @ coef
-    cov = np.linalg.inv(normal)
-    dof = len(x) - 2
-    if not data.stated_uncertainty:
-        cov = cov * float(np.sum(w * resid**2)) / dof
+    try:
+        line = linear_least_squares(np.column_stack([np.ones_like(x), x]), y, data.weights[use],
+                                    scale_covariance=not data.stated_uncertainty)
+    except FitError:
+        return None  # molalities too close together for a straight line
+    coef, cov = line.value_array, line.covariance
     return LinearExtrapolation(
         standard_potential_V=float(coef[0]), u_standard_potential_V=float(math.sqrt(cov[0, 0])),
         slope_V_kg_mol=float(coef[1]), n_points=int(use.sum()),
         max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH,
     )
+
+
+def mean_temperature(temperature_K: np.ndarray) -> float:
+    """The mean of the rows' temperatures [K], never outside their range by rounding (18 rows
+    at 273.15 K must not average to 273.1499999999999 K, outside liquid water)."""
+    return float(np.clip(np.mean(temperature_K), temperature_K.min(), temperature_K.max()))
 
 
 def _split_fixed(fixed: Mapping[str, float | tuple[float, float]] | None
@@ -754,7 +766,7 @@ def _start(run: Run, family: ActivityModel,
     free = [p.name for p in specs if p.name not in reasons]
     return _Start(run=run, family=family, specs=specs, data=data, values=values,
                   reasons=reasons, free=free, fixed=fixed_values, fixed_u=fixed_u,
-                  temperature_K=float(np.mean(temperature)), warnings=warnings)
+                  temperature_K=mean_temperature(temperature), warnings=warnings)
 
 
 @dataclass(frozen=True)

@@ -72,6 +72,7 @@ from .dilution import (
     FitStatistics,
     FittedParameter,
     Reduction,
+    mean_temperature,
     reduce_run,
     with_model_choice,
 )
@@ -477,7 +478,7 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
                         "the molality range or check the readings")
     return ModelComparison(
         electrolyte=run.metadata.electrolyte.formula,
-        temperature_K=float(np.mean(usable_points(run)["temperature_K"].to_numpy(float))),
+        temperature_K=mean_temperature(usable_points(run)["temperature_K"].to_numpy(float)),
         n_points=len(usable_points(run)), stated_uncertainty=stated,
         assessments=tuple(assessments), skipped=tuple(skipped), spread_V=spread,
         u_model_choice_V=u_model, recommended=recommended, standard_potential_V=e0,

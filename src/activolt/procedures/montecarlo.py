@@ -174,22 +174,26 @@ def _summary(samples: np.ndarray, coverage: float) -> SampleSummary:
 
 def _constants_at(constants: DebyeHueckelConstants, shift_K: np.ndarray
                   ) -> DebyeHueckelConstants:
-    """Debye–Hückel constants at every row's temperature + shift, by quadratic interpolation in
-    the shift between T − 1 K, T and T + 1 K (A_φ and B vary smoothly with T; the interpolation
-    error for |shift| ≤ 1 K is below 10⁻⁷ relative)."""
+    """Debye–Hückel constants at every row's temperature + shift, by quadratic interpolation
+    through T_c − 1 K, T_c and T_c + 1 K, with T_c the row's temperature moved at least 1 K
+    inside liquid water (A_φ and B vary smoothly with T; the interpolation error for a shift
+    within about 1 K of T_c is below 10⁻⁷ relative)."""
     base = np.asarray(constants.temperature, dtype=float)
-    below = debye_hueckel_constants(base - 1.0)
-    above = debye_hueckel_constants(base + 1.0)
+    centre = np.clip(base, 273.15 + 1.0, 373.15 - 1.0)
+    below = debye_hueckel_constants(centre - 1.0)
+    middle = constants if np.array_equal(centre, base) else debye_hueckel_constants(centre)
+    above = debye_hueckel_constants(centre + 1.0)
+    offset = base + shift_K - centre
 
     def interpolate(low: np.ndarray, mid: np.ndarray, high: np.ndarray) -> np.ndarray:
         slope = (high - low) / 2.0
         curvature = (high - 2.0 * mid + low) / 2.0
-        return mid + slope * shift_K + curvature * shift_K**2
+        return mid + slope * offset + curvature * offset**2
 
     return DebyeHueckelConstants(
         temperature=base + shift_K,
-        aphi=interpolate(below.aphi, constants.aphi, above.aphi),
-        b=interpolate(below.b, constants.b, above.b),
+        aphi=interpolate(below.aphi, middle.aphi, above.aphi),
+        b=interpolate(below.b, middle.b, above.b),
     )
 
 

@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 import numpy.typing as npt
 
-from ..activity.hueckel import BATES_GUGGENHEIM_BA
+from ..activity.hueckel import extended_debye_hueckel
 from ..activity.published import published_gamma
 from ..chemistry.electrolytes import nernst_factor
 from ..fit.engine import SLOPE
@@ -37,10 +37,8 @@ def _axes(ax: Axes | None) -> Axes:
 def _ln_gamma_reference(reduction: Reduction, molality: np.ndarray,
                         temperature_K: np.ndarray) -> np.ndarray:
     """Extended Debye–Hückel ln γ± with Bå = 1.5, the term taken out in the extrapolation plot."""
-    electrolyte = reduction.electrolyte
-    sqrt_i = np.sqrt(electrolyte.ionic_strength(molality))
-    a_gamma = debye_hueckel_constants(temperature_K).agamma
-    return -electrolyte.charge_product * a_gamma * sqrt_i / (1.0 + BATES_GUGGENHEIM_BA * sqrt_i)
+    return extended_debye_hueckel(reduction.electrolyte, molality,
+                                  debye_hueckel_constants(temperature_K).agamma)
 
 
 def extrapolation_function_V(reduction: Reduction) -> tuple[np.ndarray, np.ndarray]:
