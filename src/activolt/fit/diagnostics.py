@@ -389,6 +389,40 @@ def log_run_probability(runs: int, n1: int, n2: int) -> float:
     return -math.inf if ways == 0 else math.log(ways) - math.log(total)
 
 
+def _log_comb(n: np.ndarray | int, k: np.ndarray) -> np.ndarray:
+    """ln C(n, k), −∞ where k < 0 or k > n."""
+    from scipy.special import gammaln
+
+    n = np.broadcast_to(np.asarray(n, dtype=float), np.shape(k))
+    k = np.asarray(k, dtype=float)
+    valid = (k >= 0.0) & (k <= n)
+    safe_k = np.where(valid, k, 0.0)
+    value = gammaln(n + 1.0) - gammaln(safe_k + 1.0) - gammaln(n - safe_k + 1.0)
+    return np.where(valid, value, -np.inf)
+
+
+def log_run_probabilities(runs: npt.ArrayLike, n1: int, n2: int) -> np.ndarray:
+    """ln P(R = r | n1, n2) for each r of ``runs`` at once (Swed & Eisenhart 1943), in
+    O(len(runs)) with log-gamma functions: :func:`log_run_probability` (exact integers) costs
+    O(n²) digits and is unusable beyond a few thousand values.
+
+    Examples
+    --------
+    >>> r = np.arange(2, 13)
+    >>> bool(np.allclose(log_run_probabilities(r, 7, 5),
+    ...                  [log_run_probability(int(k), 7, 5) for k in r], rtol=1e-12))
+    True
+    """
+    r = np.asarray(runs, dtype=int)
+    total = _log_comb(n1 + n2, np.asarray(n1))
+    k_even = r // 2
+    even = np.log(2.0) + _log_comb(n1 - 1, k_even - 1) + _log_comb(n2 - 1, k_even - 1)
+    k_odd = (r - 1) // 2
+    odd = np.logaddexp(_log_comb(n1 - 1, k_odd) + _log_comb(n2 - 1, k_odd - 1),
+                       _log_comb(n1 - 1, k_odd - 1) + _log_comb(n2 - 1, k_odd))
+    return np.where(r % 2 == 0, even, odd) - total
+
+
 def runs_test(values: npt.ArrayLike) -> RunsTest:
     r"""Wald–Wolfowitz runs test of the signs of a sequence.
 
@@ -446,16 +480,17 @@ def runs_test(values: npt.ArrayLike) -> RunsTest:
     variance = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1)) if n > 1 else 0.0
     sd = math.sqrt(variance)
     z = (runs - expected) / sd if sd > 0.0 else math.nan
-    probabilities = {r: math.exp(log_run_probability(r, n1, n2))
-                     for r in range(2, n + 1)}
-    fewer = min(1.0, sum(p for r, p in probabilities.items() if r <= runs))
-    more = min(1.0, sum(p for r, p in probabilities.items() if r >= runs))
+    counts = np.arange(2, n + 1)
+    probabilities = np.exp(log_run_probabilities(counts, n1, n2))
+    fewer = min(1.0, float(np.sum(probabilities[counts <= runs])))
+    more = min(1.0, float(np.sum(probabilities[counts >= runs])))
     return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=expected,
                     sd_runs=sd, z=z, p_value_two_sided=min(1.0, 2.0 * min(fewer, more)),
                     p_value_fewer=fewer)
 
 
-def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000) -> tuple[float, float]:
+def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
+                            exact_up_to: int = 1000) -> tuple[float, float]:
     r"""Lag-1 serial correlation of a sequence and its one-sided permutation probability.
 
     Parameters
@@ -465,6 +500,9 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000) -> 
         NaN left out.
     permutations : int
         Number of random orderings for the probability (fixed seed, so the result repeats).
+    exact_up_to : int
+        Longest sequence whose probability comes from random orderings; a longer one takes the
+        normal approximation with the exact permutation mean and variance (below).
 
     Returns
     -------
@@ -478,7 +516,20 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000) -> 
     the statistic of the Durbin–Watson family (Durbin & Watson 1950, Biometrika 37, 409):
     residuals of a model that misses a curvature follow each other smoothly (ρ₁ > 0) even when a
     few signs break the runs. The probability is that of a permutation test (Fisher 1935;
-    Good 2005, *Permutation, Parametric and Bootstrap Tests of Hypotheses*, ch. 3).
+    Good 2005, *Permutation, Parametric and Bootstrap Tests of Hypotheses*, ch. 3). Beyond
+    ``exact_up_to`` values (where drawing the orderings would cost time and memory of order
+    ``permutations`` × J) it is 1 − Φ(z), z = (T − E T)/√var T with T = Σ r_i r_{i−1} and its
+    mean and variance over all J! orderings, which the serial statistic approaches for large J
+    (Wald & Wolfowitz 1943, Ann. Math. Statist. 14, 378): with p_k = Σ r_i^k and the sums over
+    distinct indices d₂ = p₁² − p₂, d₂₂ = p₂² − p₄, d₂₁₁ = p₁²p₂ − p₂² − 2p₁p₃ + 2p₄,
+    d₁₁₁₁ = p₁⁴ − 6p₁²p₂ + 3p₂² + 8p₁p₃ − 6p₄, and (J)_k the falling factorial,
+
+    .. math:: E\,T = (J−1) μ, \quad μ = d_2/(J)_2, \qquad
+              \mathrm{var}\,T = (J−1)(d_{22}/(J)_2 − μ^2) + 2(J−2)(d_{211}/(J)_3 − μ^2)
+              + (J−2)(J−3)(d_{1111}/(J)_4 − μ^2)
+
+    (adjacent pairs share one element, J − 2 of them; (J − 2)(J − 3)/2 pairs of pairs share
+    none).
 
     Examples
     --------
@@ -497,7 +548,46 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000) -> 
     x = x - 0.0
     denominator = float(np.sum(x**2))
     rho = float(np.sum(x[1:] * x[:-1])) / denominator
+    if x.size > exact_up_to:
+        from scipy.special import ndtr
+
+        mean, variance = serial_moments(x)
+        if not variance > 0.0:
+            return rho, math.nan
+        z = (rho * denominator - mean) / math.sqrt(variance)
+        return rho, float(ndtr(-z))
     rng = np.random.default_rng(0)
     shuffled = rng.permuted(np.broadcast_to(x, (permutations, x.size)), axis=1)
     rho_random = np.sum(shuffled[:, 1:] * shuffled[:, :-1], axis=1) / denominator
     return rho, float((np.sum(rho_random >= rho - 1e-15) + 1) / (permutations + 1))
+
+
+def serial_moments(values: npt.ArrayLike) -> tuple[float, float]:
+    r"""Mean and variance of T = Σ_{i≥2} x_i x_{i−1} over all orderings of ``values``.
+
+    The formulas are those in the notes of :func:`serial_correlation_test` (sums over distinct
+    indices written with power sums; Wald & Wolfowitz 1943).
+
+    Examples
+    --------
+    The 24 orderings of (1, 2, 3, 4) give T a mean of 17.5 and a variance of 155/12
+    (hand count over the orderings):
+
+    >>> mean, variance = serial_moments([1.0, 2.0, 3.0, 4.0])
+    >>> round(mean, 10), round(variance - 155 / 12, 10)
+    (17.5, 0.0)
+    """
+    x = np.asarray(values, dtype=float).ravel()
+    j = float(x.size)
+    if x.size < 4:
+        raise ValueError("the moments need at least four values")
+    p1, p2, p3, p4 = (float(np.sum(x**k)) for k in (1, 2, 3, 4))
+    f2, f3, f4 = j * (j - 1.0), j * (j - 1.0) * (j - 2.0), j * (j - 1.0) * (j - 2.0) * (j - 3.0)
+    mu = (p1**2 - p2) / f2
+    d22 = (p2**2 - p4) / f2
+    d211 = (p1**2 * p2 - p2**2 - 2.0 * p1 * p3 + 2.0 * p4) / f3
+    d1111 = (p1**4 - 6.0 * p1**2 * p2 + 3.0 * p2**2 + 8.0 * p1 * p3 - 6.0 * p4) / f4
+    variance = ((j - 1.0) * (d22 - mu**2) + 2.0 * (j - 2.0) * (d211 - mu**2)
+                + (j - 2.0) * (j - 3.0) * (d1111 - mu**2))
+    return (j - 1.0) * mu, variance
+
