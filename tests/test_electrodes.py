@@ -224,6 +224,14 @@ def test_amalgam_couples():
     assert amalgam_couple(couple("H+/H2")) is None
 
 
-def test_catalogue_is_immutable_tuple():
-    assert isinstance(catalogue(), tuple)
-    assert catalogue() is catalogue()
+def test_every_call_gives_the_same_uncertain_potentials():
+    """A couple taken from two calls is one uncertain variable: its difference with itself
+    has zero uncertainty (independent copies would give √2 u); every couple is listed once
+    (common practice)."""
+    first = {h.name: h for h in catalogue()}
+    second = {h.name: h for h in catalogue()}
+    difference = first["AgCl/Ag"].uncertain_potential - second["AgCl/Ag"].uncertain_potential
+    assert first["AgCl/Ag"].uncertain_potential.std_dev > 0.0
+    assert difference.std_dev == 0.0
+    names = [h.name for h in catalogue()]
+    assert len(names) == len(set(names))

@@ -32,7 +32,6 @@ from activolt.physics.water import debye_hueckel_constants
 from activolt.procedures import model_choice
 from activolt.procedures.dilution import reduce_run
 from activolt.procedures.model_choice import (
-    RunsTest,
     compare_models,
     runs_test,
 )
@@ -345,13 +344,6 @@ def test_a_model_that_cannot_be_fitted_is_skipped(nacl, monkeypatch):
     assert comparison_record(comparison)["skipped"][0]["name"] == "sit"
     with pytest.raises(FitError, match="no model could be fitted: sit"):
         compare_models(run, ["sit"])
-
-
-def test_runs_test_result_is_frozen():
-    t = runs_test([1, -1, 1])
-    with pytest.raises(AttributeError):
-        t.runs = 5  # type: ignore[misc]
-    assert isinstance(t, RunsTest)
 
 
 def test_one_u_everywhere_with_the_model_choice_component(hcl_dilute):

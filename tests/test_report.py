@@ -6,6 +6,8 @@ place (GUM, JCGM 100:2008, 7.2.6).
 
 from __future__ import annotations
 
+import re
+
 import pytest
 from synthetic import emf_from_gamma, write_run
 
@@ -43,9 +45,16 @@ def test_report_text(tmp_path):
     reduction = reduce_run(read_run(write_run(tmp_path, m, emf, u_emf_V=2e-5)))
     text = format_report(reduction)
     e0_line = next(line for line in text.splitlines() if "E° =" in line)
-    u_mV = reduction.standard_potential.std_dev * 1e3
-    assert format_with_uncertainty(reduction.standard_potential.nominal_value * 1e3, u_mV,
-                                   "mV") in e0_line
+    # The printed E° follows the rounding rule (u to two significant digits, the value to the
+    # same decimal place) and rounds the reduction's own numbers.
+    found = re.search(r"E° = (\d+\.(\d+)) ± (\d+\.(\d+)) mV", e0_line)
+    assert found, e0_line
+    value, decimals, u, u_decimals = found.groups()
+    assert len(decimals) == len(u_decimals)
+    assert len(u.replace(".", "").lstrip("0")) == 2
+    half_step = 0.5 * 10.0 ** -len(decimals) * (1.0 + 1e-9)
+    assert abs(float(value) - reduction.standard_potential.nominal_value * 1e3) <= half_step
+    assert abs(float(u) - reduction.standard_potential.std_dev * 1e3) <= half_step
     assert "basis p° = 100 kPa" in e0_line
     assert reduction.statistics.covariance_note in text
     assert "against published values" in text and "Robinson & Stokes" in text
