@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import benchlib
 import numpy as np
 import pytest
+from benchlib import table_at_the_end  # noqa: F401 (a fixture)
 
 N_SERIES = 10_000
 N_POINTS = 15
@@ -213,12 +214,14 @@ def check(case: Case, label: str) -> list[benchlib.Row]:
 
 
 @pytest.mark.bench
+@pytest.mark.usefixtures("table_at_the_end")
 def test_hueckel_batch():
     rows = check(HUECKEL, "Hückel, å and b free")
     assert all(row.met for row in rows), "\n".join(row.line() for row in rows)
 
 
 @pytest.mark.bench
+@pytest.mark.usefixtures("table_at_the_end")
 def test_pitzer_batch():
     rows = check(PITZER, "Pitzer, β⁽⁰⁾, β⁽¹⁾, C^φ free (one exact step)")
     assert all(row.met for row in rows), "\n".join(row.line() for row in rows)

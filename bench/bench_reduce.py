@@ -30,6 +30,7 @@ from pathlib import Path
 import benchlib
 import numpy as np
 import pytest
+from benchlib import table_at_the_end  # noqa: F401 (a fixture)
 
 SAMPLE = (Path(__file__).resolve().parents[1] / "src" / "activolt" / "sample_data"
           / "kestrel_hcl_25C.csv")
@@ -88,6 +89,7 @@ def library_medians_s(folder: Path, repeats: int = 200) -> tuple[float, float]:
 
 
 @pytest.mark.bench
+@pytest.mark.usefixtures("table_at_the_end")
 def test_one_series_through_the_library():
     with tempfile.TemporaryDirectory() as folder:
         plain_s, full_s = library_medians_s(Path(folder))
@@ -118,6 +120,7 @@ def monte_carlo_median_s(repeats: int = 7) -> float:
 
 
 @pytest.mark.bench
+@pytest.mark.usefixtures("table_at_the_end")
 def test_monte_carlo():
     seconds = monte_carlo_median_s()
     row = benchlib.record(f"monte_carlo, {MONTE_CARLO_TRIALS} trials on the sample",
@@ -169,6 +172,7 @@ def long_series(folder: Path) -> tuple[dict[int, int], float | None, str]:
 
 
 @pytest.mark.bench
+@pytest.mark.usefixtures("table_at_the_end")
 def test_long_series():
     with tempfile.TemporaryDirectory() as folder:
         peaks, seconds, note = long_series(Path(folder))
@@ -227,6 +231,7 @@ def end_to_end_ratio(folder: Path, repeats: int = 9) -> tuple[float, float, floa
 
 
 @pytest.mark.bench
+@pytest.mark.usefixtures("table_at_the_end")
 def test_command_line_against_imports():
     with tempfile.TemporaryDirectory() as folder:
         r, i, ratio, option = end_to_end_ratio(Path(folder))

@@ -2,7 +2,9 @@
 
 Every benchmark records one row per target (:func:`record`), prints it at once and asserts the
 target afterwards, so that a missed target is shown with its numbers before the assertion fails.
-``bench/conftest.py`` prints the whole table at the end of the session.
+Each benchmark module prints the table of its rows when it finishes (``table_at_the_end``, a
+module fixture; there is no conftest here, since a second top-level conftest would clash with
+that of tests/).
 """
 
 from __future__ import annotations
@@ -11,6 +13,8 @@ import statistics
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
+
+import pytest
 
 
 @dataclass(frozen=True)
@@ -58,3 +62,10 @@ def table() -> str:
     if not ROWS:
         return "no benchmark recorded"
     return "\n".join(row.line() for row in ROWS)
+
+
+@pytest.fixture(scope="module", autouse=False)
+def table_at_the_end():
+    """Print the table of every row recorded so far when the module's benchmarks are done."""
+    yield
+    print("\n\nbenchmarks: measured against targets\n" + table(), flush=True)
