@@ -220,6 +220,7 @@ def test_catalogue_agcl_is_its_temperature_function_at_25C():
 
 
 @pytest.mark.parametrize(("celsius", "value"), BATES_BOWER_V.items())
+@pytest.mark.literature
 def test_harned_e0_matches_bates_bower_within_their_sd(celsius, value):
     result = _harned(celsius)
     sd = _bates_bower_sd_V(celsius)
@@ -227,6 +228,7 @@ def test_harned_e0_matches_bates_bower_within_their_sd(celsius, value):
     assert result["uncertainty"] == pytest.approx(sd, rel=0.05)
 
 
+@pytest.mark.literature
 def test_between_table_rows_within_their_sd_of_the_neighbours_line():
     # halfway between rows the function stays within the table's own scatter of a straight
     # line between neighbours plus its curvature (< 0.05 mV over 5 °C; common practice)

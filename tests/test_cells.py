@@ -34,6 +34,7 @@ def test_harned_cell_from_its_diagram():
     assert cell.left_couple.name == "H+/H2" and cell.right_couple.name == "AgCl/Ag"
 
 
+@pytest.mark.literature
 def test_harned_cell_pressure_basis_differs_by_0169_mV():
     # reference-values.md (derived): (RT/2F) ln 1.01325 = 0.169 mV at 25 °C.
     cell = cell_from_diagram(HARNED)
@@ -70,6 +71,7 @@ def test_potassium_amalgam_cell_consumes_kcl():
     assert cell.reaction_text == "Ag(s) + Cl-(aq) + K+(aq) → AgCl(s) + K(Hg)"
 
 
+@pytest.mark.literature
 def test_daniell_cell_diagram():
     # CRC Handbook (from memory): 1.10 V in teaching tables (two decimals printed).
     cell = cell_from_diagram("Zn(s) | ZnSO4(aq) || CuSO4(aq) | Cu(s)")
@@ -80,6 +82,7 @@ def test_daniell_cell_diagram():
     assert cell.standard_potential.nominal_value == pytest.approx(1.10, abs=0.005)
 
 
+@pytest.mark.literature
 def test_sodium_bromine_diagram():
     # CRC Handbook (from memory): E° ≈ 3.78 V, n = 2, ΔG° ≈ −729 kJ/mol.
     summary = cell_summary("Na(s) | Na+(aq) || Br-(aq) | Br2(l) | Pt(s)")
@@ -170,6 +173,7 @@ def test_summary_is_json_ready_and_has_the_keys():
     assert summary["standard_pressure_kPa"] == 101.325
 
 
+@pytest.mark.literature
 def test_summary_of_harned_cell_at_another_temperature_uses_bates_bower():
     # Bates & Bower (1954), Table 1: 0.20449 V at 50 °C (1 atm).
     summary = cell_summary(HARNED, 323.15, 101325.0)

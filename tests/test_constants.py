@@ -7,6 +7,8 @@ from scipy import constants as sc
 
 from activolt import constants as c
 
+pytestmark = pytest.mark.literature  # every check here is against CODATA 2018
+
 
 @pytest.mark.parametrize(("ours", "name"), [
     (c.GAS_CONSTANT_J_MOL_K, "molar gas constant"),

@@ -19,12 +19,14 @@ from activolt.physics.corrections import (
 
 # --- literature checks ----------------------------------------------------------------------
 
+@pytest.mark.literature
 def test_vapour_pressure_at_25C():
     # IAPWS-95: 3.1699 kPa at 25 °C (reference-values.md, derived); checked to one unit in the
     # last printed digit, since the auxiliary equation lies 0.003 % below IAPWS-95 here.
     assert float(water_vapour_pressure(298.15)) / 1000 == pytest.approx(3.1699, abs=1e-4)
 
 
+@pytest.mark.literature
 def test_vapour_pressure_against_iapws_0_to_100C():
     # The iapws package: IAPWS-IF97 saturation line (eq. 30) at every degree, and the full
     # IAPWS-95 phase equilibrium at a few temperatures; agreement within 0.1 % (our brief).
@@ -40,6 +42,7 @@ def test_vapour_pressure_against_iapws_0_to_100C():
         assert float(water_vapour_pressure(temperature)) == pytest.approx(full, rel=1e-3)
 
 
+@pytest.mark.literature
 def test_vapour_pressure_at_boiling_point():
     # IAPWS-95: the normal boiling point is 373.124 K (ITS-90) at 101.325 kPa (from memory);
     # at 373.15 K p_w = 101.418 kPa (from memory, IAPWS 1992 tables).
@@ -47,6 +50,7 @@ def test_vapour_pressure_at_boiling_point():
     assert float(water_vapour_pressure(373.15)) / 1000 == pytest.approx(101.418, abs=0.001)
 
 
+@pytest.mark.literature
 def test_hydrogen_pressure_and_corrections_at_one_atmosphere():
     # reference-values.md (derived): at p_bar = 101.325 kPa and 25 °C the correction of the
     # Harned cell is +0.408 mV to the 1 atm basis and +0.239 mV to the 1 bar basis.
@@ -58,6 +62,7 @@ def test_hydrogen_pressure_and_corrections_at_one_atmosphere():
     assert float(to_bar) * 1e3 == pytest.approx(0.239, abs=0.0005)
 
 
+@pytest.mark.literature
 def test_basis_shift_harned_cell():
     # reference-values.md (derived): E°(bar) = E°(atm) − (RT/2F) ln 1.01325, which is
     # 0.155 / 0.169 / 0.183 mV at 0 / 25 / 50 °C.

@@ -125,10 +125,12 @@ CRC_POTENTIALS_V = {
 
 
 @pytest.mark.parametrize(("name", "value"), CRC_POTENTIALS_V.items())
+@pytest.mark.literature
 def test_catalogue_values(name, value):
     assert couple(name).standard_potential_V == value
 
 
+@pytest.mark.literature
 def test_agcl_catalogue_value_is_bates_bower_and_covers_bates_macaskill():
     # Bates & Bower (1954), Table 1: 0.22234 V at 25 °C, 1 atm, standard deviation 0.01 mV.
     # Bates & MacAskill (1978), Pure Appl. Chem. 50, 1701, and the CRC Handbook: 0.22233 V —
@@ -140,6 +142,7 @@ def test_agcl_catalogue_value_is_bates_bower_and_covers_bates_macaskill():
     assert half.pressure_basis_Pa == 101325.0
 
 
+@pytest.mark.literature
 def test_mercurous_sulfate_electrode():
     # Harned & Hamer (1935): 0.61536 V; later determinations 0.61544 V (reference-values.md,
     # confirmed); each within the stated 0.05 mV. Not the 0.6125 V the table held before.
@@ -154,11 +157,13 @@ BATES_BOWER_V = {5: 0.23413, 25: 0.22234, 50: 0.20449, 60: 0.19649, 90: 0.16952,
 
 
 @pytest.mark.parametrize(("celsius", "value"), BATES_BOWER_V.items())
+@pytest.mark.literature
 def test_silver_chloride_table(celsius, value):
     assert float(silver_chloride_standard_potential(273.15 + celsius)) == pytest.approx(
         value, abs=5e-6)
 
 
+@pytest.mark.literature
 def test_silver_chloride_equation_matches_table_within_012_mV():
     # reference-values.md: the smoothing equation matches the table within 0.12 mV, 0–90 °C
     # (two digits printed, so < 0.125 mV); compared at the table's own temperatures.
@@ -168,11 +173,13 @@ def test_silver_chloride_equation_matches_table_within_012_mV():
     assert np.max(np.abs(table["standard_potential_V"] - equation)) < 0.125e-3
 
 
+@pytest.mark.literature
 def test_silver_chloride_equation_intercept():
     # Bates & Bower (1954): 0.23659 V at 0 °C from the smoothing equation (confirmed).
     assert float(silver_chloride_standard_potential(273.15, method="equation")) == 0.23659
 
 
+@pytest.mark.literature
 def test_silver_chloride_on_the_bar_basis():
     # reference-values.md (derived): 0.22216–0.22217 V on 1 bar; shift −0.169 mV at 25 °C.
     atm = float(silver_chloride_standard_potential(298.15))
@@ -181,6 +188,7 @@ def test_silver_chloride_on_the_bar_basis():
     assert (bar - atm) * 1e3 == pytest.approx(-0.169, abs=0.0005)
 
 
+@pytest.mark.literature
 def test_silver_chloride_uncertainty_as_stated():
     # Bates & Bower (1954): standard deviation 0.01 mV at 25 °C and 0.09 mV at 95 °C.
     assert float(silver_chloride_standard_uncertainty(298.15)) == pytest.approx(1e-5, abs=1e-12)

@@ -79,6 +79,7 @@ def _longley_design() -> np.ndarray:
     return np.column_stack([np.ones(len(LONGLEY)), LONGLEY[:, 1:]])
 
 
+@pytest.mark.literature
 def test_norris_linear_path_reproduces_certified_values():
     fit = linear_least_squares(_norris_design(), NORRIS_Y, names=("b0", "b1"))
     np.testing.assert_allclose(fit.value_array, NORRIS_ESTIMATES, rtol=1e-12)
@@ -88,6 +89,7 @@ def test_norris_linear_path_reproduces_certified_values():
     assert fit.dof == 34 and fit.covariance_scaled
 
 
+@pytest.mark.literature
 def test_norris_nonlinear_path_reproduces_certified_values():
     def line(p):
         return p["b0"] + p["b1"] * NORRIS_X
@@ -99,6 +101,7 @@ def test_norris_nonlinear_path_reproduces_certified_values():
     assert fit.covariance_scaled
 
 
+@pytest.mark.literature
 def test_longley_linear_path_reproduces_certified_values():
     # QR with equilibration reaches ~1e-12 here (measured); the normal equations lose ~8 digits.
     fit = linear_least_squares(_longley_design(), LONGLEY[:, 0])
@@ -108,6 +111,7 @@ def test_longley_linear_path_reproduces_certified_values():
     assert fit.dof == 9
 
 
+@pytest.mark.literature
 def test_longley_nonlinear_path_reproduces_certified_values():
     x = LONGLEY[:, 1:]
     names = [f"b{k}" for k in range(7)]

@@ -44,6 +44,7 @@ def _covers(e0: float, u: float) -> bool:
 
 
 @pytest.mark.parametrize(("electrolyte", "top", "index", "position", "u_emf_V"), CASES)
+@pytest.mark.literature
 def test_every_model_covers_the_truth_or_refuses(tmp_path, electrolyte, top, index, position,
                                                  u_emf_V):
     run = read_run(write_published_series(tmp_path, electrolyte, top, u_emf_V,

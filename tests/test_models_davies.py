@@ -35,6 +35,7 @@ GAMMA_25C = {
     ("salt", "molality", "expected"),
     [(s, m, g) for s, table in GAMMA_25C.items() for m, g in table.items()],
 )
+@pytest.mark.literature
 def test_one_one_electrolytes_within_davies_accuracy(salt, molality, expected):
     # Davies (1962, Ion Association): about 1–2 % at I = 0.1 for 1:1 electrolytes (from memory);
     # tolerance 0.02 in γ±. Largest deviation found: 0.015 (HCl, 0.1 mol/kg).

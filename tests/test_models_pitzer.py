@@ -67,6 +67,7 @@ LITERATURE_POINTS = [
 @pytest.mark.parametrize("constants", [CONSTANTS_25C, CONSTANTS_PM1973], ids=["aphi0.3913",
                                                                                "aphi0.392"])
 @pytest.mark.parametrize(("salt", "molality", "expected"), LITERATURE_POINTS)
+@pytest.mark.literature
 def test_gamma_matches_published_tables(salt, molality, expected, constants):
     entry = pitzer_parameters(salt)
     assert molality <= entry["max_molality_mol_kg"]
@@ -93,12 +94,14 @@ PHI_25C: dict[str, dict[float, float]] = {
     ("salt", "molality", "expected"),
     [(salt, m, phi) for salt, table in PHI_25C.items() for m, phi in table.items()],
 )
+@pytest.mark.literature
 def test_osmotic_coefficient_matches_published_tables(salt, molality, expected):
     value = float(pitzer.osmotic_coefficient(parse_electrolyte(salt), molality, CONSTANTS_25C,
                                              params(salt))[0])
     assert value == pytest.approx(expected, abs=0.003)
 
 
+@pytest.mark.literature
 def test_largest_deviation_per_salt_is_as_reported():
     # Regression pin of the deviations stated in the report (values the code produced, A_φ from
     # activolt.physics.water): a change of parameters or equations that moves them shows up here.
@@ -136,6 +139,7 @@ MGSO4_ROBINSON_STOKES = {0.1: 0.150, 0.5: 0.0675, 1.0: 0.0485, 2.0: 0.0417}
 
 
 @pytest.mark.parametrize(("molality", "expected"), sorted(MGSO4_ROBINSON_STOKES.items()))
+@pytest.mark.literature
 def test_mgso4_known_deviation_from_robinson_stokes(molality, expected):
     value = float(np.exp(pitzer.ln_gamma(parse_electrolyte("MgSO4"), molality, CONSTANTS_25C,
                                          params("MgSO4")))[0])
@@ -189,6 +193,7 @@ def test_lacl3_is_stored_unscaled():
         ("Th(SO4)2", "4:2", (2.0, 50.0)),
     ],
 )
+@pytest.mark.literature
 def test_alphas_by_charge_type(formula, charge_type, expected):
     electrolyte = parse_electrolyte(formula)
     assert electrolyte.charge_type == charge_type

@@ -28,12 +28,14 @@ SIT_LOG10_TOLERANCE = 0.01
 
 
 @pytest.mark.parametrize(("molality", "expected"), list(HCL_GAMMA_25C.items()))
+@pytest.mark.literature
 def test_hcl_log10_gamma_nea_convention(molality, expected):
     lg = sit.ln_gamma(HCL, molality, CONSTANTS_25C, {"epsilon_kg_mol": EPSILON_HCL})
     assert float(lg[0]) / math.log(10) == pytest.approx(math.log10(expected),
                                                         abs=SIT_LOG10_TOLERANCE)
 
 
+@pytest.mark.literature
 def test_nea_decimal_slope_at_25c():
     # NEA reviews use A = 0.509 at 25 °C (from memory); ours follows from IAPWS water (0.5098).
     assert float(CONSTANTS_25C.agamma_log10[0]) == pytest.approx(0.509, abs=0.0015)

@@ -20,6 +20,7 @@ from activolt.reference.parameters import (
 # ----------------------------------------------------------------------------------------------
 
 
+@pytest.mark.literature
 def test_pitzer_entry_hcl():
     # Pitzer & Mayorga (1973), Table II (from memory; reference-values.md)
     entry = pitzer_parameters("HCl")
@@ -37,6 +38,7 @@ def test_pitzer_entry_is_a_fresh_copy():
     assert pitzer_parameters("KCl")["beta0_kg_mol"] == 0.04835  # Pitzer & Mayorga (1973)
 
 
+@pytest.mark.literature
 def test_pitzer_entry_mgso4_has_beta2():
     # Pitzer & Mayorga (1974), Table I (from memory): β(2) = −37.23 kg/mol for MgSO4
     assert pitzer_parameters("MgSO4")["beta2_kg_mol"] == -37.23
@@ -47,6 +49,7 @@ def test_pitzer_unknown_formula_gives_none():
     assert pitzer_parameters("CsI") is None
 
 
+@pytest.mark.literature
 def test_pitzer_entry_lacl3():
     # Pitzer & Mayorga (1973), Table VIII, unscaled (confirmed in a secondary transcription;
     # reference-values.md)
@@ -101,6 +104,7 @@ def test_beta2_only_for_two_two():
         ("Na", "SO4--", (-0.12, 0.06)),
     ],
 )
+@pytest.mark.literature
 def test_sit_epsilon(cation, anion, expected):
     value, uncertainty, source = sit_epsilon(cation, anion)
     assert (value, uncertainty) == expected
@@ -125,6 +129,7 @@ def test_unreadable_ion_raises():
      ("Mg2+", 8.0), ("SO4 2-", 4.0), ("Fe2+", 6.0), ("Fe3+", 9.0), ("La3+", 9.0),
      ("Fe(CN)6 4-", 5.0)],
 )
+@pytest.mark.literature
 def test_ion_size(ion, expected):
     assert ion_size_angstrom(ion) == expected
 

@@ -68,6 +68,7 @@ def _printed(formula: str, m: float) -> dict[str, float]:
                                                           strict=True)}
 
 
+@pytest.mark.literature
 def test_selected_values_match_the_vetted_list():
     # reference-values.md: HCl 0.1 → 0.796 and 1.0 → 0.809 (Robinson & Stokes 1959, from
     # memory); NaCl 1.0 → 0.657 (Pitzer, Peiper & Busey 1984, confirmed); CaCl2 0.1 → 0.517 (CRC).
@@ -90,15 +91,18 @@ ROBINSON_STOKES_1959_HCL = {0.001: 0.965, 0.005: 0.929, 0.01: 0.904, 0.05: 0.830
 
 
 @pytest.mark.parametrize("m", sorted(HAMER_WU_1972_HCL))
+@pytest.mark.literature
 def test_hcl_hamer_and_wu_rows_carry_their_own_values(m):
     assert _printed("HCl", m)["Hamer & Wu (1972)"] == HAMER_WU_1972_HCL[m]
 
 
 @pytest.mark.parametrize("m", sorted(ROBINSON_STOKES_1959_HCL))
+@pytest.mark.literature
 def test_hcl_robinson_and_stokes_rows_carry_their_own_values(m):
     assert _printed("HCl", m)["Robinson & Stokes (1959)"] == ROBINSON_STOKES_1959_HCL[m]
 
 
+@pytest.mark.literature
 def test_nacl_at_2_mol_kg_from_each_table():
     # Pitzer, Peiper & Busey (1984), J. Phys. Chem. Ref. Data 13, 1: 0.669 (confirmed);
     # Robinson & Stokes (1959), Appendix 8.10: 0.668 (from memory). The principal is PPB.
@@ -108,6 +112,7 @@ def test_nacl_at_2_mol_kg_from_each_table():
     assert float(t.loc[t.molality_mol_kg == 2.0, "gamma_pm"].iloc[0]) == 0.669
 
 
+@pytest.mark.literature
 def test_cacl2_at_2_mol_kg_from_each_table():
     # CRC Handbook (after Hamer & Wu 1972 and Staples): 0.784 (confirmed); Robinson & Stokes
     # (1959): 0.792 (from memory).

@@ -22,6 +22,7 @@ APHI_PPB_1984 = {0: 0.3767, 10: 0.3821, 20: 0.3882, 25: 0.3915, 30: 0.3949, 40: 
 
 
 @pytest.mark.parametrize(("t_C", "aphi"), APHI_PPB_1984.items())
+@pytest.mark.literature
 def test_aphi_against_pitzer_peiper_busey(t_C, aphi):
     # Their permittivity differs slightly from IAPWS 1997: 0.1 % up to 50 °C, 0.25 % to 100 °C.
     tolerance = 0.001 if t_C <= 50 else 0.0025
@@ -29,6 +30,7 @@ def test_aphi_against_pitzer_peiper_busey(t_C, aphi):
 
 
 @pytest.mark.parametrize("t_C", [0.5, 10.0, 25.0, 37.0, 50.0, 75.0, 99.0])
+@pytest.mark.literature
 def test_aphi_against_a_direct_iapws_computation(t_C):
     # Density and permittivity read straight from the iapws package's IAPWS95 object.
     from iapws import IAPWS95
@@ -41,6 +43,7 @@ def test_aphi_against_a_direct_iapws_computation(t_C):
     assert float(solvent.debye_hueckel_aphi(t_K)) == pytest.approx(aphi, rel=5e-4)
 
 
+@pytest.mark.literature
 def test_water_at_25c():
     # IAPWS-95 density 997.047 kg/m³ and IAPWS 1997 permittivity 78.408 at 25 °C, 0.1 MPa
     # (reference-values.md, derived with iapws); decimal A = 0.5101 from A_φ = 0.3915 (PPB 1984)
