@@ -933,7 +933,8 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     table, gamma_propagation = _points_table(run, family, data, fit, parts.type_b,
                                              parts.uncertain_names, parts.uncertain_covariance,
                                              parts.common, parts.truncation)
-    warnings += _diagnose(table, data, fit)
+    table, diagnosed = _diagnose(table, data, fit)
+    warnings += diagnosed
     reasons = judged.held.reasons
     parameters = tuple(
         FittedParameter(
@@ -1059,38 +1060,41 @@ def _budget(run: Run, data: SeriesData, fit: _Fit, type_b: np.ndarray | None,
     return tuple(lines)
 
 
-def _diagnose(table: pd.DataFrame, data: SeriesData, fit: _Fit) -> list[str]:
-    """Leverage, studentized residuals and Cook's distance of the used readings (in ``table``),
+def _diagnose(table: pd.DataFrame, data: SeriesData, fit: _Fit
+              ) -> tuple[pd.DataFrame, list[str]]:
+    """The table with leverage, studentized residuals and Cook's distance of the used readings,
     and a ``diagnostic`` reason where one stands out; warnings naming them."""
     from ..fit.diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
 
     used = table["flag"].isna().to_numpy()
     scaled = not data.stated_uncertainty
-    table["diagnostic"] = None
-    table["diagnostic"] = table["diagnostic"].astype(object)
     n, p = fit.jacobian.shape
     if scaled and n - p - 1 < 1:
-        for name in ("leverage", "studentized_residual", "cooks_distance"):
-            table[name] = np.nan
-        return ["too few readings for leave-one-out diagnostics (they need N − P − 1 ≥ 1 when "
-                "the scatter is estimated from the fit)"]
+        nan = np.full(used.size, np.nan)
+        return table.assign(leverage=nan, studentized_residual=nan, cooks_distance=nan,
+                            diagnostic=np.full(used.size, None, dtype=object)), [
+            "too few readings for leave-one-out diagnostics (they need N − P − 1 ≥ 1 when "
+            "the scatter is estimated from the fit)"]
     columns = {
         "leverage": leverage(fit.jacobian, data.weights),
         "studentized_residual": studentized_residuals(fit.jacobian, data.weights,
                                                       fit.residual_V, scaled),
         "cooks_distance": cooks_distance(fit.jacobian, data.weights, fit.residual_V, scaled),
     }
+    full = {}
     for name, values in columns.items():
-        table[name] = np.nan
-        table.loc[used, name] = values
-    reasons = flag_points(fit.jacobian, data.weights, fit.residual_V, scaled)
-    table.loc[used, "diagnostic"] = pd.Series(reasons, dtype=object).to_numpy()
-    warnings = []
-    for _, row in table[table["diagnostic"].notna()].iterrows():
-        warnings.append(f"reading at m = {row['molality_mol_kg']:g} mol/kg (line "
-                        f"{int(row['line'])}) stands out: {row['diagnostic']}; it is kept in "
-                        "the fit — check it, and exclude it with a reason if it is faulty")
-    return warnings
+        full[name] = np.full(used.size, np.nan)
+        full[name][used] = values
+    diagnostic = np.full(used.size, None, dtype=object)
+    diagnostic[used] = np.array(flag_points(fit.jacobian, data.weights, fit.residual_V, scaled),
+                                dtype=object)
+    table = table.assign(**full, diagnostic=diagnostic)
+    molality = table["molality_mol_kg"].to_numpy(float)
+    lines = table["line"].to_numpy()
+    warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
+                f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
+                "reason if it is faulty" for i in np.flatnonzero(diagnostic != None)]  # noqa: E711
+    return table, warnings
 
 
 def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
@@ -1259,25 +1263,28 @@ def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
         grad[:, index] = (up - down) / (2.0 * step)
     var_model = np.einsum("ij,jk,ik->i", grad, uncertain_covariance, grad)
 
-    table = run.points.copy()
-    for column in ("pressure_correction_V", "gas_pressure_Pa", "fitted_emf_V", "residual_V",
-                   "ln_gamma_pm", "gamma_pm", "u_gamma_pm", "gamma_pm_model",
-                   "u_gamma_pm_model"):
-        table[column] = np.nan
-    if data.correction_V is not None:
-        table.loc[usable, "pressure_correction_V"] = data.correction_V
-        table.loc[usable, "gas_pressure_Pa"] = data.gas_pressure_Pa
-    table.loc[usable, "fitted_emf_V"] = data.emf_V - fit.residual_V
-    table.loc[usable, "residual_V"] = fit.residual_V
-    table.loc[usable, "ln_gamma_pm"] = ln_gamma
-    table.loc[usable, "gamma_pm"] = gamma
-    table.loc[usable, "u_gamma_pm"] = u_gamma
+    def full(values: np.ndarray | None) -> np.ndarray:
+        """A column over every row of the run: the values at the usable rows, NaN elsewhere."""
+        column = np.full(usable.size, np.nan)
+        if values is not None:
+            column[usable] = values
+        return column
+
     gamma_model = np.exp(ln_gamma_model)
-    table.loc[usable, "gamma_pm_model"] = gamma_model
-    table.loc[usable, "u_gamma_pm_model"] = gamma_model * np.sqrt(var_model)
-    for name, variance in budget.items():
-        table[f"u_gamma_pm_{name}"] = np.nan
-        table.loc[usable, f"u_gamma_pm_{name}"] = gamma * np.sqrt(variance)
+    columns = {
+        "pressure_correction_V": full(data.correction_V),
+        "gas_pressure_Pa": full(data.gas_pressure_Pa),
+        "fitted_emf_V": full(data.emf_V - fit.residual_V),
+        "residual_V": full(fit.residual_V),
+        "ln_gamma_pm": full(ln_gamma),
+        "gamma_pm": full(gamma),
+        "u_gamma_pm": full(u_gamma),
+        "gamma_pm_model": full(gamma_model),
+        "u_gamma_pm_model": full(gamma_model * np.sqrt(var_model)),
+        **{f"u_gamma_pm_{name}": full(gamma * np.sqrt(variance))
+           for name, variance in budget.items()},
+    }
+    table = run.points.assign(**columns)
     extra = tuple(d * u for _, u, _, d in common) + (
         () if truncation is None else (parameter_gradient @ truncation,))
     return table, GammaPropagation(parameter_gradient, -scale, sensitivity, reading_var, type_b,
