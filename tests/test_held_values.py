@@ -133,3 +133,23 @@ def test_monte_carlo_of_u_t_at_the_ends_of_liquid_water(tmp_path, celsius):
     budget = {line.component: line.u_V for line in reduction.budget}
     linear = float(np.hypot(budget["temperature"], budget["readings"]))
     assert result.standard_potential.standard_deviation == pytest.approx(linear, rel=0.1)
+
+
+def test_no_model_for_the_run_still_shows_the_comparison(tmp_path, capsys):
+    """--model all on a CaCl2 run to 3 mol/kg (I = 9 mol/kg, beyond every model's range, the
+    Pitzer equations' 6 included) exits 1, writes nothing, and prints the comparison table
+    with each model's reason."""
+    from activolt.chemistry.electrolytes import nernst_factor
+    from activolt.cli import main
+
+    cacl2 = parse_electrolyte("CaCl2")
+    m = np.geomspace(0.001, 3.0, 14)
+    constants = debye_hueckel_constants(np.full(m.size, 298.15))
+    ln_g = ln_gamma(cacl2, m, constants, {"a_angstrom": 5.0, "b_kg_mol": 0.1})
+    emf = 0.22 - nernst_factor(cacl2, 2, 298.15) * (np.log(cacl2.mean_molality(m)) + ln_g)
+    path = write_run(tmp_path, m, emf, u_emf_V=1e-5, electrolyte="CaCl2", electrons=2)
+    assert main(["reduce", str(path), "--model", "all", "--out", str(tmp_path / "out")]) == 1
+    printed = capsys.readouterr()
+    assert "Model comparison:" in printed.out
+    assert "no model can describe this run" in printed.err
+    assert not (tmp_path / "out").exists()

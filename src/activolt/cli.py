@@ -173,6 +173,10 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         comparison = compare_models(run, names, _fixed_per_model(names, fixed))
         reduction = comparison.recommended_reduction
         if reduction is None:
+            # Nothing is written, but the comparison says why each model failed.
+            from .report.model_table import format_model_comparison
+
+            print(escape_controls(format_model_comparison(comparison), keep="\n"))
             raise FitError(comparison.warnings[-1])
     else:
         reduction = reduce_run(run, model=model, fixed=fixed, exclude=exclusions)
