@@ -16,7 +16,7 @@ E0_V = 0.22234  # Bates & Bower (1954), J. Res. NBS 53, 283, Table 1, 25 °C
 
 #: HCl: Hamer & Wu (1972), J. Phys. Chem. Ref. Data 1, 1047, as printed in the CRC Handbook table
 #: "Mean activity coefficients of electrolytes as a function of concentration" — 0.01, 0.02,
-#: 0.05, 0.1, 0.5 and 1 mol/kg confirmed in a transcription (reference-values.md); 0.001, 0.002,
+#: 0.05, 0.1, 0.5 and 1 mol/kg confirmed in a secondary copy (reference-values.md); 0.001, 0.002,
 #: 0.005, 0.2 and 2 mol/kg from memory.
 HCL = {0.001: 0.965, 0.002: 0.952, 0.005: 0.929, 0.01: 0.905, 0.02: 0.876, 0.05: 0.832,
        0.1: 0.797, 0.2: 0.768, 0.5: 0.759, 1.0: 0.811, 2.0: 1.009}

@@ -1,6 +1,7 @@
 """The batched engine against an independent fit (lmfit, MINPACK Levenberg–Marquardt) of the
 same problem, one series at a time. The series are generated here from the Hückel and Pitzer
-equations (not check values: the check is that two independent solvers agree)."""
+equations (not check values: the check is that two independent solvers agree — common practice,
+as lmfit itself is checked against other solvers)."""
 
 from __future__ import annotations
 

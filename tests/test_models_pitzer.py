@@ -163,7 +163,7 @@ def test_k2so4_is_stored_unscaled():
 
 def test_lacl3_is_stored_unscaled():
     # Pitzer & Mayorga (1973), Table VIII: unscaled 0.6105, 5.487, −0.0320 (confirmed in a
-    # secondary transcription); printed (3/2)β0 = 0.9158, (3/2)β1 = 8.231, (3^{3/2}/2)Cφ =
+    # secondary copy); printed (3/2)β0 = 0.9158, (3/2)β1 = 8.231, (3^{3/2}/2)Cφ =
     # −0.0831 (from memory).
     p = params("LaCl3")
     assert (p["beta0_kg_mol"], p["beta1_kg_mol"], p["cphi_kg2_mol2"]) == (0.6105, 5.487, -0.0320)

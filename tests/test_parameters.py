@@ -51,7 +51,7 @@ def test_pitzer_unknown_formula_gives_none():
 
 @pytest.mark.literature
 def test_pitzer_entry_lacl3():
-    # Pitzer & Mayorga (1973), Table VIII, unscaled (confirmed in a secondary transcription;
+    # Pitzer & Mayorga (1973), Table VIII, unscaled (confirmed in a secondary copy;
     # reference-values.md)
     entry = pitzer_parameters("LaCl3")
     assert (entry["beta0_kg_mol"], entry["beta1_kg_mol"], entry["cphi_kg2_mol2"]) == (

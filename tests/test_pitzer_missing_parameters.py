@@ -5,7 +5,7 @@ The runs are written from a known truth (tests/synthetic.py); the truths are pub
 parameter sets used only to generate smooth data, and the check is coverage of E°, not a value:
 
 - LaCl3: Pitzer & Mayorga (1973), J. Phys. Chem. 77, 2300, Table VIII, unscaled — β(0) = 0.6105,
-  β(1) = 5.487, Cφ = −0.0320 kg^n mol^-n (confirmed in a secondary transcription;
+  β(1) = 5.487, Cφ = −0.0320 kg^n mol^-n (confirmed in a secondary copy;
   reference-values.md);
 - CsBr: Pitzer & Mayorga (1973), Table II — β(0) = 0.0279, β(1) = 0.0139, Cφ = 0.00004 (from
   memory; a plausible 1:1 truth away from the 1:1 mean of the table);

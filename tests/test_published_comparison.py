@@ -3,7 +3,7 @@ of the combined standard uncertainty.
 
 Published values: the rows of ``reference/mean_activity_coefficients.csv`` named here by their
 tables (Robinson & Stokes 1959, Appendix 8.10, from memory; Hamer & Wu 1972 as printed in the CRC
-Handbook, confirmed in a transcription). u_c = √(u²(γ±) + (spread/2)² + (½ unit of the last
+Handbook, confirmed in a secondary copy). u_c = √(u²(γ±) + (spread/2)² + (½ unit of the last
 printed digit)²) is the definition in :func:`activolt.report.comparison.compare_with_published`;
 the expected numbers below are derived from it and the printed values by hand.
 """
@@ -30,7 +30,7 @@ from activolt.report.comparison import compare_with_published, comparison_lines
 from activolt.report.text import format_report
 
 # HCl, 25 °C. Robinson & Stokes (1959), Appendix 8.10 (from memory) / Hamer & Wu (1972), CRC
-# Handbook (confirmed in a transcription).
+# Handbook (confirmed in a secondary copy).
 HCL_005 = (0.830, 0.832)
 HCL_01 = (0.796, 0.797)
 

@@ -83,7 +83,7 @@ def test_selected_values_match_the_vetted_list():
 
 
 # Hamer & Wu (1972), J. Phys. Chem. Ref. Data 1, 1047, HCl at 25 °C, as printed in the CRC
-# Handbook table of mean activity coefficients (confirmed in a transcription).
+# Handbook table of mean activity coefficients (confirmed in a secondary copy).
 HAMER_WU_1972_HCL = {0.01: 0.905, 0.02: 0.876, 0.05: 0.832, 0.1: 0.797, 0.5: 0.759, 1.0: 0.811}
 # Robinson & Stokes (1959), Electrolyte Solutions, Appendix 8.10, HCl at 25 °C (from memory).
 ROBINSON_STOKES_1959_HCL = {0.001: 0.965, 0.005: 0.929, 0.01: 0.904, 0.05: 0.830, 0.1: 0.796,
