@@ -14,6 +14,7 @@ E°; :func:`ln_gamma_covariance` can do that for comparison.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -186,3 +187,47 @@ def ln_gamma_variance(
         variance = variance + np.einsum("ip,pq,iq->i", g_p,
                                         np.asarray(type_b_covariance, dtype=float), g_p)
     return variance
+
+
+def sensitivity_coefficients(function: Callable[[Mapping[str, float]], np.ndarray],
+                       values: Mapping[str, float], names: Sequence[str]) -> np.ndarray:
+    r"""∂f/∂θ_k by central differences, one column per name, shape (N, K).
+
+    .. math:: \frac{∂f}{∂θ_k} ≈ \frac{f(θ + h_k e_k) − f(θ − h_k e_k)}{2 h_k}, \qquad
+              h_k = 10^{-6} \max(1, |θ_k|)
+
+    (truncation error O(h²), exact for f linear in θ_k; Press et al. 2007, §5.7) — the
+    sensitivity coefficients of GUM (JCGM 100:2008) 5.1.3 for quantities that depend on model
+    parameters directly.
+
+    Parameters
+    ----------
+    function : callable
+        ``function(values) -> ndarray`` of shape (N,).
+    values : mapping of str to float
+        The point [parameter units].
+    names : sequence of str
+        The parameters to differentiate by.
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (N, len(names)) [unit of f per parameter unit]; (N, 0) without names.
+
+    Examples
+    --------
+    >>> x = np.array([0.0, 1.0, 2.0])
+    >>> sensitivity_coefficients(lambda p: p["a"] + p["b"] * x**2, {"a": 1.0, "b": 3.0}, ["b"])
+    array([[0.],
+           [1.],
+           [4.]])
+    """
+    columns = []
+    for name in names:
+        step = 1e-6 * max(1.0, abs(values[name]))
+        up = np.asarray(function({**values, name: values[name] + step}), dtype=float)
+        down = np.asarray(function({**values, name: values[name] - step}), dtype=float)
+        columns.append((up - down) / (2.0 * step))
+    if not columns:
+        return np.zeros((np.asarray(function(values)).size, 0))
+    return np.column_stack(columns)

@@ -53,6 +53,7 @@ from ..fit.uncertainty import (
     BudgetLine,
     ln_gamma_covariance,
     ln_gamma_variance,
+    sensitivity_coefficients,
     sensitivity_matrix,
     student_t_factor,
 )
@@ -1185,13 +1186,10 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
             u = spec.conventional_uncertainty(electrolyte, data.constants)
         else:
             continue
-        step = 1e-6 * max(1.0, abs(fit.values[name]))
-        up = predict_emf(model, electrolyte, data, fit.e0, {**fit.values,
-                                                          name: fit.values[name] + step})
-        down = predict_emf(model, electrolyte, data, fit.e0, {**fit.values,
-                                                            name: fit.values[name] - step})
+        d_emf = sensitivity_coefficients(
+            lambda v: predict_emf(model, electrolyte, data, fit.e0, v), fit.values, [name])
         names.append(name)
-        columns.append(-sensitivity @ ((up - down) / (2.0 * step)))
+        columns.append(-sensitivity @ d_emf[:, 0])
         variances.append(u**2)
     if not names:
         return None
@@ -1252,15 +1250,10 @@ def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
     model_values = {name: fit.values[name] for name in model.parameter_names}
     ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
     grad = np.zeros((n, len(uncertain_names)))
-    for index, name in enumerate(uncertain_names):
-        if name not in model_values:
-            continue
-        step = 1e-6 * max(1.0, abs(fit.values[name]))
-        up = model.ln_gamma(electrolyte, data.molality, data.constants,
-                            {**model_values, name: model_values[name] + step})
-        down = model.ln_gamma(electrolyte, data.molality, data.constants,
-                              {**model_values, name: model_values[name] - step})
-        grad[:, index] = (up - down) / (2.0 * step)
+    in_model = [index for index, name in enumerate(uncertain_names) if name in model_values]
+    grad[:, in_model] = sensitivity_coefficients(
+        lambda v: model.ln_gamma(electrolyte, data.molality, data.constants, v), model_values,
+        [uncertain_names[index] for index in in_model])
     var_model = np.einsum("ij,jk,ik->i", grad, uncertain_covariance, grad)
 
     def full(values: np.ndarray | None) -> np.ndarray:

@@ -18,6 +18,7 @@ from ..activity.properties import MOLAR_MASS_WATER_KG_MOL, excess_gibbs_energy_r
 from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
 from ..data.runs import usable_points
+from ..fit.uncertainty import sensitivity_coefficients
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
 
@@ -28,20 +29,14 @@ def _gradients(model: ActivityModel, electrolyte: Electrolyte, molality: np.ndar
                constants: DebyeHueckelConstants, values: Mapping[str, float],
                free: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray]:
     """∂φ/∂θ and ∂ln γ±/∂θ over the free parameters, by central differences, shape (N, P)."""
-    d_phi, d_ln = [], []
-    for name in free:
-        step = 1e-6 * max(1.0, abs(values[name]))
-        up = {**values, name: values[name] + step}
-        down = {**values, name: values[name] - step}
-        d_phi.append((model.osmotic_coefficient(electrolyte, molality, constants, up)
-                      - model.osmotic_coefficient(electrolyte, molality, constants, down))
-                     / (2.0 * step))
-        d_ln.append((model.ln_gamma(electrolyte, molality, constants, up)
-                     - model.ln_gamma(electrolyte, molality, constants, down)) / (2.0 * step))
-    shape = (molality.size, 0)
-    if not free:
-        return np.zeros(shape), np.zeros(shape)
-    return np.column_stack(d_phi), np.column_stack(d_ln)
+    def phi(v: Mapping[str, float]) -> np.ndarray:
+        return model.osmotic_coefficient(electrolyte, molality, constants, v)
+
+    def ln_gamma(v: Mapping[str, float]) -> np.ndarray:
+        return model.ln_gamma(electrolyte, molality, constants, v)
+
+    return (sensitivity_coefficients(phi, values, free),
+            sensitivity_coefficients(ln_gamma, values, free))
 
 
 def derived_properties(reduction: Reduction) -> pd.DataFrame:
