@@ -18,7 +18,6 @@ parameters), so one batch can mix series whose data determine different paramete
 
 from __future__ import annotations
 
-from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import cached_property
 
@@ -400,9 +399,3 @@ def _safe_inverse(normal: np.ndarray, free: np.ndarray) -> np.ndarray:
         return np.linalg.inv(normal)
     except np.linalg.LinAlgError:
         return np.where(np.eye(free.size, dtype=bool) & free[:, None], np.inf, 0.0)
-
-
-def values_from(names: tuple[str, ...], mapping: Mapping[str, float]) -> np.ndarray:
-    """A (1, P) array of values in the order of ``names`` from a mapping (E°, model parameters
-    and the slope factor)."""
-    return np.array([[float(mapping[name]) for name in names]])
