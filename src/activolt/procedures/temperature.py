@@ -1,0 +1,659 @@
+r"""Temperature studies: E° at several temperatures, E°(T), and the thermodynamics of the cell
+reaction with their uncertainties.
+
+Two stages, and a cross-check:
+
+1. **Isotherms.** The readings are grouped by temperature (:func:`group_isotherms`) and each
+   group is reduced with the single-temperature machinery (:func:`~activolt.procedures.dilution.
+   reduce_run`, or :func:`~activolt.procedures.model_choice.compare_models` with
+   ``model="all"``): model choice, holding, budgets, diagnostics. Every reading keeps its own
+   temperature in its Nernst slope; a reading off its isotherm's setpoint T_s is referred to it
+   with the study's own dE°/dT, E_i → E_i − (dE°/dT)(T_i − T_s) — first without (pass 1), then
+   with the slope of the fitted E°(T), until it no longer changes.
+2. **E°(T).** The isotherm values are fitted by generalised least squares
+   (:func:`fit_standard_potential`, usable on plain arrays) in two forms: a polynomial in
+   (T − θ) of the degree the data support (chosen by BIC; the sequential F-test is reported
+   beside it) and the constant-ΔCp° form. The thermodynamic quantities follow by linear
+   propagation of the coefficients' covariance.
+3. **Global fit** (cross-check): every reading at once, E°(T) in the chosen form and the Hückel
+   parameters varying linearly with T.
+
+The thermodynamic relations (IUPAC Green Book, 3rd ed. 2007, §2.11 and §2.13; Bates & Bower
+1954, J. Res. NBS 53, 283, eqs. 4–7), for the cell reaction as written with n electrons:
+
+.. math:: ΔG° = −nFE°, \quad ΔS° = nF \frac{dE°}{dT}, \quad ΔH° = ΔG° + TΔS° =
+          nF\left(T\frac{dE°}{dT} − E°\right), \quad ΔC_p° = nFT\frac{d^2E°}{dT^2},
+          \quad \log_{10} K = \frac{nFE°}{RT\ln 10}
+
+The constant-ΔCp° form is the familiar ln K = A + B/T + C ln T (van 't Hoff with a constant
+ΔCp° = RC); since E° = (RT/nF) ln K it reads, for E° itself,
+
+.. math:: E°(T) = a + b\,(T − θ) + c\,[T \ln(T/θ) − (T − θ)]
+
+with a = E°(θ), b = dE°/dT at θ and c = ΔCp°/(nF) (the same three-parameter family, written so
+that its coefficients are the quantities at θ). Written as E° = a + b/T + c ln T it would not have
+a constant ΔCp°.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
+from ..errors import InputError
+from ..fit.least_squares import (
+    information_criteria,
+    linear_least_squares,
+)
+from ..fit.uncertainty import student_t_factor
+from .dilution import LACK_OF_FIT_P
+
+__all__ = [
+    "FORMS",
+    "QUANTITIES",
+    "ROUND_MOLALITIES_MOL_KG",
+    "Estimate",
+    "StandardPotentialFit",
+    "TemperatureForm",
+    "ThermodynamicValues",
+    "fit_standard_potential",
+]
+
+#: The forms of E°(T): a polynomial in (T − θ) and the constant-ΔCp° form.
+FORMS: tuple[str, ...] = ("polynomial", "constant_heat_capacity")
+#: The thermodynamic quantities, in the order of :attr:`ThermodynamicValues.covariance`.
+QUANTITIES: tuple[str, ...] = ("standard_potential_V", "delta_G_J_mol", "delta_H_J_mol",
+                               "delta_S_J_K_mol", "delta_Cp_J_K_mol", "log10_K")
+#: Highest polynomial degree tried for E°(T) (Bates & Bower 1954 used a cubic in t over
+#: 0–90 °C; a quartic is the most that 5–60 °C data at 0.01 mV can tell from it).
+MAX_POLYNOMIAL_DEGREE = 4
+#: Level of the sequential F-test reported beside the BIC choice (common practice).
+F_TEST_P = 0.05
+#: Round molalities of the γ±(T) table [mol kg⁻¹]: 1-2-5 steps (common practice).
+ROUND_MOLALITIES_MOL_KG: tuple[float, ...] = tuple(
+    round(f * 10.0**e, 6) for e in range(-3, 2) for f in (1.0, 2.0, 5.0))
+#: Liquid water at the standard pressure [K] (both ends included, as in the reader).
+LIQUID_WATER_K = (ZERO_CELSIUS_K, ZERO_CELSIUS_K + 100.0)
+#: The dE°/dT correction of off-setpoint readings is iterated until it moves no reading by more
+#: than this [V], or for at most :data:`MAX_PASSES` reductions of every isotherm.
+CORRECTION_TOLERANCE_V = 1e-8
+MAX_PASSES = 4
+_MIN_POINTS = 3
+
+
+# --------------------------------------------------------------------------------------------
+# Results
+# --------------------------------------------------------------------------------------------
+
+def _plain(value: float) -> float | None:
+    """A float for JSON: NaN and infinities become None."""
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """A value and its standard uncertainty (k = 1), in the unit its name gives."""
+
+    value: float
+    uncertainty: float
+
+    def to_dict(self) -> dict[str, float | None]:
+        """``{"value": …, "uncertainty": …}``, NaN as None."""
+        return {"value": _plain(self.value), "uncertainty": _plain(self.uncertainty)}
+
+
+@dataclass(frozen=True)
+class ThermodynamicValues:
+    """E°, ΔG°, ΔH°, ΔS°, ΔCp° and log10 K of the cell reaction at one temperature.
+
+    Attributes
+    ----------
+    temperature_K : float
+        The temperature [K].
+    electrons : int
+        n of the cell reaction as written [-].
+    standard_pressure_Pa : float
+        The pressure basis of every value [Pa].
+    values : numpy.ndarray
+        The quantities in the order of :data:`QUANTITIES` [V, J mol⁻¹, J mol⁻¹, J K⁻¹ mol⁻¹,
+        J K⁻¹ mol⁻¹, -]; ΔCp° is NaN when the form cannot determine it (a straight line).
+    covariance : numpy.ndarray
+        Their 6 × 6 covariance (linear propagation of the E°(T) coefficients' covariance), in
+        the same units squared; ΔH° and ΔS° are strongly correlated.
+    coverage_factor : float
+        k for a 95 % interval: 1.96, or Student's t when the covariance was scaled by the
+        reduced χ² of the E°(T) fit.
+    """
+
+    temperature_K: float
+    electrons: int
+    standard_pressure_Pa: float
+    values: np.ndarray
+    covariance: np.ndarray
+    coverage_factor: float
+
+    def estimate(self, name: str) -> Estimate:
+        """The quantity ``name`` (one of :data:`QUANTITIES`) with its standard uncertainty."""
+        i = QUANTITIES.index(name)
+        u = math.sqrt(max(float(self.covariance[i, i]), 0.0))
+        value = float(self.values[i])
+        return Estimate(value, u if math.isfinite(value) else math.nan)
+
+    @property
+    def standard_potential_V(self) -> Estimate:
+        """E° [V]."""
+        return self.estimate("standard_potential_V")
+
+    @property
+    def delta_G_J_mol(self) -> Estimate:
+        """ΔG° = −nFE° [J mol⁻¹]."""
+        return self.estimate("delta_G_J_mol")
+
+    @property
+    def delta_H_J_mol(self) -> Estimate:
+        """ΔH° = nF(T dE°/dT − E°) [J mol⁻¹]."""
+        return self.estimate("delta_H_J_mol")
+
+    @property
+    def delta_S_J_K_mol(self) -> Estimate:
+        """ΔS° = nF dE°/dT [J K⁻¹ mol⁻¹]."""
+        return self.estimate("delta_S_J_K_mol")
+
+    @property
+    def delta_Cp_J_K_mol(self) -> Estimate:
+        """ΔCp° = nFT d²E°/dT² [J K⁻¹ mol⁻¹]; NaN when the form cannot determine it."""
+        return self.estimate("delta_Cp_J_K_mol")
+
+    @property
+    def log10_K(self) -> Estimate:
+        """log10 K = nFE°/(RT ln 10) [-]."""
+        return self.estimate("log10_K")
+
+    def correlation(self, first: str, second: str) -> float:
+        """Correlation coefficient of two quantities (names of :data:`QUANTITIES`)."""
+        i, j = QUANTITIES.index(first), QUANTITIES.index(second)
+        denominator = math.sqrt(self.covariance[i, i] * self.covariance[j, j])
+        return float(self.covariance[i, j] / denominator) if denominator > 0 else math.nan
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready: temperature, each quantity as {value, uncertainty}, the pressure basis,
+        the ΔH°–ΔS° correlation and the full covariance (NaN as None)."""
+        out: dict[str, Any] = {"temperature_K": self.temperature_K,
+                               "standard_pressure_Pa": self.standard_pressure_Pa,
+                               "electrons": self.electrons}
+        for name in QUANTITIES:
+            out[name] = self.estimate(name).to_dict()
+        out["correlation_delta_H_delta_S"] = _plain(self.correlation("delta_H_J_mol",
+                                                                     "delta_S_J_K_mol"))
+        out["covariance"] = {"quantities": list(QUANTITIES),
+                             "matrix": [[_plain(v) for v in row] for row in self.covariance]}
+        out["coverage_factor_95"] = self.coverage_factor
+        return out
+
+
+def _basis(form: str, degree: int, reference_K: float, temperature_K: npt.ArrayLike
+           ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(f, df/dT, d²f/dT²) of the form's basis functions at T, each shape (N, P)."""
+    t = np.atleast_1d(np.asarray(temperature_K, dtype=float))
+    x = t - reference_K
+    if form == "polynomial":
+        k = np.arange(degree + 1)
+        f = x[:, None] ** k
+        d1 = np.where(k >= 1, k * x[:, None] ** np.maximum(k - 1, 0), 0.0)
+        d2 = np.where(k >= 2, k * (k - 1) * x[:, None] ** np.maximum(k - 2, 0), 0.0)
+        return f, d1, d2
+    log_ratio = np.log(t / reference_K)
+    zero, one = np.zeros_like(t), np.ones_like(t)
+    f = np.column_stack([one, x, t * log_ratio - x])
+    d1 = np.column_stack([zero, one, log_ratio])
+    d2 = np.column_stack([zero, zero, 1.0 / t])
+    return f, d1, d2
+
+
+def _quantity_gradients(form: str, degree: int, reference_K: float, temperature_K: float,
+                        electrons: int) -> np.ndarray:
+    """∂(quantities)/∂(coefficients) at T, shape (6, P): every quantity is linear in them."""
+    f, d1, d2 = (row[0] for row in _basis(form, degree, reference_K, temperature_K))
+    nf = electrons * FARADAY_C_MOL
+    t = float(temperature_K)
+    return np.vstack([f, -nf * f, nf * (t * d1 - f), nf * d1, nf * t * d2,
+                      nf * f / (GAS_CONSTANT_J_MOL_K * t * math.log(10.0))])
+
+
+@dataclass(frozen=True)
+class TemperatureForm:
+    """One fitted form of E°(T): its coefficients, their covariance and the fit's statistics.
+
+    ``form`` is ``"polynomial"`` — E° = Σ_k c_k (T − θ)^k, coefficients ``c0_V``, ``c1_V_K``,
+    ``c2_V_K2``, … — or ``"constant_heat_capacity"`` — E° = a + b (T − θ) + c [T ln(T/θ) −
+    (T − θ)], coefficients ``a_V`` (E° at θ), ``b_V_K`` (dE°/dT at θ), ``c_V_K`` (ΔCp°/(nF)).
+    ``covariance`` is that of the coefficients, scaled by χ²/ν when the residuals exceed the
+    isotherms' stated uncertainties (χ² upper-tail p < :data:`~activolt.procedures.dilution.
+    LACK_OF_FIT_P`; ``birge_ratio`` = √(χ²/ν)) or when no uncertainties were given; the 95 %
+    coverage factor is then Student's t with ν degrees of freedom.
+    """
+
+    form: str
+    degree: int
+    reference_temperature_K: float
+    coefficient_names: tuple[str, ...]
+    coefficients: np.ndarray
+    covariance: np.ndarray
+    temperature_K: np.ndarray
+    residuals_V: np.ndarray
+    chi2: float
+    dof: int
+    aic: float
+    bic: float
+    chi2_p_value: float
+    covariance_scaled: bool
+    birge_ratio: float
+    coverage_factor: float
+
+    @property
+    def equation(self) -> str:
+        """The form in words."""
+        if self.form == "polynomial":
+            return (f"E° = Σ c_k (T − θ)^k, k = 0…{self.degree}, "
+                    f"θ = {self.reference_temperature_K:g} K")
+        return (f"E° = a + b (T − θ) + c [T ln(T/θ) − (T − θ)], θ = "
+                f"{self.reference_temperature_K:g} K (constant ΔCp° = nFc; "
+                "ln K = A + B/T + C ln T)")
+
+    @property
+    def determines_heat_capacity(self) -> bool:
+        """Whether the form has a second derivative of its own (not a straight line)."""
+        return self.form != "polynomial" or self.degree >= 2
+
+    def standard_potential_V(self, temperature_K: npt.ArrayLike) -> np.ndarray:
+        """E° of the form at T [V]."""
+        f, _, _ = _basis(self.form, self.degree, self.reference_temperature_K, temperature_K)
+        return f @ self.coefficients
+
+    def slope_V_K(self, temperature_K: npt.ArrayLike) -> np.ndarray:
+        """dE°/dT of the form at T [V K⁻¹]."""
+        _, d1, _ = _basis(self.form, self.degree, self.reference_temperature_K, temperature_K)
+        return d1 @ self.coefficients
+
+    def thermodynamics(self, temperature_K: float, electrons: int,
+                       standard_pressure_Pa: float = STANDARD_PRESSURE_PA) -> ThermodynamicValues:
+        """The thermodynamic quantities at T with their covariance (see the module docstring).
+
+        Parameters
+        ----------
+        temperature_K : float
+            T [K].
+        electrons : int
+            n of the cell reaction as written [-].
+        standard_pressure_Pa : float
+            The pressure basis of the E° values fitted [Pa] (carried, not converted).
+        """
+        g = _quantity_gradients(self.form, self.degree, self.reference_temperature_K,
+                                temperature_K, electrons)
+        values = g @ self.coefficients
+        covariance = g @ self.covariance @ g.T
+        if not self.determines_heat_capacity:
+            i = QUANTITIES.index("delta_Cp_J_K_mol")
+            values[i] = math.nan
+            covariance[i, :] = covariance[:, i] = math.nan
+        return ThermodynamicValues(float(temperature_K), int(electrons),
+                                   float(standard_pressure_Pa), values, covariance,
+                                   self.coverage_factor)
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready: form, equation, coefficients with their covariance, residuals, χ², ν,
+        AIC, BIC."""
+        return {
+            "form": self.form, "degree": self.degree, "equation": self.equation,
+            "reference_temperature_K": self.reference_temperature_K,
+            "coefficients": {n: _plain(v) for n, v in zip(self.coefficient_names,
+                                                          self.coefficients, strict=True)},
+            "covariance": {"coefficients": list(self.coefficient_names),
+                           "matrix": [[_plain(v) for v in row] for row in self.covariance]},
+            "residuals_V": [{"temperature_K": float(t), "residual_V": float(r)}
+                            for t, r in zip(self.temperature_K, self.residuals_V, strict=True)],
+            "chi2": _plain(self.chi2), "dof": self.dof, "aic": _plain(self.aic),
+            "bic": _plain(self.bic), "chi2_p_value": _plain(self.chi2_p_value),
+            "covariance_scaled": self.covariance_scaled, "birge_ratio": _plain(self.birge_ratio),
+            "coverage_factor_95": self.coverage_factor,
+        }
+
+
+def _coefficient_names(form: str, degree: int) -> tuple[str, ...]:
+    if form == "polynomial":
+        return tuple(["c0_V", "c1_V_K"] + [f"c{k}_V_K{k}" for k in range(2, degree + 1)]
+                     )[: degree + 1]
+    return ("a_V", "b_V_K", "c_V_K")
+
+
+@dataclass(frozen=True)
+class FTest:
+    """The sequential F-test of one more polynomial term: F = (χ²_d − χ²_{d+1}) / (χ²_{d+1}/ν),
+    p its upper-tail probability with (1, ν) degrees of freedom."""
+
+    from_degree: int
+    to_degree: int
+    f_value: float
+    p_value: float
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready."""
+        return {"from_degree": self.from_degree, "to_degree": self.to_degree,
+                "F": _plain(self.f_value), "p_value": _plain(self.p_value)}
+
+
+@dataclass(frozen=True)
+class StandardPotentialFit:
+    """E°(T) fitted to E° values at several temperatures, and the thermodynamics that follow.
+
+    Attributes
+    ----------
+    temperature_K, standard_potential_V : numpy.ndarray
+        The data [K], [V].
+    covariance_V2 : numpy.ndarray
+        Their covariance [V²] (diagonal u² unless given in full); unit weights when no
+        uncertainties were given (``stated_uncertainty`` False).
+    electrons : int
+        n of the cell reaction as written [-].
+    reference_temperature_K : float
+        θ [K].
+    standard_pressure_Pa : float
+        The pressure basis of the E° values and of every quantity derived [Pa].
+    polynomials : tuple of TemperatureForm
+        Every polynomial degree tried (1 … min(4, N − 2)).
+    f_tests : tuple of FTest
+        Sequential F-tests between consecutive degrees.
+    polynomial_degree : int
+        The degree chosen by the lowest BIC.
+    f_test_degree : int
+        The degree the sequential F-test would choose (stop at the first p ≥ 0.05).
+    constant_heat_capacity : TemperatureForm or None
+        The constant-ΔCp° form (None with fewer than four temperatures).
+    chosen : str
+        The form of the thermodynamics: ``"polynomial"`` or ``"constant_heat_capacity"``.
+    choice_reason : str
+        Why, in words.
+    reference : ThermodynamicValues
+        The quantities at θ in the chosen form.
+    at_temperatures : tuple of ThermodynamicValues
+        The quantities at every data temperature in the chosen form.
+    notes : tuple of str
+        What the user should know (lack of fit, ΔCp° undetermined, …).
+    """
+
+    temperature_K: np.ndarray
+    standard_potential_V: np.ndarray
+    covariance_V2: np.ndarray
+    stated_uncertainty: bool
+    electrons: int
+    reference_temperature_K: float
+    standard_pressure_Pa: float
+    polynomials: tuple[TemperatureForm, ...]
+    f_tests: tuple[FTest, ...]
+    polynomial_degree: int
+    f_test_degree: int
+    constant_heat_capacity: TemperatureForm | None
+    chosen: str
+    choice_reason: str
+    reference: ThermodynamicValues
+    at_temperatures: tuple[ThermodynamicValues, ...]
+    notes: tuple[str, ...] = ()
+
+    @property
+    def polynomial(self) -> TemperatureForm:
+        """The polynomial of the chosen degree."""
+        return next(p for p in self.polynomials if p.degree == self.polynomial_degree)
+
+    @property
+    def form(self) -> TemperatureForm:
+        """The chosen form."""
+        if self.chosen == "polynomial" or self.constant_heat_capacity is None:
+            return self.polynomial
+        return self.constant_heat_capacity
+
+    def thermodynamics(self, temperature_K: float) -> ThermodynamicValues:
+        """The quantities at any T [K] in the chosen form (extrapolation is the caller's risk:
+        the range fitted is ``temperature_K.min()`` … ``max()``)."""
+        return self.form.thermodynamics(temperature_K, self.electrons, self.standard_pressure_Pa)
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready: the chosen form and why, both forms, the F-tests, the quantities at θ and
+        at every temperature."""
+        return {
+            "reference_temperature_K": self.reference_temperature_K,
+            "standard_pressure_Pa": self.standard_pressure_Pa,
+            "electrons": self.electrons,
+            "form": self.chosen,
+            "form_reason": self.choice_reason,
+            "polynomial_degree": self.polynomial_degree,
+            "polynomial_degree_f_test": self.f_test_degree,
+            "stated_uncertainty": self.stated_uncertainty,
+            "data": [{"temperature_K": float(t), "standard_potential_V": float(e),
+                      "u_standard_potential_V": _plain(math.sqrt(v))}
+                     for t, e, v in zip(self.temperature_K, self.standard_potential_V,
+                                        np.diag(self.covariance_V2), strict=True)],
+            "fits": {"polynomials": [p.to_dict() for p in self.polynomials],
+                     "constant_heat_capacity": (None if self.constant_heat_capacity is None
+                                                else self.constant_heat_capacity.to_dict()),
+                     "f_tests": [t.to_dict() for t in self.f_tests]},
+            "coefficients": self.form.to_dict(),
+            "reference": self.reference.to_dict(),
+            "at_temperatures": [v.to_dict() for v in self.at_temperatures],
+            "notes": list(self.notes),
+        }
+
+
+# --------------------------------------------------------------------------------------------
+# E°(T)
+# --------------------------------------------------------------------------------------------
+
+def _check_liquid_water(temperature_K: np.ndarray, what: str, file: str | None = None,
+                        column: str | None = "temperature_K") -> None:
+    low, high = LIQUID_WATER_K
+    outside = ~((temperature_K >= low - 1e-9) & (temperature_K <= high + 1e-9))
+    if np.any(outside):
+        value = float(temperature_K[np.flatnonzero(outside)[0]])
+        raise InputError(f"{what} {value:.2f} K ({value - ZERO_CELSIUS_K:.2f} °C) is outside "
+                         f"liquid water (0–100 °C); check the value and its unit",
+                         file=file, column=column)
+
+
+def _fit_form(form: str, degree: int, reference_K: float, temperature_K: np.ndarray,
+              standard_potential_V: np.ndarray, whitening: np.ndarray, stated: bool
+              ) -> TemperatureForm:
+    """One generalised least-squares fit: the data and the design whitened by L⁻¹ (V = LLᵀ)."""
+    from scipy.special import chdtrc
+
+    design, _, _ = _basis(form, degree, reference_K, temperature_K)
+    names = _coefficient_names(form, degree)
+    fit = linear_least_squares(whitening @ design, whitening @ standard_potential_V,
+                               np.ones(temperature_K.size), scale_covariance=False, names=names)
+    coefficients = fit.value_array
+    residuals = standard_potential_V - design @ coefficients
+    chi2, dof = fit.chi2, fit.dof
+    covariance = fit.covariance
+    p_value = float(chdtrc(dof, chi2)) if stated and dof > 0 else math.nan
+    scaled = dof > 0 and (not stated or p_value < LACK_OF_FIT_P)
+    birge = math.sqrt(chi2 / dof) if dof > 0 else math.nan
+    if scaled:
+        covariance = covariance * chi2 / dof
+    aic, bic = information_criteria(chi2, temperature_K.size, len(names), not stated)
+    return TemperatureForm(
+        form=form, degree=degree, reference_temperature_K=reference_K,
+        coefficient_names=names, coefficients=coefficients, covariance=covariance,
+        temperature_K=temperature_K.copy(), residuals_V=residuals, chi2=chi2, dof=dof,
+        aic=aic, bic=bic, chi2_p_value=p_value, covariance_scaled=scaled, birge_ratio=birge,
+        coverage_factor=student_t_factor(dof if scaled else 0))
+
+
+def fit_standard_potential(
+    temperature_K: npt.ArrayLike,
+    standard_potential_V: npt.ArrayLike,
+    u_standard_potential_V: npt.ArrayLike | None = None,
+    *,
+    covariance_V2: npt.ArrayLike | None = None,
+    electrons: int = 1,
+    reference_temperature_K: float = 298.15,
+    standard_pressure_Pa: float = STANDARD_PRESSURE_PA,
+) -> StandardPotentialFit:
+    r"""Fit E°(T) in two forms and derive E°, ΔG°, ΔH°, ΔS°, ΔCp° and log10 K with uncertainties.
+
+    Parameters
+    ----------
+    temperature_K : array_like
+        Temperatures of the E° values, shape (N,), N ≥ 2, in liquid water [K].
+    standard_potential_V : array_like
+        E° at those temperatures, shape (N,) [V].
+    u_standard_potential_V : array_like, optional
+        Their standard uncertainties, shape (N,) [V]; omitted (and no ``covariance_V2``): unit
+        weights, the scale taken from the residuals.
+    covariance_V2 : array_like, optional
+        Their full covariance, shape (N, N) [V²]; wins over ``u_standard_potential_V``.
+    electrons : int
+        n of the cell reaction as written [-].
+    reference_temperature_K : float
+        θ, where the quantities are reported and around which the polynomial is written [K].
+    standard_pressure_Pa : float
+        The pressure basis of the E° values [Pa]; carried into every result, not converted.
+
+    Returns
+    -------
+    StandardPotentialFit
+
+    Raises
+    ------
+    InputError
+        Fewer than two distinct temperatures, mismatched shapes, non-finite values,
+        non-positive uncertainties, temperatures (or θ) outside liquid water.
+
+    Notes
+    -----
+    Generalised least squares: with V = LLᵀ the covariance of the E° values, L⁻¹E° is fitted
+    by L⁻¹X c (:func:`activolt.fit.least_squares.linear_least_squares`); the covariance of c is
+    (XᵀV⁻¹X)⁻¹, scaled by χ²/ν (Birge ratio squared) when χ² exceeds what V allows (upper-tail
+    p < 0.05) — the isotherms then scatter more than their stated u(E°). Polynomials of degree
+    1 … min(4, N − 2) are fitted; the degree of lowest BIC (Schwarz 1978, Ann. Stat. 6, 461) is
+    chosen, the sequential F-test (Draper & Smith 1998, *Applied Regression Analysis*, 3rd ed.,
+    §6.1) reported beside it. The constant-ΔCp° form (module docstring) is fitted with N ≥ 4;
+    the chosen form is the one of lower BIC (the polynomial on a tie). Every quantity Q is
+    linear in the coefficients, Q = g_Qᵀ c, so its covariance is G V_c Gᵀ exactly (GUM, JCGM
+    100:2008, 5.2); ΔCp° from a straight line is not determined and is NaN.
+
+    Examples
+    --------
+    Bates & Bower (1954, Table 1; absolute volts, 1 atm) from 5 to 60 °C, s.d. 0.01 mV:
+
+    >>> t = np.arange(5.0, 65.0, 5.0)
+    >>> e0 = [0.23413, 0.23142, 0.22857, 0.22557, 0.22234, 0.21904, 0.21566, 0.21208,
+    ...       0.20835, 0.20449, 0.20056, 0.19649]
+    >>> fit = fit_standard_potential(t + 273.15, e0, np.full(12, 1e-5),
+    ...                              standard_pressure_Pa=101325.0)
+    >>> fit.chosen, fit.polynomial_degree
+    ('polynomial', 3)
+    >>> round(fit.reference.delta_H_J_mol.value / 1e3, 2)
+    -40.06
+    """
+    t = np.asarray(temperature_K, dtype=float).ravel()
+    e = np.asarray(standard_potential_V, dtype=float).ravel()
+    if t.shape != e.shape:
+        raise InputError(f"{t.size} temperatures but {e.size} E° values; give one E° per "
+                         "temperature", column="standard_potential_V")
+    if not (np.all(np.isfinite(t)) and np.all(np.isfinite(e))):
+        raise InputError("temperatures and E° values must be finite numbers",
+                         column="standard_potential_V")
+    _check_liquid_water(t, "temperature")
+    _check_liquid_water(np.array([float(reference_temperature_K)]), "reference temperature",
+                        column="reference_temperature_K")
+    if np.unique(t).size < 2:
+        raise InputError("E°(T) needs E° at two temperatures at least; "
+                         f"all {t.size} value(s) are at {t[0]:.2f} K", column="temperature_K")
+    if electrons < 1:
+        raise InputError(f"electrons = {electrons}; n must be a positive integer",
+                         column="electrons")
+    if covariance_V2 is not None:
+        covariance = np.asarray(covariance_V2, dtype=float)
+        stated = True
+    elif u_standard_potential_V is not None:
+        u = np.broadcast_to(np.asarray(u_standard_potential_V, dtype=float), t.shape)
+        if not np.all(np.isfinite(u) & (u > 0)):
+            raise InputError("every u(E°) must be a positive finite number [V]",
+                             column="u_standard_potential_V")
+        covariance = np.diag(u**2)
+        stated = True
+    else:
+        covariance = np.eye(t.size)
+        stated = False
+    if covariance.shape != (t.size, t.size) or not np.allclose(covariance, covariance.T):
+        raise InputError(f"the covariance must be symmetric, {t.size} × {t.size}",
+                         column="covariance_V2")
+    try:
+        lower = np.linalg.cholesky(covariance)
+    except np.linalg.LinAlgError:
+        raise InputError("the covariance of the E° values is not positive definite",
+                         column="covariance_V2") from None
+    whitening = np.linalg.inv(lower)
+    theta = float(reference_temperature_K)
+
+    n = t.size
+    top = max(1, min(MAX_POLYNOMIAL_DEGREE, n - 2))
+    polynomials = tuple(_fit_form("polynomial", d, theta, t, e, whitening, stated)
+                        for d in range(1, top + 1))
+    f_tests = []
+    for low, high in itertools.pairwise(polynomials):
+        from scipy.special import fdtrc
+
+        f_value = ((low.chi2 - high.chi2) / (high.chi2 / high.dof) if high.chi2 > 0
+                   else math.inf)
+        f_tests.append(FTest(low.degree, high.degree, f_value,
+                             float(fdtrc(1, high.dof, f_value))))
+    f_degree = 1
+    for test in f_tests:
+        if test.p_value >= F_TEST_P:
+            break
+        f_degree = test.to_degree
+    best = min(polynomials, key=lambda p: (p.bic, p.degree))
+    constant_cp = (_fit_form("constant_heat_capacity", 2, theta, t, e, whitening, stated)
+                   if n >= 4 else None)
+
+    notes: list[str] = []
+    criteria = ", ".join(f"degree {p.degree}: BIC {p.bic:.4g}" for p in polynomials)
+    if constant_cp is not None and constant_cp.bic < best.bic:
+        chosen = "constant_heat_capacity"
+        reason = (f"the constant-ΔCp° form has the lower BIC ({constant_cp.bic:.4g} against "
+                  f"{best.bic:.4g} for the polynomial of degree {best.degree}; {criteria})")
+    else:
+        chosen = "polynomial"
+        reason = (f"the polynomial of degree {best.degree} has the lowest BIC ({criteria}"
+                  + (f"; constant-ΔCp° form: BIC {constant_cp.bic:.4g}" if constant_cp else
+                     "; the constant-ΔCp° form needs four temperatures") + ")")
+    if f_degree != best.degree:
+        notes.append(f"the sequential F-test (p < {F_TEST_P:g}) would choose degree {f_degree}; "
+                     f"BIC chose {best.degree}")
+    form = constant_cp if chosen == "constant_heat_capacity" else best
+    assert form is not None
+    if form.covariance_scaled and stated:
+        notes.append(f"E°(T) residuals exceed the stated u(E°) (χ² = {form.chi2:.3g}, ν = "
+                     f"{form.dof}, p = {form.chi2_p_value:.2g}): covariance scaled by χ²/ν, "
+                     f"Birge ratio {form.birge_ratio:.3g}, 95 % intervals from Student's t")
+    if form.dof == 0:
+        notes.append("E°(T) has no degree of freedom left: its residuals cannot be judged")
+    if not form.determines_heat_capacity:
+        notes.append("a straight line E°(T) does not determine ΔCp° (reported as missing)")
+    if not stated:
+        notes.append("no u(E°) given: unit weights, covariance scaled by the residual variance")
+    reference = form.thermodynamics(theta, electrons, standard_pressure_Pa)
+    at = tuple(form.thermodynamics(float(x), electrons, standard_pressure_Pa) for x in t)
+    return StandardPotentialFit(
+        temperature_K=t, standard_potential_V=e, covariance_V2=covariance,
+        stated_uncertainty=stated, electrons=int(electrons), reference_temperature_K=theta,
+        standard_pressure_Pa=float(standard_pressure_Pa), polynomials=polynomials,
+        f_tests=tuple(f_tests), polynomial_degree=best.degree, f_test_degree=f_degree,
+        constant_heat_capacity=constant_cp, chosen=chosen, choice_reason=reason,
+        reference=reference, at_temperatures=at, notes=tuple(notes))
