@@ -259,9 +259,11 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     -----
     With A = W^½ J and r the weighted residuals, each iteration solves
     (AᵀA + λ diag AᵀA) δ = Aᵀr per series (λ = 0, one Gauss–Newton step, when every free
-    parameter enters linearly: the solution is then exact). λ is divided by 10 after a step
-    that lowers χ² and multiplied by 10 otherwise; a series stops when χ² no longer falls by
-    more than 10⁻¹² relatively and its step is below 10⁻¹⁰ of its values. The covariance is
+    parameter enters linearly: the solution is then exact), starting at λ = 10⁻⁵. λ is divided
+    by 10 after a step that lowers χ² and multiplied by 10 otherwise; a series stops when χ² no
+    longer falls by more than 10⁻¹² relatively or its step is below 10⁻¹⁰ of its values, or
+    when λ passes 10¹². A parameter at a bound that the step would push beyond it is held for
+    that step (projected Levenberg–Marquardt). The covariance is
     (AᵀA)⁻¹ at the optimum (Bevington & Robinson 2003, *Data Reduction and Error Analysis*,
     ch. 8; Press et al. 2007, *Numerical Recipes*, §15.5).
 
