@@ -153,3 +153,21 @@ def test_no_model_for_the_run_still_shows_the_comparison(tmp_path, capsys):
     assert "Model comparison:" in printed.out
     assert "no model can describe this run" in printed.err
     assert not (tmp_path / "out").exists()
+
+
+def test_lmfit_parameters_declare_the_held_values(tmp_path):
+    """A library user may hold parameters the lmfit way (vary=False, stderr as u): the same
+    reduction as the plain mapping (regression of the two spellings against each other)."""
+    import lmfit
+
+    m = np.geomspace(0.001, 0.1, 8)
+    emf = _emf(m) + np.random.default_rng(7).normal(0.0, 1e-5, m.size)
+    run = read_run(write_run(tmp_path, m, emf, u_emf_V=1e-5))
+    params = lmfit.Parameters()
+    params.add("a_angstrom", value=4.3, vary=False)
+    params["a_angstrom"].stderr = 0.2
+    params.add("b_kg_mol", value=0.2)  # varies: left to the fit
+    by_lmfit = reduce_run(run, "hueckel", fixed=params)
+    by_mapping = reduce_run(run, "hueckel", fixed={"a_angstrom": (4.3, 0.2)})
+    assert by_lmfit.standard_potential.nominal_value == by_mapping.standard_potential.nominal_value
+    assert by_lmfit.standard_potential.std_dev == by_mapping.standard_potential.std_dev

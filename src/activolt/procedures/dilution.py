@@ -24,7 +24,7 @@ import dataclasses
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
 import numpy.typing as npt
@@ -521,10 +521,13 @@ def mean_temperature(temperature_K: np.ndarray) -> float:
     return float(np.clip(np.mean(temperature_K), temperature_K.min(), temperature_K.max()))
 
 
-def _split_fixed(fixed: Mapping[str, float | tuple[float, float]] | None
+def _split_fixed(fixed: Mapping[str, Any] | None
                  ) -> tuple[dict[str, float], dict[str, float]]:
     """Held values, and the standard uncertainties given with some of them: a value or a
-    (value, u) pair per parameter; u must be finite and ≥ 0."""
+    (value, u) pair per parameter, or an ``lmfit.Parameters`` whose parameters with
+    ``vary=False`` are held (their ``stderr``, when set, is the u); u must be finite and ≥ 0."""
+    if fixed is not None and all(hasattr(p, "vary") for p in fixed.values()):
+        fixed = {name: (p.value, p.stderr or 0.0) for name, p in fixed.items() if not p.vary}
     values, uncertainties = {}, {}
     for name, given in (fixed or {}).items():
         value, u = (given if isinstance(given, tuple) else (given, 0.0))
@@ -642,7 +645,7 @@ def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit
     return math.sqrt(excess), dof, chi2_p, runs_p
 
 def reduce_run(run: Run, model: str = "hueckel",
-               fixed: Mapping[str, float | tuple[float, float]] | None = None,
+               fixed: Mapping[str, Any] | None = None,
                exclude: Sequence[Exclusion] = (), *,
                remind_model_choice: bool = True) -> Reduction:
     """Fit E° and the activity-coefficient model to a run; γ± with uncertainties at each point.
@@ -653,10 +656,11 @@ def reduce_run(run: Run, model: str = "hueckel",
         A validated run (:func:`activolt.data.runs.read_run`).
     model : str
         Model name (``limiting``, ``hueckel``, …; see :data:`activolt.activity.MODELS`).
-    fixed : mapping, optional
+    fixed : mapping or lmfit.Parameters, optional
         Parameters to hold at given values, e.g. ``{"a_angstrom": 4.3}``, or at a value with a
         standard uncertainty, ``{"a_angstrom": (4.3, 0.2)}``, which then enters u(E°) as a
-        Type B component.
+        Type B component; or an ``lmfit.Parameters`` in which the parameters with
+        ``vary=False`` are held (with their ``stderr`` as u when it is set).
     exclude : sequence of Exclusion, optional
         Readings to leave out, each with the user's reason; they stay in the points table,
         flagged, and the change of E° their exclusion makes is reported.
@@ -715,8 +719,7 @@ class _Start:
     warnings: list[str]
 
 
-def _start(run: Run, family: ActivityModel,
-           fixed: Mapping[str, float | tuple[float, float]] | None) -> _Start:
+def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> _Start:
     """Step 1: check the run and the held values, leave out readings beyond the model's range,
     prepare the readings, and start every parameter at its held or conventional value."""
     fixed_values, fixed_u = _split_fixed(fixed)
