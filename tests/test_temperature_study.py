@@ -3,15 +3,23 @@ cross-check and γ±(T) (activolt.procedures.temperature)."""
 
 from __future__ import annotations
 
+import dataclasses
+import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
 
 from activolt.constants import ATMOSPHERE_PA, FARADAY_C_MOL, STANDARD_PRESSURE_PA
+from activolt.data.runs import read_run
 from activolt.errors import InputError
 from activolt.physics.corrections import standard_pressure_basis_shift
-from activolt.procedures.temperature import fit_standard_potential
+from activolt.procedures.temperature import (
+    TemperatureStudy,
+    fit_standard_potential,
+    study_temperatures,
+)
 
 # Bates & Bower (1954), J. Res. NBS 53, 283, Table 1 (confirmed in the 2001 reprint, J. Res.
 # NIST 106(2)): E° of Pt | H2 | HCl | AgCl | Ag, absolute volts, H2 at 1 atm, by t/°C.
@@ -141,3 +149,179 @@ def test_reference_temperature_outside_liquid_water_is_refused() -> None:
                                reference_temperature_K=400.0)
 
 
+
+
+# ---------------------------------------------------------------------------------------------
+# Studies of synthetic runs
+# ---------------------------------------------------------------------------------------------
+
+def bates_bower_smoothed_V(t_C: np.ndarray | float) -> np.ndarray:
+    """Bates & Bower (1954) smoothing equation, t in °C (0.23659 confirmed; the other
+    coefficients from memory, reference-values.md) — the generating truth of synthetic studies,
+    not a check value itself."""
+    t = np.asarray(t_C, dtype=float)
+    return 0.23659 - 4.8564e-4 * t - 3.4205e-6 * t**2 + 5.869e-9 * t**3
+
+
+def truth_at(temperature_K: float) -> dict[str, float]:
+    """ΔH°, ΔS°, ΔCp° implied by the generating E°(T) (n = 1)."""
+    t = temperature_K - 273.15
+    e = float(bates_bower_smoothed_V(t))
+    d1 = -4.8564e-4 - 2 * 3.4205e-6 * t + 3 * 5.869e-9 * t**2
+    d2 = -2 * 3.4205e-6 + 6 * 5.869e-9 * t
+    return {"standard_potential_V": e, "delta_S_J_K_mol": FARADAY_C_MOL * d1,
+            "delta_H_J_mol": FARADAY_C_MOL * (temperature_K * d1 - e),
+            "delta_Cp_J_K_mol": FARADAY_C_MOL * temperature_K * d2}
+
+
+SETPOINTS_C = (5.0, 15.0, 25.0, 35.0, 45.0, 55.0)
+MOLALITIES = (0.002, 0.003, 0.005, 0.0075, 0.01, 0.015, 0.02, 0.03, 0.05, 0.07, 0.1)
+A_ANGSTROM = 4.3
+U_EMF_V = 1e-5
+
+
+def b_kg_mol(t_C: float) -> float:
+    """The Hückel b of the synthetic γ±, varying mildly with T (invented for the test)."""
+    return 0.30 - 0.0015 * (t_C - 25.0)
+
+
+def synthetic_table(rng: np.random.Generator, molalities: tuple[float, ...] = MOLALITIES,
+                    offsets_K: dict[float, float] | None = None) -> str:
+    """Rows of a study: every molality at every setpoint, readings from the generating E°(T)
+    and a Hückel γ± (å = 4.3 Å, b(T)) at each row's own temperature, noise 0.01 mV."""
+    from synthetic import emf_from_gamma
+
+    from activolt.activity import get_model
+    from activolt.chemistry.electrolytes import parse_electrolyte
+    from activolt.physics.water import debye_hueckel_constants
+
+    model = get_model("hueckel")
+    hcl = parse_electrolyte("HCl")
+    rows = ["molality_mol_kg,emf_V,u_emf_V,temperature_C"]
+    for t_c in SETPOINTS_C:
+        for i, m in enumerate(molalities):
+            # a few readings off their setpoint, to exercise the correction
+            t_row = t_c + ((offsets_K or {}).get(t_c, 0.0) if i % 3 == 1 else 0.0)
+            t_k = t_row + 273.15
+            constants = debye_hueckel_constants(np.array([t_k]))
+            ln_g = model.ln_gamma(hcl, np.array([m]), constants,
+                                  {"a_angstrom": A_ANGSTROM, "b_kg_mol": b_kg_mol(t_row)})
+            emf = emf_from_gamma(np.array([m]), np.exp(ln_g), float(bates_bower_smoothed_V(t_row)),
+                                 temperature_K=t_k)[0] + rng.normal(0.0, U_EMF_V)
+            rows.append(f"{float(m)!r},{float(emf)!r},{U_EMF_V!r},{float(t_row)!r}")
+    return "\n".join(rows) + "\n"
+
+
+def write_study(folder: Path, text: str, stem: str = "study") -> Path:
+    table = folder / f"{stem}.csv"
+    table.write_text(text, encoding="utf-8")
+    (folder / f"{stem}.toml").write_text('electrolyte = "HCl"\nelectrons = 1\n',
+                                          encoding="utf-8")
+    return table
+
+
+def test_round_trip_recovers_the_generating_thermodynamics(tmp_path: Path) -> None:
+    rng = np.random.default_rng(20240611)
+    path = write_study(tmp_path, synthetic_table(rng, offsets_K={15.0: 0.3, 45.0: -0.25}))
+    study = study_temperatures(read_run(path), "hueckel", fixed={"a_angstrom": A_ANGSTROM})
+    assert [round(i.setpoint_K - 273.15, 6) for i in study.isotherms] == list(SETPOINTS_C)
+    for iso in study.isotherms:
+        true_e0 = float(bates_bower_smoothed_V(iso.setpoint_K - 273.15))
+        e0 = iso.standard_potential_V
+        assert abs(e0.value - true_e0) <= 3e-5
+        assert abs(e0.value - true_e0) <= 3 * e0.uncertainty
+    corrected = {round(i.setpoint_K - 273.15, 3): i for i in study.isotherms}
+    # dE°/dT ≈ −0.6 mV/K: 0.3 K off is about 0.2 mV, referred to the setpoint and recorded.
+    assert corrected[15.0].max_correction_V == pytest.approx(0.3 * 0.56e-3, rel=0.1)
+    assert corrected[25.0].max_correction_V == 0.0
+    assert study.passes >= 2
+    ref = study.reference
+    truth = truth_at(298.15)
+    for name, tolerance in (("delta_H_J_mol", 100.0), ("delta_S_J_K_mol", 0.3),
+                            ("delta_Cp_J_K_mol", 20.0)):
+        estimate = ref.estimate(name)
+        assert abs(estimate.value - truth[name]) <= tolerance, name
+        assert abs(estimate.value - truth[name]) <= 3 * estimate.uncertainty, name
+    # every isotherm's thermodynamics are there, on the run's pressure basis
+    record = study.to_dict()
+    assert record["standard_pressure_Pa"] == STANDARD_PRESSURE_PA
+    assert len(record["isotherms"]) == len(record["at_isotherms"]) == 6
+    assert set(record["isotherms"][0]) >= {"temperature_K", "n_points", "model",
+                                           "standard_potential_V"}
+    assert record["delta_H_J_mol"]["uncertainty"] > 0
+    json.dumps(record, allow_nan=False)
+
+
+@pytest.fixture(scope="module")
+def round_trip_study(tmp_path_factory: pytest.TempPathFactory) -> TemperatureStudy:
+    rng = np.random.default_rng(7)
+    path = write_study(tmp_path_factory.mktemp("study"), synthetic_table(rng))
+    return study_temperatures(read_run(path), "hueckel", fixed={"a_angstrom": A_ANGSTROM})
+
+
+def test_global_fit_agrees_with_the_two_stage_result(round_trip_study: TemperatureStudy) -> None:
+    global_fit = round_trip_study.global_fit
+    assert global_fit is not None
+    two_stage = round_trip_study.reference
+    truth = truth_at(298.15)
+    for name in ("standard_potential_V", "delta_H_J_mol", "delta_S_J_K_mol"):
+        u = two_stage.estimate(name).uncertainty
+        assert abs(global_fit.differences[name]) <= 2 * u, name
+        assert abs(global_fit.reference.estimate(name).value - truth[name]) <= 3 * max(
+            u, global_fit.reference.estimate(name).uncertainty), name
+    # b varies with T in the generating γ± (−0.0015 kg/mol per K); the global fit finds it.
+    slope = global_fit.parameters["b_kg_mol_1"]
+    assert abs(slope.value - (-0.0015)) <= 3 * slope.uncertainty
+    assert "a_angstrom" in global_fit.held
+
+
+def test_gamma_table_follows_the_generating_model(round_trip_study: TemperatureStudy) -> None:
+    from activolt.activity import get_model
+    from activolt.chemistry.electrolytes import parse_electrolyte
+    from activolt.physics.water import debye_hueckel_constants
+
+    table = round_trip_study.gamma_table
+    # round molalities within 0.002–0.1 mol/kg at each of the six temperatures
+    assert sorted(set(table["molality_mol_kg"])) == [0.002, 0.005, 0.01, 0.02, 0.05, 0.1]
+    assert table.groupby("temperature_K").size().tolist() == [6] * 6
+    model = get_model("hueckel")
+    for row in table.itertuples():
+        t_c = row.temperature_K - 273.15
+        truth = float(np.exp(model.ln_gamma(
+            parse_electrolyte("HCl"), np.array([row.molality_mol_kg]),
+            debye_hueckel_constants(np.array([row.temperature_K])),
+            {"a_angstrom": A_ANGSTROM, "b_kg_mol": b_kg_mol(t_c)}))[0])
+        assert row.u_gamma_pm > 0
+        assert abs(row.gamma_pm - truth) <= max(3 * row.u_gamma_pm, 1e-6)
+
+
+def test_one_isotherm_only_is_refused(tmp_path: Path) -> None:
+    rng = np.random.default_rng(1)
+    text = "".join(line + "\n" for line in synthetic_table(rng).splitlines()
+                   if line.startswith("molality") or line.endswith(",25.0"))
+    run = read_run(write_study(tmp_path, text))
+    with pytest.raises(InputError, match="needs isotherms at two temperatures"):
+        study_temperatures(run)
+
+
+def test_isotherm_with_too_few_readings_is_refused(tmp_path: Path) -> None:
+    rng = np.random.default_rng(2)
+    lines = synthetic_table(rng).splitlines()
+    keep = [lines[0]] + [line for line in lines[1:] if not line.endswith(",55.0")]
+    keep += [line for line in lines[1:] if line.endswith(",55.0")][:2]
+    run = read_run(write_study(tmp_path, "\n".join(keep) + "\n"))
+    with pytest.raises(InputError, match=r"55\.00 °C has 2 usable reading\(s\)") as error:
+        study_temperatures(run)
+    assert error.value.file is not None and error.value.line is not None
+
+
+def test_temperatures_outside_liquid_water_are_refused(tmp_path: Path) -> None:
+    rng = np.random.default_rng(3)
+    run = read_run(write_study(tmp_path, synthetic_table(rng)))
+    points = run.points.copy()
+    points.loc[points.index[-1], "temperature_K"] = 380.0
+    with pytest.raises(InputError, match="outside liquid water") as error:
+        study_temperatures(dataclasses.replace(run, points=points))
+    assert error.value.line == int(points["line"].iloc[-1])
+    with pytest.raises(InputError, match="reference temperature"):
+        study_temperatures(run, reference_temperature_K=250.0)

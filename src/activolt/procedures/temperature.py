@@ -37,32 +37,48 @@ a constant ΔCp°.
 
 from __future__ import annotations
 
+import dataclasses
 import itertools
 import math
-from dataclasses import dataclass
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import numpy.typing as npt
+import pandas as pd
 
+from ..activity import get_model
 from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
-from ..errors import InputError
+from ..data.runs import Run, usable_points
+from ..errors import FitError, InputError
 from ..fit.least_squares import (
+    central_difference_jacobian,
     information_criteria,
     linear_least_squares,
+    weighted_least_squares,
 )
+from ..fit.problem import predict_emf, prepare_series
 from ..fit.uncertainty import student_t_factor
-from .dilution import LACK_OF_FIT_P
+from ..physics.water import debye_hueckel_constants
+from .dilution import LACK_OF_FIT_P, MAX_TEMPERATURE_SPREAD_K, Reduction, reduce_run
+from .model_choice import ModelComparison, compare_models
 
 __all__ = [
     "FORMS",
     "QUANTITIES",
     "ROUND_MOLALITIES_MOL_KG",
     "Estimate",
+    "FTest",
+    "GlobalFit",
+    "Isotherm",
     "StandardPotentialFit",
     "TemperatureForm",
+    "TemperatureStudy",
     "ThermodynamicValues",
     "fit_standard_potential",
+    "group_isotherms",
+    "study_temperatures",
 ]
 
 #: The forms of E°(T): a polynomial in (T − θ) and the constant-ΔCp° form.
@@ -657,3 +673,633 @@ def fit_standard_potential(
         f_tests=tuple(f_tests), polynomial_degree=best.degree, f_test_degree=f_degree,
         constant_heat_capacity=constant_cp, chosen=chosen, choice_reason=reason,
         reference=reference, at_temperatures=at, notes=tuple(notes))
+
+
+# --------------------------------------------------------------------------------------------
+# Isotherms
+# --------------------------------------------------------------------------------------------
+
+def group_isotherms(run: Run, tolerance_K: float = 0.5) -> tuple[tuple[float, Run], ...]:
+    """Split a run into isotherms: ``(setpoint [K], Run of those rows)``, coolest first.
+
+    The rows' temperatures are sorted and cut wherever two neighbours differ by more than
+    ``tolerance_K`` (single-linkage grouping: rows within ``tolerance_K`` of a neighbour belong
+    together). The setpoint is the median of a group's temperatures, so a few readings off the
+    setpoint do not move it. Each isotherm is ``dataclasses.replace(run, points=rows)``.
+
+    Parameters
+    ----------
+    run : Run
+        A validated run (:func:`activolt.data.runs.read_run`), rows at one or more setpoints.
+    tolerance_K : float
+        Largest gap between neighbouring temperatures of one isotherm [K].
+
+    Returns
+    -------
+    tuple of (float, Run)
+
+    Raises
+    ------
+    InputError
+        A non-positive tolerance, or a group spanning more than 2 K (one E° needs one
+        temperature; a smaller tolerance splits it).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from activolt.data.runs import runs_from_frame
+    >>> frame = pd.DataFrame({"molality_mol_kg": [0.01, 0.02, 0.01, 0.02],
+    ...                       "emf_V": [0.464, 0.430, 0.461, 0.427],
+    ...                       "temperature_C": [25.0, 25.1, 35.0, 35.0]})
+    >>> run, = runs_from_frame(frame, {"electrolyte": "HCl", "electrons": 1})
+    >>> [(round(t - 273.15, 2), len(r.points)) for t, r in group_isotherms(run)]
+    [(25.05, 2), (35.0, 2)]
+    """
+    if not tolerance_K > 0:
+        raise InputError(f"tolerance_K = {tolerance_K}: the grouping tolerance must be > 0 K",
+                         column="tolerance_K")
+    points = run.points
+    temperature = points["temperature_K"].to_numpy(float)
+    order = np.argsort(temperature, kind="stable")
+    cuts = np.flatnonzero(np.diff(temperature[order]) > tolerance_K) + 1
+    groups = []
+    for index in np.split(order, cuts):
+        rows = points.iloc[np.sort(index)].reset_index(drop=True)
+        t = rows["temperature_K"].to_numpy(float)
+        if t.max() - t.min() > MAX_TEMPERATURE_SPREAD_K:
+            raise InputError(
+                f"rows from {t.min() - ZERO_CELSIUS_K:.2f} to {t.max() - ZERO_CELSIUS_K:.2f} °C "
+                f"chain into one isotherm wider than {MAX_TEMPERATURE_SPREAD_K:g} K with "
+                f"tolerance_K = {tolerance_K:g}; lower the tolerance or check the temperatures",
+                file=str(run.path), line=int(rows["line"].iloc[int(np.argmax(t))]),
+                column="temperature_C")
+        groups.append((float(np.median(t)), dataclasses.replace(run, points=rows)))
+    return tuple(groups)
+
+
+@dataclass(frozen=True)
+class Isotherm:
+    """One isotherm of a study: its rows, their reduction and the setpoint correction.
+
+    Attributes
+    ----------
+    setpoint_K : float
+        The isotherm's temperature (median of its rows) [K]; E° refers to it.
+    run : Run
+        The isotherm's rows as read (before the correction to the setpoint).
+    reduction : Reduction
+        The reduction of the corrected rows (with the model-choice component when the models
+        were compared).
+    comparison : ModelComparison or None
+        The model comparison, when ``model="all"``.
+    max_offset_K : float
+        Largest |T_i − T_s| of a usable reading [K].
+    max_correction_V, mean_correction_V : float
+        Largest |ΔE| and the mean ΔE applied to refer readings to the setpoint,
+        ΔE_i = −(dE°/dT)(T_i − T_s) [V].
+    slope_V_K : float
+        The dE°/dT used for that correction [V K⁻¹].
+    """
+
+    setpoint_K: float
+    run: Run
+    reduction: Reduction
+    comparison: ModelComparison | None
+    max_offset_K: float
+    max_correction_V: float
+    mean_correction_V: float
+    slope_V_K: float
+
+    @property
+    def n_points(self) -> int:
+        """Usable readings of the reduction."""
+        return self.reduction.statistics.n_points
+
+    @property
+    def model(self) -> str:
+        """Name of the activity-coefficient model of the reduction."""
+        return self.reduction.model.name
+
+    @property
+    def standard_potential_V(self) -> Estimate:
+        """E° at the setpoint with its standard uncertainty (k = 1) [V]."""
+        e0 = self.reduction.standard_potential
+        return Estimate(float(e0.nominal_value), float(e0.std_dev))
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready summary of the isotherm."""
+        return {"temperature_K": self.setpoint_K, "n_points": self.n_points,
+                "model": self.model,
+                "standard_potential_V": self.standard_potential_V.to_dict(),
+                "standard_pressure_Pa": self.run.metadata.standard_pressure_Pa,
+                "source": str(self.run.path),
+                "max_temperature_offset_K": self.max_offset_K,
+                "setpoint_correction": {"slope_V_K": self.slope_V_K,
+                                        "max_abs_V": self.max_correction_V,
+                                        "mean_V": self.mean_correction_V},
+                "warnings": _isotherm_warnings(self)}
+
+
+#: The single-temperature reduction's warning that E° is not corrected for the spread of its
+#: rows' temperatures; in a study the readings are referred to the setpoint, so it is replaced.
+_UNCORRECTED_SPREAD = "the readings span"
+
+
+def _isotherm_warnings(iso: Isotherm) -> list[str]:
+    """The reduction's warnings, the uncorrected-spread one replaced when the study corrected."""
+    if iso.slope_V_K == 0.0:
+        return list(iso.reduction.warnings)
+    return [w for w in iso.reduction.warnings if not w.startswith(_UNCORRECTED_SPREAD)]
+
+
+def _corrected(run: Run, setpoint_K: float, slope_V_K: float) -> tuple[Run, np.ndarray]:
+    """The run with each reading referred to the setpoint, and the corrections [V]."""
+    points = run.points.copy()
+    delta = -slope_V_K * (points["temperature_K"].to_numpy(float) - setpoint_K)
+    delta = np.where(points["emf_V"].notna() & points["flag"].isna(), delta, 0.0)
+    if np.any(delta != 0.0):
+        points["emf_V"] = points["emf_V"] + delta
+        run = dataclasses.replace(run, points=points)
+    return run, delta[run.points["flag"].isna().to_numpy()]
+
+
+def _reduce(run: Run, model: str, fixed: Mapping[str, Any] | None
+            ) -> tuple[Reduction, ModelComparison | None]:
+    if model == "all":
+        comparison = compare_models(run, fixed=fixed)
+        reduction = comparison.recommended_reduction
+        if reduction is None:
+            raise FitError(f"{run.path}: no model is adequate for the isotherm at "
+                           f"{comparison.temperature_K - ZERO_CELSIUS_K:.2f} °C: "
+                           + "; ".join(comparison.warnings))
+        return reduction, comparison
+    return reduce_run(run, model, fixed), None
+
+
+# --------------------------------------------------------------------------------------------
+# The global fit (cross-check)
+# --------------------------------------------------------------------------------------------
+
+#: The two-stage and the global E°(θ), ΔH°, ΔS° are compared.
+_COMPARED = ("standard_potential_V", "delta_H_J_mol", "delta_S_J_K_mol")
+
+
+@dataclass(frozen=True)
+class GlobalFit:
+    """Every reading of the study fitted at once: E°(T) in the chosen form, the Hückel
+    parameters linear in T (å held where the isotherms held it).
+
+    Attributes
+    ----------
+    form : TemperatureForm
+        E°(T) from the global fit (residuals, χ² and ν are those of the readings).
+    parameters : dict of str to Estimate
+        The Hückel coefficients: ``<name>_0`` at θ and ``<name>_1`` per kelvin, or
+        ``<name>_held`` notes.
+    held : dict of str to str
+        Parameters held, and how.
+    reference : ThermodynamicValues
+        E°, ΔG°, ΔH°, ΔS°, ΔCp°, log10 K at θ from the global fit.
+    differences : dict of str to float
+        global − two-stage for E°(θ) [V], ΔH° [J mol⁻¹], ΔS° [J K⁻¹ mol⁻¹].
+    n_points : int
+        Readings fitted.
+    notes : tuple of str
+    """
+
+    form: TemperatureForm
+    parameters: dict[str, Estimate]
+    held: dict[str, str]
+    reference: ThermodynamicValues
+    differences: dict[str, float]
+    n_points: int
+    notes: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready."""
+        out: dict[str, Any] = {"form": self.form.form, "degree": self.form.degree,
+                               "n_points": self.n_points, "chi2": _plain(self.form.chi2),
+                               "dof": self.form.dof,
+                               "covariance_scaled": self.form.covariance_scaled,
+                               "activity_parameters": {k: v.to_dict()
+                                                       for k, v in self.parameters.items()},
+                               "held": dict(self.held)}
+        for name in _COMPARED:
+            out[name] = self.reference.estimate(name).to_dict()
+        out["difference_from_two_stage"] = {name: _plain(v)
+                                            for name, v in self.differences.items()}
+        out["notes"] = list(self.notes)
+        return out
+
+
+def _global_fit(isotherms: Sequence[Isotherm], two_stage: StandardPotentialFit,
+                fixed: Mapping[str, Any] | None) -> GlobalFit:
+    """Every reading at once (see :class:`GlobalFit`), by
+    :func:`activolt.fit.least_squares.weighted_least_squares`."""
+    hueckel = get_model("hueckel")
+    chosen = two_stage.form
+    theta = two_stage.reference_temperature_K
+    user = {} if fixed is None or not all(isinstance(v, (int, float, tuple))
+                                          for v in fixed.values()) else dict(fixed)
+    pieces = []
+    for iso in isotherms:
+        data = prepare_series(iso.run)
+        rows = usable_points(iso.run)
+        pieces.append((iso, data, rows["temperature_K"].to_numpy(float)))
+    stated = all(iso.run.emf_uncertainty_given for iso in isotherms)
+    y = np.concatenate([d.emf_V for _, d, _ in pieces])
+    weights = np.concatenate([d.weights for _, d, _ in pieces]) if stated else None
+    t_all = np.concatenate([t for _, _, t in pieces])
+    basis, _, _ = _basis(chosen.form, chosen.degree, theta, t_all)
+    scale = np.where(np.abs(basis).max(axis=0) > 0, np.abs(basis).max(axis=0), 1.0)
+
+    held: dict[str, str] = {}
+    linear_in_t: list[str] = []
+    held_values: dict[str, np.ndarray] = {}
+    for spec in hueckel.parameters:
+        name = spec.name
+        per_isotherm = []
+        free_everywhere = True
+        for iso in isotherms:
+            red = iso.reduction
+            if red.model.name == "hueckel":
+                per_isotherm.append(red.parameter_values[name])
+                free_everywhere &= name in red.free_names
+            else:
+                constants = debye_hueckel_constants(np.array([iso.setpoint_K]))
+                per_isotherm.append(spec.conventional(red.electrolyte, constants))
+                free_everywhere = False
+        if name in user:
+            given = user[name]
+            value = float(given[0] if isinstance(given, tuple) else given)
+            held_values[name] = np.full(len(isotherms), value)
+            held[name] = f"held at {value:g} {spec.unit} (given)"
+        elif spec.linear or free_everywhere:
+            linear_in_t.append(name)
+        else:
+            held_values[name] = np.array(per_isotherm)
+            held[name] = ("held at each isotherm's value (held there: "
+                          + ", ".join(f"{v:.4g}" for v in per_isotherm) + f" {spec.unit})")
+    setpoints = np.array([iso.setpoint_K for iso in isotherms])
+    electrolyte = isotherms[0].run.metadata.electrolyte
+    start: dict[str, float] = {f"e{k}": float(c * s) for k, (c, s) in
+                               enumerate(zip(chosen.coefficients, scale, strict=True))}
+    for name in linear_in_t:
+        values = np.array([iso.reduction.parameter_values.get(name, 0.0) for iso in isotherms])
+        slope, intercept = np.polyfit(setpoints - theta, values, 1)
+        start[f"{name}_0"], start[f"{name}_1"] = float(intercept), float(slope)
+
+    def model(p: Mapping[str, float]) -> np.ndarray:
+        coefficients = np.array([p[f"e{k}"] for k in range(scale.size)]) / scale
+        out = []
+        for i, (_, data, t) in enumerate(pieces):
+            x = setpoints[i] - theta
+            values = {name: p[f"{name}_0"] + p[f"{name}_1"] * x for name in linear_in_t}
+            values.update({name: float(v[i]) for name, v in held_values.items()})
+            f, _, _ = _basis(chosen.form, chosen.degree, theta, t)
+            out.append(f @ coefficients + predict_emf(hueckel, electrolyte, data, 0.0, values))
+        return np.concatenate(out)
+
+    fit = weighted_least_squares(model, start, y, weights, scale_covariance=not stated)
+    from scipy.special import chdtrc
+
+    k = scale.size
+    covariance = fit.covariance[:k, :k] / np.outer(scale, scale)
+    coefficients = fit.value_array[:k] / scale
+    p_value = float(chdtrc(fit.dof, fit.chi2)) if stated and fit.dof > 0 else math.nan
+    lack = stated and fit.dof > 0 and p_value < LACK_OF_FIT_P
+    factor = fit.chi2 / fit.dof if lack else 1.0
+    form = TemperatureForm(
+        form=chosen.form, degree=chosen.degree, reference_temperature_K=theta,
+        coefficient_names=chosen.coefficient_names, coefficients=coefficients,
+        covariance=covariance * factor, temperature_K=t_all, residuals_V=fit.residuals,
+        chi2=fit.chi2, dof=fit.dof, aic=fit.aic, bic=fit.bic, chi2_p_value=p_value,
+        covariance_scaled=lack or not stated,
+        birge_ratio=math.sqrt(fit.chi2 / fit.dof) if fit.dof > 0 else math.nan,
+        coverage_factor=student_t_factor(fit.dof if (lack or not stated) else 0))
+    reference = form.thermodynamics(theta, two_stage.electrons, two_stage.standard_pressure_Pa)
+    parameters = {name: Estimate(fit.values[name], fit.standard_errors[name] * math.sqrt(factor))
+                  for name in fit.names[k:]}
+    differences = {name: reference.estimate(name).value
+                   - two_stage.reference.estimate(name).value for name in _COMPARED}
+    notes = ["cross-check only: the Hückel model for every isotherm, each reading's own "
+             "temperature in E°(T) and in its Nernst slope, parameters varying linearly with "
+             "the setpoint; held parameters' Type B uncertainty and the model choice are not "
+             "in its u"]
+    for name in _COMPARED:
+        u = two_stage.reference.estimate(name).uncertainty
+        if math.isfinite(u) and u > 0 and abs(differences[name]) > 2 * u:
+            notes.append(f"the global fit's {name} differs from the two-stage value by "
+                         f"{differences[name] / u:+.2g} u of the two-stage result")
+    if lack:
+        notes.append(f"global fit: χ² = {fit.chi2:.4g} for ν = {fit.dof} (p = {p_value:.2g}); "
+                     "covariance scaled by χ²/ν")
+    return GlobalFit(form=form, parameters=parameters, held=held, reference=reference,
+                     differences=differences, n_points=int(y.size), notes=tuple(notes))
+
+
+# --------------------------------------------------------------------------------------------
+# γ±(T)
+# --------------------------------------------------------------------------------------------
+
+def _gamma_table(isotherms: Sequence[Isotherm]) -> pd.DataFrame:
+    """γ± at round molalities within each isotherm's range, from its fitted model."""
+    rows = []
+    for index, iso in enumerate(isotherms):
+        red = iso.reduction
+        used = usable_points(red.run)["molality_mol_kg"].to_numpy(float)
+        low, high = used.min(), used.max()
+        molality = np.array([m for m in ROUND_MOLALITIES_MOL_KG
+                             if low * (1 - 1e-9) <= m <= high * (1 + 1e-9)])
+        if molality.size == 0:
+            continue
+        ln_g = red.ln_gamma_model(molality, iso.setpoint_K)
+        values = red.model_parameter_values
+        names = red.uncertain_names or red.free_names
+        matrix = red.covariance if red.uncertain_covariance is None else red.uncertain_covariance
+        keep = [i for i, name in enumerate(names) if name in values]
+        if keep:
+            constants = debye_hueckel_constants(np.full(molality.size, iso.setpoint_K))
+            gradient = central_difference_jacobian(
+                lambda v, m=molality, c=constants, r=red: r.model.ln_gamma(
+                    r.electrolyte, m, c, v), values, [names[i] for i in keep])
+            cov = np.asarray(matrix, float)[np.ix_(keep, keep)]
+            u_ln = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", gradient, cov, gradient), 0.0))
+        else:
+            u_ln = np.zeros(molality.size)
+        gamma = np.exp(ln_g)
+        for m, g, u in zip(molality, gamma, gamma * u_ln, strict=True):
+            rows.append({"isotherm": index, "temperature_K": iso.setpoint_K,
+                         "temperature_C": iso.setpoint_K - ZERO_CELSIUS_K,
+                         "molality_mol_kg": float(m), "gamma_pm": float(g),
+                         "u_gamma_pm": float(u), "model": red.model.name})
+    return pd.DataFrame(rows, columns=["isotherm", "temperature_K", "temperature_C",
+                                       "molality_mol_kg", "gamma_pm", "u_gamma_pm", "model"])
+
+
+# --------------------------------------------------------------------------------------------
+# The study
+# --------------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class TemperatureStudy:
+    """A temperature study: the isotherms, E°(T), the thermodynamics, the global cross-check and
+    γ± at round molalities against T.
+
+    Attributes
+    ----------
+    isotherms : tuple of Isotherm
+        Coolest first.
+    standard_potential_fit : StandardPotentialFit
+        E°(T) of the isotherm values and the quantities at θ and at every isotherm.
+    global_fit : GlobalFit or None
+        The cross-check (None when not asked for or when it failed; ``notes`` says why).
+    gamma_table : pandas.DataFrame
+        Tidy: ``isotherm``, ``temperature_K``, ``temperature_C``, ``molality_mol_kg``,
+        ``gamma_pm``, ``u_gamma_pm`` (k = 1, from each isotherm's fitted model and its
+        parameters' covariance), ``model``.
+    passes : int
+        Reductions of every isotherm until the setpoint correction settled.
+    cell : str or None
+        The cell diagram (the reaction as written, with ``electrons``).
+    electrolyte : str
+        Formula of the electrolyte.
+    notes, warnings : tuple of str
+    """
+
+    isotherms: tuple[Isotherm, ...]
+    standard_potential_fit: StandardPotentialFit
+    global_fit: GlobalFit | None
+    gamma_table: pd.DataFrame = field(repr=False)
+    passes: int
+    cell: str | None
+    electrolyte: str
+    notes: tuple[str, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def reference_temperature_K(self) -> float:
+        """θ [K]."""
+        return self.standard_potential_fit.reference_temperature_K
+
+    @property
+    def electrons(self) -> int:
+        """n of the cell reaction as written [-]."""
+        return self.standard_potential_fit.electrons
+
+    @property
+    def standard_pressure_Pa(self) -> float:
+        """The pressure basis of every E° and quantity [Pa]."""
+        return self.standard_potential_fit.standard_pressure_Pa
+
+    @property
+    def reference(self) -> ThermodynamicValues:
+        """The quantities at θ from the two-stage result."""
+        return self.standard_potential_fit.reference
+
+    def to_dict(self) -> dict[str, Any]:
+        """The record section ``temperature_study``: plain data, units in the key names.
+
+        Keys: ``reference_temperature_K``, ``form`` (and ``form_reason``), ``isotherms``
+        ([{temperature_K, n_points, model, standard_potential_V: {value, uncertainty}, …}]),
+        ``standard_potential_V``, ``delta_G_J_mol``, ``delta_H_J_mol``, ``delta_S_J_K_mol``,
+        ``delta_Cp_J_K_mol``, ``log10_K`` (each {value, uncertainty}, k = 1),
+        ``correlation_delta_H_delta_S``, ``coefficients`` (names, values and covariance of the
+        chosen E°(T)), ``e0_fit`` (both forms, criteria, F-tests), ``at_isotherms``,
+        ``global_fit``, ``gamma_table``, ``electrons``, ``cell``, ``standard_pressure_Pa``,
+        ``notes``, ``warnings``. NaN is None.
+        """
+        fit = self.standard_potential_fit
+        ref = fit.reference
+        out: dict[str, Any] = {
+            "reference_temperature_K": self.reference_temperature_K,
+            "form": fit.chosen,
+            "form_reason": fit.choice_reason,
+            "electrolyte": self.electrolyte,
+            "cell": self.cell,
+            "electrons": self.electrons,
+            "standard_pressure_Pa": self.standard_pressure_Pa,
+            "passes": self.passes,
+            "isotherms": [iso.to_dict() for iso in self.isotherms],
+        }
+        for name in QUANTITIES:
+            out[name] = ref.estimate(name).to_dict()
+        out["correlation_delta_H_delta_S"] = _plain(ref.correlation("delta_H_J_mol",
+                                                                    "delta_S_J_K_mol"))
+        out["covariance_at_reference"] = ref.to_dict()["covariance"]
+        out["coverage_factor_95"] = ref.coverage_factor
+        out["coefficients"] = {
+            "form": fit.form.form, "equation": fit.form.equation,
+            "names": list(fit.form.coefficient_names),
+            "values": [_plain(v) for v in fit.form.coefficients],
+            "covariance": [[_plain(v) for v in row] for row in fit.form.covariance]}
+        out["e0_fit"] = fit.to_dict()
+        out["at_isotherms"] = [v.to_dict() for v in fit.at_temperatures]
+        out["global_fit"] = None if self.global_fit is None else self.global_fit.to_dict()
+        out["gamma_table"] = [
+            {k: (_plain(v) if isinstance(v, float) else v) for k, v in row.items()}
+            for row in self.gamma_table.to_dict(orient="records")]
+        out["notes"] = list(self.notes)
+        out["warnings"] = list(self.warnings)
+        return out
+
+
+def _check_common_metadata(runs: Sequence[Run]) -> None:
+    first = runs[0].metadata
+    for run in runs[1:]:
+        meta = run.metadata
+        for what, mine, theirs in (
+                ("electrolyte", meta.electrolyte.formula, first.electrolyte.formula),
+                ("electrons", meta.electrons, first.electrons),
+                ("standard_pressure_kPa", meta.standard_pressure_Pa / 1e3,
+                 first.standard_pressure_Pa / 1e3),
+                ("cell reaction direction", meta.electrolyte_sign, first.electrolyte_sign)):
+            if mine != theirs:
+                raise InputError(f"{what} is {mine} here but {theirs} in {runs[0].path}; one "
+                                 "temperature study needs one cell reaction on one pressure "
+                                 "basis", file=str(run.path), column=what)
+
+
+def study_temperatures(
+    runs: Run | Sequence[Run],
+    model: str = "hueckel",
+    fixed: Mapping[str, Any] | None = None,
+    reference_temperature_K: float = 298.15,
+    tolerance_K: float = 0.5,
+    *,
+    cross_check: bool = True,
+) -> TemperatureStudy:
+    r"""Reduce isotherms, fit E°(T) and derive the thermodynamics of the cell reaction.
+
+    Parameters
+    ----------
+    runs : Run or sequence of Run
+        One run whose rows sit at several setpoints, or several runs (each grouped on its own;
+        isotherms of different runs at one temperature stay separate determinations). Every run
+        must describe the same cell reaction (electrolyte, n, direction) on the same pressure
+        basis; barometric pressure and the rest of the metadata may differ.
+    model : str
+        Activity-coefficient model of every isotherm (see :data:`activolt.activity.MODELS`), or
+        ``"all"`` to compare the models on each isotherm and take the recommended one with its
+        model-choice component.
+    fixed : mapping, optional
+        Held parameters, as for :func:`~activolt.procedures.dilution.reduce_run` (or, with
+        ``"all"``, per model as for :func:`~activolt.procedures.model_choice.compare_models`).
+    reference_temperature_K : float
+        θ, where the quantities are reported [K].
+    tolerance_K : float
+        Rows within this of a neighbour's temperature form one isotherm [K]
+        (:func:`group_isotherms`).
+    cross_check : bool
+        Run the global fit (:class:`GlobalFit`).
+
+    Returns
+    -------
+    TemperatureStudy
+
+    Raises
+    ------
+    InputError
+        One isotherm only, an isotherm with fewer than 3 usable readings, temperatures or θ
+        outside liquid water, runs that differ in the cell reaction or pressure basis, and every
+        bad input of the single-temperature reduction.
+    FitError
+        An isotherm that cannot be reduced (the message names it).
+
+    Notes
+    -----
+    Readings off their setpoint T_s are referred to it, E_i − (dE°/dT)(T_s)·(T_i − T_s), with
+    each reading's own T_i kept in its Nernst slope and its Debye–Hückel constants; the slope
+    comes from the study's own E°(T) (0 in the first pass) and the isotherms are reduced again
+    until no correction moves by more than 10 nV (at most four passes). The E° values enter
+    E°(T) with a diagonal covariance — each isotherm's u(E°); inputs common to several isotherms
+    (one electrode batch, one thermometer) would correlate them and are not identified here.
+    See :func:`fit_standard_potential` for E°(T) and the thermodynamics.
+    """
+    runs = (runs,) if isinstance(runs, Run) else tuple(runs)
+    if not runs:
+        raise InputError("no runs given for the temperature study")
+    _check_common_metadata(runs)
+    _check_liquid_water(np.array([float(reference_temperature_K)]), "reference temperature",
+                        column="reference_temperature_K")
+    for run in runs:
+        t = run.points["temperature_K"].to_numpy(float)
+        low, high = LIQUID_WATER_K
+        bad = np.flatnonzero(~((t >= low - 1e-9) & (t <= high + 1e-9)))
+        if bad.size:
+            value = float(t[bad[0]])
+            raise InputError(f"temperature {value - ZERO_CELSIUS_K:.2f} °C is outside liquid "
+                             "water (0–100 °C); check the value and its unit", file=str(run.path),
+                             line=int(run.points["line"].iloc[bad[0]]), column="temperature_C")
+    groups = [group for run in runs for group in group_isotherms(run, tolerance_K)]
+    groups.sort(key=lambda g: g[0])
+    setpoints = np.array([g[0] for g in groups])
+    distinct = 1 + int(np.sum(np.diff(setpoints) > tolerance_K))
+    if distinct < 2:
+        raise InputError(f"every reading lies at {setpoints[0] - ZERO_CELSIUS_K:.2f} °C: a "
+                         "temperature study needs isotherms at two temperatures at least "
+                         "(reduce a single isotherm with reduce_run)", file=str(runs[0].path),
+                         column="temperature_C")
+    for setpoint, run in groups:
+        n = int(run.points["flag"].isna().sum())
+        if n < _MIN_POINTS:
+            raise InputError(f"the isotherm at {setpoint - ZERO_CELSIUS_K:.2f} °C has {n} usable "
+                             f"reading(s); each isotherm needs at least {_MIN_POINTS}",
+                             file=str(run.path), line=int(run.points["line"].iloc[0]),
+                             column="temperature_C")
+    electrons = runs[0].metadata.electrons
+    pressure = runs[0].metadata.standard_pressure_Pa
+
+    slopes = np.zeros(len(groups))
+    offsets = [np.abs(usable_points(r)["temperature_K"].to_numpy(float) - s).max()
+               for s, r in groups]
+    passes = 0
+    while True:
+        passes += 1
+        isotherms = []
+        corrections = []
+        for (setpoint, run), slope, offset in zip(groups, slopes, offsets, strict=True):
+            corrected, delta = _corrected(run, setpoint, float(slope))
+            try:
+                reduction, comparison = _reduce(corrected, model, fixed)
+            except FitError as error:
+                raise FitError(f"isotherm at {setpoint - ZERO_CELSIUS_K:.2f} °C: {error}"
+                               ) from None
+            corrections.append(delta)
+            isotherms.append(Isotherm(
+                setpoint_K=setpoint, run=run, reduction=reduction, comparison=comparison,
+                max_offset_K=float(offset), max_correction_V=float(np.abs(delta).max()),
+                mean_correction_V=float(delta.mean()), slope_V_K=float(slope)))
+        fit = fit_standard_potential(
+            setpoints, [iso.standard_potential_V.value for iso in isotherms],
+            [iso.standard_potential_V.uncertainty for iso in isotherms], electrons=electrons,
+            reference_temperature_K=reference_temperature_K, standard_pressure_Pa=pressure)
+        if max(offsets) == 0.0:
+            break
+        new = fit.form.slope_V_K(setpoints)
+        change = float(np.max(np.abs(new - slopes) * np.array(offsets)))
+        if change <= CORRECTION_TOLERANCE_V or passes >= MAX_PASSES:
+            break
+        slopes = new
+
+    notes = ["E°(T) weights: each isotherm's u(E°) (model, holding, budget); a diagonal "
+             "covariance — inputs common to several isotherms are not identified"]
+    notes.extend(fit.notes)
+    if max(offsets) > 0:
+        notes.append(f"readings off their setpoint (up to {max(offsets):.3g} K) referred to it "
+                     f"with the study's dE°/dT; largest correction "
+                     f"{max(i.max_correction_V for i in isotherms) * 1e3:.3g} mV, "
+                     f"{passes} pass(es)")
+    warnings = [f"{iso.setpoint_K - ZERO_CELSIUS_K:.2f} °C: {w}" for iso in isotherms
+                for w in _isotherm_warnings(iso)]
+    global_fit = None
+    if cross_check:
+        try:
+            global_fit = _global_fit(isotherms, fit, fixed if model != "all" else None)
+        except (FitError, ValueError) as error:
+            notes.append(f"global cross-check not available: {error}")
+    return TemperatureStudy(
+        isotherms=tuple(isotherms), standard_potential_fit=fit, global_fit=global_fit,
+        gamma_table=_gamma_table(isotherms), passes=passes, cell=runs[0].metadata.cell,
+        electrolyte=runs[0].metadata.electrolyte.formula, notes=tuple(notes),
+        warnings=tuple(warnings))
