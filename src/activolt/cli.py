@@ -28,6 +28,9 @@ DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
 OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "extrapolation.png", "residuals.png",
                 "gamma.png")
+#: The files of a temperature study's output set, after ``NAME.``.
+STUDY_OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "gamma_temperature.csv",
+                      "standard_potential.png", "gamma.png")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -112,6 +115,15 @@ def _parser() -> argparse.ArgumentParser:
                         help="all (default): each series' figures, and with several series an "
                              "overview of E° ± U95; summary: the overview only; none")
     reduce.add_argument("--no-figures", action="store_true", help="same as --figures none")
+    reduce.add_argument("--study", action="store_true",
+                        help="the tables (and their series) are one temperature study: "
+                             "isotherms grouped by temperature, E°(T) and ΔG°, ΔH°, ΔS°, ΔCp° "
+                             "at the reference temperature (a table whose rows span more than "
+                             "2 K is a study without this option)")
+    reduce.add_argument("--reference-temperature-C", type=float, dest="reference_temperature_C",
+                        metavar="CELSIUS",
+                        help="temperature study: where the thermodynamic quantities are "
+                             "reported (θ); default 25")
 
     cell = commands.add_parser("cell", help="a cell's reaction, n, E°, ΔG° and K from its "
                                "diagram")
@@ -398,6 +410,12 @@ def _reduce_command(args: argparse.Namespace, written: list[Path]) -> int:
     options = {"exclude": tuple(args.exclude), "trials": args.monte_carlo, "seed": args.seed,
                "written": written}
     paths: list[Path] = args.run
+    study = args.study or args.reference_temperature_C is not None
+    study_options = {"reference_temperature_C": (25.0 if args.reference_temperature_C is None
+                                                 else args.reference_temperature_C),
+                     **options}
+    if study:
+        return _study(paths, *common, figures != "none", **study_options)
     runs = None
     if len(paths) == 1 and not paths[0].is_dir():
         if args.series is None:
@@ -405,9 +423,104 @@ def _reduce_command(args: argparse.Namespace, written: list[Path]) -> int:
 
             runs = read_runs(paths[0], args.meta, overrides=overrides)
         if args.series is not None or len(runs) == 1:
+            if _spans_setpoints(paths[0], args.meta, overrides, args.series, runs):
+                return _study(paths, *common, figures != "none", **study_options)
             _reduce(paths[0], *common, figures == "all", **options)
             return 0
     return _reduce_batch(paths, *common, figures, runs=runs, **options)
+
+
+def _spans_setpoints(path: Path, meta: Path | None, overrides: dict[str, object],
+                     series: str | None, runs: Sequence[Run] | None) -> bool:
+    """Whether the one run of ``path`` has rows more than 2 K apart (a temperature study)."""
+    from .procedures.dilution import MAX_TEMPERATURE_SPREAD_K
+
+    if series is not None:
+        from .data.runs import read_run
+
+        run = read_run(path, meta, overrides=overrides, series=series)
+    else:
+        assert runs is not None
+        run = runs[0]
+    t = run.points["temperature_K"]
+    return bool(t.max() - t.min() > MAX_TEMPERATURE_SPREAD_K)
+
+
+def _study(paths: Sequence[Path], meta: Path | None, model: str, fixed: dict[str, Any],
+           out: Path | None, json_path: Path | None, series: str | None,
+           overrides: dict[str, object], figures: bool, reference_temperature_C: float = 25.0,
+           exclude: tuple[str, ...] = (), trials: int | None = None, seed: int = 0,
+           written: list[Path] | None = None) -> int:
+    """A temperature study of one table (rows at several setpoints) or of several tables
+    (``--study``): one output set ``NAME.*`` (the record with its ``temperature_study``
+    section, the report, every reading with its isotherm, γ± against T, the figures)."""
+    from .constants import ZERO_CELSIUS_K
+    from .data.runs import Exclusion, exclude_points, read_run, read_runs
+    from .io.files import check_outputs, write_outputs
+    from .io.record import study_gamma_csv, study_points_csv, study_record_json
+    from .procedures.temperature import study_temperatures
+    from .report.temperature import format_temperature_report
+
+    tables, name, default_out = _run_tables(paths)
+    if trials is not None:
+        raise InputError("--monte-carlo is not available for a temperature study; reduce an "
+                         "isotherm alone for it", file="command line", column="--monte-carlo")
+    if "," in model:
+        raise InputError(f"--model {model}: a temperature study takes one model or 'all'",
+                         file="command line", column="--model")
+    if exclude and len(tables) > 1:
+        raise InputError("--exclude names a reading of one table; a study of several tables "
+                         "cannot say which", file="command line", column="--exclude")
+    if len(tables) > 1 or paths[0].is_dir():
+        name, default_out = "study", Path(os.path.dirname(os.path.abspath(tables[0]))) / \
+            "study_activolt"
+    base = name if series is None or len(tables) > 1 else f"{name}.{series_file_name(series)}"
+    out = out if out is not None else default_out
+    owned = list(dict.fromkeys(f"{base}.{kind}" for kind in (*STUDY_OUTPUT_KINDS,
+                                                             *OUTPUT_KINDS)))
+    record_name, record_elsewhere = f"{base}.record.json", None
+    if json_path is not None:
+        if os.path.realpath(json_path.parent) == os.path.realpath(out):
+            record_name = json_path.name
+        else:
+            record_name, record_elsewhere = None, json_path
+    runs: list[Run] = []
+    for table in tables:
+        runs += ([read_run(table, meta, overrides=overrides, series=series)]
+                 if series is not None else list(read_runs(table, meta, overrides=overrides)))
+    inputs = list(dict.fromkeys(
+        p for run in runs for p in (run.path, run.metadata_path) if p is not None))
+    check_outputs(out, [*owned, *([record_name] if record_name else [])],
+                  [record_elsewhere] if record_elsewhere else [], inputs)
+    if exclude:
+        exclusions = [Exclusion.parse(text) for text in exclude]
+        runs = [exclude_points(run, exclusions) for run in runs]
+    if model == "all":
+        from .activity import MODELS
+
+        fixed = _fixed_per_model(list(MODELS), fixed) if fixed else {}
+    study = study_temperatures(runs, model=model, fixed=fixed or None,
+                               reference_temperature_K=reference_temperature_C + ZERO_CELSIUS_K)
+    report = escape_controls(format_temperature_report(study), keep="\n")
+    record_folder = (record_elsewhere or out / str(record_name)).parent
+    record = study_record_json(study, record_folder=record_folder)
+    contents: dict[str, bytes | str] = {record_name: record} if record_name else {}
+    contents[f"{base}.points.csv"] = study_points_csv(study)
+    contents[f"{base}.gamma_temperature.csv"] = study_gamma_csv(study)
+    contents[f"{base}.report.txt"] = report
+    if figures:
+        from .report.figures import render_temperature_figures
+
+        for kind, png in render_temperature_figures(
+                study.standard_potential_fit,
+                [iso.reduction for iso in study.isotherms]).items():
+            contents[f"{base}.{kind}.png"] = png
+    done = write_outputs({record_elsewhere: record} if record_elsewhere else None, folder=out,
+                         contents=contents, owned=owned, inputs=inputs)
+    if written is not None:
+        written.extend(done)
+    sys.stdout.write(report)
+    return 0
 
 
 def _private_matplotlib_config() -> None:
@@ -491,7 +604,9 @@ def _cell(diagram: str, temperature_C: float, json_path: Path | None,
 
 
 #: Library argument names and the command-line options that set them.
-_OPTIONS = {"model": "--model", "fixed": "--fix"}
+_OPTIONS = {"model": "--model", "fixed": "--fix",
+            "reference_temperature_K": "--reference-temperature-C",
+            "tolerance_K": "--study"}
 
 
 def _one_line(error: InputError) -> str:

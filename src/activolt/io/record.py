@@ -30,6 +30,7 @@ from ..procedures.model_choice import (
 )
 from ..procedures.montecarlo import MonteCarloResult
 from ..procedures.properties import derived_properties
+from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
 from ..report.comparison import compare_with_published
 from ..report.numbers import json_number
@@ -49,25 +50,9 @@ def record_schema() -> dict[str, Any]:
     return json.loads(text)
 
 
-def build_record(reduction: Reduction, created: datetime | None = None,
-                 comparison: ModelComparison | None = None,
-                 monte_carlo: MonteCarloResult | None = None,
-                 record_folder: Path | None = None) -> dict[str, Any]:
-    """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
-
-    With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
-    comparison is kept under ``model_comparison`` and the stated u(E°) includes the
-    model-choice component.
-    """
-    run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
-    e0 = reduction.standard_potential
-    covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
-    metadata_info: dict[str, Any] = {}
-    if run.metadata_path is not None:
-        metadata_info = {
-            "metadata_file": _path_from(run.metadata_path, record_folder),
-            "metadata_sha256": hashlib.sha256(run.metadata_path.read_bytes()).hexdigest(),
-        }
+def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
+    """Every reading of ``reduction`` as the record's ``points`` entries."""
+    stats = reduction.statistics
     points = []
     for _, row in reduction.points.iterrows():
         points.append({
@@ -99,6 +84,29 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "cooks_distance": json_number(row["cooks_distance"]),
             "note": row["note"] or None,
         })
+    return points
+
+
+def build_record(reduction: Reduction, created: datetime | None = None,
+                 comparison: ModelComparison | None = None,
+                 monte_carlo: MonteCarloResult | None = None,
+                 record_folder: Path | None = None) -> dict[str, Any]:
+    """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
+
+    With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
+    comparison is kept under ``model_comparison`` and the stated u(E°) includes the
+    model-choice component.
+    """
+    run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
+    e0 = reduction.standard_potential
+    covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
+    metadata_info: dict[str, Any] = {}
+    if run.metadata_path is not None:
+        metadata_info = {
+            "metadata_file": _path_from(run.metadata_path, record_folder),
+            "metadata_sha256": hashlib.sha256(run.metadata_path.read_bytes()).hexdigest(),
+        }
+    points = _point_records(reduction)
     cross = reduction.linear_extrapolation
     published = compare_with_published(reduction)
     other = reduction.standard_potential_other_basis_V
@@ -300,8 +308,10 @@ def run_series(points: Any) -> str | None:
     return names.pop() if len(names) == 1 else None
 
 
-def points_csv(reduction: Reduction) -> str:
-    """The points table as CSV text, units in the column names, flagged rows included."""
+def _points_frame(reduction: Reduction) -> Any:
+    """The points table as a DataFrame, units in the column names, flagged rows included."""
+    import pandas as pd
+
     table = reduction.points
     out = {
         "line": table["line"],
@@ -325,9 +335,13 @@ def points_csv(reduction: Reduction) -> str:
         "diagnostic": table["diagnostic"].where(table["diagnostic"].notna(), ""),
         "note": table["note"].map(neutralise_formula),
     }
-    import pandas as pd
+    return pd.DataFrame(out)
 
-    return pd.DataFrame(out).to_csv(index=False, float_format="%.10g", lineterminator="\n")
+
+def points_csv(reduction: Reduction) -> str:
+    """The points table as CSV text, units in the column names, flagged rows included."""
+    return _points_frame(reduction).to_csv(index=False, float_format="%.10g",
+                                           lineterminator="\n")
 
 
 def comparison_record(comparison: ModelComparison) -> dict:
@@ -400,3 +414,189 @@ def comparison_record(comparison: ModelComparison) -> dict:
         "notes": list(comparison.notes),
         "warnings": list(comparison.warnings),
     }
+
+
+# --------------------------------------------------------------------------------------------
+# Temperature studies
+# --------------------------------------------------------------------------------------------
+
+def _input_record(run: Any, record_folder: Path | None) -> dict[str, Any]:
+    """``{file, sha256[, metadata_file, metadata_sha256]}`` of one run table."""
+    out = {"file": _path_from(run.path, record_folder), "sha256": run.sha256}
+    if run.metadata_path is not None:
+        out["metadata_file"] = _path_from(run.metadata_path, record_folder)
+        out["metadata_sha256"] = hashlib.sha256(run.metadata_path.read_bytes()).hexdigest()
+    return out
+
+
+def build_study_record(study: TemperatureStudy, created: datetime | None = None,
+                       record_folder: Path | None = None) -> dict[str, Any]:
+    """The JSON-ready record of a temperature study (see ``record_schema.json``).
+
+    The keys every record has describe the study at θ: ``temperature_K`` is θ,
+    ``standard_potential_V``, ``delta_g_kJ_mol`` and ``log10_K`` come from E°(T) at θ, ``points``
+    holds every reading of every isotherm (each with its own temperature and its isotherm's
+    setpoint), ``fit`` pools the isotherms' reductions (sums of χ², ν, AIC and BIC). The study
+    itself is the section ``temperature_study``
+    (:meth:`activolt.procedures.temperature.TemperatureStudy.to_dict`): θ, the chosen form, the
+    isotherms, E°, ΔG°, ΔH°, ΔS°, ΔCp° and log10 K at θ with u, the E°(T) coefficients and their
+    covariance, both fits, the global cross-check and γ± at round molalities.
+
+    Parameters
+    ----------
+    study : TemperatureStudy
+        From :func:`activolt.procedures.temperature.study_temperatures`.
+    created : datetime, optional
+        The time stamp; now by default.
+    record_folder : pathlib.Path, optional
+        Where the record is written; input files are named relative to it.
+
+    Returns
+    -------
+    dict
+    """
+    isotherms = study.isotherms
+    first = isotherms[0]
+    meta = first.run.metadata
+    ref = study.reference
+    runs = list({iso.run.path: iso.run for iso in isotherms}.values())
+    inputs = [_input_record(run, record_folder) for run in runs]
+    points = []
+    for iso in isotherms:
+        measured = dict(zip(iso.run.points["line"], iso.run.points["emf_V"], strict=True))
+        for entry in _point_records(iso.reduction):
+            raw = measured.get(entry["line"])
+            entry["isotherm_temperature_K"] = iso.setpoint_K
+            entry["source"] = _path_from(iso.run.path, record_folder)
+            entry["measured_emf_V"] = json_number(raw)
+            entry["setpoint_correction_V"] = (None if raw is None or entry["emf_V"] is None
+                                              else json_number(entry["emf_V"] - raw))
+            points.append(entry)
+    stats = [iso.reduction.statistics for iso in isotherms]
+    chi2 = float(sum(s.chi2 for s in stats))
+    dof = int(sum(s.dof for s in stats))
+    e0 = ref.standard_potential_V
+    k95 = ref.coverage_factor
+    section = study.to_dict()
+    for entry, iso in zip(section.get("isotherms", []), isotherms, strict=False):
+        if isinstance(entry, dict) and "source" in entry:
+            entry["source"] = _path_from(iso.run.path, record_folder)
+    models = list(dict.fromkeys(iso.model for iso in isotherms))
+    warnings = list(dict.fromkeys(study.warnings))
+    g = ref.delta_G_J_mol
+    log_k = ref.log10_K
+    method = (f"E°(T) ({study.standard_potential_fit.form.equation}) at θ, from the isotherms' "
+              "E° by generalised least squares; linear propagation of the coefficients' "
+              "covariance")
+    return {
+        "record_schema": RECORD_SCHEMA,
+        "software": {"name": "activolt", "version": __version__},
+        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "input": inputs[0],
+        "inputs": inputs,
+        "series": run_series(_concat([iso.run.points for iso in isotherms])),
+        "run_info": dict(meta.info),
+        "electrolyte": meta.electrolyte.formula,
+        "electrons": meta.electrons,
+        "cell": meta.cell,
+        "temperature_K": study.reference_temperature_K,
+        "standard_pressure_kPa": meta.standard_pressure_Pa / 1e3,
+        "model": {
+            "name": models[0] if len(models) == 1 else ",".join(models),
+            "title": (first.reduction.model.title if len(models) == 1
+                      else "several (one per isotherm; see temperature_study.isotherms)"),
+            "parameters": {},
+            "note": "each isotherm's parameters are in its reduction; the global cross-check's "
+                    "in temperature_study.global_fit",
+        },
+        "standard_potential_V": {"value": json_number(e0.value),
+                                 "uncertainty": json_number(e0.uncertainty),
+                                 "method": method, "coverage_factor_95": k95,
+                                 "expanded_uncertainty_95": json_number(k95 * e0.uncertainty)},
+        "electrolyte_sign": meta.electrolyte_sign,
+        "delta_g_kJ_mol": {"value": json_number(g.value / 1e3),
+                           "uncertainty": json_number(g.uncertainty / 1e3),
+                           "method": "ΔG° = −nFE° at θ, propagated from E°(T)"},
+        "log10_K": {"value": json_number(log_k.value),
+                    "uncertainty": json_number(log_k.uncertainty),
+                    "method": "log10 K = nFE°/(RT ln 10) at θ, propagated from E°(T)"},
+        "points": points,
+        "fit": {
+            "n_points": int(sum(s.n_points for s in stats)),
+            "n_free": int(sum(s.n_free for s in stats)), "dof": dof, "chi2": chi2,
+            "reduced_chi2": chi2 / dof if dof > 0 else 0.0,
+            "aic": float(sum(s.aic for s in stats)), "bic": float(sum(s.bic for s in stats)),
+            "covariance_scaled": any(s.covariance_scaled for s in stats),
+            "method": "the isotherms' reductions pooled: sums of readings, free parameters, χ², "
+                      "ν, AIC and BIC; the E°(T) fit is in temperature_study.e0_fit",
+            "weighting": ("stated reading uncertainties"
+                          if all(s.stated_uncertainty for s in stats) else "unit weights"),
+        },
+        "notes": list(study.notes),
+        "warnings": warnings,
+        "cautions": cautions_for(meta.electrolyte, meta.cell),
+        "temperature_study": section,
+    }
+
+
+def _concat(frames: list[Any]) -> Any:
+    """``pandas.concat`` of the frames (pandas imported when needed)."""
+    import pandas as pd
+
+    return pd.concat(frames, ignore_index=True)
+
+
+def study_record_json(study: TemperatureStudy, created: datetime | None = None,
+                      record_folder: Path | None = None) -> str:
+    """The record of a temperature study as JSON text (UTF-8, indented, NaN written as null)."""
+    return json.dumps(_finite(build_study_record(study, created, record_folder)),
+                      ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+
+
+def _finite(value: Any) -> Any:
+    """NaN and infinities as None, numpy scalars as Python numbers, throughout."""
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_finite(v) for v in value]
+    if isinstance(value, bool) or value is None or isinstance(value, str):
+        return value
+    if isinstance(value, int):
+        return value
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return value
+    if hasattr(value, "dtype") and getattr(value.dtype, "kind", "") in "iu":
+        return int(value)
+    return json_number(number)
+
+
+def study_points_csv(study: TemperatureStudy) -> str:
+    """Every reading of every isotherm as CSV text: the isotherm's setpoint, the reading as
+    measured and as referred to the setpoint, γ± ± u and the diagnostics (units in the column
+    names, flagged rows included)."""
+    import pandas as pd
+
+    frames = []
+    for iso in study.isotherms:
+        frame = _points_frame(iso.reduction)
+        measured = dict(zip(iso.run.points["line"], iso.run.points["emf_V"], strict=True))
+        raw_mV = frame["line"].map(measured).astype(float) * 1e3
+        frame.insert(0, "isotherm_C", iso.setpoint_K - 273.15)
+        frame.insert(1, "source", neutralise_formula(iso.run.path.name))
+        at_setpoint = frame.pop("emf_mV")
+        position = list(frame.columns).index("temperature_C") + 1
+        frame.insert(position, "emf_mV", raw_mV)
+        frame.insert(position + 1, "emf_at_setpoint_mV", at_setpoint)
+        frames.append(frame)
+    return pd.concat(frames, ignore_index=True).to_csv(index=False, float_format="%.10g",
+                                                       lineterminator="\n")
+
+
+def study_gamma_csv(study: TemperatureStudy) -> str:
+    """γ± ± u (k = 1) at round molalities against T, one row per isotherm and molality."""
+    table = study.gamma_table.copy()
+    if "model" in table:
+        table["model"] = table["model"].map(neutralise_formula)
+    return table.to_csv(index=False, float_format="%.10g", lineterminator="\n")

@@ -1,4 +1,5 @@
-"""Figures of a reduction: the extrapolation to m = 0, the residuals, and γ± against √m.
+"""Figures of a reduction: the extrapolation to m = 0, the residuals, and γ± against √m; of a
+temperature study: E° against T with the fit and its residuals, and γ± against √m by isotherm.
 
 Each ``plot_*`` function draws on a given matplotlib ``Axes`` (or a new one) and returns it;
 :func:`render_figures` returns PNG bytes, so that nothing is written until every figure is made.
@@ -9,6 +10,7 @@ from __future__ import annotations
 
 import io
 import math
+from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -20,6 +22,7 @@ from ..chemistry.electrolytes import nernst_factor
 from ..fit.engine import SLOPE
 from ..physics.water import debye_hueckel_constants
 from ..procedures.dilution import Reduction
+from ..procedures.temperature import StandardPotentialFit
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -320,3 +323,168 @@ def render_summary_figure(summary: pd.DataFrame, dpi: int = 110) -> bytes:
     buffer = io.BytesIO()
     ax.figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
     return buffer.getvalue()
+
+
+# --------------------------------------------------------------------------------------------
+# Temperature studies
+# --------------------------------------------------------------------------------------------
+
+def standard_potential_band_V(fit: StandardPotentialFit, temperature_K: npt.ArrayLike
+                              ) -> tuple[np.ndarray, np.ndarray]:
+    r"""E°(T) of the chosen form and its standard uncertainty at any T.
+
+    Parameters
+    ----------
+    fit : StandardPotentialFit
+        From :func:`activolt.procedures.temperature.fit_standard_potential`.
+    temperature_K : array_like
+        Temperatures [K].
+
+    Returns
+    -------
+    e0 : ndarray
+        E°(T) of the chosen form [V].
+    u : ndarray
+        Its standard uncertainty (k = 1) [V], :math:`u^2 = f(T)^T V_c f(T)` with f the form's
+        basis functions and V_c the coefficients' covariance (linear in the coefficients, so
+        exact; GUM, JCGM 100:2008, 5.2).
+
+    Examples
+    --------
+    At θ the band is u(E°(θ)) of the fit (Bates & Bower 1954, Table 1, 5–45 °C; common
+    practice):
+
+    >>> from activolt.procedures.temperature import fit_standard_potential
+    >>> t = np.arange(5.0, 50.0, 5.0) + 273.15
+    >>> e0 = [0.23413, 0.23142, 0.22857, 0.22557, 0.22234, 0.21904, 0.21566, 0.21208, 0.20835]
+    >>> fit = fit_standard_potential(t, e0, np.full(9, 1e-5))
+    >>> y, u = standard_potential_band_V(fit, [298.15])
+    >>> bool(abs(u[0] - fit.reference.standard_potential_V.uncertainty) < 1e-12)
+    True
+    """
+    t = np.atleast_1d(np.asarray(temperature_K, dtype=float))
+    form = fit.form
+    values = [form.thermodynamics(float(x), fit.electrons, fit.standard_pressure_Pa)
+              .standard_potential_V for x in t]
+    return (np.array([v.value for v in values]), np.array([v.uncertainty for v in values]))
+
+
+def plot_standard_potential_temperature(fit: StandardPotentialFit,
+                                        axes: tuple[Axes, Axes] | None = None
+                                        ) -> tuple[Axes, Axes]:
+    """E° of every isotherm (±2u) against T with the chosen E°(T), its 95 % band, and the
+    residuals E° − E°(fit) below.
+
+    Parameters
+    ----------
+    fit : StandardPotentialFit
+        The E°(T) fit of a study.
+    axes : (Axes, Axes), optional
+        Where to draw (upper, lower); a new figure by default.
+
+    Returns
+    -------
+    (matplotlib.axes.Axes, matplotlib.axes.Axes)
+    """
+    if axes is None:
+        from matplotlib.figure import Figure
+
+        figure = Figure(figsize=(6.4, 6.4), layout="constrained")
+        upper, lower = figure.subplots(2, 1, sharex=True, height_ratios=(2.2, 1.0))
+    else:
+        upper, lower = axes
+    form = fit.form
+    t = fit.temperature_K
+    t_C = t - 273.15
+    u_data = np.sqrt(np.maximum(np.diag(fit.covariance_V2), 0.0))
+    stated = fit.stated_uncertainty
+    span = max(float(t.max() - t.min()), 1.0)
+    grid = np.linspace(float(t.min()) - 0.03 * span, float(t.max()) + 0.03 * span, 200)
+    y, u = standard_potential_band_V(fit, grid)
+    k95 = form.coverage_factor
+    upper.fill_between(grid - 273.15, (y - k95 * u) * 1e3, (y + k95 * u) * 1e3,
+                       color="tab:blue", alpha=0.2, lw=0, label="95 % band of the fit")
+    name = ("constant ΔCp°" if form.form == "constant_heat_capacity"
+            else f"polynomial of degree {form.degree}")
+    upper.plot(grid - 273.15, y * 1e3, color="tab:blue", label=f"E°(T): {name}")
+    if stated:
+        upper.errorbar(t_C, fit.standard_potential_V * 1e3, yerr=2 * u_data * 1e3, fmt="o",
+                       color="black", ms=4, capsize=3, label="isotherms (±2u)")
+    else:
+        upper.plot(t_C, fit.standard_potential_V * 1e3, "o", color="black", ms=4,
+                   label="isotherms")
+    theta = fit.reference_temperature_K
+    ref = fit.reference.standard_potential_V
+    if t.min() - 0.03 * span <= theta <= t.max() + 0.03 * span:
+        upper.axvline(theta - 273.15, color="grey", lw=0.8, ls=":",
+                      label=f"θ = {theta - 273.15:g} °C: E° = "
+                            f"{ref.value * 1e3:.{_places(ref.uncertainty * 1e3)}f} mV")
+    upper.set_ylabel("E° / mV")
+    upper.set_title(f"E° against temperature (basis p° = {fit.standard_pressure_Pa / 1e3:g} kPa)",
+                    fontsize="medium")
+    upper.legend(fontsize="small")
+    residual = form.residuals_V * 1e3
+    if stated:
+        lower.errorbar(t_C, residual, yerr=2 * u_data * 1e3, fmt="o", color="black", ms=4,
+                       capsize=3, label="E° − E°(fit) (±2u)")
+    else:
+        lower.plot(t_C, residual, "o", color="black", ms=4, label="E° − E°(fit)")
+    lower.fill_between(grid - 273.15, -k95 * u * 1e3, k95 * u * 1e3, color="tab:blue",
+                       alpha=0.2, lw=0)
+    lower.axhline(0.0, color="grey", lw=0.8)
+    lower.set_xlabel("t / °C")
+    lower.set_ylabel("residual / mV")
+    lower.legend(fontsize="small")
+    for ax in (upper, lower):
+        _plain_ticks(ax)
+    return upper, lower
+
+
+def plot_gamma_isotherms(reductions: Sequence[Reduction], ax: Axes | None = None) -> Axes:
+    """γ± from the readings (±2u) against √m and the fitted model, one colour per isotherm.
+
+    Parameters
+    ----------
+    reductions : sequence of Reduction
+        One reduction per isotherm, in the order to draw (coolest first).
+    ax : matplotlib.axes.Axes, optional
+        Where to draw; a new figure by default.
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+    """
+    ax = _axes(ax)
+    from matplotlib import colormaps
+
+    colours = colormaps["plasma"](np.linspace(0.0, 0.85, max(len(reductions), 2)))
+    for colour, reduction in zip(colours, reductions, strict=False):
+        points = reduction.points[reduction.points["gamma_pm"].notna()]
+        m = points["molality_mol_kg"].to_numpy(float)
+        grid = np.linspace(1e-8, float(m.max()) * 1.02, 200)
+        label = f"{reduction.temperature_K - 273.15:.2f} °C ({reduction.model.name})"
+        ax.plot(np.sqrt(grid), np.exp(reduction.ln_gamma_model(grid)), color=colour,
+                label=label)
+        ax.errorbar(np.sqrt(m), points["gamma_pm"], yerr=2 * points["u_gamma_pm"], fmt="o",
+                    color=colour, ms=3, capsize=2)
+    formula = reductions[0].electrolyte.formula if reductions else ""
+    ax.set_xlabel("√(m / (mol kg⁻¹))")
+    ax.set_ylabel("γ±")
+    ax.set_title(f"Mean ionic activity coefficient by isotherm — {formula} "
+                 "(points ±2u, lines: fit)", fontsize="medium")
+    ax.legend(fontsize="small", title="isotherm", title_fontsize="small")
+    _plain_ticks(ax)
+    return ax
+
+
+def render_temperature_figures(fit: StandardPotentialFit, reductions: Sequence[Reduction],
+                               dpi: int = 110) -> dict[str, bytes]:
+    """The figures of a temperature study as PNG bytes, by name: ``standard_potential`` (E°
+    against T, the fit and its residuals) and ``gamma`` (γ± against √m by isotherm)."""
+    rendered = {}
+    for name, ax in (("standard_potential", plot_standard_potential_temperature(fit)[0]),
+                     ("gamma", plot_gamma_isotherms(reductions))):
+        buffer = io.BytesIO()
+        ax.figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
+        rendered[name] = buffer.getvalue()
+    return rendered
