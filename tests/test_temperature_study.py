@@ -186,9 +186,11 @@ def b_kg_mol(t_C: float) -> float:
 
 
 def synthetic_table(rng: np.random.Generator, molalities: tuple[float, ...] = MOLALITIES,
-                    offsets_K: dict[float, float] | None = None) -> str:
+                    offsets_K: dict[float, float] | None = None, noise_V: float = U_EMF_V
+                    ) -> str:
     """Rows of a study: every molality at every setpoint, readings from the generating E°(T)
-    and a Hückel γ± (å = 4.3 Å, b(T)) at each row's own temperature, noise 0.01 mV."""
+    and a Hückel γ± (å = 4.3 Å, b(T)) at each row's own temperature, normal noise (0.01 mV);
+    u(EMF) is stated as 0.01 mV whatever the noise."""
     from synthetic import emf_from_gamma
 
     from activolt.activity import get_model
@@ -207,7 +209,7 @@ def synthetic_table(rng: np.random.Generator, molalities: tuple[float, ...] = MO
             ln_g = model.ln_gamma(hcl, np.array([m]), constants,
                                   {"a_angstrom": A_ANGSTROM, "b_kg_mol": b_kg_mol(t_row)})
             emf = emf_from_gamma(np.array([m]), np.exp(ln_g), float(bates_bower_smoothed_V(t_row)),
-                                 temperature_K=t_k)[0] + rng.normal(0.0, U_EMF_V)
+                                 temperature_K=t_k)[0] + rng.normal(0.0, noise_V)
             rows.append(f"{float(m)!r},{float(emf)!r},{U_EMF_V!r},{float(t_row)!r}")
     return "\n".join(rows) + "\n"
 
@@ -325,3 +327,30 @@ def test_temperatures_outside_liquid_water_are_refused(tmp_path: Path) -> None:
     assert error.value.line == int(points["line"].iloc[-1])
     with pytest.raises(InputError, match="reference temperature"):
         study_temperatures(run, reference_temperature_K=250.0)
+
+
+@pytest.mark.slow
+def test_intervals_of_enthalpy_and_entropy_cover_the_truth(tmp_path: Path) -> None:
+    # 1000 simulated studies (six isotherms, six molalities each, 0.01 mV noise; more than the
+    # 200 asked so that the binomial scatter of the rate, 0.7 %, is well inside 93–97 %): the
+    # 95 % intervals (k from the E°(T) fit) of ΔH° and ΔS° at 298.15 K must cover the values
+    # implied by the generating E°(T) 93–97 % of the time.
+    molalities = (0.002, 0.005, 0.01, 0.02, 0.05, 0.1)
+    rng = np.random.default_rng(95)
+    run = read_run(write_study(tmp_path, synthetic_table(rng, molalities, noise_V=0.0)))
+    exact = run.points["emf_V"].to_numpy(float)
+    truth = truth_at(298.15)
+    trials = 1000
+    covered = {"delta_H_J_mol": 0, "delta_S_J_K_mol": 0}
+    for _ in range(trials):
+        points = run.points.copy()
+        points["emf_V"] = exact + rng.normal(0.0, U_EMF_V, exact.size)
+        study = study_temperatures(dataclasses.replace(run, points=points), "hueckel",
+                                   fixed={"a_angstrom": A_ANGSTROM}, cross_check=False)
+        ref = study.reference
+        for name in covered:
+            estimate = ref.estimate(name)
+            covered[name] += abs(estimate.value - truth[name]) <= (ref.coverage_factor
+                                                                   * estimate.uncertainty)
+    for name, count in covered.items():
+        assert 0.93 <= count / trials <= 0.97, (name, count / trials)
