@@ -297,3 +297,20 @@ def test_five_isotherms_cover_the_smoothing_equation(tmp_path, capsys):
                        ("delta_S_J_K_mol", TRUE_DELTA_S_J_K_MOL)):
         value, u = section[key]["value"], section[key]["uncertainty"]
         assert abs(value - truth) <= 3 * u, (key, value, truth, u)
+
+
+def test_an_excluded_reading_is_flagged_in_the_study(tmp_path, capsys):
+    table = write_study(tmp_path)
+    out = tmp_path / "out"
+    record_path = tmp_path / "elsewhere" / "study.json"
+    record_path.parent.mkdir()
+    assert main(["reduce", str(table), "--out", str(out), "--figures", "none",
+                 "--exclude", "line=3:bubble in the electrode", "--json", str(record_path)]) == 0
+    assert "out of the fit: line 3 (m = 0.005 mol/kg) — excluded: bubble in the electrode" in (
+        capsys.readouterr().out)
+    record = json.loads(record_path.read_text("utf-8"))
+    jsonschema.validate(record, record_schema())
+    assert not (out / "study.record.json").exists()
+    left_out = [(p["line"], p["flag"]) for p in record["points"] if not p["used_in_fit"]]
+    assert left_out == [(3, "excluded: bubble in the electrode")]
+    assert record["temperature_study"]["isotherms"][0]["n_points"] == MOLALITIES.size - 1

@@ -130,6 +130,10 @@ def _isotherm_lines(study: TemperatureStudy) -> list[str]:
         stats = iso.reduction.statistics
         lines.append(f"  {iso.setpoint_K - _ZERO_C:.2f} °C: {parameters}; reduced χ² = "
                      f"{stats.reduced_chi2:.3g}, ν = {stats.dof}")
+        points = iso.reduction.points
+        for _, row in points[points["flag"].map(lambda f: isinstance(f, str))].iterrows():
+            lines.append(f"    out of the fit: line {int(row['line'])} (m = "
+                         f"{row['molality_mol_kg']:.6g} mol/kg) — {row['flag']}")
     return lines
 
 
