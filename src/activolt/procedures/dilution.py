@@ -60,6 +60,7 @@ from ..fit.uncertainty import (
 from ..physics.water import debye_hueckel_constants
 
 __all__ = [
+    "UNCORRECTED_SPREAD",
     "FitStatistics",
     "FittedParameter",
     "LinearExtrapolation",
@@ -102,6 +103,9 @@ CONVENTION_AGREEMENT = 2.0
 #: model: in simulated runs to 1 mol/kg, Hückel intervals held a Pitzer truth only 70 % of the
 #: time (measured in the project's coverage study) [mol kg⁻¹].
 MODEL_CHOICE_REMINDER_IONIC_STRENGTH = 0.1
+#: How the warning starts that E° is not corrected for the spread of the rows' temperatures
+#: (a temperature study, which refers the readings to their setpoint, leaves it out).
+UNCORRECTED_SPREAD = "the readings span"
 #: The reminder itself.
 MODEL_CHOICE_REMINDER = ("u(E°) covers this model only; above I = 0.1 mol/kg the choice of model "
                          "can move E° by more — compare the models to include the model-choice "
@@ -747,7 +751,7 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
                          "(within 2 K): split the run by temperature", file=str(run.path))
     warnings = list(run.warnings) + ([range_warning] if range_warning else [])
     if spread > 0.2:
-        warnings.append(f"the readings span {spread:.2f} K; ln γ± uses each row's temperature, "
+        warnings.append(f"{UNCORRECTED_SPREAD} {spread:.2f} K; ln γ± uses each row's temperature, "
                         "but E° refers to the mean temperature and its own change with T over "
                         "that span is not corrected")
     values: dict[str, float] = {}

@@ -61,7 +61,13 @@ from ..fit.least_squares import (
 from ..fit.problem import predict_emf, prepare_series
 from ..fit.uncertainty import student_t_factor
 from ..physics.water import debye_hueckel_constants
-from .dilution import LACK_OF_FIT_P, MAX_TEMPERATURE_SPREAD_K, Reduction, reduce_run
+from .dilution import (
+    LACK_OF_FIT_P,
+    MAX_TEMPERATURE_SPREAD_K,
+    UNCORRECTED_SPREAD,
+    Reduction,
+    reduce_run,
+)
 from .model_choice import ModelComparison, compare_models
 
 __all__ = [
@@ -811,16 +817,11 @@ class Isotherm:
                 "warnings": _isotherm_warnings(self)}
 
 
-#: The single-temperature reduction's warning that E° is not corrected for the spread of its
-#: rows' temperatures; in a study the readings are referred to the setpoint, so it is replaced.
-_UNCORRECTED_SPREAD = "the readings span"
-
-
 def _isotherm_warnings(iso: Isotherm) -> list[str]:
     """The reduction's warnings, the uncorrected-spread one replaced when the study corrected."""
     if iso.slope_V_K == 0.0:
         return list(iso.reduction.warnings)
-    return [w for w in iso.reduction.warnings if not w.startswith(_UNCORRECTED_SPREAD)]
+    return [w for w in iso.reduction.warnings if not w.startswith(UNCORRECTED_SPREAD)]
 
 
 def _corrected(run: Run, setpoint_K: float, slope_V_K: float) -> tuple[Run, np.ndarray]:
