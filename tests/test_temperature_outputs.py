@@ -283,12 +283,13 @@ def test_a_single_temperature_run_is_not_a_study(tmp_path, capsys):
     capsys.readouterr()
 
 
-@pytest.mark.xfail(strict=True, reason="known failure: with five isotherms the constant-ΔCp° "
-                   "form is chosen and its u(ΔH°), u(ΔS°) leave out the choice of form; the "
-                   "smoothing equation's ΔCp° drifts by about 0.4 J/(K² mol), which moves ΔH° "
-                   "by several u")
-def test_five_isotherms_cover_the_smoothing_equation(tmp_path, capsys):
-    table = write_study(tmp_path, rows=study_rows(setpoints_C=(5.0, 15.0, 25.0, 35.0, 45.0)))
+@pytest.mark.parametrize("seed", [0, 2, 4, 5])
+def test_five_isotherms_cover_the_smoothing_equation(tmp_path, capsys, seed):
+    """Five isotherms cannot test the allowed forms against a cubic term, which the smoothing
+    equation has: the uncertainties carry the difference to the cubic, and cover the truth (the
+    seeds where the chosen form alone missed by 3–8 u)."""
+    table = write_study(tmp_path, rows=study_rows(setpoints_C=(5.0, 15.0, 25.0, 35.0, 45.0),
+                                                  seed=seed))
     out = tmp_path / "out"
     assert main(["reduce", str(table), "--out", str(out), "--figures", "none"]) == 0
     capsys.readouterr()

@@ -683,6 +683,17 @@ def fit_standard_potential(
         notes.append("no u(E°) given: unit weights, covariance scaled by the residual variance")
     reference = form.thermodynamics(theta, electrons, standard_pressure_Pa)
     at = tuple(form.thermodynamics(float(x), electrons, standard_pressure_Pa) for x in t)
+    beyond = _curvature_beyond(polynomials[-1], theta, t, e, whitening, stated)
+    if beyond is not None:
+        reference = _with_unresolved_curvature(
+            reference, beyond.thermodynamics(theta, electrons, standard_pressure_Pa))
+        at = tuple(_with_unresolved_curvature(v, beyond.thermodynamics(
+            float(x), electrons, standard_pressure_Pa)) for v, x in zip(at, t, strict=True))
+        notes.append(f"the data call for a polynomial of degree {beyond.degree} (F-test against "
+                     f"degree {beyond.degree - 1}, p < {F_TEST_P:g}), which the "
+                     f"{n} temperatures cannot support with {MIN_POLYNOMIAL_DOF} degrees of "
+                     "freedom left: the uncertainties include the full difference between "
+                     "that polynomial and the chosen form — measure more temperatures")
     return StandardPotentialFit(
         temperature_K=t, standard_potential_V=e, covariance_V2=covariance,
         stated_uncertainty=stated, electrons=int(electrons), reference_temperature_K=theta,
@@ -691,6 +702,36 @@ def fit_standard_potential(
         constant_heat_capacity=constant_cp, chosen=chosen, choice_reason=reason,
         reference=reference, at_temperatures=at, notes=tuple(notes))
 
+
+
+def _curvature_beyond(highest: TemperatureForm, theta: float, t: np.ndarray, e: np.ndarray,
+                      whitening: np.ndarray, stated: bool) -> TemperatureForm | None:
+    """The polynomial one degree above the highest allowed, when it still leaves a degree of
+    freedom and its extra term is significant (F-test, p < :data:`F_TEST_P`): the data then
+    show more curvature than the allowed forms can describe; None otherwise."""
+    from scipy.special import fdtrc
+
+    degree = highest.degree + 1
+    if degree > MAX_POLYNOMIAL_DEGREE or t.size - (degree + 1) < 1:
+        return None
+    beyond = _fit_form("polynomial", degree, theta, t, e, whitening, stated)
+    if not beyond.chi2 > 0.0:
+        return None
+    if beyond.degree <= 3:
+        # Below a cubic the allowed forms (a line, a quadratic, constant ΔCp°) cannot be tested
+        # against the next curvature term with two degrees of freedom: it is always counted.
+        return beyond
+    f_value = (highest.chi2 - beyond.chi2) / (beyond.chi2 / beyond.dof)
+    return beyond if float(fdtrc(1, beyond.dof, f_value)) < F_TEST_P else None
+
+
+def _with_unresolved_curvature(chosen: ThermodynamicValues, beyond: ThermodynamicValues
+                               ) -> ThermodynamicValues:
+    """The chosen form's values with the whole difference δ to the higher polynomial the data
+    call for in their covariance (δ δᵀ: a bias of unknown size up to δ, taken as a standard
+    uncertainty — the conservative reading of GUM 6.3 when a model is known to be short)."""
+    delta = np.nan_to_num(beyond.values - chosen.values, nan=0.0)
+    return dataclasses.replace(chosen, covariance=chosen.covariance + np.outer(delta, delta))
 
 # --------------------------------------------------------------------------------------------
 # Isotherms
