@@ -59,7 +59,8 @@ NOT_YET_USED_COLUMNS: tuple[str, ...] = ()
 KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "electrolyte", "electrons", "temperature_C", "temperature_K", "cell",
     "standard_pressure_kPa", "pressure_kPa", "bubbler_depth_cm", "slope_factor",
-    "u_temperature_K", "u_pressure_kPa", "solute_vapour_lowering", "volt_unit",
+    "u_temperature_K", "u_pressure_kPa", "u_stock_molality_relative", "u_electrode_offset_mV",
+    "solute_vapour_lowering", "volt_unit",
     "lab", "operator", "instrument", "date", "description", "electrode", "notes",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
@@ -116,6 +117,13 @@ class RunMetadata:
         Standard uncertainty of the run temperature, common to all rows [K].
     u_pressure_Pa : float
         Standard uncertainty of the barometric pressure, common to all rows [Pa].
+    u_stock_molality_relative : float
+        Relative standard uncertainty of the stock solution every molality was made from,
+        common to all rows — and to every run that names the same value in a temperature
+        study [-].
+    u_electrode_offset_V : float
+        Standard uncertainty of an offset of the electrodes (a batch used throughout), common
+        to all rows and runs in the same way [V].
     solute_vapour_lowering : bool
         Whether the water vapour over the solution is taken as a_w p_w (a_w from the fitted
         model) rather than p_w when the gas partial pressure is computed.
@@ -138,6 +146,8 @@ class RunMetadata:
     fit_slope_factor: bool = False
     u_temperature_K: float = 0.0
     u_pressure_Pa: float = 0.0
+    u_stock_molality_relative: float = 0.0
+    u_electrode_offset_V: float = 0.0
     solute_vapour_lowering: bool = False
     volt_unit: str = "absolute"
 
@@ -601,7 +611,8 @@ def _metadata(
                                    f"(1 = Nernstian), got {slope!r}")
 
     common_u = {}
-    for key, limit in (("u_temperature_K", 5.0), ("u_pressure_kPa", 5.0)):
+    for key, limit in (("u_temperature_K", 5.0), ("u_pressure_kPa", 5.0),
+                       ("u_stock_molality_relative", 0.05), ("u_electrode_offset_mV", 10.0)):
         value = merged.get(key, 0.0)
         if isinstance(value, bool) or not isinstance(value, int | float) or not (
                 0.0 <= value <= limit):
@@ -630,6 +641,8 @@ def _metadata(
         slope_factor=1.0 if fit_slope else float(slope), fit_slope_factor=fit_slope,
         u_temperature_K=common_u["u_temperature_K"],
         u_pressure_Pa=common_u["u_pressure_kPa"] * 1e3,
+        u_stock_molality_relative=common_u["u_stock_molality_relative"],
+        u_electrode_offset_V=common_u["u_electrode_offset_mV"] * 1e-3,
         solute_vapour_lowering=lowering, volt_unit=volt_unit,
     )
     return metadata, warnings

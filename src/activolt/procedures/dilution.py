@@ -60,6 +60,7 @@ from ..fit.uncertainty import (
 from ..physics.water import debye_hueckel_constants
 
 __all__ = [
+    "SHARED_INPUTS",
     "UNCORRECTED_SPREAD",
     "FitStatistics",
     "FittedParameter",
@@ -237,7 +238,9 @@ class Reduction:
     ``uncertain_covariance`` extends it to those held parameters themselves
     (``uncertain_names``), for quantities that depend on them directly (model γ±, φ, a_w).
     ``data`` is the measurement problem as finally fitted (readings corrected to p°, weights
-    with every refinement), which the Monte Carlo draws anew.
+    with every refinement), which the Monte Carlo draws anew. ``shared_inputs`` holds, for
+    each input that other runs may share (:data:`SHARED_INPUTS`), (name, u, ∂E°/∂input): a
+    temperature study correlates its isotherms' E° through them.
     """
 
     run: Run
@@ -260,6 +263,7 @@ class Reduction:
     uncertain_covariance: np.ndarray | None = None
     budget: tuple[BudgetLine, ...] = ()
     data: SeriesData | None = field(default=None, repr=False, compare=False)
+    shared_inputs: tuple[tuple[str, float, float], ...] = ()
 
     @property
     def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
@@ -967,12 +971,24 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
         catalogue=_catalogue_value(run, start.temperature_K),
         uncertain_names=parts.uncertain_names,
         uncertain_covariance=parts.uncertain_covariance, budget=budget, data=data,
+        shared_inputs=tuple((name, u, float(moves[0])) for name, u, moves, _ in parts.common
+                            if name in SHARED_INPUTS),
     )
 
 
 #: Steps for the sensitivity of the reduction to inputs common to every reading.
 _TEMPERATURE_STEP_K = 0.01
 _PRESSURE_STEP_PA = 10.0
+_RELATIVE_STEP = 1e-6
+_EMF_STEP_V = 1e-6
+#: Inputs common to every reading: (factor to the printed unit, unit) of their u.
+_COMMON_UNITS = {"temperature": (1.0, "K"), "barometric pressure": (1e-3, "kPa"),
+                 "stock molality": (100.0, "%"), "electrode offset": (1e3, "mV")}
+#: Their ``u_gamma_pm_<name>`` columns.
+_COMMON_COLUMNS = {"temperature": "temperature", "barometric pressure": "pressure",
+                   "stock molality": "stock_molality", "electrode offset": "electrode_offset"}
+#: Common inputs that a temperature study takes as shared by every isotherm stating them.
+SHARED_INPUTS = ("stock molality", "electrode offset")
 
 
 def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrolyte,
@@ -994,6 +1010,15 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
         step = -_TEMPERATURE_STEP_K if hot else _TEMPERATURE_STEP_K
         points = run.points.assign(temperature_K=run.points["temperature_K"] + step)
         shifts.append(("temperature", meta.u_temperature_K, step, points, meta))
+    if meta.u_stock_molality_relative > 0:
+        points = run.points.assign(
+            molality_mol_kg=run.points["molality_mol_kg"] * (1.0 + _RELATIVE_STEP))
+        shifts.append(("stock molality", meta.u_stock_molality_relative, _RELATIVE_STEP, points,
+                       meta))
+    if meta.u_electrode_offset_V > 0:
+        points = run.points.assign(emf_V=run.points["emf_V"] + _EMF_STEP_V)
+        shifts.append(("electrode offset", meta.u_electrode_offset_V, _EMF_STEP_V, points,
+                       meta))
     if meta.u_pressure_Pa > 0 and data.correction_V is not None:
         points = run.points.assign(pressure_Pa=run.points["pressure_Pa"] + _PRESSURE_STEP_PA)
         barometric = (None if meta.barometric_pressure_Pa is None
@@ -1056,8 +1081,11 @@ def _budget(run: Run, data: SeriesData, fit: _Fit, type_b: np.ndarray | None,
                                 "would cause, taken as a standard uncertainty (Type B)"))
     for name, u, moves, _ in common:
         lines.append(BudgetLine(name, float(abs(moves[0]) * u),
-                                f"stated u = {u:g} {'K' if name == 'temperature' else 'Pa'}, "
-                                "common to all readings; sensitivity by refitting"))
+                                f"stated u = {u * _COMMON_UNITS[name][0]:g} "
+                                f"{_COMMON_UNITS[name][1]}, common to all readings"
+                                + ("" if name in ("temperature", "barometric pressure") else
+                                   " (and to every run that states it, in a study)")
+                                + "; sensitivity by one linear step"))
     meta = run.metadata
     if meta.u_temperature_K == 0:
         lines.append(BudgetLine("temperature", 0.0, "no u(T) stated (metadata "
@@ -1249,7 +1277,7 @@ def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
         var_ln = var_ln + budget["left-out terms"]
     for name, u, _, d in common:
         var_ln = var_ln + (d * u) ** 2
-        budget[name.split()[-1]] = (d * u) ** 2
+        budget[_COMMON_COLUMNS[name]] = (d * u) ** 2
     gamma = np.exp(ln_gamma)
     u_gamma = gamma * np.sqrt(var_ln)
 

@@ -84,6 +84,7 @@ __all__ = [
     "ThermodynamicValues",
     "fit_standard_potential",
     "group_isotherms",
+    "isotherm_covariance",
     "study_temperatures",
 ]
 
@@ -522,6 +523,27 @@ def _fit_form(form: str, degree: int, reference_K: float, temperature_K: np.ndar
         aic=aic, bic=bic, chi2_p_value=p_value, covariance_scaled=scaled, birge_ratio=birge,
         coverage_factor=student_t_factor(dof if scaled else 0))
 
+
+def isotherm_covariance(reductions: Sequence[Reduction]) -> np.ndarray:
+    r"""The covariance of the isotherms' E° values [V²].
+
+    .. math:: V_{ij} = δ_{ij} u^2(E°_i) + (1 − δ_{ij}) \sum_c s_{ic} s_{jc} u_c^2
+
+    with s_ic = ∂E°_i/∂x_c the sensitivity of isotherm i to an input x_c that every run states
+    alike (the same stock solution, the same electrode batch: ``Reduction.shared_inputs``; the
+    same name and u) — GUM (JCGM 100:2008) 5.2.2, correlated inputs through common effects.
+    Isotherms that do not state it are uncorrelated through it.
+    """
+    u = np.array([r.standard_potential.std_dev for r in reductions])
+    covariance = np.diag(u**2)
+    effects: dict[tuple[str, float], np.ndarray] = {}
+    for index, reduction in enumerate(reductions):
+        for name, u_input, sensitivity in reduction.shared_inputs:
+            effects.setdefault((name, u_input), np.zeros(len(reductions)))[index] = (
+                sensitivity * u_input)
+    for vector in effects.values():
+        covariance = covariance + np.outer(vector, vector) - np.diag(vector**2)
+    return covariance
 
 def fit_standard_potential(
     temperature_K: npt.ArrayLike,
@@ -1325,8 +1347,9 @@ def study_temperatures(
                 mean_correction_V=float(delta.mean()), slope_V_K=float(slope)))
         fit = fit_standard_potential(
             setpoints, [iso.standard_potential_V.value for iso in isotherms],
-            [iso.standard_potential_V.uncertainty for iso in isotherms], electrons=electrons,
-            reference_temperature_K=reference_temperature_K, standard_pressure_Pa=pressure)
+            covariance_V2=isotherm_covariance([iso.reduction for iso in isotherms]),
+            electrons=electrons, reference_temperature_K=reference_temperature_K,
+            standard_pressure_Pa=pressure)
         if max(offsets) == 0.0:
             break
         new = fit.form.slope_V_K(setpoints)
@@ -1335,8 +1358,12 @@ def study_temperatures(
             break
         slopes = new
 
-    notes = ["E°(T) weights: each isotherm's u(E°) (model, holding, budget); a diagonal "
-             "covariance — inputs common to several isotherms are not identified"]
+    shared = sorted({name for iso in isotherms for name, _, _ in iso.reduction.shared_inputs})
+    notes = ["E°(T) weights: each isotherm's u(E°) (model, holding, budget)"
+             + (f"; the isotherms are correlated through {', '.join(shared)} stated alike "
+                "in their runs" if shared else
+                "; no input stated as shared (u_stock_molality_relative, "
+                "u_electrode_offset_mV): the isotherms are taken as independent")]
     notes.extend(fit.notes)
     if max(offsets) > 0:
         notes.append(f"readings off their setpoint (up to {max(offsets):.3g} K) referred to it "
