@@ -72,3 +72,14 @@ def test_shared_inputs_correlate_the_isotherms(tmp_path):
     u_s_plain = plain.reference.estimate("delta_S_J_K_mol").uncertainty
     assert u_s_shared == pytest.approx(u_s_plain, rel=0.05)
     assert any("correlated through electrode offset" in n for n in shared.notes)
+
+
+def test_a_study_names_the_cell_reaction_it_reports(tmp_path):
+    """ΔH°, ΔS° … are those of the reaction as the diagram writes it (IUPAC convention:
+    oxidation at the left): ½H2 + AgCl → H⁺ + Ag + Cl⁻ for the Harned cell."""
+    path = write_study(tmp_path, synthetic_table(np.random.default_rng(3)))
+    path.with_suffix(".toml").write_text(
+        'cell = "Pt | H2(g) | HCl(aq) | AgCl(s) | Ag(s)"\n', encoding="utf-8")
+    study = study_temperatures(read_run(path), "hueckel", fixed={"a_angstrom": A_ANGSTROM})
+    assert study.to_dict()["reaction"] == "1/2 H2(g) + AgCl(s) → H+(aq) + Ag(s) + Cl-(aq)"
+    assert study.electrons == 1

@@ -49,6 +49,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from ..activity import get_model
+from ..chemistry.cells import cell_from_diagram
 from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
 from ..data.runs import Run, usable_points
 from ..errors import FitError, InputError
@@ -1163,6 +1164,11 @@ class TemperatureStudy:
         return self.standard_potential_fit.electrons
 
     @property
+    def reaction(self) -> str | None:
+        """The cell reaction as the diagram writes it, per n electrons (None without one)."""
+        return None if self.cell is None else cell_from_diagram(self.cell).reaction_text
+
+    @property
     def standard_pressure_Pa(self) -> float:
         """The pressure basis of every E° and quantity [Pa]."""
         return self.standard_potential_fit.standard_pressure_Pa
@@ -1192,6 +1198,7 @@ class TemperatureStudy:
             "form_reason": fit.choice_reason,
             "electrolyte": self.electrolyte,
             "cell": self.cell,
+            "reaction": self.reaction,
             "electrons": self.electrons,
             "standard_pressure_Pa": self.standard_pressure_Pa,
             "passes": self.passes,

@@ -239,7 +239,8 @@ def format_temperature_report(study: TemperatureStudy) -> str:
     lines += _isotherm_lines(study)
     lines += _fit_lines(fit)
     lines += ["", f"  thermodynamics at θ = {theta_C:g} °C of the cell reaction as written "
-                  f"(n = {study.electrons}; ΔG° = −nFE°, ΔS° = nF dE°/dT, ΔH° = ΔG° + TΔS°, "
+                  + (f"({study.reaction}) " if study.reaction else "")
+                  + f"(n = {study.electrons}; ΔG° = −nFE°, ΔS° = nF dE°/dT, ΔH° = ΔG° + TΔS°, "
                   "ΔCp° = nFT d²E°/dT²)"]
     if not low - 0.5 <= theta_C <= high + 0.5:
         lines.append(f"  θ lies outside the isotherms ({low:.2f}–{high:.2f} °C): these values "
