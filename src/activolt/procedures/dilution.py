@@ -37,6 +37,7 @@ from ..activity.hueckel import extended_debye_hueckel
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
+from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
 from ..fit.least_squares import linear_least_squares
 from ..fit.problem import (
     E0,
@@ -80,23 +81,6 @@ MAX_RELATIVE_UNCERTAINTY = 0.5
 #: Ionic strength up to which the Hitchcock-type cross-check uses points [mol kg⁻¹].
 LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH = 0.1
 _MIN_POINTS = 3
-#: With stated reading uncertainties, a fit whose χ² has an upper-tail probability below this
-#: shows lack of fit: its covariance is scaled by the reduced χ² (the square of the Birge ratio
-#: R_B = √χ²ᵣ; Birge 1932, Phys. Rev. 40, 207) and the coverage factor taken from Student's t
-#: with the fit's degrees of freedom — the readings scatter more than stated, and the answer
-#: says so instead of quoting the stated precision.
-LACK_OF_FIT_P = 0.05
-#: A fit is refused as a systematic misfit when the mean residuals of its solutions, in order of
-#: molality, form fewer runs of one sign than chance allows (Wald–Wolfowitz) or follow each other
-#: (lag-1 serial correlation, permutation test) — the smaller p below this — and — with stated
-#: reading uncertainties — its χ² is improbable (p below :data:`SYSTEMATIC_CHI2_P`): scaling
-#: the covariance cannot cover a bias that the model builds into E°.
-SYSTEMATIC_RUNS_P = 0.05
-#: See :data:`SYSTEMATIC_RUNS_P`.
-SYSTEMATIC_CHI2_P = 0.01
-#: Without stated reading uncertainties the size of the misfit cannot be judged; the runs test
-#: alone refuses the fit below this lower-tail probability.
-SYSTEMATIC_RUNS_P_UNIT_WEIGHTS = 0.01
 #: A held convention must agree with what the data say within this many combined standard
 #: uncertainties (about 95 %); one the data contradict is not held (common practice).
 CONVENTION_AGREEMENT = 2.0
@@ -583,74 +567,26 @@ def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: Se
     return sensitivity_matrix(fit.jacobian, data.weights) @ (
         -data.sign * slope * data.nernst_V * delta)
 
-def _solution_means(data: SeriesData, fit: _Fit) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """(molality, weighted mean residual [V], summed weight) of each solution: readings at one
-    molality are replicates of one solution and share its preparation error."""
-    molality, group = np.unique(data.molality, return_inverse=True)
-    weight = np.bincount(group, weights=data.weights)
-    mean = np.bincount(group, weights=data.weights * fit.residual_V) / weight
-    return molality, mean, weight
-
-
-def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit
-               ) -> tuple[float, int, float, float]:
-    """(Birge ratio, its degrees of freedom, χ² p-value, runs-test p-value) of the final fit.
-
-    Lack of fit is judged twice: over the readings (χ² = Σ w r², ν = N − P) and, when solutions
-    were read more than once, over the solutions (χ²_s = Σ_j W_j r̄_j², ν_s = J − P, r̄_j the
-    weighted mean residual of solution j and W_j its summed weight), because replicate readings
-    share their solution's error and would hide it from the first test. Each reduced χ² is taken
-    relative to the scale the covariance already has (1 with stated u(EMF), χ²ᵣ with unit
-    weights); a significant excess (p < :data:`LACK_OF_FIT_P`) gives the Birge ratio
-    R_B = √(largest excess), else 1. The runs test of the solutions' mean residual signs in
-    order of molality, with a significant χ² (:data:`SYSTEMATIC_RUNS_P`), refuses the fit with a
-    FitError: a systematic misfit biases E° in a way no scaling covers.
-    """
-    from scipy.special import chdtrc
-
-    from ..fit.diagnostics import runs_test, serial_correlation_test
-
-    n_free = 1 + len(fit.free)
-    _, mean, weight = _solution_means(data, fit)
-    runs = runs_test(mean)
-    runs_p = runs.p_value_fewer
-    rho, serial_p = serial_correlation_test(mean * np.sqrt(weight))
-    order_p = min(runs_p if math.isfinite(runs_p) else 1.0,
-                  serial_p if math.isfinite(serial_p) else 1.0)
-    scale = 1.0 if data.stated_uncertainty else fit.chi2 / fit.dof
-    reduced = fit.chi2 / fit.dof / scale
-    chi2_p = float(chdtrc(fit.dof, fit.chi2 / scale)) if fit.dof > 0 else math.nan
-    candidates = []
-    if data.stated_uncertainty and chi2_p < LACK_OF_FIT_P and reduced > 1.0:
-        candidates.append((reduced, fit.dof))
-    dof_solutions = mean.size - n_free
-    solutions_p = math.nan
-    if mean.size < data.molality.size and dof_solutions >= 1:
-        chi2_solutions = float(np.sum(weight * mean**2)) / scale
-        solutions_p = float(chdtrc(dof_solutions, chi2_solutions))
-        if solutions_p < LACK_OF_FIT_P and chi2_solutions / dof_solutions > 1.0:
-            candidates.append((chi2_solutions / dof_solutions, dof_solutions))
-    significant = min(chi2_p if data.stated_uncertainty else 1.0,
-                      solutions_p if math.isfinite(solutions_p) else 1.0)
-    if data.stated_uncertainty or math.isfinite(solutions_p):
-        systematic = order_p < SYSTEMATIC_RUNS_P and significant < SYSTEMATIC_CHI2_P
-    else:
-        systematic = order_p < SYSTEMATIC_RUNS_P_UNIT_WEIGHTS
-    if systematic:
-        size = (f"reduced χ² = {reduced:.3g} against the stated u(EMF)"
+def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit) -> LackOfFit:
+    """The lack-of-fit rule (:func:`activolt.fit.lack_of_fit.judge_lack_of_fit`) applied to the
+    final fit; a systematic misfit is refused with a FitError that says what to try."""
+    judged = judge_lack_of_fit(data.molality, fit.residual_V, data.weights, fit.chi2, fit.dof,
+                               1 + len(fit.free), data.stated_uncertainty)
+    if judged.systematic:
+        size = (f"reduced χ² = {judged.reduced_chi2:.3g} against the stated u(EMF)"
                 if data.stated_uncertainty else
                 f"residual s.d. {math.sqrt(fit.chi2 / fit.dof) * 1e3:.3g} mV")
+        runs = judged.runs
         raise FitError(
             f"the {family.title} does not describe these readings: the residuals of the "
             f"solutions follow each other in {runs.runs} runs of one sign where "
-            f"{runs.expected_runs:.1f} are expected (runs test p = {runs_p:.2g}; serial "
-            f"correlation {rho:.2f}, p = {serial_p:.2g}), {size}; its E° would carry a bias "
-            "that no uncertainty here covers — choose another model (pitzer), a narrower molality "
+            f"{runs.expected_runs:.1f} are expected (runs test p = {runs.p_value_fewer:.2g}; "
+            f"serial correlation {judged.serial_correlation:.2f}, p = "
+            f"{judged.serial_p_value:.2g}), {size}; its E° would carry a bias that no "
+            "uncertainty here covers — choose another model (pitzer), a narrower molality "
             "range, or compare all models")
-    if not candidates:
-        return 1.0, fit.dof, chi2_p, runs_p
-    excess, dof = max(candidates)
-    return math.sqrt(excess), dof, chi2_p, runs_p
+    return judged
+
 
 def reduce_run(run: Run, model: str = "hueckel",
                fixed: Mapping[str, Any] | None = None,
@@ -858,7 +794,9 @@ def _judge(held: _Held, family: ActivityModel) -> _Judged:
     """Step 3: the lack-of-fit rule (:func:`_judge_fit`): refuse a systematic misfit, scale
     the readings' variances by the Birge ratio where they scatter more than stated."""
     data, fit = held.data, held.fit
-    birge, birge_dof, chi2_p, runs_p = _judge_fit(family, data, fit)
+    judged = _judge_fit(family, data, fit)
+    birge, birge_dof = judged.birge_ratio, judged.birge_dof
+    chi2_p, runs_p = judged.chi2_p_value, judged.runs.p_value_fewer
     warning = None
     if birge > 1.0:
         data = dataclasses.replace(

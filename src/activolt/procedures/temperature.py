@@ -53,6 +53,7 @@ from ..chemistry.cells import cell_from_diagram
 from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
 from ..data.runs import Run, usable_points
 from ..errors import FitError, InputError
+from ..fit.lack_of_fit import LACK_OF_FIT_P
 from ..fit.least_squares import (
     central_difference_jacobian,
     information_criteria,
@@ -63,7 +64,6 @@ from ..fit.problem import predict_emf, prepare_series
 from ..fit.uncertainty import student_t_factor
 from ..physics.water import debye_hueckel_constants
 from .dilution import (
-    LACK_OF_FIT_P,
     MAX_TEMPERATURE_SPREAD_K,
     UNCORRECTED_SPREAD,
     Reduction,
