@@ -61,6 +61,9 @@ KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "standard_pressure_kPa", "pressure_kPa", "bubbler_depth_cm", "slope_factor",
     "u_temperature_K", "u_pressure_kPa", "u_stock_molality_relative", "u_electrode_offset_mV",
     "solute_vapour_lowering", "volt_unit",
+    "calibration_method", "master_potential_mV", "u_master_potential_mV",
+    "acceptance_tolerance_mV", "acceptance_reference", "nominal_potential_mV", "decision_rule",
+    "voltmeter_u_mV",
     "lab", "operator", "instrument", "date", "description", "electrode", "notes",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
@@ -81,6 +84,10 @@ _SEPARATORS = {",": "comma", ";": "semicolon", "\t": "tab"}
 _PRESSURE_LIKE = re.compile(r"press|baro|^p_?(bar|atm)", re.IGNORECASE)
 #: Volts the EMF column may be written in, with the factor to absolute volts [V per unit].
 VOLT_UNITS: dict[str, float] = {"absolute": 1.0, "international": INTERNATIONAL_VOLT_V}
+#: Choices of the calibration keys of the metadata (a batch of reference electrodes).
+CALIBRATION_METHODS: tuple[str, ...] = ("hydrogen", "master")
+ACCEPTANCE_REFERENCES: tuple[str, ...] = ("median", "nominal", "catalogue")
+DECISION_RULES: tuple[str, ...] = ("simple", "guard-banded")
 
 
 @dataclass(frozen=True)
@@ -130,6 +137,13 @@ class RunMetadata:
     volt_unit : str
         The volt the EMF and u(EMF) columns are written in: ``"absolute"`` (SI, the default) or
         ``"international"`` (before 1948); the reader converts to absolute volts.
+    calibration : mapping
+        The calibration keys of a batch of reference electrodes, in SI units: ``method``
+        (``"hydrogen"`` or ``"master"``), ``master_potential_V``, ``u_master_potential_V``,
+        ``tolerance_V``, ``reference`` (``"median"``, ``"nominal"``, ``"catalogue"``),
+        ``nominal_potential_V``, ``decision_rule`` (``"simple"``, ``"guard-banded"``),
+        ``voltmeter_u_V``; only the keys given (method, reference and rule always). Empty
+        when the metadata declares no calibration.
     """
 
     electrolyte: Electrolyte
@@ -150,6 +164,7 @@ class RunMetadata:
     u_electrode_offset_V: float = 0.0
     solute_vapour_lowering: bool = False
     volt_unit: str = "absolute"
+    calibration: Mapping[str, Any] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -630,6 +645,7 @@ def _metadata(
         raise fail("volt_unit", "volt_unit must be \"absolute\" or \"international\" (before "
                                 f"1948), got {volt_unit!r}")
 
+    calibration = _calibration(merged, fail)
     info = {k: str(merged[k]) for k in _TEXT_METADATA_KEYS if k in merged}
     metadata = RunMetadata(
         electrolyte=electrolyte, electrons=electrons,
@@ -643,9 +659,53 @@ def _metadata(
         u_pressure_Pa=common_u["u_pressure_kPa"] * 1e3,
         u_stock_molality_relative=common_u["u_stock_molality_relative"],
         u_electrode_offset_V=common_u["u_electrode_offset_mV"] * 1e-3,
-        solute_vapour_lowering=lowering, volt_unit=volt_unit,
+        solute_vapour_lowering=lowering, volt_unit=volt_unit, calibration=calibration,
     )
     return metadata, warnings
+
+
+_CALIBRATION_KEYS = ("calibration_method", "master_potential_mV", "u_master_potential_mV",
+                     "acceptance_tolerance_mV", "acceptance_reference", "nominal_potential_mV",
+                     "decision_rule", "voltmeter_u_mV")
+
+
+def _calibration(merged: Mapping[str, Any], fail: Any) -> dict[str, Any]:
+    """The calibration keys, checked and in SI units; {} when none is given."""
+    if not any(key in merged for key in _CALIBRATION_KEYS):
+        return {}
+    out: dict[str, Any] = {}
+    for key, name, choices, default in (
+            ("calibration_method", "method", CALIBRATION_METHODS, "hydrogen"),
+            ("acceptance_reference", "reference", ACCEPTANCE_REFERENCES, "median"),
+            ("decision_rule", "decision_rule", DECISION_RULES, "simple")):
+        value = merged.get(key, default)
+        if not isinstance(value, str) or value not in choices:
+            raise fail(key, f"{key} must be " + " or ".join(f'"{c}"' for c in choices)
+                       + f", got {value!r}")
+        out[name] = value
+    for key, name, low, high in (
+            ("master_potential_mV", "master_potential_V", -3000.0, 3000.0),
+            ("nominal_potential_mV", "nominal_potential_V", -3000.0, 3000.0),
+            ("u_master_potential_mV", "u_master_potential_V", 0.0, 10.0),
+            ("voltmeter_u_mV", "voltmeter_u_V", 0.0, 10.0),
+            ("acceptance_tolerance_mV", "tolerance_V", 0.0, 1000.0)):
+        if key not in merged:
+            continue
+        value = merged[key]
+        if isinstance(value, bool) or not isinstance(value, int | float) or not (
+                low <= value <= high) or (key == "acceptance_tolerance_mV" and value <= 0):
+            what = ("a positive tolerance up to" if key == "acceptance_tolerance_mV" else
+                    "a standard uncertainty from 0 to" if key.startswith(("u_", "voltmeter"))
+                    else "a potential from -3000 to")
+            raise fail(key, f"{key} must be {what} {high:g} mV, got {value!r}")
+        out[name] = float(value) * 1e-3
+    if out["method"] == "master" and "master_potential_V" not in out:
+        raise fail("calibration_method", 'the master route needs the master\'s potential; add '
+                   'master_potential_mV (and u_master_potential_mV from its certificate)')
+    if out["reference"] == "nominal" and "nominal_potential_V" not in out:
+        raise fail("acceptance_reference", 'acceptance_reference = "nominal" needs '
+                   'nominal_potential_mV')
+    return out
 
 
 def _cell_stoichiometry(cell: str, fail: Any) -> Any:
