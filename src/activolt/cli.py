@@ -2,7 +2,8 @@
 
 Exit status: 0 success, 2 bad input (one line on stderr naming file, line and column), 1 a fit
 that could not be done (with the reason) — with several series, some series not reduced (each
-named on stderr and in the summary with its reason; the others are written).
+named on stderr and in the summary with its reason; the others are written); ``calibrate``:
+3 when an electrode of the batch fails its acceptance (the outputs are written).
 """
 
 from __future__ import annotations
@@ -28,6 +29,15 @@ DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
 OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "extrapolation.png", "residuals.png",
                 "gamma.png")
+#: The files of a calibration's output set, after ``NAME.``.
+CALIBRATION_OUTPUT_KINDS = ("record.json", "electrodes.csv", "points.csv", "certificate.html",
+                            "control_chart.png")
+#: The exit statuses of ``activolt calibrate`` (its ``--help`` shows them).
+CALIBRATE_EXIT_STATUS = """exit status:
+  0  every electrode passes
+  3  at least one electrode fails its acceptance (the outputs are written)
+  2  bad input (one line naming file, line and column; nothing written)
+  1  a fit that cannot be done (the reason on stderr; nothing written)"""
 #: The files of a temperature study's output set, after ``NAME.``.
 STUDY_OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "gamma_temperature.csv",
                       "standard_potential.png", "gamma.png")
@@ -134,6 +144,24 @@ def _parser() -> argparse.ArgumentParser:
                       default=100.0, help="pressure basis of E°, ΔG° and K: 100 (IUPAC, the "
                       "default, as for reduce) or 101.325 (1 atm)")
     cell.add_argument("--json", type=Path, help="also write the summary as JSON here")
+
+    calibrate = commands.add_parser(
+        "calibrate", help="calibrate a batch of reference electrodes: E° ± U per electrode, "
+        "verdicts, a record and a certificate",
+        description="Calibrate a batch of reference electrodes from one table of readings "
+                    "(the method, tolerance, reference and decision rule in its metadata) and "
+                    "write one output set: NAME.record.json, NAME.electrodes.csv, "
+                    "NAME.points.csv, NAME.certificate.html and, with --history, "
+                    "NAME.control_chart.png.",
+        epilog=CALIBRATE_EXIT_STATUS, formatter_class=argparse.RawDescriptionHelpFormatter)
+    calibrate.add_argument("batch", type=Path, help="batch table (CSV), one row per reading, "
+                           "an 'electrode' column naming the electrode read")
+    calibrate.add_argument("--meta", type=Path, help="batch metadata (TOML); default BATCH.toml")
+    calibrate.add_argument("--out", type=Path,
+                           help="folder for the outputs; default BATCH_activolt next to it")
+    calibrate.add_argument("--history", type=Path, metavar="FOLDER",
+                           help="folder of earlier calibration records (*.record.json): each "
+                                "electrode's drift and control chart")
 
     demo = commands.add_parser("demo", help="reduce the bundled sample run")
     demo.add_argument("--out", type=Path, default=Path("demo_output"),
@@ -523,6 +551,99 @@ def _study(paths: Sequence[Path], meta: Path | None, model: str, fixed: dict[str
     return 0
 
 
+def _calibration_history(folder: Path, current_sha256: str) -> list[dict[str, Any]]:
+    """The calibration records in ``folder`` (``*.record.json``), those of the current batch
+    table (same SHA-256: an earlier run of the same command) left out."""
+    from .io.record import CALIBRATION_KIND, load_record
+
+    if not folder.is_dir():
+        raise InputError("the history is not a folder; give the folder of earlier calibration "
+                         "records", file=str(folder), column="--history")
+    records = []
+    for path in sorted(folder.glob("*.record.json")):
+        record = load_record(path)
+        if record.get("record_kind") != CALIBRATION_KIND:
+            continue
+        if (record.get("input") or {}).get("sha256") == current_sha256:
+            continue
+        records.append(record)
+    return records
+
+
+def _calibrate_command(args: argparse.Namespace, written: list[Path]) -> int:
+    """``activolt calibrate``: one output set for a batch of reference electrodes; exit status
+    0 when every electrode passes, 3 when any fails."""
+    import hashlib
+    import json
+
+    from .io.files import check_outputs, write_outputs
+    from .io.record import (
+        build_calibration_record,
+        calibration_electrodes_csv,
+        calibration_points_csv,
+    )
+    from .procedures.calibration import calibrate, electrode_history
+    from .report.certificate import certificate_html, format_potential
+
+    batch_path: Path = args.batch
+    batch = calibrate(batch_path, args.meta)
+    run = batch.run
+    name = batch_path.stem
+    out = args.out if args.out is not None else batch_path.parent / f"{name}_activolt"
+    owned = [f"{name}.{kind}" for kind in CALIBRATION_OUTPUT_KINDS]
+    inputs = [p for p in (getattr(run, "path", batch_path), getattr(run, "metadata_path", None))
+              if p is not None]
+    check_outputs(out, owned, [], inputs)
+    histories = None
+    if args.history is not None:
+        earlier = _calibration_history(args.history, getattr(run, "sha256", ""))
+        histories = electrode_history(earlier, current=batch)
+    record = build_calibration_record(batch, record_folder=out, histories=histories)
+    record_text = json.dumps(record, ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+    record_name = f"{name}.record.json"
+    contents: dict[str, bytes | str] = {
+        record_name: record_text,
+        f"{name}.electrodes.csv": calibration_electrodes_csv(record),
+        f"{name}.points.csv": calibration_points_csv(batch),
+        f"{name}.certificate.html": certificate_html(
+            record, hashlib.sha256(record_text.encode("utf-8")).hexdigest(), record_name),
+    }
+    if histories:
+        from .report.figures import render_control_charts
+
+        chart = render_control_charts(histories)
+        if chart is not None:
+            contents[f"{name}.control_chart.png"] = chart
+    done = write_outputs(folder=out, contents=contents, owned=owned, inputs=inputs)
+    written.extend(done)
+    acceptance = record.get("acceptance") or {}
+    tolerance = acceptance.get("tolerance_V")
+    lines = [f"activolt calibrate: {name}: {len(record['electrodes'])} electrodes, method "
+             f"{record.get('method')}, tolerance "
+             + ("not stated" if tolerance is None else f"±{tolerance * 1e3:.3f} mV")
+             + f" about the {acceptance.get('reference')} ({acceptance.get('decision_rule')} "
+             "rule)"]
+    width = max(len(str(e["electrode"])) for e in record["electrodes"])
+    for e in record["electrodes"]:
+        value, expanded = format_potential(e["standard_potential_V"]["value"],
+                                           e["expanded_uncertainty_V"])
+        deviation = e.get("deviation_V")
+        lines.append(f"  {e['electrode']!s:<{width}}  E = {value} ± {expanded} mV "
+                     f"(k = {e['coverage_factor']:.2f})  deviation "
+                     + ("—" if deviation is None else f"{deviation * 1e3:+.4f} mV")
+                     + f"  {e['verdict']}")
+    failed = [str(e["electrode"]) for e in record["electrodes"] if e["verdict"] != "pass"]
+    lines.append(f"{len(record['electrodes']) - len(failed)} pass, {len(failed)} fail"
+                 + (f": {', '.join(failed)}" if failed else ""))
+    for history in (histories or {}).values():
+        if history.flagged:
+            lines.append(f"  history: {history.electrode}: " + "; ".join(history.reasons))
+    for warning in record.get("warnings") or []:
+        lines.append(f"  warning: {warning}")
+    sys.stdout.write(escape_controls("\n".join(lines) + "\n", keep="\n"))
+    return 3 if failed else 0
+
+
 def _private_matplotlib_config() -> None:
     """Point MPLCONFIGDIR at a private temporary folder when matplotlib's default config or
     cache folder cannot be written (matplotlib would otherwise warn on stderr)."""
@@ -646,6 +767,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             run_path = Path(str(files("activolt") / "sample_data" / DEMO_RUN))
             _reduce(run_path, None, "hueckel", {}, args.out, None, None, {}, True,
                     written=written)
+        elif args.command == "calibrate":
+            status = _calibrate_command(args, written)
         elif args.command == "cell":
             written = _cell(args.diagram, args.temperature_C, args.json,
                             args.standard_pressure_kPa)

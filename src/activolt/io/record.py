@@ -9,6 +9,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+from collections.abc import Mapping
 from datetime import UTC, datetime
 from importlib.resources import files
 from pathlib import Path
@@ -19,6 +20,7 @@ from ..constants import INTERNATIONAL_VOLT_V
 from ..data.runs import VOLT_UNITS
 from ..errors import InputError
 from ..physics.thermodynamics import log10_equilibrium_constant, standard_gibbs_energy_kJ_mol
+from ..procedures.calibration import CalibrationBatch, ElectrodeHistory
 from ..procedures.dilution import Reduction
 from ..procedures.model_choice import (
     CHI2_P_MIN,
@@ -37,6 +39,8 @@ from ..report.numbers import json_number
 from ..safe_text import neutralise_formula
 
 RECORD_SCHEMA = "activolt-record/1"
+#: ``record_kind`` of the record of a calibrated batch of reference electrodes.
+CALIBRATION_KIND = "calibration"
 
 
 def _with_u(value: Any, method: str) -> dict[str, Any]:
@@ -286,7 +290,10 @@ def load_record(source: str | Path) -> dict[str, Any]:
         raise InputError(f"not JSON: {error.msg}", file=where, line=error.lineno) from None
     if not isinstance(record, dict) or record.get("record_schema") != RECORD_SCHEMA:
         raise InputError(f"not an {RECORD_SCHEMA} record", file=where)
-    missing = [key for key in record_schema()["required"] if key not in record]
+    schema = record_schema()
+    kind = "then" if record.get("record_kind") == CALIBRATION_KIND else "else"
+    missing = [key for key in [*schema["required"], *schema.get(kind, {}).get("required", [])]
+               if key not in record]
     if missing:
         raise InputError(f"the record lacks '{missing[0]}'", file=where)
     return record
@@ -600,3 +607,172 @@ def study_gamma_csv(study: TemperatureStudy) -> str:
     if "model" in table:
         table["model"] = table["model"].map(neutralise_formula)
     return table.to_csv(index=False, float_format="%.10g", lineterminator="\n")
+
+
+# --------------------------------------------------------------------------------------------
+# Calibration of reference electrodes
+# --------------------------------------------------------------------------------------------
+
+#: What each calibration route does, for the record and the certificate.
+CALIBRATION_METHODS_TEXT = {
+    "hydrogen": "each electrode against a hydrogen electrode in HCl of stated molality, the "
+                "reading corrected to p(H2) = p°; E° = E + (2RT/F) ln(m γ±) with the "
+                "conventional γ± (a full dilution reduction when an electrode was read in "
+                "several molalities)",
+    "master": "each electrode against a master electrode of certified potential in a common "
+              "solution; E(electrode) = E(master) + E, the master's uncertainty in the budget",
+}
+
+
+def _calibration_conditions(run: Any) -> dict[str, Any]:
+    """Temperature (mean of the readings) and barometric pressure (mean, else the metadata's)
+    of a batch, with u(T)."""
+    if run is None:
+        return {"temperature_C": None, "u_temperature_K": None, "pressure_kPa": None}
+    points = run.points
+    usable = points[points["flag"].isna()] if "flag" in points else points
+    t = usable["temperature_K"].dropna() if "temperature_K" in usable else []
+    pressure = usable["pressure_Pa"].dropna() if "pressure_Pa" in usable else []
+    meta = run.metadata
+    p_kPa = (float(pressure.mean()) / 1e3 if len(pressure)
+             else None if meta.barometric_pressure_Pa is None
+             else meta.barometric_pressure_Pa / 1e3)
+    return {"temperature_C": float(t.mean()) - 273.15 if len(t) else None,
+            "u_temperature_K": meta.u_temperature_K or None,
+            "pressure_kPa": p_kPa}
+
+
+def _traceability(section: Mapping[str, Any], run: Any) -> list[str]:
+    """What the results are traceable to, from the method and the metadata."""
+    method = section.get("method")
+    info = dict(run.metadata.info) if run is not None else {}
+    lines = []
+    if method == "hydrogen":
+        lines.append("Potentials on the hydrogen scale: a hydrogen electrode at p(H2) referred "
+                     "to the standard pressure, E°(H+/H2) = 0 by definition.")
+    elif method == "master":
+        lines.append("Potentials referred to the master electrode, whose potential and "
+                     "uncertainty are taken from its own calibration certificate.")
+    if section.get("convention"):
+        lines.append(f"Convention: {section['convention']}")
+    lines.append("Voltage: " + (info.get("instrument") or "the laboratory's voltmeter")
+                 + ", within its calibration (its uncertainty is a line of each budget).")
+    lines.append("Temperature: the laboratory's calibrated thermometer"
+                 + (f" (u = {run.metadata.u_temperature_K:g} K)."
+                    if run is not None and run.metadata.u_temperature_K else "."))
+    return lines
+
+
+def build_calibration_record(batch: CalibrationBatch, created: datetime | None = None,
+                             record_folder: Path | None = None,
+                             histories: Mapping[str, ElectrodeHistory] | None = None
+                             ) -> dict[str, Any]:
+    """The JSON-ready record of a calibrated batch (``record_kind = "calibration"``).
+
+    Parameters
+    ----------
+    batch : CalibrationBatch
+        From :func:`activolt.procedures.calibration.calibrate`.
+    created : datetime, optional
+        The time stamp (the certificate's date of issue); now by default.
+    record_folder : pathlib.Path, optional
+        Where the record is written; the batch table is named relative to it.
+    histories : mapping of str to ElectrodeHistory, optional
+        Each electrode's history (``--history``), kept under ``history``.
+
+    Returns
+    -------
+    dict
+        The keys every record has (``record_schema``, ``software``, ``created_utc``,
+        ``input`` with the table's SHA-256, ``warnings``), ``record_kind``, ``run_info``, the
+        batch's own data (:meth:`CalibrationBatch.to_dict`: ``method``, ``date``,
+        ``temperature_K``, ``convention``, ``electrodes`` — each ``{electrode,
+        standard_potential_V: {value, uncertainty}, expanded_uncertainty_V, coverage_factor,
+        deviation_V, verdict, …}`` —, ``acceptance``, ``batch_statistics``, ``all_pass``),
+        ``method_description``, ``conditions``, ``traceability``, ``cautions``, ``history``.
+    """
+    run = batch.run
+    section = dict(batch.to_dict())
+    warnings = list(dict.fromkeys([*section.pop("warnings", []), *batch.warnings]))
+    record: dict[str, Any] = {
+        "record_schema": RECORD_SCHEMA,
+        "record_kind": CALIBRATION_KIND,
+        "software": {"name": "activolt", "version": __version__},
+        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "input": (_input_record(run, record_folder) if run is not None
+                  else {"file": "", "sha256": "0" * 64}),
+        "run_info": dict(run.metadata.info) if run is not None else {},
+        **section,
+        "method_description": CALIBRATION_METHODS_TEXT.get(batch.method, batch.method),
+        "conditions": _calibration_conditions(run),
+        "traceability": _traceability(section, run),
+        "warnings": warnings,
+        "cautions": ([] if run is None
+                     else cautions_for(run.metadata.electrolyte, run.metadata.cell)),
+        "history": None if histories is None else {
+            name: history.to_dict() for name, history in histories.items()},
+    }
+    return _finite(record)
+
+
+def calibration_record_json(batch: CalibrationBatch, created: datetime | None = None,
+                            record_folder: Path | None = None,
+                            histories: Mapping[str, ElectrodeHistory] | None = None) -> str:
+    """:func:`build_calibration_record` as JSON text (UTF-8, indented, NaN written as null)."""
+    return json.dumps(build_calibration_record(batch, created, record_folder, histories),
+                      ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+
+
+#: Columns of the electrodes table of a calibration (one row per electrode).
+CALIBRATION_COLUMNS = ("electrode", "potential_mV", "u_potential_mV", "effective_dof",
+                       "coverage_factor", "expanded_uncertainty_mV", "deviation_mV", "verdict",
+                       "n_readings", "lines", "route", "outlier", "notes")
+
+
+def calibration_electrodes_csv(record: Mapping[str, Any]) -> str:
+    """One row per electrode of a calibration record (:func:`build_calibration_record`):
+    potential, u, ν_eff, k, U and deviation in mV, the verdict; text cells formula-safe."""
+    import pandas as pd
+
+    rows = []
+    for e in record["electrodes"]:
+        potential = e["standard_potential_V"]
+        rows.append({
+            "electrode": neutralise_formula(str(e["electrode"])),
+            "potential_mV": _scaled(potential.get("value")),
+            "u_potential_mV": _scaled(potential.get("uncertainty")),
+            "effective_dof": e.get("effective_dof"),
+            "coverage_factor": e.get("coverage_factor"),
+            "expanded_uncertainty_mV": _scaled(e.get("expanded_uncertainty_V")),
+            "deviation_mV": _scaled(e.get("deviation_V")),
+            "verdict": e.get("verdict"),
+            "n_readings": e.get("n_readings"),
+            "lines": " ".join(str(line) for line in e.get("lines") or []),
+            "route": neutralise_formula(str(e.get("route") or "")),
+            "outlier": e.get("outlier"),
+            "notes": neutralise_formula("; ".join(e.get("notes") or [])),
+        })
+    return pd.DataFrame(rows, columns=list(CALIBRATION_COLUMNS)).to_csv(
+        index=False, float_format="%.10g", lineterminator="\n")
+
+
+def calibration_points_csv(batch: CalibrationBatch) -> str:
+    """Every reading of a calibrated batch as read (units in the column names, flagged rows
+    included); text cells formula-safe."""
+    import pandas as pd
+
+    points = batch.run.points
+    out = {"line": points["line"],
+           "electrode": points["electrode"].map(neutralise_formula),
+           "molality_mol_kg": points["molality_mol_kg"],
+           "temperature_C": points["temperature_K"] - 273.15,
+           "emf_mV": points["emf_V"] * 1e3,
+           "u_emf_mV": points["u_emf_V"] * 1e3,
+           "pressure_kPa": points["pressure_Pa"] / 1e3,
+           "flag": points["flag"].where(points["flag"].notna(), "").map(neutralise_formula),
+           "note": points["note"].map(neutralise_formula)}
+    return pd.DataFrame(out).to_csv(index=False, float_format="%.10g", lineterminator="\n")
+
+
+def _scaled(value_V: Any) -> float | None:
+    return None if value_V is None else float(value_V) * 1e3

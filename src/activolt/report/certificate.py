@@ -133,8 +133,9 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
     record : mapping
         The calibration record (``record_kind = "calibration"``): ``run_info`` (lab, operator,
         instrument, date, description, customer, approved_by — those given), ``input``,
-        ``created_utc``, ``method``, ``conditions``, ``electrodes``, ``acceptance``,
-        ``statistics``, ``traceability``, ``warnings``, ``cautions``.
+        ``created_utc``, ``method``, ``method_description``, ``convention``, ``conditions``,
+        ``electrodes``, ``acceptance``, ``batch_statistics``, ``traceability``, ``warnings``,
+        ``cautions``.
     record_sha256 : str
         The SHA-256 of the record's JSON text as written; the certificate's identification is
         derived from it.
@@ -153,7 +154,7 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
     electrodes = list(record.get("electrodes") or [])
     created = str(record.get("created_utc", ""))
     issue_date = created[:10] if created else NOT_STATED
-    method = record.get("method") or {}
+    method = record.get("method")
     lab = info.get("lab") or "Calibration laboratory"
     n_fail = sum(1 for e in electrodes if e.get("verdict") == "fail")
 
@@ -181,9 +182,9 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
             "</tr>")
     tolerance = acceptance.get("tolerance_V")
     reference = acceptance.get("reference")
-    reference_value = acceptance.get("reference_potential_V")
-    rule = acceptance.get("decision_rule") or acceptance.get("rule")
-    rule_text = acceptance.get("decision_rule_text") or acceptance.get("rule_text")
+    reference_value = acceptance.get("reference_value_V")
+    rule = acceptance.get("decision_rule")
+    rule_text = acceptance.get("rule")
     conformity = (
         f"{len(electrodes) - n_fail} of {len(electrodes)} electrodes conform to the "
         f"specification: |deviation| within {_number(tolerance, 'mV', 1e3, 3)} of the "
@@ -192,10 +193,10 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
            else "") + ")"
         + ("" if not n_fail else f"; {n_fail} do not (marked <span class=\"fail\">fail</span>)")
         + ".")
-    statistics = record.get("statistics") or {}
+    statistics = record.get("batch_statistics") or {}
     stat_rows = "".join(
-        f"<tr><td>{text(key)}</td><td class=\"num\">{text(_plain(value))}</td></tr>"
-        for key, value in statistics.items() if not isinstance(value, (dict, list)))
+        f"<tr><td>{text(label)}</td><td class=\"num\">{text(shown)}</td></tr>"
+        for label, shown in (_statistic(key, value) for key, value in statistics.items()))
     traceability = record.get("traceability")
     trace_items = ([traceability] if isinstance(traceability, str)
                    else list(traceability or []))
@@ -229,8 +230,9 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
 </section>
 <section id="method"><h2>3. Method</h2>
 {_fields([
-    ("Method", text(method.get("name", NOT_STATED))),
-    ("Description", text(method.get("description", NOT_STATED))),
+    ("Method", text(method) if method else f"<em>{NOT_STATED}</em>"),
+    ("Description", text(record.get("method_description") or NOT_STATED)),
+    ("Convention", text(record.get("convention") or NOT_STATED)),
     ("Instrument", _info(record, "instrument")),
 ])}
 </section>
@@ -294,10 +296,15 @@ def _data(value: Any) -> str:
     return repr(float(value))
 
 
-def _plain(value: Any) -> str:
+def _statistic(key: str, value: Any) -> tuple[str, str]:
+    """A batch statistic as (label, shown): potentials in mV to 0.1 µV, lists joined."""
+    if isinstance(value, (list, tuple)):
+        return key.replace("_", " "), ", ".join(str(v) for v in value) or "none"
+    if key.endswith("_V") and isinstance(value, (int, float)) and not isinstance(value, bool):
+        return key[:-2].replace("_", " ") + " / mV", f"{value * 1e3:.4f}"
     if isinstance(value, float):
-        return f"{value:.6g}"
-    return str(value)
+        return key.replace("_", " "), f"{value:.6g}"
+    return key.replace("_", " "), "—" if value is None else str(value)
 
 
 def _css(value: str) -> str:

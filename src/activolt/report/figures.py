@@ -1,5 +1,6 @@
 """Figures of a reduction: the extrapolation to m = 0, the residuals, and γ± against √m; of a
-temperature study: E° against T with the fit and its residuals, and γ± against √m by isotherm.
+temperature study: E° against T with the fit and its residuals, and γ± against √m by isotherm;
+of a calibration history: an individuals control chart per electrode.
 
 Each ``plot_*`` function draws on a given matplotlib ``Axes`` (or a new one) and returns it;
 :func:`render_figures` returns PNG bytes, so that nothing is written until every figure is made.
@@ -10,7 +11,7 @@ from __future__ import annotations
 
 import io
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -21,6 +22,7 @@ from ..activity.published import published_gamma
 from ..chemistry.electrolytes import nernst_factor
 from ..fit.engine import SLOPE
 from ..physics.water import debye_hueckel_constants
+from ..procedures.calibration import ElectrodeHistory
 from ..procedures.dilution import Reduction
 from ..procedures.temperature import StandardPotentialFit
 
@@ -488,3 +490,88 @@ def render_temperature_figures(fit: StandardPotentialFit, reductions: Sequence[R
         ax.figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
         rendered[name] = buffer.getvalue()
     return rendered
+
+
+# --------------------------------------------------------------------------------------------
+# Calibration of reference electrodes
+# --------------------------------------------------------------------------------------------
+
+def plot_control_chart(history: ElectrodeHistory, ax: Axes | None = None) -> Axes:
+    """The individuals control chart of one electrode's calibrations.
+
+    Parameters
+    ----------
+    history : ElectrodeHistory
+        From :func:`activolt.procedures.calibration.electrode_history`; its ``chart`` must be
+        set (four calibrations or more).
+    ax : matplotlib.axes.Axes, optional
+        Where to draw; a new figure by default.
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+
+    Notes
+    -----
+    The points are the calibrations in order (their dates below), the centre line and the
+    limits centre ± 3σ are the chart's (σ = MR̄/1.128; Western Electric 1956); points at which
+    a rule fires are circled in red and the rules named in the legend; the newest point is
+    drawn as a square.
+    """
+    chart = history.chart
+    if chart is None:
+        raise ValueError(f"electrode {history.electrode}: fewer than four calibrations, no "
+                         "control chart")
+    ax = _axes(ax)
+    values_mV = np.asarray(chart.values_V, float) * 1e3
+    position = np.arange(values_mV.size)
+    ax.plot(position, values_mV, "-o", ms=4, lw=0.8, color="tab:blue", label="calibration")
+    ax.plot(position[-1:], values_mV[-1:], "s", ms=7, mfc="none", color="tab:blue",
+            label="newest")
+    centre, low, high = (chart.centre_V * 1e3, chart.lower_limit_V * 1e3,
+                         chart.upper_limit_V * 1e3)
+    ax.axhline(centre, color="black", lw=1.0, label=f"centre {centre:.4f} mV")
+    for limit, text in ((high, "+3σ"), (low, "−3σ")):
+        ax.axhline(limit, color="tab:red", lw=1.0, ls="--")
+        ax.annotate(f"{text} {limit:.4f}", (1.0, limit), xycoords=("axes fraction", "data"),
+                    xytext=(-2, 2), textcoords="offset points", ha="right", fontsize="x-small",
+                    color="tab:red")
+    flagged = sorted({i for indices in chart.violations.values() for i in indices
+                      if 0 <= i < values_mV.size})
+    if flagged:
+        rules = ", ".join(name for name, indices in chart.violations.items() if indices)
+        ax.plot(position[flagged], values_mV[flagged], "o", ms=11, mfc="none",
+                mec="tab:red", mew=1.5, label=f"flagged ({rules})")
+    dates = list(history.dates)[-values_mV.size:]
+    if len(dates) == values_mV.size and values_mV.size <= 24:
+        ax.set_xticks(position, dates, rotation=45, ha="right", fontsize="x-small")
+    else:
+        ax.set_xlabel("calibration (in date order)")
+    ax.set_ylabel("E / mV")
+    name = history.electrode.replace("$", r"\$")  # names are text, never mathtext
+    ax.set_title(f"{name}" + (" — out of control" if chart.out_of_control else ""),
+                 fontsize="medium")
+    ax.legend(fontsize="x-small", loc="best")
+    return ax
+
+
+def render_control_charts(histories: Mapping[str, ElectrodeHistory], dpi: int = 110
+                          ) -> bytes | None:
+    """One PNG with an individuals chart (:func:`plot_control_chart`) for every electrode
+    whose history has a chart, two per row; None when none has one."""
+    charted = [h for h in histories.values() if h.chart is not None]
+    if not charted:
+        return None
+    from matplotlib.figure import Figure
+
+    columns = 1 if len(charted) == 1 else 2
+    rows = math.ceil(len(charted) / columns)
+    figure = Figure(figsize=(6.4 * columns, 3.6 * rows), layout="constrained")
+    axes = figure.subplots(rows, columns, squeeze=False).ravel()
+    for ax, history in zip(axes, charted, strict=False):
+        plot_control_chart(history, ax)
+    for ax in axes[len(charted):]:
+        ax.set_visible(False)
+    buffer = io.BytesIO()
+    figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": "activolt"})
+    return buffer.getvalue()
