@@ -402,7 +402,8 @@ def _t_factor(dof: float) -> float:
     """k for about 95 % at ν_eff, truncated to the next lower integer (GUM G.4.1 note 1)."""
     if not math.isfinite(dof) or dof > 1e6:
         return student_t_factor(0)
-    return student_t_factor(max(math.floor(dof), 1))
+    # a whole ν_eff computed as 7.999… stays 8
+    return student_t_factor(max(math.floor(dof * (1.0 + 1e-9)), 1))
 
 
 # ---------------------------------------------------------------------------------------------
