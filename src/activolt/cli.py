@@ -624,11 +624,12 @@ def _calibrate_command(args: argparse.Namespace, written: list[Path]) -> int:
              + f" about the {acceptance.get('reference')} ({acceptance.get('decision_rule')} "
              "rule)"]
     width = max(len(str(e["electrode"])) for e in record["electrodes"])
+    symbol = "E°" if record.get("method") == "hydrogen" else "E"
     for e in record["electrodes"]:
         value, expanded = format_potential(e["standard_potential_V"]["value"],
                                            e["expanded_uncertainty_V"])
         deviation = e.get("deviation_V")
-        lines.append(f"  {e['electrode']!s:<{width}}  E = {value} ± {expanded} mV "
+        lines.append(f"  {e['electrode']!s:<{width}}  {symbol} = {value} ± {expanded} mV "
                      f"(k = {e['coverage_factor']:.2f})  deviation "
                      + ("—" if deviation is None else f"{deviation * 1e3:+.4f} mV")
                      + f"  {e['verdict']}")

@@ -628,7 +628,8 @@ def _calibration_conditions(run: Any) -> dict[str, Any]:
     """Temperature (mean of the readings) and barometric pressure (mean, else the metadata's)
     of a batch, with u(T)."""
     if run is None:
-        return {"temperature_C": None, "u_temperature_K": None, "pressure_kPa": None}
+        return {"temperature_C": None, "u_temperature_K": None, "pressure_kPa": None,
+                "standard_pressure_kPa": None}
     points = run.points
     usable = points[points["flag"].isna()] if "flag" in points else points
     t = usable["temperature_K"].dropna() if "temperature_K" in usable else []
@@ -639,7 +640,8 @@ def _calibration_conditions(run: Any) -> dict[str, Any]:
              else meta.barometric_pressure_Pa / 1e3)
     return {"temperature_C": float(t.mean()) - 273.15 if len(t) else None,
             "u_temperature_K": meta.u_temperature_K or None,
-            "pressure_kPa": p_kPa}
+            "pressure_kPa": p_kPa,
+            "standard_pressure_kPa": meta.standard_pressure_Pa / 1e3}
 
 
 def _traceability(section: Mapping[str, Any], run: Any) -> list[str]:

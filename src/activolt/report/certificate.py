@@ -148,6 +148,7 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
         The HTML text (UTF-8): no script, no network reference.
     """
     ident = certificate_id(record_sha256)
+    quantity = "E°" if record.get("method") == "hydrogen" else "Potential"
     info = record.get("run_info") or {}
     acceptance = record.get("acceptance") or {}
     conditions = record.get("conditions") or {}
@@ -191,7 +192,8 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
         f"reference ({text(reference) if reference else NOT_STATED}"
         + (f", {_number(reference_value, 'mV', 1e3, 4)}" if reference_value is not None
            else "") + ")"
-        + ("" if not n_fail else f"; {n_fail} do not (marked <span class=\"fail\">fail</span>)")
+        + ("" if not n_fail else f"; {n_fail} {'does' if n_fail == 1 else 'do'} not (marked "
+           "<span class=\"fail\">fail</span>)")
         + ".")
     statistics = record.get("batch_statistics") or {}
     stat_rows = "".join(
@@ -218,7 +220,7 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
     ("Items calibrated", f"{len(electrodes)} reference electrodes: "
                          + ", ".join(text(e.get('electrode', '')) for e in electrodes)),
     ("Batch", _info(record, "description")),
-    ("Batch data file", f"{text(source.get('file', NOT_STATED))} (SHA-256 "
+    ("Batch data file", f"{text(_file_name(source.get('file', NOT_STATED)))} (SHA-256 "
                         f"{text(source.get('sha256', ''))})"),
 ])}
 </section>
@@ -242,13 +244,15 @@ def certificate_html(record: Mapping[str, Any], record_sha256: str,
      + (f" (u = {float(conditions['u_temperature_K']):.3f} K)"
         if conditions.get("u_temperature_K") else "")),
     ("Barometric pressure", _number(conditions.get("pressure_kPa"), "kPa", 1.0, 2)),
+    ("Standard pressure of E°", _number(conditions.get("standard_pressure_kPa"), "kPa", 1.0,
+                                        3)),
 ])}
 </section>
 <section id="results"><h2>5. Results</h2>
 <p>Potential of each electrode with its expanded uncertainty U = k·u, where k is the coverage
 factor for a coverage probability of about 95 % (Student's t at the effective degrees of
 freedom, JCGM 100:2008, G.4); deviation from the reference of the acceptance.</p>
-<table id="results-table"><thead><tr><th>Electrode</th><th>Potential / mV</th>
+<table id="results-table"><thead><tr><th>Electrode</th><th>{quantity} / mV</th>
 <th>U / mV</th><th>k</th><th>Deviation / mV</th><th>Verdict</th></tr></thead>
 <tbody>
 {chr(10).join(rows)}
@@ -305,6 +309,11 @@ def _statistic(key: str, value: Any) -> tuple[str, str]:
     if isinstance(value, float):
         return key.replace("_", " "), f"{value:.6g}"
     return key.replace("_", " "), "—" if value is None else str(value)
+
+
+def _file_name(path: str) -> str:
+    """The last part of a path written with ``/`` or ``\\``."""
+    return path.replace("\\", "/").rsplit("/", 1)[-1]
 
 
 def _css(value: str) -> str:
