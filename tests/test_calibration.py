@@ -4,6 +4,7 @@ dilution route, the master route, the GUM budget, acceptance, history and contro
 from __future__ import annotations
 
 import datetime as dt
+import json
 import math
 from pathlib import Path
 
@@ -295,3 +296,34 @@ def test_missing_electrode_column_and_tolerance_are_refused(tmp_path: Path) -> N
                   'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25.0\n', stem="nt")
     with pytest.raises(InputError, match="acceptance_tolerance_mV"):
         calibrate(path)
+
+
+@pytest.mark.literature
+def test_catalogue_reference_is_the_catalogue_e0(tmp_path: Path) -> None:
+    # Ag|AgCl 0.22234 V on 1 atm (Bates & Bower 1954) is 0.22217 V on 1 bar: the shift
+    # (RT/2F) ln 1.01325 = 0.169 mV at 25 °C (derived; ../shared reference values)
+    emf = 0.22217 - CONVENTIONAL_TERM_V
+    meta = (f'cell = "{CELL}"\ntemperature_C = 25.0\nacceptance_tolerance_mV = 0.05\n'
+            'acceptance_reference = "catalogue"\n')
+    rows = [f"A,0.01,{emf + d!r}" for d in (-2e-6, 2e-6)]
+    batch = calibrate(_write(tmp_path, rows, meta))
+    assert batch.acceptance["reference_value_V"] == pytest.approx(0.22217, abs=2e-5)
+    assert abs(batch.electrodes[0].deviation_V) < 2e-5
+
+
+def test_records_round_trip_through_a_folder_of_json(tmp_path: Path) -> None:
+    path, _ = _eight(tmp_path, _hydrogen_meta('date = "2026-11-18"\n'))
+    batch = calibrate(path)
+    folder = tmp_path / "records"
+    folder.mkdir()
+    record = {"calibration": batch.to_dict()}  # a record holding the calibration under a key
+    (folder / "2026-11-18.json").write_text(json.dumps(record), encoding="utf-8")
+    earlier = batch.to_dict() | {"date": "2026-10-18"}
+    (folder / "2026-10-18.json").write_text(json.dumps(earlier), encoding="utf-8")
+    history = electrode_history(folder)
+    assert list(history) == [f"E{j}" for j in range(1, 9)]
+    assert history["E7"].dates == ("2026-10-18", "2026-11-18")
+    assert history["E7"].drift_V_per_month is None and history["E7"].chart is None
+    json.dumps(history["E7"].to_dict())
+    with pytest.raises(InputError, match="ISO 8601"):
+        electrode_history([batch.to_dict() | {"date": "18/11/2026"}])

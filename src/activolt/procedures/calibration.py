@@ -651,7 +651,8 @@ def _acceptance(run: Run, calibration: Mapping[str, Any], values: np.ndarray,
                              '= "nominal" instead', file=path, column="acceptance_reference")
         from ..chemistry.cells import cell_summary
 
-        standard = cell_summary(cell, temperature_K).get("standard_potential_V")
+        standard = cell_summary(cell, temperature_K, run.metadata.standard_pressure_Pa).get(
+            "standard_potential_V")
         if standard is None:
             raise InputError(f"the catalogue has no E° for '{cell}'", file=path,
                              column="acceptance_reference")
