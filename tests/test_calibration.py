@@ -320,10 +320,15 @@ def test_records_round_trip_through_a_folder_of_json(tmp_path: Path) -> None:
     (folder / "2026-11-18.json").write_text(json.dumps(record), encoding="utf-8")
     earlier = batch.to_dict() | {"date": "2026-10-18"}
     (folder / "2026-10-18.json").write_text(json.dumps(earlier), encoding="utf-8")
+    (folder / "reduction.json").write_text(json.dumps({"record_kind": "reduction"}),
+                                           encoding="utf-8")
     history = electrode_history(folder)
     assert list(history) == [f"E{j}" for j in range(1, 9)]
     assert history["E7"].dates == ("2026-10-18", "2026-11-18")
     assert history["E7"].drift_V_per_month is None and history["E7"].chart is None
     json.dumps(history["E7"].to_dict())
+    undated = {"created_utc": "2026-12-01T09:00:00Z", "calibration": batch.to_dict() | {
+        "date": None}}
+    assert electrode_history([undated])["E1"].dates == ("2026-12-01",)
     with pytest.raises(InputError, match="ISO 8601"):
         electrode_history([batch.to_dict() | {"date": "18/11/2026"}])

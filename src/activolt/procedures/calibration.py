@@ -836,9 +836,12 @@ def _load_records(records: Any) -> list[tuple[str, Mapping[str, Any]]]:
             except (OSError, ValueError) as error:
                 raise InputError(f"cannot read the calibration record ({error})",
                                  file=where) from None
+        if isinstance(item, Mapping) and item.get("record_kind", "calibration") != (
+                "calibration"):
+            continue  # a record of another kind (a reduction) in the same folder
         if isinstance(item, Mapping) and "electrodes" not in item and isinstance(
                 item.get("calibration"), Mapping):
-            item = item["calibration"]
+            item = {"created_utc": item.get("created_utc"), **item["calibration"]}
         if not isinstance(item, Mapping) or not isinstance(item.get("electrodes"), list):
             raise InputError("not a calibration record (no 'electrodes' list)", file=where)
         out.append((where, item))
@@ -903,9 +906,11 @@ def electrode_history(records: Any, current: CalibrationBatch | None = None
     records : folder, or sequence of paths, dicts or CalibrationBatch
         Earlier calibrations: a folder of JSON records, or records in the
         :meth:`CalibrationBatch.to_dict` form (a record holding that form under the key
-        ``calibration`` is read too). Every record needs its ``date`` (ISO 8601).
+        ``calibration`` is read too; records of another ``record_kind`` are skipped). A
+        record's date is its ``date`` (ISO 8601), else the day of its ``created_utc``.
     current : CalibrationBatch, optional
-        Today's calibration, taken as the newest point.
+        Today's calibration, taken as the newest point (dated today when its metadata gives
+        no date).
 
     Returns
     -------
@@ -924,10 +929,14 @@ def electrode_history(records: Any, current: CalibrationBatch | None = None
     """
     loaded = _load_records(records)
     if current is not None:
-        loaded.append(("current calibration", current.to_dict()))
+        today = current.to_dict()
+        if not today.get("date"):
+            today["date"] = dt.datetime.now(dt.UTC).date().isoformat()
+        loaded.append(("current calibration", today))
     series: dict[str, list[tuple[dt.datetime, str, float, float]]] = {}
     for where, record in loaded:
-        when = _date(record.get("date"), where)
+        date = record.get("date") or str(record.get("created_utc") or "")[:10] or None
+        when = _date(date, where)
         for entry in record["electrodes"]:
             potential = entry.get("standard_potential_V") or {}
             try:
@@ -938,7 +947,7 @@ def electrode_history(records: Any, current: CalibrationBatch | None = None
                 raise InputError("an electrode entry lacks 'electrode' or "
                                  "'standard_potential_V': {value, uncertainty}",
                                  file=where) from None
-            series.setdefault(name, []).append((when, str(record.get("date")), value, u))
+            series.setdefault(name, []).append((when, str(date), value, u))
     return {name: _history(name, sorted(points, key=lambda p: p[0]))
             for name, points in series.items()}
 
