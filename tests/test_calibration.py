@@ -205,6 +205,13 @@ def test_master_route_adds_the_difference_and_the_certificate(tmp_path: Path) ->
     assert batch.method == "master"
     assert batch.electrode("M1").standard_potential_V == pytest.approx(0.22230 + 1.1e-4,
                                                                        abs=1e-12)
+    # differences of a few tenths of a millivolt may be written in mV for the master route
+    rows_mV = ["M1,3.0,0.1", "M1,3.0,0.12", "M2,3.0,-0.03", "M2,3.0,-0.01"]
+    in_mV = calibrate(_write(tmp_path, rows_mV, meta, header="electrode,molality_mol_kg,emf_mV",
+                             stem="mv"))
+    for name in ("M1", "M2"):
+        assert in_mV.electrode(name).standard_potential_V == pytest.approx(
+            batch.electrode(name).standard_potential_V, abs=1e-12)
     certificate = next(line for line in batch.electrode("M2").budget
                        if line.component == "master certificate")
     assert certificate.u_V == pytest.approx(2e-5)

@@ -476,9 +476,8 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
     if emf_column == "emf_mV":
         usable = points["emf_V"].dropna()
         if len(usable) and (usable.abs() < 5e-3).all():
-            raise InputError("every reading is below 5 mV in magnitude; if the values are "
-                             "volts, name the column 'emf_V'", file=str(path),
-                             line=header_line, column="emf_mV")
+            # refused in _with_metadata unless the readings are differences to a master
+            points.attrs["small_emf_mV"] = str(path)
     if u_emf_column is not None:
         read = points["emf_V"].notna()
         stated = points["u_emf_V"].notna()
@@ -991,6 +990,10 @@ def _read_table_and_metadata(
 def _with_metadata(points: pd.DataFrame, warnings: list[str], metadata: RunMetadata
                    ) -> tuple[pd.DataFrame, list[str]]:
     """The readings in absolute volts, and what the metadata makes worth a warning."""
+    if points.attrs.get("small_emf_mV") and metadata.calibration.get("method") != "master":
+        raise InputError("every reading is below 5 mV in magnitude; if the values are "
+                         "volts, name the column 'emf_V'", file=points.attrs["small_emf_mV"],
+                         line=points.attrs.get("header_line"), column="emf_mV")
     if metadata.volt_unit != "absolute":
         factor = VOLT_UNITS[metadata.volt_unit]
         points["emf_V"] = points["emf_V"] * factor
