@@ -23,6 +23,7 @@ import io
 import json
 import math
 import re
+from importlib.resources import files
 from pathlib import Path
 
 import jsonschema
@@ -357,3 +358,30 @@ def test_help_names_the_exit_statuses(capsys):
     assert status == 0
     assert re.search(r"^\s*3\s+at least one electrode fails", out, re.MULTILINE)
     assert re.search(r"^\s*2\s+bad input", out, re.MULTILINE)
+
+
+def test_history_too_short_for_a_chart_says_so(tmp_path, capsys):
+    archive = tmp_path / "archive"
+    path, _ = write_batch(tmp_path, stem="first", shifts_V={}, date="2026-10-01")
+    assert run_calibrate([str(path), "--out", str(archive)], capsys)[0] == 0
+    path, _ = write_batch(tmp_path, stem="second", seed=8, shifts_V={}, date="2026-11-01")
+    status, stdout, _ = run_calibrate([str(path), "--out", str(archive), "--history",
+                                       str(archive)], capsys)
+    assert status == 0
+    assert "no control chart" in stdout
+    assert not (archive / "second.control_chart.png").exists()
+    record = load_record(archive / "second.record.json")
+    assert len(record["history"]["KB-AgCl-21"]["values_V"]) == 2
+
+
+def test_the_bundled_demo_batch_shows_a_failure(tmp_path, capsys):
+    """The demo batch is made with KB-AgCl-26 0.35 mV high (make_calibration_batch.py): it
+    must be the one electrode that fails (regression pin of the demo's design)."""
+    batch = Path(str(files("activolt") / "sample_data" / "kestrel_agcl_batch.csv"))
+    status, stdout, stderr = run_calibrate([str(batch), "--out", str(tmp_path / "demo")],
+                                           capsys)
+    assert status == 3, stderr
+    assert "7 pass, 1 fail: KB-AgCl-26" in stdout
+    page = (tmp_path / "demo" / "kestrel_agcl_batch.certificate.html").read_text(
+        encoding="utf-8")
+    assert "Kestrel Bay Electrochemistry Laboratory" in page

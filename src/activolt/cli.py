@@ -636,6 +636,8 @@ def _calibrate_command(args: argparse.Namespace, written: list[Path]) -> int:
     failed = [str(e["electrode"]) for e in record["electrodes"] if e["verdict"] != "pass"]
     lines.append(f"{len(record['electrodes']) - len(failed)} pass, {len(failed)} fail"
                  + (f": {', '.join(failed)}" if failed else ""))
+    if histories is not None and f"{name}.control_chart.png" not in contents:
+        lines.append("  history: no electrode has four calibrations yet; no control chart")
     for history in (histories or {}).values():
         if history.flagged:
             lines.append(f"  history: {history.electrode}: " + "; ".join(history.reasons))
