@@ -385,3 +385,32 @@ def test_the_bundled_demo_batch_shows_a_failure(tmp_path, capsys):
     page = (tmp_path / "demo" / "kestrel_agcl_batch.certificate.html").read_text(
         encoding="utf-8")
     assert "Kestrel Bay Electrochemistry Laboratory" in page
+
+
+def test_control_chart_draws_centre_limits_and_flags():
+    """The figure shows the chart the library computed: centre line, ±3σ limits, and the
+    points at which a rule fires circled."""
+    from activolt.procedures.calibration import electrode_history
+    from activolt.report.figures import plot_control_chart
+
+    values_mV = (222.150, 222.156, 222.148, 222.153, 222.151, 222.230)
+    records = [{"date": f"2026-0{i + 1}-01",
+                "electrodes": [{"electrode": "KB-AgCl-21",
+                                "standard_potential_V": {"value": v * 1e-3,
+                                                         "uncertainty": 5e-6}}]}
+               for i, v in enumerate(values_mV)]
+    history = electrode_history(records)["KB-AgCl-21"]
+    chart = history.chart
+    assert chart is not None and chart.out_of_control
+    ax = plot_control_chart(history)
+    horizontal = sorted({round(float(line.get_ydata()[0]), 9) for line in ax.get_lines()
+                         if len(set(np.atleast_1d(line.get_ydata()))) == 1
+                         and len(line.get_xdata()) == 2})
+    assert horizontal == sorted(round(x * 1e3, 9) for x in (
+        chart.lower_limit_V, chart.centre_V, chart.upper_limit_V))
+    flagged = next(line for line in ax.get_lines() if str(line.get_label()).startswith(
+        "flagged"))
+    indices = sorted({i for at in chart.violations.values() for i in at})
+    assert list(flagged.get_xdata()) == indices
+    assert 5 in indices
+    assert list(flagged.get_ydata()) == pytest.approx([values_mV[i] for i in indices])
