@@ -385,6 +385,9 @@ def test_the_bundled_demo_batch_shows_a_failure(tmp_path, capsys):
     page = (tmp_path / "demo" / "kestrel_agcl_batch.certificate.html").read_text(
         encoding="utf-8")
     assert "Kestrel Bay Electrochemistry Laboratory" in page
+    # customer and approver come from the metadata keys (ISO/IEC 17025:2017 7.8.2.1)
+    assert "pH standards group (internal)" in page and "M. Vasquez-Hale" in page
+    assert "not stated in the metadata" not in page
 
 
 def test_control_chart_draws_centre_limits_and_flags():

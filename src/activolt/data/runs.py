@@ -65,9 +65,11 @@ KNOWN_METADATA_KEYS: tuple[str, ...] = (
     "acceptance_tolerance_mV", "acceptance_reference", "nominal_potential_mV", "decision_rule",
     "voltmeter_u_mV",
     "lab", "operator", "instrument", "date", "description", "electrode", "notes",
+    "customer", "approved_by", "calibration_location", "item_description",
 )
 _TEXT_METADATA_KEYS = ("lab", "operator", "instrument", "date", "description", "electrode",
-                       "notes")
+                       "notes", "customer", "approved_by", "calibration_location",
+                       "item_description")
 _LIQUID_WATER_C = (0.0, 100.0)
 _LARGEST_MOLALITY_MOL_KG = MOLALITY_RANGE_MOL_KG[1]
 _LARGEST_EMF_V = 5.0

@@ -50,6 +50,8 @@ operator = "R. Okonkwo-Lind"
 instrument = "KB-DVM-2 electrometer, input impedance > 10^13 ohm"
 date = "2026-11-25"
 description = "Ag|AgCl reference electrodes, batch KB-AgCl-21..28, acceptance calibration"
+customer = "Kestrel Bay Electrochemistry Laboratory, pH standards group (internal)"
+approved_by = "M. Vasquez-Hale, quality manager"
 """
 
 
