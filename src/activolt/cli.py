@@ -186,12 +186,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     base = stem if series is None else f"{stem}.{series_file_name(series)}"
     out = out if out is not None else run_path.parent / f"{stem}_activolt"
     owned = [f"{base}.{kind}" for kind in OUTPUT_KINDS]
-    record_name, record_elsewhere = f"{base}.record.json", None
-    if json_path is not None:
-        if os.path.realpath(json_path.parent) == os.path.realpath(out):
-            record_name = json_path.name
-        else:
-            record_name, record_elsewhere = None, json_path
+    record_name, record_elsewhere = _record_place(base, out, json_path)
     inputs = [run.path, *([run.metadata_path] if run.metadata_path is not None else [])]
     check_outputs(out, [*owned, *([record_name] if record_name else [])],
                   [record_elsewhere] if record_elsewhere else [], inputs)
@@ -248,6 +243,16 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     return done
 
 
+
+
+def _record_place(base: str, out: Path, json_path: Path | None) -> tuple[str | None, Path | None]:
+    """(the record's name inside the output folder, or None; its path elsewhere, or None):
+    ``--json`` inside the folder renames the record there, anywhere else moves it out."""
+    if json_path is None:
+        return f"{base}.record.json", None
+    if os.path.realpath(json_path.parent) == os.path.realpath(out):
+        return json_path.name, None
+    return None, json_path
 
 
 def series_file_name(series: str) -> str:
@@ -506,12 +511,7 @@ def _study(paths: Sequence[Path], meta: Path | None, model: str, fixed: dict[str
     out = out if out is not None else default_out
     owned = list(dict.fromkeys(f"{base}.{kind}" for kind in (*STUDY_OUTPUT_KINDS,
                                                              *OUTPUT_KINDS)))
-    record_name, record_elsewhere = f"{base}.record.json", None
-    if json_path is not None:
-        if os.path.realpath(json_path.parent) == os.path.realpath(out):
-            record_name = json_path.name
-        else:
-            record_name, record_elsewhere = None, json_path
+    record_name, record_elsewhere = _record_place(base, out, json_path)
     runs: list[Run] = []
     for table in tables:
         runs += ([read_run(table, meta, overrides=overrides, series=series)]
