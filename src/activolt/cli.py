@@ -191,12 +191,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     check_outputs(out, [*owned, *([record_name] if record_name else [])],
                   [record_elsewhere] if record_elsewhere else [], inputs)
     exclusions = [Exclusion.parse(text) for text in exclude]
-    if trials is not None and not 10 <= trials <= 1_000_000:
-        raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
-                         file="command line", column="--monte-carlo")
-    if seed < 0:
-        raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
-                         column="--seed")
+    _check_monte_carlo_options(trials, seed)
     comparison = None
     if model == "all" or "," in model:
         from .activity import MODELS
@@ -243,6 +238,16 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     return done
 
 
+
+
+def _check_monte_carlo_options(trials: int | None, seed: int) -> None:
+    """--monte-carlo takes 10 to 10⁶ trials and --seed a whole number ≥ 0 (bad input else)."""
+    if trials is not None and not 10 <= trials <= 1_000_000:
+        raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
+                         file="command line", column="--monte-carlo")
+    if seed < 0:
+        raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
+                         column="--seed")
 
 
 def _record_place(base: str, out: Path, json_path: Path | None) -> tuple[str | None, Path | None]:
@@ -345,12 +350,7 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     if exclude:
         raise InputError("--exclude names a reading of one series; pick the series with --series",
                          file="command line", column="--exclude")
-    if trials is not None and not 10 <= trials <= 1_000_000:
-        raise InputError(f"--monte-carlo takes 10 to 1000000 trials, got {trials}",
-                         file="command line", column="--monte-carlo")
-    if seed < 0:
-        raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
-                         column="--seed")
+    _check_monte_carlo_options(trials, seed)
     out = out if out is not None else default_out
     if runs is None:
         runs = []
