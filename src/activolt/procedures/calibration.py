@@ -43,7 +43,7 @@ import pandas as pd
 
 from ..chemistry.electrolytes import nernst_factor
 from ..data.runs import Run, read_run
-from ..errors import InputError
+from ..errors import FitError, InputError
 from ..fit.least_squares import linear_least_squares
 from ..fit.problem import gas_correction
 from ..fit.uncertainty import student_t_factor
@@ -500,7 +500,11 @@ def _hydrogen_electrode(run: Run, name: str, rows: pd.DataFrame, model: str) -> 
     voltmeter = _voltmeter(meta.calibration)
     molalities = np.unique(rows["molality_mol_kg"].to_numpy(float))
     if len(molalities) > 1:
-        reduction = reduce_run(_rows_run(run, rows), model)
+        try:
+            reduction = reduce_run(_rows_run(run, rows), model)
+        except FitError as error:
+            raise FitError(f"electrode {name}: its dilution series cannot be reduced ({error})"
+                           ) from None
         stats = reduction.statistics
         budget = [UncertaintyComponent(
             "repeatability" if line.component == "readings" else line.component, line.u_V,
