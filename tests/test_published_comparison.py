@@ -4,7 +4,7 @@ of the combined standard uncertainty.
 Published values: the rows of ``reference/mean_activity_coefficients.csv`` named here by their
 tables (Robinson & Stokes 1959, Appendix 8.10, from memory; Hamer & Wu 1972 as printed in the CRC
 Handbook, confirmed in a secondary copy). u_c = √(u²(γ±) + (spread/2)² + (½ unit of the last
-printed digit)²) is the definition in :func:`activolt.report.comparison.compare_with_published`;
+printed digit)²) is the definition in :func:`activolt.procedures.published.compare_with_published`;
 the expected numbers below are derived from it and the printed values by hand.
 """
 
@@ -26,7 +26,8 @@ from activolt.chemistry.electrolytes import parse_electrolyte
 from activolt.data.runs import read_run
 from activolt.io.record import build_record, record_json, record_schema
 from activolt.procedures.dilution import reduce_run
-from activolt.report.comparison import compare_with_published, comparison_lines
+from activolt.procedures.published import compare_with_published
+from activolt.report.comparison import comparison_lines
 from activolt.report.text import format_report
 
 # HCl, 25 °C. Robinson & Stokes (1959), Appendix 8.10 (from memory) / Hamer & Wu (1972), CRC

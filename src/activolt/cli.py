@@ -178,6 +178,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     from .io.files import check_outputs, write_outputs
     from .io.record import points_csv, record_json
     from .procedures.dilution import reduce_run
+    from .procedures.properties import derive_results
     from .report.text import format_report
 
     run = read_run(run_path, meta, overrides=overrides, series=series)
@@ -217,11 +218,12 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
                             temperature_u_K=run.metadata.u_temperature_K)
     # the model comparison and the Monte Carlo inside the report, the safety cautions last
-    report = format_report(reduction, comparison=comparison, monte_carlo=monte)
+    derived = derive_results(reduction)  # once, for the report and the record alike
+    report = format_report(reduction, comparison=comparison, monte_carlo=monte, derived=derived)
     report = escape_controls(report if report.endswith("\n") else report + "\n", keep="\n")
     record_folder = (record_elsewhere or out / record_name).parent
     record = record_json(reduction, comparison=comparison, monte_carlo=monte,
-                         record_folder=record_folder)
+                         record_folder=record_folder, derived=derived)
     contents: dict[str, bytes | str] = {record_name: record} if record_name else {}
     contents[f"{base}.points.csv"] = points_csv(reduction)
     contents[f"{base}.report.txt"] = report

@@ -31,10 +31,9 @@ from ..procedures.model_choice import (
     ModelComparison,
 )
 from ..procedures.montecarlo import MonteCarloResult
-from ..procedures.properties import derived_properties
+from ..procedures.properties import DerivedResults, derive_results
 from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
-from ..report.comparison import compare_with_published
 from ..report.numbers import json_number
 from ..safe_text import neutralise_formula
 
@@ -94,7 +93,8 @@ def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
 def build_record(reduction: Reduction, created: datetime | None = None,
                  comparison: ModelComparison | None = None,
                  monte_carlo: MonteCarloResult | None = None,
-                 record_folder: Path | None = None) -> dict[str, Any]:
+                 record_folder: Path | None = None,
+                 derived: DerivedResults | None = None) -> dict[str, Any]:
     """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
 
     With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
@@ -112,7 +112,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         }
     points = _point_records(reduction)
     cross = reduction.linear_extrapolation
-    published = compare_with_published(reduction)
+    derived = derived or derive_results(reduction)
+    published = derived.published
     other = reduction.standard_potential_other_basis_V
     e0_record = {**_with_u(e0, covariance_note),
                  "coverage_factor_95": stats.coverage_factor,
@@ -126,7 +127,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             method=covariance_note + ", combined with the model-choice component "
                    "(spread of E° among adequate models, rectangular)")
         warnings += [w for w in comparison.warnings if w not in warnings]
-    properties = derived_properties(reduction)
+    properties = derived.properties
     return {
         "record_schema": RECORD_SCHEMA,
         "software": {"name": "activolt", "version": __version__},
@@ -252,14 +253,16 @@ def build_record(reduction: Reduction, created: datetime | None = None,
 def record_json(reduction: Reduction, created: datetime | None = None,
                 comparison: ModelComparison | None = None,
                 monte_carlo: MonteCarloResult | None = None,
-                record_folder: Path | None = None) -> str:
+                record_folder: Path | None = None,
+                derived: DerivedResults | None = None) -> str:
     """The record as JSON text (UTF-8, indented, NaN written as null).
 
     With ``record_folder`` (where the record is written), the input files are named relative
     to it.
     """
-    return json.dumps(build_record(reduction, created, comparison, monte_carlo, record_folder),
-                      ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+    return json.dumps(build_record(reduction, created, comparison, monte_carlo, record_folder,
+                                   derived), ensure_ascii=False, indent=2,
+                      allow_nan=False) + "\n"
 
 
 def load_record(source: str | Path) -> dict[str, Any]:

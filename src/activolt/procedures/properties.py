@@ -9,6 +9,7 @@ propagated to each quantity by numerical gradients (GUM, JCGM 100:2008, 5.2).
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -21,8 +22,9 @@ from ..data.runs import usable_points
 from ..fit.uncertainty import sensitivity_coefficients
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
+from .published import compare_with_published
 
-__all__ = ["derived_properties"]
+__all__ = ["DerivedResults", "derive_results", "derived_properties"]
 
 
 def _gradients(model: ActivityModel, electrolyte: Electrolyte, molality: np.ndarray,
@@ -146,3 +148,20 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
                      "their own uncertainty is not propagated here")
     frame.attrs["notes"] = notes
     return frame
+
+
+@dataclass(frozen=True)
+class DerivedResults:
+    """What follows from a reduction beyond its fit, computed once for every output: φ, a_w and
+    G^E/RT with u at each usable molality (:func:`derived_properties`), and γ± beside the
+    published tables (:func:`activolt.procedures.published.compare_with_published`, None
+    without a table)."""
+
+    properties: pd.DataFrame
+    published: pd.DataFrame | None
+
+
+def derive_results(reduction: Reduction) -> DerivedResults:
+    """The derived properties and the published comparison of a reduction, once."""
+    return DerivedResults(properties=derived_properties(reduction),
+                          published=compare_with_published(reduction))

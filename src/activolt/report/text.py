@@ -9,9 +9,10 @@ import pandas as pd
 from ..procedures.dilution import Reduction
 from ..procedures.model_choice import ModelComparison
 from ..procedures.montecarlo import MonteCarloResult
+from ..procedures.properties import DerivedResults, derive_results
 from ..safe_text import escape_controls
 from .cautions import cautions_for
-from .comparison import compare_with_published, comparison_lines
+from .comparison import comparison_lines
 from .model_table import format_model_comparison
 from .numbers import decimals_for, format_compact, format_with_uncertainty
 
@@ -28,7 +29,8 @@ def _e0_line(reduction: Reduction) -> str:
 
 
 def format_report(reduction: Reduction, comparison: ModelComparison | None = None,
-                  monte_carlo: MonteCarloResult | None = None) -> str:
+                  monte_carlo: MonteCarloResult | None = None,
+                  derived: DerivedResults | None = None) -> str:
     """The report: E° ± u, the model, the fit, γ± at each point, derived properties, budgets,
     corrections, notes and warnings; then the model comparison and the Monte Carlo when given;
     the safety cautions last.
@@ -39,6 +41,10 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
         The reduction reported (with ``comparison``, the recommended one).
     comparison : ModelComparison, optional
         From :func:`activolt.procedures.model_choice.compare_models`.
+    derived : DerivedResults, optional
+        The derived properties and published comparison
+        (:func:`activolt.procedures.properties.derive_results`), when the caller already has
+        them; worked out here otherwise.
     monte_carlo : MonteCarloResult, optional
         From :func:`activolt.procedures.montecarlo.monte_carlo`.
 
@@ -100,10 +106,10 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
             + f" ({difference * 1e3:+.3f} mV from the fit)"
         )
     lines += _points_lines(reduction.points)
-    lines += comparison_lines(compare_with_published(reduction))
-    from ..procedures.properties import derived_properties
+    derived = derived or derive_results(reduction)
+    lines += comparison_lines(derived.published)
 
-    properties = derived_properties(reduction)
+    properties = derived.properties
     # a_w is within 10⁻⁴ of 1 at the dilute end: 1 − a_w shows the digits that carry
     # information, as many as its uncertainty supports (u(1 − a_w) = u(a_w)).
     cells = [[f"{row['molality_mol_kg']:.6g}",
