@@ -175,7 +175,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
             trials: int | None = None, seed: int = 0,
             written: list[Path] | None = None) -> list[Path]:
     from .data.runs import Exclusion, exclude_points, read_run
-    from .io.files import check_outputs, write_outputs
+    from .io.files import check_outputs
     from .io.record import points_csv, record_json
     from .procedures.dilution import reduce_run
     from .procedures.properties import derive_results
@@ -232,12 +232,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
 
         for name, png in render_figures(reduction).items():
             contents[f"{base}.{name}.png"] = png
-    done = write_outputs({record_elsewhere: record} if record_elsewhere else None, folder=out,
-                         contents=contents, owned=owned, inputs=inputs)
-    if written is not None:
-        written.extend(done)
-    sys.stdout.write(report)
-    return done
+    return _write_set(out, contents, owned, inputs, record_elsewhere, record, report, written)
 
 
 
@@ -250,6 +245,21 @@ def _check_monte_carlo_options(trials: int | None, seed: int) -> None:
     if seed < 0:
         raise InputError(f"--seed takes a whole number ≥ 0, got {seed}", file="command line",
                          column="--seed")
+
+
+def _write_set(out: Path, contents: dict, owned: list[str], inputs: list[Path],
+               record_elsewhere: Path | None, record: str, report: str,
+               written: list[Path] | None) -> list[Path]:
+    """Write one output set as a whole (the record outside it when ``--json`` says so), note
+    what was written, and print the report."""
+    from .io.files import write_outputs
+
+    done = write_outputs({record_elsewhere: record} if record_elsewhere else None, folder=out,
+                         contents=contents, owned=owned, inputs=inputs)
+    if written is not None:
+        written.extend(done)
+    sys.stdout.write(report)
+    return done
 
 
 def _record_place(base: str, out: Path, json_path: Path | None) -> tuple[str | None, Path | None]:
@@ -491,7 +501,7 @@ def _study(paths: Sequence[Path], meta: Path | None, model: str, fixed: dict[str
     section, the report, every reading with its isotherm, γ± against T, the figures)."""
     from .constants import ZERO_CELSIUS_K
     from .data.runs import Exclusion, exclude_points, read_run, read_runs
-    from .io.files import check_outputs, write_outputs
+    from .io.files import check_outputs
     from .io.record import study_gamma_csv, study_points_csv, study_record_json
     from .procedures.temperature import study_temperatures
     from .report.temperature import format_temperature_report
@@ -545,11 +555,7 @@ def _study(paths: Sequence[Path], meta: Path | None, model: str, fixed: dict[str
                 study.standard_potential_fit,
                 [iso.reduction for iso in study.isotherms]).items():
             contents[f"{base}.{kind}.png"] = png
-    done = write_outputs({record_elsewhere: record} if record_elsewhere else None, folder=out,
-                         contents=contents, owned=owned, inputs=inputs)
-    if written is not None:
-        written.extend(done)
-    sys.stdout.write(report)
+    _write_set(out, contents, owned, inputs, record_elsewhere, record, report, written)
     return 0
 
 
