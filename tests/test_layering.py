@@ -24,7 +24,7 @@ LAYERS = (
     ("activolt.procedures",),
     ("activolt.report",),
     ("activolt.io",),
-    ("activolt.cli", "activolt.sample_data"),
+    ("activolt.cli", "activolt.commands", "activolt.sample_data"),
 )
 
 

@@ -14,6 +14,7 @@ import signal
 import sys
 import threading
 from collections.abc import Sequence
+from importlib import import_module
 from importlib.resources import files
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
@@ -76,6 +77,12 @@ def _slope_value(text: str) -> str | float:
         return float(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"'{text}' is neither 'fit' nor a number") from None
+
+
+def _command_modules() -> list[Any]:
+    """The subcommands kept in modules of their own (``activolt.commands``)."""
+    from .commands import COMMANDS
+    return [import_module(f"activolt.commands.{name}") for name in COMMANDS]
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -162,6 +169,9 @@ def _parser() -> argparse.ArgumentParser:
     calibrate.add_argument("--history", type=Path, metavar="FOLDER",
                            help="folder of earlier calibration records (*.record.json): each "
                                 "electrode's drift and control chart")
+
+    for module in _command_modules():
+        module.add_parser(commands)
 
     demo = commands.add_parser("demo", help="reduce the bundled sample run")
     demo.add_argument("--out", type=Path, default=Path("demo_output"),
@@ -783,6 +793,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         elif args.command == "cell":
             written = _cell(args.diagram, args.temperature_C, args.json,
                             args.standard_pressure_kPa)
+        elif args.command != "reduce":
+            module = next(m for m in _command_modules() if m.NAME == args.command)
+            status = module.run(args, written)
         else:
             status = _reduce_command(args, written)
         if len(written) > 20:  # a batch: the folder and the count, not every file
