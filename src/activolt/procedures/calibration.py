@@ -49,6 +49,12 @@ from ..fit.problem import gas_correction
 from ..fit.uncertainty import student_t_factor
 from ..physics.water import debye_hueckel_constants
 from .dilution import reduce_run
+from .display import (
+    decimal_places,
+    html_table,
+    rounded_uncertainty,
+    value_with_uncertainty,
+)
 
 __all__ = ["CONVENTIONAL_GAMMA_HCL", "CONVENTIONAL_MOLALITY_MOL_KG", "CalibrationBatch",
            "ControlChart", "ElectrodeCalibration", "ElectrodeHistory", "UncertaintyComponent",
@@ -216,6 +222,40 @@ class CalibrationBatch:
             if calibration.electrode == name:
                 return calibration
         raise KeyError(name)
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per electrode, in order of the table (the readings as read are
+        ``run.points``): ``electrode``, ``standard_potential_V``, ``u_standard_potential_V``
+        (k = 1), ``effective_dof``, ``coverage_factor``, ``expanded_uncertainty_V``,
+        ``deviation_V``, ``verdict``, ``n_readings``, ``temperature_K``, ``route``,
+        ``outlier``, ``notes`` (joined by ``"; "``)."""
+        return pd.DataFrame(
+            [{"electrode": e.electrode, "standard_potential_V": e.standard_potential_V,
+              "u_standard_potential_V": e.standard_uncertainty_V,
+              "effective_dof": e.effective_dof, "coverage_factor": e.coverage_factor,
+              "expanded_uncertainty_V": e.expanded_uncertainty_V,
+              "deviation_V": e.deviation_V, "verdict": e.verdict,
+              "n_readings": e.n_readings, "temperature_K": e.temperature_K,
+              "route": e.route, "outlier": e.outlier, "notes": "; ".join(e.notes)}
+             for e in self.electrodes])
+
+    def _repr_html_(self) -> str:
+        """The headline table for a notebook: per electrode E° ± u (k = 1), U with k, the
+        deviation from the acceptance reference and the verdict; the rule and the warnings."""
+        rows = [(e.electrode, value_with_uncertainty(e.standard_potential_V,
+                                                     e.standard_uncertainty_V, 1e3),
+                 f"{rounded_uncertainty(e.expanded_uncertainty_V, 1e3)} "
+                 f"(k = {e.coverage_factor:.3g})",
+                 f"{e.deviation_V * 1e3:+.{decimal_places(e.expanded_uncertainty_V * 1e3)}f}",
+                 e.n_readings, e.verdict + (", outlier" if e.outlier else ""))
+                for e in self.electrodes]
+        passed = sum(e.verdict == "pass" for e in self.electrodes)
+        caption = (f"Calibration ({self.method} route), {passed} of {len(self.electrodes)} "
+                   "electrodes pass")
+        return html_table(caption, ("electrode", "E° / mV (k = 1)", "U / mV", "deviation / mV",
+                                    "readings", "verdict"), rows,
+                          warnings=self.warnings,
+                          notes=(str(self.acceptance.get("rule", "")), self.convention))
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready data: ``method``, ``date``, ``temperature_K``, ``convention``,

@@ -36,6 +36,7 @@ from ..activity import ActivityModel, Parameter, get_model
 from ..activity.hueckel import extended_debye_hueckel
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
+from ..constants import ZERO_CELSIUS_K
 from ..errors import FitError, InputError
 from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
 from ..fit.least_squares import linear_least_squares
@@ -62,6 +63,7 @@ from ..physics.water import debye_hueckel_constants
 
 __all__ = [
     "SHARED_INPUTS",
+from .display import html_table, rounded_uncertainty, value_with_uncertainty
     "UNCORRECTED_SPREAD",
     "FitStatistics",
     "FittedParameter",
@@ -315,6 +317,34 @@ class Reduction:
     def __repr__(self) -> str:
         e0 = self.standard_potential
         return (f"<Reduction {self.electrolyte.formula}, {self.model.name}, "
+    def _repr_html_(self) -> str:
+        """The headline table for a notebook: E° ± u, the 95 % interval, the model and its
+        parameters, χ²/ν, the readings used, how the covariance was obtained, the warnings."""
+        e0 = self.standard_potential
+        stats = self.statistics
+        meta = self.run.metadata
+        u = e0.std_dev
+        rows: list[tuple[str, str]] = [
+            ("cell" if meta.cell else "electrolyte", meta.cell or self.electrolyte.formula),
+            ("temperature / °C", f"{self.temperature_K - ZERO_CELSIUS_K:.2f}"),
+            ("model", self.model.title),
+            (f"E° / mV (k = 1), p° = {meta.standard_pressure_Pa / 1e3:g} kPa",
+             value_with_uncertainty(e0.nominal_value, u, scale=1e3)),
+            (f"95 % interval / mV (k = {stats.coverage_factor:.3g})",
+             "± " + rounded_uncertainty(stats.coverage_factor * u, scale=1e3)),
+        ]
+        for p in self.parameters:
+            rows.append((f"{p.symbol} / {p.unit}" if p.unit and p.unit != "-" else p.symbol,
+                         value_with_uncertainty(p.value, p.uncertainty)
+                         + (f" — {p.reason}" if p.fixed and p.reason else "")))
+        rows += [
+            (f"χ²/ν (ν = {stats.dof})", f"{stats.reduced_chi2:.3g}"),
+            ("readings used", f"{stats.n_points} of {len(self.points)}"),
+            ("covariance", stats.covariance_note),
+        ]
+        return html_table(f"Reduction of {self.run.path.name}", ("quantity", "value"), rows,
+                          warnings=self.warnings)
+
                 f"{self.statistics.n_points} readings: E° = {e0.nominal_value:.6f} ± "
                 f"{e0.std_dev:.1g} V (k = 1), reduced χ² = {self.statistics.reduced_chi2:.3g}>")
 

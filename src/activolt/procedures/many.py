@@ -25,6 +25,7 @@ from ..data.runs import Run, runs_from_frame
 from ..errors import FitError, InputError
 from ..fit.problem import SLOPE
 from .dilution import OUT_OF_RANGE, Reduction, reduce_run
+from .display import html_table, value_with_uncertainty
 from .model_choice import ModelComparison, compare_models
 
 __all__ = ["SUMMARY_COLUMNS", "ManyReductions", "SeriesReduction", "reduce_many", "series_name"]
@@ -131,6 +132,41 @@ class ManyReductions:
         rows = [_summary_row(o, self.model) for o in self.outcomes]
         frame = pd.DataFrame(rows, columns=list(SUMMARY_COLUMNS))
         return frame.astype({"n_points": int})
+
+    def to_frame(self) -> pd.DataFrame:
+        """Every reading of every series reduced (flagged rows included), in order: each
+        reduction's points table (:meth:`Reduction.to_frame`) with ``file`` in front (the
+        points' own ``series`` column names the series). Series not reduced have no rows;
+        :attr:`summary` names them with their reason."""
+        frames = []
+        for outcome in self.outcomes:
+            if outcome.reduction is not None:
+                points = outcome.reduction.to_frame()
+                points.insert(0, "file", outcome.run.path.name)
+                frames.append(points)
+        if not frames:
+            return pd.DataFrame(columns=["file"])
+        return pd.concat(frames, ignore_index=True)
+
+    def _repr_html_(self) -> str:
+        """The headline table for a notebook: one row per series with n, the model, E° ± u
+        (k = 1), χ²/ν and its flags or the reason it was not reduced."""
+        rows = []
+        for outcome, row in zip(self.outcomes, self.summary.itertuples(index=False),
+                                strict=True):
+            reduction = outcome.reduction
+            if reduction is None:
+                rows.append((row.file, row.series, row.n_points, "—", "—", "—",
+                             f"refused: {outcome.failure}"))
+                continue
+            rows.append((row.file, row.series, row.n_points, row.model,
+                         value_with_uncertainty(row.standard_potential_V,
+                                                row.u_standard_potential_V, 1e3),
+                         f"{row.reduced_chi2:.3g}", row.flags))
+        reduced = len(self.reductions)
+        return html_table(f"{reduced} of {len(self)} series reduced (model: {self.model})",
+                          ("file", "series", "n", "model", "E° / mV (k = 1)", "χ²/ν", "flags"),
+                          rows)
 
 
 def _summary_row(outcome: SeriesReduction, model: str) -> dict[str, Any]:

@@ -69,6 +69,7 @@ from .dilution import (
     Reduction,
     reduce_run,
 )
+from .display import html_table, value_with_uncertainty
 from .model_choice import ModelComparison, compare_models
 
 __all__ = [
@@ -1177,6 +1178,53 @@ class TemperatureStudy:
     def reference(self) -> ThermodynamicValues:
         """The quantities at θ from the two-stage result."""
         return self.standard_potential_fit.reference
+
+    def to_frame(self) -> pd.DataFrame:
+        """Every reading of every isotherm (flagged rows included), coolest isotherm first:
+        each isotherm's points table (:meth:`Reduction.to_frame`, readings referred to the
+        setpoint) with ``isotherm`` (0, 1, …) and ``isotherm_temperature_K`` in front."""
+        frames = []
+        for index, iso in enumerate(self.isotherms):
+            points = iso.reduction.to_frame()
+            points.insert(0, "isotherm_temperature_K", iso.setpoint_K)
+            points.insert(0, "isotherm", index)
+            frames.append(points)
+        return pd.concat(frames, ignore_index=True)
+
+    def _repr_html_(self) -> str:
+        """The headline table for a notebook: the quantities at θ with u (k = 1), the form of
+        E°(T), χ²/ν, the isotherms (T, n, model, E° ± u), the warnings."""
+        fit = self.standard_potential_fit
+        ref = fit.reference
+        rows: list[tuple[str, str]] = [
+            ("cell" if self.cell else "electrolyte", self.cell or self.electrolyte),
+            ("θ / °C", f"{self.reference_temperature_K - ZERO_CELSIUS_K:.2f}"),
+            ("E°(T)", fit.form.equation),
+        ]
+        shown = (("standard_potential_V", "E° / mV", 1e3),
+                 ("delta_G_J_mol", "ΔG° / kJ mol⁻¹", 1e-3),
+                 ("delta_H_J_mol", "ΔH° / kJ mol⁻¹", 1e-3),
+                 ("delta_S_J_K_mol", "ΔS° / J K⁻¹ mol⁻¹", 1.0),
+                 ("delta_Cp_J_K_mol", "ΔCp° / J K⁻¹ mol⁻¹", 1.0), ("log10_K", "log₁₀ K", 1.0))
+        for name, label, scale in shown:
+            estimate = ref.estimate(name)
+            rows.append((f"{label} (k = 1)",
+                         value_with_uncertainty(estimate.value, estimate.uncertainty, scale)))
+        rows += [
+            (f"χ²/ν of E°(T) (ν = {fit.form.dof})",
+             f"{fit.form.chi2 / fit.form.dof:.3g}" if fit.form.dof > 0 else "—"),
+            ("p° / kPa, coverage factor k (95 %)",
+             f"{self.standard_pressure_Pa / 1e3:g}, {ref.coverage_factor:.3g}"),
+        ]
+        for iso in self.isotherms:
+            e0 = iso.standard_potential_V
+            stats = iso.reduction.statistics
+            rows.append((f"isotherm {iso.setpoint_K - ZERO_CELSIUS_K:.2f} °C",
+                         f"E° = {value_with_uncertainty(e0.value, e0.uncertainty, 1e3)} mV, "
+                         f"{iso.n_points} readings, {iso.model}, χ²/ν = "
+                         f"{stats.reduced_chi2:.3g}"))
+        return html_table(f"Temperature study, {self.electrolyte}", ("quantity", "value"), rows,
+                          warnings=self.warnings, notes=self.notes)
 
     def to_dict(self) -> dict[str, Any]:
         """The record section ``temperature_study``: plain data, units in the key names.
