@@ -35,8 +35,8 @@ from uncertainties.core import AffineScalarFunc
 from ..activity import ActivityModel, Parameter, get_model
 from ..activity.hueckel import extended_debye_hueckel
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
-from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..constants import ZERO_CELSIUS_K
+from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
 from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
 from ..fit.least_squares import linear_least_squares
@@ -60,10 +60,10 @@ from ..fit.uncertainty import (
     student_t_factor,
 )
 from ..physics.water import debye_hueckel_constants
+from .display import html_table, rounded_uncertainty, value_with_uncertainty
 
 __all__ = [
     "SHARED_INPUTS",
-from .display import html_table, rounded_uncertainty, value_with_uncertainty
     "UNCORRECTED_SPREAD",
     "FitStatistics",
     "FittedParameter",
@@ -314,9 +314,6 @@ class Reduction:
         """The points table (all rows, flagged ones included)."""
         return self.points.copy()
 
-    def __repr__(self) -> str:
-        e0 = self.standard_potential
-        return (f"<Reduction {self.electrolyte.formula}, {self.model.name}, "
     def _repr_html_(self) -> str:
         """The headline table for a notebook: E° ± u, the 95 % interval, the model and its
         parameters, χ²/ν, the readings used, how the covariance was obtained, the warnings."""
@@ -345,6 +342,9 @@ class Reduction:
         return html_table(f"Reduction of {self.run.path.name}", ("quantity", "value"), rows,
                           warnings=self.warnings)
 
+    def __repr__(self) -> str:
+        e0 = self.standard_potential
+        return (f"<Reduction {self.electrolyte.formula}, {self.model.name}, "
                 f"{self.statistics.n_points} readings: E° = {e0.nominal_value:.6f} ± "
                 f"{e0.std_dev:.1g} V (k = 1), reduced χ² = {self.statistics.reduced_chi2:.3g}>")
 
