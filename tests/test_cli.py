@@ -29,7 +29,7 @@ def test_demo_writes_everything(tmp_path, capsys):
     names = sorted(p.name for p in out.iterdir())
     assert names == sorted(f"kestrel_hcl_25C.{n}" for n in
                            ("record.json", "points.csv", "report.txt", "extrapolation.png",
-                            "residuals.png", "gamma.png"))
+                            "residuals.png", "gamma.png", "report.html"))
     assert (out / "kestrel_hcl_25C.extrapolation.png").read_bytes()[:4] == b"\x89PNG"
 
 
@@ -39,7 +39,7 @@ def test_reduce_defaults_next_to_the_run_and_leaves_input_alone(tmp_path, capsys
     assert main(["reduce", str(path), "--no-figures"]) == 0
     folder = tmp_path / "run_activolt"
     assert sorted(p.name for p in folder.iterdir()) == [
-        "run.points.csv", "run.record.json", "run.report.txt"]
+        "run.points.csv", "run.record.json", "run.report.html", "run.report.txt"]
     assert hashlib.sha256(path.read_bytes()).hexdigest() == before
     assert not list(tmp_path.rglob("*.tmp"))  # atomic writes leave no temporary files
 

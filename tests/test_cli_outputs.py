@@ -33,7 +33,7 @@ ROWS_V = (
     ("0.1000", "0.352362"),
 )
 TOML = 'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25.0\n'
-SET = ("record.json", "points.csv", "report.txt")
+SET = ("record.json", "points.csv", "report.txt", "report.html")
 FIGURES = ("extrapolation.png", "residuals.png", "gamma.png")
 ENV = {**os.environ, "MPLBACKEND": "Agg"}
 
@@ -125,7 +125,8 @@ def test_json_elsewhere_removes_the_old_record_from_the_folder(tmp_path, capsys)
     out = tmp_path / "run_activolt"
     assert main(["reduce", str(path), "--no-figures"]) == 0
     assert main(["reduce", str(path), "--no-figures", "--json", str(tmp_path / "r.json")]) == 0
-    assert sorted(p.name for p in out.iterdir()) == ["run.points.csv", "run.report.txt"]
+    assert sorted(p.name for p in out.iterdir()) == ["run.points.csv", "run.report.html",
+                                                     "run.report.txt"]
     assert json.loads((tmp_path / "r.json").read_text())["input"]["file"] == "run.csv"
 
 

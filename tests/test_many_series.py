@@ -35,7 +35,7 @@ E0_V = {"A": 0.2224, "B": 0.2226}
 U_EMF_V = 2e-5
 TOML = 'electrolyte = "HCl"\nelectrons = 1\ntemperature_C = 25.0\n'
 METADATA = {"electrolyte": "HCl", "electrons": 1, "temperature_C": 25.0}
-SET = ("record.json", "points.csv", "report.txt")
+SET = ("record.json", "points.csv", "report.txt", "report.html")
 FIGURES = ("extrapolation.png", "residuals.png", "gamma.png")
 
 
@@ -244,7 +244,7 @@ def test_a_folder(tmp_path, capsys):
     assert main(["reduce", str(folder), "--figures", "summary"]) == 1
     out = tmp_path / "runs_activolt"
     names = set(p.name for p in out.iterdir())
-    assert names == {"day1.record.json", "day1.points.csv", "day1.report.txt",
+    assert names == {"day1.record.json", "day1.points.csv", "day1.report.txt", "day1.report.html",
                      *(f"day2.{s}.{kind}" for s in "AB" for kind in SET),
                      "runs.summary.csv", "runs.summary.png"}
     summary = _summary(out / "runs.summary.csv")

@@ -107,7 +107,7 @@ def test_a_table_at_several_setpoints_is_a_study(study_run):
     names = sorted(p.name for p in out.iterdir())
     assert names == sorted(f"study.{kind}" for kind in (
         "record.json", "points.csv", "report.txt", "gamma_temperature.csv",
-        "standard_potential.png", "gamma.png"))
+        "standard_potential.png", "gamma.png", "report.html"))
 
 
 def test_the_record_validates_and_holds_the_study(study_run):

@@ -29,7 +29,7 @@ if TYPE_CHECKING:
 DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
 OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "extrapolation.png", "residuals.png",
-                "gamma.png")
+                "gamma.png", "report.html")
 #: The files of a calibration's output set, after ``NAME.``.
 CALIBRATION_OUTPUT_KINDS = ("record.json", "electrodes.csv", "points.csv", "certificate.html",
                             "control_chart.png")
@@ -41,7 +41,7 @@ CALIBRATE_EXIT_STATUS = """exit status:
   1  a fit that cannot be done (the reason on stderr; nothing written)"""
 #: The files of a temperature study's output set, after ``NAME.``.
 STUDY_OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "gamma_temperature.csv",
-                      "standard_potential.png", "gamma.png")
+                      "standard_potential.png", "gamma.png", "report.html")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -237,11 +237,15 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     contents: dict[str, bytes | str] = {record_name: record} if record_name else {}
     contents[f"{base}.points.csv"] = points_csv(reduction)
     contents[f"{base}.report.txt"] = report
+    drawn: dict[str, bytes] = {}
     if figures:
         from .report.figures import render_figures
 
-        for name, png in render_figures(reduction).items():
+        drawn = render_figures(reduction)
+        for name, png in drawn.items():
             contents[f"{base}.{name}.png"] = png
+    contents[f"{base}.report.html"] = _html_report(
+        record, drawn, record_name or (record_elsewhere.name if record_elsewhere else None))
     return _write_set(out, contents, owned, inputs, record_elsewhere, record, report, written)
 
 
@@ -270,6 +274,18 @@ def _write_set(out: Path, contents: dict, owned: list[str], inputs: list[Path],
         written.extend(done)
     sys.stdout.write(report)
     return done
+
+
+def _html_report(record: str | bytes, figures: dict[str, bytes], record_name: str | None
+                 ) -> str:
+    """``RUN.report.html`` from the record's JSON text as written and the set's figures."""
+    import hashlib
+    import json
+
+    from .report.html import report_html
+
+    data = record.encode("utf-8") if isinstance(record, str) else record
+    return report_html(json.loads(data), figures, record_name, hashlib.sha256(data).hexdigest())
 
 
 def _record_place(base: str, out: Path, json_path: Path | None) -> tuple[str | None, Path | None]:
@@ -425,11 +441,15 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
             contents[f"{base}.points.csv"] = points_csv(reduction)
             contents[f"{base}.report.txt"] = escape_controls(
                 report if report.endswith("\n") else report + "\n", keep="\n")
+            drawn: dict[str, bytes] = {}
             if figures == "all":
                 from .report.figures import render_figures
 
-                for kind, png in render_figures(reduction).items():
+                drawn = render_figures(reduction)
+                for kind, png in drawn.items():
                     contents[f"{base}.{kind}.png"] = png
+            contents[f"{base}.report.html"] = _html_report(
+                contents[f"{base}.record.json"], drawn, f"{base}.record.json")
             e0 = reduction.standard_potential
             lines.append(f"{label}: E° = {e0.nominal_value * 1e3:.4f} ± {e0.std_dev * 1e3:.4f} mV "
                          f"(k = 1, {reduction.model.name})")
@@ -558,13 +578,16 @@ def _study(paths: Sequence[Path], meta: Path | None, model: str, fixed: dict[str
     contents[f"{base}.points.csv"] = study_points_csv(study)
     contents[f"{base}.gamma_temperature.csv"] = study_gamma_csv(study)
     contents[f"{base}.report.txt"] = report
+    drawn: dict[str, bytes] = {}
     if figures:
         from .report.figures import render_temperature_figures
 
-        for kind, png in render_temperature_figures(
-                study.standard_potential_fit,
-                [iso.reduction for iso in study.isotherms]).items():
+        drawn = render_temperature_figures(study.standard_potential_fit,
+                                           [iso.reduction for iso in study.isotherms])
+        for kind, png in drawn.items():
             contents[f"{base}.{kind}.png"] = png
+    contents[f"{base}.report.html"] = _html_report(
+        record, drawn, record_name or (record_elsewhere.name if record_elsewhere else None))
     _write_set(out, contents, owned, inputs, record_elsewhere, record, report, written)
     return 0
 

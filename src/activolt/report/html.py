@@ -1,0 +1,579 @@
+"""The HTML report of a reduction or a temperature study: one self-contained page.
+
+``RUN.report.html`` sits beside ``RUN.report.txt``. It is written from the record
+(``activolt-record/1``, :mod:`activolt.io.record`) alone, so that every number it shows is the
+record's number: each number cell carries the record's unrounded value in ``data-value`` and
+shows it rounded by :mod:`activolt.report.numbers` (the uncertainty to two significant digits,
+the value to the same place; GUM, JCGM 100:2008, 7.2.6). The figures are the PNG images of the
+output set, embedded as ``data:`` URIs.
+
+The page fetches nothing (a Content-Security-Policy allows images from ``data:`` and the inline
+style sheet only), holds no script, prints on A4 (``@media print``), and writes every text that
+comes from the user or the record (metadata, file names, series, reasons, warnings) through
+:func:`activolt.report.certificate.text`: control and layout characters escaped, then
+``html.escape``.
+"""
+
+from __future__ import annotations
+
+import base64
+import math
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+from .certificate import text
+from .numbers import decimals_for, format_compact, format_with_uncertainty
+
+__all__ = ["FIGURE_CAPTIONS", "report_html"]
+
+#: Captions of the figures of an output set, by the name the set gives them.
+FIGURE_CAPTIONS = {
+    "extrapolation": "Extrapolation to infinite dilution: the extrapolation function against "
+                     "molality, the fitted curve and its band; E° is the intercept.",
+    "residuals": "Residuals of the fit against molality, with each reading's uncertainty.",
+    "gamma": "γ± from each reading with its uncertainty, beside the fitted model and the "
+             "published tables.",
+    "standard_potential": "E°(T): the isotherms' E° with their uncertainties, the fitted form "
+                          "and its band.",
+}
+
+#: No network, no script: images from data: URIs, the inline style sheet, nothing else.
+CONTENT_SECURITY_POLICY = ("default-src 'none'; img-src data:; style-src 'unsafe-inline'; "
+                           "base-uri 'none'; form-action 'none'")
+
+_STYLE = """
+:root { color-scheme: light; }
+body { font-family: "DejaVu Sans", Arial, Helvetica, sans-serif; font-size: 10.5pt;
+  color: #111; background: #fff; margin: 0 auto; max-width: 190mm; padding: 0 4mm 8mm 4mm;
+  line-height: 1.4; }
+header { border-bottom: 2px solid #111; margin-bottom: 4mm; }
+h1 { font-size: 16pt; margin: 3mm 0 1mm 0; }
+h2 { font-size: 12pt; margin: 6mm 0 2mm 0; border-bottom: 1px solid #888;
+  break-after: avoid; page-break-after: avoid; }
+h3 { font-size: 10.5pt; margin: 4mm 0 1mm 0; }
+table { border-collapse: collapse; margin: 1mm 0 3mm 0; }
+th, td { border: 1px solid #aaa; padding: 0.6mm 1.6mm; text-align: left; vertical-align: top; }
+th { background: #eee; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+tr.out td { color: #555; font-style: italic; }
+dl.fields { display: grid; grid-template-columns: max-content 1fr; gap: 0.6mm 4mm; margin: 0; }
+dl.fields dt { font-weight: bold; }
+dl.fields dd { margin: 0; overflow-wrap: anywhere; }
+p.result { font-size: 12.5pt; margin: 2mm 0; }
+figure { margin: 3mm 0; break-inside: avoid; page-break-inside: avoid; }
+figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
+figcaption { font-size: 9pt; color: #333; }
+section.safety { border: 2px solid #111; padding: 1mm 4mm; margin-top: 6mm; }
+.hash { font-family: "DejaVu Sans Mono", monospace; font-size: 8.5pt; overflow-wrap: anywhere; }
+footer { margin-top: 6mm; font-size: 8.5pt; color: #333; border-top: 1px solid #888; }
+@media print {
+  @page { size: A4; margin: 15mm 14mm 16mm 14mm; }
+  body { max-width: none; padding: 0; font-size: 9.5pt; }
+  th { background: none; }
+  table, figure, section.safety { break-inside: avoid; page-break-inside: avoid; }
+  table.long { break-inside: auto; page-break-inside: auto; }
+  tr { break-inside: avoid; page-break-inside: avoid; }
+  thead { display: table-header-group; }
+}
+"""
+
+_NOT_GIVEN = "—"
+
+
+def _number_value(value: Any) -> float | None:
+    """A finite float, or None."""
+    if value is None or isinstance(value, bool):
+        return None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        return None
+    return number if math.isfinite(number) else None
+
+
+def _data(value: Any) -> str:
+    """The record's value for a ``data-value`` attribute, as JSON writes it ("" for none)."""
+    number = _number_value(value)
+    return "" if number is None else repr(number)
+
+
+def _cell(shown: str, value: Any = None, quantity: str | None = None) -> str:
+    """A number cell: ``shown`` (escaped) and the record's value in ``data-value``."""
+    attributes = f' data-value="{_data(value)}"' if value is not None else ""
+    if quantity is not None:
+        attributes += f' data-quantity="{text(quantity)}"'
+    return f'<td class="num"{attributes}>{text(shown)}</td>'
+
+
+def _with_u(value: Any, uncertainty: Any, scale: float = 1.0, unit: str = "") -> str:
+    """``value ± u unit`` rounded by :func:`format_with_uncertainty`, or what is known."""
+    v, u = _number_value(value), _number_value(uncertainty)
+    if v is None:
+        return _NOT_GIVEN
+    if u is None:
+        return f"{v * scale:.6g}" + (f" {unit}" if unit else "") + " (u not stated)"
+    return format_with_uncertainty(v * scale, u * scale, unit)
+
+
+def _compact(value: Any, uncertainty: Any) -> str:
+    v, u = _number_value(value), _number_value(uncertainty)
+    if v is None:
+        return _NOT_GIVEN
+    if u is None:
+        return f"{v:.6g}"
+    return format_compact(v, u)
+
+
+def _kPa(value: Any) -> str:
+    """A pressure in kPa as the text report writes it (``100 kPa``, ``101.325 kPa``)."""
+    number = _number_value(value)
+    return _NOT_GIVEN if number is None else f"{number:g} kPa"
+
+
+def _fields(rows: Sequence[tuple[str, str]]) -> str:
+    """A definition list; labels are escaped here, values are HTML already."""
+    return '<dl class="fields">' + "".join(
+        f"<dt>{text(label)}</dt><dd>{value}</dd>" for label, value in rows) + "</dl>"
+
+
+def _table(header: Sequence[str], rows: Sequence[str], ident: str, long: bool = False) -> str:
+    """A table with an escaped header; ``rows`` are ``<tr>`` HTML already."""
+    head = "".join(f"<th>{text(h)}</th>" for h in header)
+    kind = ' class="long"' if long else ""
+    return (f'<table id="{ident}"{kind}><thead><tr>{head}</tr></thead><tbody>\n'
+            + "\n".join(rows) + "\n</tbody></table>")
+
+
+def _list(items: Sequence[Any], ident: str) -> str:
+    return f'<ul id="{ident}">' + "".join(f"<li>{text(i)}</li>" for i in items) + "</ul>"
+
+
+def _file_name(path: Any) -> str:
+    """The last part of a path written with ``/`` or ``\\``."""
+    return str(path).replace("\\", "/").rsplit("/", 1)[-1]
+
+
+def _identification(record: Mapping[str, Any], record_name: str | None,
+                    record_sha256: str | None) -> str:
+    info = record.get("run_info") or {}
+    rows: list[tuple[str, str]] = [(str(key).replace("_", " "), text(value))
+                                   for key, value in info.items() if value not in (None, "")]
+    inputs = record.get("inputs") or [record.get("input") or {}]
+    for source in inputs:
+        rows.append(("run table", f"{text(_file_name(source.get('file', '')))} "
+                                  f"<span class=\"hash\">SHA-256 {text(source.get('sha256', ''))}"
+                                  "</span>"))
+        if source.get("metadata_file"):
+            rows.append(("metadata", f"{text(_file_name(source['metadata_file']))} "
+                                     f"<span class=\"hash\">SHA-256 "
+                                     f"{text(source.get('metadata_sha256', ''))}</span>"))
+    if record_name or record_sha256:
+        rows.append(("record", (text(record_name) if record_name else "")
+                     + (f' <span class="hash">SHA-256 {text(record_sha256)}</span>'
+                        if record_sha256 else "")))
+    software = record.get("software") or {}
+    rows.append(("software", text(f"{software.get('name', 'activolt')} "
+                                  f"{software.get('version', '')}".strip())))
+    rows.append(("created (UTC)", text(record.get("created_utc", _NOT_GIVEN))))
+    return '<section id="identification"><h2>Run</h2>' + _fields(rows) + "</section>"
+
+
+def _conditions(record: Mapping[str, Any]) -> str:
+    t_K = _number_value(record.get("temperature_K"))
+    rows = []
+    if record.get("cell"):
+        rows.append(("cell", text(record["cell"])))
+    rows += [
+        ("electrolyte", text(record.get("electrolyte", _NOT_GIVEN))),
+        ("electrons n", text(record.get("electrons", _NOT_GIVEN))),
+        ("temperature", _NOT_GIVEN if t_K is None
+         else f'<span data-value="{_data(t_K)}" data-quantity="temperature_K">'
+              f"{t_K - 273.15:.2f} °C ({t_K:.2f} K)</span>"),
+        ("pressure basis p°", _kPa(record.get("standard_pressure_kPa"))),
+    ]
+    model = record.get("model") or {}
+    rows.append(("model", text(model.get("title") or model.get("name") or _NOT_GIVEN)))
+    return '<section id="conditions"><h2>Cell and conditions</h2>' + _fields(rows) + "</section>"
+
+
+def _results(record: Mapping[str, Any]) -> str:
+    e0 = record.get("standard_potential_V") or {}
+    value, u = e0.get("value"), e0.get("uncertainty")
+    expanded, k = e0.get("expanded_uncertainty_95"), e0.get("coverage_factor_95")
+    shown = _with_u(value, u, 1e3, "mV")
+    u_mV = _number_value(u)
+    expanded_V = _number_value(expanded)
+    places = None
+    if u_mV is not None and expanded_V is not None:
+        places = decimals_for(expanded_V * 1e3)
+    parts = [
+        f'<p class="result" id="standard-potential">E° = <span data-quantity="standard_potential_V"'
+        f' data-value="{_data(value)}" data-uncertainty="{_data(u)}">{text(shown)}</span> (k = 1)'
+        + (f"; 95 % interval ± <span data-quantity=\"expanded_uncertainty_95\" "
+           f"data-value=\"{_data(expanded)}\">{expanded_V * 1e3:.{places}f} mV</span> "
+           f"(k = {float(k):.2f})" if places is not None and k is not None else "")
+        + f"; basis p° = {_kPa(record.get('standard_pressure_kPa'))}</p>",
+    ]
+    rows = []
+    other = record.get("standard_potential_other_basis")
+    if other:
+        rows.append(("E° on the other basis", text(
+            f"{_with_u(other.get('value_V'), other.get('uncertainty_V'), 1e3, 'mV')} "
+            f"(p° = {other.get('standard_pressure_kPa')} kPa)")))
+    catalogue = record.get("catalogue_standard_potential_V")
+    if catalogue:
+        rows.append(("catalogue E°", text(
+            f"{_with_u(catalogue.get('value'), catalogue.get('uncertainty'), 1e3, 'mV')} "
+            f"({catalogue.get('couples', '')}; same T and basis)")))
+    if e0.get("u_model_choice") is not None:
+        rows.append(("u(E°) components", text(
+            f"fit {_with_u(0.0, e0.get('u_fit'), 1e3, 'mV').split('± ')[-1]}, model choice "
+            f"{_with_u(0.0, e0.get('u_model_choice'), 1e3, 'mV').split('± ')[-1]}")))
+    for key, label, unit in (("delta_g_kJ_mol", "ΔG°", "kJ/mol"), ("log10_K", "log₁₀ K", "")):
+        entry = record.get(key) or {}
+        if entry.get("value") is not None:
+            shown = _with_u(entry.get("value"), entry.get("uncertainty"), 1.0, unit)
+            rows.append((label, f'<span data-quantity="{key}" data-value='
+                                f'"{_data(entry.get("value"))}">{text(shown)}</span>'))
+    if e0.get("method"):
+        rows.append(("how u(E°) was obtained", text(e0["method"])))
+    parts.append(_fields(rows))
+    parameters = (record.get("model") or {}).get("parameters") or {}
+    if parameters:
+        prows = []
+        for name, p in parameters.items():
+            held = p.get("fixed")
+            prows.append(
+                f"<tr><td>{text(name)}</td>"
+                + _cell(_compact(p.get("value"), p.get("uncertainty")), p.get("value"),
+                        f"parameter:{name}")
+                + f"<td>{text(p.get('unit') or '')}</td>"
+                + f"<td>{'held' if held else 'fitted'}"
+                + (f" — {text(p['reason'])}" if held and p.get("reason") else "") + "</td></tr>")
+        parts.append("<h3>Model parameters</h3>"
+                     + _table(["parameter", "value ± u (k = 1)", "unit", ""], prows,
+                              "parameters"))
+    fit = record.get("fit") or {}
+    if fit:
+        chi2_unit = "" if fit.get("weighting") == "stated reading uncertainties" else " V²"
+        fit_rows = [("readings used", text(fit.get("n_points", _NOT_GIVEN))),
+                    ("degrees of freedom", text(fit.get("dof", _NOT_GIVEN)))]
+        for key, label, fmt, unit in (("chi2", "χ²", ".4g", chi2_unit),
+                                      ("reduced_chi2", "reduced χ²", ".3g", chi2_unit),
+                                      ("aic", "AIC", ".1f", ""), ("bic", "BIC", ".1f", "")):
+            number = _number_value(fit.get(key))
+            if number is not None:
+                fit_rows.append((label, f'<span data-quantity="fit:{key}" data-value='
+                                        f'"{_data(number)}">{number:{fmt}}{unit}</span>'))
+        fit_rows.append(("weighting", text(fit.get("weighting", _NOT_GIVEN))
+                         + (" (covariance scaled by the reduced χ²)"
+                            if fit.get("covariance_scaled") else "")))
+        parts.append("<h3>Fit</h3>" + _fields(fit_rows))
+    cross = record.get("cross_check")
+    if cross:
+        e0_cross = cross.get("standard_potential_V") or {}
+        parts.append(
+            "<h3>Cross-check</h3><p>" + text(
+                f"{cross.get('method', '')}: {cross.get('n_points')} points with I ≤ "
+                f"{cross.get('max_ionic_strength_mol_kg')} mol/kg, E° = "
+                + _with_u(e0_cross.get("value"), e0_cross.get("uncertainty"), 1e3, "mV"))
+            + "</p>")
+    return '<section id="results"><h2>Result</h2>' + "".join(parts) + "</section>"
+
+
+def _figures(figures: Mapping[str, bytes] | None) -> str:
+    if not figures:
+        return ('<section id="figures"><h2>Figures</h2><p>No figures were drawn for this '
+                "output set.</p></section>")
+    blocks = []
+    for name, png in figures.items():
+        caption = FIGURE_CAPTIONS.get(name, name.replace("_", " "))
+        data = base64.b64encode(png).decode("ascii")
+        blocks.append(f'<figure id="figure-{text(name)}"><img src="data:image/png;base64,{data}"'
+                      f' alt="{text(caption)}"><figcaption>{text(caption)}</figcaption></figure>')
+    return '<section id="figures"><h2>Figures</h2>' + "\n".join(blocks) + "</section>"
+
+
+def _points(record: Mapping[str, Any]) -> str:
+    points = list(record.get("points") or [])
+    if not points:
+        return ""
+    electrodes = any(p.get("electrode") for p in points)
+    isotherms = any(p.get("isotherm_temperature_K") is not None for p in points)
+    header = ["line", "m / (mol/kg)", *(["isotherm / °C"] if isotherms else []),
+              *(["electrode"] if electrodes else []), "E / mV", "residual / mV", "γ± ± u (k = 1)",
+              "remark"]
+    rows = []
+    for p in points:
+        used = p.get("used_in_fit", True)
+        emf = _number_value(p.get("emf_V"))
+        residual = _number_value(p.get("residual_V"))
+        cells = [f"<td>{text(p.get('line', ''))}</td>",
+                 _cell(f"{p['molality_mol_kg']:.6g}", p.get("molality_mol_kg"),
+                       "molality_mol_kg")]
+        if isotherms:
+            setpoint = _number_value(p.get("isotherm_temperature_K"))
+            cells.append(_cell(_NOT_GIVEN if setpoint is None else f"{setpoint - 273.15:.2f}",
+                               setpoint, "isotherm_temperature_K"))
+        if electrodes:
+            cells.append(f"<td>{text(p.get('electrode') or '')}</td>")
+        cells.append(_cell(_NOT_GIVEN if emf is None else f"{emf * 1e3:.3f}", emf, "emf_V"))
+        if used:
+            cells.append(_cell(_NOT_GIVEN if residual is None else f"{residual * 1e3:+.4f}",
+                               residual, "residual_V"))
+            cells.append(_cell(_with_u(p.get("gamma_pm"), p.get("u_gamma_pm")),
+                               p.get("gamma_pm"), "gamma_pm"))
+        else:
+            cells += ["<td></td>", "<td></td>"]
+        flag = p.get("flag")
+        remark = (f"out of the fit — {flag}" if not used and flag
+                  else f"stands out — {flag}" if flag else "")
+        cells.append(f"<td>{text(remark)}</td>")
+        rows.append(f'<tr{"" if used else " class=out"}>' + "".join(cells) + "</tr>")
+    return ('<section id="points"><h2>Readings and γ±</h2>'
+            + _table(header, rows, "points-table", long=True)
+            + (f"<p>{text(record['gamma_uncertainty_method'])}</p>"
+               if record.get("gamma_uncertainty_method") else "")
+            + "</section>")
+
+
+def _published(record: Mapping[str, Any]) -> str:
+    rows_in = list(record.get("published_comparison") or [])
+    if not rows_in:
+        return ""
+    sources: dict[str, str] = {}
+    rows = []
+    for r in rows_in:
+        marks = []
+        for entry in r.get("published_values") or []:
+            letter = sources.setdefault(str(entry.get("source")), chr(ord("a") + len(sources)))
+            value = _number_value(entry.get("gamma_pm"))
+            shown = _NOT_GIVEN if value is None else f"{value:.4f}"
+            marks.append(f"({shown}){letter}" if entry.get("interpolated") else
+                         f"{shown}{letter}")
+        mean = _number_value(r.get("gamma_pm_published"))
+        difference = _number_value(r.get("difference"))
+        ratio = _number_value(r.get("difference_over_u"))
+        rows.append(
+            "<tr>" + _cell(f"{r['molality_mol_kg']:.6g}", r.get("molality_mol_kg"))
+            + f"<td>{text(' '.join(marks))}</td>"
+            + _cell(_NOT_GIVEN if mean is None else f"{mean:.4f}"
+                    + ("i" if r.get("interpolated") else ""), mean, "gamma_pm_published")
+            + _cell(_NOT_GIVEN if difference is None else f"{difference:+.5f}", difference,
+                    "difference")
+            + _cell(_NOT_GIVEN if ratio is None else f"{ratio:+.1f}", ratio,
+                    "difference_over_u") + "</tr>")
+    legend = "".join(f"<li>{letter}: {text(source)}</li>" for source, letter in sources.items())
+    return ('<section id="published"><h2>γ± against published values</h2>'
+            + _table(["m / (mol/kg)", "published (interpolated in brackets)", "mean",
+                      "difference", "difference / u"], rows, "published-table")
+            + f"<ul>{legend}</ul>"
+            + (f"<p>{text(record['published_comparison_method'])}</p>"
+               if record.get("published_comparison_method") else "") + "</section>")
+
+
+def _derived(record: Mapping[str, Any]) -> str:
+    derived = record.get("derived_properties") or {}
+    points = list(derived.get("points") or [])
+    if not points:
+        return ""
+    rows = []
+    for p in points:
+        a_w = _number_value(p.get("water_activity"))
+        rows.append(
+            "<tr>" + _cell(f"{p['molality_mol_kg']:.6g}", p.get("molality_mol_kg"))
+            + _cell(_with_u(p.get("osmotic_coefficient"), p.get("u_osmotic_coefficient")),
+                    p.get("osmotic_coefficient"), "osmotic_coefficient")
+            + _cell(_NOT_GIVEN if a_w is None
+                    else _compact(1.0 - a_w, p.get("u_water_activity")), a_w, "water_activity")
+            + _cell(_compact(p.get("excess_gibbs_rt_mol_kg"), p.get("u_excess_gibbs_rt_mol_kg")),
+                    p.get("excess_gibbs_rt_mol_kg"), "excess_gibbs_rt_mol_kg") + "</tr>")
+    return ('<section id="derived"><h2>Derived from the fitted model (k = 1)</h2>'
+            + _table(["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"], rows,
+                     "derived-table")
+            + (f"<p>{text(derived['method'])}</p>" if derived.get("method") else "")
+            + "</section>")
+
+
+def _budget(record: Mapping[str, Any]) -> str:
+    budget = record.get("uncertainty_budget") or {}
+    lines = list(budget.get("lines") or [])
+    if not lines:
+        return ""
+    rows = [f"<tr><td>{text(b.get('component', ''))}</td>"
+            + _cell(f"{float(b['u_V']) * 1e3:.4f}", b.get("u_V"), "u_V")
+            + f"<td>{text(b.get('method', ''))}</td></tr>" for b in lines
+            if _number_value(b.get("u_V")) is not None]
+    combined = _number_value(budget.get("combined_u_V"))
+    if combined is not None:
+        rows.append("<tr><th>combined</th>" + _cell(f"{combined * 1e3:.4f}", combined,
+                                                    "combined_u_V") + "<td></td></tr>")
+    return ('<section id="budget"><h2>Uncertainty budget of E° (k = 1; each line alone)</h2>'
+            + _table(["component", "u / mV", "how it was obtained"], rows, "budget-table")
+            + "</section>")
+
+
+def _comparison(record: Mapping[str, Any]) -> str:
+    comparison = record.get("model_comparison")
+    if not comparison:
+        return ""
+    rows = []
+    for m in comparison.get("models") or []:
+        e0 = m.get("standard_potential_V") or {}
+        fit = m.get("fit") or {}
+        bic = _number_value(fit.get("bic"))
+        rows.append(f"<tr><td>{text(m.get('name', ''))}</td>"
+                    + _cell(_with_u(e0.get("value"), e0.get("uncertainty"), 1e3, "mV"),
+                            e0.get("value"), "standard_potential_V")
+                    + _cell(_NOT_GIVEN if bic is None else f"{bic:.1f}", bic, "bic")
+                    + f"<td>{text(m.get('verdict', ''))}</td></tr>")
+    rows += [f"<tr><td>{text(s.get('name', ''))}</td><td></td><td></td>"
+             f"<td>{text('not fitted — ' + str(s.get('reason', '')))}</td></tr>"
+             for s in comparison.get("skipped") or []]
+    return ('<section id="model-comparison"><h2>Model comparison</h2>'
+            + _table(["model", "E° ± u (k = 1)", "BIC", "verdict"], rows, "comparison-table")
+            + "<p>" + text(f"recommended: {comparison.get('recommended_model')} — "
+                           f"{comparison.get('recommendation_rule', '')}") + "</p></section>")
+
+
+def _monte_carlo(record: Mapping[str, Any]) -> str:
+    monte = record.get("monte_carlo")
+    if not monte:
+        return ""
+    e0 = monte.get("standard_potential_V") or {}
+    low, high = (e0.get("interval_95") or [None, None])[:2]
+    u = _number_value(e0.get("uncertainty"))
+    shown = _with_u(e0.get("mean"), u, 1e3, "mV")
+    interval = ""
+    if u is not None and low is not None and high is not None:
+        places = decimals_for(u * 1e3)
+        interval = f"; 95 % interval [{low * 1e3:.{places}f}, {high * 1e3:.{places}f}] mV"
+    return ('<section id="monte-carlo"><h2>Monte Carlo</h2><p>'
+            + text(f"{monte.get('method', '')}: {monte.get('trials')} trials "
+                   f"({monte.get('failed')} failed), seed {monte.get('seed')}; E° = {shown}"
+                   + interval) + "</p>" + _list(monte.get("notes") or [], "monte-carlo-notes")
+            + "</section>")
+
+
+_STUDY_QUANTITIES = (("standard_potential_V", "E°", 1e3, "mV"),
+                     ("delta_G_J_mol", "ΔG°", 1e-3, "kJ/mol"),
+                     ("delta_H_J_mol", "ΔH°", 1e-3, "kJ/mol"),
+                     ("delta_S_J_K_mol", "ΔS°", 1.0, "J/(K mol)"),
+                     ("delta_Cp_J_K_mol", "ΔCp°", 1.0, "J/(K mol)"),
+                     ("log10_K", "log₁₀ K", 1.0, ""))
+
+
+def _study(record: Mapping[str, Any]) -> str:
+    study = record.get("temperature_study")
+    if not study:
+        return ""
+    theta = _number_value(study.get("reference_temperature_K"))
+    rows = []
+    for key, label, scale, unit in _STUDY_QUANTITIES:
+        entry = study.get(key) or {}
+        if _number_value(entry.get("value")) is None:
+            continue
+        rows.append(f"<tr><td>{text(label)}</td>"
+                    + _cell(_with_u(entry.get("value"), entry.get("uncertainty"), scale, unit),
+                            entry.get("value"), key) + "</tr>")
+    isotherm_rows = []
+    for iso in study.get("isotherms") or []:
+        t = _number_value(iso.get("temperature_K"))
+        e0 = iso.get("standard_potential_V") or {}
+        isotherm_rows.append(
+            "<tr>" + _cell(_NOT_GIVEN if t is None else f"{t - 273.15:.2f}", t, "temperature_K")
+            + f"<td>{text(iso.get('n_points', ''))}</td><td>{text(iso.get('model', ''))}</td>"
+            + _cell(_with_u(e0.get("value"), e0.get("uncertainty"), 1e3, "mV"), e0.get("value"),
+                    "standard_potential_V") + "</tr>")
+    coefficients = study.get("coefficients") or {}
+    return ('<section id="temperature-study"><h2>Temperature study</h2>'
+            + "<p>" + text(
+                f"At θ = {'—' if theta is None else f'{theta - 273.15:.2f} °C'}; E°(T) form: "
+                f"{coefficients.get('equation') or study.get('form', '')}"
+                + (f" — {study['form_reason']}" if study.get("form_reason") else "")) + "</p>"
+            + _table(["quantity", "value ± u (k = 1)"], rows, "study-table")
+            + "<h3>Isotherms</h3>"
+            + _table(["t / °C", "readings", "model", "E° ± u (k = 1)"], isotherm_rows,
+                     "isotherm-table") + "</section>")
+
+
+def _remarks(record: Mapping[str, Any]) -> str:
+    parts = []
+    for key, title in (("corrections", "Corrections"), ("notes", "Notes"),
+                       ("warnings", "Warnings")):
+        items = list(dict.fromkeys(str(i) for i in record.get(key) or []))
+        if items:
+            parts.append(f"<h3>{title}</h3>" + _list(items, key))
+    if not parts:
+        return ""
+    return '<section id="remarks"><h2>Corrections, notes and warnings</h2>' + "".join(parts) \
+        + "</section>"
+
+
+def _safety(record: Mapping[str, Any]) -> str:
+    cautions = list(record.get("cautions") or [])
+    if not cautions:
+        return ""
+    return ('<section id="safety" class="safety"><h2>Safety</h2>'
+            + _list(cautions, "cautions") + "</section>")
+
+
+def report_html(record: Mapping[str, Any], figures: Mapping[str, bytes] | None = None,
+                record_name: str | None = None, record_sha256: str | None = None) -> str:
+    """The HTML report of a reduction or a temperature study, from its record.
+
+    Parameters
+    ----------
+    record : mapping
+        The record (``activolt-record/1``) as :func:`activolt.io.record.build_record` or
+        :func:`activolt.io.record.build_study_record` makes it, or as read back from its JSON.
+    figures : mapping of str to bytes, optional
+        PNG images by name (``extrapolation``, ``residuals``, ``gamma``, …), as
+        :func:`activolt.report.figures.render_figures` draws them; embedded as ``data:`` URIs.
+    record_name : str, optional
+        The record's file name, shown with the run.
+    record_sha256 : str, optional
+        The SHA-256 of the record's JSON text as written, shown beside its name.
+
+    Returns
+    -------
+    str
+        One HTML document (UTF-8): no script, nothing fetched, every text escaped.
+
+    Examples
+    --------
+    >>> page = report_html({"electrolyte": "HCl", "run_info": {"operator": "<b>A</b>"},
+    ...                     "standard_potential_V": {"value": 0.2222, "uncertainty": 2.3e-05}})
+    >>> "&lt;b&gt;A&lt;/b&gt;" in page, "<script" in page
+    (True, False)
+    """
+    inputs = record.get("inputs") or [record.get("input") or {}]
+    names = ", ".join(_file_name(i.get("file", "")) for i in inputs if i.get("file"))
+    kind = "temperature study" if record.get("temperature_study") else "reduction"
+    series = record.get("series")
+    title = f"activolt {kind} of {names or 'a run'}" + (f", series '{series}'" if series else "")
+    body = "\n".join(part for part in (
+        f"<header><h1>{text(title)}</h1></header>",
+        _identification(record, record_name, record_sha256),
+        _conditions(record),
+        _results(record),
+        _study(record),
+        _figures(figures),
+        _points(record),
+        _published(record),
+        _derived(record),
+        _budget(record),
+        _comparison(record),
+        _monte_carlo(record),
+        _remarks(record),
+        _safety(record),
+        "<footer><p>" + text(
+            f"Written by activolt {(record.get('software') or {}).get('version', '')} from the "
+            "record named above; every number is the record's, rounded so that the uncertainty "
+            "keeps two significant digits.") + "</p></footer>",
+    ) if part)
+    return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+            f"<meta http-equiv=\"Content-Security-Policy\" content=\"{CONTENT_SECURITY_POLICY}\">\n"
+            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+            f"<title>{text(title)}</title>\n<style>{_STYLE}</style>\n</head>\n<body>\n{body}\n"
+            "</body>\n</html>\n")
