@@ -623,7 +623,8 @@ class Archive:
 
     def electrode_history(self, electrode: str) -> list[dict[str, Any]]:
         """The calibration records of one electrode, oldest first, each with that electrode's
-        entry only — ready for :func:`activolt.procedures.calibration.electrode_history`.
+        entry only — ready for :func:`activolt.procedures.calibration.electrode_history` — and
+        its hash in the archive as ``archive_hash``.
 
         Records superseded by a re-reduction are left out (their successor stands in).
         """
@@ -634,7 +635,7 @@ class Archive:
             record["electrodes"] = [e for e in record.get("electrodes") or []
                                     if str(e.get("electrode")) == electrode]
             if record["electrodes"]:
-                history.append(record)
+                history.append({**record, "archive_hash": entry.hash})
         return history
 
     def to_frame(self, **filters: Any) -> Any:
