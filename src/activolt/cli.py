@@ -141,6 +141,12 @@ def _parser() -> argparse.ArgumentParser:
                         metavar="CELSIUS",
                         help="temperature study: where the thermodynamic quantities are "
                              "reported (θ); default 25")
+    reduce.add_argument("--archive", nargs="?", const="", dest="archive_to",
+                        metavar="LOCATION",
+                        help="also add each record, its inputs and outputs to the archive "
+                             "(an SQLite path or an SQLAlchemy URL; without LOCATION, "
+                             "ACTIVOLT_ARCHIVE or the per-user archive); put it after the run "
+                             "tables or write --archive=LOCATION")
 
     cell = commands.add_parser("cell", help="a cell's reaction, n, E°, ΔG° and K from its "
                                "diagram")
@@ -169,6 +175,11 @@ def _parser() -> argparse.ArgumentParser:
     calibrate.add_argument("--history", type=Path, metavar="FOLDER",
                            help="folder of earlier calibration records (*.record.json): each "
                                 "electrode's drift and control chart")
+    calibrate.add_argument("--archive", nargs="?", const="", dest="archive_to",
+                           metavar="LOCATION",
+                           help="also add the record, the batch table, its metadata and the "
+                                "outputs to the archive (an SQLite path or an SQLAlchemy URL; "
+                                "without LOCATION, ACTIVOLT_ARCHIVE or the per-user archive)")
 
     for module in _command_modules():
         module.add_parser(commands)
@@ -803,10 +814,15 @@ def main(argv: Sequence[str] | None = None) -> int:
     previous = signal.signal(signal.SIGTERM, _on_sigterm) if in_main_thread else None
     written: list[Path] = []
     status = 0
+    command_token = None
     try:
         args = _parser().parse_args(argv)
         if args.command != "cell":
             _private_matplotlib_config()  # lmfit imports matplotlib
+            from .io.record import COMMAND_LINE  # named in every record written
+
+            command_token = COMMAND_LINE.set(
+                ("activolt", *(sys.argv[1:] if argv is None else argv)))
         if args.command == "demo":
             run_path = Path(str(files("activolt") / "sample_data" / DEMO_RUN))
             _reduce(run_path, None, "hueckel", {}, args.out, None, None, {}, True,
@@ -826,6 +842,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         elif written:
             print(escape_controls("\nwritten:\n" + "\n".join(f"  {p}" for p in written),
                                   keep="\n"))
+        if getattr(args, "archive_to", None) is not None and written:
+            from .commands.archive import archive_written
+
+            archive_written(written, args.archive_to or None)
     except SystemExit as stop:  # --help and --version
         return int(stop.code or 0)
     except BrokenPipeError:  # output piped into a command that stopped reading
@@ -847,6 +867,8 @@ def main(argv: Sequence[str] | None = None) -> int:
               file=sys.stderr)
         return 143 if isinstance(stop, _Terminated) else 130
     finally:
+        if command_token is not None:
+            command_token.var.reset(command_token)
         if in_main_thread:
             signal.signal(signal.SIGTERM, previous if previous is not None else signal.SIG_DFL)
     return status

@@ -9,8 +9,12 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import platform
 from collections.abc import Mapping
+from contextvars import ContextVar
 from datetime import UTC, datetime
+from importlib.metadata import PackageNotFoundError
+from importlib.metadata import version as package_version
 from importlib.resources import files
 from pathlib import Path
 from typing import Any
@@ -40,6 +44,26 @@ from ..safe_text import neutralise_formula
 RECORD_SCHEMA = "activolt-record/1"
 #: ``record_kind`` of the record of a calibrated batch of reference electrodes.
 CALIBRATION_KIND = "calibration"
+#: The command line being run (``activolt reduce …``), set by ``activolt.cli.main`` while it
+#: runs, so that every record it writes says how it was made; None for library use.
+COMMAND_LINE: ContextVar[tuple[str, ...] | None] = ContextVar("activolt_command_line",
+                                                              default=None)
+#: Packages whose versions can change a result, named in every record's ``provenance``.
+PROVENANCE_PACKAGES = ("numpy", "scipy", "pandas", "lmfit", "uncertainties", "iapws")
+
+
+def provenance() -> dict[str, Any]:
+    """How a record was made: the command line (None from the library), the Python version and
+    the versions of the numerical packages (``provenance`` in ``record_schema.json``)."""
+    packages = {}
+    for name in PROVENANCE_PACKAGES:
+        try:
+            packages[name] = package_version(name)
+        except PackageNotFoundError:
+            packages[name] = None
+    command = COMMAND_LINE.get()
+    return {"command_line": None if command is None else list(command),
+            "python_version": platform.python_version(), "packages": packages}
 
 
 def _with_u(value: Any, method: str) -> dict[str, Any]:
@@ -132,6 +156,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         "record_schema": RECORD_SCHEMA,
         "software": {"name": "activolt", "version": __version__},
         "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "provenance": provenance(),
         "input": {"file": _path_from(run.path, record_folder), "sha256": run.sha256,
                   **metadata_info},
         "series": run_series(run.points),
@@ -502,6 +527,7 @@ def build_study_record(study: TemperatureStudy, created: datetime | None = None,
         "record_schema": RECORD_SCHEMA,
         "software": {"name": "activolt", "version": __version__},
         "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "provenance": provenance(),
         "input": inputs[0],
         "inputs": inputs,
         "series": run_series(_concat([iso.run.points for iso in isotherms])),
@@ -704,6 +730,7 @@ def build_calibration_record(batch: CalibrationBatch, created: datetime | None =
         "record_kind": CALIBRATION_KIND,
         "software": {"name": "activolt", "version": __version__},
         "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "provenance": provenance(),
         "input": (_input_record(run, record_folder) if run is not None
                   else {"file": "", "sha256": "0" * 64}),
         "run_info": dict(run.metadata.info) if run is not None else {},
