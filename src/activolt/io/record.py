@@ -35,6 +35,7 @@ from ..procedures.model_choice import (
     ModelComparison,
 )
 from ..procedures.montecarlo import MonteCarloResult
+from ..procedures.ph import PhResult
 from ..procedures.properties import DerivedResults, derive_results
 from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
@@ -320,7 +321,10 @@ def load_record(source: str | Path) -> dict[str, Any]:
         raise InputError(f"not an {RECORD_SCHEMA} record", file=where)
     schema = record_schema()
     kind = "then" if record.get("record_kind") == CALIBRATION_KIND else "else"
-    missing = [key for key in [*schema["required"], *schema.get(kind, {}).get("required", [])]
+    branch = schema.get(kind, {})
+    if kind == "else" and "if" in branch:  # a pH record, else a reduction or study
+        branch = branch["then" if record.get("record_kind") == PH_KIND else "else"]
+    missing = [key for key in [*schema["required"], *branch.get("required", [])]
                if key not in record]
     if missing:
         raise InputError(f"the record lacks '{missing[0]}'", file=where)
@@ -808,3 +812,93 @@ def calibration_points_csv(batch: CalibrationBatch) -> str:
 
 def _scaled(value_V: Any) -> float | None:
     return None if value_V is None else float(value_V) * 1e3
+
+
+#: ``record_kind`` of the record of a primary pH determination (``activolt ph``).
+PH_KIND = "ph"
+
+
+def build_ph_record(result: PhResult, created: datetime | None = None,
+                    record_folder: Path | None = None) -> dict[str, Any]:
+    """The JSON-ready record of a primary pH determination (``record_kind = "ph"``).
+
+    Parameters
+    ----------
+    result : PhResult
+        From :func:`activolt.procedures.ph.primary_ph`.
+    created : datetime, optional
+        The time stamp; now by default.
+    record_folder : pathlib.Path, optional
+        Where the record is written; the buffer table is named relative to it.
+
+    Returns
+    -------
+    dict
+        The keys every record has, ``record_kind``, ``run_info``, and for the isotherm nearest
+        25 °C: ``temperature_K``, ``ph`` = ``{value, uncertainty, expanded_uncertainty,
+        coverage_factor, effective_dof}``, ``intercept`` and ``slope_kg_mol`` (each ``{value,
+        uncertainty}``), ``budget``, ``comparison``; then ``buffer``, ``convention``,
+        ``standard_potential_source``, ``standard_potentials``, ``isotherms`` (every
+        temperature), ``temperature_fit``, ``conditions``, ``cautions``.
+    """
+    run = result.run
+    section = result.to_dict()
+    main = min(section["isotherms"], key=lambda i: abs(i["temperature_K"] - 298.15))
+    meta = run.metadata if run is not None else None
+    record: dict[str, Any] = {
+        "record_schema": RECORD_SCHEMA,
+        "record_kind": PH_KIND,
+        "software": {"name": "activolt", "version": __version__},
+        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "input": (_input_record(run, record_folder) if run is not None
+                  else {"file": "", "sha256": "0" * 64}),
+        "run_info": dict(meta.info) if meta is not None else {},
+        "temperature_K": main["temperature_K"],
+        "ph": main["ph"],
+        "intercept": main["intercept"],
+        "slope_kg_mol": main["slope_kg_mol"],
+        "budget": main["budget"],
+        "comparison": {"catalogue_ph": main["catalogue_ph"],
+                       "difference": main["difference_to_catalogue"],
+                       "source": main["catalogue_source"]},
+        "buffer": section["buffer"],
+        "convention": section["convention"],
+        "standard_potential_source": section["standard_potential_source"],
+        "standard_potentials": section["standard_potentials"],
+        "isotherms": section["isotherms"],
+        "temperature_fit": section["temperature_fit"],
+        "conditions": {
+            "u_temperature_K": None if meta is None else meta.u_temperature_K,
+            "u_pressure_kPa": None if meta is None else meta.u_pressure_Pa / 1e3,
+            "u_stock_molality_relative": (None if meta is None
+                                          else meta.u_stock_molality_relative)},
+        "warnings": list(result.warnings),
+        "cautions": ([] if meta is None
+                     else cautions_for(meta.electrolyte, meta.cell)),
+    }
+    return _finite(record)
+
+
+def ph_record_json(result: PhResult, created: datetime | None = None,
+                   record_folder: Path | None = None) -> str:
+    """:func:`build_ph_record` as JSON text (UTF-8, indented, NaN written as null)."""
+    return json.dumps(build_ph_record(result, created, record_folder), ensure_ascii=False,
+                      indent=2, allow_nan=False) + "\n"
+
+
+def ph_points_csv(result: PhResult) -> str:
+    """Every reading of a pH determination with its acidity function, by isotherm; text cells
+    formula-safe."""
+    import pandas as pd
+
+    rows = []
+    for iso in result.isotherms:
+        for line, electrode, m, p, u in zip(iso.lines, iso.electrodes,
+                                            iso.chloride_molality_mol_kg,
+                                            iso.acidity_function, iso.u_acidity_function,
+                                            strict=True):
+            rows.append({"line": line, "isotherm_temperature_C": iso.temperature_K - 273.15,
+                         "electrode": neutralise_formula(electrode),
+                         "chloride_molality_mol_kg": m, "acidity_function": p,
+                         "u_acidity_function": u})
+    return pd.DataFrame(rows).to_csv(index=False, float_format="%.10g", lineterminator="\n")
