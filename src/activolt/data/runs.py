@@ -11,6 +11,7 @@ from __future__ import annotations
 import csv
 import dataclasses
 import difflib
+import functools
 import hashlib
 import math
 import re
@@ -198,11 +199,20 @@ class Run:
     metadata: RunMetadata
     warnings: tuple[str, ...] = ()
 
-    @property
+    @functools.cached_property
+    def usable(self) -> np.ndarray:
+        """Which rows of :attr:`points` enter the fit (no flag), bool, read-only (worked out
+        once per run: the points are not changed after the run is built)."""
+        mask = self.points["flag"].isna().to_numpy(bool)
+        mask.flags.writeable = False
+        return mask
+
+    @functools.cached_property
     def emf_uncertainty_given(self) -> bool:
         """Whether every usable reading has a stated standard uncertainty."""
-        usable = self.points["flag"].isna()
-        return bool(usable.any() and self.points.loc[usable, "u_emf_V"].notna().all())
+        usable = self.usable
+        return bool(usable.any()
+                    and not np.isnan(self.points["u_emf_V"].to_numpy(float)[usable]).any())
 
 
 def _decode(path: Path, raw: bytes) -> str:
@@ -1254,7 +1264,7 @@ def exclude_points(run: Run, exclusions: list[Exclusion]) -> Run:
 
 def usable_points(run: Run) -> pd.DataFrame:
     """The rows of ``run`` that enter the fit (no flag)."""
-    return run.points[run.points["flag"].isna()].reset_index(drop=True)
+    return run.points[run.usable].reset_index(drop=True)
 
 
 __all__ = ["KNOWN_COLUMNS", "KNOWN_METADATA_KEYS", "Exclusion", "Run", "RunMetadata",

@@ -23,13 +23,14 @@ import pandas as pd
 
 from ..activity import ActivityModel, Parameter
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
-from ..data.runs import Run, usable_points
+from ..data.runs import Run, RunMetadata
 from ..errors import InputError
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .engine import E0, SLOPE, MeasurementModel
 
-__all__ = ["E0", "SLOPE", "SLOPE_PARAMETER", "SeriesData", "emf_jacobian", "gas_correction",
-           "parameter_spec", "predict_emf", "prepare_series"]
+__all__ = ["E0", "SLOPE", "SLOPE_PARAMETER", "SeriesData", "SeriesInputs", "emf_jacobian",
+           "gas_correction", "gas_correction_arrays", "parameter_spec", "predict_emf",
+           "prepare_inputs", "prepare_series", "series_inputs"]
 
 #: The slope factor s of the cell response, E = E° − s k ln(m± γ±), fitted on request (pairs of
 #: ion-selective electrodes are often slightly sub-Nernstian); s = 1 is the Nernstian response.
@@ -83,47 +84,84 @@ def gas_correction(run: Run, points: pd.DataFrame, water_activity: npt.ArrayLike
                    ) -> tuple[np.ndarray | None, np.ndarray | None]:
     """(ΔE to p° [V], partial pressure of the cell's gas [Pa]) per usable row, or (None, None)
     when the cell holds no gas or no barometric pressure is given."""
-    meta = run.metadata
+    return gas_correction_arrays(
+        run, points["temperature_K"].to_numpy(float), points["pressure_Pa"].to_numpy(float),
+        points["line"].to_numpy(), water_activity)
+
+
+def gas_correction_arrays(run: Run, temperature_K: np.ndarray, pressure_Pa: np.ndarray,
+                          line: np.ndarray, water_activity: npt.ArrayLike = 1.0,
+                          metadata: RunMetadata | None = None
+                          ) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """:func:`gas_correction` on arrays of the rows (``metadata`` in place of the run's)."""
+    meta = run.metadata if metadata is None else metadata
     if not meta.gas_coefficients:
         return None, None
-    pressure = points["pressure_Pa"].to_numpy(float)
+    pressure = np.asarray(pressure_Pa, dtype=float)
     if meta.barometric_pressure_Pa is not None:
         pressure = np.where(np.isnan(pressure), meta.barometric_pressure_Pa, pressure)
     if np.isnan(pressure).all():
         return None, None
     if np.isnan(pressure).any():
-        line = int(points.loc[np.isnan(pressure), "line"].iloc[0])
         raise InputError("no barometric pressure for this row while others have one; fill the "
                          "column or give pressure_kPa in the metadata", file=str(run.path),
-                         line=line, column="pressure_kPa")
+                         line=int(line[np.isnan(pressure)][0]), column="pressure_kPa")
     from ..physics.corrections import gas_pressure_correction, hydrogen_partial_pressure
 
-    temperature = points["temperature_K"].to_numpy(float)
-    partial = hydrogen_partial_pressure(temperature, pressure, water_activity=water_activity,
+    partial = hydrogen_partial_pressure(temperature_K, pressure, water_activity=water_activity,
                                         bubbler_depth_m=meta.bubbler_depth_m)
     correction = gas_pressure_correction(
-        temperature, meta.electrons, meta.gas_coefficients,
+        temperature_K, meta.electrons, meta.gas_coefficients,
         {gas: partial for gas in meta.gas_coefficients}, meta.standard_pressure_Pa)
     return correction, partial
 
 
-def prepare_series(run: Run) -> SeriesData:
-    """The usable readings of a run, prepared for the fit (gas correction to p° applied)."""
-    points = usable_points(run)
-    meta = run.metadata
-    molality = points["molality_mol_kg"].to_numpy(float)
-    temperature = points["temperature_K"].to_numpy(float)
-    stated = run.emf_uncertainty_given
-    u = points["u_emf_V"].to_numpy(float) if stated else np.ones(len(points))
-    correction, partial = gas_correction(run, points)
-    emf = points["emf_V"].to_numpy(float)
-    u_molality = points["u_molality_mol_kg"].to_numpy(float)
+@dataclass(frozen=True)
+class SeriesInputs:
+    """The usable rows of a run as arrays (SI units), before they are prepared for the fit;
+    a shifted copy (``dataclasses.replace``) gives the sensitivity to an input common to every
+    reading without re-reading the table."""
+
+    line: np.ndarray
+    molality: np.ndarray
+    temperature_K: np.ndarray
+    emf_V: np.ndarray
+    u_emf_V: np.ndarray | None
+    u_molality_mol_kg: np.ndarray
+    pressure_Pa: np.ndarray
+
+
+def series_inputs(run: Run) -> SeriesInputs:
+    """The usable rows of ``run`` as :class:`SeriesInputs`."""
+    points, usable = run.points, run.usable
+
+    def column(name: str) -> np.ndarray:
+        return points[name].to_numpy(float)[usable]
+
+    return SeriesInputs(
+        line=points["line"].to_numpy()[usable], molality=column("molality_mol_kg"),
+        temperature_K=column("temperature_K"), emf_V=column("emf_V"),
+        u_emf_V=column("u_emf_V") if run.emf_uncertainty_given else None,
+        u_molality_mol_kg=column("u_molality_mol_kg"), pressure_Pa=column("pressure_Pa"))
+
+
+def prepare_inputs(run: Run, inputs: SeriesInputs, metadata: RunMetadata | None = None
+                   ) -> SeriesData:
+    """The readings ``inputs`` of ``run`` prepared for the fit (gas correction to p° applied);
+    ``metadata`` in place of the run's (a shifted barometric pressure, say)."""
+    meta = run.metadata if metadata is None else metadata
+    temperature = inputs.temperature_K
+    stated = inputs.u_emf_V is not None
+    u = inputs.u_emf_V if stated else np.ones(inputs.molality.size)
+    correction, partial = gas_correction_arrays(run, temperature, inputs.pressure_Pa,
+                                                inputs.line, metadata=meta)
+    emf = inputs.emf_V
     return SeriesData(
-        molality=molality,
+        molality=inputs.molality,
         emf_V=emf if correction is None else emf + correction,
         weights=1.0 / u**2,
         nernst_V=nernst_factor(meta.electrolyte, meta.electrons, temperature),
-        ln_mean_molality=np.log(meta.electrolyte.mean_molality(molality)),
+        ln_mean_molality=np.log(meta.electrolyte.mean_molality(inputs.molality)),
         constants=debye_hueckel_constants(temperature),
         stated_uncertainty=stated,
         sign=meta.electrolyte_sign,
@@ -131,8 +169,13 @@ def prepare_series(run: Run) -> SeriesData:
         correction_V=correction,
         gas_pressure_Pa=partial,
         u_emf_V=u if stated else None,
-        u_molality_mol_kg=u_molality,
+        u_molality_mol_kg=inputs.u_molality_mol_kg,
     )
+
+
+def prepare_series(run: Run) -> SeriesData:
+    """The usable readings of a run, prepared for the fit (gas correction to p° applied)."""
+    return prepare_inputs(run, series_inputs(run))
 
 
 def parameter_spec(model: ActivityModel, name: str) -> Parameter:

@@ -21,6 +21,7 @@ cross-check.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -49,7 +50,9 @@ from ..fit.problem import (
     gas_correction,
     parameter_spec,
     predict_emf,
+    prepare_inputs,
     prepare_series,
+    series_inputs,
 )
 from ..fit.uncertainty import (
     BudgetLine,
@@ -429,10 +432,12 @@ def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
         raise FitError(f"{result.failures[0]}; hold a parameter at a given value")
     order = [names.index(name) for name in (E0, *free)]
     covariance = result.covariance[0][np.ix_(order, order)]
-    if not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0):
+    fitted = {**values, **{name: float(result.values[0, names.index(name)]) for name in free}}
+    if ((not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0))
+            and not any(_at_bound(parameter_spec(model, name), fitted[name]) for name in free)):
+        # (a parameter at a bound is held next, by _hard_failure, whatever its variance)
         raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
                        "independent for these data); hold a parameter at a given value")
-    fitted = {**values, **{name: float(result.values[0, names.index(name)]) for name in free}}
     n = data.emf_V.size
     dof = int(result.dof[0])
     if dof < 1 and not data.stated_uncertainty:
@@ -445,14 +450,20 @@ def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                 residual_V=result.residual_V[0], jacobian=result.jacobian[0][:, order])
 
 
+def _at_bound(spec: Parameter, value: float) -> bool:
+    """Whether a fitted value lies at one of its parameter's bounds (within 10⁻⁴ of its span,
+    or of 1 for an unbounded side)."""
+    span = spec.maximum - spec.minimum
+    span = span if math.isfinite(span) else 1.0
+    return min(abs(value - spec.minimum), abs(spec.maximum - value)) < 1e-4 * span
+
+
 def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
     """A free parameter that ran to a bound or whose uncertainty is not finite, and why."""
     for index, name in enumerate(fit.free, start=1):
         spec = parameter_spec(model, name)
         value, variance = fit.values[name], fit.covariance[index, index]
-        span = spec.maximum - spec.minimum
-        span = span if math.isfinite(span) else 1.0
-        if min(abs(value - spec.minimum), abs(spec.maximum - value)) < 1e-4 * span:
+        if _at_bound(spec, value):
             side, bound = (("lower", spec.minimum) if value - spec.minimum
                            <= spec.maximum - value else ("upper", spec.maximum))
             return name, f"the fit ran to its {side} bound ({bound:g} {spec.unit})".replace(
@@ -910,10 +921,13 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
             MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
         warnings.append(MODEL_CHOICE_REMINDER)
-    table, gamma_propagation = _points_table(run, family, data, fit, parts.type_b,
-                                             parts.uncertain_names, parts.uncertain_covariance,
-                                             parts.common, parts.truncation)
-    table, diagnosed = _diagnose(table, data, fit)
+    columns, gamma_propagation = _points_columns(run, family, data, fit, parts.type_b,
+                                                 parts.uncertain_names,
+                                                 parts.uncertain_covariance, parts.common,
+                                                 parts.truncation)
+    diagnostics, diagnosed = _diagnose(run, data, fit)
+    table = pd.concat([run.points, pd.DataFrame({**columns, **diagnostics},
+                                                index=run.points.index)], axis=1)
     warnings += diagnosed
     reasons = judged.held.reasons
     parameters = tuple(
@@ -972,37 +986,38 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     The temperature is stepped downward at the boiling end and upward at the ice point, so
     that the step stays within liquid water."""
     meta = run.metadata
+    inputs = series_inputs(run)
     shifts = []
     if meta.u_temperature_K > 0:
         hot = float(run.points["temperature_K"].max()) + _TEMPERATURE_STEP_K > 373.15
         step = -_TEMPERATURE_STEP_K if hot else _TEMPERATURE_STEP_K
-        points = run.points.assign(temperature_K=run.points["temperature_K"] + step)
-        shifts.append(("temperature", meta.u_temperature_K, step, points, meta))
+        shifts.append(("temperature", meta.u_temperature_K, step, dataclasses.replace(
+            inputs, temperature_K=inputs.temperature_K + step), meta))
     if meta.u_stock_molality_relative > 0:
-        points = run.points.assign(
-            molality_mol_kg=run.points["molality_mol_kg"] * (1.0 + _RELATIVE_STEP))
-        shifts.append(("stock molality", meta.u_stock_molality_relative, _RELATIVE_STEP, points,
+        shifts.append(("stock molality", meta.u_stock_molality_relative, _RELATIVE_STEP,
+                       dataclasses.replace(inputs,
+                                           molality=inputs.molality * (1.0 + _RELATIVE_STEP)),
                        meta))
     if meta.u_electrode_offset_V > 0:
-        points = run.points.assign(emf_V=run.points["emf_V"] + _EMF_STEP_V)
-        shifts.append(("electrode offset", meta.u_electrode_offset_V, _EMF_STEP_V, points,
-                       meta))
+        shifts.append(("electrode offset", meta.u_electrode_offset_V, _EMF_STEP_V,
+                       dataclasses.replace(inputs, emf_V=inputs.emf_V + _EMF_STEP_V), meta))
     if meta.u_pressure_Pa > 0 and data.correction_V is not None:
-        points = run.points.assign(pressure_Pa=run.points["pressure_Pa"] + _PRESSURE_STEP_PA)
         barometric = (None if meta.barometric_pressure_Pa is None
                       else meta.barometric_pressure_Pa + _PRESSURE_STEP_PA)
-        shifts.append(("barometric pressure", meta.u_pressure_Pa, _PRESSURE_STEP_PA, points,
+        shifts.append(("barometric pressure", meta.u_pressure_Pa, _PRESSURE_STEP_PA,
+                       dataclasses.replace(inputs, pressure_Pa=inputs.pressure_Pa
+                                           + _PRESSURE_STEP_PA),
                        dataclasses.replace(meta, barometric_pressure_Pa=barometric)))
     if not shifts:
         return []
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
-    plain = prepare_series(run)
+    plain = prepare_inputs(run, inputs)
     plain_residual = plain.emf_V - predict_emf(family, electrolyte, plain, fit.e0, fit.values)
     slope = fit.values.get(SLOPE, data.slope)
     ln_gamma = (fit.e0 - data.emf_V) * data.sign / (slope * data.nernst_V) - data.ln_mean_molality
     effects = []
-    for name, u, step, points, metadata in shifts:
-        shifted = prepare_series(dataclasses.replace(run, points=points, metadata=metadata))
+    for name, u, step, shifted_inputs, metadata in shifts:
+        shifted = prepare_inputs(run, shifted_inputs, metadata)
         residual = shifted.emf_V - predict_emf(family, electrolyte, shifted, fit.e0, fit.values)
         moves = sensitivity @ (residual - plain_residual) / step
         e0 = fit.e0 + moves[0] * step
@@ -1064,19 +1079,19 @@ def _budget(run: Run, data: SeriesData, fit: _Fit, type_b: np.ndarray | None,
     return tuple(lines)
 
 
-def _diagnose(table: pd.DataFrame, data: SeriesData, fit: _Fit
-              ) -> tuple[pd.DataFrame, list[str]]:
-    """The table with leverage, studentized residuals and Cook's distance of the used readings,
-    and a ``diagnostic`` reason where one stands out; warnings naming them."""
+def _diagnose(run: Run, data: SeriesData, fit: _Fit
+              ) -> tuple[dict[str, np.ndarray], list[str]]:
+    """Columns over every row of the run: leverage, studentized residuals and Cook's distance of
+    the used readings, and a ``diagnostic`` reason where one stands out; warnings naming them."""
     from ..fit.diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
 
-    used = table["flag"].isna().to_numpy()
+    used = run.usable
     scaled = not data.stated_uncertainty
     n, p = fit.jacobian.shape
     if scaled and n - p - 1 < 1:
         nan = np.full(used.size, np.nan)
-        return table.assign(leverage=nan, studentized_residual=nan, cooks_distance=nan,
-                            diagnostic=np.full(used.size, None, dtype=object)), [
+        return {"leverage": nan, "studentized_residual": nan, "cooks_distance": nan,
+                "diagnostic": np.full(used.size, None, dtype=object)}, [
             "too few readings for leave-one-out diagnostics (they need N − P − 1 ≥ 1 when "
             "the scatter is estimated from the fit)"]
     columns = {
@@ -1085,20 +1100,20 @@ def _diagnose(table: pd.DataFrame, data: SeriesData, fit: _Fit
                                                       fit.residual_V, scaled),
         "cooks_distance": cooks_distance(fit.jacobian, data.weights, fit.residual_V, scaled),
     }
-    full = {}
+    full: dict[str, np.ndarray] = {}
     for name, values in columns.items():
         full[name] = np.full(used.size, np.nan)
         full[name][used] = values
     diagnostic = np.full(used.size, None, dtype=object)
     diagnostic[used] = np.array(flag_points(fit.jacobian, data.weights, fit.residual_V, scaled),
                                 dtype=object)
-    table = table.assign(**full, diagnostic=diagnostic)
-    molality = table["molality_mol_kg"].to_numpy(float)
-    lines = table["line"].to_numpy()
+    full["diagnostic"] = diagnostic
+    molality = run.points["molality_mol_kg"].to_numpy(float)
+    lines = run.points["line"].to_numpy()
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
                 "reason if it is faulty" for i in np.flatnonzero(diagnostic != None)]  # noqa: E711
-    return table, warnings
+    return full, warnings
 
 
 def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
@@ -1106,20 +1121,33 @@ def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
     meta = run.metadata
     if meta.cell is None:
         return None
-    from ..chemistry.cells import cell_summary
     from ..physics.corrections import standard_pressure_basis_shift
 
-    summary = cell_summary(meta.cell, temperature_K)
+    found = _catalogue_entry(meta.cell, float(temperature_K))
+    if found is None:
+        return None
+    value, uncertainty, basis_Pa, couples = found
+    if meta.gas_coefficients:
+        value += float(standard_pressure_basis_shift(
+            temperature_K, meta.electrons, meta.gas_coefficients, basis_Pa,
+            meta.standard_pressure_Pa))
+    return CatalogueValue(value, uncertainty, couples)
+
+
+@functools.lru_cache(maxsize=256)
+def _catalogue_entry(cell: str, temperature_K: float
+                     ) -> tuple[float, float, float, str] | None:
+    """(E° [V], u [V], its pressure basis [Pa], the couples) of a cell from the catalogue, or
+    None; kept once worked out, since a batch reduces many runs of one cell."""
+    from ..chemistry.cells import cell_summary
+
+    summary = cell_summary(cell, temperature_K)
     e0 = summary.get("standard_potential_V")
     if e0 is None or e0.get("value") is None:
         return None
-    value = e0["value"]
-    if meta.gas_coefficients:
-        value += float(standard_pressure_basis_shift(
-            temperature_K, meta.electrons, meta.gas_coefficients,
-            summary["standard_pressure_kPa"] * 1e3, meta.standard_pressure_Pa))
     couples = f"{summary['left']['couple']} and {summary['right']['couple']}"
-    return CatalogueValue(value, e0["uncertainty"], couples)
+    return (float(e0["value"]), float(e0["uncertainty"]), summary["standard_pressure_kPa"] * 1e3,
+            couples)
 
 
 def _corrections_summary(run: Run, data: SeriesData, temperature_K: float
@@ -1199,20 +1227,20 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
     return names, np.column_stack(columns), np.asarray(variances)
 
 
-def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
-                  type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
-                  uncertain_covariance: np.ndarray,
-                  common: list[tuple[str, float, np.ndarray, np.ndarray]],
-                  truncation: np.ndarray | None = None
-                  ) -> tuple[pd.DataFrame, GammaPropagation]:
-    """All rows of the run with fitted EMF, residual and γ± (measured and model), and the
-    budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
+def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
+                    type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
+                    uncertain_covariance: np.ndarray,
+                    common: list[tuple[str, float, np.ndarray, np.ndarray]],
+                    truncation: np.ndarray | None = None
+                    ) -> tuple[dict[str, np.ndarray], GammaPropagation]:
+    """Columns over all rows of the run: fitted EMF, residual and γ± (measured and model), and
+    the budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
     electrolyte = run.metadata.electrolyte
     n = len(data.emf_V)
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     reading_var = (1.0 / data.weights if data.stated_uncertainty
                    else np.full(n, fit.chi2 / fit.dof))
-    usable = run.points["flag"].isna().to_numpy()
+    usable = run.usable
 
     # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
     slope = fit.values.get(SLOPE, data.slope)
@@ -1280,10 +1308,9 @@ def _points_table(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
         **{f"u_gamma_pm_{name}": full(gamma * np.sqrt(variance))
            for name, variance in budget.items()},
     }
-    table = run.points.assign(**columns)
     extra = tuple(d * u for _, u, _, d in common) + (
         () if truncation is None else (parameter_gradient @ truncation,))
-    return table, GammaPropagation(parameter_gradient, -scale, sensitivity, reading_var, type_b,
+    return columns, GammaPropagation(parameter_gradient, -scale, sensitivity, reading_var, type_b,
                                    extra)
 
 
