@@ -14,4 +14,4 @@ files for all of them alike. Heavy imports belong inside ``run``, so that ``--he
 from __future__ import annotations
 
 #: Module names under ``activolt.commands``, in the order ``activolt --help`` lists them.
-COMMANDS: tuple[str, ...] = ("archive", "ph")
+COMMANDS: tuple[str, ...] = ("archive", "ph", "upload")
