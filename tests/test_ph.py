@@ -8,11 +8,14 @@ EMFs are written by the test's own Nernst equation, not by the code under test.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from activolt.errors import InputError
 from activolt.physics.water import debye_hueckel_constants
@@ -24,6 +27,7 @@ from activolt.procedures.ph import (
     catalogue_ph,
     composition_ionic_strength,
     primary_ph,
+    read_buffer_table,
 )
 
 R = 8.314462618  # J/(mol K), CODATA 2018
@@ -310,3 +314,26 @@ def test_an_unknown_catalogue_buffer_is_refused(tmp_path):
     path = write_phosphate(tmp_path)
     with pytest.raises(InputError, match="no buffer 'vinegar'"):
         primary_ph(path, buffer="vinegar")
+
+
+# ---------------------------------------------------------------------------------------------
+# A law: the pH depends on E − E° only
+
+
+@settings(max_examples=20, deadline=None, derandomize=True)
+@given(offset_V=st.floats(min_value=-0.02, max_value=0.02))
+def test_a_common_offset_of_emf_and_e0_leaves_the_ph(tmp_path_factory, offset_V):
+    # a voltage offset common to every reading and to every E° cancels in E − E° (the
+    # acidity function's definition, Buck et al. 2002)
+    folder = tmp_path_factory.mktemp("offset")
+    path = write_phosphate(folder)
+    run, _, _, _ = read_buffer_table(path)
+    base = primary_ph(path)
+    shifted_run = dataclasses.replace(
+        run, points=run.points.assign(emf_V=run.points["emf_V"] + offset_V))
+    shifted_e0 = [dataclasses.replace(s, value_V=s.value_V + offset_V)
+                  for s in base.standard_potentials]
+    moved = primary_ph(shifted_run, standard_potentials=shifted_e0, buffer="phosphate")
+    assert moved.isotherms[0].ph == pytest.approx(base.isotherms[0].ph, abs=1e-9)
+    assert moved.isotherms[0].standard_uncertainty == pytest.approx(
+        base.isotherms[0].standard_uncertainty, rel=1e-6)

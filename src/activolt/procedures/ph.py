@@ -818,8 +818,15 @@ def _match_e0(potentials: Sequence[StandardPotential], electrode: str, temperatu
             file=where, line=line, column="electrode")
     s = potentials[best[0]]
     shift = 0.0
-    if s.temperature_K is not None and s.temperature_K != temperature_K:
-        e = silver_chloride_standard_potential(np.array([temperature_K, s.temperature_K]))
+    if s.temperature_K is not None and abs(s.temperature_K - temperature_K) > 1e-9:
+        try:
+            e = silver_chloride_standard_potential(np.array([temperature_K, s.temperature_K]))
+        except ValueError:
+            raise InputError(
+                f"the E° of electrode '{electrode}' is at {s.temperature_K - ZERO_CELSIUS_K:.2f} "
+                f"°C, the reading at {temperature_K - ZERO_CELSIUS_K:.2f} °C, outside 5–95 °C "
+                "where dE°/dT is tabulated; calibrate at the reading's temperature",
+                file=where, line=line, column="electrode") from None
         shift = float(e[0] - e[1])
     return best[0], shift
 
