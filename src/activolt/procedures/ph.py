@@ -118,10 +118,12 @@ def bates_guggenheim_log10_gamma_chloride(ionic_strength_mol_kg: npt.ArrayLike,
 
     Examples
     --------
-    The phosphate primary standard, I = 0.1 mol/kg at 25 °C (A = 0.5098 here):
+    The phosphate primary standard, I = 0.1 mol/kg at 25 °C; with A = 0.5098 (IAPWS water)
+    by hand −0.5098 × 0.31623/(1 + 1.5 × 0.31623) = −0.1093 (A = 0.5100 of the IUPAC tables
+    gives −0.1094):
 
     >>> round(float(bates_guggenheim_log10_gamma_chloride(0.1, 298.15)), 4)
-    -0.1094
+    -0.1093
     """
     ionic = np.asarray(ionic_strength_mol_kg, dtype=float)
     if np.any(ionic < 0):
