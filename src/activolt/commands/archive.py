@@ -50,8 +50,8 @@ def _filter_options(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--model", help="activity-coefficient model (hueckel, pitzer, …)")
     parser.add_argument("--since", metavar="DATE", help="made on or after (ISO 8601, UTC)")
     parser.add_argument("--until", metavar="DATE", help="made on or before (ISO 8601, UTC)")
-    parser.add_argument("--kind", choices=("reduction", "calibration", "temperature_study"),
-                        help="kind of record")
+    parser.add_argument("--kind", help="kind of record: reduction, calibration, "
+                        "temperature_study, ph")
     parser.add_argument("--all", action="store_true", dest="include_superseded",
                         help="also records superseded by a re-reduction")
 

@@ -46,6 +46,7 @@ from sqlalchemy import (
     func,
     or_,
     select,
+    true,
     update,
 )
 from sqlalchemy.exc import SQLAlchemyError
@@ -577,7 +578,7 @@ class Archive:
             conditions.append(~select(later.c.hash).where(
                 later.c.supersedes == records.c.hash).exists())
         columns = [records.c[name] for name in FRAME_COLUMNS if name != "electrodes"]
-        return select(*columns).where(and_(*conditions)).order_by(records.c.created_utc,
+        return select(*columns).where(and_(true(), *conditions)).order_by(records.c.created_utc,
                                                                   records.c.hash)
 
     def find(self, *, electrolyte: str | None = None, cell: str | None = None,
@@ -654,8 +655,9 @@ class Archive:
     def export(self, format: str, destination: IO[bytes], **filters: Any) -> int:
         """Write the records matching ``filters`` to a binary stream; returns how many.
 
-        ``csv``: :meth:`to_frame` with every text cell that a spreadsheet would read as a
-        formula (``=``, ``+``, ``-``, ``@``, tab, CR, LF at its start) prefixed with ``'``
+        ``csv`` (RFC 4180, UTF-8): :meth:`to_frame` with every text cell that a spreadsheet
+        would read as a formula (``=``, ``+``, ``-``, ``@``, tab, CR, LF at its start) prefixed
+        with ``'``
         (:func:`activolt.safe_text.neutralise_formula`); ``jsonl``: one line per record,
         ``{"hash", "added_utc", "supersedes", "inputs", "outputs", "record"}``; ``parquet``:
         :meth:`to_frame` through pyarrow.
@@ -671,11 +673,14 @@ class Archive:
             return count
         frame = self.to_frame(**filters)
         if format == "csv":
+            from pandas.api.types import is_numeric_dtype
+
             safe = frame.copy()
             for name in safe.columns:
-                if safe[name].dtype == object:
+                if not is_numeric_dtype(safe[name]):  # text, whatever pandas calls its dtype
                     safe[name] = safe[name].map(neutralise_formula)
-            destination.write(safe.to_csv(index=False, lineterminator="\n").encode("utf-8"))
+            # CRLF line ends (RFC 4180): a CR or LF inside a cell is then always quoted
+            destination.write(safe.to_csv(index=False, lineterminator="\r\n").encode("utf-8"))
         else:
             buffer = io.BytesIO()
             frame.to_parquet(buffer, engine="pyarrow", index=False)
