@@ -183,6 +183,28 @@ def test_without_figures_the_page_says_so(tmp_path, capsys):
     assert "<img" not in page and "No figures were drawn" in page
 
 
+def test_a_temperature_studys_page_shows_the_studys_numbers(tmp_path, capsys):
+    # the synthetic study of test_temperature_outputs (Bates & Bower E°(t), nine isotherms)
+    from test_temperature_outputs import write_study
+
+    out = tmp_path / "out"
+    assert main(["reduce", str(write_study(tmp_path)), "--out", str(out)]) == 0
+    record = json.loads((out / "study.record.json").read_text(encoding="utf-8"))
+    parsed = _parse((out / "study.report.html").read_text(encoding="utf-8"))
+    study = record["temperature_study"]
+
+    def values(quantity: str) -> list[float]:
+        return [float(a["data-value"]) for _, a in parsed.tags
+                if a.get("data-quantity") == quantity and a.get("data-value")]
+
+    for quantity in ("delta_H_J_mol", "delta_S_J_K_mol", "delta_G_J_mol"):
+        assert values(quantity) == [study[quantity]["value"]]
+    assert values("isotherm_temperature_K") == [p["isotherm_temperature_K"]
+                                                for p in record["points"]]
+    assert len([a for t, a in parsed.tags if t == "img"]) == 2  # E°(T) and γ± by isotherm
+    assert "temperature study" in "".join(parsed.text)
+
+
 # --- a real browser -------------------------------------------------------------------------
 
 def _chromium() -> str:
