@@ -101,3 +101,22 @@ def test_help_names_the_outputs_and_exit_statuses(capsys):
     assert main(["ph", "--help"]) == 0
     text = capsys.readouterr().out
     assert "NAME.record.json" in text and "exit status" in text
+
+
+def test_an_e0_source_is_never_overwritten(sample, capsys):
+    # a calibration record that sits where the output record would go is an input: refused
+    from activolt.io.record import calibration_record_json
+    from activolt.procedures.calibration import calibrate
+
+    out = sample.parent / "out"
+    out.mkdir()
+    source = out / "kestrel_phosphate_ph.record.json"
+    source.write_text(calibration_record_json(calibrate(sample.parent / "kestrel_agcl_batch.csv")),
+                      encoding="utf-8")
+    rewrite(sample.with_suffix(".toml"), 'calibration_batch = "kestrel_agcl_batch.csv"',
+            'calibration_record = "out/kestrel_phosphate_ph.record.json"')
+    before = source.read_bytes()
+    status, _, stderr = run_ph([str(sample), "--out", str(out)], capsys)
+    assert status == 2 and len(stderr.strip().splitlines()) == 1
+    assert source.read_bytes() == before
+    assert sorted(p.name for p in out.iterdir()) == ["kestrel_phosphate_ph.record.json"]

@@ -95,7 +95,8 @@ def run(args: argparse.Namespace, written: list[Path]) -> int:
     contents[f"{name}.report.html"] = ph_report_html(
         json.loads(record), figure,
         f"{record_name} (SHA-256 {hashlib.sha256(record.encode('utf-8')).hexdigest()[:16]}…)")
-    done = write_outputs(folder=out, contents=contents, owned=owned, inputs=inputs)
+    done = write_outputs(folder=out, contents=contents, owned=owned,
+                         inputs=[*inputs, *result.source_files])
     written.extend(done)
     sys.stdout.write(report)
     return 0

@@ -408,6 +408,7 @@ class PhResult:
     convention: str
     run: Any = field(default=None, repr=False, compare=False)
     warnings: tuple[str, ...] = ()
+    source_files: tuple[Path, ...] = ()
 
     def isotherm_at(self, temperature_K: float) -> PhIsotherm:
         """The isotherm nearest ``temperature_K`` (KeyError beyond 0.5 K)."""
@@ -654,7 +655,8 @@ def _stated(ph_keys: Mapping[str, Any], text: str, where: str, basis_Pa: float
 
 
 def _standard_potentials(run: Run, ph_keys: Mapping[str, Any], text: str,
-                         metadata_path: Path | None) -> tuple[tuple[StandardPotential, ...], str]:
+                         metadata_path: Path | None
+                         ) -> tuple[tuple[StandardPotential, ...], str, tuple[Path, ...]]:
     where = str(metadata_path) if metadata_path is not None else "metadata"
     base = metadata_path.parent if metadata_path is not None else run.path.parent
     given = [k for k in ("calibration_batch", "calibration_record", "standard_potential_mV")
@@ -684,11 +686,13 @@ def _standard_potentials(run: Run, ph_keys: Mapping[str, Any], text: str,
             rows = points.iloc[group].reset_index(drop=True)
             values += standard_potentials_from_batch(
                 calibrate(dataclasses.replace(whole, points=rows)))
-        return tuple(values), f"calibration batch {batch_path.name}, reduced here"
+        files = (batch_path, *([whole.metadata_path] if whole.metadata_path else []))
+        return tuple(values), f"calibration batch {batch_path.name}, reduced here", files
     if given[0] == "calibration_record":
         items = ph_keys["calibration_record"]
         items = items if isinstance(items, list) else [items]
         values = []
+        files = []
         for item in items:
             record_path = _path_key(item, base, "calibration_record", text, where)
             try:
@@ -700,10 +704,11 @@ def _standard_potentials(run: Run, ph_keys: Mapping[str, Any], text: str,
                 raise InputError(f"the calibration record is not JSON ({error})",
                                  file=str(record_path)) from None
             values += standard_potentials_from_record(record, str(record_path))
+            files.append(record_path)
         return tuple(values), "calibration record " + ", ".join(
-            Path(str(i)).name for i in items)
+            Path(str(i)).name for i in items), tuple(files)
     return (_stated(ph_keys, text, where, run.metadata.standard_pressure_Pa),
-            "stated in the metadata")
+            "stated in the metadata", ())
 
 
 # ---------------------------------------------------------------------------------------------
@@ -1129,13 +1134,15 @@ def primary_ph(run_or_path: Run | str | Path, metadata_path: str | Path | None =
         run, ph_keys, text, meta_path = read_buffer_table(run_or_path, metadata_path)
     where = str(meta_path) if meta_path is not None else "metadata"
     spec = _buffer(ph_keys, text, where, ionic_strength_mol_kg, buffer)
+    source_files: tuple[Path, ...] = ()
     if isinstance(standard_potentials, CalibrationBatch):
         potentials, source = (standard_potentials_from_batch(standard_potentials),
                               "calibration batch given to primary_ph")
     elif standard_potentials is not None:
         potentials, source = tuple(standard_potentials), "given to primary_ph"
     else:
-        potentials, source = _standard_potentials(run, ph_keys, text, meta_path)
+        potentials, source, source_files = _standard_potentials(run, ph_keys, text,
+                                                                meta_path)
     if not potentials:
         raise InputError("the E° source holds no electrode", file=where)
 
@@ -1196,7 +1203,7 @@ def primary_ph(run_or_path: Run | str | Path, metadata_path: str | Path | None =
     if any(i.catalogue_ph is None for i in isotherms) and spec.name is not None:
         warnings.append(f"the catalogue holds no pH of '{spec.name}' at some temperatures of "
                         "the readings; no comparison there")
-    return PhResult(buffer=spec, isotherms=tuple(isotherms),
+    return PhResult(buffer=spec, isotherms=tuple(isotherms), source_files=source_files,
                     temperature_fit=_temperature_fit(isotherms),
                     standard_potentials=tuple(potentials), standard_potential_source=source,
                     convention=convention, run=run, warnings=tuple(warnings))
