@@ -389,6 +389,7 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     from .io.record import points_csv, record_json
     from .io.summary import summary_csv
     from .procedures.many import reduce_many, series_name
+    from .procedures.properties import derive_results
     from .report.text import format_report
 
     tables, name, default_out = _run_tables(paths)
@@ -446,9 +447,12 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
                 monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
                                     temperature_u_K=reduction.run.metadata.u_temperature_K,
                                     progress=False)
-            report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte)
+            derived = derive_results(reduction)  # once, for the report and the record alike
+            report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
+                                   derived=derived)
             contents[f"{base}.record.json"] = record_json(
-                reduction, comparison=outcome.comparison, monte_carlo=monte, record_folder=out)
+                reduction, comparison=outcome.comparison, monte_carlo=monte, record_folder=out,
+                derived=derived)
             contents[f"{base}.points.csv"] = points_csv(reduction)
             contents[f"{base}.report.txt"] = escape_controls(
                 report if report.endswith("\n") else report + "\n", keep="\n")

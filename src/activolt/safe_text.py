@@ -49,7 +49,7 @@ def escape_controls(text: str, keep: str = "") -> str:
     'two\nlines\\x0d'
     """
     if keep:
-        return "".join(c if c in keep else _CONTROL.sub(_escape, c) for c in text)
+        return _CONTROL.sub(lambda m: m.group() if m.group() in keep else _escape(m), text)
     return _CONTROL.sub(_escape, text)
 
 

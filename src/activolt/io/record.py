@@ -6,6 +6,7 @@ Schema shipped beside this module (``record_schema.json``). Keys are only ever a
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import json
 import os
@@ -56,15 +57,22 @@ PROVENANCE_PACKAGES = ("numpy", "scipy", "pandas", "lmfit", "uncertainties", "ia
 def provenance() -> dict[str, Any]:
     """How a record was made: the command line (None from the library), the Python version and
     the versions of the numerical packages (``provenance`` in ``record_schema.json``)."""
-    packages = {}
-    for name in PROVENANCE_PACKAGES:
-        try:
-            packages[name] = package_version(name)
-        except PackageNotFoundError:
-            packages[name] = None
     command = COMMAND_LINE.get()
     return {"command_line": None if command is None else list(command),
-            "python_version": platform.python_version(), "packages": packages}
+            "python_version": platform.python_version(), "packages": dict(_package_versions())}
+
+
+@functools.lru_cache(maxsize=1)
+def _package_versions() -> tuple[tuple[str, str | None], ...]:
+    """The installed versions of :data:`PROVENANCE_PACKAGES` (looked up once per process: a
+    batch writes thousands of records)."""
+    packages = []
+    for name in PROVENANCE_PACKAGES:
+        try:
+            packages.append((name, package_version(name)))
+        except PackageNotFoundError:
+            packages.append((name, None))
+    return tuple(packages)
 
 
 def _with_u(value: Any, method: str) -> dict[str, Any]:

@@ -3,10 +3,13 @@
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 import pandas as pd
 
 from ..activity.published import published_consensus, published_gamma
+from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
 __all__ = ["compare_with_published"]
@@ -42,13 +45,12 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     about 2 says the run and the tables agree within what both can tell; a much larger one is a
     disagreement that the tables' own spread does not explain.
     """
-    electrolyte = reduction.electrolyte
-    table = published_gamma(electrolyte.formula, reduction.temperature_K, all_sources=True)
-    if table is None:
-        return None
     points = reduction.points[reduction.points["gamma_pm"].notna()]
     m = points["molality_mol_kg"].to_numpy(float)
-    consensus = published_consensus(table, m, electrolyte, reduction.temperature_K)
+    found = _published_at(reduction.electrolyte, float(reduction.temperature_K), tuple(m))
+    if found is None:
+        return None
+    table, consensus = found
     gamma = points["gamma_pm"].to_numpy(float)
     u_gamma = points["u_gamma_pm"].to_numpy(float)
     published = consensus["gamma_pm"].to_numpy(float)
@@ -72,3 +74,14 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
         "difference_over_u": ratio,
         "source": "; ".join(dict.fromkeys(table["source"])),
     })
+
+
+@functools.lru_cache(maxsize=64)
+def _published_at(electrolyte: Electrolyte, temperature_K: float, molality: tuple[float, ...]
+                  ) -> tuple[pd.DataFrame, pd.DataFrame] | None:
+    """(every published row, their consensus at ``molality``), or None without a table; kept
+    once worked out (read only), since the runs of a batch share their molalities."""
+    table = published_gamma(electrolyte.formula, temperature_K, all_sources=True)
+    if table is None:
+        return None
+    return table, published_consensus(table, np.asarray(molality), electrolyte, temperature_K)
