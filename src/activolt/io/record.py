@@ -90,7 +90,7 @@ def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
     """Every reading of ``reduction`` as the record's ``points`` entries."""
     stats = reduction.statistics
     points = []
-    for _, row in reduction.points.iterrows():
+    for row in reduction.points.to_dict("records"):
         points.append({
             "line": int(row["line"]),
             "molality_mol_kg": float(row["molality_mol_kg"]),
@@ -113,7 +113,7 @@ def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
             "U95_gamma_pm": json_number(row["u_gamma_pm"] * stats.coverage_factor),
             "u_gamma_pm_budget": {
                 column.removeprefix("u_gamma_pm_"): json_number(row[column])
-                for column in row.index if column.startswith("u_gamma_pm_")
+                for column in row if column.startswith("u_gamma_pm_")
                 and column != "u_gamma_pm_model"},
             "leverage": json_number(row["leverage"]),
             "studentized_residual": json_number(row["studentized_residual"]),

@@ -22,7 +22,7 @@ def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
         source for values in comparison["published_values"] for source, _, _ in values))
     letters = {source: "abcdefghijklmnopqrstuvwxyz"[k] for k, source in enumerate(sources)}
     rows = []
-    for _, row in comparison.iterrows():
+    for row in comparison.to_dict("records"):
         if np.isnan(row["gamma_pm_published"]):
             continue
         places = max(3, decimals_for(row["u_gamma_pm"]))

@@ -131,7 +131,7 @@ def _isotherm_lines(study: TemperatureStudy) -> list[str]:
         lines.append(f"  {iso.setpoint_K - _ZERO_C:.2f} °C: {parameters}; reduced χ² = "
                      f"{stats.reduced_chi2:.3g}, ν = {stats.dof}")
         points = iso.reduction.points
-        for _, row in points[points["flag"].map(lambda f: isinstance(f, str))].iterrows():
+        for row in points[points["flag"].map(lambda f: isinstance(f, str))].to_dict("records"):
             lines.append(f"    out of the fit: line {int(row['line'])} (m = "
                          f"{row['molality_mol_kg']:.6g} mol/kg) — {row['flag']}")
     return lines

@@ -116,7 +116,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
               format_with_uncertainty(row["osmotic_coefficient"], row["u_osmotic_coefficient"]),
               format_compact(1.0 - row["water_activity"], row["u_water_activity"]),
               format_compact(row["excess_gibbs_rt_mol_kg"], row["u_excess_gibbs_rt_mol_kg"])]
-             for _, row in properties.iterrows()]
+             for row in properties.to_dict("records")]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
     widths = [max(len(r[i]) for r in [*cells, header]) for i in range(4)]
     lines += ["", "  derived from the fitted model (k = 1)"]
@@ -158,7 +158,7 @@ def _points_lines(points: pd.DataFrame) -> list[str]:
     header = ["m / (mol/kg)", *(["electrode"] if electrodes else []), "E / mV",
               "residual / mV", "γ± (u)"]
     rows = []
-    for _, row in points.iterrows():
+    for row in points.to_dict("records"):
         cells = [f"{row['molality_mol_kg']:.6g}"]
         if electrodes:
             cells.append(row["electrode"] if isinstance(row["electrode"], str) else "")
@@ -221,7 +221,7 @@ def _gamma_budget_lines(reduction: Reduction) -> list[str]:
     names = [c.removeprefix("u_gamma_pm_") for c in columns]
     lines = ["", "  uncertainty budget of γ± (k = 1; each input alone)",
              "  m / (mol/kg)   " + "".join(f"{name:<14}" for name in names) + "combined"]
-    for _, row in chosen.iterrows():
+    for row in chosen.to_dict("records"):
         lines.append(f"  {row['molality_mol_kg']:<13.6g}  "
                      + "".join(f"{row[c]:<14.2g}" for c in columns)
                      + f"{row['u_gamma_pm']:.2g}")
