@@ -46,6 +46,10 @@ GAMMA_HCL = 0.904
 PHOSPHATE_PH, PHOSPHATE_I = 6.865, 0.1
 # Vapour pressure of water at 25 °C, IAPWS-95: 3.1699 kPa (../shared/reference-values.md).
 WATER_VAPOUR_25C_PA = 3169.9
+# Vapour pressure of water / kPa by t/°C, steam tables after IAPWS-95 (Wagner & Pruß 2002;
+# from memory, the 25 °C value confirmed as above).
+WATER_VAPOUR_KPA = {15: 1.7057, 20: 2.3392, 25: 3.1699, 30: 4.2470, 35: 5.6291, 40: 7.3849,
+                    45: 9.5953}
 ATM_PA = 101325.0
 
 
@@ -267,9 +271,9 @@ def test_a_shifted_electrode_moves_the_ph_by_the_nernst_slope(tmp_path):
 def test_phthalate_ph_of_temperature_reproduces_hamer_pinching_acree(tmp_path):
     # pH(T) of 0.05 mol/kg KHP from Hamer, Pinching & Acree (1946) at 15–45 °C, within 0.003;
     # E°(T) from Bates & Bower (1954), I = 0.053 mol/kg (Buck et al. 2002, from memory), A(T)
-    # from Pitzer, Peiper & Busey (1984); readings at p(H2) = p° (no pressure column).
+    # from Pitzer, Peiper & Busey (1984); H2 at 101.325 kPa less the vapour pressure of water.
     rng = np.random.default_rng(7)
-    rows = ["chloride_molality_mol_kg,electrode,emf_mV,temperature_C"]
+    rows = ["chloride_molality_mol_kg,electrode,emf_mV,temperature_C,pressure_kPa"]
     potentials = []
     for t_C, e0 in BATES_BOWER_E0.items():
         t = t_C + 273.15
@@ -279,8 +283,10 @@ def test_phthalate_ph_of_temperature_reproduces_hamer_pinching_acree(tmp_path):
                                             "Bates & Bower 1954"))
         for m in (0.005, 0.010, 0.015):
             acidity = hamer_pinching_acree(t_C) - log_gamma + 0.05 * m
-            e = e0 + k10 * (acidity - math.log10(m)) + rng.normal(0.0, 0.01e-3)
-            rows.append(f"{m},KHP-1,{e * 1e3:.4f},{t_C}")
+            p_h2 = ATM_PA - WATER_VAPOUR_KPA[t_C] * 1e3
+            e = (e0 + k10 * (acidity - math.log10(m)) - 0.5 * k10 * math.log10(ATM_PA / p_h2)
+                 + rng.normal(0.0, 0.01e-3))
+            rows.append(f"{m},KHP-1,{e * 1e3:.4f},{t_C},101.325")
     (tmp_path / "khp.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
     (tmp_path / "khp.toml").write_text("buffer_ionic_strength_mol_kg = 0.053\n"
                                        'buffer = "phthalate"\n', encoding="utf-8")
@@ -337,3 +343,18 @@ def test_a_common_offset_of_emf_and_e0_leaves_the_ph(tmp_path_factory, offset_V)
     assert moved.isotherms[0].ph == pytest.approx(base.isotherms[0].ph, abs=1e-9)
     assert moved.isotherms[0].standard_uncertainty == pytest.approx(
         base.isotherms[0].standard_uncertainty, rel=1e-6)
+
+
+def test_missing_barometric_pressure_is_a_type_b_line(tmp_path):
+    # without a pressure the readings are taken as at p(H2) = p°, and the correction that
+    # would be made at 101.325 kPa, ½ log10(p°/(p − p_w)) = 0.0040 at 25 °C with p_w = 3.1699
+    # kPa (reference-values.md), becomes a rectangular Type B line
+    path = write_phosphate(tmp_path)
+    lines = path.read_text(encoding="utf-8").splitlines()
+    path.write_text("\n".join(line.rsplit(",", 1)[0] for line in lines) + "\n",
+                    encoding="utf-8")
+    (iso,) = primary_ph(path).isotherms
+    (line,) = [b for b in iso.budget if b.component == "hydrogen pressure"]
+    assert line.u_pH == pytest.approx(
+        0.5 * math.log10(ATM_PA / (ATM_PA - WATER_VAPOUR_25C_PA)) / math.sqrt(3.0), rel=2e-3)
+    assert any("no barometric pressure" in note for note in iso.notes)

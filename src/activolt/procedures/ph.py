@@ -613,8 +613,10 @@ def _path_key(value: Any, base: Path, key: str, text: str, where: str) -> Path:
     return path if path.is_absolute() else base / path
 
 
-def _stated(ph_keys: Mapping[str, Any], text: str, where: str, basis_Pa: float
-            ) -> tuple[StandardPotential, ...]:
+def _stated(ph_keys: Mapping[str, Any], text: str, where: str, basis_Pa: float,
+            default_temperature_K: float | None) -> tuple[StandardPotential, ...]:
+    """Stated E° values, at ``standard_potential_temperature_C``, else at the metadata's
+    temperature or the readings' one temperature (None when they span several)."""
     value = ph_keys["standard_potential_mV"]
     u = ph_keys.get("u_standard_potential_mV")
     if u is None:
@@ -630,6 +632,15 @@ def _stated(ph_keys: Mapping[str, Any], text: str, where: str, basis_Pa: float
                          file=where, line=_key_line(text, "standard_potential_temperature_C"),
                          column="standard_potential_temperature_C")
     t_K = None if temperature is None else float(temperature) + ZERO_CELSIUS_K
+    if t_K is None:
+        t_K = default_temperature_K
+    if t_K is None:
+        raise InputError("the readings span several temperatures; say where the stated E° "
+                         "holds with standard_potential_temperature_C (or take E° from "
+                         "calibrations at each temperature: calibration_batch or "
+                         "calibration_record)", file=where,
+                         line=_key_line(text, "standard_potential_mV"),
+                         column="standard_potential_temperature_C")
 
     def number(x: Any, key: str, low: float, high: float) -> float:
         if isinstance(x, bool) or not isinstance(x, int | float) or not low <= x <= high:
@@ -707,7 +718,11 @@ def _standard_potentials(run: Run, ph_keys: Mapping[str, Any], text: str,
             files.append(record_path)
         return tuple(values), "calibration record " + ", ".join(
             Path(str(i)).name for i in items), tuple(files)
-    return (_stated(ph_keys, text, where, run.metadata.standard_pressure_Pa),
+    readings_K = run.points["temperature_K"].dropna().to_numpy(float)
+    default_K = run.metadata.temperature_K
+    if default_K is None and readings_K.size and np.ptp(readings_K) <= ISOTHERM_TOLERANCE_K:
+        default_K = float(np.mean(readings_K))
+    return (_stated(ph_keys, text, where, run.metadata.standard_pressure_Pa, default_K),
             "stated in the metadata", ())
 
 
@@ -986,10 +1001,18 @@ def _isotherm(rows: _Rows, run: Run, buffer: BufferSpec,
             f"stated u(p) = {meta.u_pressure_Pa / 1e3:g} kPa (metadata u_pressure_kPa), "
             "through p(H2) = p_bar − p_w(T); sensitivity by one finite step"))
     else:
-        budget.append(PhBudgetLine("hydrogen pressure", 0.0, math.inf,
-                                   "no barometric pressure given: no correction to p° made"))
-        notes.append("no barometric pressure: the readings are taken as at p(H2) = p° (an "
-                     "error of (RT/2F) ln(p°/p_H2), about 0.002 pH at sea level)")
+        # the correction that would be made at the standard atmosphere, in pH units:
+        # ½ log10(p°/p_H2) with p_H2 = 101.325 kPa − p_w(T)
+        p_h2 = hydrogen_partial_pressure(rows.temperature, np.full(len(rows.line), 101325.0),
+                                         bubbler_depth_m=meta.bubbler_depth_m)
+        size = abs(float(np.mean(0.5 * np.log10(rows.basis / p_h2))))
+        budget.append(PhBudgetLine(
+            "hydrogen pressure", size / math.sqrt(3.0), math.inf,
+            "no barometric pressure given: the readings are taken as at p(H2) = p°; Type B, "
+            f"rectangular of half-width {size:.4f} (the correction at 101.325 kPa)"))
+        notes.append("no barometric pressure: the readings are taken as at p(H2) = p° (the "
+                     f"correction at 101.325 kPa would be {size:.4f} in pH, counted as a Type B "
+                     "line); give pressure_kPa for the correction")
     voltmeter = float(meta.calibration.get("voltmeter_u_V", 0.0))
     budget.append(PhBudgetLine(
         "voltmeter", voltmeter * abs(float(np.sum(h / k10))), math.inf,
