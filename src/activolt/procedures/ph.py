@@ -52,7 +52,7 @@ import pandas as pd
 from ..chemistry.electrodes import silver_chloride_standard_potential
 from ..chemistry.electrolytes import parse_electrolyte
 from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K, ZERO_CELSIUS_K
-from ..data.runs import Run, read_runs
+from ..data.runs import MAX_TABLE_BYTES, Run, read_runs
 from ..errors import FitError, InputError
 from ..fit.least_squares import linear_least_squares
 from ..fit.uncertainty import student_t_factor
@@ -450,6 +450,10 @@ def _key_line(text: str, key: str) -> int | None:
 def _renamed_table(path: Path) -> str:
     """The buffer table's text with its chloride column named as the run reader expects."""
     try:
+        if path.stat().st_size > MAX_TABLE_BYTES:
+            raise InputError(f"the buffer table is larger than {MAX_TABLE_BYTES // 2**20} MB, "
+                             "more than activolt reads; check that this is the right file",
+                             file=str(path))
         text = path.read_bytes().decode("utf-8-sig")
     except OSError as error:
         raise InputError(f"cannot read the buffer table ({error.strerror}); check the path",
