@@ -358,3 +358,23 @@ def test_missing_barometric_pressure_is_a_type_b_line(tmp_path):
     assert line.u_pH == pytest.approx(
         0.5 * math.log10(ATM_PA / (ATM_PA - WATER_VAPOUR_25C_PA)) / math.sqrt(3.0), rel=2e-3)
     assert any("no barometric pressure" in note for note in iso.notes)
+
+
+def test_a_calibration_batch_at_two_temperatures_gives_e0_per_temperature(tmp_path):
+    # the batch's rows are calibrated per temperature, and each buffer isotherm takes the E°
+    # of its own temperature (the readings are copies: a test of the grouping only)
+    path = write_phosphate(tmp_path)
+    batch = (tmp_path / "batch.csv").read_text(encoding="utf-8").splitlines()
+    warm = [f"{line},35.0" for line in batch[1:]]
+    cold = [f"{line},25.0" for line in batch[1:]]
+    (tmp_path / "batch.csv").write_text("\n".join([batch[0] + ",temperature_C", *cold, *warm])
+                                        + "\n", encoding="utf-8")
+    rows = path.read_text(encoding="utf-8").splitlines()
+    path.write_text("\n".join([rows[0] + ",temperature_C", *[f"{r},25.0" for r in rows[1:]],
+                               *[f"{r},35.0" for r in rows[1:]]]) + "\n", encoding="utf-8")
+    result = primary_ph(path)
+    assert [round(i.temperature_K - 273.15, 2) for i in result.isotherms] == [25.0, 35.0]
+    by_temperature = {round(s.temperature_K - 273.15, 1) for s in result.standard_potentials}
+    assert by_temperature == {25.0, 35.0}
+    assert len(result.standard_potentials) == 6
+    assert result.temperature_fit is not None and result.temperature_fit.form == "a + b(T − θ)"
