@@ -342,7 +342,7 @@ def _sqlite_setup(engine: Engine) -> None:
 
 
 @lru_cache(maxsize=32)
-def _ignoring_insert(paramstyle: str, table: Any) -> tuple[str, tuple[str, ...]]:
+def _ignoring_insert(dialect: Any, table: Any) -> tuple[str, tuple[str, ...]]:
     """``INSERT … ON CONFLICT DO NOTHING`` of every column of ``table`` as the driver's SQL
     (SQLite ≥ 3.24 and PostgreSQL ≥ 9.5 both understand it), and the columns in order.
 
@@ -350,9 +350,10 @@ def _ignoring_insert(paramstyle: str, table: Any) -> tuple[str, tuple[str, ...]]
     building statements.
     """
     names = tuple(column.name for column in table.columns)
-    mark = "?" if paramstyle == "qmark" else "%s"
-    sql = (f'INSERT INTO {table.name} ({", ".join(names)}) VALUES '
-           f'({", ".join(mark for _ in names)}) ON CONFLICT DO NOTHING')
+    quote = dialect.identifier_preparer.quote  # temperature_K keeps its case on PostgreSQL
+    mark = "?" if dialect.paramstyle == "qmark" else "%s"
+    sql = (f"INSERT INTO {quote(table.name)} ({', '.join(quote(n) for n in names)}) VALUES "
+           f"({', '.join(mark for _ in names)}) ON CONFLICT DO NOTHING")
     return sql, names
 
 
@@ -363,7 +364,7 @@ def _insert_ignore(connection: Connection, table: Any, rows: list[dict[str, Any]
     dialect = connection.dialect
     if dialect.name in ("sqlite", "postgresql") and dialect.paramstyle in (
             "qmark", "format", "pyformat"):
-        sql, names = _ignoring_insert(dialect.paramstyle, table)
+        sql, names = _ignoring_insert(dialect, table)
         connection.exec_driver_sql(sql, [tuple(row.get(name) for name in names)
                                          for row in rows])
         return
