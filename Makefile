@@ -5,12 +5,12 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test test-slow bench lint clean
+.PHONY: demo test test-slow bench lint docs notebooks clean
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
-	$(BIN)/python -m pip install --quiet -e '.[test]'
+	$(BIN)/python -m pip install --quiet -e '.[test,docs]'
 	touch $(STAMP)
 
 demo: $(STAMP)
@@ -29,5 +29,19 @@ bench: $(STAMP)
 lint: $(STAMP)
 	$(BIN)/ruff check .
 
+# The documentation (Sphinx: numpydoc, autodoc, the notebooks executed by myst-nb) into
+# docs/_build/html; a warning is an error.
+docs: $(STAMP)
+	$(BIN)/python -c "import sphinx, numpydoc, myst_nb" 2>/dev/null || \
+		$(BIN)/python -m pip install --quiet -e '.[docs]'
+	MPLBACKEND=Agg $(BIN)/python -m sphinx -b html -W --keep-going -j auto docs docs/_build/html
+	@echo "open docs/_build/html/index.html"
+
+# The worked examples in JupyterLab, from the project's venv.
+notebooks: $(STAMP)
+	$(BIN)/python -c "import jupyterlab" 2>/dev/null || \
+		$(BIN)/python -m pip install --quiet -e '.[notebooks]'
+	$(BIN)/jupyter lab notebooks/
+
 clean:
-	rm -rf $(VENV) demo_output .pytest_cache build src/*.egg-info
+	rm -rf $(VENV) demo_output .pytest_cache build src/*.egg-info docs/_build docs/api

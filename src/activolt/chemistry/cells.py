@@ -6,15 +6,13 @@ oxidation happens at the left electrode, reduction at the right, ``|`` is a phas
 ``||`` a salt bridge. Our plain notation, one phase between bars:
 
 * a species is ``FORMULA[CHARGE](STATE)`` as in :mod:`activolt.chemistry.reactions`; the state is
-``s``,
-  ``l``, ``g``, ``aq`` or ``Hg`` (an amalgam, e.g. ``K(Hg)``);
+  ``s``, ``l``, ``g``, ``aq`` or ``Hg`` (an amalgam, e.g. ``K(Hg)``);
 * several species of one phase are separated by commas: ``Pt | Fe2+(aq), Fe3+(aq), Cl-(aq) | …``;
 * an amount may follow the state after a comma: a molality for a solute,
   ``HCl(aq, 0.01 mol/kg)`` (units ``mol/kg``, ``mmol/kg``), or a partial pressure for a gas,
   ``H2(g, 101.325 kPa)`` (units ``Pa``, ``kPa``, ``MPa``, ``bar``, ``atm``);
 * an aqueous neutral formula that :func:`activolt.chemistry.electrolytes.parse_electrolyte` knows
-is an
-  electrolyte (``HCl(aq)`` gives H+ and Cl−); any other neutral aqueous formula is a molecular
+  is an electrolyte (``HCl(aq)`` gives H+ and Cl−); any other neutral aqueous formula is a molecular
   solute (``C6H4O2(aq)``);
 * inert electronic conductors need no state: ``Pt``, ``Au``, ``C(graphite)`` (or with ``(s)``).
 

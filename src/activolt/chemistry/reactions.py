@@ -874,8 +874,8 @@ def nernst_expression(reaction: CellReaction, find_electrolyte: bool = True
     .. math:: E = E° − \frac{RT}{nF} \sum_i ν_i \ln a_i
 
     with a = 1 for pure solids and liquids, a ≈ p/p° for gases, a constant (folded into E°)
-    for amalgams, and a_+^{ν_+} a_-^{ν_-} = (m_± γ_±)^ν for the ions of one electrolyte, which
-    gives the factor νRT/nF (Harned & Owen 1958, ch. 10).
+    for amalgams, and :math:`a_+^{ν_+} a_-^{ν_-} = (m_± γ_±)^ν` for the ions of one electrolyte,
+    which gives the factor νRT/nF (Harned & Owen 1958, ch. 10).
 
     Examples
     --------
