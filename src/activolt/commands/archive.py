@@ -232,6 +232,10 @@ def archive_written(written: Sequence[Path], location: str | None) -> list[str]:
     """
     from ..io.archive import open_archive
 
+    if location and Path(location).suffix.lower() in (".csv", ".toml", ".json"):
+        raise InputError(f"'{location}' looks like an input, not an archive; the outputs are "
+                         "written but not archived: write --archive=LOCATION, or put "
+                         "--archive after the run tables", column="--archive")
     paths = [Path(p) for p in written]
     records: dict[Path, dict[str, Any]] = {}
     for path in paths:
@@ -471,7 +475,10 @@ def _rereduce_reduction(record: dict[str, Any], folder: Path, names: dict[str, s
 
         model_names = [m["name"] for m in compared.get("models") or []] + [
             s["name"] for s in compared.get("skipped") or []]
-        per_model = {n: fixed for n in model_names} if fixed else None
+        from ..activity import get_model
+
+        per_model = {n: {k: v for k, v in fixed.items() if k in get_model(n).parameter_names}
+                     for n in model_names} if fixed else None
         comparison = compare_models(exclude_points(run, exclusions) if exclusions else run,
                                     model_names, per_model)
         reduction = comparison.recommended_reduction
