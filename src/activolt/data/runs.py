@@ -1048,6 +1048,9 @@ def _series_run(path: Path, sha256: str, metadata_path: Path | None, points: pd.
             "they are kept in the record, flagged, and left out of the fit"
         )
     points["flag"] = points["flag"].astype(object)
+    # The reader's notes (points.attrs) have served; pandas would deep-copy them into every
+    # column and frame taken from the points.
+    points.attrs.clear()
     return Run(path=path, sha256=sha256, metadata_path=metadata_path, points=points,
                metadata=metadata, warnings=tuple(warnings))
 
