@@ -8,6 +8,7 @@ conventional value at which a parameter is held when the data cannot determine i
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
@@ -98,7 +99,7 @@ class ActivityModel:
     max_ionic_strength: float
     truncation: ModelFunction | None = None
 
-    @property
+    @functools.cached_property
     def parameter_names(self) -> tuple[str, ...]:
         """Names of the parameters in order."""
         return tuple(p.name for p in self.parameters)

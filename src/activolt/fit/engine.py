@@ -76,11 +76,11 @@ class MeasurementModel:
 
     def ln_gamma(self, values: np.ndarray) -> np.ndarray:
         """ln γ± of the model [-], shape (S, N), at parameter values of shape (S, P)."""
-        parameters = {name: values[:, [index]] for index, name in
+        parameters = {name: values[:, index:index + 1] for index, name in
                       enumerate(self.activity.parameter_names, start=1)}
-        return np.broadcast_to(self.activity.ln_gamma(self.electrolyte, self.molality,
-                                                      self.constants, parameters),
-                               self.molality.shape)
+        out = self.activity.ln_gamma(self.electrolyte, self.molality, self.constants, parameters)
+        return out if np.shape(out) == self.molality.shape else np.broadcast_to(
+            out, self.molality.shape)
 
     def predict(self, values: np.ndarray) -> np.ndarray:
         """E [V], shape (S, N), at values of shape (S, P) in the order of :attr:`names`.
