@@ -19,6 +19,7 @@ import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
+from types import MappingProxyType
 from typing import Any
 
 import numpy as np
@@ -170,6 +171,11 @@ class RunMetadata:
     calibration: Mapping[str, Any] = field(default_factory=dict)
 
 
+#: The numeric columns of a run's points (:attr:`Run.arrays`).
+NUMERIC_COLUMNS = ("line", "molality_mol_kg", "emf_V", "u_emf_V", "u_molality_mol_kg",
+                   "temperature_K", "pressure_Pa")
+
+
 @dataclass(frozen=True)
 class Run:
     """A validated run: the readings in SI units, the metadata and what the reader noticed.
@@ -208,11 +214,22 @@ class Run:
         return mask
 
     @functools.cached_property
+    def arrays(self) -> Mapping[str, np.ndarray]:
+        """The numeric columns of :attr:`points` (every row) as read-only float arrays:
+        ``line``, ``molality_mol_kg``, ``emf_V``, ``u_emf_V``, ``u_molality_mol_kg``,
+        ``temperature_K``, ``pressure_Pa`` (taken out of the table once per run)."""
+        found = {}
+        for name in NUMERIC_COLUMNS:
+            column = self.points[name].to_numpy(float, copy=True)
+            column.flags.writeable = False
+            found[name] = column
+        return MappingProxyType(found)
+
+    @functools.cached_property
     def emf_uncertainty_given(self) -> bool:
         """Whether every usable reading has a stated standard uncertainty."""
         usable = self.usable
-        return bool(usable.any()
-                    and not np.isnan(self.points["u_emf_V"].to_numpy(float)[usable]).any())
+        return bool(usable.any() and not np.isnan(self.arrays["u_emf_V"][usable]).any())
 
 
 def _decode(path: Path, raw: bytes) -> str:

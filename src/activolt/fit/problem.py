@@ -133,13 +133,13 @@ class SeriesInputs:
 
 def series_inputs(run: Run) -> SeriesInputs:
     """The usable rows of ``run`` as :class:`SeriesInputs`."""
-    points, usable = run.points, run.usable
+    arrays, usable = run.arrays, run.usable
 
     def column(name: str) -> np.ndarray:
-        return points[name].to_numpy(float)[usable]
+        return arrays[name][usable]
 
     return SeriesInputs(
-        line=points["line"].to_numpy()[usable], molality=column("molality_mol_kg"),
+        line=column("line").astype(int), molality=column("molality_mol_kg"),
         temperature_K=column("temperature_K"), emf_V=column("emf_V"),
         u_emf_V=column("u_emf_V") if run.emf_uncertainty_given else None,
         u_molality_mol_kg=column("u_molality_mol_kg"), pressure_Pa=column("pressure_Pa"))

@@ -575,8 +575,8 @@ def _split_fixed(fixed: Mapping[str, Any] | None
 def _within_range(run: Run, family: ActivityModel) -> tuple[Run, str | None]:
     """The run with readings beyond the model's ionic-strength range flagged and left out, and a
     warning saying so; FitError when fewer than three readings remain within it."""
-    usable = run.points["flag"].isna().to_numpy()
-    ionic = run.metadata.electrolyte.ionic_strength(run.points["molality_mol_kg"].to_numpy(float))
+    usable = run.usable
+    ionic = run.metadata.electrolyte.ionic_strength(run.arrays["molality_mol_kg"])
     limit = family.max_ionic_strength
     beyond = usable & (ionic > limit * (1.0 + 1e-9))
     if not beyond.any():
@@ -725,7 +725,7 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
                          "series (at least 3 molalities); a single solution gives E° only with "
                          "a stated γ±, as in the calibration of electrodes", file=str(run.path))
     electrolyte = run.metadata.electrolyte
-    temperature = run.points.loc[run.points["flag"].isna(), "temperature_K"].to_numpy(float)
+    temperature = run.arrays["temperature_K"][run.usable]
     spread = float(temperature.max() - temperature.min())
     if spread > MAX_TEMPERATURE_SPREAD_K:
         raise InputError(f"the readings span {spread:.2f} K; one E° needs one temperature "
@@ -986,10 +986,14 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     The temperature is stepped downward at the boiling end and upward at the ice point, so
     that the step stays within liquid water."""
     meta = run.metadata
+    if not (meta.u_temperature_K > 0 or meta.u_stock_molality_relative > 0
+            or meta.u_electrode_offset_V > 0
+            or (meta.u_pressure_Pa > 0 and data.correction_V is not None)):
+        return []
     inputs = series_inputs(run)
     shifts = []
     if meta.u_temperature_K > 0:
-        hot = float(run.points["temperature_K"].max()) + _TEMPERATURE_STEP_K > 373.15
+        hot = float(np.nanmax(run.arrays["temperature_K"])) + _TEMPERATURE_STEP_K > 373.15
         step = -_TEMPERATURE_STEP_K if hot else _TEMPERATURE_STEP_K
         shifts.append(("temperature", meta.u_temperature_K, step, dataclasses.replace(
             inputs, temperature_K=inputs.temperature_K + step), meta))
