@@ -30,6 +30,8 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from sqlalchemy import create_engine, func, select, text
 
 from activolt.cli import main
@@ -39,6 +41,7 @@ from activolt.io.archive import (
     ENVIRONMENT_VARIABLE,
     FRAME_COLUMNS,
     archive_url,
+    canonical_json,
     open_archive,
     record_hash,
 )
@@ -128,6 +131,24 @@ def test_same_record_twice_is_stored_once(location, made):
     plain = json.dumps(made["run"], sort_keys=True, separators=(",", ":"), ensure_ascii=False)
     assert first == hashlib.sha256(plain.encode("utf-8")).hexdigest()
     assert record_hash(made["run"]) == first
+
+
+JSON_VALUES = st.recursive(
+    st.none() | st.booleans() | st.integers(-10**15, 10**15)
+    | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=12),
+    lambda inner: st.lists(inner, max_size=4) | st.dictionaries(st.text(max_size=6), inner,
+                                                                max_size=4),
+    max_leaves=25)
+
+
+@settings(derandomize=True, max_examples=200)
+@given(st.dictionaries(st.text(max_size=8), JSON_VALUES, max_size=8))
+def test_the_key_ignores_key_order_and_the_canonical_form_round_trips(mapping):
+    """Law: the order in which a record's keys were written never changes its key, and the
+    canonical JSON reads back as the same record (common practice for content addressing)."""
+    reordered = dict(reversed(list(mapping.items())))
+    assert record_hash(reordered) == record_hash(mapping)
+    assert json.loads(canonical_json(mapping)) == mapping
 
 
 def test_inputs_and_outputs_kept_byte_for_byte(location, made):
@@ -320,11 +341,11 @@ _WRITER_CHILD = r"""
 import json, os, sys, time
 from activolt.io.archive import open_archive
 
-archive = open_archive(sys.argv[1])
 record = json.loads(open(sys.argv[2], encoding="utf-8").read())
 tag, count, go = sys.argv[3], int(sys.argv[4]), sys.argv[5]
 while not os.path.exists(go):
     time.sleep(0.005)
+archive = open_archive(sys.argv[1])
 for i in range(count):
     mine = dict(record, run_info={**record["run_info"], "description": f"{tag} {i}"})
     archive.add(mine, inputs={"shared.csv": b"the same table"},
@@ -378,8 +399,7 @@ def test_sigkill_mid_add_leaves_the_archive_consistent(location, made, tmp_path)
 def test_two_writers_at_once_both_land(location, made, tmp_path):
     record_path = tmp_path / "record.json"
     record_path.write_text(json.dumps(made["run"]), encoding="utf-8")
-    open_archive(location).close()  # created before the race (creation races are tested
-    go = tmp_path / "go"              # by the writers' own first opening on PostgreSQL)
+    go = tmp_path / "go"  # the archive does not exist yet: both writers create it at once
     children = [_child(_WRITER_CHILD, location, str(record_path), tag, "25", str(go))
                 for tag in ("first", "second")]
     go.write_text("go")
