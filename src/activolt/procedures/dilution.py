@@ -790,9 +790,9 @@ def _fit_and_hold(start: _Start) -> _Held:
         if first_fit is None:
             refined = _with_effective_variance(
                 family, electrolyte, _with_vapour_lowering(run, family, data, fit), fit)
-            if refined is not data:
+            if refined is not data:  # refit from the first optimum: a few steps away
                 data = refined
-                fit = _fit_once(family, electrolyte, data, values, free)
+                fit = _fit_once(family, electrolyte, data, fit.values, free)
         first_fit = first_fit or fit
         hold = _hard_failure(family, fit) or _not_supported(family, electrolyte, data, fit,
                                                              values)
