@@ -858,6 +858,7 @@ def build_ph_record(result: PhResult, created: datetime | None = None,
         "record_kind": PH_KIND,
         "software": {"name": "activolt", "version": __version__},
         "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "provenance": provenance(),
         "input": (_input_record(run, record_folder) if run is not None
                   else {"file": "", "sha256": "0" * 64}),
         "run_info": dict(meta.info) if meta is not None else {},
