@@ -195,3 +195,8 @@ def test_many_headline_names_a_refused_series() -> None:
     assert set(points["series"]) == {"A", "B"}
     assert len(points) == 2 * MOLALITY.size
     assert (points["file"] == "DataFrame").all()
+
+
+def test_many_repr_is_one_line() -> None:
+    result = reduce_many(_frame("A"), metadata=METADATA)
+    assert repr(result) == "<ManyReductions: 1 of 1 series reduced, model hueckel>"

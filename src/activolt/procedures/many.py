@@ -148,6 +148,10 @@ class ManyReductions:
             return pd.DataFrame(columns=["file"])
         return pd.concat(frames, ignore_index=True)
 
+    def __repr__(self) -> str:
+        return (f"<ManyReductions: {len(self.reductions)} of {len(self)} series reduced, "
+                f"model {self.model}>")
+
     def _repr_html_(self) -> str:
         """The headline table for a notebook: one row per series with n, the model, E° ± u
         (k = 1), χ²/ν and its flags or the reason it was not reduced."""
