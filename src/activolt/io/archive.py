@@ -44,6 +44,7 @@ from sqlalchemy import (
     create_engine,
     event,
     func,
+    make_url,
     or_,
     select,
     true,
@@ -829,9 +830,9 @@ def open_archive(location: str | os.PathLike[str] | None = None) -> Archive:
     shown = url.split("@")[-1] if "@" in url else url
     try:
         if url.startswith("sqlite"):
-            path = url.removeprefix("sqlite:///")
-            if path and path != ":memory:" and not url.startswith("sqlite://?"):
-                Path(path).parent.mkdir(parents=True, exist_ok=True)
+            database = make_url(url).database
+            if database and database != ":memory:" and not database.startswith("file:"):
+                Path(database).parent.mkdir(parents=True, exist_ok=True)
             engine = create_engine(url, connect_args={"timeout": BUSY_TIMEOUT_S})
             _sqlite_setup(engine)
         else:
