@@ -578,3 +578,39 @@ def test_records_carry_their_provenance(made):
     for key in ("lab", "operator", "instrument"):
         assert made["run"]["run_info"][key] and made["batch"]["run_info"][key]
     assert made["batch"]["provenance"]["command_line"][:2] == ["activolt", "calibrate"]
+
+
+def test_a_batch_files_each_record_with_its_own_outputs(made, tmp_path, capsys):
+    for stem in ("runA", "runA.b"):  # "runA" is a prefix of "runA.b": the longer name wins
+        for suffix in (".csv", ".toml"):
+            shutil.copy(made["folder"] / f"kestrel_hcl_25C{suffix}", tmp_path / f"{stem}{suffix}")
+    location = tmp_path / "lab.sqlite"
+    assert main(["reduce", str(tmp_path / "runA.csv"), str(tmp_path / "runA.b.csv"),
+                 "--figures", "none", f"--archive={location}"]) == 0
+    assert capsys.readouterr().out.count("archived: ") == 2
+    with open_archive(location) as archive:
+        stored = {archive.record(e.hash)["input"]["file"]: archive.get(e.hash)
+                  for e in archive.find()}
+    assert len(stored) == 2
+    (a,) = [s for name, s in stored.items() if name.endswith("runA.csv")]
+    (b,) = [s for name, s in stored.items() if name.endswith("runA.b.csv")]
+    assert all(name.startswith("runA.") and not name.startswith("runA.b.")
+               for name in a.outputs), a.outputs
+    assert all(name.startswith("runA.b.") for name in b.outputs), b.outputs
+    assert "runA.record.json" in a.outputs and "runA.b.record.json" in b.outputs
+    assert a.inputs == ("runA.csv", "runA.toml") and b.inputs == ("runA.b.csv", "runA.b.toml")
+
+
+def test_export_to_standard_output(made, tmp_path, capfdbinary):
+    location = str(tmp_path / "archive.sqlite")
+    with open_archive(location) as archive:
+        archive.add(made["run"])
+        archive.add(made["batch"])
+    capfdbinary.readouterr()
+    assert main(["archive", "export", "--format", "jsonl", "--archive", location]) == 0
+    lines = capfdbinary.readouterr().out.decode("utf-8").splitlines()
+    assert sorted(json.loads(line)["hash"] for line in lines) == sorted(
+        [record_hash(made["run"]), record_hash(made["batch"])])
+    assert main(["archive", "export", "--format", "parquet", "--archive", location]) == 0
+    frame = pd.read_parquet(io.BytesIO(capfdbinary.readouterr().out))
+    assert set(frame["kind"]) == {"reduction", "calibration"}
