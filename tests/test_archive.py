@@ -614,3 +614,13 @@ def test_export_to_standard_output(made, tmp_path, capfdbinary):
     assert main(["archive", "export", "--format", "parquet", "--archive", location]) == 0
     frame = pd.read_parquet(io.BytesIO(capfdbinary.readouterr().out))
     assert set(frame["kind"]) == {"reduction", "calibration"}
+
+
+def test_a_record_made_from_the_library_has_no_command_line(made):
+    from activolt.data.runs import read_run
+    from activolt.io.record import build_record
+    from activolt.procedures.dilution import reduce_run
+
+    record = build_record(reduce_run(read_run(made["folder"] / "kestrel_hcl_25C.csv")))
+    assert record["provenance"]["command_line"] is None
+    assert record["provenance"]["python_version"] == ".".join(map(str, sys.version_info[:3]))
