@@ -434,9 +434,10 @@ class Archive:
         ----------
         record : mapping
             An ``activolt-record/1`` record (the dict of its JSON).
-        inputs, outputs : mapping of name to bytes (or text, or a path), or paths
-            The record's input files (run table, metadata) and output set; paths are stored
-            under their file names.
+        inputs, outputs : mapping of name to bytes, str or pathlib.Path; or paths
+            The record's input files (run table, metadata) and output set: a ``str`` value is
+            the file's text (stored as UTF-8), a ``pathlib.Path`` value the file to read; a
+            plain sequence of paths stores each under its file name.
         supersedes : str, optional
             The hash of the archived record this one replaces (a re-reduction); written into
             the record as ``supersedes`` before it is hashed.
