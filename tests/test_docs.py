@@ -59,3 +59,29 @@ def test_the_equations_are_rendered_as_math(built: Path) -> None:
     page = (built / "guide" / "uncertainty.html").read_text(encoding="utf-8")
     assert page.count('class="math') >= 5
     assert "Welch" in page and "GUM" in page
+
+
+def test_bars_of_absolute_values_are_escaped_outside_math_and_literals() -> None:
+    # Docstrings write |x| for an absolute value; reStructuredText would read a substitution.
+    import runpy
+
+    hook = runpy.run_path(str(DOCS / "conf.py"))["escape_absolute_values"]
+    lines = ["pass when |d| ≤ T and ``|literal|`` stays,",
+             ".. math:: |z_+ z_-|",
+             "    \\left|x\\right|",
+             "",
+             ">>> abs(-1)  # |x|",
+             "1",
+             "",
+             "| a line block stays",
+             "|z+ z−| [-]."]
+    hook(None, "function", "f", None, None, lines)
+    assert lines == ["pass when \\|d\\| ≤ T and ``|literal|`` stays,",
+                     ".. math:: |z_+ z_-|",
+                     "    \\left|x\\right|",
+                     "",
+                     ">>> abs(-1)  # |x|",
+                     "1",
+                     "",
+                     "| a line block stays",
+                     "\\|z+ z−\\| [-]."]
