@@ -120,3 +120,17 @@ def test_an_e0_source_is_never_overwritten(sample, capsys):
     assert status == 2 and len(stderr.strip().splitlines()) == 1
     assert source.read_bytes() == before
     assert sorted(p.name for p in out.iterdir()) == ["kestrel_phosphate_ph.record.json"]
+
+
+def test_ph_files_its_record_inputs_and_outputs_in_the_archive(sample, capsys):
+    from activolt.io.archive import open_archive
+
+    out, store = sample.parent / "out", sample.parent / "lab.sqlite"
+    status, _, stderr = run_ph([str(sample), "--out", str(out), f"--archive={store}"], capsys)
+    assert status == 0, stderr
+    archive = open_archive(store)
+    (entry,) = archive.find(kind="ph")
+    record = json.loads((out / "kestrel_phosphate_ph.record.json").read_text(encoding="utf-8"))
+    assert archive.record(entry.hash)["ph"] == record["ph"]
+    assert archive.output(entry.hash, "report.html") == (
+        out / "kestrel_phosphate_ph.report.html").read_bytes()

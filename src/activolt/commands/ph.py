@@ -50,6 +50,12 @@ def add_parser(commands: Any) -> argparse.ArgumentParser:
     parser.add_argument("--meta", type=Path, help="its metadata (TOML); default TABLE.toml")
     parser.add_argument("--out", type=Path,
                         help="folder for the outputs; default TABLE_activolt next to the table")
+    parser.add_argument("--archive", nargs="?", const="", dest="archive_to",
+                        metavar="LOCATION",
+                        help="also add the record, its inputs and outputs to the archive (an "
+                             "SQLite path or an SQLAlchemy URL; without LOCATION, "
+                             "ACTIVOLT_ARCHIVE or the per-user archive); put it after the "
+                             "table or write --archive=LOCATION")
     parser.add_argument("--buffer", help="catalogue name of the buffer (phosphate, phthalate, "
                         "borax, …); overrides the metadata")
     parser.add_argument("--ionic-strength-mol-kg", type=float, dest="ionic_strength_mol_kg",
