@@ -12,6 +12,7 @@ from __future__ import annotations
 import pkgutil
 import re
 import sys
+import warnings
 from importlib.metadata import PackageNotFoundError
 from importlib.metadata import version as _package_version
 from pathlib import Path
@@ -59,6 +60,10 @@ numpydoc_class_members_toctree = False
 numpydoc_validation_checks: set[str] = set()
 # A References section lists the sources of a function whether or not its text cites them.
 suppress_warnings = ["ref.citation"]
+# numpydoc reads the docstrings of third-party objects it meets (uncertainties' ufloat) and
+# warns about their sections; those warnings are not about our docs (ours are still shown).
+warnings.filterwarnings("ignore", message=r"(?s)(?!.*/src/activolt/)", category=UserWarning,
+                        module="numpydoc")
 
 html_theme = "alabaster"
 html_title = f"activolt {release}"
