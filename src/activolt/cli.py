@@ -86,6 +86,8 @@ def _command_modules() -> list[Any]:
 
 
 def _parser() -> argparse.ArgumentParser:
+    from .commands.archive import add_archive_option
+
     parser = _Parser(prog="activolt", description="Standard potentials and mean ionic activity "
                      "coefficients from EMF dilution series of cells without liquid junction.")
     parser.add_argument("--version", action="version", version=f"activolt {__version__}")
@@ -141,12 +143,7 @@ def _parser() -> argparse.ArgumentParser:
                         metavar="CELSIUS",
                         help="temperature study: where the thermodynamic quantities are "
                              "reported (θ); default 25")
-    reduce.add_argument("--archive", nargs="?", const="", dest="archive_to",
-                        metavar="LOCATION",
-                        help="also add each record, its inputs and outputs to the archive "
-                             "(an SQLite path or an SQLAlchemy URL; without LOCATION, "
-                             "ACTIVOLT_ARCHIVE or the per-user archive); put it after the run "
-                             "tables or write --archive=LOCATION")
+    add_archive_option(reduce, "each record, its inputs and outputs")
 
     cell = commands.add_parser("cell", help="a cell's reaction, n, E°, ΔG° and K from its "
                                "diagram")
@@ -175,11 +172,7 @@ def _parser() -> argparse.ArgumentParser:
     calibrate.add_argument("--history", type=Path, metavar="FOLDER",
                            help="folder of earlier calibration records (*.record.json): each "
                                 "electrode's drift and control chart")
-    calibrate.add_argument("--archive", nargs="?", const="", dest="archive_to",
-                           metavar="LOCATION",
-                           help="also add the record, the batch table, its metadata and the "
-                                "outputs to the archive (an SQLite path or an SQLAlchemy URL; "
-                                "without LOCATION, ACTIVOLT_ARCHIVE or the per-user archive)")
+    add_archive_option(calibrate, "the record, the batch table, its metadata and the outputs")
 
     for module in _command_modules():
         module.add_parser(commands)

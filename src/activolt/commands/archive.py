@@ -223,6 +223,15 @@ def _record_hash(record: dict[str, Any]) -> str:
     return record_hash(record)
 
 
+def add_archive_option(parser: argparse.ArgumentParser, what: str) -> None:
+    """``--archive [LOCATION]`` on a command that writes records: ``what`` it files."""
+    parser.add_argument("--archive", nargs="?", const="", dest="archive_to", metavar="LOCATION",
+                        help=f"also add {what} to the archive (an SQLite path or an SQLAlchemy "
+                             "URL; without LOCATION, ACTIVOLT_ARCHIVE or the per-user "
+                             "archive); put it after the input tables or write "
+                             "--archive=LOCATION")
+
+
 def archive_written(written: Sequence[Path], location: str | None) -> list[str]:
     """Add the records among ``written`` (the files a command wrote) to the archive, each with
     the inputs it names and its outputs among ``written``; prints one line per record.

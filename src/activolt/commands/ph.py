@@ -19,6 +19,7 @@ from typing import Any
 
 from ..errors import InputError
 from ..safe_text import escape_controls
+from .archive import add_archive_option
 
 NAME = "ph"
 #: The files of a pH determination's output set, after ``NAME.``.
@@ -50,12 +51,7 @@ def add_parser(commands: Any) -> argparse.ArgumentParser:
     parser.add_argument("--meta", type=Path, help="its metadata (TOML); default TABLE.toml")
     parser.add_argument("--out", type=Path,
                         help="folder for the outputs; default TABLE_activolt next to the table")
-    parser.add_argument("--archive", nargs="?", const="", dest="archive_to",
-                        metavar="LOCATION",
-                        help="also add the record, its inputs and outputs to the archive (an "
-                             "SQLite path or an SQLAlchemy URL; without LOCATION, "
-                             "ACTIVOLT_ARCHIVE or the per-user archive); put it after the "
-                             "table or write --archive=LOCATION")
+    add_archive_option(parser, "the record, its inputs and outputs")
     parser.add_argument("--buffer", help="catalogue name of the buffer (phosphate, phthalate, "
                         "borax, …); overrides the metadata")
     parser.add_argument("--ionic-strength-mol-kg", type=float, dest="ionic_strength_mol_kg",

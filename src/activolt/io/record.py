@@ -75,6 +75,22 @@ def _package_versions() -> tuple[tuple[str, str | None], ...]:
     return tuple(packages)
 
 
+def _head(created: datetime | None, kind: str | None = None) -> dict[str, Any]:
+    """The keys every record opens with: schema, kind (a reduction has none), software, when
+    (UTC, ISO 8601) and how it was made."""
+    return {"record_schema": RECORD_SCHEMA, **({"record_kind": kind} if kind else {}),
+            "software": {"name": "activolt", "version": __version__},
+            "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
+            "provenance": provenance()}
+
+
+def _run_part(run: Any, record_folder: Path | None) -> dict[str, Any]:
+    """``input`` and ``run_info`` of a record made from one table (none: an empty input)."""
+    if run is None:
+        return {"input": {"file": "", "sha256": "0" * 64}, "run_info": {}}
+    return {"input": _input_record(run, record_folder), "run_info": dict(run.metadata.info)}
+
+
 def _with_u(value: Any, method: str) -> dict[str, Any]:
     return {"value": json_number(value.nominal_value), "uncertainty": json_number(value.std_dev),
             "method": method}
@@ -162,10 +178,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         warnings += [w for w in comparison.warnings if w not in warnings]
     properties = derived.properties
     return {
-        "record_schema": RECORD_SCHEMA,
-        "software": {"name": "activolt", "version": __version__},
-        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "provenance": provenance(),
+        **_head(created),
         "input": {"file": _path_from(run.path, record_folder), "sha256": run.sha256,
                   **metadata_info},
         "series": run_series(run.points),
@@ -536,10 +549,7 @@ def build_study_record(study: TemperatureStudy, created: datetime | None = None,
               "E° by generalised least squares; linear propagation of the coefficients' "
               "covariance")
     return {
-        "record_schema": RECORD_SCHEMA,
-        "software": {"name": "activolt", "version": __version__},
-        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "provenance": provenance(),
+        **_head(created),
         "input": inputs[0],
         "inputs": inputs,
         "series": run_series(_concat([iso.run.points for iso in isotherms])),
@@ -738,14 +748,8 @@ def build_calibration_record(batch: CalibrationBatch, created: datetime | None =
     section = dict(batch.to_dict())
     warnings = list(dict.fromkeys([*section.pop("warnings", []), *batch.warnings]))
     record: dict[str, Any] = {
-        "record_schema": RECORD_SCHEMA,
-        "record_kind": CALIBRATION_KIND,
-        "software": {"name": "activolt", "version": __version__},
-        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "provenance": provenance(),
-        "input": (_input_record(run, record_folder) if run is not None
-                  else {"file": "", "sha256": "0" * 64}),
-        "run_info": dict(run.metadata.info) if run is not None else {},
+        **_head(created, CALIBRATION_KIND),
+        **_run_part(run, record_folder),
         **section,
         "method_description": CALIBRATION_METHODS_TEXT.get(batch.method, batch.method),
         "conditions": _calibration_conditions(run),
@@ -854,14 +858,8 @@ def build_ph_record(result: PhResult, created: datetime | None = None,
     main = min(section["isotherms"], key=lambda i: abs(i["temperature_K"] - 298.15))
     meta = run.metadata if run is not None else None
     record: dict[str, Any] = {
-        "record_schema": RECORD_SCHEMA,
-        "record_kind": PH_KIND,
-        "software": {"name": "activolt", "version": __version__},
-        "created_utc": (created or datetime.now(UTC)).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "provenance": provenance(),
-        "input": (_input_record(run, record_folder) if run is not None
-                  else {"file": "", "sha256": "0" * 64}),
-        "run_info": dict(meta.info) if meta is not None else {},
+        **_head(created, PH_KIND),
+        **_run_part(run, record_folder),
         "temperature_K": main["temperature_K"],
         "ph": main["ph"],
         "intercept": main["intercept"],
