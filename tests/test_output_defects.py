@@ -404,6 +404,13 @@ PUBLIC_API = {
     "build_record": "activolt.io.record", "cell_summary": "activolt.chemistry.cells",
     "parse_electrolyte": "activolt.chemistry.electrolytes", "get_model": "activolt.activity",
     "MODELS": "activolt.activity",
+    "read_runs": "activolt.data.runs", "runs_from_frame": "activolt.data.runs",
+    "reduce_many": "activolt.procedures.many",
+    "study_temperatures": "activolt.procedures.temperature",
+    "fit_standard_potential": "activolt.procedures.temperature",
+    "calibrate": "activolt.procedures.calibration",
+    "electrode_history": "activolt.procedures.calibration",
+    "primary_ph": "activolt.procedures.ph", "open_archive": "activolt.io.archive",
 }
 
 

@@ -4,7 +4,10 @@ The library is a chain of plain functions (see DEVELOPERS.md): ``read_run`` load
 a run, ``reduce_run`` fits E° and the activity-coefficient model and returns a ``Reduction``,
 ``compare_models`` fits several models and recommends one, ``monte_carlo`` propagates by GUM
 Supplement 1, and ``format_report`` / ``build_record`` turn a reduction into text and a record;
-``cell_summary`` describes a cell from its diagram. These names are exported here lazily:
+``cell_summary`` describes a cell from its diagram. The other jobs follow the same pattern:
+``reduce_many`` (many runs or series and a summary), ``study_temperatures`` (E°(T), ΔH°, ΔS°),
+``calibrate`` and ``electrode_history`` (reference electrodes), ``primary_ph`` (the Harned-cell
+procedure) and ``open_archive`` (the lab's record archive). These names are exported here lazily:
 ``import activolt`` loads nothing but the version, and the first use of a name imports its
 module.
 
@@ -29,9 +32,18 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree wi
 #: Public name → the module that defines it (imported on first use).
 _LAZY = {
     "read_run": "activolt.data.runs",
+    "read_runs": "activolt.data.runs",
+    "runs_from_frame": "activolt.data.runs",
     "reduce_run": "activolt.procedures.dilution",
+    "reduce_many": "activolt.procedures.many",
     "compare_models": "activolt.procedures.model_choice",
     "monte_carlo": "activolt.procedures.montecarlo",
+    "study_temperatures": "activolt.procedures.temperature",
+    "fit_standard_potential": "activolt.procedures.temperature",
+    "calibrate": "activolt.procedures.calibration",
+    "electrode_history": "activolt.procedures.calibration",
+    "primary_ph": "activolt.procedures.ph",
+    "open_archive": "activolt.io.archive",
     "format_report": "activolt.report.text",
     "build_record": "activolt.io.record",
     "cell_summary": "activolt.chemistry.cells",
