@@ -200,3 +200,22 @@ def test_many_headline_names_a_refused_series() -> None:
 def test_many_repr_is_one_line() -> None:
     result = reduce_many(_frame("A"), metadata=METADATA)
     assert repr(result) == "<ManyReductions: 1 of 1 series reduced, model hueckel>"
+
+
+def test_ph_headline_and_readings(tmp_path: Path) -> None:
+    from activolt.procedures.ph import primary_ph
+
+    for name in ("kestrel_phosphate_ph", "kestrel_agcl_batch"):
+        for suffix in (".csv", ".toml"):
+            (tmp_path / f"{name}{suffix}").write_bytes((SAMPLE / f"{name}{suffix}").read_bytes())
+    result = primary_ph(tmp_path / "kestrel_phosphate_ph.csv")
+    parsed = parse(result._repr_html_())
+    assert "script" not in parsed.tags
+    (isotherm,) = result.isotherms
+    row = parsed.cells[7:13]
+    assert row[1] == value_with_uncertainty(isotherm.ph, isotherm.standard_uncertainty)
+    assert row[2].startswith(rounded_uncertainty(isotherm.expanded_uncertainty))
+    frame = result.to_frame()
+    assert len(frame) == len(isotherm.lines) == int(row[4])
+    assert frame["chloride_molality_mol_kg"].to_numpy() == pytest.approx(
+        isotherm.chloride_molality_mol_kg)

@@ -60,6 +60,7 @@ from ..physics.corrections import hydrogen_partial_pressure
 from ..physics.water import debye_hueckel_constants
 from ..reference import load_table
 from .calibration import CalibrationBatch, calibrate, welch_satterthwaite
+from .display import html_table, rounded_uncertainty, value_with_uncertainty
 
 __all__ = ["BATES_GUGGENHEIM_BA", "HARNED_CELL", "PH_METADATA_KEYS", "BufferSpec",
            "PhBudgetLine", "PhIsotherm", "PhResult", "PhTemperatureFit", "StandardPotential",
@@ -416,6 +417,34 @@ class PhResult:
         if abs(best.temperature_K - temperature_K) > ISOTHERM_TOLERANCE_K:
             raise KeyError(temperature_K)
         return best
+
+    def _repr_html_(self) -> str:
+        """The headline table for a notebook: per isotherm pH ± u (k = 1), U with k, the
+        intercept of the acidity function, the catalogue value; the convention and warnings."""
+        rows = [(f"{i.temperature_K - ZERO_CELSIUS_K:.2f}",
+                 value_with_uncertainty(i.ph, i.standard_uncertainty),
+                 f"{rounded_uncertainty(i.expanded_uncertainty)} (k = {i.coverage_factor:.3g})",
+                 f"{i.intercept:.5f}", len(i.lines),
+                 "—" if i.catalogue_ph is None else f"{i.catalogue_ph:.3f}")
+                for i in self.isotherms]
+        name = self.buffer.title or self.buffer.name or "buffer"
+        return html_table(f"Primary pH of {name} (Harned cell, Bates–Guggenheim convention)",
+                          ("t / °C", "pH (k = 1)", "U", "p(a_H γ_Cl)°", "readings",
+                           "catalogue"), rows, warnings=self.warnings,
+                          notes=(self.convention, self.standard_potential_source))
+
+    def to_frame(self) -> pd.DataFrame:
+        """The readings: ``temperature_K`` (of their isotherm), ``line``, ``electrode``,
+        ``chloride_molality_mol_kg``, ``acidity_function`` and ``u_acidity_function``."""
+        return pd.DataFrame([
+            {"temperature_K": i.temperature_K, "line": line, "electrode": electrode,
+             "chloride_molality_mol_kg": float(m), "acidity_function": float(p),
+             "u_acidity_function": float(u)}
+            for i in self.isotherms
+            for line, electrode, m, p, u in zip(i.lines, i.electrodes,
+                                                i.chloride_molality_mol_kg,
+                                                i.acidity_function, i.u_acidity_function,
+                                                strict=True)])
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready: ``buffer``, ``convention``, ``standard_potential_source``,
