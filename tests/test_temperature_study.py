@@ -151,6 +151,63 @@ def test_reference_temperature_outside_liquid_water_is_refused() -> None:
 
 
 
+def test_choice_of_form_enters_the_uncertainty() -> None:
+    # Nine E° values 5–45 °C on Bates & Bower's smoothing cubic (the generating truth; its
+    # coefficients from memory, see bates_bower_smoothed_V), no noise, u(E°) = 0.02 mV: the
+    # cubic term is too small for the BIC, which prefers the quadratic. The quadratic's slope
+    # is biased by the cubic term (≈ 1.7 µV/K at 25 °C over ±20 K, common practice: the
+    # projection of (T − θ)³ on (T − θ)); on its own covariance ΔH° would miss by 3.3 u.
+    t_c = np.arange(5.0, 50.0, 5.0)
+    fit = fit_standard_potential(t_c + 273.15, bates_bower_smoothed_V(t_c),
+                                 np.full(t_c.size, 2e-5))
+    assert fit.chosen == "polynomial" and fit.polynomial_degree == 2
+    truth = truth_at(298.15)
+    quadratic = fit.polynomial.thermodynamics(298.15, 1)
+    cubic = next(p for p in fit.polynomials if p.degree == 3).thermodynamics(298.15, 1)
+    names = ("delta_H_J_mol", "delta_S_J_K_mol")
+    for name in names:
+        own = quadratic.estimate(name)
+        assert abs(own.value - truth[name]) > 3 * own.uncertainty, name
+        # the value stays the chosen form's; its u is the cubic's with the shift to it in full
+        reported = fit.reference.estimate(name)
+        shift = cubic.estimate(name).value - own.value
+        assert reported.value == own.value
+        assert reported.uncertainty == pytest.approx(
+            math.hypot(cubic.estimate(name).uncertainty, shift), rel=1e-9)
+        assert abs(reported.value - truth[name]) <= (fit.reference.coverage_factor
+                                                     * reported.uncertainty), name
+    # the ΔH°–ΔS° covariance carries the same shifts: V = V_cubic + δδᵀ
+    i, j = (2, 3)
+    delta = cubic.values - quadratic.values
+    assert fit.reference.covariance[i, j] == pytest.approx(
+        cubic.covariance[i, j] + delta[i] * delta[j], rel=1e-9)
+    (component,) = fit.form_components
+    assert component.kind == "next_degree" and component.degree == 3
+    assert component.shift("delta_H_J_mol") == pytest.approx(delta[i], rel=1e-12)
+    assert component.description in fit.notes and "degree 3" in component.description
+    record = fit.to_dict()["form_uncertainty"]
+    assert record[0]["kind"] == "next_degree"
+    assert record[0]["shift_at_reference"]["delta_S_J_K_mol"] == pytest.approx(delta[j])
+    # every isotherm's values carry it too
+    at_25 = fit.at_temperatures[4]
+    assert at_25.temperature_K == pytest.approx(298.15)
+    assert at_25.delta_H_J_mol.uncertainty == pytest.approx(
+        fit.reference.delta_H_J_mol.uncertainty, rel=1e-9)
+
+
+def test_highest_allowed_form_carries_no_choice_component() -> None:
+    # Six temperatures allow degree 3 at most (two degrees of freedom left): a cubic chosen
+    # there has no next form up among those allowed; its uncertainty is its own (the quartic,
+    # with one degree of freedom, counts only when its F-test is significant).
+    t_c = np.arange(5.0, 60.0, 10.0)
+    fit = fit_standard_potential(t_c + 273.15, bates_bower_smoothed_V(t_c),
+                                 np.full(t_c.size, 1e-6))
+    assert fit.polynomial_degree == 3 and fit.chosen == "polynomial"
+    assert fit.form_components == ()
+    own = fit.polynomial.thermodynamics(298.15, 1)
+    assert fit.reference.delta_H_J_mol.uncertainty == own.delta_H_J_mol.uncertainty
+
+
 # ---------------------------------------------------------------------------------------------
 # Studies of synthetic runs
 # ---------------------------------------------------------------------------------------------
@@ -186,11 +243,12 @@ def b_kg_mol(t_C: float) -> float:
 
 
 def synthetic_table(rng: np.random.Generator, molalities: tuple[float, ...] = MOLALITIES,
-                    offsets_K: dict[float, float] | None = None, noise_V: float = U_EMF_V
+                    offsets_K: dict[float, float] | None = None, noise_V: float = U_EMF_V,
+                    setpoints_C: tuple[float, ...] = SETPOINTS_C, u_emf_V: float = U_EMF_V
                     ) -> str:
     """Rows of a study: every molality at every setpoint, readings from the generating E°(T)
     and a Hückel γ± (å = 4.3 Å, b(T)) at each row's own temperature, normal noise (0.01 mV);
-    u(EMF) is stated as 0.01 mV whatever the noise."""
+    u(EMF) is stated as ``u_emf_V`` (0.01 mV) whatever the noise."""
     from synthetic import emf_from_gamma
 
     from activolt.activity import get_model
@@ -200,7 +258,7 @@ def synthetic_table(rng: np.random.Generator, molalities: tuple[float, ...] = MO
     model = get_model("hueckel")
     hcl = parse_electrolyte("HCl")
     rows = ["molality_mol_kg,emf_V,u_emf_V,temperature_C"]
-    for t_c in SETPOINTS_C:
+    for t_c in setpoints_C:
         for i, m in enumerate(molalities):
             # a few readings off their setpoint, to exercise the correction
             t_row = t_c + ((offsets_K or {}).get(t_c, 0.0) if i % 3 == 1 else 0.0)
@@ -210,7 +268,7 @@ def synthetic_table(rng: np.random.Generator, molalities: tuple[float, ...] = MO
                                   {"a_angstrom": A_ANGSTROM, "b_kg_mol": b_kg_mol(t_row)})
             emf = emf_from_gamma(np.array([m]), np.exp(ln_g), float(bates_bower_smoothed_V(t_row)),
                                  temperature_K=t_k)[0] + rng.normal(0.0, noise_V)
-            rows.append(f"{float(m)!r},{float(emf)!r},{U_EMF_V!r},{float(t_row)!r}")
+            rows.append(f"{float(m)!r},{float(emf)!r},{u_emf_V!r},{float(t_row)!r}")
     return "\n".join(rows) + "\n"
 
 
@@ -354,3 +412,65 @@ def test_intervals_of_enthalpy_and_entropy_cover_the_truth(tmp_path: Path) -> No
                                                                    * estimate.uncertainty)
     for name, count in covered.items():
         assert 0.93 <= count / trials <= 0.97, (name, count / trials)
+
+
+NINE_SETPOINTS_C = tuple(np.arange(5.0, 50.0, 5.0))
+EIGHT_MOLALITIES = (0.002, 0.005, 0.01, 0.02, 0.03, 0.05, 0.07, 0.1)
+
+
+def test_report_and_record_say_how_the_form_entered_the_uncertainty(tmp_path: Path) -> None:
+    from activolt.report.temperature import format_temperature_report
+
+    # Nine isotherms 5–45 °C without noise, å free: degree 4 is allowed, so a lower degree
+    # chosen carries the next one up; report and record say so and by how much.
+    run = read_run(write_study(tmp_path, synthetic_table(
+        np.random.default_rng(1), EIGHT_MOLALITIES, noise_V=0.0, setpoints_C=NINE_SETPOINTS_C,
+        u_emf_V=2e-5)))
+    study = study_temperatures(run, "hueckel", cross_check=False)
+    fit = study.standard_potential_fit
+    assert fit.polynomial_degree < 4 and fit.chosen == "polynomial"
+    (component,) = fit.form_components
+    assert component.degree == fit.polynomial_degree + 1
+    assert component.description in study.notes
+    assert f"note: {component.description}" in format_temperature_report(study)
+    record = study.to_dict()
+    assert record["e0_fit"]["form_uncertainty"][0]["kind"] == "next_degree"
+    assert component.description in record["notes"]
+    json.dumps(record, allow_nan=False)
+
+
+@pytest.mark.slow
+def test_intervals_cover_the_truth_when_the_form_is_chosen_by_the_data(tmp_path: Path) -> None:
+    # 500 simulated studies: nine isotherms 5–45 °C, eight molalities 0.002–0.1 mol/kg, 0.02 mV
+    # noise equal to the stated u(EMF), å free in every isotherm (held where the data cannot
+    # determine it). The generating E°(T) is Bates & Bower's smoothing cubic (coefficients from
+    # memory; bates_bower_smoothed_V), whose cubic term the BIC often cannot resolve: it picks
+    # the quadratic in about a third of the studies. The 95 % intervals of ΔH° and ΔS° at
+    # 298.15 K must cover the values implied by the generating E°(T) at least 93 % of the time
+    # and no more than 97 % (binomial scatter of the rate at 95 %: √(0.95·0.05/500) = 1.0 %).
+    # Before the choice of form entered the uncertainty they covered 64 % (quadratic chosen:
+    # misses up to 6.8 u).
+    rng = np.random.default_rng(1954)
+    run = read_run(write_study(tmp_path, synthetic_table(
+        rng, EIGHT_MOLALITIES, noise_V=0.0, setpoints_C=NINE_SETPOINTS_C, u_emf_V=2e-5)))
+    exact = run.points["emf_V"].to_numpy(float)
+    truth = truth_at(298.15)
+    trials = 500
+    covered = {"delta_H_J_mol": 0, "delta_S_J_K_mol": 0}
+    degrees: dict[int, int] = {}
+    for _ in range(trials):
+        points = run.points.copy()
+        points["emf_V"] = exact + rng.normal(0.0, 2e-5, exact.size)
+        study = study_temperatures(dataclasses.replace(run, points=points), "hueckel",
+                                   cross_check=False)
+        fit = study.standard_potential_fit
+        degrees[fit.polynomial_degree] = degrees.get(fit.polynomial_degree, 0) + 1
+        ref = study.reference
+        for name in covered:
+            estimate = ref.estimate(name)
+            covered[name] += abs(estimate.value - truth[name]) <= (ref.coverage_factor
+                                                                   * estimate.uncertainty)
+    # the scenario does exercise the choice: the quadratic is chosen in a good share
+    assert degrees.get(2, 0) >= trials // 10, degrees
+    for name, count in covered.items():
+        assert 0.93 <= count / trials <= 0.97, (name, count / trials, degrees)

@@ -775,8 +775,8 @@ def fit_standard_potential(
             f"{following.degree}, the next form up, with the shift of every quantity from the "
             f"chosen {_form_words(form)} to it counted in full (a correction not applied, with "
             f"its own uncertainty; GUM 6.3.1, F.2.4.5): ΔH° "
-            f"{_signed(shift[QUANTITIES.index('delta_H_J_mol')], 'J/mol')}, ΔS° "
-            f"{_signed(shift[QUANTITIES.index('delta_S_J_K_mol')], 'J/(K mol)')} at θ"))
+            f"{_signed(shift[QUANTITIES.index('delta_H_J_mol')], 'J/mol', 0)}, ΔS° "
+            f"{_signed(shift[QUANTITIES.index('delta_S_J_K_mol')], 'J/(K mol)', 3)} at θ"))
         carried = following
     beyond = _curvature_beyond(polynomials[-1], theta, t, e, whitening, stated)
     if beyond is not None:
@@ -793,7 +793,7 @@ def fit_standard_potential(
             f"{n} temperatures cannot support with {MIN_POLYNOMIAL_DOF} degrees of "
             "freedom left: the uncertainties include the full difference between "
             f"that polynomial and the {_form_words(carried)} (ΔH° "
-            f"{_signed(shift[QUANTITIES.index('delta_H_J_mol')], 'J/mol')}) — measure more "
+            f"{_signed(shift[QUANTITIES.index('delta_H_J_mol')], 'J/mol', 0)}) — measure more "
             "temperatures"))
     notes.extend(c.description for c in components)
     reference, at = values[0], tuple(values[1:])
@@ -884,9 +884,9 @@ def _form_words(form: TemperatureForm) -> str:
     return "constant-ΔCp° form"
 
 
-def _signed(value: float, unit: str) -> str:
-    """A shift with its sign and two significant digits, or "not determined"."""
-    return f"{value:+.2g} {unit}" if math.isfinite(value) else "not determined"
+def _signed(value: float, unit: str, decimals: int) -> str:
+    """A shift with its sign to ``decimals`` places, or "not determined"."""
+    return f"{value:+.{decimals}f} {unit}" if math.isfinite(value) else "not determined"
 
 # --------------------------------------------------------------------------------------------
 # Isotherms
