@@ -886,7 +886,9 @@ def _form_words(form: TemperatureForm) -> str:
 
 def _signed(value: float, unit: str, decimals: int) -> str:
     """A shift with its sign to ``decimals`` places, or "not determined"."""
-    return f"{value:+.{decimals}f} {unit}" if math.isfinite(value) else "not determined"
+    if not math.isfinite(value):
+        return "not determined"
+    return f"{round(value, decimals) + 0.0:+.{decimals}f} {unit}"  # + 0.0: no "−0"
 
 # --------------------------------------------------------------------------------------------
 # Isotherms
