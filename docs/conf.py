@@ -71,10 +71,10 @@ html_static_path: list[str] = []
 
 #: The layers of the architecture, bottom up: (page, title, what it holds, packages/modules).
 LAYERS = (
-    ("base", "Constants, errors, safe text",
+    ("base", "Constants, errors, safe text, rounding",
      "CODATA 2018 constants; the two errors every caller sees (``InputError``: exit status 2, "
      "``FitError``: exit status 1); text made safe at the output edges.",
-     ("activolt.constants", "activolt.errors", "activolt.safe_text")),
+     ("activolt.constants", "activolt.errors", "activolt.safe_text", "activolt.rounding")),
     ("reference", "Reference data",
      "Published tables shipped as CSV with a ``source`` on every row, and their look-ups.",
      ("activolt.reference",)),

@@ -48,13 +48,9 @@ from ..fit.least_squares import linear_least_squares
 from ..fit.problem import gas_correction
 from ..fit.uncertainty import student_t_factor
 from ..physics.water import debye_hueckel_constants
+from ..rounding import decimals_for
 from .dilution import reduce_run
-from .display import (
-    decimal_places,
-    html_table,
-    rounded_uncertainty,
-    value_with_uncertainty,
-)
+from .display import html_table, rounded_uncertainty, value_with_uncertainty
 
 __all__ = ["CONVENTIONAL_GAMMA_HCL", "CONVENTIONAL_MOLALITY_MOL_KG", "CalibrationBatch",
            "ControlChart", "ElectrodeCalibration", "ElectrodeHistory", "UncertaintyComponent",
@@ -246,7 +242,7 @@ class CalibrationBatch:
                                                      e.standard_uncertainty_V, 1e3),
                  f"{rounded_uncertainty(e.expanded_uncertainty_V, 1e3)} "
                  f"(k = {e.coverage_factor:.3g})",
-                 f"{e.deviation_V * 1e3:+.{decimal_places(e.expanded_uncertainty_V * 1e3)}f}",
+                 f"{e.deviation_V * 1e3:+.{decimals_for(e.expanded_uncertainty_V * 1e3)}f}",
                  e.n_readings, e.verdict + (", outlier" if e.outlier else ""))
                 for e in self.electrodes]
         passed = sum(e.verdict == "pass" for e in self.electrodes)

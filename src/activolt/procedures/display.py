@@ -14,21 +14,9 @@ import html
 import math
 from collections.abc import Sequence
 
-__all__ = ["decimal_places", "html_table", "rounded_uncertainty", "value_with_uncertainty"]
+from ..rounding import decimals_for
 
-
-def decimal_places(uncertainty: float, significant: int = 2) -> int:
-    """Decimal places that keep ``significant`` digits of an uncertainty (at least 0; 6 when it
-    is not a positive number).
-
-    Examples
-    --------
-    >>> decimal_places(0.0123), decimal_places(4.5), decimal_places(250.0)
-    (3, 1, 0)
-    """
-    if not math.isfinite(uncertainty) or uncertainty <= 0.0:
-        return 6
-    return max(0, significant - 1 - math.floor(math.log10(uncertainty)))
+__all__ = ["html_table", "rounded_uncertainty", "value_with_uncertainty"]
 
 
 def value_with_uncertainty(value: float, uncertainty: float, scale: float = 1.0,
@@ -69,7 +57,7 @@ def value_with_uncertainty(value: float, uncertainty: float, scale: float = 1.0,
         return f"{value:.4g} (held)"
     if uncertainty <= 0.0:
         return f"{value:.6g}"
-    places = decimal_places(uncertainty, significant)
+    places = decimals_for(uncertainty, significant)
     return f"{value:.{places}f} ± {uncertainty:.{places}f}"
 
 
@@ -85,7 +73,7 @@ def rounded_uncertainty(uncertainty: float, scale: float = 1.0, significant: int
     uncertainty = uncertainty * scale
     if not math.isfinite(uncertainty) or uncertainty <= 0.0:
         return "—"
-    return f"{uncertainty:.{decimal_places(uncertainty, significant)}f}"
+    return f"{uncertainty:.{decimals_for(uncertainty, significant)}f}"
 
 
 def html_table(caption: str, header: Sequence[str], rows: Sequence[Sequence[object]],

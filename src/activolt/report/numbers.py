@@ -4,18 +4,7 @@ from __future__ import annotations
 
 import math
 
-
-def decimals_for(uncertainty: float, significant: int = 2) -> int:
-    """Decimal places that keep ``significant`` digits of the uncertainty (at least 0).
-
-    Examples
-    --------
-    >>> decimals_for(0.0123), decimals_for(4.5), decimals_for(250.0)
-    (3, 1, 0)
-    """
-    if not math.isfinite(uncertainty) or uncertainty <= 0.0:
-        return 6
-    return max(0, significant - 1 - math.floor(math.log10(uncertainty)))
+from ..rounding import decimals_for
 
 
 def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
