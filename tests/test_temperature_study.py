@@ -10,6 +10,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from activolt.constants import ATMOSPHERE_PA, FARADAY_C_MOL, STANDARD_PRESSURE_PA
 from activolt.data.runs import read_run
@@ -206,6 +208,35 @@ def test_highest_allowed_form_carries_no_choice_component() -> None:
     assert fit.form_components == ()
     own = fit.polynomial.thermodynamics(298.15, 1)
     assert fit.reference.delta_H_J_mol.uncertainty == own.delta_H_J_mol.uncertainty
+
+
+@settings(max_examples=60, deadline=None, derandomize=True)
+@given(seed=st.integers(0, 2**31 - 1), n=st.integers(5, 12),
+       u_V=st.sampled_from([2e-6, 1e-5, 5e-5]), excess=st.sampled_from([1.0, 3.0]))
+def test_choice_of_form_never_narrows_the_interval(seed: int, n: int, u_V: float,
+                                                   excess: float) -> None:
+    # For any E° values (the smoothing cubic plus noise at the stated u, or at three times it,
+    # so that a form's covariance is scaled for lack of fit): the reported u of
+    # ΔH° and ΔS° is never below the chosen form's own, nor below the next form up's when one
+    # is carried (V = V_{d+1} + δδᵀ ⪰ V_{d+1}); the values are the chosen form's.
+    rng = np.random.default_rng(seed)
+    t_c = np.sort(rng.uniform(2.0, 60.0, n))
+    t_c[0], t_c[-1] = 5.0, 45.0 + n
+    e0 = bates_bower_smoothed_V(t_c) + rng.normal(0.0, excess * u_V, n)
+    fit = fit_standard_potential(t_c + 273.15, e0, np.full(n, u_V))
+    own = fit.form.thermodynamics(298.15, 1)
+    for name in ("delta_H_J_mol", "delta_S_J_K_mol"):
+        reported = fit.reference.estimate(name)
+        assert reported.value == own.estimate(name).value
+        assert reported.uncertainty >= own.estimate(name).uncertainty * (1 - 1e-12)
+        for component in fit.form_components:
+            if component.kind == "next_degree":
+                following = next(p for p in fit.polynomials if p.degree == component.degree)
+                floor = following.thermodynamics(298.15, 1).estimate(name).uncertainty
+                assert component.degree == (fit.polynomial_degree + 1
+                                            if fit.chosen == "polynomial" else 3)
+                assert reported.uncertainty >= floor * (1 - 1e-12)
+    assert fit.reference.coverage_factor >= own.coverage_factor
 
 
 # ---------------------------------------------------------------------------------------------

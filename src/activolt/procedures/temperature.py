@@ -765,6 +765,7 @@ def fit_standard_potential(
     carried = form
     following = _next_form_up(form, polynomials)
     if following is not None:
+        following = _at_scale_of(following, form)
         values = _with_form_choice(values, [following.thermodynamics(
             x, electrons, standard_pressure_Pa) for x in temperatures], carry=True)
         shift = _shift(following.thermodynamics(theta, electrons, standard_pressure_Pa),
@@ -837,6 +838,23 @@ def _next_form_up(form: TemperatureForm, polynomials: Sequence[TemperatureForm]
     return next((p for p in polynomials if len(p.coefficient_names) == size), None)
 
 
+def _scale(form: TemperatureForm) -> float:
+    """The factor the form's covariance was scaled by (χ²/ν; 1 when not scaled)."""
+    return form.chi2 / form.dof if form.covariance_scaled else 1.0
+
+
+def _at_scale_of(following: TemperatureForm, chosen: TemperatureForm) -> TemperatureForm:
+    """The next form up with its covariance at the larger of the two lack-of-fit scales: the
+    chosen form's excess scatter is not dropped by carrying the next form's covariance (and
+    V_{d+1} ⪰ V_d then holds for the scaled covariances as for the unscaled ones)."""
+    own, theirs = _scale(following), _scale(chosen)
+    if theirs <= own:
+        return following
+    return dataclasses.replace(following, covariance=following.covariance * (theirs / own),
+                               coverage_factor=max(following.coverage_factor,
+                                                   chosen.coverage_factor))
+
+
 def _shift(target: ThermodynamicValues, source: ThermodynamicValues) -> np.ndarray:
     """δ = target − source of every quantity; NaN where either does not determine it."""
     return target.values - source.values
@@ -855,7 +873,8 @@ def _with_form_choice(chosen: Sequence[ThermodynamicValues],
     — the value reported is the chosen form's Q_d; the shift δ to the next form up is a
     correction not applied, counted in full with its own uncertainty (for nested generalised
     least squares u²(δ) = V_{d+1} − V_d, so V_d + δδᵀ + u²(δ) = V_{d+1} + δδᵀ; GUM, JCGM
-    100:2008, 6.3.1 and F.2.4.5). The 95 % factor is the larger of the two forms'.
+    100:2008, 6.3.1 and F.2.4.5). V_{d+1} is taken at the larger of the two forms' lack-of-fit
+    scales (χ²/ν) and the 95 % factor is the larger of the two forms'.
     Without ``carry`` (curvature beyond the highest degree allowed) the covariance so far
     gains δδᵀ, δ measured from ``anchor`` (the form whose covariance is carried): a bias of
     unknown size up to δ taken as a standard uncertainty.
