@@ -109,3 +109,21 @@ def test_negative_seed_is_bad_input(tmp_path, capsys):
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--seed" in err[0]
     assert not (tmp_path / "o").exists()
+
+
+def test_the_command_line_uses_one_blas_thread_unless_told_otherwise():
+    # Many small least-squares problems: BLAS threads only contend (common practice). The
+    # setting must be made before numpy is first imported, and a user's own setting wins.
+    import os
+    import subprocess
+    import sys
+
+    probe = ("import os, sys, activolt.cli; "
+             "print(os.environ['OPENBLAS_NUM_THREADS'], 'numpy' in sys.modules)")
+    env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_NUM_THREADS"}
+    out = subprocess.run([sys.executable, "-c", probe], env=env, capture_output=True,
+                         text=True, check=True).stdout.split()
+    assert out == ["1", "False"]
+    out = subprocess.run([sys.executable, "-c", probe], env={**env, "OPENBLAS_NUM_THREADS": "2"},
+                         capture_output=True, text=True, check=True).stdout.split()
+    assert out == ["2", "False"]

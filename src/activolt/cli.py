@@ -26,6 +26,12 @@ from .safe_text import escape_controls
 if TYPE_CHECKING:
     from .data.runs import Run
 
+# The command line solves many small least-squares problems, where BLAS threads cost more than
+# they give and contend with each other on a busy machine: one thread unless the user set one
+# (read when numpy is first imported: the imports above leave numpy out).
+for _threads in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_threads, "1")
+
 DEMO_RUN = "kestrel_hcl_25C.csv"
 #: The files of one output set, after ``RUN.`` (or ``RUN.SERIES.`` when a series is picked).
 OUTPUT_KINDS = ("record.json", "points.csv", "report.txt", "extrapolation.png", "residuals.png",
