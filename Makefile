@@ -24,7 +24,7 @@ test-slow: $(STAMP)
 	MPLBACKEND=Agg $(BIN)/python -m pytest -q -m slow
 
 bench: $(STAMP)
-	MPLBACKEND=Agg $(BIN)/python -m pytest -q -m bench -s bench
+	OPENBLAS_NUM_THREADS=$${OPENBLAS_NUM_THREADS:-1} MPLBACKEND=Agg $(BIN)/python -m pytest -q -m bench -s bench
 
 lint: $(STAMP)
 	$(BIN)/ruff check .
