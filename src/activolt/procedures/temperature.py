@@ -642,9 +642,11 @@ def fit_standard_potential(
     Q_d; when a polynomial with one coefficient more is among the forms allowed (it leaves two
     degrees of freedom), the covariance reported is that polynomial's with the whole shift to
     it, V = V_{d+1} + δδᵀ, δ = Q_{d+1} − Q_d: a correction not applied, counted with its own
-    uncertainty (for nested GLS u²(δ) = V_{d+1} − V_d; GUM 6.3.1, F.2.4.5). Without it a
+    uncertainty (for nested GLS u²(δ) = V_{d+1} − V_d; GUM 6.3.1, F.2.4.5), V_{d+1} at the
+    larger of the two forms' lack-of-fit scales. Without it a
     quadratic that BIC preferred to the cubic the data could not resolve biased dE°/dT by
-    about 3 u, and ΔH° intervals covered the truth 64 % of the time (nine isotherms, 5–45 °C,
+    about 1.7 µV/K, 4–5 times its own u, and ΔH° intervals covered the truth 64 % of the time
+    (nine isotherms, 5–45 °C,
     Bates & Bower's cubic); with it 96–97 % (twelve isotherms, 5–60 °C: 92 % before, 97 %
     with it, the intervals then twice as wide). A form chosen by the data is the form whose next
     term happened to look small, so that term's estimate cannot be trusted to be small: the
