@@ -195,6 +195,18 @@ def test_choice_of_form_enters_the_uncertainty() -> None:
     assert at_25.temperature_K == pytest.approx(298.15)
     assert at_25.delta_H_J_mol.uncertainty == pytest.approx(
         fit.reference.delta_H_J_mol.uncertainty, rel=1e-9)
+    # and so do the quantities at any other T (the E°(T) figure's band reads them), and the
+    # band between the data temperatures is the cubic's with the shift, not the quadratic's
+    between = fit.thermodynamics(300.65)
+    cubic_between = next(p for p in fit.polynomials if p.degree == 3).thermodynamics(300.65, 1)
+    quadratic_between = fit.polynomial.thermodynamics(300.65, 1)
+    assert between.standard_potential_V.value == quadratic_between.standard_potential_V.value
+    assert between.standard_potential_V.uncertainty == pytest.approx(math.hypot(
+        cubic_between.standard_potential_V.uncertainty,
+        cubic_between.standard_potential_V.value - quadratic_between.standard_potential_V.value),
+        rel=1e-9)
+    assert np.array_equal(fit.thermodynamics(298.15).covariance, fit.reference.covariance,
+                          equal_nan=True)
 
 
 def test_highest_allowed_form_carries_no_choice_component() -> None:

@@ -474,6 +474,8 @@ class StandardPotentialFit:
     at_temperatures: tuple[ThermodynamicValues, ...]
     notes: tuple[str, ...] = ()
     form_components: tuple[FormComponent, ...] = ()
+    next_form: TemperatureForm | None = None
+    beyond_form: TemperatureForm | None = None
 
     @property
     def polynomial(self) -> TemperatureForm:
@@ -488,9 +490,12 @@ class StandardPotentialFit:
         return self.constant_heat_capacity
 
     def thermodynamics(self, temperature_K: float) -> ThermodynamicValues:
-        """The quantities at any T [K] in the chosen form (extrapolation is the caller's risk:
-        the range fitted is ``temperature_K.min()`` … ``max()``)."""
-        return self.form.thermodynamics(temperature_K, self.electrons, self.standard_pressure_Pa)
+        """The quantities at any T [K]: the chosen form's values with the choice of form in
+        their uncertainty, as in ``reference`` (extrapolation is the caller's risk: the range
+        fitted is ``temperature_K.min()`` … ``max()``)."""
+        return _with_choice_of_form(self.form, self.next_form, self.beyond_form,
+                                    [float(temperature_K)], self.electrons,
+                                    self.standard_pressure_Pa)[0]
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready: the chosen form and why, both forms, the F-tests, the quantities at θ and
@@ -763,16 +768,17 @@ def fit_standard_potential(
     if not stated:
         notes.append("no u(E°) given: unit weights, covariance scaled by the residual variance")
     temperatures = (theta, *(float(x) for x in t))
-    values = [form.thermodynamics(x, electrons, standard_pressure_Pa) for x in temperatures]
     components: list[FormComponent] = []
     carried = form
     following = _next_form_up(form, polynomials)
+    beyond = _curvature_beyond(polynomials[-1], theta, t, e, whitening, stated)
     if following is not None:
         following = _at_scale_of(following, form)
-        values = _with_form_choice(values, [following.thermodynamics(
-            x, electrons, standard_pressure_Pa) for x in temperatures], carry=True)
+    values = _with_choice_of_form(form, following, beyond, temperatures, electrons,
+                                  standard_pressure_Pa)
+    if following is not None:
         shift = _shift(following.thermodynamics(theta, electrons, standard_pressure_Pa),
-                       values[0])
+                       form.thermodynamics(theta, electrons, standard_pressure_Pa))
         components.append(FormComponent(
             "next_degree", following.degree, shift,
             f"choice of the E°(T) form: the uncertainties are those of the polynomial of degree "
@@ -782,14 +788,9 @@ def fit_standard_potential(
             f"{_signed(shift[QUANTITIES.index('delta_H_J_mol')], 'J/mol', 0)}, ΔS° "
             f"{_signed(shift[QUANTITIES.index('delta_S_J_K_mol')], 'J/(K mol)', 3)} at θ"))
         carried = following
-    beyond = _curvature_beyond(polynomials[-1], theta, t, e, whitening, stated)
     if beyond is not None:
-        anchor = [carried.thermodynamics(x, electrons, standard_pressure_Pa)
-                  for x in temperatures]
-        values = _with_form_choice(values, [beyond.thermodynamics(
-            x, electrons, standard_pressure_Pa) for x in temperatures], carry=False,
-            anchor=anchor)
-        shift = _shift(beyond.thermodynamics(theta, electrons, standard_pressure_Pa), anchor[0])
+        shift = _shift(beyond.thermodynamics(theta, electrons, standard_pressure_Pa),
+                       carried.thermodynamics(theta, electrons, standard_pressure_Pa))
         components.append(FormComponent(
             "curvature_beyond", beyond.degree, shift,
             f"the data call for a polynomial of degree {beyond.degree} (F-test against "
@@ -808,7 +809,27 @@ def fit_standard_potential(
         f_tests=tuple(f_tests), polynomial_degree=best.degree, f_test_degree=f_degree,
         constant_heat_capacity=constant_cp, chosen=chosen, choice_reason=reason,
         reference=reference, at_temperatures=at, notes=tuple(notes),
-        form_components=tuple(components))
+        form_components=tuple(components), next_form=following, beyond_form=beyond)
+
+
+def _with_choice_of_form(form: TemperatureForm, following: TemperatureForm | None,
+                         beyond: TemperatureForm | None, temperatures: Sequence[float],
+                         electrons: int, standard_pressure_Pa: float
+                         ) -> list[ThermodynamicValues]:
+    """The chosen form's quantities at ``temperatures`` with the choice of form in their
+    covariance: the next form up carried with the shift to it, then the curvature beyond the
+    highest degree allowed (see :func:`_with_form_choice`)."""
+    def at(which: TemperatureForm) -> list[ThermodynamicValues]:
+        return [which.thermodynamics(x, electrons, standard_pressure_Pa) for x in temperatures]
+
+    values = at(form)
+    carried = values
+    if following is not None:
+        carried = at(following)
+        values = _with_form_choice(values, carried, carry=True)
+    if beyond is not None:
+        values = _with_form_choice(values, at(beyond), carry=False, anchor=carried)
+    return values
 
 
 

@@ -349,7 +349,8 @@ def standard_potential_band_V(fit: StandardPotentialFit, temperature_K: npt.Arra
     u : ndarray
         Its standard uncertainty (k = 1) [V], :math:`u^2 = f(T)^T V_c f(T)` with f the form's
         basis functions and V_c the coefficients' covariance (linear in the coefficients, so
-        exact; GUM, JCGM 100:2008, 5.2).
+        exact; GUM, JCGM 100:2008, 5.2), with the choice of form counted as in the record
+        (:meth:`~activolt.procedures.temperature.StandardPotentialFit.thermodynamics`).
 
     Examples
     --------
@@ -365,9 +366,7 @@ def standard_potential_band_V(fit: StandardPotentialFit, temperature_K: npt.Arra
     True
     """
     t = np.atleast_1d(np.asarray(temperature_K, dtype=float))
-    form = fit.form
-    values = [form.thermodynamics(float(x), fit.electrons, fit.standard_pressure_Pa)
-              .standard_potential_V for x in t]
+    values = [fit.thermodynamics(float(x)).standard_potential_V for x in t]
     return (np.array([v.value for v in values]), np.array([v.uncertainty for v in values]))
 
 
