@@ -178,3 +178,23 @@ def test_a_batch_equals_its_series_solved_one_by_one(name, seed, n_series):
         np.testing.assert_allclose(together.values[s], alone.values[0], rtol=1e-6, atol=1e-12)
         np.testing.assert_allclose(together.covariance[s], alone.covariance[0], rtol=1e-6,
                                    atol=1e-30)
+
+
+def test_values_without_the_covariance_are_the_same_fit():
+    # A Monte Carlo asks for the values only: the same iterations, no Jacobian or covariance
+    # at the optimum (NaN there). Synthetic Hückel series (input only, not check values).
+    rng = np.random.default_rng(7)
+    m = np.tile(np.geomspace(0.001, 0.1, 8), (5, 1))
+    model = batch(HUECKEL, m)
+    truth = np.array([[0.2223, 4.3, 0.25, 1.0]] * 5)
+    emf = model.predict(truth) + rng.normal(0.0, 2e-5, m.shape)
+    linear, bounds = specs(HUECKEL)
+    free = np.array([[True, True, True, False]] * 5)
+    start = np.array([[0.2, 4.0, 0.1, 1.0]] * 5)
+    full = solve(model, emf, np.full(m.shape, 1 / 4e-10), start, free, linear, bounds)
+    quick = solve(model, emf, np.full(m.shape, 1 / 4e-10), start, free, linear, bounds,
+                  covariance=False)
+    assert np.array_equal(full.values, quick.values)
+    assert np.array_equal(full.chi2, quick.chi2) and quick.converged.all()
+    assert np.isnan(quick.covariance).all() and np.isnan(quick.jacobian).all()
+    assert np.isfinite(full.covariance[:, :3, :3]).all()

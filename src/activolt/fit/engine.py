@@ -228,7 +228,7 @@ def _regularised(normal: np.ndarray, free: np.ndarray) -> np.ndarray:
 def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
           start: np.ndarray, free: np.ndarray, linear: np.ndarray,
           bounds: np.ndarray | None = None, scale_covariance: np.ndarray | bool = False,
-          ) -> BatchFit:
+          covariance: bool = True) -> BatchFit:
     r"""Fit E° and the free parameters of every series by weighted least squares.
 
     Parameters
@@ -250,6 +250,9 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         (minimum, maximum) of each parameter, shape (P, 2); default unbounded.
     scale_covariance : bool or numpy.ndarray
         Multiply the covariance by χ²/ν (unit weights), per series or for all.
+    covariance : bool
+        Work out the Jacobian and covariance at the optimum (default); without, both are NaN
+        (a Monte Carlo needs the values only).
 
     Returns
     -------
@@ -360,22 +363,25 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         if failures[index] is None:
             failures[index] = f"the fit did not converge in {iterations} iterations"
 
-    # The covariance at the optimum.
-    jac = model.jacobian(values, free) * (w > 0.0)[:, :, None]
-    a = jac * sqrt_w[:, :, None]
-    normal = np.matmul(np.swapaxes(a, 1, 2), a)
-    try:
-        covariance = np.linalg.inv(_regularised(normal, free))
-    except np.linalg.LinAlgError:
-        covariance = np.stack([_safe_inverse(n, f) for n, f in
-                               zip(_regularised(normal, free), free, strict=True)])
-    covariance = covariance * free[:, :, None] * free[:, None, :]
     dof = np.sum(w > 0.0, axis=1) - np.sum(free, axis=1)
     scaled = np.broadcast_to(np.asarray(scale_covariance, dtype=bool), (n_series,)).copy()
-    factor = np.where(scaled, chi2 / np.maximum(dof, 1), 1.0)
-    covariance = covariance * factor[:, None, None]
+    if covariance:  # at the optimum
+        jac = model.jacobian(values, free) * (w > 0.0)[:, :, None]
+        a = jac * sqrt_w[:, :, None]
+        normal = np.matmul(np.swapaxes(a, 1, 2), a)
+        try:
+            cov = np.linalg.inv(_regularised(normal, free))
+        except np.linalg.LinAlgError:
+            cov = np.stack([_safe_inverse(n, f) for n, f in
+                            zip(_regularised(normal, free), free, strict=True)])
+        cov = cov * free[:, :, None] * free[:, None, :]
+        factor = np.where(scaled, chi2 / np.maximum(dof, 1), 1.0)
+        cov = cov * factor[:, None, None]
+    else:
+        jac = np.full((*emf.shape, n_parameters), np.nan)
+        cov = np.full((n_series, n_parameters, n_parameters), np.nan)
     residual = np.where(w > 0.0, emf - model.predict(values), 0.0)
-    return BatchFit(names=model.names, values=values, free=free, covariance=covariance,
+    return BatchFit(names=model.names, values=values, free=free, covariance=cov,
                     jacobian=jac, residual_V=residual, weights=w, chi2=chi2, dof=dof,
                     scaled=scaled, converged=converged, failures=tuple(failures))
 

@@ -352,7 +352,7 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
                                      constants)
             fit = solve(batch, emf, np.broadcast_to(data.weights, (count, n)),
                         np.tile(start, (count, 1)), np.tile(free_mask, (count, 1)), linear,
-                        bounds)
+                        bounds, covariance=False)
             lost = ~fit.converged
             chunk = slice(first, first + count)
             failed[chunk] = lost
