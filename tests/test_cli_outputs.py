@@ -240,7 +240,7 @@ def test_sigint_of_a_long_monte_carlo(tmp_path, stop, status, word):
     time.sleep(1.0)
     child.send_signal(stop)
     _, err = child.communicate(timeout=30)
-    assert child.returncode == status
+    assert child.returncode == status, err
     assert err.strip().splitlines() == [
         f"activolt: {word}; nothing was written (earlier outputs are unchanged)"]
     assert not (tmp_path / "run_activolt").exists() and not _leftovers(tmp_path)
