@@ -228,8 +228,11 @@ def test_sigint_of_a_long_monte_carlo(tmp_path, stop, status, word):
     # A real Ctrl-C (SIGINT), or SIGTERM, during 10⁶ Monte Carlo trials; 128 + the signal's
     # number is the exit status shells report (common practice).
     path = _table(tmp_path)
+    # The heavy packages are imported before "ready", so that the signal lands in the
+    # reduction or the trials on a slow machine too, not in a third-party import.
     script = textwrap.dedent(f"""
         import sys
+        import lmfit, matplotlib, numpy, pandas, scipy.linalg  # noqa: F401
         from activolt.cli import main
         print("ready", file=sys.stderr, flush=True)
         sys.exit(main(["reduce", {str(path)!r}, "--monte-carlo", "1000000", "--no-figures"]))
