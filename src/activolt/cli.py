@@ -638,7 +638,8 @@ def _calibrate_command(args: argparse.Namespace, written: list[Path]) -> int:
         calibration_points_csv,
     )
     from .procedures.calibration import calibrate, electrode_history
-    from .report.certificate import certificate_html, format_potential
+    from .report.certificate import certificate_html
+    from .rounding import format_potential
 
     batch_path: Path = args.batch
     batch = calibrate(batch_path, args.meta)

@@ -1,11 +1,11 @@
 """How many digits a value with an uncertainty deserves (GUM, JCGM 100:2008, 7.2.6): the one
-rule shared by the printed reports and the results' own notebook display."""
+rule shared by the printed reports, the command line and the results' own notebook display."""
 
 from __future__ import annotations
 
 import math
 
-__all__ = ["decimals_for"]
+__all__ = ["decimals_for", "format_potential", "format_with_uncertainty"]
 
 
 def decimals_for(uncertainty: float, significant: int = 2) -> int:
@@ -19,3 +19,44 @@ def decimals_for(uncertainty: float, significant: int = 2) -> int:
     if not math.isfinite(uncertainty) or uncertainty <= 0.0:
         return 6
     return max(0, significant - 1 - math.floor(math.log10(uncertainty)))
+
+
+def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
+                            significant: int = 2) -> str:
+    """``value ± u unit`` with u to ``significant`` digits and the value to the same place.
+
+    Examples
+    --------
+    >>> format_with_uncertainty(222.35216, 0.0061, "mV")
+    '222.3522 ± 0.0061 mV'
+    >>> format_with_uncertainty(4.31, float("nan"), "Å")
+    '4.31 Å (held)'
+    """
+    suffix = f" {unit}" if unit else ""
+    if not math.isfinite(uncertainty):
+        return f"{value:.4g}{suffix} (held)"
+    places = decimals_for(uncertainty, significant)
+    return f"{value:.{places}f} ± {uncertainty:.{places}f}{suffix}"
+
+
+def format_potential(value_V: float | None, expanded_V: float | None, scale: float = 1e3
+                     ) -> tuple[str, str]:
+    """A potential and its expanded uncertainty as printed, in mV by default: U to two
+    significant digits and the value to the same decimal place (GUM, JCGM 100:2008, 7.2.6).
+
+    The record keeps the unrounded numbers; the certificate and the printed summary show them
+    through this function.
+
+    Examples
+    --------
+    >>> format_potential(0.2223456, 0.0000912)
+    ('222.346', '0.091')
+    >>> format_potential(None, None)
+    ('—', '—')
+    """
+    if value_V is None or not math.isfinite(value_V):
+        return "—", "—"
+    if expanded_V is None or not math.isfinite(expanded_V) or expanded_V <= 0.0:
+        return f"{value_V * scale:.4f}", "—"
+    places = decimals_for(expanded_V * scale)
+    return f"{value_V * scale:.{places}f}", f"{expanded_V * scale:.{places}f}"

@@ -280,7 +280,7 @@ def archive_written(written: Sequence[Path], location: str | None) -> list[str]:
 # -------------------------------------------------------------------------------- list, show
 
 def _mV(value: float | None, u: float | None) -> str:
-    from ..report.numbers import format_with_uncertainty
+    from ..rounding import format_with_uncertainty
 
     if value is None or not math.isfinite(value):
         return "—"
@@ -357,7 +357,7 @@ def _show(archive: Any, prefix: str, as_json: bool, file: str | None) -> int:
 
 
 def _per_month(drift_V: float, u_V: float | None) -> str:
-    from ..report.numbers import format_with_uncertainty
+    from ..rounding import format_with_uncertainty
 
     if u_V is None or not math.isfinite(u_V) or u_V <= 0:
         return f"{drift_V * 1e6:+.1f} µV per month"
@@ -366,7 +366,7 @@ def _per_month(drift_V: float, u_V: float | None) -> str:
 
 def _history(archive: Any, electrode: str) -> int:
     from ..procedures.calibration import electrode_history
-    from ..report.certificate import format_potential
+    from ..rounding import format_potential
 
     records = archive.electrode_history(electrode)
     if not records:

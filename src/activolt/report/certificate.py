@@ -2,12 +2,13 @@
 
 The certificate is written from the calibration record (``record_kind = "calibration"``, see
 ``activolt.io.record``), so that every number it shows is the record's number, formatted once
-by :func:`format_potential`. It holds what ISO/IEC 17025:2017, clause 7.8.2.1 and 7.8.4.1,
-asks of a calibration certificate: a title, the laboratory, a unique identification of the
-certificate on every page and the page numbering (CSS counters when printed), the customer, the
-items calibrated, the dates of calibration and of issue, the method, the conditions, the
-results with their expanded uncertainty and coverage factor, the statement of conformity with
-its decision rule, the metrological traceability and the authorisation.
+by :func:`activolt.rounding.format_potential`. It holds what ISO/IEC 17025:2017, clause
+7.8.2.1 and 7.8.4.1, asks of a calibration certificate: a title, the laboratory, a unique
+identification of the certificate on every page and the page numbering (CSS counters when
+printed), the customer, the items calibrated, the dates of calibration and of issue, the
+method, the conditions, the results with their expanded uncertainty and coverage factor, the
+statement of conformity with its decision rule, the metrological traceability and the
+authorisation.
 
 The page is print-friendly (A4 through CSS ``@page``), fetches nothing from the network and
 runs no script. Every text that comes from the user (metadata, electrode names, file names) is
@@ -21,10 +22,10 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+from ..rounding import format_potential
 from ..safe_text import escape_controls
-from .numbers import decimals_for
 
-__all__ = ["NOT_STATED", "certificate_html", "certificate_id", "format_potential", "text"]
+__all__ = ["NOT_STATED", "certificate_html", "certificate_id", "text"]
 
 #: What the certificate says where the metadata do not give a field.
 NOT_STATED = "not stated in the metadata"
@@ -76,29 +77,6 @@ def certificate_id(record_sha256: str, prefix: str = "AV-CAL") -> str:
     'AV-CAL-0123456789AB'
     """
     return f"{prefix}-{record_sha256[:12].upper()}"
-
-
-def format_potential(value_V: float | None, expanded_V: float | None, scale: float = 1e3
-                     ) -> tuple[str, str]:
-    """A potential and its expanded uncertainty as printed, in mV by default: U to two
-    significant digits and the value to the same decimal place (GUM, JCGM 100:2008, 7.2.6).
-
-    The record keeps the unrounded numbers; the certificate and the printed summary show them
-    through this function.
-
-    Examples
-    --------
-    >>> format_potential(0.2223456, 0.0000912)
-    ('222.346', '0.091')
-    >>> format_potential(None, None)
-    ('—', '—')
-    """
-    if value_V is None or not math.isfinite(value_V):
-        return "—", "—"
-    if expanded_V is None or not math.isfinite(expanded_V) or expanded_V <= 0.0:
-        return f"{value_V * scale:.4f}", "—"
-    places = decimals_for(expanded_V * scale)
-    return f"{value_V * scale:.{places}f}", f"{expanded_V * scale:.{places}f}"
 
 
 def _mV(value_V: float | None, places: int = 4) -> str:

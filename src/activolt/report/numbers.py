@@ -1,28 +1,15 @@
-"""Printing a value with its uncertainty, never with more digits than the uncertainty supports."""
+"""Printing a value with its uncertainty, never with more digits than the uncertainty supports
+(the rule itself, :func:`decimals_for` and :func:`format_with_uncertainty`, lives in
+:mod:`activolt.rounding`, where the command line and the results' display read it too)."""
 
 from __future__ import annotations
 
 import math
 
-from ..rounding import decimals_for
+from ..rounding import decimals_for, format_with_uncertainty
 
-
-def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
-                            significant: int = 2) -> str:
-    """``value ± u unit`` with u to ``significant`` digits and the value to the same place.
-
-    Examples
-    --------
-    >>> format_with_uncertainty(222.35216, 0.0061, "mV")
-    '222.3522 ± 0.0061 mV'
-    >>> format_with_uncertainty(4.31, float("nan"), "Å")
-    '4.31 Å (held)'
-    """
-    suffix = f" {unit}" if unit else ""
-    if not math.isfinite(uncertainty):
-        return f"{value:.4g}{suffix} (held)"
-    places = decimals_for(uncertainty, significant)
-    return f"{value:.{places}f} ± {uncertainty:.{places}f}{suffix}"
+__all__ = ["decimals_for", "format_compact", "format_scaled", "format_with_uncertainty",
+           "json_number"]
 
 
 def json_number(value: float | None) -> float | None:
