@@ -316,3 +316,66 @@ def test_the_same_output_name_twice_is_bad_input(tmp_path, capsys):
                  "--out", str(tmp_path / "o")]) == 2
     assert "output name 'run'" in capsys.readouterr().err
     assert not (tmp_path / "o").exists()
+
+
+# --- worker processes ------------------------------------------------------------------------
+
+def _without_provenance(path: Path) -> dict:
+    """A record without what names the invocation (command line, time)."""
+    record = json.loads(path.read_text(encoding="utf-8"))
+    record.pop("created_utc")
+    record["provenance"].pop("command_line")
+    return record
+
+
+def test_workers_give_the_same_outputs_as_one_process(tmp_path, capsys):
+    # 70 series (one unreducible) in two worker processes against one process: every output
+    # the same apart from the command line and the time in the records and reports.
+    path = tmp_path / "many.csv"
+    _write_many(path, 69)
+    with path.open("a", encoding="utf-8") as table:
+        table.write("0.01,0.35,single\n" * 4)
+    outs = {n: tmp_path / f"out{n}" for n in (1, 2)}
+    for n, out in outs.items():
+        assert main(["reduce", str(path), "--out", str(out), "--figures", "none",
+                     "--workers", str(n)]) == 1
+    captured = capsys.readouterr()
+    assert captured.err.count("not reduced") == 2  # once per invocation, on stderr
+    names = sorted(p.name for p in outs[1].iterdir())
+    assert names == sorted(p.name for p in outs[2].iterdir())
+    assert len(names) == 69 * len(SET) + 1
+    for name in names:
+        one, two = outs[1] / name, outs[2] / name
+        if name.endswith(".record.json"):
+            assert _without_provenance(one) == _without_provenance(two), name
+        elif not name.endswith(".report.html"):  # the HTML shows the record's time and hash
+            assert one.read_bytes() == two.read_bytes(), name
+    summary = _summary(outs[2] / "many.summary.csv")
+    assert summary["series"].tolist() == [f"S{s}" for s in range(69)] + ["single"]
+
+
+def test_ctrl_c_in_a_batch_of_worker_processes_writes_nothing(tmp_path, capsys, monkeypatch):
+    # The main process is interrupted while workers reduce the series (a worker sends the
+    # signal from within the 20th series): exit status 130, one line, and no output folder or
+    # temporary left behind (the workers are stopped before the staged folder is removed).
+    import os
+    import signal
+
+    import activolt.procedures.many as many
+
+    path = tmp_path / "many.csv"
+    _write_many(path, 80)
+    real, calls = many.summary_row, []
+
+    def row_then_stop(outcome, model):
+        calls.append(1)
+        if len(calls) == 20:
+            os.kill(os.getppid(), signal.SIGINT)
+        return real(outcome, model)
+
+    monkeypatch.setattr(many, "summary_row", row_then_stop)
+    assert main(["reduce", str(path), "--figures", "none", "--workers", "2"]) == 130
+    captured = capsys.readouterr()
+    assert captured.err.strip().splitlines() == [
+        "activolt: interrupted; nothing was written (earlier outputs are unchanged)"]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["many.csv", "many.toml"]

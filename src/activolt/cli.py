@@ -13,7 +13,8 @@ import os
 import signal
 import sys
 import threading
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
 from importlib import import_module
 from importlib.resources import files
 from pathlib import Path
@@ -25,6 +26,8 @@ from .safe_text import escape_controls
 
 if TYPE_CHECKING:
     from .data.runs import Run
+    from .io.files import StagedFolder
+    from .procedures.many import SeriesReducer
 
 # The command line solves many small least-squares problems, where BLAS threads cost more than
 # they give and contend with each other on a busy machine: one thread unless the user set one
@@ -140,6 +143,9 @@ def _parser() -> argparse.ArgumentParser:
                         help="all (default): each series' figures, and with several series an "
                              "overview of E° ± U95; summary: the overview only; none")
     reduce.add_argument("--no-figures", action="store_true", help="same as --figures none")
+    reduce.add_argument("--workers", type=_positive_count, metavar="N",
+                        help="with many series: how many processes reduce them; default one "
+                             "per CPU (the results do not depend on it)")
     reduce.add_argument("--study", action="store_true",
                         help="the tables (and their series) are one temperature study: "
                              "isotherms grouped by temperature, E°(T) and ΔG°, ΔH°, ΔS°, ΔCp° "
@@ -261,6 +267,17 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
 
 
 
+def _positive_count(text: str) -> int:
+    """A whole number ≥ 1 on the command line."""
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number ≥ 1")
+    return value
+
+
 def _check_monte_carlo_options(trials: int | None, seed: int) -> None:
     """--monte-carlo takes 10 to 10⁶ trials and --seed a whole number ≥ 0 (bad input else)."""
     if trials is not None and not 10 <= trials <= 1_000_000:
@@ -379,17 +396,17 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
                   fixed: dict[str, float], out: Path | None, json_path: Path | None,
                   series: str | None, overrides: dict[str, object], figures: str,
                   exclude: tuple[str, ...] = (), trials: int | None = None, seed: int = 0,
-                  written: list[Path] | None = None, runs: Sequence[Run] | None = None) -> int:
+                  written: list[Path] | None = None, runs: Sequence[Run] | None = None,
+                  workers: int | None = None) -> int:
     """Every series of several tables, a folder or a table with a ``series`` column: one output
     set per series and ``NAME.summary.csv``; returns the exit status (1 when a series failed).
+    ``workers``: how many processes reduce the series (default: one per CPU for a large
+    batch).
     """
     from .data.runs import read_run, read_runs
-    from .io.files import check_outputs, write_outputs
-    from .io.record import points_csv, record_json
+    from .io.files import check_outputs, output_set
     from .io.summary import summary_csv
-    from .procedures.many import reduce_many, series_name
-    from .procedures.properties import derive_results
-    from .report.text import format_report
+    from .procedures.many import series_name, series_reducer, summary_frame
 
     tables, name, default_out = _run_tables(paths)
     if json_path is not None:
@@ -426,66 +443,165 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     inputs = list(dict.fromkeys(
         p for run in runs for p in (run.path, run.metadata_path) if p is not None))
     check_outputs(out, owned, [], inputs)
-    with _progress(len(runs), "reducing") as bar:
-        result = reduce_many(runs, model=model, fixed=fixed, progress=bar.update)
-    contents: dict[str, bytes | str] = {}
-    lines = []
-    with _progress(len(runs), "writing") as bar:
-        for base, outcome in zip(bases, result, strict=True):
-            bar.update(1)
-            label = f"{outcome.run.path.name}" + (f", series '{outcome.series}'"
-                                                  if outcome.series else "")
-            reduction = outcome.reduction
-            if reduction is None:
-                lines.append(f"{label}: not reduced — {outcome.failure}")
-                continue
-            monte = None
-            if trials is not None:
-                from .procedures.montecarlo import monte_carlo
+    reducer = series_reducer(model, fixed)
+    job = _SeriesJob(tuple(runs), tuple(bases), reducer, out, figures, trials, seed)
+    done: list[_SeriesDone] = []
+    with output_set(folder=out, owned=owned, inputs=inputs) as staged:
+        assert staged is not None
+        done.extend(_each_series(job, staged, workers))
+        summary = summary_frame([d.row for d in done])
+        staged.write(summary_names[0], summary_csv(summary))
+        if figures != "none":
+            from .report.figures import render_summary_figure
 
-                monte = monte_carlo(reduction.run, trials=trials, seed=seed, reduction=reduction,
-                                    temperature_u_K=reduction.run.metadata.u_temperature_K,
-                                    progress=False)
-            derived = derive_results(reduction)  # once, for the report and the record alike
-            report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
-                                   derived=derived)
-            contents[f"{base}.record.json"] = record_json(
-                reduction, comparison=outcome.comparison, monte_carlo=monte, record_folder=out,
-                derived=derived)
-            contents[f"{base}.points.csv"] = points_csv(reduction)
-            contents[f"{base}.report.txt"] = escape_controls(
-                report if report.endswith("\n") else report + "\n", keep="\n")
-            drawn: dict[str, bytes] = {}
-            if figures == "all":
-                from .report.figures import render_figures
-
-                drawn = render_figures(reduction)
-                for kind, png in drawn.items():
-                    contents[f"{base}.{kind}.png"] = png
-            contents[f"{base}.report.html"] = _html_report(
-                contents[f"{base}.record.json"], drawn, f"{base}.record.json")
-            e0 = reduction.standard_potential
-            lines.append(f"{label}: E° = {e0.nominal_value * 1e3:.4f} ± {e0.std_dev * 1e3:.4f} mV "
-                         f"(k = 1, {reduction.model.name})")
-    summary = result.summary
-    contents[summary_names[0]] = summary_csv(summary)
-    if figures != "none":
-        from .report.figures import render_summary_figure
-
-        contents[summary_names[1]] = render_summary_figure(summary)
-    done = write_outputs(folder=out, contents=contents, owned=owned, inputs=inputs)
+            staged.write(summary_names[1], render_summary_figure(summary))
+    rows, lines = [d.row for d in done], [d.line for d in done]
+    failed = [d.failure for d in done if d.failure is not None]
     if written is not None:
-        written.extend(done)
-    failed = result.failures
+        written.extend(out / name for d in done for name in d.names)
+        written.extend(out / name for name in summary_names[:1 if figures == "none" else 2])
     sys.stdout.write(escape_controls(
-        f"activolt: {len(result) - len(failed)} of {len(result)} series reduced "
-        f"(model {result.model}); summary in {out / summary_names[0]}\n"
+        f"activolt: {len(rows) - len(failed)} of {len(rows)} series reduced "
+        f"(model {reducer.model}); summary in {out / summary_names[0]}\n"
         + "".join(f"  {line}\n" for line in lines), keep="\n"))
-    for outcome in failed:
-        print(escape_controls(f"activolt: {outcome.run.path}"
-                              + (f", series '{outcome.series}'" if outcome.series else "")
-                              + f": not reduced: {outcome.failure}"), file=sys.stderr)
+    for failure in failed:
+        print(escape_controls(failure), file=sys.stderr)
     return 1 if failed else 0
+
+
+@dataclass(frozen=True)
+class _SeriesJob:
+    """What every series of a batch shares: the runs, their output names and the options."""
+
+    runs: tuple[Run, ...]
+    bases: tuple[str, ...]
+    reducer: SeriesReducer
+    out: Path
+    figures: str
+    trials: int | None
+    seed: int
+
+    def __call__(self, index: int, staged: StagedFolder) -> _SeriesDone:
+        """Reduce series ``index`` and write its outputs into ``staged``."""
+        from .io.record import points_csv, record_json
+        from .procedures.many import summary_row
+        from .procedures.properties import derive_results
+        from .report.text import format_report
+
+        outcome = self.reducer(self.runs[index])
+        base = self.bases[index]
+        row = summary_row(outcome, self.reducer.model)
+        label = f"{outcome.run.path.name}" + (f", series '{outcome.series}'"
+                                              if outcome.series else "")
+        reduction = outcome.reduction
+        if reduction is None:
+            return _SeriesDone(row, f"{label}: not reduced — {outcome.failure}", (
+                f"activolt: {outcome.run.path}"
+                + (f", series '{outcome.series}'" if outcome.series else "")
+                + f": not reduced: {outcome.failure}"), ())
+        monte = None
+        if self.trials is not None:
+            from .procedures.montecarlo import monte_carlo
+
+            monte = monte_carlo(reduction.run, trials=self.trials, seed=self.seed,
+                                reduction=reduction,
+                                temperature_u_K=reduction.run.metadata.u_temperature_K,
+                                progress=False)
+        derived = derive_results(reduction)  # once, for the report and the record alike
+        report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
+                               derived=derived)
+        record = record_json(reduction, comparison=outcome.comparison, monte_carlo=monte,
+                             record_folder=self.out, derived=derived)
+        contents: dict[str, str | bytes] = {
+            f"{base}.record.json": record, f"{base}.points.csv": points_csv(reduction),
+            f"{base}.report.txt": escape_controls(
+                report if report.endswith("\n") else report + "\n", keep="\n")}
+        drawn: dict[str, bytes] = {}
+        if self.figures == "all":
+            from .report.figures import render_figures
+
+            drawn = render_figures(reduction)
+            contents.update({f"{base}.{kind}.png": png for kind, png in drawn.items()})
+        contents[f"{base}.report.html"] = _html_report(record, drawn, f"{base}.record.json")
+        for name, content in contents.items():
+            staged.write(name, content)
+        e0 = reduction.standard_potential
+        return _SeriesDone(row, (f"{label}: E° = {e0.nominal_value * 1e3:.4f} ± "
+                                 f"{e0.std_dev * 1e3:.4f} mV (k = 1, {reduction.model.name})"),
+                           None, tuple(contents))
+
+
+@dataclass(frozen=True)
+class _SeriesDone:
+    """One series of a batch done: its summary row, its line for the terminal, its failure
+    line for stderr (None when reduced) and the names of the files it wrote."""
+
+    row: dict[str, Any]
+    line: str
+    failure: str | None
+    names: tuple[str, ...]
+
+
+#: Below this many series a batch is reduced in this process: starting workers would cost
+#: more than it saves.
+_SERIES_PER_WORKER = 32
+#: The job of the worker processes of a batch (inherited when they are forked).
+_WORKER_JOB: tuple[_SeriesJob, StagedFolder] | None = None
+
+
+def _worker_count(requested: int | None, series: int) -> int:
+    """How many worker processes reduce a batch: ``--workers``, else one per CPU this process
+    may use, no more than one per :data:`_SERIES_PER_WORKER` series; 1 where processes cannot
+    be forked."""
+    import multiprocessing
+
+    if "fork" not in multiprocessing.get_all_start_methods():
+        return 1
+    if requested is not None:
+        return max(1, min(requested, series))
+    cpus = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (
+        os.cpu_count() or 1)
+    return max(1, min(cpus, series // _SERIES_PER_WORKER))
+
+
+def _start_worker() -> None:
+    """A worker leaves Ctrl-C to the main process, which stops the batch (and the workers)."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+
+def _work(index: int) -> _SeriesDone:
+    assert _WORKER_JOB is not None
+    job, staged = _WORKER_JOB
+    return job(index, staged)
+
+
+def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
+                 ) -> Iterator[_SeriesDone]:
+    """Every series done, in order, with a progress bar on a
+    terminal; reduced in worker processes (forked, so that the runs are not copied) when the
+    batch is large and the machine has several CPUs. The result of a series does not depend on
+    where it was reduced."""
+    global _WORKER_JOB
+    count = len(job.runs)
+    processes = _worker_count(workers, count)
+    with _progress(count, "reducing") as bar:
+        if processes == 1:
+            for index in range(count):
+                yield job(index, staged)
+                bar.update(1)
+            return
+        import multiprocessing
+
+        _WORKER_JOB = (job, staged)
+        try:
+            with multiprocessing.get_context("fork").Pool(processes, _start_worker) as pool:
+                chunk = max(1, min(64, count // (8 * processes)))
+                for result in pool.imap(_work, range(count), chunksize=chunk):
+                    yield result
+                    bar.update(1)
+        finally:
+            _WORKER_JOB = None
 
 
 def _reduce_command(args: argparse.Namespace, written: list[Path]) -> int:
@@ -516,7 +632,7 @@ def _reduce_command(args: argparse.Namespace, written: list[Path]) -> int:
                 return _study(paths, *common, figures != "none", **study_options)
             _reduce(paths[0], *common, figures == "all", **options)
             return 0
-    return _reduce_batch(paths, *common, figures, runs=runs, **options)
+    return _reduce_batch(paths, *common, figures, runs=runs, workers=args.workers, **options)
 
 
 def _spans_setpoints(path: Path, meta: Path | None, overrides: dict[str, object],
@@ -842,7 +958,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         else:
             status = _reduce_command(args, written)
         if len(written) > 20:  # a batch: the folder and the count, not every file
-            print(escape_controls(f"\nwritten: {len(written)} files into {written[0].parent}"))
+            print(escape_controls(f"\nwritten: {len(written)} files into {written[0].parent}",
+                                  keep="\n"))
         elif written:
             print(escape_controls("\nwritten:\n" + "\n".join(f"  {p}" for p in written),
                                   keep="\n"))

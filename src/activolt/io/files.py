@@ -13,7 +13,10 @@ in an output folder, and perhaps a file elsewhere (``--json FILE``). :func:`writ
    is taken over, together with its temporaries;
 3. builds the new folder beside the old one (``.NAME.activolt-PID-TOKEN.new``): the new files,
    with the modes of the files they replace, and hard links (or copies) of the files of other
-   sets, which are kept; files of the same set that the new set no longer holds are left out;
+   sets, which are kept; files of the same set that the new set no longer holds are left out.
+   The new files are made durable before the swap, with one ``syncfs`` on Linux (else an
+   ``fsync`` of each); :func:`output_set` lets the files be streamed into the new folder, by
+   worker processes too, so that a set of many series is never held in memory;
 4. swaps the two folders in one step (``renameat2(RENAME_EXCHANGE)`` on Linux,
    ``renamex_np(RENAME_SWAP)`` on macOS; elsewhere two renames, and a folder left at ``.old``
    by a killed run is put back by the next one), then replaces the separate files, with Ctrl-C
@@ -39,11 +42,13 @@ import stat
 import sys
 import threading
 from collections.abc import Callable, Collection, Iterator, Mapping, Sequence
+from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import InputError
 
-__all__ = ["check_outputs", "write_atomically", "write_outputs"]
+__all__ = ["StagedFolder", "check_outputs", "output_set", "write_atomically",
+           "write_outputs"]
 
 _TEMPORARY = re.compile(r"^\.(?P<target>.+)\.activolt-(?P<pid>\d+)-[0-9a-f]{8}\."
                         r"(?P<kind>new|old|tmp)$")
@@ -207,18 +212,47 @@ def _fsync_folder(folder: Path) -> None:
 
 
 def write_file(path: Path, data: bytes, mode: int) -> None:
-    """Write ``data`` to a new file ``path`` (never an existing one) with permission ``mode``,
-    flushed to disk before it returns."""
+    """Write ``data`` to a new file ``path`` (never an existing one) with permission ``mode``.
+
+    The data reach the disk when the set is committed (:func:`_flush_to_disk`), once for all
+    its files rather than once per file: a set of ten thousand series writes tens of
+    thousands of files.
+    """
     handle = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0),
                      0o600)
     try:
         view = memoryview(data)
         while view:
             view = view[os.write(handle, view):]
-        os.fsync(handle)
     finally:
         os.close(handle)
     os.chmod(path, mode)
+
+
+def _flush_to_disk(paths: Sequence[Path], folder: Path | None = None) -> None:
+    """Make written files durable before they are renamed into place: one ``syncfs`` of the
+    file system holding ``folder`` on Linux (all of a staged folder's files at once), else an
+    ``fsync`` of each file (and of ``folder``'s own entry)."""
+    if folder is not None and sys.platform.startswith("linux"):
+        try:
+            syncfs = ctypes.CDLL(None, use_errno=True).syncfs
+        except (OSError, AttributeError):
+            syncfs = None
+        if syncfs is not None:
+            handle = os.open(folder, os.O_RDONLY)
+            try:
+                if syncfs(handle) == 0:
+                    return
+            finally:
+                os.close(handle)
+    for path in paths:
+        handle = os.open(path, os.O_RDONLY)
+        try:
+            os.fsync(handle)
+        finally:
+            os.close(handle)
+    if folder is not None:
+        _fsync_folder(folder)
 
 
 def _exchange(first: Path, second: Path) -> bool:
@@ -356,6 +390,30 @@ def _data(content: bytes | str) -> bytes:
     return content.encode("utf-8") if isinstance(content, str) else content
 
 
+@dataclass(frozen=True)
+class StagedFolder:
+    """Where the files of a set go before it is committed: its staged folder, and the modes of
+    the files they replace. Plain data, so that worker processes can write into it too.
+
+    Attributes
+    ----------
+    path : pathlib.Path
+        The staged folder (``.NAME.activolt-PID-TOKEN.new`` beside the output folder).
+    modes : mapping of str to int
+        Permission bits of the files of the set that the new ones replace, by name.
+    mode : int
+        Permission bits of a new file (0o666 less the umask).
+    """
+
+    path: Path
+    modes: Mapping[str, int]
+    mode: int
+
+    def write(self, name: str, content: bytes | str) -> None:
+        """Write one file of the set (text as UTF-8); it appears when the set is committed."""
+        write_file(self.path / name, _data(content), self.modes.get(name, self.mode))
+
+
 class OutputTransaction:
     """The temporaries, the undo steps and the folders made by one :func:`write_outputs`."""
 
@@ -363,12 +421,13 @@ class OutputTransaction:
         self.temporaries: list[Path] = []
         self.undo: list[Callable[[], None]] = []
         self.created: list[Path] = []
+        self.folder_modes: dict[Path, int] = {}
         self.file_mode = 0o666 & ~_umask()
         self.folder_mode = 0o777 & ~_umask()
 
-    def stage_folder(self, folder: Path, contents: Mapping[str, bytes | str],
-                     owned: Collection[str]) -> Path:
-        """The new folder, beside ``folder``: new files, and links to the other sets' files."""
+    def stage_folder(self, folder: Path, owned: Collection[str]) -> StagedFolder:
+        """The new folder, beside ``folder``, with links to the other sets' files; the set's
+        own files are written into it next (:meth:`StagedFolder.write`)."""
         new = _temporary(folder, "new")
         os.mkdir(new, 0o700)
         self.temporaries.append(new)
@@ -377,7 +436,7 @@ class OutputTransaction:
         if os.path.isdir(folder):
             folder_mode = stat.S_IMODE(os.stat(folder).st_mode)
             for entry in os.scandir(folder):
-                if entry.name in contents or entry.name in owned:
+                if entry.name in owned:
                     if entry.is_file(follow_symlinks=False):
                         modes[entry.name] = stat.S_IMODE(entry.stat(follow_symlinks=False)
                                                          .st_mode)
@@ -389,11 +448,15 @@ class OutputTransaction:
                     os.link(entry.path, new / entry.name, follow_symlinks=False)
                 except OSError:
                     shutil.copy2(entry.path, new / entry.name, follow_symlinks=False)
-        for name, content in contents.items():
-            write_file(new / name, _data(content), modes.get(name, self.file_mode))
-        os.chmod(new, folder_mode)
+        self.folder_modes[new] = folder_mode
+        return StagedFolder(new, modes, self.file_mode)
+
+    def seal_folder(self, new: Path) -> None:
+        """Make the staged folder's files durable and give it the output folder's mode."""
+        _flush_to_disk([Path(entry.path) for entry in os.scandir(new)
+                        if entry.is_file(follow_symlinks=False)], new)
+        os.chmod(new, self.folder_modes[new])
         _fsync_folder(new)
-        return new
 
     def stage_file(self, path: Path, content: bytes | str) -> Path:
         temporary = _temporary(path, "tmp")
@@ -403,6 +466,7 @@ class OutputTransaction:
             if path.is_file():
                 mode = stat.S_IMODE(path.stat().st_mode)
         write_file(temporary, _data(content), mode)
+        _flush_to_disk([temporary])
         return temporary
 
     def commit_folder(self, folder: Path, new: Path) -> None:
@@ -486,9 +550,38 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
         writing, or a write that failed (then the previous outputs are intact and nothing new
         is left behind).
     """
-    files = {Path(p): c for p, c in (files or {}).items()}
     contents = dict(contents or {})
-    owned = {*owned, *contents}
+    with output_set(files, folder=folder, owned={*owned, *contents}, inputs=inputs) as staged:
+        for name, content in contents.items():
+            staged.write(name, content)
+    written = [folder / name for name in contents] if folder is not None else []
+    return written + [Path(p) for p in (files or {})]
+
+
+@contextlib.contextmanager
+def output_set(files: Mapping[Path, bytes | str] | None = None, *,
+               folder: Path | None = None, owned: Collection[str] = (),
+               inputs: Sequence[Path] = ()) -> Iterator[StagedFolder | None]:
+    """Write one set of outputs as a whole, its folder's files streamed in as they are made.
+
+    The same as :func:`write_outputs`, except that the files of ``folder`` are written by the
+    body of the ``with`` block, through the :class:`StagedFolder` it is given (None without a
+    folder), one at a time or by worker processes: a set of many series need not be held in
+    memory. Every name written must be in ``owned``. The set is committed when the block ends
+    normally; an exception (Ctrl-C included) leaves the previous outputs as they were.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> out = pathlib.Path(tempfile.mkdtemp()) / "out"
+    >>> with output_set(folder=out, owned=["a.txt", "b.txt"]) as staged:
+    ...     staged.write("a.txt", "first")
+    ...     staged.write("b.txt", b"second")
+    >>> sorted(p.name for p in out.iterdir())
+    ['a.txt', 'b.txt']
+    """
+    files = {Path(p): c for p, c in (files or {}).items()}
+    owned = set(owned)
     check_outputs(folder, owned, list(files), inputs)
     targets: dict[Path, str] = {}
     real_folder = None
@@ -510,8 +603,11 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
             for target in targets:
                 _clean_stale(target)
             check_outputs(folder, owned, list(files), inputs)
-            staged_folder = (transaction.stage_folder(real_folder, contents, owned)
-                             if real_folder is not None else None)
+            staged = (transaction.stage_folder(real_folder, owned)
+                      if real_folder is not None else None)
+            yield staged
+            if staged is not None:
+                transaction.seal_folder(staged.path)
             staged_files = {}
             for path, content in files.items():
                 shown = str(path)
@@ -519,9 +615,9 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
                                                                         content)
             with _signals_held() as caught:
                 try:
-                    if staged_folder is not None:
+                    if staged is not None:
                         shown = str(folder)
-                        transaction.commit_folder(real_folder, staged_folder)
+                        transaction.commit_folder(real_folder, staged.path)
                     for real, temporary in staged_files.items():
                         shown = targets[real]
                         transaction.commit_file(real, temporary)
@@ -538,8 +634,6 @@ def write_outputs(files: Mapping[Path, bytes | str] | None = None, *,
                          file=shown) from None
     finally:
         transaction.clean_up(committed)
-    written = [folder / name for name in contents] if folder is not None else []
-    return written + list(files)
 
 
 def write_atomically(path: str | Path, content: bytes | str) -> Path:

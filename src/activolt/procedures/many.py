@@ -28,7 +28,8 @@ from .dilution import OUT_OF_RANGE, Reduction, reduce_run
 from .display import html_table, value_with_uncertainty
 from .model_choice import ModelComparison, compare_models
 
-__all__ = ["SUMMARY_COLUMNS", "ManyReductions", "SeriesReduction", "reduce_many", "series_name"]
+__all__ = ["SUMMARY_COLUMNS", "ManyReductions", "SeriesReducer", "SeriesReduction",
+           "reduce_many", "series_name", "series_reducer", "summary_frame", "summary_row"]
 
 #: Columns of :attr:`ManyReductions.summary`, in order (units in the names).
 SUMMARY_COLUMNS: tuple[str, ...] = (
@@ -129,9 +130,7 @@ class ManyReductions:
         reading) or, for a series not reduced, ``refused: <reason>``; ``failure`` holds that
         reason (empty otherwise). A series not reduced has NaN numbers.
         """
-        rows = [_summary_row(o, self.model) for o in self.outcomes]
-        frame = pd.DataFrame(rows, columns=list(SUMMARY_COLUMNS))
-        return frame.astype({"n_points": int})
+        return summary_frame([summary_row(o, self.model) for o in self.outcomes])
 
     def to_frame(self) -> pd.DataFrame:
         """Every reading of every series reduced (flagged rows included), in order: each
@@ -173,7 +172,16 @@ class ManyReductions:
                           rows)
 
 
-def _summary_row(outcome: SeriesReduction, model: str) -> dict[str, Any]:
+def summary_frame(rows: Sequence[Mapping[str, Any]]) -> pd.DataFrame:
+    """The summary table (:attr:`ManyReductions.summary`) from rows made by
+    :func:`summary_row`, in order."""
+    frame = pd.DataFrame(list(rows), columns=list(SUMMARY_COLUMNS))
+    return frame.astype({"n_points": int})
+
+
+def summary_row(outcome: SeriesReduction, model: str) -> dict[str, Any]:
+    """One series' row of the summary (columns :data:`SUMMARY_COLUMNS`); ``model`` is the
+    model asked for, shown for a series not reduced."""
     run = outcome.run
     row: dict[str, Any] = {"file": run.path.name, "series": outcome.series}
     reduction = outcome.reduction
@@ -309,7 +317,56 @@ def reduce_many(
         runs = runs_from_frame(runs, metadata)
     elif metadata is not None:
         raise ValueError("metadata= goes with a DataFrame; runs carry their own metadata")
-    runs = tuple(runs)
+    reducer = series_reducer(model, fixed)
+    outcomes = []
+    for run in runs:
+        outcomes.append(reducer(run))
+        if progress is not None:
+            progress(1)
+    return ManyReductions(model=reducer.model, outcomes=tuple(outcomes))
+
+
+@dataclass(frozen=True)
+class SeriesReducer:
+    """The common choices of a batch, checked once: called with a run, it reduces that series
+    as :func:`reduce_many` does (its reduction, or its reason). Plain data, so that worker
+    processes can share it.
+
+    Attributes
+    ----------
+    model : str
+        The model asked for, as :attr:`ManyReductions.model` shows it.
+    first : str
+        The model fitted when no models are compared.
+    compared : tuple of str or None
+        The models compared on every series, or None.
+    fixed : mapping of str to float
+        The held parameters.
+    per_model : mapping of str to mapping
+        The held parameters each compared model has.
+    """
+
+    model: str
+    first: str
+    compared: tuple[str, ...] | None
+    fixed: Mapping[str, float]
+    per_model: Mapping[str, Mapping[str, float]]
+
+    def __call__(self, run: Run) -> SeriesReduction:
+        return _reduce_one(run, self.first, None if self.compared is None
+                           else list(self.compared), dict(self.fixed),
+                           {m: dict(f) for m, f in self.per_model.items()})
+
+
+def series_reducer(model: str | Sequence[str] = "hueckel",
+                   fixed: Mapping[str, float] | None = None) -> SeriesReducer:
+    """The reducer of one series at a time for a batch (see :func:`reduce_many`).
+
+    Raises
+    ------
+    InputError
+        An unknown model, or a held parameter that no model asked for has.
+    """
     fixed = dict(fixed or {})
     compared = _compared_models(model)
     label = model if isinstance(model, str) else ",".join(model)
@@ -325,12 +382,9 @@ def reduce_many(
                              f"{', '.join(sorted(known))}", column="--fix")
     per_model = {f.name: {k: v for k, v in fixed.items()
                           if k in f.parameter_names or k == SLOPE} for f in families}
-    outcomes = []
-    for run in runs:
-        outcomes.append(_reduce_one(run, families[0].name, compared, fixed, per_model))
-        if progress is not None:
-            progress(1)
-    return ManyReductions(model=label, outcomes=tuple(outcomes))
+    return SeriesReducer(model=label, first=families[0].name,
+                         compared=None if compared is None else tuple(compared), fixed=fixed,
+                         per_model=per_model)
 
 
 def _reduce_one(run: Run, model: str, compared: list[str] | None, fixed: dict[str, float],
