@@ -1055,7 +1055,7 @@ def _budget(run: Run, data: SeriesData, fit: _Fit, type_b: np.ndarray | None,
         lines.append(BudgetLine("readings", float(np.sqrt(np.sum(s**2) * scatter)),
                                 "scatter of the readings about the fit (Type A, covariance "
                                 f"scaled by the reduced χ², {fit.dof} degrees of freedom)"))
-        if run.points["u_molality_mol_kg"].gt(0).any():
+        if np.any(run.arrays["u_molality_mol_kg"] > 0):
             lines.append(BudgetLine("molalities", 0.0, "with no stated u(EMF) the scatter of "
                                     "the readings already carries u(m)"))
     if type_b is not None:
@@ -1112,8 +1112,7 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit
     diagnostic[used] = np.array(flag_points(fit.jacobian, data.weights, fit.residual_V, scaled),
                                 dtype=object)
     full["diagnostic"] = diagnostic
-    molality = run.points["molality_mol_kg"].to_numpy(float)
-    lines = run.points["line"].to_numpy()
+    molality, lines = run.arrays["molality_mol_kg"], run.arrays["line"]
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
                 "reason if it is faulty" for i in np.flatnonzero(diagnostic != None)]  # noqa: E711
