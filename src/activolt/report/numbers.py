@@ -5,11 +5,41 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
 from ..rounding import decimals_for, format_with_uncertainty
 
 __all__ = ["decimals_for", "format_compact", "format_scaled", "format_with_uncertainty",
-           "json_number"]
+           "frame_records", "json_number"]
+
+
+def frame_records(frame: Any) -> list[dict[str, Any]]:
+    """The rows of a table as dicts of plain Python values: what
+    ``frame.to_dict("records")`` gives (floats, ints, bools and strings as Python objects,
+    a missing string as NaN), an order of magnitude faster on the narrow tables of a reduction.
+
+    One conversion of the whole table to an object array replaces pandas' per-row, per-column
+    boxing; reports and records, which read every row, call it once.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        Any table with unique column names.
+
+    Returns
+    -------
+    list of dict
+        One dict per row, keys in column order.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> frame_records(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2], "e": ["a", None]}))
+    [{'m': 0.1, 'n': 1, 'e': 'a'}, {'m': 0.2, 'n': 2, 'e': nan}]
+    """
+    names = list(frame.columns)
+    return [dict(zip(names, row, strict=True))
+            for row in frame.to_numpy(dtype=object).tolist()]
 
 
 def json_number(value: float | None) -> float | None:

@@ -14,7 +14,7 @@ from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import comparison_lines
 from .model_table import format_model_comparison
-from .numbers import decimals_for, format_compact, format_with_uncertainty
+from .numbers import decimals_for, format_compact, format_with_uncertainty, frame_records
 
 
 def _e0_line(reduction: Reduction) -> str:
@@ -55,6 +55,9 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     """
     run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
     t_C = reduction.temperature_K - 273.15
+    # every row of the points table read once, as plain values (reading a DataFrame row by
+    # row costs more than the rest of the report)
+    records = frame_records(reduction.points)
     lines = [
         f"activolt reduction of {run.path.name}"
         + (f", series '{series}'" if (series := _series(run.points)) is not None else ""),
@@ -105,7 +108,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
                                       cross.u_standard_potential_V * 1e3, "mV")
             + f" ({difference * 1e3:+.3f} mV from the fit)"
         )
-    lines += _points_lines(reduction.points)
+    lines += _points_lines(reduction.points, records)
     derived = derived or derive_results(reduction)
     lines += comparison_lines(derived.published)
 
@@ -116,7 +119,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
               format_with_uncertainty(row["osmotic_coefficient"], row["u_osmotic_coefficient"]),
               format_compact(1.0 - row["water_activity"], row["u_water_activity"]),
               format_compact(row["excess_gibbs_rt_mol_kg"], row["u_excess_gibbs_rt_mol_kg"])]
-             for row in properties.to_dict("records")]
+             for row in frame_records(properties)]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
     widths = [max(len(r[i]) for r in [*cells, header]) for i in range(4)]
     lines += ["", "  derived from the fitted model (k = 1)"]
@@ -130,7 +133,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
             lines.append(f"  {b.component:<{width}}  {b.u_V * 1e3:8.4f} mV   {b.method}")
         lines.append(f"  {'combined':<{width}}  {reduction.standard_potential.std_dev * 1e3:8.4f}"
                      " mV")
-    lines += _gamma_budget_lines(reduction)
+    lines += _gamma_budget_lines(reduction.points, records)
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
@@ -149,16 +152,17 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     return escape_controls(text, keep="\n")
 
 
-def _points_lines(points: pd.DataFrame) -> list[str]:
+def _points_lines(points: pd.DataFrame, records: list[dict]) -> list[str]:
     """The readings: molality, electrode (when the run names them), E, residual, γ± (u);
     a flagged reading keeps its value and says why it is out of the fit; readings left out
-    with --exclude are counted per reason."""
+    with --exclude are counted per reason. ``records`` are the rows of ``points``
+    (:func:`~activolt.report.numbers.frame_records`)."""
     electrodes = "electrode" in points and any(
-        isinstance(e, str) and e.strip() for e in points["electrode"])
+        isinstance(row["electrode"], str) and row["electrode"].strip() for row in records)
     header = ["m / (mol/kg)", *(["electrode"] if electrodes else []), "E / mV",
               "residual / mV", "γ± (u)"]
     rows = []
-    for row in points.to_dict("records"):
+    for row in records:
         cells = [f"{row['molality_mol_kg']:.6g}"]
         if electrodes:
             cells.append(row["electrode"] if isinstance(row["electrode"], str) else "")
@@ -176,7 +180,9 @@ def _points_lines(points: pd.DataFrame) -> list[str]:
     for cells in [header, *rows]:
         lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(cells, widths, strict=False))
                       + "   " + cells[-1]).rstrip())
-    lines += _exclusion_lines(points)
+    if any(isinstance(row["flag"], str) and row["flag"].startswith("excluded")
+           for row in records):
+        lines += _exclusion_lines(points)
     return lines
 
 
@@ -210,18 +216,19 @@ def _series(points: object) -> str | None:
     return names.pop() if len(names) == 1 else None
 
 
-def _gamma_budget_lines(reduction: Reduction) -> list[str]:
-    """u(γ±) by input at the most dilute, a middle and the most concentrated reading."""
-    points = reduction.points[reduction.points["gamma_pm"].notna()]
+def _gamma_budget_lines(points: pd.DataFrame, records: list[dict]) -> list[str]:
+    """u(γ±) by input at the most dilute, a middle and the most concentrated reading
+    (``records``: the rows of ``points``)."""
+    rows = [row for row in records if pd.notna(row["gamma_pm"])]
     columns = [c for c in points.columns
                if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
-    if points.empty or not columns:
+    if not rows or not columns:
         return []
-    chosen = points.iloc[sorted({0, len(points) // 2, len(points) - 1})]
+    chosen = [rows[i] for i in sorted({0, len(rows) // 2, len(rows) - 1})]
     names = [c.removeprefix("u_gamma_pm_") for c in columns]
     lines = ["", "  uncertainty budget of γ± (k = 1; each input alone)",
              "  m / (mol/kg)   " + "".join(f"{name:<14}" for name in names) + "combined"]
-    for row in chosen.to_dict("records"):
+    for row in chosen:
         lines.append(f"  {row['molality_mol_kg']:<13.6g}  "
                      + "".join(f"{row[c]:<14.2g}" for c in columns)
                      + f"{row['u_gamma_pm']:.2g}")
