@@ -817,23 +817,27 @@ _WATER_DENSITY_KG_M3 = 997.0
 _STANDARD_GRAVITY_M_S2 = 9.80665
 
 
-def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata) -> list[str]:
+def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata,
+                  notes: Mapping[str, Any] | None = None) -> list[str]:
     """Checks of one series against physics once its temperatures are known: pressure columns
     of a gas cell, the gas partial pressure, the direction and size of the EMF's change with
-    molality and its sign against the cell diagram. InputError on the first problem."""
-    emf_column = points.attrs.get("emf_column", "emf_V")
-    like = points.attrs.get("pressure_like", ())
+    molality and its sign against the cell diagram. InputError on the first problem.
+    ``notes``: the reader's notes on the table (``points.attrs`` by default)."""
+    notes = points.attrs if notes is None else notes
+    emf_column = notes.get("emf_column", "emf_V")
+    like = notes.get("pressure_like", ())
     if like and metadata.gas_coefficients:
         raise InputError(
             f"the column looks like a barometric pressure, but activolt reads "
             f"{', '.join(PRESSURE_COLUMNS)}; the cell holds a gas whose pressure corrects every "
             "reading — name the column with its unit", file=str(path),
-            line=points.attrs.get("header_line"), column=like[0])
-    usable = points[points["flag"].isna()]
+            line=notes.get("header_line"), column=like[0])
+    flagged = points["flag"].notna().to_numpy()
+    usable = points[~flagged] if flagged.any() else points
     if usable.empty or usable["temperature_K"].isna().any():
         return []
     _check_distinct_molalities(path, usable)
-    gas_term = _check_gas_pressure(path, usable, metadata)
+    gas_term = _check_gas_pressure(path, usable, metadata, notes.get("pressure_column"))
     _check_response(path, usable, metadata, emf_column, gas_term)
     return []
 
@@ -845,13 +849,14 @@ _SAME_MOLALITY_RELATIVE = 1e-9
 
 def _check_distinct_molalities(path: Path, usable: pd.DataFrame) -> None:
     """Molalities are equal (the same solution read again) or apart by more than 1e-9."""
-    order = usable.sort_values("molality_mol_kg", kind="stable")
-    molality = order["molality_mol_kg"].to_numpy(float)
+    unsorted = usable["molality_mol_kg"].to_numpy(float)
+    order = np.argsort(unsorted, kind="stable")
+    molality = unsorted[order]
     gap = np.diff(molality)
     close = (gap > 0) & (gap <= _SAME_MOLALITY_RELATIVE * molality[1:])
     if close.any():
         i = int(np.flatnonzero(close)[0])
-        lines = order["line"].to_numpy(int)
+        lines = usable["line"].to_numpy(int)[order]
         first, second = sorted((int(lines[i]), int(lines[i + 1])))
         raise InputError(
             f"molality {molality[i + 1]!r} mol/kg differs from {molality[i]!r} (line {first}) by "
@@ -860,9 +865,11 @@ def _check_distinct_molalities(path: Path, usable: pd.DataFrame) -> None:
             file=str(path), line=second, column="molality_mol_kg")
 
 
-def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata) -> np.ndarray:
+def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata,
+                        pressure_column: str | None = None) -> np.ndarray:
     """−(RT/nF) Σ ν_g ln(p_g/p°) per reading [V] (0 without pressures); an InputError where
-    water vapour leaves (almost) no room for the gas."""
+    water vapour leaves (almost) no room for the gas (``pressure_column``: the table's name
+    of the pressure column, for the message)."""
     zero = np.zeros(len(usable))
     if not metadata.gas_coefficients:
         return zero
@@ -889,7 +896,7 @@ def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata)
             f"{_LEAST_GAS_PRESSURE_PA / 1e3:g} kPa): the gas electrode cannot work at this "
             "temperature and pressure — check the temperature and the pressure and its unit",
             file=str(path), line=int(row["line"]),
-            column=usable.attrs.get("pressure_column") if in_row else None)
+            column=pressure_column if in_row else None)
     with np.errstate(invalid="ignore", divide="ignore"):
         ln_ratio = np.log(gas / metadata.standard_pressure_Pa)
     per_volt = GAS_CONSTANT_J_MOL_K * temperature / (metadata.electrons * FARADAY_C_MOL)
@@ -1044,30 +1051,35 @@ def _with_metadata(points: pd.DataFrame, warnings: list[str], metadata: RunMetad
 
 
 def _series_run(path: Path, sha256: str, metadata_path: Path | None, points: pd.DataFrame,
-                metadata: RunMetadata, warnings: list[str]) -> Run:
+                metadata: RunMetadata, warnings: list[str],
+                notes: Mapping[str, Any] | None = None) -> Run:
     """One series' rows (already taken from the table) as a Run: temperatures filled in from
-    the metadata, rows without a reading named in a warning."""
+    the metadata, rows without a reading named in a warning. ``notes``: the reader's notes on
+    the table (``points.attrs`` by default)."""
+    notes = dict(points.attrs) if notes is None else notes
     points = points.reset_index(drop=True)
+    # The reader's notes have been taken; pandas would deep-copy them into every column and
+    # frame taken from the points.
+    points.attrs.clear()
     warnings = list(warnings)
-    missing_temperature = points["temperature_K"].isna()
+    missing_temperature = points["temperature_K"].isna().to_numpy()
     if missing_temperature.any():
         if metadata.temperature_K is None:
-            line = int(points.loc[missing_temperature, "line"].iloc[0])
+            line = int(points["line"].to_numpy()[missing_temperature][0])
             raise InputError("no temperature for this row; add temperature_C to the metadata or "
                              "a temperature_C column", file=str(path), line=line)
         points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
-    warnings.extend(_check_series(path, points, metadata))
+    warnings.extend(_check_series(path, points, metadata, notes))
 
-    missing = points.loc[points["flag"].notna(), "line"].tolist()
+    flagged = points["flag"].notna().to_numpy()
+    missing = points["line"].to_numpy()[flagged].tolist() if flagged.any() else []
     if missing:
         warnings.append(
             f"{len(missing)} row(s) have no reading (line(s) {', '.join(map(str, missing))}); "
             "they are kept in the record, flagged, and left out of the fit"
         )
-    points["flag"] = points["flag"].astype(object)
-    # The reader's notes (points.attrs) have served; pandas would deep-copy them into every
-    # column and frame taken from the points.
-    points.attrs.clear()
+    if points["flag"].dtype != object:
+        points["flag"] = points["flag"].astype(object)
     return Run(path=path, sha256=sha256, metadata_path=metadata_path, points=points,
                metadata=metadata, warnings=tuple(warnings))
 
@@ -1075,11 +1087,29 @@ def _series_run(path: Path, sha256: str, metadata_path: Path | None, points: pd.
 def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: pd.DataFrame,
                   metadata: RunMetadata, warnings: list[str]) -> tuple[Run, ...]:
     """Every series of a parsed table as its own Run, in order of first appearance; one pass
-    over the rows (a grouping, not a filter per series)."""
+    over the rows: one split of the row positions by series, and what is the same for every
+    series (the metadata's temperature where the table gives none, the reader's notes) done
+    once for the whole table."""
+    notes = dict(points.attrs)
+    points = points.copy(deep=False)
+    points.attrs.clear()
+    if metadata.temperature_K is not None:
+        # what _series_run would fill in for each series, filled in once
+        missing_temperature = points["temperature_K"].isna().to_numpy()
+        if missing_temperature.any():
+            points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
+    if points["flag"].dtype != object:
+        points["flag"] = points["flag"].astype(object)
+    # codes in order of first appearance (a missing name, -1, is no series, as in a grouping)
+    codes, _ = pd.factorize(points["series"])
+    order = np.argsort(codes, kind="stable")
+    order = order[codes[order] >= 0]
+    if not order.size:
+        return ()
+    starts = np.flatnonzero(np.diff(codes[order]))
     return tuple(
-        _series_run(path, sha256, metadata_path, rows, metadata, warnings)
-        for _, rows in points.groupby("series", sort=False)
-    )
+        _series_run(path, sha256, metadata_path, points.take(rows), metadata, warnings, notes)
+        for rows in np.split(order, starts + 1))
 
 
 def read_runs(

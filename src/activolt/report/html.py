@@ -17,6 +17,7 @@ comes from the user or the record (metadata, file names, series, reasons, warnin
 from __future__ import annotations
 
 import base64
+import functools
 import math
 from collections.abc import Mapping, Sequence
 from typing import Any
@@ -80,6 +81,17 @@ footer { margin-top: 6mm; font-size: 8.5pt; color: #333; border-top: 1px solid #
 _NOT_GIVEN = "—"
 
 
+@functools.lru_cache(maxsize=4096)
+def _cached_text(value: str) -> str:
+    return text(value)
+
+
+def _text(value: object) -> str:
+    """:func:`~activolt.report.certificate.text`, remembered for strings (a batch's pages
+    repeat their labels, units and many rounded numbers)."""
+    return _cached_text(value) if type(value) is str else text(value)
+
+
 def _number_value(value: Any) -> float | None:
     """A finite float, or None."""
     if value is None or isinstance(value, bool):
@@ -101,8 +113,8 @@ def _cell(shown: str, value: Any = None, quantity: str | None = None) -> str:
     """A number cell: ``shown`` (escaped) and the record's value in ``data-value``."""
     attributes = f' data-value="{_data(value)}"' if value is not None else ""
     if quantity is not None:
-        attributes += f' data-quantity="{text(quantity)}"'
-    return f'<td class="num"{attributes}>{text(shown)}</td>'
+        attributes += f' data-quantity="{_text(quantity)}"'
+    return f'<td class="num"{attributes}>{_text(shown)}</td>'
 
 
 def _with_u(value: Any, uncertainty: Any, scale: float = 1.0, unit: str = "") -> str:
@@ -133,19 +145,19 @@ def _kPa(value: Any) -> str:
 def _fields(rows: Sequence[tuple[str, str]]) -> str:
     """A definition list; labels are escaped here, values are HTML already."""
     return '<dl class="fields">' + "".join(
-        f"<dt>{text(label)}</dt><dd>{value}</dd>" for label, value in rows) + "</dl>"
+        f"<dt>{_text(label)}</dt><dd>{value}</dd>" for label, value in rows) + "</dl>"
 
 
 def _table(header: Sequence[str], rows: Sequence[str], ident: str, long: bool = False) -> str:
     """A table with an escaped header; ``rows`` are ``<tr>`` HTML already."""
-    head = "".join(f"<th>{text(h)}</th>" for h in header)
+    head = "".join(f"<th>{_text(h)}</th>" for h in header)
     kind = ' class="long"' if long else ""
     return (f'<table id="{ident}"{kind}><thead><tr>{head}</tr></thead><tbody>\n'
             + "\n".join(rows) + "\n</tbody></table>")
 
 
 def _list(items: Sequence[Any], ident: str) -> str:
-    return f'<ul id="{ident}">' + "".join(f"<li>{text(i)}</li>" for i in items) + "</ul>"
+    return f'<ul id="{ident}">' + "".join(f"<li>{_text(i)}</li>" for i in items) + "</ul>"
 
 
 def _file_name(path: Any) -> str:
@@ -156,25 +168,25 @@ def _file_name(path: Any) -> str:
 def _identification(record: Mapping[str, Any], record_name: str | None,
                     record_sha256: str | None) -> str:
     info = record.get("run_info") or {}
-    rows: list[tuple[str, str]] = [(str(key).replace("_", " "), text(value))
+    rows: list[tuple[str, str]] = [(str(key).replace("_", " "), _text(value))
                                    for key, value in info.items() if value not in (None, "")]
     inputs = record.get("inputs") or [record.get("input") or {}]
     for source in inputs:
-        rows.append(("run table", f"{text(_file_name(source.get('file', '')))} "
-                                  f"<span class=\"hash\">SHA-256 {text(source.get('sha256', ''))}"
+        rows.append(("run table", f"{_text(_file_name(source.get('file', '')))} "
+                                  f"<span class=\"hash\">SHA-256 {_text(source.get('sha256', ''))}"
                                   "</span>"))
         if source.get("metadata_file"):
-            rows.append(("metadata", f"{text(_file_name(source['metadata_file']))} "
+            rows.append(("metadata", f"{_text(_file_name(source['metadata_file']))} "
                                      f"<span class=\"hash\">SHA-256 "
-                                     f"{text(source.get('metadata_sha256', ''))}</span>"))
+                                     f"{_text(source.get('metadata_sha256', ''))}</span>"))
     if record_name or record_sha256:
-        rows.append(("record", (text(record_name) if record_name else "")
-                     + (f' <span class="hash">SHA-256 {text(record_sha256)}</span>'
+        rows.append(("record", (_text(record_name) if record_name else "")
+                     + (f' <span class="hash">SHA-256 {_text(record_sha256)}</span>'
                         if record_sha256 else "")))
     software = record.get("software") or {}
-    rows.append(("software", text(f"{software.get('name', 'activolt')} "
+    rows.append(("software", _text(f"{software.get('name', 'activolt')} "
                                   f"{software.get('version', '')}".strip())))
-    rows.append(("created (UTC)", text(record.get("created_utc", _NOT_GIVEN))))
+    rows.append(("created (UTC)", _text(record.get("created_utc", _NOT_GIVEN))))
     return '<section id="identification"><h2>Run</h2>' + _fields(rows) + "</section>"
 
 
@@ -182,17 +194,17 @@ def _conditions(record: Mapping[str, Any]) -> str:
     t_K = _number_value(record.get("temperature_K"))
     rows = []
     if record.get("cell"):
-        rows.append(("cell", text(record["cell"])))
+        rows.append(("cell", _text(record["cell"])))
     rows += [
-        ("electrolyte", text(record.get("electrolyte", _NOT_GIVEN))),
-        ("electrons n", text(record.get("electrons", _NOT_GIVEN))),
+        ("electrolyte", _text(record.get("electrolyte", _NOT_GIVEN))),
+        ("electrons n", _text(record.get("electrons", _NOT_GIVEN))),
         ("temperature", _NOT_GIVEN if t_K is None
          else f'<span data-value="{_data(t_K)}" data-quantity="temperature_K">'
               f"{t_K - 273.15:.2f} °C ({t_K:.2f} K)</span>"),
         ("pressure basis p°", _kPa(record.get("standard_pressure_kPa"))),
     ]
     model = record.get("model") or {}
-    rows.append(("model", text(model.get("title") or model.get("name") or _NOT_GIVEN)))
+    rows.append(("model", _text(model.get("title") or model.get("name") or _NOT_GIVEN)))
     return '<section id="conditions"><h2>Cell and conditions</h2>' + _fields(rows) + "</section>"
 
 
@@ -208,7 +220,7 @@ def _results(record: Mapping[str, Any]) -> str:
         places = decimals_for(expanded_V * 1e3)
     parts = [
         f'<p class="result" id="standard-potential">E° = <span data-quantity="standard_potential_V"'
-        f' data-value="{_data(value)}" data-uncertainty="{_data(u)}">{text(shown)}</span> (k = 1)'
+        f' data-value="{_data(value)}" data-uncertainty="{_data(u)}">{_text(shown)}</span> (k = 1)'
         + (f"; 95 % interval ± <span data-quantity=\"expanded_uncertainty_95\" "
            f"data-value=\"{_data(expanded)}\">{expanded_V * 1e3:.{places}f} mV</span> "
            f"(k = {float(k):.2f})" if places is not None and k is not None else "")
@@ -217,16 +229,16 @@ def _results(record: Mapping[str, Any]) -> str:
     rows = []
     other = record.get("standard_potential_other_basis")
     if other:
-        rows.append(("E° on the other basis", text(
+        rows.append(("E° on the other basis", _text(
             f"{_with_u(other.get('value_V'), other.get('uncertainty_V'), 1e3, 'mV')} "
             f"(p° = {other.get('standard_pressure_kPa')} kPa)")))
     catalogue = record.get("catalogue_standard_potential_V")
     if catalogue:
-        rows.append(("catalogue E°", text(
+        rows.append(("catalogue E°", _text(
             f"{_with_u(catalogue.get('value'), catalogue.get('uncertainty'), 1e3, 'mV')} "
             f"({catalogue.get('couples', '')}; same T and basis)")))
     if e0.get("u_model_choice") is not None:
-        rows.append(("u(E°) components", text(
+        rows.append(("u(E°) components", _text(
             f"fit {_with_u(0.0, e0.get('u_fit'), 1e3, 'mV').split('± ')[-1]}, model choice "
             f"{_with_u(0.0, e0.get('u_model_choice'), 1e3, 'mV').split('± ')[-1]}")))
     for key, label, unit in (("delta_g_kJ_mol", "ΔG°", "kJ/mol"), ("log10_K", "log₁₀ K", "")):
@@ -234,9 +246,9 @@ def _results(record: Mapping[str, Any]) -> str:
         if entry.get("value") is not None:
             shown = _with_u(entry.get("value"), entry.get("uncertainty"), 1.0, unit)
             rows.append((label, f'<span data-quantity="{key}" data-value='
-                                f'"{_data(entry.get("value"))}">{text(shown)}</span>'))
+                                f'"{_data(entry.get("value"))}">{_text(shown)}</span>'))
     if e0.get("method"):
-        rows.append(("how u(E°) was obtained", text(e0["method"])))
+        rows.append(("how u(E°) was obtained", _text(e0["method"])))
     parts.append(_fields(rows))
     parameters = (record.get("model") or {}).get("parameters") or {}
     if parameters:
@@ -244,20 +256,20 @@ def _results(record: Mapping[str, Any]) -> str:
         for name, p in parameters.items():
             held = p.get("fixed")
             prows.append(
-                f"<tr><td>{text(name)}</td>"
+                f"<tr><td>{_text(name)}</td>"
                 + _cell(_compact(p.get("value"), p.get("uncertainty")), p.get("value"),
                         f"parameter:{name}")
-                + f"<td>{text(p.get('unit') or '')}</td>"
+                + f"<td>{_text(p.get('unit') or '')}</td>"
                 + f"<td>{'held' if held else 'fitted'}"
-                + (f" — {text(p['reason'])}" if held and p.get("reason") else "") + "</td></tr>")
+                + (f" — {_text(p['reason'])}" if held and p.get("reason") else "") + "</td></tr>")
         parts.append("<h3>Model parameters</h3>"
                      + _table(["parameter", "value ± u (k = 1)", "unit", ""], prows,
                               "parameters"))
     fit = record.get("fit") or {}
     if fit:
         chi2_unit = "" if fit.get("weighting") == "stated reading uncertainties" else " V²"
-        fit_rows = [("readings used", text(fit.get("n_points", _NOT_GIVEN))),
-                    ("degrees of freedom", text(fit.get("dof", _NOT_GIVEN)))]
+        fit_rows = [("readings used", _text(fit.get("n_points", _NOT_GIVEN))),
+                    ("degrees of freedom", _text(fit.get("dof", _NOT_GIVEN)))]
         for key, label, fmt, unit in (("chi2", "χ²", ".4g", chi2_unit),
                                       ("reduced_chi2", "reduced χ²", ".3g", chi2_unit),
                                       ("aic", "AIC", ".1f", ""), ("bic", "BIC", ".1f", "")):
@@ -265,7 +277,7 @@ def _results(record: Mapping[str, Any]) -> str:
             if number is not None:
                 fit_rows.append((label, f'<span data-quantity="fit:{key}" data-value='
                                         f'"{_data(number)}">{number:{fmt}}{unit}</span>'))
-        fit_rows.append(("weighting", text(fit.get("weighting", _NOT_GIVEN))
+        fit_rows.append(("weighting", _text(fit.get("weighting", _NOT_GIVEN))
                          + (" (covariance scaled by the reduced χ²)"
                             if fit.get("covariance_scaled") else "")))
         parts.append("<h3>Fit</h3>" + _fields(fit_rows))
@@ -273,7 +285,7 @@ def _results(record: Mapping[str, Any]) -> str:
     if cross:
         e0_cross = cross.get("standard_potential_V") or {}
         parts.append(
-            "<h3>Cross-check</h3><p>" + text(
+            "<h3>Cross-check</h3><p>" + _text(
                 f"{cross.get('method', '')}: {cross.get('n_points')} points with I ≤ "
                 f"{cross.get('max_ionic_strength_mol_kg')} mol/kg, E° = "
                 + _with_u(e0_cross.get("value"), e0_cross.get("uncertainty"), 1e3, "mV"))
@@ -289,8 +301,8 @@ def _figures(figures: Mapping[str, bytes] | None) -> str:
     for name, png in figures.items():
         caption = FIGURE_CAPTIONS.get(name, name.replace("_", " "))
         data = base64.b64encode(png).decode("ascii")
-        blocks.append(f'<figure id="figure-{text(name)}"><img src="data:image/png;base64,{data}"'
-                      f' alt="{text(caption)}"><figcaption>{text(caption)}</figcaption></figure>')
+        blocks.append(f'<figure id="figure-{_text(name)}"><img src="data:image/png;base64,{data}"'
+                      f' alt="{_text(caption)}"><figcaption>{_text(caption)}</figcaption></figure>')
     return '<section id="figures"><h2>Figures</h2>' + "\n".join(blocks) + "</section>"
 
 
@@ -308,7 +320,7 @@ def _points(record: Mapping[str, Any]) -> str:
         used = p.get("used_in_fit", True)
         emf = _number_value(p.get("emf_V"))
         residual = _number_value(p.get("residual_V"))
-        cells = [f"<td>{text(p.get('line', ''))}</td>",
+        cells = [f"<td>{_text(p.get('line', ''))}</td>",
                  _cell(f"{p['molality_mol_kg']:.6g}", p.get("molality_mol_kg"),
                        "molality_mol_kg")]
         if isotherms:
@@ -316,7 +328,7 @@ def _points(record: Mapping[str, Any]) -> str:
             cells.append(_cell(_NOT_GIVEN if setpoint is None else f"{setpoint - 273.15:.2f}",
                                setpoint, "isotherm_temperature_K"))
         if electrodes:
-            cells.append(f"<td>{text(p.get('electrode') or '')}</td>")
+            cells.append(f"<td>{_text(p.get('electrode') or '')}</td>")
         cells.append(_cell(_NOT_GIVEN if emf is None else f"{emf * 1e3:.3f}", emf, "emf_V"))
         if used:
             cells.append(_cell(_NOT_GIVEN if residual is None else f"{residual * 1e3:+.4f}",
@@ -328,11 +340,11 @@ def _points(record: Mapping[str, Any]) -> str:
         flag = p.get("flag")
         remark = (f"out of the fit — {flag}" if not used and flag
                   else f"stands out — {flag}" if flag else "")
-        cells.append(f"<td>{text(remark)}</td>")
+        cells.append(f"<td>{_text(remark)}</td>")
         rows.append(f'<tr{"" if used else " class=out"}>' + "".join(cells) + "</tr>")
     return ('<section id="points"><h2>Readings and γ±</h2>'
             + _table(header, rows, "points-table", long=True)
-            + (f"<p>{text(record['gamma_uncertainty_method'])}</p>"
+            + (f"<p>{_text(record['gamma_uncertainty_method'])}</p>"
                if record.get("gamma_uncertainty_method") else "")
             + "</section>")
 
@@ -356,19 +368,19 @@ def _published(record: Mapping[str, Any]) -> str:
         ratio = _number_value(r.get("difference_over_u"))
         rows.append(
             "<tr>" + _cell(f"{r['molality_mol_kg']:.6g}", r.get("molality_mol_kg"))
-            + f"<td>{text(' '.join(marks))}</td>"
+            + f"<td>{_text(' '.join(marks))}</td>"
             + _cell(_NOT_GIVEN if mean is None else f"{mean:.4f}"
                     + ("i" if r.get("interpolated") else ""), mean, "gamma_pm_published")
             + _cell(_NOT_GIVEN if difference is None else f"{difference:+.5f}", difference,
                     "difference")
             + _cell(_NOT_GIVEN if ratio is None else f"{ratio:+.1f}", ratio,
                     "difference_over_u") + "</tr>")
-    legend = "".join(f"<li>{letter}: {text(source)}</li>" for source, letter in sources.items())
+    legend = "".join(f"<li>{letter}: {_text(source)}</li>" for source, letter in sources.items())
     return ('<section id="published"><h2>γ± against published values</h2>'
             + _table(["m / (mol/kg)", "published (interpolated in brackets)", "mean",
                       "difference", "difference / u"], rows, "published-table")
             + f"<ul>{legend}</ul>"
-            + (f"<p>{text(record['published_comparison_method'])}</p>"
+            + (f"<p>{_text(record['published_comparison_method'])}</p>"
                if record.get("published_comparison_method") else "") + "</section>")
 
 
@@ -391,7 +403,7 @@ def _derived(record: Mapping[str, Any]) -> str:
     return ('<section id="derived"><h2>Derived from the fitted model (k = 1)</h2>'
             + _table(["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"], rows,
                      "derived-table")
-            + (f"<p>{text(derived['method'])}</p>" if derived.get("method") else "")
+            + (f"<p>{_text(derived['method'])}</p>" if derived.get("method") else "")
             + "</section>")
 
 
@@ -400,9 +412,9 @@ def _budget(record: Mapping[str, Any]) -> str:
     lines = list(budget.get("lines") or [])
     if not lines:
         return ""
-    rows = [f"<tr><td>{text(b.get('component', ''))}</td>"
+    rows = [f"<tr><td>{_text(b.get('component', ''))}</td>"
             + _cell(f"{float(b['u_V']) * 1e3:.4f}", b.get("u_V"), "u_V")
-            + f"<td>{text(b.get('method', ''))}</td></tr>" for b in lines
+            + f"<td>{_text(b.get('method', ''))}</td></tr>" for b in lines
             if _number_value(b.get("u_V")) is not None]
     combined = _number_value(budget.get("combined_u_V"))
     if combined is not None:
@@ -422,17 +434,17 @@ def _comparison(record: Mapping[str, Any]) -> str:
         e0 = m.get("standard_potential_V") or {}
         fit = m.get("fit") or {}
         bic = _number_value(fit.get("bic"))
-        rows.append(f"<tr><td>{text(m.get('name', ''))}</td>"
+        rows.append(f"<tr><td>{_text(m.get('name', ''))}</td>"
                     + _cell(_with_u(e0.get("value"), e0.get("uncertainty"), 1e3, "mV"),
                             e0.get("value"), "standard_potential_V")
                     + _cell(_NOT_GIVEN if bic is None else f"{bic:.1f}", bic, "bic")
-                    + f"<td>{text(m.get('verdict', ''))}</td></tr>")
-    rows += [f"<tr><td>{text(s.get('name', ''))}</td><td></td><td></td>"
-             f"<td>{text('not fitted — ' + str(s.get('reason', '')))}</td></tr>"
+                    + f"<td>{_text(m.get('verdict', ''))}</td></tr>")
+    rows += [f"<tr><td>{_text(s.get('name', ''))}</td><td></td><td></td>"
+             f"<td>{_text('not fitted — ' + str(s.get('reason', '')))}</td></tr>"
              for s in comparison.get("skipped") or []]
     return ('<section id="model-comparison"><h2>Model comparison</h2>'
             + _table(["model", "E° ± u (k = 1)", "BIC", "verdict"], rows, "comparison-table")
-            + "<p>" + text(f"recommended: {comparison.get('recommended_model')} — "
+            + "<p>" + _text(f"recommended: {comparison.get('recommended_model')} — "
                            f"{comparison.get('recommendation_rule', '')}") + "</p></section>")
 
 
@@ -449,7 +461,7 @@ def _monte_carlo(record: Mapping[str, Any]) -> str:
         places = decimals_for(u * 1e3)
         interval = f"; 95 % interval [{low * 1e3:.{places}f}, {high * 1e3:.{places}f}] mV"
     return ('<section id="monte-carlo"><h2>Monte Carlo</h2><p>'
-            + text(f"{monte.get('method', '')}: {monte.get('trials')} trials "
+            + _text(f"{monte.get('method', '')}: {monte.get('trials')} trials "
                    f"({monte.get('failed')} failed), seed {monte.get('seed')}; E° = {shown}"
                    + interval) + "</p>" + _list(monte.get("notes") or [], "monte-carlo-notes")
             + "</section>")
@@ -473,7 +485,7 @@ def _study(record: Mapping[str, Any]) -> str:
         entry = study.get(key) or {}
         if _number_value(entry.get("value")) is None:
             continue
-        rows.append(f"<tr><td>{text(label)}</td>"
+        rows.append(f"<tr><td>{_text(label)}</td>"
                     + _cell(_with_u(entry.get("value"), entry.get("uncertainty"), scale, unit),
                             entry.get("value"), key) + "</tr>")
     isotherm_rows = []
@@ -482,12 +494,12 @@ def _study(record: Mapping[str, Any]) -> str:
         e0 = iso.get("standard_potential_V") or {}
         isotherm_rows.append(
             "<tr>" + _cell(_NOT_GIVEN if t is None else f"{t - 273.15:.2f}", t, "temperature_K")
-            + f"<td>{text(iso.get('n_points', ''))}</td><td>{text(iso.get('model', ''))}</td>"
+            + f"<td>{_text(iso.get('n_points', ''))}</td><td>{_text(iso.get('model', ''))}</td>"
             + _cell(_with_u(e0.get("value"), e0.get("uncertainty"), 1e3, "mV"), e0.get("value"),
                     "standard_potential_V") + "</tr>")
     coefficients = study.get("coefficients") or {}
     return ('<section id="temperature-study"><h2>Temperature study</h2>'
-            + "<p>" + text(
+            + "<p>" + _text(
                 f"At θ = {'—' if theta is None else f'{theta - 273.15:.2f} °C'}; E°(T) form: "
                 f"{coefficients.get('equation') or study.get('form', '')}"
                 + (f" — {study['form_reason']}" if study.get("form_reason") else "")) + "</p>"
@@ -553,7 +565,7 @@ def report_html(record: Mapping[str, Any], figures: Mapping[str, bytes] | None =
     series = record.get("series")
     title = f"activolt {kind} of {names or 'a run'}" + (f", series '{series}'" if series else "")
     body = "\n".join(part for part in (
-        f"<header><h1>{text(title)}</h1></header>",
+        f"<header><h1>{_text(title)}</h1></header>",
         _identification(record, record_name, record_sha256),
         _conditions(record),
         _results(record),
@@ -567,7 +579,7 @@ def report_html(record: Mapping[str, Any], figures: Mapping[str, bytes] | None =
         _monte_carlo(record),
         _remarks(record),
         _safety(record),
-        "<footer><p>" + text(
+        "<footer><p>" + _text(
             f"Written by activolt {(record.get('software') or {}).get('version', '')} from the "
             "record named above; every number is the record's, rounded so that the uncertainty "
             "keeps two significant digits.") + "</p></footer>",
@@ -575,5 +587,5 @@ def report_html(record: Mapping[str, Any], figures: Mapping[str, bytes] | None =
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             f"<meta http-equiv=\"Content-Security-Policy\" content=\"{CONTENT_SECURITY_POLICY}\">\n"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
-            f"<title>{text(title)}</title>\n<style>{_STYLE}</style>\n</head>\n<body>\n{body}\n"
+            f"<title>{_text(title)}</title>\n<style>{_STYLE}</style>\n</head>\n<body>\n{body}\n"
             "</body>\n</html>\n")
