@@ -105,17 +105,39 @@ _INDENTS = ["\n" + "  " * level for level in range(64)]
 _INFINITY = float("inf")
 
 
+def _leaf(value: Any) -> str | None:
+    """The text of a plain scalar (str, exact float, int, bool, None), or None for anything
+    else; :class:`_NotPlain` for a non-finite float."""
+    kind = type(value)
+    if kind is str:
+        return encode_basestring(value)
+    if kind is float:
+        if value != value or value == _INFINITY or value == -_INFINITY:
+            raise _NotPlain
+        return float.__repr__(value)
+    if kind is int:
+        return int.__repr__(value)
+    if value is None:
+        return "null"
+    if value is True:
+        return "true"
+    if value is False:
+        return "false"
+    return None
+
+
 def _encode(value: Any, level: int, out: list[str]) -> None:
     """Append the text of ``value`` to ``out`` as ``json.dumps(indent=2, ensure_ascii=False)``
-    writes it at nesting ``level``; :class:`_NotPlain` for anything else."""
-    if isinstance(value, str):
+    writes it at nesting ``level``; :class:`_NotPlain` for anything else.
+
+    Plain scalars are written in the loops over a container (most of a record's values);
+    containers and subclasses of the scalar types take the general path below, in the
+    standard library's order of checks."""
+    leaf = _leaf(value)
+    if leaf is not None:
+        out.append(leaf)
+    elif isinstance(value, str):
         out.append(encode_basestring(value))
-    elif value is None:
-        out.append("null")
-    elif value is True:
-        out.append("true")
-    elif value is False:
-        out.append("false")
     elif isinstance(value, int):
         out.append(int.__repr__(value))
     elif isinstance(value, float):
@@ -128,14 +150,23 @@ def _encode(value: Any, level: int, out: list[str]) -> None:
             return
         inner = _INDENTS[level + 1]
         separator = "," + inner
-        out.append("[" + inner)
-        first = True
+        opening = "[" + inner
         for item in value:
-            if first:
-                first = False
+            kind = type(item)
+            if kind is float and item - item == 0.0:  # finite
+                leaf = float.__repr__(item)
+            elif kind is str:
+                leaf = encode_basestring(item)
+            elif item is None:
+                leaf = "null"
             else:
-                out.append(separator)
-            _encode(item, level + 1, out)
+                leaf = _leaf(item)
+            if leaf is not None:
+                out.append(opening + leaf)
+            else:
+                out.append(opening)
+                _encode(item, level + 1, out)
+            opening = separator
         out.append(_INDENTS[level] + "]")
     elif isinstance(value, dict):
         if not value:
@@ -143,17 +174,25 @@ def _encode(value: Any, level: int, out: list[str]) -> None:
             return
         inner = _INDENTS[level + 1]
         separator = "," + inner
-        out.append("{" + inner)
-        first = True
+        opening = "{" + inner
         for key, item in value.items():
             if not isinstance(key, str):
                 raise _NotPlain
-            if first:
-                first = False
+            kind = type(item)
+            if kind is float and item - item == 0.0:  # finite
+                leaf = float.__repr__(item)
+            elif kind is str:
+                leaf = encode_basestring(item)
+            elif item is None:
+                leaf = "null"
             else:
-                out.append(separator)
-            out.append(encode_basestring(key) + ": ")
-            _encode(item, level + 1, out)
+                leaf = _leaf(item)
+            if leaf is not None:
+                out.append(opening + encode_basestring(key) + ": " + leaf)
+            else:
+                out.append(opening + encode_basestring(key) + ": ")
+                _encode(item, level + 1, out)
+            opening = separator
         out.append(_INDENTS[level] + "}")
     else:
         raise _NotPlain
@@ -474,40 +513,137 @@ def run_series(points: Any) -> str | None:
     return names.pop() if len(names) == 1 else None
 
 
+def _points_columns(reduction: Reduction) -> dict[str, Any]:
+    """The columns of the points table (numpy arrays; text columns as lists), units in the
+    names, flagged rows included."""
+    table = reduction.points
+
+    def floats(name: str) -> Any:
+        return table[name].to_numpy(dtype=float)
+
+    def text(name: str) -> list[Any]:
+        return [neutralise_formula(v) for v in table[name].tolist()]
+
+    def filled(name: str) -> list[Any]:
+        # pandas' where(notna, ""): every missing value (None, NaN, NA) becomes ""
+        return [v if isinstance(v, str) or not _missing(v) else ""
+                for v in table[name].tolist()]
+
+    return {
+        "line": table["line"].to_numpy(),
+        "molality_mol_kg": floats("molality_mol_kg"),
+        "u_molality_mol_kg": floats("u_molality_mol_kg"),
+        "temperature_C": floats("temperature_K") - 273.15,
+        "emf_mV": floats("emf_V") * 1e3,
+        "u_emf_mV": floats("u_emf_V") * 1e3,
+        "fitted_emf_mV": floats("fitted_emf_V") * 1e3,
+        "residual_mV": floats("residual_V") * 1e3,
+        "gamma_pm": floats("gamma_pm"),
+        "u_gamma_pm": floats("u_gamma_pm"),
+        "gamma_pm_model": floats("gamma_pm_model"),
+        "u_gamma_pm_model": floats("u_gamma_pm_model"),
+        "electrode": text("electrode"),
+        "series": text("series"),
+        "leverage": floats("leverage"),
+        "studentized_residual": floats("studentized_residual"),
+        "cooks_distance": floats("cooks_distance"),
+        "flag": filled("flag"),
+        "diagnostic": filled("diagnostic"),
+        "note": text("note"),
+    }
+
+
+def _missing(value: Any) -> bool:
+    """None, NaN or NA (what pandas' ``isna`` calls missing) — for one scalar."""
+    import pandas as pd
+
+    return bool(pd.isna(value))
+
+
 def _points_frame(reduction: Reduction) -> Any:
     """The points table as a DataFrame, units in the column names, flagged rows included."""
     import pandas as pd
 
-    table = reduction.points
-    out = {
-        "line": table["line"],
-        "molality_mol_kg": table["molality_mol_kg"],
-        "u_molality_mol_kg": table["u_molality_mol_kg"],
-        "temperature_C": table["temperature_K"] - 273.15,
-        "emf_mV": table["emf_V"] * 1e3,
-        "u_emf_mV": table["u_emf_V"] * 1e3,
-        "fitted_emf_mV": table["fitted_emf_V"] * 1e3,
-        "residual_mV": table["residual_V"] * 1e3,
-        "gamma_pm": table["gamma_pm"],
-        "u_gamma_pm": table["u_gamma_pm"],
-        "gamma_pm_model": table["gamma_pm_model"],
-        "u_gamma_pm_model": table["u_gamma_pm_model"],
-        "electrode": table["electrode"].map(neutralise_formula),
-        "series": table["series"].map(neutralise_formula),
-        "leverage": table["leverage"],
-        "studentized_residual": table["studentized_residual"],
-        "cooks_distance": table["cooks_distance"],
-        "flag": table["flag"].where(table["flag"].notna(), ""),
-        "diagnostic": table["diagnostic"].where(table["diagnostic"].notna(), ""),
-        "note": table["note"].map(neutralise_formula),
-    }
-    return pd.DataFrame(out)
+    columns = _points_columns(reduction)
+    # text columns keep pandas' own type for text (as when they were mapped from the table)
+    for name in ("electrode", "series", "note"):
+        columns[name] = reduction.points[name].map(neutralise_formula)
+    return pd.DataFrame(columns)
+
+
+class _NotPlainTable(Exception):
+    """A column :func:`table_csv` leaves to pandas (an infinity, an unusual type)."""
+
+
+def _csv_cells(column: Any) -> list[str]:
+    """One column's cells as ``DataFrame.to_csv(float_format="%.10g", na_rep="")`` writes
+    them: floats formatted, missing values empty, text as it is."""
+    import numpy as np
+
+    if isinstance(column, np.ndarray):
+        kind = column.dtype.kind
+        values = column.tolist()
+        if kind == "f":
+            if not np.isfinite(column[~np.isnan(column)]).all():
+                raise _NotPlainTable
+            # printf-style, as pandas applies float_format
+            return ["" if v != v else "%.10g" % v for v in values]  # noqa: UP031
+        if kind in "iub":
+            return [str(v) for v in values]
+        raise _NotPlainTable
+    cells = []
+    for v in column:
+        if isinstance(v, str):
+            cells.append(v)
+        elif v is None or (isinstance(v, float) and v != v):
+            cells.append("")
+        else:
+            raise _NotPlainTable
+    return cells
+
+
+def table_csv(columns: dict[str, Any]) -> str:
+    r"""Columns as CSV text, byte for byte what pandas writes for
+    ``pd.DataFrame(columns).to_csv(index=False, float_format="%.10g", lineterminator="\n")``
+    (the same csv writer, quoting only where needed), without building the DataFrame.
+
+    Parameters
+    ----------
+    columns : dict
+        Column name → numpy array (float, integer or bool) or list of text (None or NaN for
+        a missing cell), all of one length. Anything else (an infinity, a number in a text
+        column) is written by pandas itself.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> table_csv({"m": np.array([0.1, np.nan]), "n": np.array([1, 2]), "e": ["a,b", None]})
+    'm,n,e\n0.1,1,"a,b"\n,2,\n'
+    """
+    import csv
+    import io
+
+    try:
+        cells = [_csv_cells(column) for column in columns.values()]
+    except _NotPlainTable:
+        import pandas as pd
+
+        return pd.DataFrame(columns).to_csv(index=False, float_format="%.10g",
+                                            lineterminator="\n")
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(list(columns))
+    writer.writerows(zip(*cells, strict=True))
+    return buffer.getvalue()
 
 
 def points_csv(reduction: Reduction) -> str:
     """The points table as CSV text, units in the column names, flagged rows included."""
-    return _points_frame(reduction).to_csv(index=False, float_format="%.10g",
-                                           lineterminator="\n")
+    return table_csv(_points_columns(reduction))
 
 
 def comparison_record(comparison: ModelComparison) -> dict:

@@ -18,7 +18,6 @@ from ..activity.base import ActivityModel
 from ..activity.properties import MOLAR_MASS_WATER_KG_MOL, excess_gibbs_energy_rt, water_activity
 from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
-from ..data.runs import usable_points
 from ..fit.uncertainty import sensitivity_coefficients
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
@@ -90,11 +89,13 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     >>> round(float(props["osmotic_coefficient"].iloc[-1]), 2)
     0.94
     """
-    points = usable_points(reduction.run)
+    run = reduction.run
+    usable = run.usable  # the rows of usable_points(run), read from the run's arrays
+    lines = run.points["line"].to_numpy()[usable]
     electrolyte = reduction.electrolyte
     model = reduction.model
-    molality = points["molality_mol_kg"].to_numpy(float)
-    temperature = points["temperature_K"].to_numpy(float)
+    molality = run.arrays["molality_mol_kg"][usable]
+    temperature = run.arrays["temperature_K"][usable]
     constants = debye_hueckel_constants(temperature)
     values = reduction.model_parameter_values
     names = reduction.uncertain_names or reduction.free_names
@@ -125,7 +126,7 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     rt = GAS_CONSTANT_J_MOL_K * temperature
 
     frame = pd.DataFrame({
-        "line": points["line"].to_numpy(),
+        "line": lines,
         "molality_mol_kg": molality,
         "temperature_K": temperature,
         "ln_gamma_pm_model": ln_g,
