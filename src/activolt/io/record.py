@@ -518,8 +518,8 @@ def _points_columns(reduction: Reduction) -> dict[str, Any]:
     names, flagged rows included."""
     table = reduction.points
 
-    def floats(name: str) -> Any:
-        return table[name].to_numpy(dtype=float)
+    def numbers(name: str) -> Any:
+        return table[name].to_numpy()  # the column's own type, as the DataFrame would keep it
 
     def text(name: str) -> list[Any]:
         return [neutralise_formula(v) for v in table[name].tolist()]
@@ -531,22 +531,22 @@ def _points_columns(reduction: Reduction) -> dict[str, Any]:
 
     return {
         "line": table["line"].to_numpy(),
-        "molality_mol_kg": floats("molality_mol_kg"),
-        "u_molality_mol_kg": floats("u_molality_mol_kg"),
-        "temperature_C": floats("temperature_K") - 273.15,
-        "emf_mV": floats("emf_V") * 1e3,
-        "u_emf_mV": floats("u_emf_V") * 1e3,
-        "fitted_emf_mV": floats("fitted_emf_V") * 1e3,
-        "residual_mV": floats("residual_V") * 1e3,
-        "gamma_pm": floats("gamma_pm"),
-        "u_gamma_pm": floats("u_gamma_pm"),
-        "gamma_pm_model": floats("gamma_pm_model"),
-        "u_gamma_pm_model": floats("u_gamma_pm_model"),
+        "molality_mol_kg": numbers("molality_mol_kg"),
+        "u_molality_mol_kg": numbers("u_molality_mol_kg"),
+        "temperature_C": numbers("temperature_K") - 273.15,
+        "emf_mV": numbers("emf_V") * 1e3,
+        "u_emf_mV": numbers("u_emf_V") * 1e3,
+        "fitted_emf_mV": numbers("fitted_emf_V") * 1e3,
+        "residual_mV": numbers("residual_V") * 1e3,
+        "gamma_pm": numbers("gamma_pm"),
+        "u_gamma_pm": numbers("u_gamma_pm"),
+        "gamma_pm_model": numbers("gamma_pm_model"),
+        "u_gamma_pm_model": numbers("u_gamma_pm_model"),
         "electrode": text("electrode"),
         "series": text("series"),
-        "leverage": floats("leverage"),
-        "studentized_residual": floats("studentized_residual"),
-        "cooks_distance": floats("cooks_distance"),
+        "leverage": numbers("leverage"),
+        "studentized_residual": numbers("studentized_residual"),
+        "cooks_distance": numbers("cooks_distance"),
         "flag": filled("flag"),
         "diagnostic": filled("diagnostic"),
         "note": text("note"),
