@@ -172,6 +172,19 @@ def test_reduce_many_on_runs_and_the_truth_is_covered(tmp_path):
             row["coverage_factor"] * row["u_standard_potential_V"])
 
 
+def test_the_summary_flags_readings_beyond_the_model_range(tmp_path):
+    # The Hückel equation is taken as adequate up to I = 1 mol/kg (the package's stated range);
+    # a series reaching 1.5 mol/kg has its two readings beyond it left out, and the summary
+    # says so.
+    molality = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1.2, 1.5])
+    path = tmp_path / "wide.csv"
+    path.write_text("\n".join(["molality_mol_kg,emf_V,u_emf_V,series",
+                               *_rows("W", E0_V["A"], molality)]) + "\n", encoding="utf-8")
+    path.with_suffix(".toml").write_text(TOML, encoding="utf-8")
+    result = reduce_many(read_runs(path))
+    assert "beyond the model's range: 2 reading(s)" in result.summary.loc[0, "flags"]
+
+
 def test_reduce_many_refuses_bad_input_common_to_every_series(tmp_path):
     runs = read_runs(_three_series(tmp_path))
     with pytest.raises(InputError, match="unknown model"):

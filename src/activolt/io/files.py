@@ -303,17 +303,34 @@ def _signals_held() -> Iterator[list[int]]:
             signal.raise_signal(caught[0])
 
 
-def _is_input(path: Path, inputs: Sequence[Path]) -> bool:
-    for source in inputs:
+class _Inputs:
+    """The inputs of a run, known by file identity (device and inode: symlinks, hard links and
+    case-insensitive file systems included) and, for an input that cannot be examined, by its
+    resolved path; worked out once, so that checking the many outputs of a batch stays linear.
+    """
+
+    def __init__(self, inputs: Sequence[Path]) -> None:
+        self.identities: set[tuple[int, int]] = set()
+        self.unexamined: set[str] = set()
+        for source in inputs:
+            try:
+                found = os.stat(source)
+            except OSError:
+                self.unexamined.add(os.path.normcase(os.path.realpath(source)))
+            else:
+                self.identities.add((found.st_dev, found.st_ino))
+
+    def holds(self, path: Path) -> bool:
+        """Whether ``path`` is one of the inputs."""
         try:
-            if os.path.samefile(path, source):
-                return True
+            found = os.stat(path)
         except OSError:
             pass
-        if (os.path.normcase(os.path.realpath(path))
-                == os.path.normcase(os.path.realpath(source))):
-            return True
-    return False
+        else:
+            if (found.st_dev, found.st_ino) in self.identities:
+                return True
+        return bool(self.unexamined) and (os.path.normcase(os.path.realpath(path))
+                                          in self.unexamined)
 
 
 def check_outputs(folder: Path | None = None, names: Collection[str] = (),
@@ -337,9 +354,10 @@ def check_outputs(folder: Path | None = None, names: Collection[str] = (),
         Naming the offending path and what to do.
     """
     inputs = [Path(p) for p in inputs]
+    known = _Inputs(inputs)
     outputs = [*(Path(p) for p in files), *((folder / n) for n in names if folder is not None)]
     for path in outputs:
-        if _is_input(path, inputs):
+        if known.holds(path):
             raise InputError("this output is an input of the run (the run table or its "
                              "metadata) and would be overwritten; choose another output path",
                              file=str(path))

@@ -207,13 +207,14 @@ def _flags(reduction: Reduction) -> list[str]:
     if stats.stated_uncertainty and stats.birge_ratio > 1.0:
         flags.append("lack of fit")
     points = reduction.points
-    flag = points["flag"].dropna().astype(str)
+    flag = [str(f) for f in points["flag"].to_numpy(object) if isinstance(f, str)]
+    stands_out = (int(points["diagnostic"].notna().to_numpy().sum())
+                  if "diagnostic" in points else 0)
     for what, count in (
-        ("beyond the model's range", int((flag == OUT_OF_RANGE).sum())),
-        ("excluded", int(flag.str.startswith("excluded").sum())),
-        ("no reading", int((flag == "no reading").sum())),
-        ("stands out", int(points["diagnostic"].notna().sum())
-         if "diagnostic" in points else 0),
+        ("beyond the model's range", sum(f.startswith(OUT_OF_RANGE) for f in flag)),
+        ("excluded", sum(f.startswith("excluded") for f in flag)),
+        ("no reading", sum(f == "no reading" for f in flag)),
+        ("stands out", stands_out),
     ):
         if count:
             flags.append(f"{what}: {count} reading(s)")
