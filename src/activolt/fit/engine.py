@@ -35,6 +35,8 @@ E0 = "standard_potential_V"
 SLOPE = "slope_factor"
 
 _MAX_ITERATIONS = 200
+#: Largest number of series × model evaluations made in one call on stacked values.
+_STACK_LIMIT = 64
 
 
 @dataclass(frozen=True)
@@ -74,73 +76,138 @@ class MeasurementModel:
         """ln m± [-], shape (S, N)."""
         return np.log(self.electrolyte.mean_molality(self.molality))
 
+    @cached_property
+    def _parameter_columns(self) -> tuple[tuple[str, int], ...]:
+        """(name, column in the values) of each model parameter."""
+        return tuple((name, index) for index, name in
+                     enumerate(self.activity.parameter_names, start=1))
+
     def ln_gamma(self, values: np.ndarray) -> np.ndarray:
         """ln γ± of the model [-], shape (S, N), at parameter values of shape (S, P)."""
-        parameters = {name: values[:, index:index + 1] for index, name in
-                      enumerate(self.activity.parameter_names, start=1)}
+        parameters = {name: values[:, index:index + 1]
+                      for name, index in self._parameter_columns}
         out = self.activity.ln_gamma(self.electrolyte, self.molality, self.constants, parameters)
         return out if np.shape(out) == self.molality.shape else np.broadcast_to(
             out, self.molality.shape)
 
-    def predict(self, values: np.ndarray) -> np.ndarray:
-        """E [V], shape (S, N), at values of shape (S, P) in the order of :attr:`names`.
+    def predict(self, values: np.ndarray, ln_gamma: np.ndarray | None = None) -> np.ndarray:
+        """E [V], shape (S, N), at values of shape (S, P) in the order of :attr:`names`
+        (``ln_gamma``: ln γ± at those values when already known, :meth:`ln_gamma`).
 
         .. math:: E = E° − σ s k [\\ln m_± + \\ln γ_±(m; θ)]
         """
-        slope = values[:, [-1]]
-        return values[:, [0]] - self.sign * slope * self.nernst_V * (
-            self.ln_mean_molality + self.ln_gamma(values))
+        lng = self.ln_gamma(values) if ln_gamma is None else ln_gamma
+        return values[:, :1] - self.sign * values[:, -1:] * self.nernst_V * (
+            self.ln_mean_molality + lng)
 
     def ln_gamma_from_emf(self, emf_V: np.ndarray, values: np.ndarray) -> np.ndarray:
         """ln γ± from each reading and the fitted E° and s [-]: σ(E° − E)/(s k) − ln m±."""
-        return (self.sign * (values[:, [0]] - emf_V) / (values[:, [-1]] * self.nernst_V)
+        return (self.sign * (values[:, :1] - emf_V) / (values[:, -1:] * self.nernst_V)
                 - self.ln_mean_molality)
 
-    def jacobian(self, values: np.ndarray, free: np.ndarray) -> np.ndarray:
+    def jacobian(self, values: np.ndarray, free: np.ndarray,
+                 base: np.ndarray | None = None) -> np.ndarray:
         """∂E/∂(parameters) [V per unit], shape (S, N, P); zero columns for held parameters.
 
         E° and s enter analytically; a model parameter that enters ln γ± linearly by the
         difference over a unit step (exact), any other by central differences with steps of
         10⁻⁶ max(1, |θ|); the model is evaluated once per step for the whole batch.
+        ``base``, when given, is ln γ± at ``values`` (:meth:`ln_gamma`), not worked out again.
         """
         columns = np.flatnonzero(free.any(axis=0))
         jac = np.zeros((*self.molality.shape, values.shape[1]))
-        jac[:, :, columns] = np.swapaxes(self.gradient_rows(values, free, columns), 1, 2)
+        jac[:, :, columns] = np.swapaxes(self.gradient_rows(values, free, columns, base=base),
+                                         1, 2)
         return jac
 
     def gradient_rows(self, values: np.ndarray, free: np.ndarray, columns: np.ndarray,
-                      central: bool = True) -> np.ndarray:
+                      central: bool = True, base: np.ndarray | None = None) -> np.ndarray:
         """∂E/∂θ_c for the parameters ``columns``, one row per parameter, shape (S, C, N)
         (zero where a series holds the parameter); ``central=False`` takes forward
-        differences for the non-linear parameters (one model evaluation each, for iterating)."""
-        rows = np.zeros((self.molality.shape[0], columns.size, self.molality.shape[1]))
-        factor = -self.sign * values[:, [-1]] * self.nernst_V
-        base = self.ln_gamma(values)
+        differences for the non-linear parameters (one model evaluation each, for iterating);
+        ``base``, when given, is ln γ± at ``values`` (:meth:`ln_gamma`)."""
+        return self._gradient(values, free, columns, central, base)[0]
+
+    def _gradient(self, values: np.ndarray, free: np.ndarray, columns: np.ndarray,
+                  central: bool, base: np.ndarray | None = None
+                  ) -> tuple[np.ndarray, np.ndarray]:
+        """(:meth:`gradient_rows`, ln γ± at ``values``): every evaluation of the model that
+        they need (ln γ± itself unless ``base`` gives it, and each shifted parameter) is made
+        in one call for a small batch."""
         last = values.shape[1] - 1
+        blocks = [values if base is None else base]  # the model at ``values`` first
+        shifts: list[tuple[int, np.ndarray | None, int]] = []  # (position, step, block)
+        for position, index in enumerate(columns):
+            if index == 0 or index == last:
+                continue
+            up = values.copy()
+            if self.activity.parameters[index - 1].linear:
+                up[:, index] += 1.0
+                shifts.append((position, None, len(blocks)))
+                blocks.append(up)
+                continue
+            step = 1e-6 * np.maximum(1.0, np.abs(values[:, index]))
+            up[:, index] += step
+            shifts.append((position, step, len(blocks)))
+            blocks.append(up)
+            if central:
+                down = values.copy()
+                down[:, index] -= step
+                blocks.append(down)
+        if base is None:
+            out = self._ln_gamma_of(blocks)
+            base = out[0]
+        else:
+            out = [base, *self._ln_gamma_of(blocks[1:])] if len(blocks) > 1 else [base]
+        rows = np.zeros((self.molality.shape[0], columns.size, self.molality.shape[1]))
         for position, index in enumerate(columns):
             if index == 0:
                 rows[:, position] = 1.0
             elif index == last:
                 rows[:, position] = -self.sign * self.nernst_V * (self.ln_mean_molality + base)
-            elif self.activity.parameters[index - 1].linear:
-                up = values.copy()
-                up[:, index] += 1.0
-                rows[:, position] = factor * (self.ln_gamma(up) - base)
-            else:
-                step = 1e-6 * np.maximum(1.0, np.abs(values[:, index]))
-                up = values.copy()
-                up[:, index] += step
-                if central:
-                    down = values.copy()
-                    down[:, index] -= step
-                    difference = (self.ln_gamma(up) - self.ln_gamma(down)) / 2.0
-                else:
-                    difference = self.ln_gamma(up) - base
-                rows[:, position] = factor * difference / step[:, None]
+        factor = -self.sign * values[:, -1:] * self.nernst_V
+        for position, step, block in shifts:
+            if step is None:
+                rows[:, position] = factor * (out[block] - base)
+                continue
+            difference = ((out[block] - out[block + 1]) / 2.0 if central
+                          else out[block] - base)
+            rows[:, position] = factor * difference / step[:, None]
         held = ~free[:, columns]
         if held.any():
             rows[held] = 0.0
-        return rows
+        return rows, base
+
+    def _ln_gamma_of(self, blocks: list[np.ndarray]) -> list[np.ndarray]:
+        """ln γ± at each array of values in ``blocks``: for a small batch in one evaluation of
+        the model on the stacked values (every model is elementwise, so the numbers are those
+        of one evaluation each)."""
+        n_series = self.molality.shape[0]
+        if len(blocks) == 1 or n_series * len(blocks) > _STACK_LIMIT:
+            return [self.ln_gamma(block) for block in blocks]
+        out = self._tiled(len(blocks)).ln_gamma(np.concatenate(blocks))
+        return [out[k * n_series:(k + 1) * n_series] for k in range(len(blocks))]
+
+    @cached_property
+    def _tiles(self) -> dict[int, MeasurementModel]:
+        return {}
+
+    def _tiled(self, copies: int) -> MeasurementModel:
+        """The model with its series repeated ``copies`` times (block after block)."""
+        tiled = self._tiles.get(copies)
+        if tiled is None:
+            shape = self.molality.shape
+
+            def repeat(x: np.ndarray) -> np.ndarray:
+                return np.tile(np.broadcast_to(x, shape), (copies, 1))
+
+            c = self.constants
+            tiled = MeasurementModel(
+                self.activity, self.electrolyte, self.sign, repeat(self.molality),
+                repeat(self.nernst_V), DebyeHueckelConstants(
+                    repeat(c.temperature), repeat(c.aphi), repeat(c.b)))
+            self._tiles[copies] = tiled
+        return tiled
 
 
 @dataclass(frozen=True)
@@ -297,12 +364,23 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     n_series, n_parameters = values.shape
     limits = (np.tile([-np.inf, np.inf], (n_parameters, 1)) if bounds is None
               else np.asarray(bounds, dtype=float))
+    low, high = limits[:, 0], limits[:, 1]
     sqrt_w = np.sqrt(w)
-    # E° enters linearly: start it at its exact optimum for the other starting values.
-    without_e0 = model.predict(np.concatenate([np.zeros((n_series, 1)), values[:, 1:]], axis=1))
-    offset = np.where(w > 0.0, emf - without_e0, 0.0)
+    read = w > 0.0  # the readings that count (0 weight: masked)
+    every_read = bool(read.all())
+
+    def masked(x: np.ndarray, where: np.ndarray) -> np.ndarray:
+        """x where a reading counts, 0 elsewhere."""
+        return x if every_read else np.where(where, x, 0.0)
+
+    # E° enters linearly: start it at its exact optimum for the other starting values. ln γ±
+    # does not depend on E°, so the start's ln γ± serves here and for the first iteration.
+    lng = model.ln_gamma(values)
+    without_e0 = model.predict(np.concatenate([np.zeros((n_series, 1)), values[:, 1:]], axis=1),
+                               lng)
+    offset = masked(emf - without_e0, read)
     values[:, 0] = np.sum(w * offset, axis=1) / np.sum(w, axis=1)
-    residual = np.where(w > 0.0, offset - values[:, [0]], 0.0) * sqrt_w
+    residual = masked(offset - values[:, :1], read) * sqrt_w
     chi2 = np.sum(residual**2, axis=1)
     only_linear = bool(np.all(linear[np.any(free, axis=0)]))
     damping = np.full(n_series, 0.0 if only_linear else 1e-5)
@@ -313,25 +391,49 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     iterations = 1 if only_linear else _MAX_ITERATIONS
     columns = np.flatnonzero(free.any(axis=0))
     diagonal = np.arange(columns.size)
+    free_columns = free[:, columns]
+    # Every series fits every parameter of ``columns``: the masks below change nothing.
+    all_free = bool(free_columns.all())
+    bounded = bool(np.any(np.isfinite(limits[columns])))
+    low_columns, high_columns = low[columns], high[columns]
+    # ln γ± at the current values of the series iterated (``base``, for the rows ``base_rows``)
+    # and of every series (``lng``): each step's trial evaluates it, the next step reuses it.
+    base, base_rows, every_lng = lng, n_series, None
+    # The Jacobian rows at the current values of those series (None: not yet known). A step
+    # that is not taken leaves them as they were; for a small batch, each trial's model
+    # evaluation gives them at the trial too (in the same call), ready if the step is taken.
+    jac_rows: np.ndarray | None = None
+    shifted = sum(1 for index in columns if 0 < index < n_parameters - 1)
+    tiny = np.finfo(float).tiny
     for _ in range(iterations):
         if not active.any():
             break
         rows = np.flatnonzero(active)
-        sub = _rows(model, rows)
-        at = sub.gradient_rows(values[rows], free[rows], columns, central=False)
-        at *= sqrt_w[rows, None, :]
+        # All series still iterating: views instead of copies of the rows.
+        pick: slice | np.ndarray = slice(None) if rows.size == n_series else rows
+        sub = model if rows.size == n_series else _rows(model, rows)
+        if rows.size != base_rows:  # (the rows only ever become fewer)
+            base, base_rows, jac_rows = sub.ln_gamma(values[pick]), rows.size, None
+        current = values[pick]
+        if jac_rows is None:
+            jac_rows = sub.gradient_rows(current, free[pick], columns, central=False, base=base)
+        at = jac_rows * sqrt_w[pick, None, :]
         normal = np.matmul(at, np.swapaxes(at, 1, 2))
-        gradient = np.matmul(at, residual[rows, :, None])[..., 0]
+        gradient = np.matmul(at, residual[pick, :, None])[..., 0]
         # A parameter at a bound that the descent would push beyond it is held for this step
         # (projected Levenberg–Marquardt), so that the others can settle.
-        current = values[rows][:, columns]
-        pinned = (((current <= limits[columns, 0]) & (gradient < 0.0))
-                  | ((current >= limits[columns, 1]) & (gradient > 0.0)))
-        used = free[rows][:, columns] & ~pinned
-        normal = normal * used[:, :, None] * used[:, None, :]
-        gradient = gradient * used
-        normal[:, diagonal, diagonal] *= 1.0 + damping[rows, None]
-        regular = _regularised(normal, used)
+        used = free_columns[pick]
+        if bounded:
+            at_values = current[:, columns]
+            pinned = (((at_values <= low_columns) & (gradient < 0.0))
+                      | ((at_values >= high_columns) & (gradient > 0.0)))
+            used = used & ~pinned
+        all_used = bool(used.all())
+        if not all_used:
+            normal = normal * used[:, :, None] * used[:, None, :]
+            gradient = gradient * used
+        normal[:, diagonal, diagonal] *= 1.0 + damping[pick, None]
+        regular = normal if all_used else _regularised(normal, used)
         try:
             compact = np.linalg.solve(regular, gradient[..., None])[..., 0]
         except np.linalg.LinAlgError:
@@ -339,34 +441,53 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
                                 zip(regular, gradient, used, strict=True)])
         step = np.zeros((rows.size, n_parameters))
         step[:, columns] = compact
-        trial = np.clip(values[rows] + step * free[rows], limits[:, 0], limits[:, 1])
-        step = trial - values[rows]
-        trial_residual = np.where(w[rows] > 0.0, emf[rows] - sub.predict(trial), 0.0) * sqrt_w[rows]
+        trial = np.clip(current + (step if all_free else step * free[pick]), low, high)
+        step = trial - current
+        if (not only_linear and rows.size * (1 + shifted) <= _STACK_LIMIT
+                and np.isfinite(trial).all()):
+            trial_rows, trial_lng = sub._gradient(trial, free[pick], columns, central=False)
+        else:
+            trial_rows, trial_lng = None, sub.ln_gamma(trial)
+        trial_residual = masked(emf[pick] - sub.predict(trial, trial_lng),
+                                read[pick]) * sqrt_w[pick]
         trial_chi2 = np.sum(trial_residual**2, axis=1)
-        better = np.isfinite(trial_chi2) & (trial_chi2 <= chi2[rows] * (1.0 + 1e-12)
-                                            + np.finfo(float).tiny)
-        drop = (chi2[rows] - trial_chi2) / np.maximum(chi2[rows], np.finfo(float).tiny)
-        small = np.all(np.abs(step) <= 1e-10 * np.maximum(np.abs(values[rows]), 1e-12)
+        before = chi2[pick]
+        better = np.isfinite(trial_chi2) & (trial_chi2 <= before * (1.0 + 1e-12) + tiny)
+        drop = (before - trial_chi2) / np.maximum(before, tiny)
+        small = np.all(np.abs(step) <= 1e-10 * np.maximum(np.abs(current), 1e-12)
                        + 1e-300, axis=1)
-        values[rows] = np.where(better[:, None], trial, values[rows])
-        residual[rows] = np.where(better[:, None], trial_residual, residual[rows])
-        chi2[rows] = np.where(better, trial_chi2, chi2[rows])
+        values[pick] = np.where(better[:, None], trial, current)
+        residual[pick] = np.where(better[:, None], trial_residual, residual[pick])
+        chi2[pick] = np.where(better, trial_chi2, before)
+        base = np.where(better[:, None], trial_lng, base)
+        if trial_rows is not None:
+            jac_rows = np.where(better[:, None, None], trial_rows, jac_rows)
+        elif better.any():
+            jac_rows = None
+        if rows.size == n_series:
+            lng = base
+        else:
+            if lng is not every_lng:
+                every_lng = lng = np.array(lng)
+            lng[rows] = base
         if only_linear:
             converged[rows] = True
             break
-        damping[rows] = np.where(better, damping[rows] / 10.0, damping[rows] * 10.0)
+        damping[pick] = np.where(better, damping[pick] / 10.0, damping[pick] * 10.0)
         done = (better & ((drop <= 1e-12) | small)) | (~better & small)
-        stuck = damping[rows] > 1e12
+        stuck = damping[pick] > 1e12
         converged[rows[done | stuck]] = True
         active[rows[done | stuck]] = False
     for index in np.flatnonzero(~converged):
         if failures[index] is None:
             failures[index] = f"the fit did not converge in {iterations} iterations"
 
-    dof = np.sum(w > 0.0, axis=1) - np.sum(free, axis=1)
+    dof = np.sum(read, axis=1) - np.sum(free, axis=1)
     scaled = np.broadcast_to(np.asarray(scale_covariance, dtype=bool), (n_series,)).copy()
     if covariance:  # at the optimum
-        jac = model.jacobian(values, free) * (w > 0.0)[:, :, None]
+        jac = model.jacobian(values, free, base=lng)
+        if not every_read:
+            jac = jac * read[:, :, None]
         a = jac * sqrt_w[:, :, None]
         normal = np.matmul(np.swapaxes(a, 1, 2), a)
         try:
@@ -380,7 +501,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     else:
         jac = np.full((*emf.shape, n_parameters), np.nan)
         cov = np.full((n_series, n_parameters, n_parameters), np.nan)
-    residual = np.where(w > 0.0, emf - model.predict(values), 0.0)
+    residual = masked(emf - model.predict(values, lng), read)
     return BatchFit(names=model.names, values=values, free=free, covariance=cov,
                     jacobian=jac, residual_V=residual, weights=w, chi2=chi2, dof=dof,
                     scaled=scaled, converged=converged, failures=tuple(failures))
