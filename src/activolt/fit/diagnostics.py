@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 import numpy.typing as npt
@@ -480,13 +481,56 @@ def runs_test(values: npt.ArrayLike) -> RunsTest:
     variance = 2.0 * n1 * n2 * (2.0 * n1 * n2 - n) / (n**2 * (n - 1)) if n > 1 else 0.0
     sd = math.sqrt(variance)
     z = (runs - expected) / sd if sd > 0.0 else math.nan
-    counts = np.arange(2, n + 1)
-    probabilities = np.exp(log_run_probabilities(counts, n1, n2))
+    counts, probabilities = _run_distribution(n1, n2)
     fewer = min(1.0, float(np.sum(probabilities[counts <= runs])))
     more = min(1.0, float(np.sum(probabilities[counts >= runs])))
     return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=expected,
                     sd_runs=sd, z=z, p_value_two_sided=min(1.0, 2.0 * min(fewer, more)),
                     p_value_fewer=fewer)
+
+
+def _run_distribution(n1: int, n2: int) -> tuple[np.ndarray, np.ndarray]:
+    """(every possible number of runs, its probability) for n1 and n2 values of each sign;
+    kept between calls for the usual sizes."""
+    if n1 + n2 <= 1000:
+        return _kept_run_distribution(n1, n2)
+    counts = np.arange(2, n1 + n2 + 1)
+    return counts, np.exp(log_run_probabilities(counts, n1, n2))
+
+
+@lru_cache(maxsize=256)
+def _kept_run_distribution(n1: int, n2: int) -> tuple[np.ndarray, np.ndarray]:
+    counts = np.arange(2, n1 + n2 + 1)
+    probabilities = np.exp(log_run_probabilities(counts, n1, n2))
+    counts.flags.writeable = probabilities.flags.writeable = False
+    return counts, probabilities
+
+
+#: Largest orderings (permutations × values) of the permutation test kept between calls.
+_KEPT_ORDERINGS = 400_000
+
+
+def _shuffled_indices(permutations: int, size: int) -> np.ndarray:
+    """The random orderings of the permutation test as indices, shape (permutations, size):
+    rows of 0 … size − 1 shuffled by the generator of seed 0. A shuffle's draws do not depend on
+    what is shuffled, so ``values[indices]`` are exactly the orderings that shuffling
+    ``values`` itself with that generator gives."""
+    return np.random.default_rng(0).permuted(
+        np.broadcast_to(np.arange(size), (permutations, size)), axis=1)
+
+
+@lru_cache(maxsize=16)
+def _kept_indices(permutations: int, size: int) -> np.ndarray:
+    indices = _shuffled_indices(permutations, size)
+    indices.flags.writeable = False
+    return indices
+
+
+def _orderings(permutations: int, size: int) -> np.ndarray:
+    """:func:`_shuffled_indices`, drawn once for the usual sizes."""
+    if permutations * size <= _KEPT_ORDERINGS:
+        return _kept_indices(permutations, size)
+    return _shuffled_indices(permutations, size)
 
 
 def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
@@ -556,8 +600,7 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
             return rho, math.nan
         z = (rho * denominator - mean) / math.sqrt(variance)
         return rho, float(ndtr(-z))
-    rng = np.random.default_rng(0)
-    shuffled = rng.permuted(np.broadcast_to(x, (permutations, x.size)), axis=1)
+    shuffled = x[_orderings(permutations, x.size)]
     rho_random = np.sum(shuffled[:, 1:] * shuffled[:, :-1], axis=1) / denominator
     return rho, float((np.sum(rho_random >= rho - 1e-15) + 1) / (permutations + 1))
 
