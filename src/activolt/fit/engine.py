@@ -173,9 +173,9 @@ class MeasurementModel:
             difference = ((out[block] - out[block + 1]) / 2.0 if central
                           else out[block] - base)
             rows[:, position] = factor * difference / step[:, None]
-        held = ~free[:, columns]
-        if held.any():
-            rows[held] = 0.0
+        fitted = free[:, columns]
+        if not fitted.all():
+            rows[~fitted] = 0.0
         return rows, base
 
     def _ln_gamma_of(self, blocks: list[np.ndarray]) -> list[np.ndarray]:
@@ -199,7 +199,8 @@ class MeasurementModel:
             shape = self.molality.shape
 
             def repeat(x: np.ndarray) -> np.ndarray:
-                return np.tile(np.broadcast_to(x, shape), (copies, 1))
+                return np.concatenate([x if np.shape(x) == shape
+                                       else np.broadcast_to(x, shape)] * copies)
 
             c = self.constants
             tiled = MeasurementModel(
@@ -390,7 +391,6 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
                                   for ok in active]
     iterations = 1 if only_linear else _MAX_ITERATIONS
     columns = np.flatnonzero(free.any(axis=0))
-    diagonal = np.arange(columns.size)
     free_columns = free[:, columns]
     # Every series fits every parameter of ``columns``: the masks below change nothing.
     all_free = bool(free_columns.all())
@@ -432,7 +432,8 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         if not all_used:
             normal = normal * used[:, :, None] * used[:, None, :]
             gradient = gradient * used
-        normal[:, diagonal, diagonal] *= 1.0 + damping[pick, None]
+        # (the diagonal as a strided view of the fresh, contiguous normal matrices)
+        normal.reshape(rows.size, -1)[:, ::columns.size + 1] *= 1.0 + damping[pick, None]
         regular = normal if all_used else _regularised(normal, used)
         try:
             compact = np.linalg.solve(regular, gradient[..., None])[..., 0]
@@ -441,7 +442,8 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
                                 zip(regular, gradient, used, strict=True)])
         step = np.zeros((rows.size, n_parameters))
         step[:, columns] = compact
-        trial = np.clip(current + (step if all_free else step * free[pick]), low, high)
+        trial = np.minimum(np.maximum(current + (step if all_free else step * free[pick]), low),
+                           high)  # (np.clip, without its dispatch)
         step = trial - current
         if (not only_linear and rows.size * (1 + shifted) <= _STACK_LIMIT
                 and np.isfinite(trial).all()):
@@ -456,14 +458,17 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         drop = (before - trial_chi2) / np.maximum(before, tiny)
         small = np.all(np.abs(step) <= 1e-10 * np.maximum(np.abs(current), 1e-12)
                        + 1e-300, axis=1)
-        values[pick] = np.where(better[:, None], trial, current)
-        residual[pick] = np.where(better[:, None], trial_residual, residual[pick])
-        chi2[pick] = np.where(better, trial_chi2, before)
-        base = np.where(better[:, None], trial_lng, base)
-        if trial_rows is not None:
-            jac_rows = np.where(better[:, None, None], trial_rows, jac_rows)
-        elif better.any():
-            jac_rows = None
+        taken = int(np.count_nonzero(better))
+        if taken == rows.size:  # every step taken (the np.where below, without its work)
+            values[pick], residual[pick], chi2[pick] = trial, trial_residual, trial_chi2
+            base, jac_rows = trial_lng, trial_rows
+        elif taken:
+            values[pick] = np.where(better[:, None], trial, current)
+            residual[pick] = np.where(better[:, None], trial_residual, residual[pick])
+            chi2[pick] = np.where(better, trial_chi2, before)
+            base = np.where(better[:, None], trial_lng, base)
+            jac_rows = (None if trial_rows is None
+                        else np.where(better[:, None, None], trial_rows, jac_rows))
         if rows.size == n_series:
             lng = base
         else:
