@@ -79,6 +79,26 @@ def _arrays(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.Arra
 
 
 def _hat_diagonal(a: np.ndarray) -> np.ndarray:
+    """h_ii of the weighted design ``a``; a small design's are kept between calls, since
+    the leverage, the studentized residuals, Cook's distance and the flags of one fit each
+    need them (by value: the same numbers give the same h)."""
+    if a.size > _KEPT_DESIGN_SIZE or not (a.flags.c_contiguous or a.flags.f_contiguous):
+        return _hat_diagonal_of(a)
+    # (in its own memory order: the column norms are summed in that order)
+    order = "C" if a.flags.c_contiguous else "F"
+    return _kept_hat_diagonal(a.shape, order, a.tobytes(order=order)).copy()
+
+
+#: Largest design (N × P values) whose hat diagonal is kept between calls.
+_KEPT_DESIGN_SIZE = 2000
+
+
+@lru_cache(maxsize=8)
+def _kept_hat_diagonal(shape: tuple[int, ...], order: str, data: bytes) -> np.ndarray:
+    return _hat_diagonal_of(np.frombuffer(data, dtype=float).reshape(shape, order=order))
+
+
+def _hat_diagonal_of(a: np.ndarray) -> np.ndarray:
     norms = np.linalg.norm(a, axis=0)
     q, _ = np.linalg.qr(a / np.where(norms > 0.0, norms, 1.0))
     return np.sum(q**2, axis=1)

@@ -165,27 +165,35 @@ def _check_observations(y: npt.ArrayLike, weights: npt.ArrayLike | None
     return values, w
 
 
-def _covariance_from_weighted_design(a: np.ndarray) -> np.ndarray:
-    """(AᵀA)⁻¹ by QR of the column-equilibrated A; FitError if A is rank deficient."""
-    norms = np.linalg.norm(a, axis=0)
-    if np.any(norms == 0.0) or not np.all(np.isfinite(a)):
-        raise FitError("a parameter does not affect the model at the optimum; its uncertainty "
-                       "cannot be estimated (hold it)")
-    r = np.linalg.qr(a / norms, mode="r")
-    diagonal = np.abs(np.diag(r))
-    if diagonal.min() <= diagonal.max() * a.shape[0] * np.finfo(float).eps:
-        raise FitError("the parameters are not independent for these data (the Jacobian is "
-                       "rank deficient); hold one of them")
+def _covariance_from_weighted_design(a: np.ndarray,
+                                     factor: tuple[np.ndarray, np.ndarray] | None = None
+                                     ) -> np.ndarray:
+    """(AᵀA)⁻¹ by QR of the column-equilibrated A; FitError if A is rank deficient.
+    ``factor``: (column norms, R) of A when already known and checked."""
+    if factor is None:
+        norms = np.linalg.norm(a, axis=0)
+        if np.any(norms == 0.0) or not np.all(np.isfinite(a)):
+            raise FitError("a parameter does not affect the model at the optimum; its "
+                           "uncertainty cannot be estimated (hold it)")
+        r = np.linalg.qr(a / norms, mode="r")
+        diagonal = np.abs(np.diag(r))
+        if diagonal.min() <= diagonal.max() * a.shape[0] * np.finfo(float).eps:
+            raise FitError("the parameters are not independent for these data (the Jacobian "
+                           "is rank deficient); hold one of them")
+    else:
+        norms, r = factor
     from scipy.linalg import solve_triangular
 
-    r_inverse = solve_triangular(r, np.eye(r.shape[0]))
+    # (R is finite: A is, and its columns have unit length)
+    r_inverse = solve_triangular(r, np.eye(r.shape[0]), check_finite=False)
     return (r_inverse @ r_inverse.T) / np.outer(norms, norms)
 
 
 def _result(names: tuple[str, ...], values: np.ndarray, jacobian: np.ndarray,
-            residuals: np.ndarray, weights: np.ndarray, scale: bool) -> LeastSquaresResult:
+            residuals: np.ndarray, weights: np.ndarray, scale: bool,
+            factor: tuple[np.ndarray, np.ndarray] | None = None) -> LeastSquaresResult:
     n, p = jacobian.shape
-    covariance = _covariance_from_weighted_design(jacobian * np.sqrt(weights)[:, None])
+    covariance = _covariance_from_weighted_design(jacobian * np.sqrt(weights)[:, None], factor)
     chi2 = float(np.sum(weights * residuals**2))
     dof = n - p
     if scale:
@@ -491,9 +499,11 @@ def linear_least_squares(
     if diagonal.min() <= diagonal.max() * n * np.finfo(float).eps:
         raise FitError("the design matrix is rank deficient; its parameters are not "
                        "independent")
-    solution = solve_triangular(r, q.T @ b)
+    solution = solve_triangular(r, q.T @ b, check_finite=False)  # (all finite, checked above)
     # One step of iterative refinement (Björck 1996, §2.4.5).
-    solution = solution + solve_triangular(r, q.T @ (b - a_scaled @ solution))
+    solution = solution + solve_triangular(r, q.T @ (b - a_scaled @ solution),
+                                           check_finite=False)
     values = solution / norms
     residuals = observations - x @ values
-    return _result(names, values, x, residuals, w, scale)
+    # The covariance from the same factorisation (mode "r" gives the same R).
+    return _result(names, values, x, residuals, w, scale, factor=(norms, r))
