@@ -405,10 +405,10 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     jac_rows: np.ndarray | None = None
     shifted = sum(1 for index in columns if 0 < index < n_parameters - 1)
     tiny = np.finfo(float).tiny
+    rows = np.flatnonzero(active)
     for _ in range(iterations):
-        if not active.any():
+        if not rows.size:
             break
-        rows = np.flatnonzero(active)
         # All series still iterating: views instead of copies of the rows.
         pick: slice | np.ndarray = slice(None) if rows.size == n_series else rows
         sub = model if rows.size == n_series else _rows(model, rows)
@@ -425,9 +425,10 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         used = free_columns[pick]
         if bounded:
             at_values = current[:, columns]
-            pinned = (((at_values <= low_columns) & (gradient < 0.0))
-                      | ((at_values >= high_columns) & (gradient > 0.0)))
-            used = used & ~pinned
+            at_low, at_high = at_values <= low_columns, at_values >= high_columns
+            if at_low.any() or at_high.any():
+                pinned = (at_low & (gradient < 0.0)) | (at_high & (gradient > 0.0))
+                used = used & ~pinned
         all_used = bool(used.all())
         if not all_used:
             normal = normal * used[:, :, None] * used[:, None, :]
@@ -480,9 +481,11 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             break
         damping[pick] = np.where(better, damping[pick] / 10.0, damping[pick] * 10.0)
         done = (better & ((drop <= 1e-12) | small)) | (~better & small)
-        stuck = damping[pick] > 1e12
-        converged[rows[done | stuck]] = True
-        active[rows[done | stuck]] = False
+        finished = done | (damping[pick] > 1e12)
+        if finished.any():
+            converged[rows[finished]] = True
+            active[rows[finished]] = False
+            rows = np.flatnonzero(active)
     for index in np.flatnonzero(~converged):
         if failures[index] is None:
             failures[index] = f"the fit did not converge in {iterations} iterations"
