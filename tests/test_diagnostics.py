@@ -229,3 +229,37 @@ def test_runs_test_of_a_long_sequence_matches_its_normal_approximation():
     counts = np.arange(2, t.n_positive + t.n_negative + 1)
     total = np.sum(np.exp(log_run_probabilities(counts, t.n_positive, t.n_negative)))
     assert total == pytest.approx(1.0, abs=1e-9)
+
+
+@pytest.mark.parametrize("size", [4, 9, 20, 57, 150])
+def test_serial_correlation_probability_is_that_of_shuffling_the_values(size):
+    """The permutation probability is the share of the 4 000 orderings that shuffling the
+    values themselves with the generator of seed 0 gives (the documented procedure, written
+    out here), for any sequence of the length and however often the test is repeated."""
+    walk = np.cumsum(np.random.default_rng(size).normal(size=size))
+    for x in (walk, walk[::-1].copy(), np.sin(np.arange(size)), walk):
+        shuffled = np.random.default_rng(0).permuted(np.broadcast_to(x, (4000, size)), axis=1)
+        rho = np.sum(x[1:] * x[:-1]) / np.sum(x**2)
+        rho_random = np.sum(shuffled[:, 1:] * shuffled[:, :-1], axis=1) / np.sum(x**2)
+        expected = (np.sum(rho_random >= rho - 1e-15) + 1) / 4001
+        got_rho, got_p = serial_correlation_test(x)
+        assert got_rho == pytest.approx(rho, rel=1e-12)
+        assert got_p == expected
+
+
+def test_leverage_of_a_fit_is_the_same_on_every_call_and_not_shared():
+    """The leverage of one design, asked for again, is the same numbers; changing the array
+    returned does not change the next answer."""
+    j = np.column_stack([np.ones(6), np.arange(6.0), np.arange(6.0) ** 2])
+    w = np.linspace(1.0, 2.0, 6)
+    first = leverage(j, w)
+    expected = first.copy()
+    first[:] = -1.0
+    again = leverage(j, w)
+    np.testing.assert_array_equal(again, expected)
+    assert np.sum(again) == pytest.approx(3.0, rel=1e-12)  # trace of the projector: P
+    e = np.array([0.1, -0.2, 0.05, 0.3, -0.1, 0.0])
+    t = studentized_residuals(j, w, e, covariance_scaled=False)
+    h = np.diag(j @ np.linalg.inv(j.T @ (w[:, None] * j)) @ (j * w[:, None]).T)
+    np.testing.assert_allclose(h, expected, rtol=1e-12)
+    assert np.all(np.isfinite(t))

@@ -198,3 +198,38 @@ def test_values_without_the_covariance_are_the_same_fit():
     assert np.array_equal(full.chi2, quick.chi2) and quick.converged.all()
     assert np.isnan(quick.covariance).all() and np.isnan(quick.jacobian).all()
     assert np.isfinite(full.covariance[:, :3, :3]).all()
+
+
+@pytest.mark.parametrize("name", ["hueckel", "pitzer"])
+def test_a_series_alone_and_in_a_large_batch_gives_the_same_numbers(name):
+    """One series gives the same Jacobian rows and fit alone as among 60 others, to rounding
+    (alone, the model's evaluations for the shifted parameters are made in one call on stacked
+    values; in a large batch, one call each). Synthetic series (input only)."""
+    model = get_model(name)
+    rng = np.random.default_rng(3)
+    molality = np.sort(np.exp(rng.uniform(np.log(1e-3), np.log(1.0), (60, 12))), axis=1)
+    full = batch(model, molality)
+    names = full.names
+    truth_values = MODEL_TRUTHS[name]
+    truth = np.array([[0.22, *[truth_values.get(p, 0.0) for p in names[1:-1]], 1.0]] * 60)
+    emf = full.predict(truth) + rng.normal(0.0, 2e-5, molality.shape)
+    linear, bounds = specs(model)
+    free = np.array([[True, *[p.name != "beta2_kg_mol" for p in model.parameters], True]] * 60)
+    columns = np.flatnonzero(free.any(axis=0))
+    for central in (True, False):
+        many = full.gradient_rows(truth, free, columns, central=central)
+        one = batch(model, molality[7:8]).gradient_rows(truth[7:8], free[7:8], columns,
+                                                        central=central)
+        np.testing.assert_allclose(one[0], many[7], rtol=1e-13, atol=0.0)
+    start = np.where(free, 0.0, truth)
+    start[:, [i for i, nm in enumerate(names) if nm == "a_angstrom"]] = 4.0
+    start[:, -1] = 1.0
+    weights = np.full(molality.shape, 2.5e9)
+    together = solve(full, emf, weights, start, free, linear, bounds)
+    for s in (0, 7, 59):
+        alone = solve(batch(model, molality[s:s + 1]), emf[s:s + 1], weights[s:s + 1],
+                      start[s:s + 1], free[s:s + 1], linear, bounds)
+        np.testing.assert_allclose(alone.values[0], together.values[s], rtol=1e-13, atol=0.0)
+        np.testing.assert_allclose(alone.covariance[0], together.covariance[s], rtol=1e-12,
+                                   atol=0.0)
+        assert alone.converged[0] and together.converged[s]
