@@ -5,6 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from .numbers import frame_records
+
 
 def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
     """The comparison with published γ± as lines of the text report (empty without a table).
@@ -22,7 +24,7 @@ def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
         source for values in comparison["published_values"] for source, _, _ in values))
     letters = {source: "abcdefghijklmnopqrstuvwxyz"[k] for k, source in enumerate(sources)}
     rows = []
-    for row in comparison.to_dict("records"):
+    for row in frame_records(comparison):
         if np.isnan(row["gamma_pm_published"]):
             continue
         places = max(3, decimals_for(row["u_gamma_pm"]))
