@@ -398,7 +398,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     low_columns, high_columns = low[columns], high[columns]
     # ln γ± at the current values of the series iterated (``base``, for the rows ``base_rows``)
     # and of every series (``lng``): each step's trial evaluates it, the next step reuses it.
-    base, base_rows, every_lng = lng, n_series, None
+    base, base_rows, lng_copy = lng, n_series, None  # (lng_copy: lng once it is our own)
     # The Jacobian rows at the current values of those series (None: not yet known). A step
     # that is not taken leaves them as they were; for a small batch, each trial's model
     # evaluation gives them at the trial too (in the same call), ready if the step is taken.
@@ -473,8 +473,8 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         if rows.size == n_series:
             lng = base
         else:
-            if lng is not every_lng:
-                every_lng = lng = np.array(lng)
+            if lng is not lng_copy:
+                lng_copy = lng = np.array(lng)
             lng[rows] = base
         if only_linear:
             converged[rows] = True
