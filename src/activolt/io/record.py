@@ -144,39 +144,20 @@ def _encode(value: Any, level: int, out: list[str]) -> None:
         if value != value or value == _INFINITY or value == -_INFINITY:
             raise _NotPlain
         out.append(float.__repr__(value))
-    elif isinstance(value, (list, tuple)):
+    elif isinstance(value, (list, tuple, dict)):
+        sequence = isinstance(value, (list, tuple))  # (the standard library's order of checks)
         if not value:
-            out.append("[]")
+            out.append("[]" if sequence else "{}")
             return
         inner = _INDENTS[level + 1]
         separator = "," + inner
-        opening = "[" + inner
-        for item in value:
-            kind = type(item)
-            if kind is float and item - item == 0.0:  # finite
-                leaf = float.__repr__(item)
-            elif kind is str:
-                leaf = encode_basestring(item)
-            elif item is None:
-                leaf = "null"
+        opening = ("[" if sequence else "{") + inner
+        for key, item in (((None, item) for item in value) if sequence else value.items()):
+            if sequence:
+                head = opening
+            elif isinstance(key, str):
+                head = opening + encode_basestring(key) + ": "
             else:
-                leaf = _leaf(item)
-            if leaf is not None:
-                out.append(opening + leaf)
-            else:
-                out.append(opening)
-                _encode(item, level + 1, out)
-            opening = separator
-        out.append(_INDENTS[level] + "]")
-    elif isinstance(value, dict):
-        if not value:
-            out.append("{}")
-            return
-        inner = _INDENTS[level + 1]
-        separator = "," + inner
-        opening = "{" + inner
-        for key, item in value.items():
-            if not isinstance(key, str):
                 raise _NotPlain
             kind = type(item)
             if kind is float and item - item == 0.0:  # finite
@@ -188,12 +169,12 @@ def _encode(value: Any, level: int, out: list[str]) -> None:
             else:
                 leaf = _leaf(item)
             if leaf is not None:
-                out.append(opening + encode_basestring(key) + ": " + leaf)
+                out.append(head + leaf)
             else:
-                out.append(opening + encode_basestring(key) + ": ")
+                out.append(head)
                 _encode(item, level + 1, out)
             opening = separator
-        out.append(_INDENTS[level] + "}")
+        out.append(_INDENTS[level] + ("]" if sequence else "}"))
     else:
         raise _NotPlain
 
