@@ -1,8 +1,6 @@
 """The fast paths of the outputs give what the general library calls give, for every input.
 
-``activolt.io.record.json_text`` must write the bytes of ``json.dumps(indent=2,
-ensure_ascii=False, allow_nan=False)`` (the archive and the HTML report name a record by its
-SHA-256), and ``activolt.report.numbers.frame_records`` the rows of
+``activolt.report.numbers.frame_records`` must give the rows of
 ``DataFrame.to_dict("records")``, and ``activolt.io.record.table_csv`` the text of
 ``DataFrame.to_csv(float_format="%.10g")``; each is checked against those library calls
 (hypothesis), errors included. Reference behaviour: the Python standard library and pandas
@@ -17,55 +15,16 @@ the sample run; only the reading is tested here).
 
 from __future__ import annotations
 
-import json
 import math
 
 import numpy as np
 import pandas as pd
-import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from activolt.data.runs import read_run, read_runs
-from activolt.io.record import json_text, table_csv
+from activolt.io.record import table_csv
 from activolt.report.numbers import frame_records
-
-_scalars = (st.none() | st.booleans() | st.integers(-10**20, 10**20)
-            | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=12))
-_keys = st.text(max_size=8)
-_documents = st.recursive(
-    _scalars,
-    lambda inner: (st.lists(inner, max_size=5) | st.tuples(inner, inner)
-                   | st.dictionaries(_keys, inner, max_size=5)),
-    max_leaves=40)
-
-
-@settings(max_examples=300, deadline=None)
-@given(_documents)
-def test_json_text_is_json_dumps_byte_for_byte(document):
-    assert json_text(document) == json.dumps(document, ensure_ascii=False, indent=2,
-                                             allow_nan=False) + "\n"
-
-
-@pytest.mark.parametrize("bad", [float("nan"), float("inf"), -float("inf")])
-def test_json_text_refuses_what_json_dumps_refuses(bad):
-    for document in ({"a": [1.0, bad]}, [bad], bad):
-        with pytest.raises(ValueError):
-            json_text(document)
-
-
-def test_json_text_leaves_unusual_values_to_json_dumps():
-    """Keys that are not strings, numpy scalars, deep nesting: the library's own text."""
-    deep: list = [1]
-    for _ in range(70):
-        deep = [deep]
-    for document in ({1: "a", 2.5: None, False: 0, None: 1}, {"x": np.float64(0.1)}, deep):
-        assert json_text(document) == json.dumps(document, ensure_ascii=False, indent=2,
-                                                 allow_nan=False) + "\n"
-    with pytest.raises(TypeError):
-        json_text({"x": np.int64(1)})
-    with pytest.raises(TypeError):
-        json_text({"x": {1, 2}})
 
 
 def _same(a, b) -> bool:

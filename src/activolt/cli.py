@@ -745,13 +745,13 @@ def _calibrate_command(args: argparse.Namespace, written: list[Path]) -> int:
     """``activolt calibrate``: one output set for a batch of reference electrodes; exit status
     0 when every electrode passes, 3 when any fails."""
     import hashlib
-    import json
 
     from .io.files import check_outputs, write_outputs
     from .io.record import (
         build_calibration_record,
         calibration_electrodes_csv,
         calibration_points_csv,
+        json_text,
     )
     from .procedures.calibration import calibrate, electrode_history
     from .report.certificate import certificate_html
@@ -771,7 +771,7 @@ def _calibrate_command(args: argparse.Namespace, written: list[Path]) -> int:
         earlier = _calibration_history(args.history, getattr(run, "sha256", ""))
         histories = electrode_history(earlier, current=batch)
     record = build_calibration_record(batch, record_folder=out, histories=histories)
-    record_text = json.dumps(record, ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+    record_text = json_text(record)
     record_name = f"{name}.record.json"
     contents: dict[str, bytes | str] = {
         record_name: record_text,

@@ -454,7 +454,7 @@ def _original_command_line(record: dict[str, Any]) -> list[str] | None:
 def _rereduce_reduction(record: dict[str, Any], folder: Path, names: dict[str, str]
                         ) -> tuple[dict[str, Any], dict[str, bytes | str]]:
     from ..data.runs import Exclusion, exclude_points, read_run
-    from ..io.record import points_csv, record_json
+    from ..io.record import json_text, points_csv, record_json
     from ..procedures.dilution import reduce_run
     from ..procedures.properties import derive_results
     from ..report.text import format_report
@@ -516,7 +516,7 @@ def _rereduce_reduction(record: dict[str, Any], folder: Path, names: dict[str, s
     original = _original_command_line(record)
     if original and isinstance(new.get("provenance"), dict):
         new["provenance"]["replayed_command_line"] = list(original)
-        text = json.dumps(new, ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+        text = json_text(new)
         outputs[f"{base}.record.json"] = text
     return new, outputs
 
@@ -527,6 +527,7 @@ def _rereduce_calibration(record: dict[str, Any], folder: Path, names: dict[str,
         build_calibration_record,
         calibration_electrodes_csv,
         calibration_points_csv,
+        json_text,
     )
     from ..procedures.calibration import calibrate
 
@@ -536,7 +537,7 @@ def _rereduce_calibration(record: dict[str, Any], folder: Path, names: dict[str,
             if source.get("metadata_file") else None)
     batch = calibrate(table, meta)
     new = build_calibration_record(batch, record_folder=folder)
-    text = json.dumps(new, ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+    text = json_text(new)
     outputs: dict[str, bytes | str] = {
         f"{table.stem}.record.json": text,
         f"{table.stem}.electrodes.csv": calibration_electrodes_csv(new),
