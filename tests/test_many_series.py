@@ -392,3 +392,29 @@ def test_ctrl_c_in_a_batch_of_worker_processes_writes_nothing(tmp_path, capsys, 
     assert captured.err.strip().splitlines() == [
         "activolt: interrupted; nothing was written (earlier outputs are unchanged)"]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["many.csv", "many.toml"]
+
+
+def test_a_worker_that_dies_stops_the_batch_with_nothing_written(tmp_path, capsys, monkeypatch):
+    # A worker killed mid-batch (as the system's out-of-memory killer would) must not leave
+    # the batch waiting for it: one line naming --workers, exit status 2, no output folder.
+    import os
+    import signal
+
+    import activolt.procedures.many as many
+
+    path = tmp_path / "many.csv"
+    _write_many(path, 80)
+    real, calls = many.summary_row, []
+
+    def row_then_die(outcome, model):
+        calls.append(1)
+        if len(calls) == 5:
+            os.kill(os.getpid(), signal.SIGKILL)
+        return real(outcome, model)
+
+    monkeypatch.setattr(many, "summary_row", row_then_die)
+    assert main(["reduce", str(path), "--figures", "none", "--workers", "2"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "worker process ended unexpectedly" in err[0], err
+    assert "--workers" in err[0]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["many.csv", "many.toml"]

@@ -545,8 +545,6 @@ class _SeriesDone:
 #: Below this many series a batch is reduced in this process: starting workers would cost
 #: more than it saves.
 _SERIES_PER_WORKER = 32
-#: The job of the worker processes of a batch (inherited when they are forked).
-_WORKER_JOB: tuple[_SeriesJob, StagedFolder] | None = None
 
 
 def _worker_count(requested: int | None, series: int) -> int:
@@ -564,44 +562,88 @@ def _worker_count(requested: int | None, series: int) -> int:
     return max(1, min(cpus, series // _SERIES_PER_WORKER))
 
 
-def _start_worker() -> None:
-    """A worker leaves Ctrl-C to the main process, which stops the batch (and the workers)."""
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    signal.signal(signal.SIGTERM, signal.SIG_DFL)
-
-
-def _work(index: int) -> _SeriesDone:
-    assert _WORKER_JOB is not None
-    job, staged = _WORKER_JOB
-    return job(index, staged)
-
-
 def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
-                 ) -> Iterator[_SeriesDone]:
-    """Every series done, in order, with a progress bar on a
-    terminal; reduced in worker processes (forked, so that the runs are not copied) when the
-    batch is large and the machine has several CPUs. The result of a series does not depend on
-    where it was reduced."""
-    global _WORKER_JOB
+                 ) -> list[_SeriesDone]:
+    """Every series done, in order, with a progress bar on a terminal; reduced in worker
+    processes (forked, so that the runs are not copied) when the batch is large and the
+    machine has several CPUs. The result of a series does not depend on where it was
+    reduced."""
     count = len(job.runs)
     processes = _worker_count(workers, count)
+    done: list[_SeriesDone | None] = [None] * count
     with _progress(count, "reducing") as bar:
-        if processes == 1:
-            for index in range(count):
-                yield job(index, staged)
-                bar.update(1)
-            return
-        import multiprocessing
+        finished = (((index, job(index, staged)) for index in range(count)) if processes == 1
+                    else _in_workers(job, staged, processes))
+        for index, result in finished:
+            done[index] = result
+            bar.update(1)
+    return [result for result in done if result is not None]
 
-        _WORKER_JOB = (job, staged)
-        try:
-            with multiprocessing.get_context("fork").Pool(processes, _start_worker) as pool:
-                chunk = max(1, min(64, count // (8 * processes)))
-                for result in pool.imap(_work, range(count), chunksize=chunk):
-                    yield result
-                    bar.update(1)
-        finally:
-            _WORKER_JOB = None
+
+def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
+                ) -> Iterator[tuple[int, _SeriesDone]]:
+    """(index, result) of every series as the worker processes finish them. Worker k takes the
+    series k, k + P, k + 2P, … and sends each result through its own pipe. A worker that ends
+    without finishing (killed, out of memory) stops the batch with an InputError rather than
+    leaving it waiting; on any exit the workers still running are stopped."""
+    import multiprocessing
+    from multiprocessing.connection import wait
+
+    context = multiprocessing.get_context("fork")
+    started: list[tuple[Any, Any]] = []
+    for stream in (sys.stdout, sys.stderr):  # not to be written again by a worker on its exit
+        if stream is not None:
+            stream.flush()
+    try:
+        for first in range(processes):
+            receiver, sender = context.Pipe(duplex=False)
+            process = context.Process(
+                target=_worker, args=(job, staged, range(first, len(job.runs), processes),
+                                      sender), daemon=True)
+            process.start()
+            sender.close()
+            started.append((process, receiver))
+        reading = {receiver: process for process, receiver in started}
+        while reading:
+            for receiver in wait(list(reading)):
+                try:
+                    message = receiver.recv()
+                except EOFError:  # the worker has sent everything, or ended early
+                    process = reading.pop(receiver)
+                    process.join()
+                    if process.exitcode != 0:
+                        raise InputError(
+                            f"a worker process ended unexpectedly (exit status "
+                            f"{process.exitcode}; killed, or out of memory?); nothing was "
+                            "written — run again, or with --workers 1",
+                            file="command line", column="--workers") from None
+                    continue
+                if isinstance(message, str):
+                    raise RuntimeError(f"in a worker process: {message}")
+                yield message
+    finally:
+        for process, receiver in started:
+            if process.is_alive():
+                process.terminate()
+            process.join()
+            receiver.close()
+
+
+def _worker(job: _SeriesJob, staged: StagedFolder, indices: range, sender: Any) -> None:
+    """A worker process: its series, each result sent as it is done. It leaves Ctrl-C to the
+    main process, which stops the batch and the workers; a failure is sent as its
+    traceback."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    try:
+        for index in indices:
+            sender.send((index, job(index, staged)))
+    except Exception:  # a defect: shown by the main process, which stops the batch
+        import traceback
+
+        sender.send(traceback.format_exc())
+    finally:
+        sender.close()
 
 
 def _reduce_command(args: argparse.Namespace, written: list[Path]) -> int:
