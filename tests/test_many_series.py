@@ -367,29 +367,38 @@ def test_workers_give_the_same_outputs_as_one_process(tmp_path, capsys):
     assert summary["series"].tolist() == [f"S{s}" for s in range(69)] + ["single"]
 
 
-def test_ctrl_c_in_a_batch_of_worker_processes_writes_nothing(tmp_path, capsys, monkeypatch):
-    # The main process is interrupted while workers reduce the series (a worker sends the
-    # signal from within the 20th series): exit status 130, one line, and no output folder or
-    # temporary left behind (the workers are stopped before the staged folder is removed).
+def _batch_with_a_signal_in_a_worker(folder: Path, monkeypatch, at_series: int,
+                                     to_parent: bool, signal_number: int) -> int:
+    """The exit status of an 80-series batch in two workers, where each worker sends
+    ``signal_number`` to the main process (``to_parent``) or to itself as it finishes its
+    ``at_series``-th series."""
     import os
-    import signal
 
     import activolt.procedures.many as many
 
-    path = tmp_path / "many.csv"
+    path = folder / "many.csv"
     _write_many(path, 80)
     real, calls = many.summary_row, []
 
-    def row_then_stop(outcome, model):
+    def row_then_signal(outcome, model):
         calls.append(1)
-        if len(calls) == 20:
-            os.kill(os.getppid(), signal.SIGINT)
+        if len(calls) == at_series:
+            os.kill(os.getppid() if to_parent else os.getpid(), signal_number)
         return real(outcome, model)
 
-    monkeypatch.setattr(many, "summary_row", row_then_stop)
-    assert main(["reduce", str(path), "--figures", "none", "--workers", "2"]) == 130
-    captured = capsys.readouterr()
-    assert captured.err.strip().splitlines() == [
+    monkeypatch.setattr(many, "summary_row", row_then_signal)
+    return main(["reduce", str(path), "--figures", "none", "--workers", "2"])
+
+
+def test_ctrl_c_in_a_batch_of_worker_processes_writes_nothing(tmp_path, capsys, monkeypatch):
+    # The main process is interrupted while workers reduce the series (a worker sends the
+    # signal from within its 20th series): exit status 130, one line, and no output folder or
+    # temporary left behind (the workers are stopped before the staged folder is removed).
+    import signal
+
+    assert _batch_with_a_signal_in_a_worker(tmp_path, monkeypatch, 20, True,
+                                            signal.SIGINT) == 130
+    assert capsys.readouterr().err.strip().splitlines() == [
         "activolt: interrupted; nothing was written (earlier outputs are unchanged)"]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["many.csv", "many.toml"]
 
@@ -397,23 +406,10 @@ def test_ctrl_c_in_a_batch_of_worker_processes_writes_nothing(tmp_path, capsys, 
 def test_a_worker_that_dies_stops_the_batch_with_nothing_written(tmp_path, capsys, monkeypatch):
     # A worker killed mid-batch (as the system's out-of-memory killer would) must not leave
     # the batch waiting for it: one line naming --workers, exit status 2, no output folder.
-    import os
     import signal
 
-    import activolt.procedures.many as many
-
-    path = tmp_path / "many.csv"
-    _write_many(path, 80)
-    real, calls = many.summary_row, []
-
-    def row_then_die(outcome, model):
-        calls.append(1)
-        if len(calls) == 5:
-            os.kill(os.getpid(), signal.SIGKILL)
-        return real(outcome, model)
-
-    monkeypatch.setattr(many, "summary_row", row_then_die)
-    assert main(["reduce", str(path), "--figures", "none", "--workers", "2"]) == 2
+    assert _batch_with_a_signal_in_a_worker(tmp_path, monkeypatch, 5, False,
+                                            signal.SIGKILL) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "worker process ended unexpectedly" in err[0], err
     assert "--workers" in err[0]
