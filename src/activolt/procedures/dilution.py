@@ -893,7 +893,7 @@ def _covariance_components(judged: _Judged, start: _Start) -> _Components:
         notes.append(f"u(E°) includes {abs(truncation[0]) * 1e3:.3g} mV for the terms the "
                      f"{family.title} leaves out (extended Debye–Hückel with Bå = 1.5; GUM "
                      "Type B)")
-    common = _common_input_effects(run, family, electrolyte, data, fit)
+    common = _common_input_effects(run, family, electrolyte, data, fit, start.data)
     for _, u, shift, _ in common:
         covariance = covariance + np.outer(shift, shift) * u**2
     if effects is None:
@@ -974,7 +974,7 @@ SHARED_INPUTS = ("stock molality", "electrode offset")
 
 
 def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrolyte,
-                          data: SeriesData, fit: _Fit
+                          data: SeriesData, fit: _Fit, plain: SeriesData
                           ) -> list[tuple[str, float, np.ndarray, np.ndarray]]:
     """For each input shared by all readings with a stated uncertainty (the run temperature, the
     barometric pressure): (name, u, ∂(E°, free parameters)/∂input, ∂ ln γ±/∂input).
@@ -984,7 +984,8 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     S the fit's sensitivity matrix (GUM 5.1.3: sensitivity coefficients by finite difference,
     then linear propagation — the same as a refit with the input shifted, without refitting).
     The temperature is stepped downward at the boiling end and upward at the ice point, so
-    that the step stays within liquid water."""
+    that the step stays within liquid water. ``plain``: the run's readings prepared as read
+    (before any refinement), against which the shifted ones are compared."""
     meta = run.metadata
     if not (meta.u_temperature_K > 0 or meta.u_stock_molality_relative > 0
             or meta.u_electrode_offset_V > 0
@@ -1015,7 +1016,6 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     if not shifts:
         return []
     sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
-    plain = prepare_inputs(run, inputs)
     plain_residual = plain.emf_V - predict_emf(family, electrolyte, plain, fit.e0, fit.values)
     slope = fit.values.get(SLOPE, data.slope)
     ln_gamma = (fit.e0 - data.emf_V) * data.sign / (slope * data.nernst_V) - data.ln_mean_molality
