@@ -19,6 +19,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from synthetic import emf_from_gamma
 
 from activolt.cli import main
@@ -26,7 +28,8 @@ from activolt.data.runs import read_run, read_runs, runs_from_frame
 from activolt.errors import InputError
 from activolt.io.summary import summary_csv
 from activolt.physics.water import debye_hueckel_constants
-from activolt.procedures.dilution import reduce_run
+from activolt.errors import FitError
+from activolt.procedures.dilution import Reduction, reduce_run, reduce_runs
 from activolt.procedures.many import SUMMARY_COLUMNS, reduce_many, series_name
 
 MOLALITY = np.array([0.001, 0.002, 0.005, 0.01, 0.02, 0.05])
@@ -161,6 +164,53 @@ def test_reduce_many_on_a_frame_equals_reduce_run_per_series(tmp_path):
     assert (summary.loc[:1, "failure"] == "").all()
     assert np.isfinite(summary.loc[:1, ["standard_potential_V", "u_standard_potential_V",
                                         "reduced_chi2", "birge_ratio"]].to_numpy()).all()
+
+
+@st.composite
+def _random_series(draw: st.DrawFn) -> pd.DataFrame:
+    """A table of 1 to 6 series of varied length, range, E°, scatter and weighting; some
+    cannot be reduced (too few readings, one molality), some misfit (synthetic inputs)."""
+    rows = []
+    stated = draw(st.booleans())
+    rng = np.random.default_rng(draw(st.integers(0, 2**32 - 1)))
+    for index in range(draw(st.integers(1, 6))):
+        n = draw(st.integers(2, 16))
+        top = draw(st.sampled_from([0.02, 0.1, 0.5, 2.0]))
+        molality = (np.full(n, 0.01) if draw(st.integers(0, 9)) == 0
+                    else np.geomspace(0.001, top, n))
+        scatter = draw(st.sampled_from([1e-6, 2e-5, 3e-4]))
+        emf = _emf(0.2224 + rng.uniform(-1e-3, 1e-3), molality) + rng.normal(0.0, scatter, n)
+        for m, e in zip(molality, emf, strict=True):
+            rows.append({"molality_mol_kg": m, "emf_V": e, "series": f"s{index}",
+                         **({"u_emf_V": U_EMF_V} if stated else {})})
+    return pd.DataFrame(rows)
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(frame=_random_series(), model=st.sampled_from(["limiting", "hueckel", "davies", "sit",
+                                                       "pitzer"]))
+def test_reducing_runs_together_equals_reducing_each_alone(frame, model):
+    """The fits of many series solved in one engine batch give each series what it gives
+    alone: E° to 1e-9 V, γ± to 1e-9, u to 1e-6 relative, the same held parameters, the same
+    refusal (regression pin: the code against itself)."""
+    runs = runs_from_frame(frame, METADATA)
+    together = reduce_runs(runs, model)
+    for run, batch in zip(runs, together, strict=True):
+        try:
+            alone = reduce_run(run, model)
+        except (FitError, InputError) as error:
+            assert type(batch) is type(error) and str(batch) == str(error)
+            continue
+        assert isinstance(batch, Reduction)
+        assert abs(batch.standard_potential.nominal_value
+                   - alone.standard_potential.nominal_value) <= 1e-9
+        assert batch.standard_potential.std_dev == pytest.approx(
+            alone.standard_potential.std_dev, rel=1e-6)
+        assert batch.free_names == alone.free_names and batch.notes == alone.notes
+        np.testing.assert_allclose(batch.points["gamma_pm"], alone.points["gamma_pm"],
+                                   rtol=1e-9, atol=0)
+        np.testing.assert_allclose(batch.points["u_gamma_pm"], alone.points["u_gamma_pm"],
+                                   rtol=1e-6, atol=0)
 
 
 def test_reduce_many_on_runs_and_the_truth_is_covered(tmp_path):

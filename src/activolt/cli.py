@@ -27,7 +27,7 @@ from .safe_text import escape_controls
 if TYPE_CHECKING:
     from .data.runs import Run
     from .io.files import StagedFolder
-    from .procedures.many import SeriesReducer
+    from .procedures.many import SeriesReducer, SeriesReduction
 
 # The command line solves many small least-squares problems, where BLAS threads cost more than
 # they give and contend with each other on a busy machine: one thread unless the user set one
@@ -481,14 +481,22 @@ class _SeriesJob:
     trials: int | None
     seed: int
 
-    def __call__(self, index: int, staged: StagedFolder) -> _SeriesDone:
-        """Reduce series ``index`` and write its outputs into ``staged``."""
+    def __call__(self, indices: Sequence[int], staged: StagedFolder
+                 ) -> Iterator[tuple[int, _SeriesDone]]:
+        """Reduce the series ``indices`` together and write each one's outputs into
+        ``staged``, yielding (index, result) as each is written."""
+        outcomes = self.reducer.batch([self.runs[index] for index in indices])
+        for index, outcome in zip(indices, outcomes, strict=True):
+            yield index, self._written(index, outcome, staged)
+
+    def _written(self, index: int, outcome: SeriesReduction, staged: StagedFolder
+                 ) -> _SeriesDone:
+        """Series ``index``'s outputs written into ``staged``."""
         from .io.record import points_csv, record_json
         from .procedures.many import summary_row
         from .procedures.properties import derive_results
         from .report.text import format_report
 
-        outcome = self.reducer(self.runs[index])
         base = self.bases[index]
         row = summary_row(outcome, self.reducer.model)
         label = f"{outcome.run.path.name}" + (f", series '{outcome.series}'"
@@ -572,18 +580,29 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
     processes = _worker_count(workers, count)
     done: list[_SeriesDone | None] = [None] * count
     with _progress(count, "reducing") as bar:
-        finished = (((index, job(index, staged)) for index in range(count)) if processes == 1
-                    else _in_workers(job, staged, processes))
+        finished = ((done for chunk in _chunks(range(count), 0, 1) for done in job(chunk, staged))
+                    if processes == 1 else _in_workers(job, staged, processes))
         for index, result in finished:
             done[index] = result
             bar.update(1)
     return [result for result in done if result is not None]
 
 
+def _chunks(indices: range, first: int, step: int) -> Iterator[range]:
+    """Chunks ``first``, ``first + step``, … of ``indices``, each of
+    :data:`~activolt.procedures.many.BATCH_SIZE` series reduced together (the result of a
+    series does not depend on its chunk)."""
+    from .procedures.many import BATCH_SIZE
+
+    for start in range(first * BATCH_SIZE, len(indices), step * BATCH_SIZE):
+        yield indices[start:start + BATCH_SIZE]
+
+
 def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
                 ) -> Iterator[tuple[int, _SeriesDone]]:
     """(index, result) of every series as the worker processes finish them. Worker k takes the
-    series k, k + P, k + 2P, … and sends each result through its own pipe. A worker that ends
+    chunks k, k + P, k + 2P, … (:func:`_chunks`) and sends each series' result through its own
+    pipe. A worker that ends
     without finishing (killed, out of memory) stops the batch with an InputError rather than
     leaving it waiting; on any exit the workers still running are stopped."""
     import multiprocessing
@@ -598,8 +617,7 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
         for first in range(processes):
             receiver, sender = context.Pipe(duplex=False)
             process = context.Process(
-                target=_worker, args=(job, staged, range(first, len(job.runs), processes),
-                                      sender), daemon=True)
+                target=_worker, args=(job, staged, first, processes, sender), daemon=True)
             process.start()
             sender.close()
             started.append((process, receiver))
@@ -629,15 +647,17 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
             receiver.close()
 
 
-def _worker(job: _SeriesJob, staged: StagedFolder, indices: range, sender: Any) -> None:
-    """A worker process: its series, each result sent as it is done. It leaves Ctrl-C to the
-    main process, which stops the batch and the workers; a failure is sent as its
-    traceback."""
+def _worker(job: _SeriesJob, staged: StagedFolder, first: int, step: int, sender: Any
+            ) -> None:
+    """A worker process: its chunks of series (:func:`_chunks`), each series' result sent as
+    it is done. It leaves Ctrl-C to the main process, which stops the batch and the workers;
+    a failure is sent as its traceback."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     try:
-        for index in indices:
-            sender.send((index, job(index, staged)))
+        for chunk in _chunks(range(len(job.runs)), first, step):
+            for done in job(chunk, staged):
+                sender.send(done)
     except Exception:  # a defect: shown by the main process, which stops the batch
         import traceback
 

@@ -23,9 +23,9 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Generator, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Any, NamedTuple
+from typing import Any, NamedTuple, TypeVar
 
 import numpy as np
 import numpy.typing as npt
@@ -39,8 +39,9 @@ from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..constants import ZERO_CELSIUS_K
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
+from ..fit.engine import BatchFit, MeasurementModel, solve
 from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
-from ..fit.least_squares import linear_least_squares
+from ..fit.least_squares import information_criteria, linear_least_squares
 from ..fit.problem import (
     E0,
     SLOPE,
@@ -62,7 +63,7 @@ from ..fit.uncertainty import (
     sensitivity_matrix,
     student_t_factor,
 )
-from ..physics.water import debye_hueckel_constants
+from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .display import html_table, rounded_uncertainty, value_with_uncertainty
 
 __all__ = [
@@ -74,10 +75,13 @@ __all__ = [
     "Reduction",
     "mean_temperature",
     "reduce_run",
+    "reduce_runs",
     "reduction_jacobian",
     "sensitivity_matrix",
     "with_model_choice",
 ]
+
+_T = TypeVar("_T")
 
 #: Largest spread of temperatures in one run that is reduced to one E° [K].
 MAX_TEMPERATURE_SPREAD_K = 2.0
@@ -408,46 +412,124 @@ class _Fit:
     jacobian: np.ndarray
 
 
-def _fit_once(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
-              values: dict[str, float], free: list[str]) -> _Fit:
-    """One weighted fit of E° and the ``free`` parameters, the others held at ``values``, by the
-    batched engine (:func:`activolt.fit.engine.solve`) on a batch of one."""
-    from ..fit.engine import solve
-    from ..fit.least_squares import information_criteria
+@dataclass(frozen=True)
+class _FitRequest:
+    """One weighted fit of E° and the ``free`` parameters, the others held at ``values``, as
+    the engine takes it (a batch of one); :func:`_solve_requests` solves many at once."""
 
+    model: ActivityModel
+    data: SeriesData
+    measurement: MeasurementModel
+    values: dict[str, float]
+    free: list[str]
+    start: np.ndarray
+    mask: np.ndarray
+
+    @property
+    def batch_key(self) -> tuple[Any, ...]:
+        """Requests with equal keys are solved in one batch: one model, one electrolyte, one
+        sign, one number of readings."""
+        m = self.measurement
+        return (id(self.model), m.electrolyte, m.sign, m.molality.shape[1])
+
+
+def _fit_request(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
+                 values: dict[str, float], free: list[str]) -> _FitRequest:
+    """The request for one fit (FitError when a starting value lies outside its bounds)."""
     measurement = data.measurement_model(model, electrolyte)
     names = measurement.names
-    specs = [parameter_spec(model, name) if name != E0 else None for name in names]
-    mask = np.array([[name == E0 or name in free for name in names]])
-    linear = np.array([spec is None or spec.linear for spec in specs])
-    bounds = np.array([[-math.inf, math.inf] if spec is None else [spec.minimum, spec.maximum]
-                       for spec in specs])
     start = data.values_array(model, 0.0, values)
-    if not np.all((start[0] >= bounds[:, 0]) & (start[0] <= bounds[:, 1])):
+    low, high = _bounds(model, names)
+    if not np.all((start[0] >= low) & (start[0] <= high)):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
                        "value within them")
-    result = solve(measurement, data.emf_V[None, :], data.weights[None, :], start, mask, linear,
-                   bounds, scale_covariance=not data.stated_uncertainty)
-    if not result.converged[0]:
-        raise FitError(f"{result.failures[0]}; hold a parameter at a given value")
+    mask = np.array([[name == E0 or name in free for name in names]])
+    return _FitRequest(model, data, measurement, values, list(free), start, mask)
+
+
+@functools.lru_cache(maxsize=64)
+def _bounds(model: ActivityModel, names: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray]:
+    """(minimum, maximum) of each quantity of the engine's order (E° unbounded)."""
+    specs = [parameter_spec(model, name) if name != E0 else None for name in names]
+    return (np.array([-math.inf if s is None else s.minimum for s in specs]),
+            np.array([math.inf if s is None else s.maximum for s in specs]))
+
+
+@functools.lru_cache(maxsize=64)
+def _linear(model: ActivityModel, names: tuple[str, ...]) -> np.ndarray:
+    """Whether E is linear in each quantity of the engine's order."""
+    return np.array([name == E0 or parameter_spec(model, name).linear for name in names])
+
+
+def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
+    """Every request solved, those of one batch key in one call of the batched engine
+    (:func:`activolt.fit.engine.solve`); each gives its fit or the FitError that refuses it.
+    A request's result does not depend on the others solved with it."""
+    results: list[_Fit | FitError | None] = [None] * len(requests)
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, request in enumerate(requests):
+        groups.setdefault(request.batch_key, []).append(index)
+    for indices in groups.values():
+        chosen = [requests[i] for i in indices]
+        first = chosen[0]
+        names = first.measurement.names
+        if len(chosen) == 1:
+            measurement = first.measurement
+            emf, weights = first.data.emf_V[None, :], first.data.weights[None, :]
+            start, mask = first.start, first.mask
+        else:
+            measurement = _stacked([r.measurement for r in chosen])
+            emf = np.stack([r.data.emf_V for r in chosen])
+            weights = np.stack([r.data.weights for r in chosen])
+            start = np.concatenate([r.start for r in chosen])
+            mask = np.concatenate([r.mask for r in chosen])
+        scaled = np.array([not r.data.stated_uncertainty for r in chosen])
+        batch = solve(measurement, emf, weights, start, mask, _linear(first.model, names),
+                      np.column_stack(_bounds(first.model, names)), scale_covariance=scaled)
+        for row, index in enumerate(indices):
+            try:
+                results[index] = _fit_from(requests[index], batch, row)
+            except FitError as error:
+                results[index] = error
+    return [r for r in results if r is not None]
+
+
+def _stacked(models: Sequence[MeasurementModel]) -> MeasurementModel:
+    """One measurement model of several series of equal length (one model and electrolyte)."""
+    first = models[0]
+    return MeasurementModel(
+        first.activity, first.electrolyte, first.sign,
+        np.concatenate([m.molality for m in models]),
+        np.concatenate([m.nernst_V for m in models]),
+        DebyeHueckelConstants(*(np.concatenate([getattr(m.constants, field) for m in models])
+                                for field in ("temperature", "aphi", "b"))))
+
+
+def _fit_from(request: _FitRequest, result: BatchFit, row: int) -> _Fit:
+    """The fit of one request from row ``row`` of the engine's batch, or FitError."""
+    model, data, free = request.model, request.data, request.free
+    if not result.converged[row]:
+        raise FitError(f"{result.failures[row]}; hold a parameter at a given value")
+    names = result.names
     order = [names.index(name) for name in (E0, *free)]
-    covariance = result.covariance[0][np.ix_(order, order)]
-    fitted = {**values, **{name: float(result.values[0, names.index(name)]) for name in free}}
+    covariance = result.covariance[row][np.ix_(order, order)]
+    fitted = {**request.values,
+              **{name: float(result.values[row, names.index(name)]) for name in free}}
     if ((not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0))
             and not any(_at_bound(parameter_spec(model, name), fitted[name]) for name in free)):
         # (a parameter at a bound is held next, by _hard_failure, whatever its variance)
         raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
                        "independent for these data); hold a parameter at a given value")
     n = data.emf_V.size
-    dof = int(result.dof[0])
+    dof = int(result.dof[row])
     if dof < 1 and not data.stated_uncertainty:
         raise FitError("no degree of freedom is left to estimate the scatter; hold a parameter "
                        "at a given value or state u(EMF)")
-    chi2 = float(result.chi2[0])
+    chi2 = float(result.chi2[row])
     aic, bic = information_criteria(chi2, n, 1 + len(free), not data.stated_uncertainty)
-    return _Fit(e0=float(result.values[0, 0]), values=fitted, free=list(free),
+    return _Fit(e0=float(result.values[row, 0]), values=fitted, free=list(free),
                 covariance=covariance, chi2=chi2, dof=dof, aic=aic, bic=bic,
-                residual_V=result.residual_V[0], jacobian=result.jacobian[0][:, order])
+                residual_V=result.residual_V[row], jacobian=result.jacobian[row][:, order])
 
 
 def _at_bound(spec: Parameter, value: float) -> bool:
@@ -477,8 +559,11 @@ def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
 
 
 def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
-                   fit: _Fit, values: dict[str, float]) -> tuple[str, str] | None:
-    """The free parameter to hold next, and why, or None.
+                   fit: _Fit, values: dict[str, float]
+                   ) -> Generator[list[_FitRequest], list[_Fit | FitError],
+                                  tuple[str, str] | None]:
+    """The free parameter to hold next, and why, or None (a step: it yields the fits it needs,
+    all at once, and is sent their results).
 
     A parameter whose conventional value carries a stated uncertainty is held when the data
     determine it less precisely than the convention does (u_fit > u_conv) and agree with it
@@ -489,7 +574,7 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesD
     (backward elimination; Burnham & Anderson 2002, §3.4).
     """
     best_convention: tuple[float, str, str] | None = None
-    best_bic: tuple[float, bool, str] | None = None
+    candidates: list[tuple[str, _FitRequest]] = []
     for index, name in enumerate(fit.free, start=1):
         spec = parameter_spec(model, name)
         conventional = spec.conventional(electrolyte, data.constants)
@@ -508,12 +593,19 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesD
                     f"precise than these data ({fit.values[name]:.3g} ± {u_fit:.2g})"))
             continue
         try:
-            held = _fit_once(model, electrolyte, data, {**fit.values, name: conventional},
-                             [f for f in fit.free if f != name])
+            candidates.append((name, _fit_request(model, electrolyte, data,
+                                                  {**fit.values, name: conventional},
+                                                  [f for f in fit.free if f != name])))
         except FitError:
             continue
-        if held.bic <= fit.bic and (best_bic is None or (held.bic, spec.linear) < best_bic[:2]):
-            best_bic = (held.bic, spec.linear, name)
+    held_fits = (yield [request for _, request in candidates]) if candidates else []
+    best_bic: tuple[float, bool, str] | None = None
+    for (name, _), held in zip(candidates, held_fits, strict=True):
+        if isinstance(held, FitError):
+            continue
+        linear = parameter_spec(model, name).linear
+        if held.bic <= fit.bic and (best_bic is None or (held.bic, linear) < best_bic[:2]):
+            best_bic = (held.bic, linear, name)
     if best_convention is not None:
         return best_convention[1], best_convention[2]
     if best_bic is None:
@@ -522,6 +614,59 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesD
     spec = parameter_spec(model, name)
     return name, (f"the data do not support fitting it (BIC {bic:.1f} held vs {fit.bic:.1f} "
                   f"fitted; fitted value {fit.values[name]:.3g} {spec.unit})")
+
+
+def _fitted(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
+            values: dict[str, float], free: list[str]
+            ) -> Generator[list[_FitRequest], list[_Fit | FitError], _Fit]:
+    """One fit as a step: it yields its request and returns the fit (FitError when refused)."""
+    (result,) = yield [_fit_request(model, electrolyte, data, values, free)]
+    if isinstance(result, FitError):
+        raise result
+    return result
+
+
+def _alone(steps: Generator[list[_FitRequest], list[_Fit | FitError], _T]) -> _T:
+    """What a chain of steps returns, each fit it asks for solved as a batch of one."""
+    try:
+        requests = next(steps)
+        while True:
+            requests = steps.send(_solve_requests(requests))
+    except StopIteration as stop:
+        return stop.value
+
+
+def _together(chains: Sequence[Generator[list[_FitRequest], list[_Fit | FitError], _T] | None]
+              ) -> list[_T | FitError | InputError | None]:
+    """What each chain of steps returns (or the error that refused it; None for a missing
+    chain), the fits they ask for in turn solved together, one engine batch per round."""
+    outcomes: list[_T | FitError | InputError | None] = [None] * len(chains)
+    pending: dict[int, list[_FitRequest]] = {}
+
+    def advance(index: int, answer: list[_Fit | FitError] | None) -> None:
+        chain = chains[index]
+        assert chain is not None
+        try:
+            requests = next(chain) if answer is None else chain.send(answer)
+        except StopIteration as stop:
+            outcomes[index] = stop.value
+        except (FitError, InputError) as error:
+            outcomes[index] = error
+        else:
+            pending[index] = requests
+
+    for index, chain in enumerate(chains):
+        if chain is not None:
+            advance(index, None)
+    while pending:
+        asked = list(pending.items())
+        pending.clear()
+        solved = _solve_requests([request for _, requests in asked for request in requests])
+        offset = 0
+        for index, requests in asked:
+            advance(index, solved[offset:offset + len(requests)])
+            offset += len(requests)
+    return outcomes
 
 
 def _linear_extrapolation(run: Run, data: SeriesData, slope: float) -> LinearExtrapolation | None:
@@ -681,10 +826,67 @@ def reduce_run(run: Run, model: str = "hueckel",
     except ValueError as error:
         raise InputError(str(error), column="model") from None
     start = _start(run, family, fixed)
-    held = _fit_and_hold(start)
+    return _finish(start, _alone(_fit_and_hold(start)), remind_model_choice)
+
+
+def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
+                fixed: Mapping[str, Any] | None = None, *,
+                remind_model_choice: bool = True) -> list[Reduction | FitError | InputError]:
+    """Reduce many runs, each as :func:`reduce_run` reduces it alone, the fits of all of them
+    solved together: each round of fits (the first fit, the refit on refined weights, the fits
+    that test holding a parameter) is one call of the batched engine for every run that asks
+    for one (:func:`activolt.fit.engine.solve`), so that a run's result does not depend on
+    the others.
+
+    Parameters
+    ----------
+    runs : sequence of Run
+        The runs (e.g. the series of :func:`activolt.data.runs.read_runs`).
+    model, fixed, remind_model_choice
+        As for :func:`reduce_run`, the same for every run.
+
+    Returns
+    -------
+    list of Reduction, FitError or InputError
+        Per run, in order: its reduction, or the error that refuses it (the error
+        :func:`reduce_run` would raise).
+
+    Raises
+    ------
+    InputError
+        An unknown model.
+    """
+    try:
+        family = get_model(model)
+    except ValueError as error:
+        raise InputError(str(error), column="model") from None
+    starts: list[_Start | FitError | InputError] = []
+    for run in runs:
+        try:
+            starts.append(_start(run, family, fixed))
+        except (FitError, InputError) as error:
+            starts.append(error)
+    helds = _together([_fit_and_hold(start) if isinstance(start, _Start) else None
+                       for start in starts])
+    results: list[Reduction | FitError | InputError] = []
+    for start, held in zip(starts, helds, strict=True):
+        if not isinstance(start, _Start):
+            results.append(start)
+        elif not isinstance(held, _Held):
+            assert held is not None
+            results.append(held)
+        else:
+            try:
+                results.append(_finish(start, held, remind_model_choice))
+            except (FitError, InputError) as error:
+                results.append(error)
+    return results
+
+
+def _finish(start: _Start, held: _Held, remind_model_choice: bool) -> Reduction:
+    """Steps 3 to 5 after the held fit: judge, the covariance's components, the result."""
     judged = _judge(held, start.family)
-    spread = _covariance_components(judged, start)
-    return _assemble(start, judged, spread, remind_model_choice)
+    return _assemble(start, judged, _covariance_components(judged, start), remind_model_choice)
 
 
 @dataclass(frozen=True)
@@ -769,10 +971,12 @@ class _Held:
     notes: tuple[str, ...]
 
 
-def _fit_and_hold(start: _Start) -> _Held:
+def _fit_and_hold(start: _Start
+                  ) -> Generator[list[_FitRequest], list[_Fit | FitError], _Held]:
     """Step 2: fit, refine the readings once (vapour lowering, effective variance), and hold
     parameters until every free one is determined and at least one degree of freedom is left;
-    held parameters take their conventional values."""
+    held parameters take their conventional values. The fits are asked for (yielded), so that
+    a batch solves those of many series together (:func:`_together`)."""
     family, run = start.family, start.run
     electrolyte = run.metadata.electrolyte
     data, values, reasons, free = start.data, dict(start.values), dict(start.reasons), \
@@ -786,16 +990,17 @@ def _fit_and_hold(start: _Start) -> _Held:
             free.remove(name)
             reasons[name] = (f"too few readings to fit it ({n})" if n - 1 - len(free) < 0
                              else f"too few distinct molalities to fit it ({solutions})")
-        fit = _fit_once(family, electrolyte, data, values, free)
+        fit = yield from _fitted(family, electrolyte, data, values, free)
         if first_fit is None:
             refined = _with_effective_variance(
                 family, electrolyte, _with_vapour_lowering(run, family, data, fit), fit)
             if refined is not data:  # refit from the first optimum: a few steps away
                 data = refined
-                fit = _fit_once(family, electrolyte, data, fit.values, free)
+                fit = yield from _fitted(family, electrolyte, data, fit.values, free)
         first_fit = first_fit or fit
-        hold = _hard_failure(family, fit) or _not_supported(family, electrolyte, data, fit,
-                                                             values)
+        hold = _hard_failure(family, fit)
+        if hold is None:
+            hold = yield from _not_supported(family, electrolyte, data, fit, values)
         if hold is None:
             break
         name, why = hold

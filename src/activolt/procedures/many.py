@@ -1,10 +1,11 @@
 """Many series at once: every series reduced on its own, each with its result or its reason.
 
 A laboratory's table often holds many dilution series (one per cell, electrode pair, day or
-temperature). :func:`reduce_many` reduces each through
-:func:`activolt.procedures.dilution.reduce_run` — the same fit, the same holding of parameters,
-the same lack-of-fit rule and the same refusals as a single run — so that a series reduced in a
-batch gives exactly the E° it gives alone. A series that cannot be reduced (a
+temperature). :func:`reduce_many` reduces them through
+:func:`activolt.procedures.dilution.reduce_runs` — the same fit, the same holding of parameters,
+the same lack-of-fit rule and the same refusals as :func:`~activolt.procedures.dilution.reduce_run`
+on a single run, the fits of :data:`BATCH_SIZE` series at a time solved in one engine batch — so
+that a series reduced in a batch gives the E° it gives alone. A series that cannot be reduced (a
 :class:`~activolt.errors.FitError` or a bad-input :class:`~activolt.errors.InputError` of its
 own) keeps its reason and the others still land. :attr:`ManyReductions.summary` is one tidy row
 per series.
@@ -24,13 +25,16 @@ from ..activity import MODELS, get_model
 from ..data.runs import Run, runs_from_frame
 from ..errors import FitError, InputError
 from ..fit.problem import SLOPE
-from .dilution import OUT_OF_RANGE, Reduction, reduce_run
+from .dilution import OUT_OF_RANGE, Reduction, reduce_run, reduce_runs
 from .display import html_table, value_with_uncertainty
 from .model_choice import ModelComparison, compare_models
 
-__all__ = ["SUMMARY_COLUMNS", "ManyReductions", "SeriesReducer", "SeriesReduction",
+__all__ = ["BATCH_SIZE", "SUMMARY_COLUMNS", "ManyReductions", "SeriesReducer", "SeriesReduction",
            "reduce_many", "series_name", "series_reducer", "summary_frame", "summary_row"]
 
+#: How many series :func:`reduce_many` reduces together (one engine batch per round of fits);
+#: a series' result does not depend on it.
+BATCH_SIZE = 64
 #: Columns of :attr:`ManyReductions.summary`, in order (units in the names).
 SUMMARY_COLUMNS: tuple[str, ...] = (
     "file", "series", "n_points", "model", "standard_potential_V", "u_standard_potential_V",
@@ -286,9 +290,11 @@ def reduce_many(
 
     Notes
     -----
-    Each series goes through :func:`~activolt.procedures.dilution.reduce_run` unchanged,
-    E = E° − σ s k [ln m± + ln γ±(m; θ)] fitted per series through the batched engine
-    (:mod:`activolt.fit.engine`), so a series' E° does not depend on the other series. A
+    Each series goes through the steps of :func:`~activolt.procedures.dilution.reduce_run`
+    unchanged, E = E° − σ s k [ln m± + ln γ±(m; θ)] fitted per series, the fits of up to
+    :data:`BATCH_SIZE` series solved together by the batched engine
+    (:func:`~activolt.procedures.dilution.reduce_runs`), so a series' E° does not depend on the
+    other series. A
     :class:`~activolt.errors.FitError` or :class:`~activolt.errors.InputError` raised for one
     series (too few readings, one molality only, a systematic misfit, temperatures too spread)
     becomes that series' ``failure``.
@@ -319,11 +325,14 @@ def reduce_many(
     elif metadata is not None:
         raise ValueError("metadata= goes with a DataFrame; runs carry their own metadata")
     reducer = series_reducer(model, fixed)
-    outcomes = []
-    for run in runs:
-        outcomes.append(reducer(run))
+    outcomes: list[SeriesReduction] = []
+    runs = list(runs)
+    for first in range(0, len(runs), BATCH_SIZE):
+        chunk = reducer.batch(runs[first:first + BATCH_SIZE])
+        outcomes += chunk
         if progress is not None:
-            progress(1)
+            for _ in chunk:
+                progress(1)
     return ManyReductions(model=reducer.model, outcomes=tuple(outcomes))
 
 
@@ -357,6 +366,18 @@ class SeriesReducer:
         return _reduce_one(run, self.first, None if self.compared is None
                            else list(self.compared), dict(self.fixed),
                            {m: dict(f) for m, f in self.per_model.items()})
+
+    def batch(self, runs: Sequence[Run]) -> list[SeriesReduction]:
+        """Each run reduced as a call with it alone would reduce it; with one model, the fits
+        of all of them solved together (:func:`activolt.procedures.dilution.reduce_runs`)."""
+        if self.compared is not None:
+            return [self(run) for run in runs]
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            results = reduce_runs(runs, self.first, dict(self.fixed))
+        return [SeriesReduction(series_name(run), run, reduction=result)
+                if isinstance(result, Reduction) else
+                SeriesReduction(series_name(run), run, failure=_reason(result))
+                for run, result in zip(runs, results, strict=True)]
 
 
 def series_reducer(model: str | Sequence[str] = "hueckel",
