@@ -20,7 +20,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -817,13 +817,23 @@ _WATER_DENSITY_KG_M3 = 997.0
 _STANDARD_GRAVITY_M_S2 = 9.80665
 
 
-def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata,
-                  notes: Mapping[str, Any] | None = None) -> list[str]:
+class _Rows(NamedTuple):
+    """The usable rows of one series as arrays, for the checks."""
+
+    line: np.ndarray
+    molality: np.ndarray
+    emf: np.ndarray
+    temperature: np.ndarray
+    pressure: np.ndarray
+
+
+def _check_series(path: Path, arrays: Mapping[str, np.ndarray], usable: np.ndarray,
+                  metadata: RunMetadata, notes: Mapping[str, Any]) -> list[str]:
     """Checks of one series against physics once its temperatures are known: pressure columns
     of a gas cell, the gas partial pressure, the direction and size of the EMF's change with
     molality and its sign against the cell diagram. InputError on the first problem.
-    ``notes``: the reader's notes on the table (``points.attrs`` by default)."""
-    notes = points.attrs if notes is None else notes
+    ``arrays``: the series' columns (:attr:`Run.arrays`), ``usable`` its rows with a reading;
+    ``notes``: the reader's notes on the table."""
     emf_column = notes.get("emf_column", "emf_V")
     like = notes.get("pressure_like", ())
     if like and metadata.gas_coefficients:
@@ -832,13 +842,18 @@ def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata,
             f"{', '.join(PRESSURE_COLUMNS)}; the cell holds a gas whose pressure corrects every "
             "reading — name the column with its unit", file=str(path),
             line=notes.get("header_line"), column=like[0])
-    flagged = points["flag"].notna().to_numpy()
-    usable = points[~flagged] if flagged.any() else points
-    if usable.empty or usable["temperature_K"].isna().any():
+    every = bool(usable.all())
+
+    def rows(name: str) -> np.ndarray:
+        return arrays[name] if every else arrays[name][usable]
+
+    found = _Rows(rows("line").astype(int), rows("molality_mol_kg"), rows("emf_V"),
+                  rows("temperature_K"), rows("pressure_Pa"))
+    if not found.line.size or np.isnan(found.temperature).any():
         return []
-    _check_distinct_molalities(path, usable)
-    gas_term = _check_gas_pressure(path, usable, metadata, notes.get("pressure_column"))
-    _check_response(path, usable, metadata, emf_column, gas_term)
+    _check_distinct_molalities(path, found)
+    gas_term = _check_gas_pressure(path, found, metadata, notes.get("pressure_column"))
+    _check_response(path, found, metadata, emf_column, gas_term)
     return []
 
 
@@ -847,16 +862,16 @@ def _check_series(path: Path, points: pd.DataFrame, metadata: RunMetadata,
 _SAME_MOLALITY_RELATIVE = 1e-9
 
 
-def _check_distinct_molalities(path: Path, usable: pd.DataFrame) -> None:
+def _check_distinct_molalities(path: Path, usable: _Rows) -> None:
     """Molalities are equal (the same solution read again) or apart by more than 1e-9."""
-    unsorted = usable["molality_mol_kg"].to_numpy(float)
+    unsorted = usable.molality
     order = np.argsort(unsorted, kind="stable")
     molality = unsorted[order]
     gap = np.diff(molality)
     close = (gap > 0) & (gap <= _SAME_MOLALITY_RELATIVE * molality[1:])
     if close.any():
         i = int(np.flatnonzero(close)[0])
-        lines = usable["line"].to_numpy(int)[order]
+        lines = usable.line[order]
         first, second = sorted((int(lines[i]), int(lines[i + 1])))
         raise InputError(
             f"molality {molality[i + 1]!r} mol/kg differs from {molality[i]!r} (line {first}) by "
@@ -865,12 +880,12 @@ def _check_distinct_molalities(path: Path, usable: pd.DataFrame) -> None:
             file=str(path), line=second, column="molality_mol_kg")
 
 
-def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata,
+def _check_gas_pressure(path: Path, usable: _Rows, metadata: RunMetadata,
                         pressure_column: str | None = None) -> np.ndarray:
     """−(RT/nF) Σ ν_g ln(p_g/p°) per reading [V] (0 without pressures); an InputError where
     water vapour leaves (almost) no room for the gas (``pressure_column``: the table's name
     of the pressure column, for the message)."""
-    zero = np.zeros(len(usable))
+    zero = np.zeros(usable.line.size)
     if not metadata.gas_coefficients:
         return zero
     from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
@@ -878,24 +893,23 @@ def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata,
 
     fallback = math.nan if metadata.barometric_pressure_Pa is None else (
         metadata.barometric_pressure_Pa)
-    barometric = usable["pressure_Pa"].fillna(fallback).to_numpy(float)
-    temperature = usable["temperature_K"].to_numpy(float)
+    barometric = np.where(np.isnan(usable.pressure), fallback, usable.pressure)
+    temperature = usable.temperature
     vapour = water_vapour_pressure(temperature)
     gas = (barometric + _WATER_DENSITY_KG_M3 * _STANDARD_GRAVITY_M_S2 * metadata.bubbler_depth_m
            - vapour)
     low = np.isfinite(gas) & (gas < _LEAST_GAS_PRESSURE_PA)
     if low.any():
         i = int(np.flatnonzero(low)[0])
-        row = usable.iloc[i]
         names = " and ".join(g.removesuffix("(g)") for g in metadata.gas_coefficients)
-        in_row = bool(pd.notna(row["pressure_Pa"]))
+        in_row = not math.isnan(usable.pressure[i])
         raise InputError(
             f"at {temperature[i] - ZERO_CELSIUS_K:.2f} °C water vapour ({vapour[i] / 1e3:.1f} kPa)"
             f" leaves no room for {names} at the barometric pressure {barometric[i] / 1e3:.1f} kPa"
             f" (p_bar − p_w = {gas[i] / 1e3:.1f} kPa, less than "
             f"{_LEAST_GAS_PRESSURE_PA / 1e3:g} kPa): the gas electrode cannot work at this "
             "temperature and pressure — check the temperature and the pressure and its unit",
-            file=str(path), line=int(row["line"]),
+            file=str(path), line=int(usable.line[i]),
             column=pressure_column if in_row else None)
     with np.errstate(invalid="ignore", divide="ignore"):
         ln_ratio = np.log(gas / metadata.standard_pressure_Pa)
@@ -904,22 +918,20 @@ def _check_gas_pressure(path: Path, usable: pd.DataFrame, metadata: RunMetadata,
     return np.where(np.isfinite(term), term, 0.0)
 
 
-def _check_response(path: Path, usable: pd.DataFrame, metadata: RunMetadata, emf_column: str,
+def _check_response(path: Path, usable: _Rows, metadata: RunMetadata, emf_column: str,
                     gas_term: np.ndarray) -> None:
     """The EMF must change with ln m± the Nernst way (sign σ, size about s νRT/nF), and where
     the cell diagram gives a catalogue E°, readings must have the sign it predicts."""
     from ..chemistry.electrolytes import nernst_factor
 
     electrolyte = metadata.electrolyte
-    molality = usable["molality_mol_kg"].to_numpy(float)
-    emf = usable["emf_V"].to_numpy(float)
-    temperature = usable["temperature_K"].to_numpy(float)
+    molality, emf, temperature = usable.molality, usable.emf, usable.temperature
     sign = 1 if metadata.electrolyte_sign > 0 else -1
     slope = 1.0 if metadata.fit_slope_factor else metadata.slope_factor
     response = slope * np.asarray(nernst_factor(electrolyte, metadata.electrons, temperature),
                                   dtype=float)
     x = np.log(electrolyte.mean_molality(molality))
-    lines = usable["line"].to_numpy(int)
+    lines = usable.line
     where = f"lines {lines.min()}–{lines.max()}" if len(lines) > 1 else f"line {lines[0]}"
     verb = "forms" if sign > 0 else "consumes"
     no_cell = ("" if metadata.cell else "; without a cell diagram activolt takes the cell to "
@@ -950,7 +962,7 @@ def _check_response(path: Path, usable: pd.DataFrame, metadata: RunMetadata, emf
                 file=str(path), column=emf_column)
 
 
-def _check_polarity(path: Path, usable: pd.DataFrame, metadata: RunMetadata, emf_column: str,
+def _check_polarity(path: Path, usable: _Rows, metadata: RunMetadata, emf_column: str,
                     gas_term: np.ndarray, response: np.ndarray, x: np.ndarray) -> None:
     """Readings at I ≤ 0.1 mol/kg (and the most dilute) must have the sign that the catalogue
     E° and the Nernst term give, within a margin for what the estimate leaves out."""
@@ -958,10 +970,8 @@ def _check_polarity(path: Path, usable: pd.DataFrame, metadata: RunMetadata, emf
 
     assert metadata.cell is not None
     electrolyte = metadata.electrolyte
-    molality = usable["molality_mol_kg"].to_numpy(float)
-    emf = usable["emf_V"].to_numpy(float)
-    temperature = usable["temperature_K"].to_numpy(float)
-    lines = usable["line"].to_numpy(int)
+    molality, emf, temperature = usable.molality, usable.emf, usable.temperature
+    lines = usable.line
     sign = 1 if metadata.electrolyte_sign > 0 else -1
 
     dilute = int(np.argmin(molality))
@@ -1052,36 +1062,51 @@ def _with_metadata(points: pd.DataFrame, warnings: list[str], metadata: RunMetad
 
 def _series_run(path: Path, sha256: str, metadata_path: Path | None, points: pd.DataFrame,
                 metadata: RunMetadata, warnings: list[str],
-                notes: Mapping[str, Any] | None = None) -> Run:
+                notes: Mapping[str, Any] | None = None,
+                arrays: Mapping[str, np.ndarray] | None = None) -> Run:
     """One series' rows (already taken from the table) as a Run: temperatures filled in from
     the metadata, rows without a reading named in a warning. ``notes``: the reader's notes on
-    the table (``points.attrs`` by default)."""
+    the table (``points.attrs`` by default); ``arrays``: the rows' numeric columns
+    (:attr:`Run.arrays`), when the caller has them already."""
     notes = dict(points.attrs) if notes is None else notes
     points = points.reset_index(drop=True)
     # The reader's notes have been taken; pandas would deep-copy them into every column and
     # frame taken from the points.
     points.attrs.clear()
     warnings = list(warnings)
-    missing_temperature = points["temperature_K"].isna().to_numpy()
-    if missing_temperature.any():
-        if metadata.temperature_K is None:
-            line = int(points["line"].to_numpy()[missing_temperature][0])
-            raise InputError("no temperature for this row; add temperature_C to the metadata or "
-                             "a temperature_C column", file=str(path), line=line)
-        points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
-    warnings.extend(_check_series(path, points, metadata, notes))
+    if arrays is None or np.isnan(arrays["temperature_K"]).any():
+        missing_temperature = points["temperature_K"].isna().to_numpy()
+        if missing_temperature.any():
+            if metadata.temperature_K is None:
+                line = int(points["line"].to_numpy()[missing_temperature][0])
+                raise InputError("no temperature for this row; add temperature_C to the "
+                                 "metadata or a temperature_C column", file=str(path),
+                                 line=line)
+            points.loc[missing_temperature, "temperature_K"] = metadata.temperature_K
+        arrays = None
+    if arrays is None:
+        arrays = {name: points[name].to_numpy(float, copy=True) for name in NUMERIC_COLUMNS}
+    flag = points["flag"]
+    if flag.dtype != object:
+        points["flag"] = flag = flag.astype(object)
+    usable = flag.isna().to_numpy(bool)
+    warnings.extend(_check_series(path, arrays, usable, metadata, notes))
 
-    flagged = points["flag"].notna().to_numpy()
-    missing = points["line"].to_numpy()[flagged].tolist() if flagged.any() else []
+    missing = arrays["line"][~usable].astype(int).tolist()
     if missing:
         warnings.append(
             f"{len(missing)} row(s) have no reading (line(s) {', '.join(map(str, missing))}); "
             "they are kept in the record, flagged, and left out of the fit"
         )
-    if points["flag"].dtype != object:
-        points["flag"] = points["flag"].astype(object)
-    return Run(path=path, sha256=sha256, metadata_path=metadata_path, points=points,
-               metadata=metadata, warnings=tuple(warnings))
+    run = Run(path=path, sha256=sha256, metadata_path=metadata_path, points=points,
+              metadata=metadata, warnings=tuple(warnings))
+    for column in arrays.values():
+        column.flags.writeable = False
+    usable.flags.writeable = False
+    # what Run.arrays and Run.usable would take out of the points again
+    run.__dict__["arrays"] = MappingProxyType(dict(arrays))
+    run.__dict__["usable"] = usable
+    return run
 
 
 def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: pd.DataFrame,
@@ -1107,8 +1132,11 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     if not order.size:
         return ()
     starts = np.flatnonzero(np.diff(codes[order]))
+    # the numeric columns of the whole table, each series' rows taken from them
+    columns = {name: points[name].to_numpy(float) for name in NUMERIC_COLUMNS}
     return tuple(
-        _series_run(path, sha256, metadata_path, points.take(rows), metadata, warnings, notes)
+        _series_run(path, sha256, metadata_path, points.take(rows), metadata, warnings, notes,
+                    {name: column[rows] for name, column in columns.items()})
         for rows in np.split(order, starts + 1))
 
 
