@@ -230,6 +230,9 @@ class Reduction:
     part that parameters held at a conventional value with a stated uncertainty add to them.
     ``uncertain_covariance`` extends it to those held parameters themselves
     (``uncertain_names``), for quantities that depend on them directly (model γ±, φ, a_w).
+    ``point_columns`` holds the columns the reduction adds to the run's rows (fitted EMF,
+    residual, γ± and its budget, diagnostics), each over every row, NaN where a row was not
+    fitted; :attr:`points` is the run's table with them.
     ``data`` is the measurement problem as finally fitted (readings corrected to p°, weights
     with every refinement), which the Monte Carlo draws anew. ``shared_inputs`` holds, for
     each input that other runs may share (:data:`SHARED_INPUTS`), (name, u, ∂E°/∂input): a
@@ -244,7 +247,7 @@ class Reduction:
     free_names: tuple[str, ...]
     covariance: np.ndarray
     statistics: FitStatistics
-    points: pd.DataFrame
+    point_columns: Mapping[str, np.ndarray] = field(repr=False, compare=False)
     gamma_propagation: GammaPropagation = field(repr=False, compare=False)
     linear_extrapolation: LinearExtrapolation | None
     warnings: tuple[str, ...] = ()
@@ -257,6 +260,19 @@ class Reduction:
     budget: tuple[BudgetLine, ...] = ()
     data: SeriesData | None = field(default=None, repr=False, compare=False)
     shared_inputs: tuple[tuple[str, float, float], ...] = ()
+
+    @functools.cached_property
+    def points(self) -> pd.DataFrame:
+        """The points table: every row of the run (flagged ones included) with the columns the
+        reduction adds (:attr:`point_columns`), built when first asked for."""
+        return pd.concat([self.run.points, pd.DataFrame(dict(self.point_columns),
+                                                        index=self.run.points.index)], axis=1)
+
+    def point_column(self, name: str) -> np.ndarray:
+        """One column of :attr:`points` as an array over every row, without building the
+        table (read-only for the reduction's own columns)."""
+        found = self.point_columns.get(name)
+        return found if found is not None else self.run.points[name].to_numpy()
 
     @property
     def standard_potential_other_basis_V(self) -> tuple[float, float] | None:
@@ -343,7 +359,7 @@ class Reduction:
                          + (f" — {p.reason}" if p.fixed and p.reason else "")))
         rows += [
             (f"χ²/ν (ν = {stats.dof})", f"{stats.reduced_chi2:.3g}"),
-            ("readings used", f"{stats.n_points} of {len(self.points)}"),
+            ("readings used", f"{stats.n_points} of {len(self.run.points)}"),
             ("covariance", stats.covariance_note),
         ]
         return html_table(f"Reduction of {self.run.path.name}", ("quantity", "value"), rows,
@@ -358,7 +374,7 @@ class Reduction:
     def gamma_covariance(self) -> np.ndarray:
         """Covariance of γ± at the usable readings, N × N, built on request (the points table
         holds its diagonal as ``u_gamma_pm``)."""
-        gamma = self.points.loc[self.points["flag"].isna(), "gamma_pm"].to_numpy(float)
+        gamma = self.point_columns["gamma_pm"][self.run.usable]
         return gamma[:, None] * self.gamma_propagation.ln_gamma_covariance() * gamma[None, :]
 
 
@@ -1131,8 +1147,9 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
                                                  parts.uncertain_covariance, parts.common,
                                                  parts.truncation)
     diagnostics, diagnosed = _diagnose(run, data, fit)
-    table = pd.concat([run.points, pd.DataFrame({**columns, **diagnostics},
-                                                index=run.points.index)], axis=1)
+    point_columns = {**columns, **diagnostics}
+    for column in point_columns.values():
+        column.flags.writeable = False
     warnings += diagnosed
     reasons = judged.held.reasons
     parameters = tuple(
@@ -1151,7 +1168,7 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
         run=run, model=family, temperature_K=start.temperature_K,
         standard_potential=e0_value, parameters=parameters,
         free_names=(E0, *fit.free), covariance=fit.covariance, statistics=stats,
-        points=table, gamma_propagation=gamma_propagation,
+        point_columns=point_columns, gamma_propagation=gamma_propagation,
         linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
         warnings=tuple(warnings), notes=(*judged.held.notes, *parts.notes),
         corrections=corrections, other_basis=other_basis,
@@ -1546,17 +1563,20 @@ def with_model_choice(reduction: Reduction, u_model_V: float, rule: str) -> Redu
     e0 = correlated_values([reduction.standard_potential.nominal_value], covariance[:1, :1])[0]
     propagation = reduction.gamma_propagation
     step = propagation.parameter_gradient[:, 0] * u_model_V
-    points = reduction.points.copy()
-    used = points["flag"].isna().to_numpy()
-    gamma = points.loc[used, "gamma_pm"].to_numpy(float)
-    points.loc[used, "u_gamma_pm"] = np.sqrt(points.loc[used, "u_gamma_pm"].to_numpy(float)**2
-                                             + (gamma * step) ** 2)
-    points["u_gamma_pm_model_choice"] = np.nan
-    points.loc[used, "u_gamma_pm_model_choice"] = np.abs(gamma * step)
+    used = reduction.run.usable
+    columns = dict(reduction.point_columns)
+    gamma = columns["gamma_pm"][used]
+    u_gamma = columns["u_gamma_pm"].copy()
+    u_gamma[used] = np.sqrt(u_gamma[used] ** 2 + (gamma * step) ** 2)
+    choice = np.full(used.size, np.nan)
+    choice[used] = np.abs(gamma * step)
+    for column in (u_gamma, choice):
+        column.flags.writeable = False
+    columns["u_gamma_pm"], columns["u_gamma_pm_model_choice"] = u_gamma, choice
     budget = (*reduction.budget, BudgetLine("choice of model", u_model_V, rule))
     return dataclasses.replace(
         reduction, covariance=covariance, uncertain_covariance=uncertain, standard_potential=e0,
-        points=points, budget=budget,
+        point_columns=columns, budget=budget,
         gamma_propagation=dataclasses.replace(propagation,
                                               common=(*propagation.common, step)),
         warnings=tuple(w for w in reduction.warnings if w != MODEL_CHOICE_REMINDER))
