@@ -14,6 +14,8 @@ import itertools
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from synthetic import emf_from_gamma, write_run
 
 from activolt.activity.hueckel import ln_gamma
@@ -24,6 +26,7 @@ from activolt.fit.diagnostics import (
     leverage,
     log_run_probabilities,
     outlier_threshold,
+    point_diagnostics,
     runs_test,
     serial_correlation_test,
     serial_moments,
@@ -263,3 +266,24 @@ def test_leverage_of_a_fit_is_the_same_on_every_call_and_not_shared():
     h = np.diag(j @ np.linalg.inv(j.T @ (w[:, None] * j)) @ (j * w[:, None]).T)
     np.testing.assert_allclose(h, expected, rtol=1e-12)
     assert np.all(np.isfinite(t))
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(4, 25), p=st.integers(1, 3), scaled=st.booleans(),
+       seed=st.integers(0, 2**32 - 1), outlier=st.floats(0.0, 50.0))
+def test_point_diagnostics_equal_the_four_functions(n, p, scaled, seed, outlier):
+    """All four diagnostics at once are the numbers the four functions give one by one, for
+    any design, weights and residuals (with or without a gross error)."""
+    if scaled and n - p - 1 < 1:
+        return
+    rng = np.random.default_rng(seed)
+    j = rng.normal(size=(n, p))
+    w = rng.uniform(0.5, 2.0, n)
+    r = rng.normal(size=n)
+    r[rng.integers(n)] += outlier
+    found = point_diagnostics(j, w, r, scaled)
+    np.testing.assert_array_equal(found.leverage, leverage(j, w))
+    np.testing.assert_array_equal(found.studentized_residual,
+                                  studentized_residuals(j, w, r, scaled))
+    np.testing.assert_array_equal(found.cooks_distance, cooks_distance(j, w, r, scaled))
+    assert found.flags == flag_points(j, w, r, scaled)

@@ -38,8 +38,9 @@ import numpy as np
 import numpy.typing as npt
 
 __all__ = [
-    "COOKS_DISTANCE_THRESHOLD", "FAMILY_LEVEL", "INFLUENCE_LEVEL", "RunsTest", "cooks_distance",
-    "flag_points", "leverage", "log_run_probability", "outlier_threshold", "runs_test",
+    "COOKS_DISTANCE_THRESHOLD", "FAMILY_LEVEL", "INFLUENCE_LEVEL", "PointDiagnostics",
+    "RunsTest", "cooks_distance", "flag_points", "leverage", "log_run_probability",
+    "outlier_threshold", "point_diagnostics", "runs_test",
     "serial_correlation_test",
     "studentized_residuals",
 ]
@@ -328,9 +329,18 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
     >>> [i for i, f in enumerate(flags) if f]
     [3]
     """
+    _, a, e = _arrays(jacobian, weights, residuals)
+    return _flags(a, e, covariance_scaled, outlier_limit, cooks_limit, level, influence_level,
+                  max_flags)
+
+
+def _flags(a: np.ndarray, e: np.ndarray, covariance_scaled: bool, outlier_limit: float | None,
+           cooks_limit: float, level: float, influence_level: float, max_flags: int | None,
+           first: np.ndarray | None = None) -> list[str | None]:
+    """:func:`flag_points` on the weighted design and residuals (``first``: the studentized
+    residuals of every point, when known)."""
     from scipy.special import ndtri, stdtrit
 
-    _, a, e = _arrays(jacobian, weights, residuals)
     n, p = a.shape
     limit = (outlier_threshold(n, p, covariance_scaled, level) if outlier_limit is None
              else float(outlier_limit))
@@ -341,7 +351,8 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
     current = e.copy()
     while keep.sum() - p - extra >= 1 and (~keep).sum() < most:
         index = np.flatnonzero(keep)
-        t, _ = _studentized(a[keep], current[keep], covariance_scaled)
+        t = (first if first is not None and keep.all()
+             else _studentized(a[keep], current[keep], covariance_scaled)[0])
         worst = int(np.argmax(np.abs(t)))
         if not abs(t[worst]) > limit:
             break
@@ -352,7 +363,8 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
 
     if keep.sum() - p - extra >= 1:
         index = np.flatnonzero(keep)
-        t, h = _studentized(a[keep], current[keep], covariance_scaled)
+        t, h = (_studentized(a, e, covariance_scaled) if keep.all()
+                else _studentized(a[keep], current[keep], covariance_scaled))
         s2 = (float(np.sum(current[keep] ** 2)) / (keep.sum() - p) if covariance_scaled
               else 1.0)
         distance = current[keep] ** 2 * h / (p * s2 * (1.0 - h) ** 2)
@@ -363,6 +375,44 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
                 flags[int(point)] = (f"Cook's distance {distance[k]:.3g} beyond {cooks_limit:g} "
                                      f"with studentized residual {t[k]:.3g}")
     return flags
+
+
+@dataclass(frozen=True)
+class PointDiagnostics:
+    """Every point's leverage h_ii, studentized residual t_i, Cook's distance D_i and flag
+    (:func:`leverage`, :func:`studentized_residuals`, :func:`cooks_distance`,
+    :func:`flag_points`)."""
+
+    leverage: np.ndarray
+    studentized_residual: np.ndarray
+    cooks_distance: np.ndarray
+    flags: list[str | None]
+
+
+def point_diagnostics(jacobian: npt.ArrayLike, weights: npt.ArrayLike,
+                      residuals: npt.ArrayLike, covariance_scaled: bool) -> PointDiagnostics:
+    """:func:`leverage`, :func:`studentized_residuals`, :func:`cooks_distance` and
+    :func:`flag_points` (with its defaults) of one fit at once: the same numbers, the input
+    checked and the hat diagonal worked out once.
+
+    Parameters
+    ----------
+    jacobian, weights, residuals, covariance_scaled
+        As in :func:`studentized_residuals`.
+
+    Returns
+    -------
+    PointDiagnostics
+    """
+    _, a, e = _arrays(jacobian, weights, residuals)
+    n, p = a.shape
+    t, h = _studentized(a, e, covariance_scaled)
+    s2 = float(np.sum(e**2)) / (n - p) if covariance_scaled else 1.0
+    return PointDiagnostics(
+        leverage=_hat_diagonal(a), studentized_residual=t,
+        cooks_distance=e**2 * h / (p * s2 * (1.0 - h) ** 2),
+        flags=_flags(a, e, covariance_scaled, None, COOKS_DISTANCE_THRESHOLD, FAMILY_LEVEL,
+                     INFLUENCE_LEVEL, None, first=t))
 
 
 @dataclass(frozen=True)

@@ -1309,7 +1309,7 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit
               ) -> tuple[dict[str, np.ndarray], list[str]]:
     """Columns over every row of the run: leverage, studentized residuals and Cook's distance of
     the used readings, and a ``diagnostic`` reason where one stands out; warnings naming them."""
-    from ..fit.diagnostics import cooks_distance, flag_points, leverage, studentized_residuals
+    from ..fit.diagnostics import point_diagnostics
 
     used = run.usable
     scaled = not data.stated_uncertainty
@@ -1320,19 +1320,15 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit
                 "diagnostic": np.full(used.size, None, dtype=object)}, [
             "too few readings for leave-one-out diagnostics (they need N − P − 1 ≥ 1 when "
             "the scatter is estimated from the fit)"]
-    columns = {
-        "leverage": leverage(fit.jacobian, data.weights),
-        "studentized_residual": studentized_residuals(fit.jacobian, data.weights,
-                                                      fit.residual_V, scaled),
-        "cooks_distance": cooks_distance(fit.jacobian, data.weights, fit.residual_V, scaled),
-    }
+    found = point_diagnostics(fit.jacobian, data.weights, fit.residual_V, scaled)
+    columns = {"leverage": found.leverage, "studentized_residual": found.studentized_residual,
+               "cooks_distance": found.cooks_distance}
     full: dict[str, np.ndarray] = {}
     for name, values in columns.items():
         full[name] = np.full(used.size, np.nan)
         full[name][used] = values
     diagnostic = np.full(used.size, None, dtype=object)
-    diagnostic[used] = np.array(flag_points(fit.jacobian, data.weights, fit.residual_V, scaled),
-                                dtype=object)
+    diagnostic[used] = np.array(found.flags, dtype=object)
     full["diagnostic"] = diagnostic
     molality, lines = run.arrays["molality_mol_kg"], run.arrays["line"]
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
