@@ -384,7 +384,7 @@ def _with_vapour_lowering(run: Run, model: ActivityModel, data: SeriesData,
     """Readings corrected again with the water vapour over the solution lowered to a_w p_w,
     a_w = exp(−ν m M_w φ) from the fitted model (Robinson & Stokes 1959, ch. 2); unchanged when
     the metadata does not ask for it or no gas correction applies."""
-    if not run.metadata.solute_vapour_lowering or data.correction_V is None:
+    if not _lowers_vapour(run, data):
         return data
     from ..activity.properties import water_activity
 
@@ -397,12 +397,22 @@ def _with_vapour_lowering(run: Run, model: ActivityModel, data: SeriesData,
                                correction_V=correction, gas_pressure_Pa=partial)
 
 
+def _lowers_vapour(run: Run, data: SeriesData) -> bool:
+    """Whether the readings are corrected again for the vapour lowered by the solute."""
+    return run.metadata.solute_vapour_lowering and data.correction_V is not None
+
+
+def _weighs_molality(data: SeriesData) -> bool:
+    """Whether u(m) enters the weights (effective variance): stated u(E) and some u(m) > 0."""
+    return bool(data.stated_uncertainty and data.u_molality_mol_kg is not None
+                and np.any(data.u_molality_mol_kg > 0))
+
+
 def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                              fit: _Fit) -> SeriesData:
     """Weights 1/[u²(E) + (∂E/∂m)² u²(m)] (effective variance; Orear 1982, Am. J. Phys. 50,
     912), the slope taken from ``fit``; unchanged when no u(m) or no u(E) is stated."""
-    if not data.stated_uncertainty or data.u_molality_mol_kg is None or not np.any(
-            data.u_molality_mol_kg > 0):
+    if not _weighs_molality(data):
         return data
     step = 1e-6 * data.molality
     shifted = [dataclasses.replace(
@@ -574,12 +584,32 @@ def _hard_failure(model: ActivityModel, fit: _Fit) -> tuple[str, str] | None:
     return None
 
 
+def _bic_candidates(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
+                    values: dict[str, float], free: list[str]
+                    ) -> list[tuple[str, _FitRequest | None]]:
+    """The fits that test holding each free parameter without a stated conventional
+    uncertainty at its conventional value, the others starting at ``values`` (None for one
+    that cannot start there)."""
+    candidates: list[tuple[str, _FitRequest | None]] = []
+    for name in free:
+        spec = parameter_spec(model, name)
+        if spec.conventional_uncertainty is not None:
+            continue
+        try:
+            candidates.append((name, _fit_request(
+                model, electrolyte, data, {**values, name: spec.conventional(
+                    electrolyte, data.constants)}, [f for f in free if f != name])))
+        except FitError:
+            candidates.append((name, None))
+    return candidates
+
+
 def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
-                   fit: _Fit, values: dict[str, float]
+                   fit: _Fit, tested: Mapping[str, _Fit | FitError] | None = None
                    ) -> Generator[list[_FitRequest], list[_Fit | FitError],
                                   tuple[str, str] | None]:
     """The free parameter to hold next, and why, or None (a step: it yields the fits it needs,
-    all at once, and is sent their results).
+    all at once, and is sent their results; ``tested``: those fits already solved, by name).
 
     A parameter whose conventional value carries a stated uncertainty is held when the data
     determine it less precisely than the convention does (u_fit > u_conv) and agree with it
@@ -590,7 +620,6 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesD
     (backward elimination; Burnham & Anderson 2002, §3.4).
     """
     best_convention: tuple[float, str, str] | None = None
-    candidates: list[tuple[str, _FitRequest]] = []
     for index, name in enumerate(fit.free, start=1):
         spec = parameter_spec(model, name)
         conventional = spec.conventional(electrolyte, data.constants)
@@ -607,16 +636,14 @@ def _not_supported(model: ActivityModel, electrolyte: Electrolyte, data: SeriesD
                 best_convention = (u_fit / u_conv, name, (
                     f"the convention {conventional:.4g} ± {u_conv:.2g} {spec.unit} is more "
                     f"precise than these data ({fit.values[name]:.3g} ± {u_fit:.2g})"))
-            continue
-        try:
-            candidates.append((name, _fit_request(model, electrolyte, data,
-                                                  {**fit.values, name: conventional},
-                                                  [f for f in fit.free if f != name])))
-        except FitError:
-            continue
-    held_fits = (yield [request for _, request in candidates]) if candidates else []
+    if tested is None:
+        candidates = [(name, request) for name, request in
+                      _bic_candidates(model, electrolyte, data, fit.values, fit.free)
+                      if request is not None]
+        held_fits = (yield [request for _, request in candidates]) if candidates else []
+        tested = {name: held for (name, _), held in zip(candidates, held_fits, strict=True)}
     best_bic: tuple[float, bool, str] | None = None
-    for (name, _), held in zip(candidates, held_fits, strict=True):
+    for name, held in tested.items():
         if isinstance(held, FitError):
             continue
         linear = parameter_spec(model, name).linear
@@ -1006,7 +1033,22 @@ def _fit_and_hold(start: _Start
             free.remove(name)
             reasons[name] = (f"too few readings to fit it ({n})" if n - 1 - len(free) < 0
                              else f"too few distinct molalities to fit it ({solutions})")
-        fit = yield from _fitted(family, electrolyte, data, values, free)
+        tested: dict[str, _Fit | FitError] | None = None
+        ahead = ([] if first_fit is not None or _lowers_vapour(run, data)
+                 or _weighs_molality(data) else
+                 _bic_candidates(family, electrolyte, data, values, free))
+        if ahead and all(request is not None for _, request in ahead):
+            # The first fit and the fits that test holding a parameter, solved together: the
+            # readings will not be refined, so the tests are the ones the fit would ask for
+            # next, started at the starting values rather than at the fit's optimum.
+            first, *others = yield [_fit_request(family, electrolyte, data, values, free),
+                                    *(request for _, request in ahead if request is not None)]
+            if isinstance(first, FitError):
+                raise first
+            fit, tested = first, {name: held for (name, _), held in
+                                  zip(ahead, others, strict=True)}
+        else:
+            fit = yield from _fitted(family, electrolyte, data, values, free)
         if first_fit is None:
             refined = _with_effective_variance(
                 family, electrolyte, _with_vapour_lowering(run, family, data, fit), fit)
@@ -1016,7 +1058,7 @@ def _fit_and_hold(start: _Start
         first_fit = first_fit or fit
         hold = _hard_failure(family, fit)
         if hold is None:
-            hold = yield from _not_supported(family, electrolyte, data, fit, values)
+            hold = yield from _not_supported(family, electrolyte, data, fit, tested)
         if hold is None:
             break
         name, why = hold
