@@ -589,18 +589,24 @@ def _shuffled_indices(permutations: int, size: int) -> np.ndarray:
         np.broadcast_to(np.arange(size), (permutations, size)), axis=1)
 
 
-@lru_cache(maxsize=16)
-def _kept_indices(permutations: int, size: int) -> np.ndarray:
-    indices = _shuffled_indices(permutations, size)
-    indices.flags.writeable = False
-    return indices
-
-
-def _orderings(permutations: int, size: int) -> np.ndarray:
-    """:func:`_shuffled_indices`, drawn once for the usual sizes."""
+def _adjacent_pairs(permutations: int, size: int) -> np.ndarray:
+    """For each ordering of :func:`_shuffled_indices`, its adjacent positions (i, i − 1) as
+    flat indices ``size * o[i] + o[i − 1]`` into the size × size table of products, shape
+    (permutations, size − 1); kept for the usual sizes."""
     if permutations * size <= _KEPT_ORDERINGS:
-        return _kept_indices(permutations, size)
-    return _shuffled_indices(permutations, size)
+        return _kept_pairs(permutations, size)
+    return _pairs_of(_shuffled_indices(permutations, size))
+
+
+def _pairs_of(orderings: np.ndarray) -> np.ndarray:
+    return orderings[:, 1:] * orderings.shape[1] + orderings[:, :-1]
+
+
+@lru_cache(maxsize=16)
+def _kept_pairs(permutations: int, size: int) -> np.ndarray:
+    pairs = _pairs_of(_shuffled_indices(permutations, size))
+    pairs.flags.writeable = False
+    return pairs
 
 
 def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
@@ -670,8 +676,10 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
             return rho, math.nan
         z = (rho * denominator - mean) / math.sqrt(variance)
         return rho, float(ndtr(-z))
-    shuffled = x[_orderings(permutations, x.size)]
-    rho_random = np.sum(shuffled[:, 1:] * shuffled[:, :-1], axis=1) / denominator
+    # x_a x_b of every adjacent pair (a, b) of every ordering, taken from the products of
+    # all pairs: the same numbers as multiplying the shuffled values, in one gather
+    products = np.multiply.outer(x, x).ravel()
+    rho_random = np.sum(products[_adjacent_pairs(permutations, x.size)], axis=1) / denominator
     return rho, float((np.sum(rho_random >= rho - 1e-15) + 1) / (permutations + 1))
 
 
