@@ -8,6 +8,7 @@ propagated to each quantity by numerical gradients (GUM, JCGM 100:2008, 5.2).
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -18,26 +19,100 @@ from ..activity.base import ActivityModel
 from ..activity.properties import MOLAR_MASS_WATER_KG_MOL, excess_gibbs_energy_rt, water_activity
 from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
-from ..fit.uncertainty import sensitivity_coefficients
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
-from .published import compare_with_published
+from .published import compare_with_published, table_of
 
-__all__ = ["DerivedResults", "derive_results", "derived_properties"]
+__all__ = ["DerivedResults", "derive_results", "derived_properties", "model_sensitivities"]
+
+#: The columns of :func:`derived_properties`, in order.
+_PROPERTY_COLUMNS = pd.Index([
+    "line", "molality_mol_kg", "temperature_K", "ln_gamma_pm_model", "u_ln_gamma_pm_model",
+    "osmotic_coefficient", "u_osmotic_coefficient", "water_activity", "u_water_activity",
+    "excess_gibbs_rt_mol_kg", "u_excess_gibbs_rt_mol_kg", "excess_gibbs_J_kg",
+    "u_excess_gibbs_J_kg"])
 
 
-def _gradients(model: ActivityModel, electrolyte: Electrolyte, molality: np.ndarray,
-               constants: DebyeHueckelConstants, values: Mapping[str, float],
-               free: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray]:
-    """∂φ/∂θ and ∂ln γ±/∂θ over the free parameters, by central differences, shape (N, P)."""
-    def phi(v: Mapping[str, float]) -> np.ndarray:
-        return model.osmotic_coefficient(electrolyte, molality, constants, v)
+@functools.lru_cache(maxsize=64)
+def _constants_at(temperature: bytes) -> DebyeHueckelConstants:
+    """The Debye–Hückel constants at the temperatures packed in ``temperature`` (float64
+    bytes), read only: worked out once for the runs of a batch, which share their temperatures."""
+    constants = debye_hueckel_constants(np.frombuffer(temperature, dtype=float))
+    for array in (constants.temperature, constants.aphi, constants.b):
+        array.flags.writeable = False
+    return constants
 
-    def ln_gamma(v: Mapping[str, float]) -> np.ndarray:
-        return model.ln_gamma(electrolyte, molality, constants, v)
 
-    return (sensitivity_coefficients(phi, values, free),
-            sensitivity_coefficients(ln_gamma, values, free))
+def model_sensitivities(model: ActivityModel, electrolyte: Electrolyte, molality: np.ndarray,
+                        constants: DebyeHueckelConstants, values: Mapping[str, float],
+                        free: tuple[str, ...]
+                        ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    r"""φ and ln γ± of a model and their derivatives by the parameters ``free``.
+
+    The derivatives are the central differences of
+    :func:`activolt.fit.uncertainty.sensitivity_coefficients` (steps
+    h_k = 10⁻⁶ max(1, |θ_k|)), the same numbers; the model is evaluated once for each of φ and
+    ln γ±, on the readings repeated for the point and each shifted parameter (every model is
+    elementwise in the readings and the parameters, as the fit engine also uses).
+
+    Parameters
+    ----------
+    model : ActivityModel
+        The activity-coefficient model.
+    electrolyte : Electrolyte
+        The electrolyte.
+    molality : numpy.ndarray
+        Molalities, shape (N,) [mol kg⁻¹].
+    constants : DebyeHueckelConstants
+        Debye–Hückel constants at each molality, arrays of shape (N,).
+    values : mapping of str to float
+        Every parameter of the model [parameter units].
+    free : tuple of str
+        The parameters to differentiate by, each in ``values``.
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(phi, ln_gamma, d_phi, d_ln_gamma)``: φ and ln γ± [-], shape (N,), at ``values``;
+        ∂φ/∂θ and ∂ln γ±/∂θ, shape (N, len(free)) [per parameter unit].
+
+    Examples
+    --------
+    >>> from activolt.activity import get_model
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> from activolt.fit.uncertainty import sensitivity_coefficients
+    >>> hueckel, hcl = get_model("hueckel"), parse_electrolyte("HCl")
+    >>> m = np.array([0.01, 0.1, 1.0])
+    >>> c = debye_hueckel_constants(np.full(3, 298.15))
+    >>> v = {"a_angstrom": 4.3, "b_kg_mol": 0.27}
+    >>> phi, ln_g, d_phi, d_ln = model_sensitivities(hueckel, hcl, m, c, v, ("a_angstrom",))
+    >>> one_by_one = sensitivity_coefficients(
+    ...     lambda p: hueckel.ln_gamma(hcl, m, c, p), v, ["a_angstrom"])
+    >>> d_ln.shape, bool((d_ln == one_by_one).all())
+    ((3, 1), True)
+    """
+    steps = [1e-6 * max(1.0, abs(values[name])) for name in free]
+    rows = 1 + 2 * len(free)
+    columns = {name: np.full((rows, 1), values[name], dtype=float) for name in values}
+    for k, (name, step) in enumerate(zip(free, steps, strict=True)):
+        columns[name][1 + 2 * k, 0] = values[name] + step
+        columns[name][2 + 2 * k, 0] = values[name] - step
+    shape = (rows, molality.size)
+    tiled_m = np.tile(molality, (rows, 1))
+    tiled_c = DebyeHueckelConstants(np.tile(constants.temperature, (rows, 1)),
+                                    np.tile(constants.aphi, (rows, 1)),
+                                    np.tile(constants.b, (rows, 1)))
+    out_phi = np.broadcast_to(np.asarray(
+        model.osmotic_coefficient(electrolyte, tiled_m, tiled_c, columns), dtype=float), shape)
+    out_ln = np.broadcast_to(np.asarray(
+        model.ln_gamma(electrolyte, tiled_m, tiled_c, columns), dtype=float), shape)
+    if not free:
+        empty = np.zeros((molality.size, 0))
+        return out_phi[0].copy(), out_ln[0].copy(), empty, empty.copy()
+    twice = 2.0 * np.array(steps)[:, None]
+    d_phi = np.ascontiguousarray(((out_phi[1::2] - out_phi[2::2]) / twice).T)
+    d_ln = np.ascontiguousarray(((out_ln[1::2] - out_ln[2::2]) / twice).T)
+    return out_phi[0].copy(), out_ln[0].copy(), d_phi, d_ln
 
 
 def derived_properties(reduction: Reduction) -> pd.DataFrame:
@@ -96,7 +171,7 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     model = reduction.model
     molality = run.arrays["molality_mol_kg"][usable]
     temperature = run.arrays["temperature_K"][usable]
-    constants = debye_hueckel_constants(temperature)
+    constants = _constants_at(np.ascontiguousarray(temperature, dtype=float).tobytes())
     values = reduction.model_parameter_values
     names = reduction.uncertain_names or reduction.free_names
     matrix = (reduction.covariance if reduction.uncertain_covariance is None
@@ -104,12 +179,11 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     keep = [i for i, name in enumerate(names) if name in values]
     free = tuple(names[i] for i in keep)
 
-    phi = np.asarray(model.osmotic_coefficient(electrolyte, molality, constants, values), float)
-    ln_g = np.asarray(model.ln_gamma(electrolyte, molality, constants, values), float)
+    phi, ln_g, d_phi, d_ln = model_sensitivities(model, electrolyte, molality, constants,
+                                                 values, free)
     a_w = water_activity(electrolyte, molality, phi)
     g_rt = excess_gibbs_energy_rt(electrolyte, molality, phi, ln_g)
 
-    d_phi, d_ln = _gradients(model, electrolyte, molality, constants, values, free)
     cov = np.asarray(matrix, dtype=float)[np.ix_(keep, keep)]
     factor = electrolyte.nu * molality
 
@@ -125,21 +199,9 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     u_g_rt = u(factor[:, None] * (d_ln - d_phi))
     rt = GAS_CONSTANT_J_MOL_K * temperature
 
-    frame = pd.DataFrame({
-        "line": lines,
-        "molality_mol_kg": molality,
-        "temperature_K": temperature,
-        "ln_gamma_pm_model": ln_g,
-        "u_ln_gamma_pm_model": u_ln_g,
-        "osmotic_coefficient": phi,
-        "u_osmotic_coefficient": u_phi,
-        "water_activity": a_w,
-        "u_water_activity": u_aw,
-        "excess_gibbs_rt_mol_kg": g_rt,
-        "u_excess_gibbs_rt_mol_kg": u_g_rt,
-        "excess_gibbs_J_kg": g_rt * rt,
-        "u_excess_gibbs_J_kg": u_g_rt * rt,
-    })
+    frame = table_of(_PROPERTY_COLUMNS, [
+        lines, molality, temperature, ln_g, u_ln_g, phi, u_phi, a_w, u_aw, g_rt, u_g_rt,
+        g_rt * rt, u_g_rt * rt])
     held = [p.symbol for p in reduction.parameters if p.fixed]
     notes = [f"from the {model.title} with the fitted parameters; uncertainties (k = 1) from the "
              "covariance of the free parameters"

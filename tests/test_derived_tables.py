@@ -1,0 +1,162 @@
+"""The derived properties and the published comparison, worked out the quick way, are the same
+numbers as worked out one step at a time.
+
+- :func:`activolt.procedures.properties.model_sensitivities` evaluates each model once on the
+  readings repeated for every shifted parameter; its values and central differences must equal,
+  bit for bit, one evaluation per step (:func:`activolt.fit.uncertainty.sensitivity_coefficients`).
+- :func:`activolt.procedures.published.table_of` must give the table ``pandas.DataFrame`` gives.
+- The published comparison is kept per (electrolyte, temperature, molalities); each run's table
+  must still be its own.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from activolt.activity import MODELS
+from activolt.activity.properties import excess_gibbs_energy_rt, water_activity
+from activolt.chemistry.electrolytes import parse_electrolyte
+from activolt.constants import GAS_CONSTANT_J_MOL_K
+from activolt.data.runs import read_run
+from activolt.fit.uncertainty import sensitivity_coefficients
+from activolt.physics.water import debye_hueckel_constants
+from activolt.procedures.dilution import reduce_run
+from activolt.procedures.properties import derived_properties, model_sensitivities
+from activolt.procedures.published import TableLayout, compare_with_published, table_of
+
+SAMPLE = (Path(__file__).resolve().parents[1] / "src" / "activolt" / "sample_data"
+          / "kestrel_hcl_25C.csv")
+ELECTROLYTES = ("HCl", "NaCl", "CaCl2", "LaCl3", "MgSO4")
+
+
+def _one_by_one(model, electrolyte, m, constants, values, free):
+    phi = np.asarray(model.osmotic_coefficient(electrolyte, m, constants, values), float)
+    ln_g = np.asarray(model.ln_gamma(electrolyte, m, constants, values), float)
+    d_phi = sensitivity_coefficients(
+        lambda v: model.osmotic_coefficient(electrolyte, m, constants, v), values, free)
+    d_ln = sensitivity_coefficients(
+        lambda v: model.ln_gamma(electrolyte, m, constants, v), values, free)
+    return phi, ln_g, d_phi, d_ln
+
+
+@settings(max_examples=60, deadline=None)
+@given(model=st.sampled_from(sorted(MODELS)), formula=st.sampled_from(ELECTROLYTES),
+       molality=st.lists(st.floats(1e-4, 3.0), min_size=1, max_size=12),
+       temperature=st.floats(273.15, 343.15), data=st.data())
+def test_model_sensitivities_are_the_one_by_one_numbers(model, formula, molality, temperature,
+                                                       data):
+    activity = MODELS[model]
+    electrolyte = parse_electrolyte(formula)
+    m = np.array(molality)
+    # temperatures differing between readings, as in a run with a temperature column
+    constants = debye_hueckel_constants(temperature + np.linspace(0.0, 2.0, m.size))
+    values = {p.name: data.draw(st.floats(2.0, 9.0) if p.name == "a_angstrom"
+                                else st.floats(-0.5, 0.5), label=p.name)
+              for p in activity.parameters}
+    free = tuple(data.draw(st.lists(st.sampled_from(sorted(values)), unique=True), label="free")
+                 if values else ())
+    try:
+        expected = _one_by_one(activity, electrolyte, m, constants, values, free)
+    except ValueError:  # a charge type the model has no constants for (Pitzer α of 3:1)
+        with pytest.raises(ValueError):
+            model_sensitivities(activity, electrolyte, m, constants, values, free)
+        return
+    got = model_sensitivities(activity, electrolyte, m, constants, values, free)
+    for g, e in zip(got, expected, strict=True):
+        assert g.shape == e.shape
+        assert np.array_equal(g, e, equal_nan=True)
+
+
+def test_derived_properties_are_those_worked_out_step_by_step():
+    reduction = reduce_run(read_run(SAMPLE), "pitzer")
+    props = derived_properties(reduction)
+    run = reduction.run
+    usable = run.usable
+    m = run.arrays["molality_mol_kg"][usable]
+    temperature = run.arrays["temperature_K"][usable]
+    constants = debye_hueckel_constants(temperature)
+    values = reduction.model_parameter_values
+    names = reduction.uncertain_names or reduction.free_names
+    matrix = (reduction.covariance if reduction.uncertain_covariance is None
+              else reduction.uncertain_covariance)
+    keep = [i for i, name in enumerate(names) if name in values]
+    free = tuple(names[i] for i in keep)
+    assert free  # the sample's Pitzer fit has free parameters: the uncertainties are not 0
+    phi, ln_g, d_phi, d_ln = _one_by_one(reduction.model, reduction.electrolyte, m, constants,
+                                         values, free)
+    cov = np.asarray(matrix, dtype=float)[np.ix_(keep, keep)]
+
+    def u(gradient):
+        return np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", gradient, cov, gradient), 0.0))
+
+    factor = reduction.electrolyte.nu * m
+    a_w = water_activity(reduction.electrolyte, m, phi)
+    g_rt = excess_gibbs_energy_rt(reduction.electrolyte, m, phi, ln_g)
+    u_g_rt = u(factor[:, None] * (d_ln - d_phi))
+    rt = GAS_CONSTANT_J_MOL_K * temperature
+    expected = pd.DataFrame({
+        "line": run.points["line"].to_numpy()[usable],
+        "molality_mol_kg": m, "temperature_K": temperature,
+        "ln_gamma_pm_model": ln_g, "u_ln_gamma_pm_model": u(d_ln),
+        "osmotic_coefficient": phi, "u_osmotic_coefficient": u(d_phi),
+        "water_activity": a_w,
+        "u_water_activity": a_w * factor * 0.01801528 * u(d_phi),
+        "excess_gibbs_rt_mol_kg": g_rt, "u_excess_gibbs_rt_mol_kg": u_g_rt,
+        "excess_gibbs_J_kg": g_rt * rt, "u_excess_gibbs_J_kg": u_g_rt * rt,
+    })
+    pd.testing.assert_frame_equal(props, expected, check_exact=True)
+
+
+def test_table_of_gives_the_table_pandas_builds():
+    n = 4
+    reference = pd.DataFrame({
+        "line": np.arange(n) + 5,
+        "m": np.linspace(0.1, 0.4, n),
+        "printed": np.array([True, False, True, False]),
+        "values": [(("a", 0.1, True),), (), (("a", 0.2, False), ("b", 0.3, True)), ()],
+        "source": "a; b",
+    })
+    layout = TableLayout.of(reference, ("values", "source"))
+    built = table_of(layout.names, [np.arange(n) + 5, np.linspace(0.1, 0.4, n),
+                                    np.array([True, False, True, False]),
+                                    *layout.copies(("values", "source"))])
+    pd.testing.assert_frame_equal(built, reference, check_exact=True)
+    assert list(built["values"]) == list(reference["values"])
+
+
+def test_layout_gives_each_table_its_own_columns():
+    reference = pd.DataFrame({"n": np.array([1, 2]), "source": "a"})
+    layout = TableLayout.of(reference, ("n", "source"))
+    first, second = layout.copies(("n",))[0], layout.copies(("n",))[0]
+    first[0] = 7
+    assert second[0] == 1 and layout.fixed["n"][0] == 1
+    with pytest.raises(ValueError):
+        layout.fixed["n"][0] = 7
+
+
+def _stub(gamma):
+    from types import SimpleNamespace
+
+    points = pd.DataFrame({"molality_mol_kg": [0.01, 0.05, 0.1, 0.2],
+                           "gamma_pm": gamma, "u_gamma_pm": [0.001, 0.001, 0.001, 0.001]})
+    return SimpleNamespace(electrolyte=parse_electrolyte("HCl"), temperature_K=298.15,
+                           points=points)
+
+
+def test_runs_sharing_molalities_each_get_their_own_comparison():
+    first = compare_with_published(_stub([0.905, 0.830, np.nan, 0.768]))
+    assert first["molality_mol_kg"].tolist() == [0.01, 0.05, 0.2]  # the NaN row is left out
+    first.loc[0, "gamma_pm_published"] = -1.0
+    first.loc[0, "source"] = "changed"
+    first.loc[0, "n_sources"] = 99
+    second = compare_with_published(_stub([0.904, 0.831, np.nan, 0.767]))
+    assert second.loc[0, "gamma_pm_published"] == pytest.approx(0.9045, abs=5e-4)
+    assert second.loc[0, "source"] != "changed" and second.loc[0, "n_sources"] != 99
+    assert second["difference"].tolist() == pytest.approx(
+        (second["gamma_pm"] - second["gamma_pm_published"]).tolist(), abs=0)
