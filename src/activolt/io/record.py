@@ -9,6 +9,7 @@ from __future__ import annotations
 import functools
 import hashlib
 import json
+import math
 import os
 import platform
 from collections.abc import Mapping
@@ -40,7 +41,7 @@ from ..procedures.ph import PhResult
 from ..procedures.properties import DerivedResults, derive_results
 from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
-from ..report.numbers import frame_records, json_number
+from ..report.numbers import frame_columns, json_number, json_numbers
 from ..safe_text import neutralise_formula
 
 RECORD_SCHEMA = "activolt-record/1"
@@ -96,10 +97,41 @@ def _with_u(value: Any, method: str) -> dict[str, Any]:
             "method": method}
 
 
+def _not_json(value: Any) -> Any:
+    """What ``json.JSONEncoder.default`` does: refuse a value JSON cannot hold."""
+    raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
+
+
+def _one_line_encoder() -> Any:
+    """``json.dumps(value, ensure_ascii=False, allow_nan=False)`` (one line, ``", "`` and
+    ``": "`` between members): the standard library's C encoder made once, else the encoder
+    itself."""
+    from json.encoder import c_make_encoder, encode_basestring
+
+    if c_make_encoder is None:
+        return json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
+    encoder = c_make_encoder(None, _not_json, encode_basestring, None, ": ", ", ", False, False,
+                             False)
+
+    def one_line(value: Any) -> str:
+        return "".join(encoder(value, 0))
+
+    return one_line
+
+
+_ONE_LINE = _one_line_encoder()
+_CONTAINERS = (dict, list, tuple)
+
+
 def json_text(document: Any) -> str:
-    r"""A record as its file's text: ``json.dumps(document, ensure_ascii=False, indent=2,
-    allow_nan=False)`` and a final newline — one format for every record kind, whose bytes
-    the archive and the HTML report name by their SHA-256.
+    r"""A record as its file's text — one format for every record kind, whose bytes the archive
+    and the HTML report name by their SHA-256.
+
+    The text is JSON (UTF-8 characters as they are, ``ensure_ascii=False``) laid out for
+    reading: an object or an array holding no object or array is written on one line, and so
+    is every object inside an array (a row of a table: a reading, a model, an electrode);
+    every other object or array is indented by two spaces, one member a line. A final newline
+    ends the text. ``json.loads`` of it gives what ``json.dumps(document)`` would.
 
     Raises
     ------
@@ -110,10 +142,53 @@ def json_text(document: Any) -> str:
 
     Examples
     --------
-    >>> json_text({"a": [1, 2.5, None], "b": {}, "c": "γ±"})
-    '{\n  "a": [\n    1,\n    2.5,\n    null\n  ],\n  "b": {},\n  "c": "γ±"\n}\n'
+    >>> print(json_text({"a": [1, 2.5, None], "b": {}, "c": "γ±",
+    ...                  "rows": [{"m": 0.1, "u": {"x": 1}}, {"m": 0.2, "u": {}}],
+    ...                  "d": {"e": [[1, 0], [0, 1]]}}), end="")
+    {
+      "a": [1, 2.5, null],
+      "b": {},
+      "c": "γ±",
+      "rows": [
+        {"m": 0.1, "u": {"x": 1}},
+        {"m": 0.2, "u": {}}
+      ],
+      "d": {
+        "e": [
+          [1, 0],
+          [0, 1]
+        ]
+      }
+    }
     """
-    return json.dumps(document, ensure_ascii=False, indent=2, allow_nan=False) + "\n"
+    return _laid_out(document, "\n") + "\n"
+
+
+def _laid_out(value: Any, newline: str) -> str:
+    """``value`` as :func:`json_text` lays it out, ``newline`` being the line break and the
+    indentation of the line it starts on."""
+    if isinstance(value, dict):
+        if not any(isinstance(v, _CONTAINERS) for v in value.values()):
+            return _ONE_LINE(value)
+        inner = newline + "  "
+        return ("{" + ",".join(inner + _key(k) + ": " + _laid_out(v, inner)
+                               for k, v in value.items())
+                + newline + "}")
+    if isinstance(value, (list, tuple)):
+        if not any(isinstance(v, _CONTAINERS) for v in value):
+            return _ONE_LINE(value)
+        inner = newline + "  "
+        return ("[" + ",".join(inner + (_ONE_LINE(v) if isinstance(v, dict)
+                                        else _laid_out(v, inner)) for v in value)
+                + newline + "]")
+    return _ONE_LINE(value)
+
+
+def _key(key: Any) -> str:
+    """An object's key as JSON writes it (a number, true, false or null as a string)."""
+    if type(key) is str:
+        return _ONE_LINE(key)
+    return _ONE_LINE({key: 0})[1:-4]  # the key of {key: 0} as the encoder converts it
 
 
 def record_schema() -> dict[str, Any]:
@@ -122,41 +197,94 @@ def record_schema() -> dict[str, Any]:
     return json.loads(text)
 
 
+#: The keys of each entry of a record's ``points``, in order.
+_POINT_KEYS = ("line", "molality_mol_kg", "u_molality_mol_kg", "emf_V", "u_emf_V",
+               "temperature_K", "pressure_correction_V", "gas_partial_pressure_Pa", "electrode",
+               "fitted_emf_V", "residual_V", "gamma_pm", "u_gamma_pm", "gamma_pm_model",
+               "u_gamma_pm_model", "flag", "used_in_fit", "U95_gamma_pm", "u_gamma_pm_budget",
+               "leverage", "studentized_residual", "cooks_distance", "note")
+
+
 def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
-    """Every reading of ``reduction`` as the record's ``points`` entries."""
-    stats = reduction.statistics
-    points = []
-    for row in frame_records(reduction.points):
-        points.append({
-            "line": int(row["line"]),
-            "molality_mol_kg": float(row["molality_mol_kg"]),
-            "u_molality_mol_kg": json_number(row["u_molality_mol_kg"]),
-            "emf_V": json_number(row["emf_V"]),
-            "u_emf_V": json_number(row["u_emf_V"]),
-            "temperature_K": float(row["temperature_K"]),
-            "pressure_correction_V": json_number(row["pressure_correction_V"]),
-            "gas_partial_pressure_Pa": json_number(row["gas_pressure_Pa"]),
-            "electrode": row["electrode"] or None,
-            "fitted_emf_V": json_number(row["fitted_emf_V"]),
-            "residual_V": json_number(row["residual_V"]),
-            "gamma_pm": json_number(row["gamma_pm"]),
-            "u_gamma_pm": json_number(row["u_gamma_pm"]),
-            "gamma_pm_model": json_number(row["gamma_pm_model"]),
-            "u_gamma_pm_model": json_number(row["u_gamma_pm_model"]),
-            "flag": (row["flag"] if isinstance(row["flag"], str)
-                     else row["diagnostic"] if isinstance(row["diagnostic"], str) else None),
-            "used_in_fit": not isinstance(row["flag"], str),
-            "U95_gamma_pm": json_number(row["u_gamma_pm"] * stats.coverage_factor),
-            "u_gamma_pm_budget": {
-                column.removeprefix("u_gamma_pm_"): json_number(row[column])
-                for column in row if column.startswith("u_gamma_pm_")
-                and column != "u_gamma_pm_model"},
-            "leverage": json_number(row["leverage"]),
-            "studentized_residual": json_number(row["studentized_residual"]),
-            "cooks_distance": json_number(row["cooks_distance"]),
-            "note": row["note"] or None,
-        })
-    return points
+    """Every reading of ``reduction`` as the record's ``points`` entries (built column by
+    column: one conversion of the table, each column's numbers checked in one pass)."""
+    k = reduction.statistics.coverage_factor
+    table = frame_columns(reduction.points)
+    flags, diagnostics = table["flag"], table["diagnostic"]
+    u_gamma = table["u_gamma_pm"]
+    budget_columns = [name for name in table
+                      if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model"]
+    budget_keys = [name.removeprefix("u_gamma_pm_") for name in budget_columns]
+    budgets = ([dict(zip(budget_keys, values, strict=True)) for values in zip(
+        *(json_numbers(table[name]) for name in budget_columns), strict=True)]
+        if budget_columns else [{} for _ in u_gamma])
+    columns = (
+        [int(v) for v in table["line"]],
+        [float(v) for v in table["molality_mol_kg"]],
+        json_numbers(table["u_molality_mol_kg"]),
+        json_numbers(table["emf_V"]),
+        json_numbers(table["u_emf_V"]),
+        [float(v) for v in table["temperature_K"]],
+        json_numbers(table["pressure_correction_V"]),
+        json_numbers(table["gas_pressure_Pa"]),
+        [v or None for v in table["electrode"]],
+        json_numbers(table["fitted_emf_V"]),
+        json_numbers(table["residual_V"]),
+        json_numbers(table["gamma_pm"]),
+        json_numbers(u_gamma),
+        json_numbers(table["gamma_pm_model"]),
+        json_numbers(table["u_gamma_pm_model"]),
+        [flag if isinstance(flag, str) else diagnostic if isinstance(diagnostic, str) else None
+         for flag, diagnostic in zip(flags, diagnostics, strict=True)],
+        [not isinstance(flag, str) for flag in flags],
+        json_numbers([u * k for u in u_gamma]),
+        budgets,
+        json_numbers(table["leverage"]),
+        json_numbers(table["studentized_residual"]),
+        json_numbers(table["cooks_distance"]),
+        [v or None for v in table["note"]],
+    )
+    return [dict(zip(_POINT_KEYS, row, strict=True)) for row in zip(*columns, strict=True)]
+
+
+def _rows(keys: Any, columns: Any, n_rows: int) -> list[dict[str, Any]]:
+    """Rows as dicts from columns (lists of one length ``n_rows``), keys in order."""
+    if not keys:
+        return [{} for _ in range(n_rows)]
+    return [dict(zip(keys, row, strict=True)) for row in zip(*columns, strict=True)]
+
+
+def _published_records(published: Any) -> tuple[list[dict[str, Any]], Any]:
+    """The record's ``published_comparison`` entries and ``published_source`` (the first
+    row's source, the table's own when it has no row)."""
+    table = frame_columns(published)
+    molality = [float(v) for v in table["molality_mol_kg"]]
+    rows = _rows(("molality_mol_kg", "gamma_pm_published", "interpolated", "difference",
+                  "n_sources", "published_values", "spread_published", "u_published",
+                  "u_difference", "difference_over_u"), (
+        molality,
+        json_numbers(table["gamma_pm_published"]),
+        [bool(v) for v in table["interpolated"]],
+        json_numbers(table["difference"]),
+        [int(v) for v in table["n_sources"]],
+        [[{"source": source, "gamma_pm": json_number(value), "interpolated": not printed}
+          for source, value, printed in values] for values in table["published_values"]],
+        json_numbers(table["spread_published"]),
+        json_numbers(table["u_published"]),
+        json_numbers(table["u_difference"]),
+        json_numbers(table["difference_over_u"])), len(molality))
+    return rows, (table["source"][0] if rows else published["source"].iloc[0])
+
+
+def _derived_records(properties: Any) -> list[dict[str, Any]]:
+    """The rows of the derived properties, every float a :func:`json_number`."""
+    table = frame_columns(properties)
+    isfinite = math.isfinite
+    columns = [[v if isfinite(v) else None for v in column]
+               if all(type(v) is float for v in column)
+               else [json_number(v) if isinstance(v, float) else v for v in column]
+               for column in table.values()]
+    return _rows(list(table), columns, len(properties))
 
 
 def build_record(reduction: Reduction, created: datetime | None = None,
@@ -183,7 +311,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     cross = reduction.linear_extrapolation
     derived = derived or derive_results(reduction)
     published = derived.published
-    published_rows = [] if published is None else frame_records(published)
+    published_rows, published_source = ([], None) if published is None else (
+        _published_records(published))
     other = reduction.standard_potential_other_basis_V
     e0_record = {**_with_u(e0, covariance_note),
                  "coverage_factor_95": stats.coverage_factor,
@@ -261,23 +390,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "n_points": cross.n_points,
             "max_ionic_strength_mol_kg": cross.max_ionic_strength,
         },
-        "published_comparison": [
-            {"molality_mol_kg": float(r["molality_mol_kg"]),
-             "gamma_pm_published": json_number(r["gamma_pm_published"]),
-             "interpolated": bool(r["interpolated"]),
-             "difference": json_number(r["difference"]),
-             "n_sources": int(r["n_sources"]),
-             "published_values": [{"source": source, "gamma_pm": json_number(value),
-                                   "interpolated": not printed}
-                                  for source, value, printed in r["published_values"]],
-             "spread_published": json_number(r["spread_published"]),
-             "u_published": json_number(r["u_published"]),
-             "u_difference": json_number(r["u_difference"]),
-             "difference_over_u": json_number(r["difference_over_u"])}
-            for r in published_rows
-        ],
-        "published_source": None if published is None else (
-            published_rows[0]["source"] if published_rows else published["source"].iloc[0]),
+        "published_comparison": published_rows,
+        "published_source": None if published is None else published_source,
         "published_comparison_method": None if published is None else (
             "gamma_pm_published is the mean of every published table at the molality (each "
             "printed there or interpolated within the table); spread_published = largest − "
@@ -290,9 +404,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
                       "1947)"},
         "derived_properties": {
             "method": "; ".join(properties.attrs.get("notes", [])),
-            "points": [{k: json_number(v) if isinstance(v, float) else v
-                        for k, v in row.items()}
-                       for row in frame_records(properties)],
+            "points": _derived_records(properties),
         },
         "model_comparison": None if comparison is None else comparison_record(comparison),
         "uncertainty_budget": {

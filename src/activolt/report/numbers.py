@@ -5,12 +5,13 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from typing import Any
 
 from ..rounding import decimals_for, format_with_uncertainty
 
 __all__ = ["decimals_for", "format_compact", "format_scaled", "format_with_uncertainty",
-           "frame_records", "json_number"]
+           "frame_columns", "frame_records", "json_number", "json_numbers"]
 
 
 def frame_records(frame: Any) -> list[dict[str, Any]]:
@@ -40,6 +41,42 @@ def frame_records(frame: Any) -> list[dict[str, Any]]:
     names = list(frame.columns)
     return [dict(zip(names, row, strict=True))
             for row in frame.to_numpy(dtype=object).tolist()]
+
+
+def frame_columns(frame: Any) -> dict[str, list[Any]]:
+    """The columns of a table as lists of plain Python values: the values
+    :func:`frame_records` gives, by column (one conversion of the whole table, as there).
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        Any table with unique column names.
+
+    Returns
+    -------
+    dict of str to list
+        Column name → its values, in column order.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> frame_columns(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2], "e": ["a", None]}))
+    {'m': [0.1, 0.2], 'n': [1, 2], 'e': ['a', nan]}
+    """
+    names = list(frame.columns)
+    return dict(zip(names, frame.to_numpy(dtype=object).T.tolist(), strict=True))
+
+
+def json_numbers(values: Iterable[Any]) -> list[float | None]:
+    """:func:`json_number` of each value (a column of a record's table), in one pass.
+
+    Examples
+    --------
+    >>> json_numbers([0.5, float("inf"), None, 2])
+    [0.5, None, None, 2.0]
+    """
+    isfinite = math.isfinite
+    return [v if type(v) is float and isfinite(v) else json_number(v) for v in values]
 
 
 def json_number(value: float | None) -> float | None:

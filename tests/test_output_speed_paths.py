@@ -1,0 +1,274 @@
+"""The per-series outputs written fast give what the plain way of writing them gives.
+
+``json_text`` lays a record out itself around the standard library's one-line C encoder: the
+text must parse to what ``json.dumps`` writes, refuse what it refuses (a non-finite number, a
+value JSON cannot hold) and keep its layout (flat objects and arrays, and every object in an
+array, on one line; the rest indented). The record's tables are built column by column: they
+must hold, value for value and type for type, what reading the tables row by row gives (the
+reference below is that row-by-row reading, as the record was first written). The HTML page
+escapes text through a shortcut for plain text: it must write what
+:func:`activolt.report.certificate.text` writes, for every text.
+
+Reference behaviour: the Python standard library (``json``) and the row-by-row code the fast
+paths replace (common practice: an optimisation is checked against the code it replaces).
+Readings: the bundled sample run (Kestrel Bay, HCl at 25 °C, invented laboratory), one reading
+moved by 0.8 mV to stand out, and one series of the benchmarks' synthetic table.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import shutil
+from importlib.resources import files
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from activolt.data.runs import Exclusion, exclude_points, read_run
+from activolt.io.record import build_record, json_text, record_json
+from activolt.procedures.dilution import reduce_run
+from activolt.procedures.many import series_reducer
+from activolt.report.certificate import text
+from activolt.report.html import report_html
+from activolt.report.numbers import (
+    frame_columns,
+    frame_records,
+    json_number,
+    json_numbers,
+)
+
+SAMPLE = Path(str(files("activolt") / "sample_data" / "kestrel_hcl_25C.csv"))
+
+# --- json_text ------------------------------------------------------------------------------
+
+_SCALARS = (st.none() | st.booleans() | st.integers(-10**20, 10**20)
+            | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=8))
+_KEYS = st.text(max_size=5) | st.integers(-99, 99) | st.booleans() | st.none() | st.floats(
+    allow_nan=False, allow_infinity=False)
+_DOCUMENTS = st.recursive(
+    _SCALARS,
+    lambda inner: (st.lists(inner, max_size=4) | st.tuples(inner, inner)
+                   | st.dictionaries(_KEYS, inner, max_size=4)),
+    max_leaves=30)
+
+
+@settings(max_examples=300, deadline=None)
+@given(_DOCUMENTS)
+def test_json_text_parses_to_what_json_dumps_writes(document):
+    written = json_text(document)
+    assert written.endswith("\n") and not written.endswith("\n\n")
+    assert json.loads(written) == json.loads(json.dumps(document, ensure_ascii=False))
+    # every line of the layout is indented by two spaces a level, and a line holding a whole
+    # member parses on its own
+    for line in written.splitlines():
+        assert (len(line) - len(line.lstrip(" "))) % 2 == 0
+
+
+@pytest.mark.parametrize("bad, error", [
+    (float("nan"), ValueError), ({"a": [1.0, float("inf")]}, ValueError),
+    ({"a": {"b": [{"c": -float("inf")}]}}, ValueError), ({"a": {1, 2}}, TypeError),
+    ({"a": {(1, 2): 3}}, TypeError), ({"rows": [{"x": object()}]}, TypeError),
+])
+def test_json_text_refuses_what_json_dumps_refuses(bad, error):
+    with pytest.raises(error):
+        json.dumps(bad, allow_nan=False)
+    with pytest.raises(error):
+        json_text(bad)
+
+
+def test_json_text_layout():
+    document = {"flat": {"a": 1, "b": "γ±"}, "empty": [], "numbers": [1, 2.5, None],
+                "rows": [{"m": 0.1, "budget": {"readings": 0.2}}, {"m": 0.3, "budget": {}}],
+                "matrix": [[1.0, 0.5], [0.5, 1.0]], "nested": {"inner": {"deep": [1]}}}
+    assert json_text(document).splitlines() == [
+        "{",
+        '  "flat": {"a": 1, "b": "γ±"},',
+        '  "empty": [],',
+        '  "numbers": [1, 2.5, null],',
+        '  "rows": [',
+        '    {"m": 0.1, "budget": {"readings": 0.2}},',
+        '    {"m": 0.3, "budget": {}}',
+        "  ],",
+        '  "matrix": [',
+        "    [1.0, 0.5],",
+        "    [0.5, 1.0]",
+        "  ],",
+        '  "nested": {',
+        '    "inner": {',
+        '      "deep": [1]',
+        "    }",
+        "  }",
+        "}",
+    ]
+
+
+# --- the record's tables, built column by column -------------------------------------------
+
+def _reference_points(reduction) -> list[dict]:
+    """The record's ``points`` read row by row (the code the column-wise build replaced)."""
+    k = reduction.statistics.coverage_factor
+    points = []
+    for row in frame_records(reduction.points):
+        points.append({
+            "line": int(row["line"]),
+            "molality_mol_kg": float(row["molality_mol_kg"]),
+            "u_molality_mol_kg": json_number(row["u_molality_mol_kg"]),
+            "emf_V": json_number(row["emf_V"]),
+            "u_emf_V": json_number(row["u_emf_V"]),
+            "temperature_K": float(row["temperature_K"]),
+            "pressure_correction_V": json_number(row["pressure_correction_V"]),
+            "gas_partial_pressure_Pa": json_number(row["gas_pressure_Pa"]),
+            "electrode": row["electrode"] or None,
+            "fitted_emf_V": json_number(row["fitted_emf_V"]),
+            "residual_V": json_number(row["residual_V"]),
+            "gamma_pm": json_number(row["gamma_pm"]),
+            "u_gamma_pm": json_number(row["u_gamma_pm"]),
+            "gamma_pm_model": json_number(row["gamma_pm_model"]),
+            "u_gamma_pm_model": json_number(row["u_gamma_pm_model"]),
+            "flag": (row["flag"] if isinstance(row["flag"], str)
+                     else row["diagnostic"] if isinstance(row["diagnostic"], str) else None),
+            "used_in_fit": not isinstance(row["flag"], str),
+            "U95_gamma_pm": json_number(row["u_gamma_pm"] * k),
+            "u_gamma_pm_budget": {
+                column.removeprefix("u_gamma_pm_"): json_number(row[column])
+                for column in row if column.startswith("u_gamma_pm_")
+                and column != "u_gamma_pm_model"},
+            "leverage": json_number(row["leverage"]),
+            "studentized_residual": json_number(row["studentized_residual"]),
+            "cooks_distance": json_number(row["cooks_distance"]),
+            "note": row["note"] or None,
+        })
+    return points
+
+
+def _reference_published(published) -> list[dict]:
+    return [{"molality_mol_kg": float(r["molality_mol_kg"]),
+             "gamma_pm_published": json_number(r["gamma_pm_published"]),
+             "interpolated": bool(r["interpolated"]),
+             "difference": json_number(r["difference"]),
+             "n_sources": int(r["n_sources"]),
+             "published_values": [{"source": source, "gamma_pm": json_number(value),
+                                   "interpolated": not printed}
+                                  for source, value, printed in r["published_values"]],
+             "spread_published": json_number(r["spread_published"]),
+             "u_published": json_number(r["u_published"]),
+             "u_difference": json_number(r["u_difference"]),
+             "difference_over_u": json_number(r["difference_over_u"])}
+            for r in frame_records(published)]
+
+
+def _identical(a, b, where="record") -> None:
+    """Equal value for value, with the same types and the same order of keys."""
+    assert type(a) is type(b), f"{where}: {type(a).__name__} against {type(b).__name__}"
+    if isinstance(a, dict):
+        assert list(a) == list(b), where
+        for key in a:
+            _identical(a[key], b[key], f"{where}.{key}")
+    elif isinstance(a, list):
+        assert len(a) == len(b), where
+        for i, (x, y) in enumerate(zip(a, b, strict=True)):
+            _identical(x, y, f"{where}[{i}]")
+    else:
+        assert a == b, f"{where}: {a!r} against {b!r}"
+
+
+@pytest.fixture(scope="module")
+def reductions(tmp_path_factory):
+    """The sample as read, with two readings excluded, with one reading standing out (and
+    text a spreadsheet or a page must not take as it is), and a compared series."""
+    folder = tmp_path_factory.mktemp("fast_outputs")
+    sample = read_run(SAMPLE)
+    lines = SAMPLE.read_text(encoding="utf-8").splitlines()
+    moved = [line.replace("429.811", "430.611").replace("KB-AgCl-08,", "KB-AgCl-08 é,=1+2")
+             for line in lines]
+    (folder / "moved.csv").write_text("\n".join(moved) + "\n", encoding="utf-8")
+    shutil.copy(SAMPLE.with_suffix(".toml"), folder / "moved.toml")
+    excluded = exclude_points(sample, [Exclusion("bubbles <b>", line=7),
+                                       Exclusion("drift", molality_mol_kg=0.5)])
+    compared = series_reducer("all", {})(sample)
+    return {"sample": (reduce_run(sample), None),
+            "excluded": (reduce_run(excluded), None),
+            "moved": (reduce_run(read_run(folder / "moved.csv")), None),
+            "compared": (compared.reduction, compared.comparison)}
+
+
+@pytest.mark.parametrize("case", ["sample", "excluded", "moved", "compared"])
+def test_record_tables_are_the_row_by_row_tables(reductions, case):
+    reduction, comparison = reductions[case]
+    record = build_record(reduction, comparison=comparison)
+    _identical(record["points"], _reference_points(reduction), "points")
+    from activolt.procedures.properties import derive_results
+
+    derived = derive_results(reduction)
+    _identical(record["derived_properties"]["points"],
+               [{k: json_number(v) if isinstance(v, float) else v for k, v in row.items()}
+                for row in frame_records(derived.properties)], "derived")
+    if derived.published is not None:
+        _identical(record["published_comparison"], _reference_published(derived.published),
+                   "published")
+        assert record["published_source"] == derived.published["source"].iloc[0]
+    # and the text holds the record exactly
+    _identical(json.loads(record_json(reduction, created=None, comparison=comparison))["points"],
+               record["points"], "points as written")
+
+
+def test_the_cases_cover_flags_and_diagnostics(reductions):
+    flags = {p["flag"] for case in reductions.values()
+             for p in build_record(case[0])["points"] if p["flag"]}
+    assert "no reading" in flags and "excluded: bubbles <b>" in flags
+    assert any(flag.startswith("studentized residual") for flag in flags)
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.tuples(st.floats(), st.integers(-10**6, 10**6),
+                          st.none() | st.text(max_size=6), st.booleans()), max_size=8))
+def test_frame_columns_are_frame_records_by_column(rows):
+    frame = pd.DataFrame(rows, columns=["m", "line", "electrode", "used"])
+    if rows:
+        frame["line"] = frame["line"].astype("int64")
+        frame["electrode"] = frame["electrode"].astype("str")
+    columns = frame_columns(frame)
+    records = frame_records(frame)
+    assert list(columns) == list(frame.columns)
+    for name, values in columns.items():
+        assert len(values) == len(records)
+        for value, row in zip(values, records, strict=True):
+            assert type(value) is type(row[name])
+            assert value == row[name] or (value != value and row[name] != row[name])
+
+
+@given(st.lists(st.none() | st.floats() | st.integers(-10**6, 10**6)
+                | st.sampled_from([np.float64(1.5), np.float64("nan"), np.int64(3)])))
+def test_json_numbers_are_json_number_of_each(values):
+    got = json_numbers(values)
+    expected = [json_number(v) for v in values]
+    assert [type(v) for v in got] == [type(v) for v in expected]
+    assert got == expected
+    assert all(v is None or math.isfinite(v) for v in got)
+
+
+# --- the page's text ------------------------------------------------------------------------
+
+_TEXTS = st.text() | st.sampled_from(["0.9654 ± 0.0003", "(-4.760310 ± 0.000092) × 10⁻⁵", "—",
+                                      "<b>", "a&b", "\u202eevil", "x\x1by", "'q'", '"q"', "Å"])
+
+
+@settings(max_examples=300, deadline=None)
+@given(_TEXTS.filter(bool), _TEXTS, st.floats(allow_nan=False, allow_infinity=False))
+def test_page_text_is_certificate_text(value, name, number):
+    page = report_html({"run_info": {"operator": value},
+                        "model": {"parameters": {name: {"value": number, "uncertainty": 0.1}}}})
+    assert f"<dt>operator</dt><dd>{text(value)}</dd>" in page
+    assert f'<tr><td>{text(name)}</td><td class="num" data-value="{number!r}" data-quantity="' \
+           f'{text("parameter:" + name)}">' in page
+
+
+@given(st.integers() | st.floats() | st.booleans())
+def test_page_text_of_numbers_is_certificate_text(value):
+    page = report_html({"run_info": {"count": value}})
+    assert f"<dt>count</dt><dd>{text(value)}</dd>" in page
