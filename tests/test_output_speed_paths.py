@@ -272,3 +272,41 @@ def test_page_text_is_certificate_text(value, name, number):
 def test_page_text_of_numbers_is_certificate_text(value):
     page = report_html({"run_info": {"count": value}})
     assert f"<dt>count</dt><dd>{text(value)}</dd>" in page
+
+
+def _reference_points_csv(reduction) -> str:
+    """The points table as pandas writes it, each column read from the table on its own (the
+    code the one-conversion read replaced)."""
+    from activolt.safe_text import neutralise_formula
+
+    table = reduction.points
+    columns = {
+        "line": table["line"].to_numpy(),
+        "molality_mol_kg": table["molality_mol_kg"].to_numpy(),
+        "u_molality_mol_kg": table["u_molality_mol_kg"].to_numpy(),
+        "temperature_C": table["temperature_K"].to_numpy() - 273.15,
+        "emf_mV": table["emf_V"].to_numpy() * 1e3,
+        "u_emf_mV": table["u_emf_V"].to_numpy() * 1e3,
+        "fitted_emf_mV": table["fitted_emf_V"].to_numpy() * 1e3,
+        "residual_mV": table["residual_V"].to_numpy() * 1e3,
+        **{name: table[name].to_numpy() for name in (
+            "gamma_pm", "u_gamma_pm", "gamma_pm_model", "u_gamma_pm_model")},
+        "electrode": [neutralise_formula(v) for v in table["electrode"].tolist()],
+        "series": [neutralise_formula(v) for v in table["series"].tolist()],
+        **{name: table[name].to_numpy() for name in (
+            "leverage", "studentized_residual", "cooks_distance")},
+        "flag": table["flag"].where(table["flag"].notna(), "").tolist(),
+        "diagnostic": table["diagnostic"].where(table["diagnostic"].notna(), "").tolist(),
+        "note": [neutralise_formula(v) for v in table["note"].tolist()],
+    }
+    return pd.DataFrame(columns).to_csv(index=False, float_format="%.10g", lineterminator="\n")
+
+
+@pytest.mark.parametrize("case", ["sample", "excluded", "moved", "compared"])
+def test_points_csv_is_the_column_by_column_table(reductions, case):
+    from activolt.io.record import points_csv
+
+    reduction = reductions[case][0]
+    written = points_csv(reduction)
+    assert written == _reference_points_csv(reduction)
+    assert "'=1+2" in written or case != "moved"

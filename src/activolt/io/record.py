@@ -505,21 +505,31 @@ def run_series(points: Any) -> str | None:
 def _points_columns(reduction: Reduction) -> dict[str, Any]:
     """The columns of the points table (numpy arrays; text columns as lists), units in the
     names, flagged rows included."""
+    import numpy as np
+
     table = reduction.points
+    values = frame_columns(table)  # one conversion of the table, then each column from it
+    dtypes = dict(zip(values, table.dtypes.tolist(), strict=True))
 
     def numbers(name: str) -> Any:
-        return table[name].to_numpy()  # the column's own type, as the DataFrame would keep it
+        # the column's own type, as the DataFrame would keep it
+        dtype = dtypes[name]
+        if isinstance(dtype, np.dtype) and dtype.kind in "fiub":
+            return np.array(values[name], dtype=dtype)
+        return table[name].to_numpy()
 
     def text(name: str) -> list[Any]:
-        return [neutralise_formula(v) for v in table[name].tolist()]
+        return [neutralise_formula(v) for v in values[name]]
 
     def filled(name: str) -> list[Any]:
         # pandas' where(notna, ""): every missing value (None, NaN, NA) becomes ""
-        return [v if isinstance(v, str) or not _missing(v) else ""
-                for v in table[name].tolist()]
+        return [v if type(v) is str
+                else "" if v is None or (type(v) is float and v != v)
+                else v if type(v) is float or not _missing(v) else ""
+                for v in values[name]]
 
     return {
-        "line": table["line"].to_numpy(),
+        "line": numbers("line"),
         "molality_mol_kg": numbers("molality_mol_kg"),
         "u_molality_mol_kg": numbers("u_molality_mol_kg"),
         "temperature_C": numbers("temperature_K") - 273.15,
@@ -573,13 +583,15 @@ def _csv_cells(column: Any) -> list[str]:
         kind = column.dtype.kind
         values = column.tolist()
         if kind == "f":
-            if not np.isfinite(column[~np.isnan(column)]).all():
+            if np.isinf(column).any():
                 raise _NotPlainTable
             # printf-style, as pandas applies float_format
             return ["" if v != v else "%.10g" % v for v in values]  # noqa: UP031
         if kind in "iub":
             return [str(v) for v in values]
         raise _NotPlainTable
+    if all(type(v) is str for v in column):
+        return list(column)
     cells = []
     for v in column:
         if isinstance(v, str):
