@@ -19,6 +19,7 @@ from __future__ import annotations
 import base64
 import functools
 import math
+import re
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -81,19 +82,38 @@ footer { margin-top: 6mm; font-size: 8.5pt; color: #333; border-top: 1px solid #
 _NOT_GIVEN = "—"
 
 
+#: Text that :func:`~activolt.report.certificate.text` leaves as it is: what the rounding of a
+#: number writes (digits, signs, ``±``, ``×``, superscripts, ``—``, units) and plain words.
+_PLAIN = re.compile("[0-9A-Za-z .,:;/()%+\\-±×⁰¹²³⁴⁵⁶⁷⁸⁹⁻—°Å]*")
+
+
 @functools.lru_cache(maxsize=4096)
 def _cached_text(value: str) -> str:
-    return text(value)
+    return value if _PLAIN.fullmatch(value) else text(value)
 
 
 def _text(value: object) -> str:
     """:func:`~activolt.report.certificate.text`, remembered for strings (a batch's pages
-    repeat their labels, units and many rounded numbers)."""
-    return _cached_text(value) if type(value) is str else text(value)
+    repeat their labels, units and many rounded numbers); a whole number or a float is written
+    as ``str`` writes it, which holds nothing to escape."""
+    kind = type(value)
+    if kind is str:
+        return _cached_text(value)
+    if kind is int or kind is float:
+        return str(value)
+    return text(value)
+
+
+def _shown(value: str) -> str:
+    """A rounded number as shown (:func:`_text`, without remembering the many numbers that
+    need no escaping)."""
+    return value if _PLAIN.fullmatch(value) else _cached_text(value)
 
 
 def _number_value(value: Any) -> float | None:
     """A finite float, or None."""
+    if type(value) is float:
+        return value if math.isfinite(value) else None
     if value is None or isinstance(value, bool):
         return None
     try:
@@ -109,12 +129,18 @@ def _data(value: Any) -> str:
     return "" if number is None else repr(number)
 
 
+@functools.lru_cache(maxsize=256)
+def _quantity(quantity: str) -> str:
+    """The ``data-quantity`` attribute of a cell."""
+    return f' data-quantity="{_text(quantity)}"'
+
+
 def _cell(shown: str, value: Any = None, quantity: str | None = None) -> str:
     """A number cell: ``shown`` (escaped) and the record's value in ``data-value``."""
-    attributes = f' data-value="{_data(value)}"' if value is not None else ""
+    attributes = "" if value is None else f' data-value="{_data(value)}"'
     if quantity is not None:
-        attributes += f' data-quantity="{_text(quantity)}"'
-    return f'<td class="num"{attributes}>{_text(shown)}</td>'
+        attributes += _quantity(quantity)
+    return f'<td class="num"{attributes}>{_shown(shown)}</td>'
 
 
 def _with_u(value: Any, uncertainty: Any, scale: float = 1.0, unit: str = "") -> str:
