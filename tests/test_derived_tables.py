@@ -7,6 +7,9 @@ numbers as worked out one step at a time.
 - :func:`activolt.procedures.published.table_of` must give the table ``pandas.DataFrame`` gives.
 - The published comparison is kept per (electrolyte, temperature, molalities); each run's table
   must still be its own.
+- The text report reads each column once as plain values, and skips escaping when every line is
+  printable; what it shows must be what the rows hold, escaped as
+  :func:`activolt.safe_text.escape_controls` escapes.
 """
 
 from __future__ import annotations
@@ -27,8 +30,19 @@ from activolt.data.runs import read_run
 from activolt.fit.uncertainty import sensitivity_coefficients
 from activolt.physics.water import debye_hueckel_constants
 from activolt.procedures.dilution import reduce_run
-from activolt.procedures.properties import derived_properties, model_sensitivities
-from activolt.procedures.published import TableLayout, compare_with_published, table_of
+from activolt.procedures.properties import (
+    derive_results,
+    derived_properties,
+    model_sensitivities,
+)
+from activolt.procedures.published import (
+    TableLayout,
+    compare_with_published,
+    plain_values,
+    table_of,
+)
+from activolt.report.text import format_report
+from activolt.safe_text import escape_controls
 
 SAMPLE = (Path(__file__).resolve().parents[1] / "src" / "activolt" / "sample_data"
           / "kestrel_hcl_25C.csv")
@@ -160,3 +174,38 @@ def test_runs_sharing_molalities_each_get_their_own_comparison():
     assert second.loc[0, "source"] != "changed" and second.loc[0, "n_sources"] != 99
     assert second["difference"].tolist() == pytest.approx(
         (second["gamma_pm"] - second["gamma_pm_published"]).tolist(), abs=0)
+
+
+@pytest.fixture(scope="module")
+def sample_reduction():
+    return reduce_run(read_run(SAMPLE), "hueckel")
+
+
+def test_plain_values_are_the_values_of_the_rows(sample_reduction):
+    from activolt.report.numbers import frame_records
+
+    points = sample_reduction.points
+    records = frame_records(points)
+    for name in points.columns:
+        got = plain_values(points, name)
+        expected = [row[name] for row in records]
+        assert [type(v) for v in got] == [type(v) for v in expected], name
+        assert all(g == e or (g != g and e != e) for g, e in zip(got, expected, strict=True))
+
+
+@settings(max_examples=80, deadline=None)
+@given(name=st.text(alphabet=st.characters(blacklist_characters="/\x00"), min_size=1,
+                    max_size=12))
+def test_the_report_shows_any_name_escaped_as_escape_controls_does(sample_reduction, name):
+    import dataclasses
+
+    def renamed(stem):
+        run = dataclasses.replace(sample_reduction.run,
+                                  path=sample_reduction.run.path.with_name(stem + ".csv"))
+        return dataclasses.replace(sample_reduction, run=run)
+
+    derived = derive_results(sample_reduction)
+    plain = format_report(renamed("PLACEHOLDER"), derived=derived)
+    assert plain.count("PLACEHOLDER.csv") == 1
+    shown = format_report(renamed(name), derived=derived)
+    assert shown == plain.replace("PLACEHOLDER.csv", escape_controls(name + ".csv", keep="\n"))

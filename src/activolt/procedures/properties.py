@@ -21,7 +21,7 @@ from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
-from .published import compare_with_published, table_of
+from .published import column_values, compare_with_published, table_of
 
 __all__ = ["DerivedResults", "derive_results", "derived_properties", "model_sensitivities"]
 
@@ -166,7 +166,7 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     """
     run = reduction.run
     usable = run.usable  # the rows of usable_points(run), read from the run's arrays
-    lines = run.points["line"].to_numpy()[usable]
+    lines = np.asarray(column_values(run.points, "line"))[usable]
     electrolyte = reduction.electrolyte
     model = reduction.model
     molality = run.arrays["molality_mol_kg"][usable]

@@ -16,7 +16,7 @@ from ..activity.published import published_consensus, published_gamma
 from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
-__all__ = ["TableLayout", "compare_with_published", "table_of"]
+__all__ = ["TableLayout", "column_values", "compare_with_published", "plain_values", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -50,14 +50,14 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     disagreement that the tables' own spread does not explain.
     """
     points = reduction.points
-    gamma = points["gamma_pm"].to_numpy(float)
+    gamma = np.asarray(column_values(points, "gamma_pm"), dtype=float)
     with_gamma = ~np.isnan(gamma)
-    m = points["molality_mol_kg"].to_numpy(float)[with_gamma]
+    m = np.asarray(column_values(points, "molality_mol_kg"), dtype=float)[with_gamma]
     found = _published_at(reduction.electrolyte, float(reduction.temperature_K), tuple(m))
     if found is None:
         return None
     gamma = gamma[with_gamma]
-    u_gamma = points["u_gamma_pm"].to_numpy(float)[with_gamma]
+    u_gamma = np.asarray(column_values(points, "u_gamma_pm"), dtype=float)[with_gamma]
     published, u_published = found.published, found.u_published
     difference = gamma - published
     u_difference = np.hypot(u_gamma, u_published)
@@ -101,6 +101,39 @@ def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
         return pd.DataFrame(dict(zip(names, columns, strict=True)))
     return build(list(columns), columns=names, index=pd.RangeIndex(len(columns[0])),
                  verify_integrity=False)
+
+
+def column_values(frame: pd.DataFrame, name: str) -> Any:
+    """The values of the column ``name`` as the table holds them, without building a Series:
+    a numpy array for a numpy dtype, else pandas' extension array. Not a copy: read only.
+
+    Examples
+    --------
+    >>> column_values(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2]}), "n")
+    array([1, 2])
+    """
+    take = getattr(frame, "_get_column_array", None)
+    if take is not None:
+        where = frame.columns.get_loc(name)
+        if isinstance(where, int):
+            return take(where)
+    column = frame[name]  # a pandas without it, or a name that several columns share
+    return column.to_numpy() if isinstance(column.dtype, np.dtype) else column.array
+
+
+def plain_values(frame: pd.DataFrame, name: str) -> list[Any]:
+    """The column ``name`` as a list of plain Python values, as ``frame.to_dict("records")``
+    gives them (floats, ints, bools and strings as Python objects, a missing string as NaN).
+
+    Examples
+    --------
+    >>> plain_values(pd.DataFrame({"e": ["a", None]}), "e")
+    ['a', nan]
+    """
+    values = column_values(frame, name)
+    if isinstance(values, np.ndarray):
+        return values.tolist()
+    return values.to_numpy(dtype=object).tolist()
 
 
 @dataclass(frozen=True)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from .numbers import frame_records
+from ..procedures.published import column_values, plain_values
 
 
 def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
@@ -18,24 +18,29 @@ def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
     """
     from .numbers import decimals_for
 
-    if comparison is None or comparison["gamma_pm_published"].isna().all():
+    if comparison is None or pd.isna(column_values(comparison, "gamma_pm_published")).all():
         return []
+    published_values = plain_values(comparison, "published_values")
     sources = list(dict.fromkeys(
-        source for values in comparison["published_values"] for source, _, _ in values))
+        source for values in published_values for source, _, _ in values))
     letters = {source: "abcdefghijklmnopqrstuvwxyz"[k] for k, source in enumerate(sources)}
     rows = []
-    for row in frame_records(comparison):
-        if np.isnan(row["gamma_pm_published"]):
+    # each column read once, as plain values
+    for m, gamma, u_gamma, mean_value, interpolated, values, spread, difference, ratio in zip(
+            *(plain_values(comparison, name) for name in (
+                "molality_mol_kg", "gamma_pm", "u_gamma_pm", "gamma_pm_published",
+                "interpolated")), published_values,
+            *(plain_values(comparison, name) for name in (
+                "spread_published", "difference", "difference_over_u")), strict=True):
+        if np.isnan(mean_value):
             continue
-        places = max(3, decimals_for(row["u_gamma_pm"]))
+        places = max(3, decimals_for(u_gamma))
         shown = " ".join((f"{value:.3f}" if printed else f"({value:.4f})") + letters[source]
-                         for source, value, printed in row["published_values"]) or "—"
-        mean = f"{row['gamma_pm_published']:.4f}" + ("i" if row["interpolated"] else " ")
-        ratio = row["difference_over_u"]
+                         for source, value, printed in values) or "—"
+        mean = f"{mean_value:.4f}" + ("i" if interpolated else " ")
         mark = "  ← beyond 2 u_c" if abs(ratio) > 2.0 else ""
-        rows.append([f"{row['molality_mol_kg']:.6g}", f"{row['gamma_pm']:.{places}f}", shown,
-                     mean, f"{row['spread_published']:.4f}",
-                     f"{row['difference']:+.{places}f}", f"{ratio:+.1f}{mark}"])
+        rows.append([f"{m:.6g}", f"{gamma:.{places}f}", shown, mean, f"{spread:.4f}",
+                     f"{difference:+.{places}f}", f"{ratio:+.1f}{mark}"])
     header = ["m / (mol/kg)", "this run", "published", "mean", "spread", "difference",
               "difference / u_c"]
     widths = [max(len(r[i]) for r in [*rows, header]) for i in range(len(header))]

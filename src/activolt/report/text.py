@@ -4,17 +4,19 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pandas as pd
 
 from ..procedures.dilution import Reduction
 from ..procedures.model_choice import ModelComparison
 from ..procedures.montecarlo import MonteCarloResult
 from ..procedures.properties import DerivedResults, derive_results
+from ..procedures.published import column_values, plain_values
 from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import comparison_lines
 from .model_table import format_model_comparison
-from .numbers import decimals_for, format_compact, format_with_uncertainty, frame_records
+from .numbers import decimals_for, format_compact, format_with_uncertainty
 
 
 def _e0_line(reduction: Reduction) -> str:
@@ -55,9 +57,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     """
     run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
     t_C = reduction.temperature_K - 273.15
-    # every row of the points table read once, as plain values (reading a DataFrame row by
-    # row costs more than the rest of the report)
-    records = frame_records(reduction.points)
+    points = reduction.points
     lines = [
         f"activolt reduction of {run.path.name}"
         + (f", series '{series}'" if (series := _series(run.points)) is not None else ""),
@@ -108,18 +108,19 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
                                       cross.u_standard_potential_V * 1e3, "mV")
             + f" ({difference * 1e3:+.3f} mV from the fit)"
         )
-    lines += _points_lines(reduction.points, records)
+    lines += _points_lines(points)
     derived = derived or derive_results(reduction)
     lines += comparison_lines(derived.published)
 
     properties = derived.properties
     # a_w is within 10⁻⁴ of 1 at the dilute end: 1 − a_w shows the digits that carry
     # information, as many as its uncertainty supports (u(1 − a_w) = u(a_w)).
-    cells = [[f"{row['molality_mol_kg']:.6g}",
-              format_with_uncertainty(row["osmotic_coefficient"], row["u_osmotic_coefficient"]),
-              format_compact(1.0 - row["water_activity"], row["u_water_activity"]),
-              format_compact(row["excess_gibbs_rt_mol_kg"], row["u_excess_gibbs_rt_mol_kg"])]
-             for row in frame_records(properties)]
+    cells = [[f"{m:.6g}", format_with_uncertainty(phi, u_phi),
+              format_compact(1.0 - a_w, u_a_w), format_compact(g_rt, u_g_rt)]
+             for m, phi, u_phi, a_w, u_a_w, g_rt, u_g_rt in zip(*(plain_values(properties, name)
+                 for name in ("molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient",
+                              "water_activity", "u_water_activity", "excess_gibbs_rt_mol_kg",
+                              "u_excess_gibbs_rt_mol_kg")), strict=True)]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
     widths = [max(len(r[i]) for r in [*cells, header]) for i in range(4)]
     lines += ["", "  derived from the fitted model (k = 1)"]
@@ -133,7 +134,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
             lines.append(f"  {b.component:<{width}}  {b.u_V * 1e3:8.4f} mV   {b.method}")
         lines.append(f"  {'combined':<{width}}  {reduction.standard_potential.std_dev * 1e3:8.4f}"
                      " mV")
-    lines += _gamma_budget_lines(reduction.points, records)
+    lines += _gamma_budget_lines(points)
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
@@ -149,39 +150,45 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     if cautions:
         text += "\n" + "\n".join(["  safety:", *[f"  - {c}" for c in cautions]]) + "\n"
     # user text (file, series, electrolyte and cell names, reasons, warnings) shown as printable
+    # (a report whose lines are all printable already has nothing to escape)
+    if text.replace("\n", "").isprintable():
+        return text
     return escape_controls(text, keep="\n")
 
 
-def _points_lines(points: pd.DataFrame, records: list[dict]) -> list[str]:
+def _points_lines(points: pd.DataFrame) -> list[str]:
     """The readings: molality, electrode (when the run names them), E, residual, γ± (u);
     a flagged reading keeps its value and says why it is out of the fit; readings left out
-    with --exclude are counted per reason. ``records`` are the rows of ``points``
-    (:func:`~activolt.report.numbers.frame_records`)."""
-    electrodes = "electrode" in points and any(
-        isinstance(row["electrode"], str) and row["electrode"].strip() for row in records)
+    with --exclude are counted per reason. Each column is read once, as plain values."""
+    flags = plain_values(points, "flag")
+    electrode = plain_values(points, "electrode") if "electrode" in points else []
+    electrodes = any(isinstance(e, str) and e.strip() for e in electrode)
+    diagnostic = (plain_values(points, "diagnostic") if "diagnostic" in points
+                  else [None] * len(flags))
     header = ["m / (mol/kg)", *(["electrode"] if electrodes else []), "E / mV",
               "residual / mV", "γ± (u)"]
     rows = []
-    for row in records:
-        cells = [f"{row['molality_mol_kg']:.6g}"]
+    for m, emf, flag, note, residual, gamma, u_gamma, *named in zip(
+            plain_values(points, "molality_mol_kg"), plain_values(points, "emf_V"), flags,
+            diagnostic, plain_values(points, "residual_V"), plain_values(points, "gamma_pm"),
+            plain_values(points, "u_gamma_pm"), *([electrode] if electrodes else []),
+            strict=True):
+        cells = [f"{m:.6g}"]
         if electrodes:
-            cells.append(row["electrode"] if isinstance(row["electrode"], str) else "")
-        emf = row["emf_V"]
+            cells.append(named[0] if isinstance(named[0], str) else "")
         cells.append(f"{emf * 1e3:.3f}" if _finite(emf) else "—")
-        if isinstance(row["flag"], str):
-            cells += ["", f"out of the fit — {row['flag']}"]
+        if isinstance(flag, str):
+            cells += ["", f"out of the fit — {flag}"]
         else:
-            mark = "  ← stands out" if isinstance(row.get("diagnostic"), str) else ""
-            cells += [f"{row['residual_V'] * 1e3:+.4f}",
-                      format_with_uncertainty(row["gamma_pm"], row["u_gamma_pm"]) + mark]
+            mark = "  ← stands out" if isinstance(note, str) else ""
+            cells += [f"{residual * 1e3:+.4f}", format_with_uncertainty(gamma, u_gamma) + mark]
         rows.append(cells)
     widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header) - 1)]
     lines = [""]
     for cells in [header, *rows]:
         lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(cells, widths, strict=False))
                       + "   " + cells[-1]).rstrip())
-    if any(isinstance(row["flag"], str) and row["flag"].startswith("excluded")
-           for row in records):
+    if any(isinstance(flag, str) and flag.startswith("excluded") for flag in flags):
         lines += _exclusion_lines(points)
     return lines
 
@@ -212,26 +219,29 @@ def _finite(value: object) -> bool:
 
 def _series(points: object) -> str | None:
     """The one series named by the points, or None."""
-    names = {n for n in points["series"] if isinstance(n, str) and n}  # type: ignore[index]
+    names = {n for n in plain_values(points, "series")  # type: ignore[arg-type]
+             if isinstance(n, str) and n}
     return names.pop() if len(names) == 1 else None
 
 
-def _gamma_budget_lines(points: pd.DataFrame, records: list[dict]) -> list[str]:
-    """u(γ±) by input at the most dilute, a middle and the most concentrated reading
-    (``records``: the rows of ``points``)."""
-    rows = [row for row in records if pd.notna(row["gamma_pm"])]
-    columns = [c for c in points.columns
+def _gamma_budget_lines(points: pd.DataFrame) -> list[str]:
+    """u(γ±) by input at the most dilute, a middle and the most concentrated reading."""
+    with_gamma = np.flatnonzero(pd.notna(column_values(points, "gamma_pm")))
+    columns = [c for c in points.columns.tolist()
                if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
-    if not rows or not columns:
+    if not with_gamma.size or not columns:
         return []
-    chosen = [rows[i] for i in sorted({0, len(rows) // 2, len(rows) - 1})]
+    chosen = [int(with_gamma[i]) for i in sorted({0, with_gamma.size // 2, with_gamma.size - 1})]
+    molality = plain_values(points, "molality_mol_kg")
+    u_gamma = plain_values(points, "u_gamma_pm")
+    each = [plain_values(points, c) for c in columns]
     names = [c.removeprefix("u_gamma_pm_") for c in columns]
     lines = ["", "  uncertainty budget of γ± (k = 1; each input alone)",
              "  m / (mol/kg)   " + "".join(f"{name:<14}" for name in names) + "combined"]
-    for row in chosen:
-        lines.append(f"  {row['molality_mol_kg']:<13.6g}  "
-                     + "".join(f"{row[c]:<14.2g}" for c in columns)
-                     + f"{row['u_gamma_pm']:.2g}")
+    for i in chosen:
+        lines.append(f"  {molality[i]:<13.6g}  "
+                     + "".join(f"{values[i]:<14.2g}" for values in each)
+                     + f"{u_gamma[i]:.2g}")
     return lines
 
 
