@@ -13,6 +13,7 @@ import dataclasses
 import difflib
 import functools
 import hashlib
+import itertools
 import math
 import re
 import tomllib
@@ -1131,13 +1132,15 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     order = order[codes[order] >= 0]
     if not order.size:
         return ()
-    starts = np.flatnonzero(np.diff(codes[order]))
-    # the numeric columns of the whole table, each series' rows taken from them
-    columns = {name: points[name].to_numpy(float) for name in NUMERIC_COLUMNS}
+    bounds = [0, *(np.flatnonzero(np.diff(codes[order])) + 1), order.size]
+    # the rows put in order of series once; each series is then a slice of them, and of the
+    # table's numeric columns
+    ordered = points.take(order)
+    columns = {name: ordered[name].to_numpy(float) for name in NUMERIC_COLUMNS}
     return tuple(
-        _series_run(path, sha256, metadata_path, points.take(rows), metadata, warnings, notes,
-                    {name: column[rows] for name, column in columns.items()})
-        for rows in np.split(order, starts + 1))
+        _series_run(path, sha256, metadata_path, ordered.iloc[first:last], metadata, warnings,
+                    notes, {name: column[first:last] for name, column in columns.items()})
+        for first, last in itertools.pairwise(bounds))
 
 
 def read_runs(
