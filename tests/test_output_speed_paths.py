@@ -310,3 +310,22 @@ def test_points_csv_is_the_column_by_column_table(reductions, case):
     written = points_csv(reduction)
     assert written == _reference_points_csv(reduction)
     assert "'=1+2" in written or case != "moved"
+
+
+@pytest.mark.parametrize("case", ["sample", "excluded", "moved", "compared"])
+def test_the_record_read_back_is_the_text_parsed(reductions, case):
+    from activolt.io.record import record_document
+
+    reduction, comparison = reductions[case]
+    written = record_json(reduction, comparison=comparison)
+    parsed = json.loads(written)
+    remembered = record_document(written)
+    _identical(remembered, parsed)
+    assert report_html(remembered, {}, "r.record.json", "0" * 64) == report_html(
+        parsed, {}, "r.record.json", "0" * 64)
+    # an equal text that is not the one just written is parsed
+    copy = "".join(list(written))
+    assert copy == written and copy is not written
+    assert record_document(copy) is not remembered
+    _identical(record_document(copy), parsed)
+    assert record_document(written.encode("utf-8")) == parsed

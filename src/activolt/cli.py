@@ -305,14 +305,16 @@ def _write_set(out: Path, contents: dict, owned: list[str], inputs: list[Path],
 
 def _html_report(record: str | bytes, figures: dict[str, bytes], record_name: str | None
                  ) -> str:
-    """``RUN.report.html`` from the record's JSON text as written and the set's figures."""
+    """``RUN.report.html`` from the record's JSON text as written and the set's figures (the
+    record read back by :func:`activolt.io.record.record_document`)."""
     import hashlib
-    import json
 
+    from .io.record import record_document
     from .report.html import report_html
 
     data = record.encode("utf-8") if isinstance(record, str) else record
-    return report_html(json.loads(data), figures, record_name, hashlib.sha256(data).hexdigest())
+    return report_html(record_document(record), figures, record_name,
+                       hashlib.sha256(data).hexdigest())
 
 
 def _record_place(base: str, out: Path, json_path: Path | None) -> tuple[str | None, Path | None]:

@@ -12,6 +12,7 @@ import json
 import math
 import os
 import platform
+import threading
 from collections.abc import Mapping
 from contextvars import ContextVar
 from datetime import UTC, datetime
@@ -442,8 +443,43 @@ def record_json(reduction: Reduction, created: datetime | None = None,
     With ``record_folder`` (where the record is written), the input files are named relative
     to it.
     """
-    return json_text(build_record(reduction, created, comparison, monte_carlo, record_folder,
-                                  derived))
+    document = build_record(reduction, created, comparison, monte_carlo, record_folder, derived)
+    text = json_text(document)
+    _LAST_WRITTEN.text, _LAST_WRITTEN.document = text, document
+    return text
+
+
+#: The text :func:`record_json` last returned in this thread and the record it was written
+#: from (which nothing else holds), for :func:`record_document`.
+_LAST_WRITTEN = threading.local()
+
+
+def record_document(text: str | bytes) -> Any:
+    """The record a record's JSON text holds: ``json.loads(text)``.
+
+    For the very text :func:`record_json` last returned in this thread (the same object, as
+    an output set passes it from the record to its HTML report), the record it was written
+    from is given instead of parsing the text again: the same content (``json_text`` writes
+    the record exactly), read only by the caller.
+
+    Parameters
+    ----------
+    text : str or bytes
+        A record's JSON text.
+
+    Returns
+    -------
+    Any
+        The record (a dict for an activolt record).
+
+    Examples
+    --------
+    >>> record_document('{"a": [1, 2.5]}')
+    {'a': [1, 2.5]}
+    """
+    if text is getattr(_LAST_WRITTEN, "text", None):
+        return _LAST_WRITTEN.document
+    return json.loads(text)
 
 
 def load_record(source: str | Path) -> dict[str, Any]:

@@ -137,10 +137,25 @@ def _quantity(quantity: str) -> str:
 
 def _cell(shown: str, value: Any = None, quantity: str | None = None) -> str:
     """A number cell: ``shown`` (escaped) and the record's value in ``data-value``."""
-    attributes = "" if value is None else f' data-value="{_data(value)}"'
+    attributes = _value_attribute(value)
     if quantity is not None:
         attributes += _quantity(quantity)
     return f'<td class="num"{attributes}>{_shown(shown)}</td>'
+
+
+def _value_attribute(value: Any) -> str:
+    """`` data-value="…"`` of a cell showing ``value`` ("" for None)."""
+    if value is None:
+        return ""
+    if type(value) is float and value - value == 0.0:  # finite
+        return f' data-value="{value!r}"'
+    return f' data-value="{_data(value)}"'
+
+
+def _rounded_cell(shown: str, value: Any, quantity_attribute: str) -> str:
+    """:func:`_cell` of a number rounded by this module (digits, signs, ``±``, ``×``,
+    superscripts, ``—``: nothing to escape), its ``data-quantity`` attribute made already."""
+    return f'<td class="num"{_value_attribute(value)}{quantity_attribute}>{shown}</td>'
 
 
 def _with_u(value: Any, uncertainty: Any, scale: float = 1.0, unit: str = "") -> str:
@@ -341,33 +356,39 @@ def _points(record: Mapping[str, Any]) -> str:
     header = ["line", "m / (mol/kg)", *(["isotherm / °C"] if isotherms else []),
               *(["electrode"] if electrodes else []), "E / mV", "residual / mV", "γ± ± u (k = 1)",
               "remark"]
+    q_molality, q_setpoint, q_emf, q_residual, q_gamma = (_quantity(q) for q in (
+        "molality_mol_kg", "isotherm_temperature_K", "emf_V", "residual_V", "gamma_pm"))
     rows = []
     for p in points:
-        used = p.get("used_in_fit", True)
-        emf = _number_value(p.get("emf_V"))
-        residual = _number_value(p.get("residual_V"))
-        cells = [f"<td>{_text(p.get('line', ''))}</td>",
-                 _cell(f"{p['molality_mol_kg']:.6g}", p.get("molality_mol_kg"),
-                       "molality_mol_kg")]
+        get = p.get
+        used = get("used_in_fit", True)
+        emf = _number_value(get("emf_V"))
+        cells = [f'<tr{"" if used else " class=out"}><td>{_text(get("line", ""))}</td>',
+                 _rounded_cell(f"{p['molality_mol_kg']:.6g}", get("molality_mol_kg"),
+                               q_molality)]
         if isotherms:
-            setpoint = _number_value(p.get("isotherm_temperature_K"))
-            cells.append(_cell(_NOT_GIVEN if setpoint is None else f"{setpoint - 273.15:.2f}",
-                               setpoint, "isotherm_temperature_K"))
+            setpoint = _number_value(get("isotherm_temperature_K"))
+            cells.append(_rounded_cell(
+                _NOT_GIVEN if setpoint is None else f"{setpoint - 273.15:.2f}", setpoint,
+                q_setpoint))
         if electrodes:
-            cells.append(f"<td>{_text(p.get('electrode') or '')}</td>")
-        cells.append(_cell(_NOT_GIVEN if emf is None else f"{emf * 1e3:.3f}", emf, "emf_V"))
+            cells.append(f"<td>{_text(get('electrode') or '')}</td>")
+        cells.append(_rounded_cell(_NOT_GIVEN if emf is None else f"{emf * 1e3:.3f}", emf,
+                                   q_emf))
         if used:
-            cells.append(_cell(_NOT_GIVEN if residual is None else f"{residual * 1e3:+.4f}",
-                               residual, "residual_V"))
-            cells.append(_cell(_with_u(p.get("gamma_pm"), p.get("u_gamma_pm")),
-                               p.get("gamma_pm"), "gamma_pm"))
+            residual = _number_value(get("residual_V"))
+            gamma = get("gamma_pm")
+            cells.append(_rounded_cell(
+                _NOT_GIVEN if residual is None else f"{residual * 1e3:+.4f}", residual,
+                q_residual))
+            cells.append(_rounded_cell(_with_u(gamma, get("u_gamma_pm")), gamma, q_gamma))
         else:
-            cells += ["<td></td>", "<td></td>"]
-        flag = p.get("flag")
+            cells.append("<td></td><td></td>")
+        flag = get("flag")
         remark = (f"out of the fit — {flag}" if not used and flag
                   else f"stands out — {flag}" if flag else "")
-        cells.append(f"<td>{_text(remark)}</td>")
-        rows.append(f'<tr{"" if used else " class=out"}>' + "".join(cells) + "</tr>")
+        cells.append(f"<td>{_text(remark)}</td></tr>")
+        rows.append("".join(cells))
     return ('<section id="points"><h2>Readings and γ±</h2>'
             + _table(header, rows, "points-table", long=True)
             + (f"<p>{_text(record['gamma_uncertainty_method'])}</p>"
@@ -379,6 +400,8 @@ def _published(record: Mapping[str, Any]) -> str:
     rows_in = list(record.get("published_comparison") or [])
     if not rows_in:
         return ""
+    q_mean, q_difference, q_ratio = (_quantity(q) for q in (
+        "gamma_pm_published", "difference", "difference_over_u"))
     sources: dict[str, str] = {}
     rows = []
     for r in rows_in:
@@ -393,14 +416,14 @@ def _published(record: Mapping[str, Any]) -> str:
         difference = _number_value(r.get("difference"))
         ratio = _number_value(r.get("difference_over_u"))
         rows.append(
-            "<tr>" + _cell(f"{r['molality_mol_kg']:.6g}", r.get("molality_mol_kg"))
-            + f"<td>{_text(' '.join(marks))}</td>"
-            + _cell(_NOT_GIVEN if mean is None else f"{mean:.4f}"
-                    + ("i" if r.get("interpolated") else ""), mean, "gamma_pm_published")
-            + _cell(_NOT_GIVEN if difference is None else f"{difference:+.5f}", difference,
-                    "difference")
-            + _cell(_NOT_GIVEN if ratio is None else f"{ratio:+.1f}", ratio,
-                    "difference_over_u") + "</tr>")
+            f'<tr><td class="num"{_value_attribute(r.get("molality_mol_kg"))}>'
+            f"{r['molality_mol_kg']:.6g}</td><td>{_text(' '.join(marks))}</td>"
+            + _rounded_cell(_NOT_GIVEN if mean is None else f"{mean:.4f}"
+                            + ("i" if r.get("interpolated") else ""), mean, q_mean)
+            + _rounded_cell(_NOT_GIVEN if difference is None else f"{difference:+.5f}",
+                            difference, q_difference)
+            + _rounded_cell(_NOT_GIVEN if ratio is None else f"{ratio:+.1f}", ratio, q_ratio)
+            + "</tr>")
     legend = "".join(f"<li>{letter}: {_text(source)}</li>" for source, letter in sources.items())
     return ('<section id="published"><h2>γ± against published values</h2>'
             + _table(["m / (mol/kg)", "published (interpolated in brackets)", "mean",
@@ -415,17 +438,21 @@ def _derived(record: Mapping[str, Any]) -> str:
     points = list(derived.get("points") or [])
     if not points:
         return ""
+    q_phi, q_a_w, q_excess = (_quantity(q) for q in (
+        "osmotic_coefficient", "water_activity", "excess_gibbs_rt_mol_kg"))
     rows = []
     for p in points:
-        a_w = _number_value(p.get("water_activity"))
+        get = p.get
+        a_w = _number_value(get("water_activity"))
+        phi, excess = get("osmotic_coefficient"), get("excess_gibbs_rt_mol_kg")
         rows.append(
-            "<tr>" + _cell(f"{p['molality_mol_kg']:.6g}", p.get("molality_mol_kg"))
-            + _cell(_with_u(p.get("osmotic_coefficient"), p.get("u_osmotic_coefficient")),
-                    p.get("osmotic_coefficient"), "osmotic_coefficient")
-            + _cell(_NOT_GIVEN if a_w is None
-                    else _compact(1.0 - a_w, p.get("u_water_activity")), a_w, "water_activity")
-            + _cell(_compact(p.get("excess_gibbs_rt_mol_kg"), p.get("u_excess_gibbs_rt_mol_kg")),
-                    p.get("excess_gibbs_rt_mol_kg"), "excess_gibbs_rt_mol_kg") + "</tr>")
+            f'<tr><td class="num"{_value_attribute(get("molality_mol_kg"))}>'
+            f"{p['molality_mol_kg']:.6g}</td>"
+            + _rounded_cell(_with_u(phi, get("u_osmotic_coefficient")), phi, q_phi)
+            + _rounded_cell(_NOT_GIVEN if a_w is None
+                            else _compact(1.0 - a_w, get("u_water_activity")), a_w, q_a_w)
+            + _rounded_cell(_compact(excess, get("u_excess_gibbs_rt_mol_kg")), excess,
+                            q_excess) + "</tr>")
     return ('<section id="derived"><h2>Derived from the fitted model (k = 1)</h2>'
             + _table(["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"], rows,
                      "derived-table")
