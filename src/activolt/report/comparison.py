@@ -8,6 +8,33 @@ import pandas as pd
 from ..procedures.published import column_values, plain_values
 
 
+def aligned_lines(rows: list[list[str]], pad_last: bool = True) -> list[str]:
+    """Rows of cells as the lines of a text table: each line indented by two spaces, its cells
+    left-aligned to the widest of their column and three spaces apart, trailing blanks removed.
+
+    Parameters
+    ----------
+    rows : list of list of str
+        The rows, header first, each with the same number of cells.
+    pad_last : bool
+        Whether the last column is padded too (it makes no difference once trailing blanks go,
+        unless its cells end in blanks of their own).
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
+    >>> aligned_lines([["m", "γ±"], ["0.001", "0.965"]])
+    ['  m       γ±', '  0.001   0.965']
+    """
+    widths = [max(map(len, column)) for column in zip(*rows, strict=True)]
+    template = "  " + "   ".join([f"{{:<{w}}}" for w in widths[:-1]]
+                                  + [f"{{:<{widths[-1]}}}" if pad_last else "{}"])
+    return [template.format(*cells).rstrip() for cells in rows]
+
+
 def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
     """The comparison with published γ± as lines of the text report (empty without a table).
 
@@ -43,12 +70,8 @@ def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
                      f"{difference:+.{places}f}", f"{ratio:+.1f}{mark}"])
     header = ["m / (mol/kg)", "this run", "published", "mean", "spread", "difference",
               "difference / u_c"]
-    widths = [max(len(r[i]) for r in [*rows, header]) for i in range(len(header))]
     lines = ["", "  γ± against published values (k = 1; i = mean interpolated between the "
-                 "molalities the tables print)"]
-    for cells in [header, *rows]:
-        lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(cells, widths, strict=True)))
-                     .rstrip())
+                 "molalities the tables print)", *aligned_lines([header, *rows])]
     lines += [f"  {letters[s]}: {s}" for s in sources]
     lines.append("  spread: largest − smallest of the tables' values (what the tables themselves "
                  "disagree by); u_c = √(u²(γ±) + (spread/2)² + (half the last printed digit)²)")

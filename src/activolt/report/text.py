@@ -14,7 +14,7 @@ from ..procedures.properties import DerivedResults, derive_results
 from ..procedures.published import column_values, plain_values
 from ..safe_text import escape_controls
 from .cautions import cautions_for
-from .comparison import comparison_lines
+from .comparison import aligned_lines, comparison_lines
 from .model_table import format_model_comparison
 from .numbers import decimals_for, format_compact, format_with_uncertainty
 
@@ -122,11 +122,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
                               "water_activity", "u_water_activity", "excess_gibbs_rt_mol_kg",
                               "u_excess_gibbs_rt_mol_kg")), strict=True)]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
-    widths = [max(len(r[i]) for r in [*cells, header]) for i in range(4)]
-    lines += ["", "  derived from the fitted model (k = 1)"]
-    for row in [header, *cells]:
-        lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)))
-                     .rstrip())
+    lines += ["", "  derived from the fitted model (k = 1)", *aligned_lines([header, *cells])]
     if reduction.budget:
         lines += ["", "  uncertainty budget of E° (k = 1; each line alone)"]
         width = max(len(b.component) for b in reduction.budget)
@@ -183,11 +179,7 @@ def _points_lines(points: pd.DataFrame) -> list[str]:
             mark = "  ← stands out" if isinstance(note, str) else ""
             cells += [f"{residual * 1e3:+.4f}", format_with_uncertainty(gamma, u_gamma) + mark]
         rows.append(cells)
-    widths = [max(len(r[i]) for r in [header, *rows]) for i in range(len(header) - 1)]
-    lines = [""]
-    for cells in [header, *rows]:
-        lines.append(("  " + "   ".join(c.ljust(w) for c, w in zip(cells, widths, strict=False))
-                      + "   " + cells[-1]).rstrip())
+    lines = ["", *aligned_lines([header, *rows], pad_last=False)]
     if any(isinstance(flag, str) and flag.startswith("excluded") for flag in flags):
         lines += _exclusion_lines(points)
     return lines
