@@ -209,3 +209,29 @@ def test_the_report_shows_any_name_escaped_as_escape_controls_does(sample_reduct
     assert plain.count("PLACEHOLDER.csv") == 1
     shown = format_report(renamed(name), derived=derived)
     assert shown == plain.replace("PLACEHOLDER.csv", escape_controls(name + ".csv", keep="\n"))
+
+
+def _h_both_branches(x):
+    """h(x) with the series worked out for every x and chosen where x is small."""
+    x = np.asarray(x, dtype=float)
+    small = np.abs(x) < 0.05
+    safe = np.where(small, 1.0, x)
+    closed = 2.0 * (1.0 - (1.0 + safe - 0.5 * safe**2) * np.exp(-safe)) / safe**2
+    series = np.zeros_like(x)
+    factorial = 1.0
+    for n in range(1, 12):
+        factorial *= n
+        if n >= 2:
+            series = series + 2.0 * (-1.0) ** n * (n - 1) / factorial * x ** (n - 2)
+    series = series + np.exp(-x)
+    return np.where(small, series, closed)
+
+
+@settings(max_examples=100, deadline=None)
+@given(x=st.lists(st.floats(0.0, 60.0), min_size=0, max_size=20))
+def test_pitzer_h_skips_the_series_without_changing_a_digit(x):
+    from activolt.activity.pitzer import h_function
+
+    got, expected = h_function(np.array(x)), _h_both_branches(np.array(x))
+    assert got.shape == expected.shape and isinstance(got, np.ndarray)
+    assert np.array_equal(got, expected)

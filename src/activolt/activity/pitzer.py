@@ -152,6 +152,8 @@ def h_function(x: np.ndarray) -> np.ndarray:
     small = np.abs(x) < _SERIES_BELOW
     safe = np.where(small, 1.0, x)
     closed = 2.0 * (1.0 - (1.0 + safe - 0.5 * safe**2) * np.exp(-safe)) / safe**2
+    if not small.any():  # the usual case (α√I ≥ 0.06 from 1 mmol/kg): no series needed
+        return np.asarray(closed)
     # h = g + e^(−x), g(x) = 2 Σ_{n≥2} (−1)^n (n − 1)/n! x^(n−2); terms to x^9 (error < 1e-15).
     series = np.zeros_like(x)
     factorial = 1.0
