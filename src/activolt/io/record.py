@@ -9,6 +9,7 @@ from __future__ import annotations
 import functools
 import hashlib
 import json
+import json.encoder
 import math
 import os
 import platform
@@ -103,25 +104,30 @@ def _not_json(value: Any) -> Any:
     raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
 
 
-def _one_line_encoder() -> Any:
-    """``json.dumps(value, ensure_ascii=False, allow_nan=False)`` (one line, ``", "`` and
-    ``": "`` between members): the standard library's C encoder made once, else the encoder
-    itself."""
+def _chunk_encoder() -> Any:
+    """The pieces of ``json.dumps(value, ensure_ascii=False, allow_nan=False)`` (one line,
+    ``", "`` and ``": "`` between members): the standard library's C encoder made once, else
+    the encoder itself."""
     from json.encoder import c_make_encoder, encode_basestring
 
-    if c_make_encoder is None:
-        return json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
-    encoder = c_make_encoder(None, _not_json, encode_basestring, None, ": ", ", ", False, False,
-                             False)
+    encode = json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
+    try:
+        # the arguments JSONEncoder.iterencode gives it (no check for circular references:
+        # a record is a tree)
+        return c_make_encoder(None, _not_json, encode_basestring, None, ": ", ", ", False,
+                              False, False)
+    except TypeError:  # no C encoder (None), or one that takes other arguments
+        return lambda value, _level: (encode(value),)
 
-    def one_line(value: Any) -> str:
-        return "".join(encoder(value, 0))
 
-    return one_line
-
-
-_ONE_LINE = _one_line_encoder()
+_CHUNKS = _chunk_encoder()
+_ENCODE_TEXT = json.encoder.encode_basestring  # a string as JSON, UTF-8 kept (C when built)
 _CONTAINERS = (dict, list, tuple)
+
+
+def _one_line(value: Any) -> str:
+    """``value`` as JSON on one line."""
+    return "".join(_CHUNKS(value, 0))
 
 
 def json_text(document: Any) -> str:
@@ -162,34 +168,49 @@ def json_text(document: Any) -> str:
       }
     }
     """
-    return _laid_out(document, "\n") + "\n"
+    pieces: list[str] = []
+    _lay_out(document, "\n", pieces)
+    pieces.append("\n")
+    return "".join(pieces)
 
 
-def _laid_out(value: Any, newline: str) -> str:
-    """``value`` as :func:`json_text` lays it out, ``newline`` being the line break and the
-    indentation of the line it starts on."""
+def _lay_out(value: Any, newline: str, pieces: list[str]) -> None:
+    """Append ``value`` as :func:`json_text` lays it out to ``pieces``, ``newline`` being the
+    line break and the indentation of the line it starts on."""
     if isinstance(value, dict):
         if not any(isinstance(v, _CONTAINERS) for v in value.values()):
-            return _ONE_LINE(value)
+            pieces += _CHUNKS(value, 0)
+            return
         inner = newline + "  "
-        return ("{" + ",".join(inner + _key(k) + ": " + _laid_out(v, inner)
-                               for k, v in value.items())
-                + newline + "}")
-    if isinstance(value, (list, tuple)):
+        opening = "{" + inner
+        for key, member in value.items():
+            pieces += (opening, _key(key), ": ")
+            _lay_out(member, inner, pieces)
+            opening = "," + inner
+        pieces.append(newline + "}")
+    elif isinstance(value, (list, tuple)):
         if not any(isinstance(v, _CONTAINERS) for v in value):
-            return _ONE_LINE(value)
+            pieces += _CHUNKS(value, 0)
+            return
         inner = newline + "  "
-        return ("[" + ",".join(inner + (_ONE_LINE(v) if isinstance(v, dict)
-                                        else _laid_out(v, inner)) for v in value)
-                + newline + "]")
-    return _ONE_LINE(value)
+        opening = "[" + inner
+        for member in value:
+            pieces.append(opening)
+            if isinstance(member, dict):
+                pieces += _CHUNKS(member, 0)
+            else:
+                _lay_out(member, inner, pieces)
+            opening = "," + inner
+        pieces.append(newline + "]")
+    else:
+        pieces += _CHUNKS(value, 0)
 
 
 def _key(key: Any) -> str:
     """An object's key as JSON writes it (a number, true, false or null as a string)."""
     if type(key) is str:
-        return _ONE_LINE(key)
-    return _ONE_LINE({key: 0})[1:-4]  # the key of {key: 0} as the encoder converts it
+        return _ENCODE_TEXT(key)
+    return _one_line({key: 0})[1:-4]  # the key of {key: 0} as the encoder converts it
 
 
 def record_schema() -> dict[str, Any]:
