@@ -235,3 +235,19 @@ def test_pitzer_h_skips_the_series_without_changing_a_digit(x):
     got, expected = h_function(np.array(x)), _h_both_branches(np.array(x))
     assert got.shape == expected.shape and isinstance(got, np.ndarray)
     assert np.array_equal(got, expected)
+
+
+@settings(max_examples=100, deadline=None)
+@given(y=st.lists(st.floats(0.0, 30.0), min_size=0, max_size=20))
+def test_hueckel_sigma_skips_the_series_without_changing_a_digit(y):
+    from activolt.activity.hueckel import sigma
+
+    y = np.array(y)
+    small = np.abs(y) < 1e-2
+    safe = np.where(small, 1.0, y)
+    closed = 3.0 / safe**3 * (1.0 + safe - 1.0 / (1.0 + safe) - 2.0 * np.log1p(safe))
+    series = sum(3.0 * (-1.0) ** k * (k + 1) / (k + 3) * y**k for k in range(6))
+    expected = np.where(small, series, closed)
+    got = sigma(y)
+    assert got.shape == expected.shape and isinstance(got, np.ndarray)
+    assert np.array_equal(got, expected)

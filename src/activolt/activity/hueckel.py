@@ -79,6 +79,8 @@ def sigma(y: np.ndarray) -> np.ndarray:
     small = np.abs(y) < 1e-2
     safe = np.where(small, 1.0, y)
     closed = 3.0 / safe**3 * (1.0 + safe - 1.0 / (1.0 + safe) - 2.0 * np.log1p(safe))
+    if not small.any():  # the usual case (Bå√I ≥ 0.01 above about 1 mmol/kg): no series needed
+        return np.asarray(closed)
     # Series 3 Σ (−1)^k (k+1)/(k+3) y^k, to y^5 (error < 1e-12 for |y| < 0.01).
     series = sum(3.0 * (-1.0) ** k * (k + 1) / (k + 3) * y**k for k in range(6))
     return np.where(small, series, closed)

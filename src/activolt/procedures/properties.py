@@ -98,10 +98,13 @@ def model_sensitivities(model: ActivityModel, electrolyte: Electrolyte, molality
         columns[name][1 + 2 * k, 0] = values[name] + step
         columns[name][2 + 2 * k, 0] = values[name] - step
     shape = (rows, molality.size)
-    tiled_m = np.tile(molality, (rows, 1))
-    tiled_c = DebyeHueckelConstants(np.tile(constants.temperature, (rows, 1)),
-                                    np.tile(constants.aphi, (rows, 1)),
-                                    np.tile(constants.b, (rows, 1)))
+
+    def tiled(array: np.ndarray) -> np.ndarray:  # the readings once per row, contiguous
+        return np.broadcast_to(array, shape).copy()
+
+    tiled_m = tiled(molality)
+    tiled_c = DebyeHueckelConstants(tiled(constants.temperature), tiled(constants.aphi),
+                                    tiled(constants.b))
     out_phi = np.broadcast_to(np.asarray(
         model.osmotic_coefficient(electrolyte, tiled_m, tiled_c, columns), dtype=float), shape)
     out_ln = np.broadcast_to(np.asarray(
