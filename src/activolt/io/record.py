@@ -302,9 +302,8 @@ def _derived_records(properties: Any) -> list[dict[str, Any]]:
     """The rows of the derived properties, every float a :func:`json_number`."""
     table = frame_columns(properties)
     isfinite = math.isfinite
-    columns = [[v if isfinite(v) else None for v in column]
-               if all(type(v) is float for v in column)
-               else [json_number(v) if isinstance(v, float) else v for v in column]
+    columns = [[v if type(v) is float and isfinite(v)
+                else json_number(v) if isinstance(v, float) else v for v in column]
                for column in table.values()]
     return _rows(list(table), columns, len(properties))
 
@@ -555,7 +554,7 @@ def _path_from(path: Path, folder: Path | None) -> str:
 
 def run_series(points: Any) -> str | None:
     """The name of the series the points hold, or None (no name, or several)."""
-    names = {name for name in points["series"] if isinstance(name, str) and name}
+    names = {name for name in points["series"].tolist() if isinstance(name, str) and name}
     return names.pop() if len(names) == 1 else None
 
 

@@ -417,7 +417,7 @@ def _published(record: Mapping[str, Any]) -> str:
         ratio = _number_value(r.get("difference_over_u"))
         rows.append(
             f'<tr><td class="num"{_value_attribute(r.get("molality_mol_kg"))}>'
-            f"{r['molality_mol_kg']:.6g}</td><td>{_text(' '.join(marks))}</td>"
+            f"{r['molality_mol_kg']:.6g}</td><td>{_shown(' '.join(marks))}</td>"
             + _rounded_cell(_NOT_GIVEN if mean is None else f"{mean:.4f}"
                             + ("i" if r.get("interpolated") else ""), mean, q_mean)
             + _rounded_cell(_NOT_GIVEN if difference is None else f"{difference:+.5f}",
