@@ -24,6 +24,7 @@ from hypothesis import strategies as st
 
 from activolt.activity import MODELS
 from activolt.activity.properties import excess_gibbs_energy_rt, water_activity
+from activolt.activity.published import published_consensus, published_gamma, published_tables
 from activolt.chemistry.electrolytes import parse_electrolyte
 from activolt.constants import GAS_CONSTANT_J_MOL_K
 from activolt.data.runs import read_run
@@ -35,12 +36,7 @@ from activolt.procedures.properties import (
     derived_properties,
     model_sensitivities,
 )
-from activolt.procedures.published import (
-    TableLayout,
-    compare_with_published,
-    plain_values,
-    table_of,
-)
+from activolt.procedures.published import compare_with_published, plain_values, table_of
 from activolt.report.text import format_report
 from activolt.safe_text import escape_controls
 
@@ -129,29 +125,37 @@ def test_derived_properties_are_those_worked_out_step_by_step():
 
 def test_table_of_gives_the_table_pandas_builds():
     n = 4
+    tuples = [(("a", 0.1, True),), (), (("a", 0.2, False), ("b", 0.3, True)), ()]
     reference = pd.DataFrame({
         "line": np.arange(n) + 5,
         "m": np.linspace(0.1, 0.4, n),
         "printed": np.array([True, False, True, False]),
-        "values": [(("a", 0.1, True),), (), (("a", 0.2, False), ("b", 0.3, True)), ()],
+        "values": tuples,
         "source": "a; b",
     })
-    layout = TableLayout.of(reference, ("values", "source"))
-    built = table_of(layout.names, [np.arange(n) + 5, np.linspace(0.1, 0.4, n),
-                                    np.array([True, False, True, False]),
-                                    *layout.copies(("values", "source"))])
+    values = np.empty(n, dtype=object)
+    for i, value in enumerate(tuples):
+        values[i] = value
+    built = table_of(reference.columns, [np.arange(n) + 5, np.linspace(0.1, 0.4, n),
+                                         np.array([True, False, True, False]), values,
+                                         reference["source"].array.copy()])
     pd.testing.assert_frame_equal(built, reference, check_exact=True)
     assert list(built["values"]) == list(reference["values"])
 
 
-def test_layout_gives_each_table_its_own_columns():
-    reference = pd.DataFrame({"n": np.array([1, 2]), "source": "a"})
-    layout = TableLayout.of(reference, ("n", "source"))
-    first, second = layout.copies(("n",))[0], layout.copies(("n",))[0]
-    first[0] = 7
-    assert second[0] == 1 and layout.fixed["n"][0] == 1
-    with pytest.raises(ValueError):
-        layout.fixed["n"][0] = 7
+@settings(max_examples=40, deadline=None)
+@given(formula=st.sampled_from(["HCl", "NaCl", "KCl", "CaCl2"]),
+       molality=st.lists(st.floats(1e-4, 8.0), min_size=1, max_size=15))
+def test_prepared_tables_say_what_the_tables_say(formula, molality):
+    electrolyte = parse_electrolyte(formula)
+    tables = published_tables(electrolyte, 298.15)
+    m = np.sort(np.array(molality))
+    fresh = published_consensus(published_gamma(formula, 298.15, all_sources=True), m,
+                                electrolyte, 298.15)
+    kept = tables.consensus(m).frame()
+    pd.testing.assert_frame_equal(kept, fresh, check_exact=True)
+    assert list(kept["values"]) == list(fresh["values"])
+    assert published_tables(electrolyte, 298.15) is tables
 
 
 def _stub(gamma):

@@ -10,7 +10,11 @@ anchored at 0 for m = 0.
 
 from __future__ import annotations
 
+import dataclasses
+import functools
+import math
 import re
+from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
@@ -90,29 +94,6 @@ def source_label(source: str) -> str:
     return found.group(1) if found else source.split(",")[0].strip()
 
 
-def _one_source_at(rows: pd.DataFrame, m: np.ndarray, electrolyte: Electrolyte,
-                   temperature_K: float) -> tuple[np.ndarray, np.ndarray]:
-    """One table's γ± at ``m`` (printed, or interpolated where it prints close neighbours) and
-    whether it printed that molality; NaN where the table says nothing close enough."""
-    printed_m = rows["molality_mol_kg"].to_numpy(float)
-    match = np.isclose(m[:, None], printed_m[None, :], rtol=1e-9, atol=0.0)
-    printed = match.any(axis=1)
-    value = interpolate_gamma(rows, m, electrolyte, temperature_K)
-    above = np.searchsorted(printed_m, m)
-    first_ionic_strength = float(electrolyte.ionic_strength(printed_m[0]))
-    for i in np.flatnonzero(~printed):
-        k = int(above[i])
-        if k == 0:
-            near = first_ionic_strength <= DILUTE_ANCHOR_IONIC_STRENGTH_MOL_KG
-        else:
-            near = k < printed_m.size and printed_m[k] / printed_m[k - 1] <= (
-                MAX_INTERPOLATION_RATIO)
-        if not near:
-            value[i] = np.nan
-    value[printed] = rows["gamma_pm"].to_numpy(float)[np.argmax(match[printed], axis=1)]
-    return value, printed
-
-
 def published_consensus(table: pd.DataFrame, molality: npt.ArrayLike | None = None,
                         electrolyte: Electrolyte | None = None,
                         temperature_K: float = 298.15) -> pd.DataFrame:
@@ -171,52 +152,234 @@ def published_consensus(table: pd.DataFrame, molality: npt.ArrayLike | None = No
         m = np.unique(table["molality_mol_kg"].to_numpy(float))
     else:
         m = np.atleast_1d(np.asarray(molality, dtype=float))
-    sources = list(dict.fromkeys(table["source"]))
-    values = np.full((len(sources), m.size), np.nan)
-    printed = np.zeros((len(sources), m.size), dtype=bool)
-    half_digit = np.zeros(len(sources))
-    for k, source in enumerate(sources):
-        rows = table[table["source"] == source].sort_values("molality_mol_kg")
-        half_digit[k] = 0.5 * 10.0 ** -float(rows["decimals"].max())
-        if electrolyte is None:
-            match = np.isclose(m[:, None], rows["molality_mol_kg"].to_numpy(float)[None, :],
-                               rtol=1e-9, atol=0.0)
-            printed[k] = match.any(axis=1)
-            values[k, printed[k]] = rows["gamma_pm"].to_numpy(float)[
-                np.argmax(match[printed[k]], axis=1)]
+    return PublishedTables.of(table, electrolyte, temperature_K).consensus(m).frame()
+
+
+@dataclass(frozen=True, eq=False)
+class Consensus:
+    """What the published tables say at each molality (:func:`published_consensus`), as arrays.
+
+    Attributes
+    ----------
+    molality, gamma_pm, spread, u_rounding, u_published : numpy.ndarray
+        As the columns of :func:`published_consensus` (float).
+    n_sources : numpy.ndarray
+        How many tables speak at each molality (int).
+    interpolated : numpy.ndarray
+        No table prints the molality (bool).
+    values : list of tuple
+        Per molality, a tuple of (source, γ±, printed) for each table that speaks there.
+    """
+
+    molality: np.ndarray
+    gamma_pm: np.ndarray
+    n_sources: np.ndarray
+    interpolated: np.ndarray
+    spread: np.ndarray
+    u_rounding: np.ndarray
+    u_published: np.ndarray
+    values: list[tuple[tuple[str, float, bool], ...]]
+
+    def frame(self) -> pd.DataFrame:
+        """The table :func:`published_consensus` returns."""
+        return pd.DataFrame({
+            "molality_mol_kg": self.molality,
+            "gamma_pm": self.gamma_pm,
+            "n_sources": self.n_sources,
+            "interpolated": self.interpolated,
+            "spread": self.spread,
+            "u_rounding": self.u_rounding,
+            "u_published": self.u_published,
+            "values": self.values,
+        })
+
+
+class GammaCurve:
+    """γ± of a published table between its molalities (see :func:`interpolate_gamma`), the
+    interpolant built once.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        Rows of :func:`published_gamma` (one or several sources).
+    electrolyte : Electrolyte
+        The electrolyte (its extended Debye–Hückel term).
+    temperature_K : float
+        Temperature of the Debye–Hückel term [K].
+    """
+
+    def __init__(self, table: pd.DataFrame, electrolyte: Electrolyte,
+                 temperature_K: float) -> None:
+        from scipy.interpolate import PchipInterpolator
+
+        self.electrolyte = electrolyte
+        self.a_gamma = float(debye_hueckel_constants(temperature_K).agamma[0])
+        mean = table.groupby("molality_mol_kg", sort=True)["gamma_pm"].mean()  # several sources
+        m_table = mean.index.to_numpy(float)
+        deviation = np.log(mean.to_numpy(float)) - self._extended_dh(m_table)
+        self.curve = PchipInterpolator(np.concatenate([[0.0], m_table]),
+                                       np.concatenate([[0.0], deviation]), extrapolate=False)
+
+    def _extended_dh(self, m: np.ndarray) -> np.ndarray:
+        return extended_debye_hueckel(self.electrolyte, m, self.a_gamma)
+
+    def __call__(self, molality: npt.ArrayLike) -> np.ndarray:
+        """γ± at ``molality`` [mol kg⁻¹]; NaN beyond the table's range."""
+        m = np.asarray(molality, dtype=float)
+        return np.exp(self.curve(m) + self._extended_dh(m))
+
+
+@dataclass(frozen=True, eq=False)
+class _Source:
+    """One published table, ready to be read at any molality."""
+
+    name: str
+    molality: np.ndarray
+    gamma_pm: np.ndarray
+    half_digit: float
+    curve: GammaCurve | None
+    first_ionic_strength: float
+
+    def at(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(γ±, printed) at ``m``: printed, or interpolated where the table prints close
+        neighbours (with a curve); NaN where it says nothing close enough."""
+        printed_m = self.molality
+        match = np.isclose(m[:, None], printed_m[None, :], rtol=1e-9, atol=0.0)
+        printed = match.any(axis=1)
+        if self.curve is None:
+            value = np.full(m.size, np.nan)
         else:
-            values[k], printed[k] = _one_source_at(rows, m, electrolyte, temperature_K)
-    speaking = ~np.isnan(values)
-    n_sources = speaking.sum(axis=0)
-    mean, spread, u_rounding = (np.full(m.size, np.nan) for _ in range(3))
-    for i in np.flatnonzero(n_sources):
-        here = values[speaking[:, i], i]
-        mean[i], spread[i] = here.mean(), here.max() - here.min()
-        u_rounding[i] = half_digit[speaking[:, i]].max()
-    silent = np.flatnonzero(n_sources == 0)
-    if silent.size and electrolyte is not None:
-        mean[silent] = interpolate_gamma(table, m[silent], electrolyte, temperature_K)
-        printed_m = np.unique(table["molality_mol_kg"].to_numpy(float))
-        around = published_consensus(table, printed_m)
-        for i in silent:
-            if np.isnan(mean[i]):
-                continue
-            k = int(np.searchsorted(printed_m, m[i]))
-            either_side = around.iloc[[j for j in (k - 1, k) if 0 <= j < printed_m.size]]
-            spread[i] = float(either_side["spread"].max())
-            u_rounding[i] = float(either_side["u_rounding"].max())
-    return pd.DataFrame({
-        "molality_mol_kg": m,
-        "gamma_pm": mean,
-        "n_sources": n_sources,
-        "interpolated": ~printed.any(axis=0),
-        "spread": spread,
-        "u_rounding": u_rounding,
-        "u_published": np.hypot(spread / 2.0, u_rounding),
-        "values": [tuple((source, float(values[k, i]), bool(printed[k, i]))
-                         for k, source in enumerate(sources) if speaking[k, i])
-                   for i in range(m.size)],
-    })
+            value = self.curve(m)
+            above = np.searchsorted(printed_m, m)
+            for i in np.flatnonzero(~printed):
+                k = int(above[i])
+                if k == 0:
+                    near = self.first_ionic_strength <= DILUTE_ANCHOR_IONIC_STRENGTH_MOL_KG
+                else:
+                    near = k < printed_m.size and printed_m[k] / printed_m[k - 1] <= (
+                        MAX_INTERPOLATION_RATIO)
+                if not near:
+                    value[i] = np.nan
+        value[printed] = self.gamma_pm[np.argmax(match[printed], axis=1)]
+        return value, printed
+
+
+def _largest(values: np.ndarray) -> float:
+    """The largest value that is not NaN (NaN when there is none), as pandas' ``max``."""
+    kept = values[~np.isnan(values)]
+    return float(kept.max()) if kept.size else float("nan")
+
+
+@dataclass(frozen=True, eq=False)
+class PublishedTables:
+    """The published tables of one electrolyte at one temperature, prepared once to be read at
+    any molalities (:meth:`consensus`): each table's rows and interpolant, and the interpolant of
+    their mean.
+
+    Attributes
+    ----------
+    table : pandas.DataFrame
+        The rows of :func:`published_gamma` with ``all_sources=True``.
+    sources : tuple of str
+        Every table, in the order of its first row.
+    electrolyte : Electrolyte or None
+        Needed to interpolate; without it only printed molalities are answered.
+    temperature_K : float
+        Temperature of the Debye–Hückel term used in interpolation [K].
+    """
+
+    table: pd.DataFrame
+    sources: tuple[str, ...]
+    electrolyte: Electrolyte | None
+    temperature_K: float
+    prepared: tuple[_Source, ...]
+
+    @classmethod
+    def of(cls, table: pd.DataFrame, electrolyte: Electrolyte | None = None,
+           temperature_K: float = 298.15) -> PublishedTables:
+        """The tables ``table`` (rows of :func:`published_gamma`, ``all_sources=True``)."""
+        sources = tuple(dict.fromkeys(table["source"]))
+        prepared = []
+        for source in sources:
+            rows = table[table["source"] == source].sort_values("molality_mol_kg")
+            printed_m = rows["molality_mol_kg"].to_numpy(float)
+            prepared.append(_Source(
+                name=source, molality=printed_m, gamma_pm=rows["gamma_pm"].to_numpy(float),
+                half_digit=0.5 * 10.0 ** -float(rows["decimals"].max()),
+                curve=None if electrolyte is None else GammaCurve(rows, electrolyte,
+                                                                   temperature_K),
+                first_ionic_strength=(math.nan if electrolyte is None else
+                                      float(electrolyte.ionic_strength(printed_m[0])))))
+        return cls(table=table, sources=sources, electrolyte=electrolyte,
+                   temperature_K=temperature_K, prepared=tuple(prepared))
+
+    @functools.cached_property
+    def mean_curve(self) -> GammaCurve | None:
+        """The interpolant of the mean of all tables (None without an electrolyte)."""
+        if self.electrolyte is None:
+            return None
+        return GammaCurve(self.table, self.electrolyte, self.temperature_K)
+
+    @functools.cached_property
+    def printed(self) -> Consensus:
+        """The consensus at every molality a table prints, read without interpolation."""
+        printed_m = np.unique(self.table["molality_mol_kg"].to_numpy(float))
+        return dataclasses.replace(self, electrolyte=None, prepared=tuple(
+            dataclasses.replace(s, curve=None) for s in self.prepared)).consensus(printed_m)
+
+    def consensus(self, molality: npt.ArrayLike) -> Consensus:
+        """What the tables say at ``molality`` [mol kg⁻¹], as :func:`published_consensus`."""
+        m = np.atleast_1d(np.asarray(molality, dtype=float))
+        sources = self.sources
+        values = np.full((len(sources), m.size), np.nan)
+        printed = np.zeros((len(sources), m.size), dtype=bool)
+        half_digit = np.zeros(len(sources))
+        for k, source in enumerate(self.prepared):
+            half_digit[k] = source.half_digit
+            values[k], printed[k] = source.at(m)
+        speaking = ~np.isnan(values)
+        n_sources = speaking.sum(axis=0)
+        mean, spread, u_rounding = (np.full(m.size, np.nan) for _ in range(3))
+        for i in np.flatnonzero(n_sources):
+            here = values[speaking[:, i], i]
+            mean[i], spread[i] = here.mean(), here.max() - here.min()
+            u_rounding[i] = half_digit[speaking[:, i]].max()
+        silent = np.flatnonzero(n_sources == 0)
+        curve = self.mean_curve
+        if silent.size and curve is not None:
+            mean[silent] = curve(m[silent])
+            around = self.printed
+            for i in silent:
+                if np.isnan(mean[i]):
+                    continue
+                k = int(np.searchsorted(around.molality, m[i]))
+                either_side = [j for j in (k - 1, k) if 0 <= j < around.molality.size]
+                spread[i] = _largest(around.spread[either_side])
+                u_rounding[i] = _largest(around.u_rounding[either_side])
+        return Consensus(
+            molality=m, gamma_pm=mean, n_sources=n_sources, interpolated=~printed.any(axis=0),
+            spread=spread, u_rounding=u_rounding, u_published=np.hypot(spread / 2.0, u_rounding),
+            values=[tuple((source, float(values[k, i]), bool(printed[k, i]))
+                          for k, source in enumerate(sources) if speaking[k, i])
+                    for i in range(m.size)])
+
+
+@functools.lru_cache(maxsize=32)
+def published_tables(electrolyte: Electrolyte, temperature_K: float) -> PublishedTables | None:
+    """Every published table of ``electrolyte`` at ``temperature_K`` [K], prepared once (read
+    only) for :meth:`PublishedTables.consensus`; None when there is none.
+
+    Examples
+    --------
+    >>> from activolt.chemistry.electrolytes import parse_electrolyte
+    >>> tables = published_tables(parse_electrolyte("HCl"), 298.15)
+    >>> float(tables.consensus([0.1]).gamma_pm[0])  # Robinson & Stokes; Hamer & Wu
+    0.7965
+    """
+    table = published_gamma(electrolyte.formula, temperature_K, all_sources=True)
+    if table is None:
+        return None
+    return PublishedTables.of(table, electrolyte, temperature_K)
 
 
 def interpolate_gamma(table: pd.DataFrame, molality: npt.ArrayLike, electrolyte: Electrolyte,
@@ -236,17 +399,4 @@ def interpolate_gamma(table: pd.DataFrame, molality: npt.ArrayLike, electrolyte:
     >>> [round(float(v), 3) for v in g[:2]], bool(np.isnan(g[2]))
     ([0.796, 0.767], True)
     """
-    from scipy.interpolate import PchipInterpolator
-
-    a_gamma = float(debye_hueckel_constants(temperature_K).agamma[0])
-
-    def extended_dh(m: np.ndarray) -> np.ndarray:
-        return extended_debye_hueckel(electrolyte, m, a_gamma)
-
-    mean = table.groupby("molality_mol_kg", sort=True)["gamma_pm"].mean()  # several sources
-    m_table = mean.index.to_numpy(float)
-    deviation = np.log(mean.to_numpy(float)) - extended_dh(m_table)
-    curve = PchipInterpolator(np.concatenate([[0.0], m_table]),
-                              np.concatenate([[0.0], deviation]), extrapolate=False)
-    m = np.asarray(molality, dtype=float)
-    return np.exp(curve(m) + extended_dh(m))
+    return GammaCurve(table, electrolyte, temperature_K)(molality)

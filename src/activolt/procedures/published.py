@@ -12,11 +12,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from ..activity.published import published_consensus, published_gamma
+from ..activity.published import published_tables
 from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
-__all__ = ["TableLayout", "column_values", "compare_with_published", "plain_values", "table_of"]
+__all__ = ["column_values", "compare_with_published", "plain_values", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -63,11 +63,9 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     u_difference = np.hypot(u_gamma, u_published)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
-    return table_of(found.layout.names, [
-        m, gamma, u_gamma, *found.layout.copies(("gamma_pm_published", "interpolated",
-                                                 "n_sources", "published_values",
-                                                 "spread_published", "u_published")),
-        difference, u_difference, ratio, *found.layout.copies(("source",))])
+    fixed = found.columns()
+    return table_of(_COLUMNS, [m, gamma, u_gamma, *fixed[:-1], difference, u_difference, ratio,
+                               fixed[-1]])
 
 
 def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
@@ -136,81 +134,63 @@ def plain_values(frame: pd.DataFrame, name: str) -> list[Any]:
     return values.to_numpy(dtype=object).tolist()
 
 
-@dataclass(frozen=True)
-class TableLayout:
-    """The columns of a table that stay the same from table to table, as pandas holds them,
-    taken once from a table built by ``pandas.DataFrame`` (the reference for their types).
-
-    Attributes
-    ----------
-    names : pandas.Index
-        Every column name of the table, in order.
-    fixed : mapping of str to array
-        The unchanging columns, read only; :meth:`copies` gives each table its own.
-    """
-
-    names: pd.Index
-    fixed: Mapping[str, Any]
-
-    @classmethod
-    def of(cls, frame: pd.DataFrame, fixed: Sequence[str]) -> TableLayout:
-        """The layout of ``frame`` with its columns ``fixed`` kept."""
-        kept = {}
-        for name in fixed:
-            column = frame[name]
-            kept[name] = (column.to_numpy(copy=True) if isinstance(column.dtype, np.dtype)
-                          else column.array.copy())
-            if isinstance(kept[name], np.ndarray):
-                kept[name].flags.writeable = False
-        return cls(names=frame.columns, fixed=MappingProxyType(kept))
-
-    def copies(self, names: Sequence[str]) -> list[Any]:
-        """Each fixed column ``names``, copied for one table."""
-        return [self.fixed[name].copy() for name in names]
+#: The columns of :func:`compare_with_published`, in order.
+_COLUMNS = pd.Index([
+    "molality_mol_kg", "gamma_pm", "u_gamma_pm", "gamma_pm_published", "interpolated",
+    "n_sources", "published_values", "spread_published", "u_published", "difference",
+    "u_difference", "difference_over_u", "source"])
+#: The columns that depend on the molalities only, as they follow ``u_gamma_pm``.
+_FIXED = ("gamma_pm_published", "interpolated", "n_sources", "published_values",
+          "spread_published", "u_published")
 
 
 @dataclass(frozen=True)
 class _Published:
-    """What the published tables say at a run's molalities, ready for each run's table."""
+    """What the published tables say at a run's molalities, ready for each run's table: the
+    columns that depend on the molalities only (read only; each table gets copies)."""
 
     published: np.ndarray
     u_published: np.ndarray
-    layout: TableLayout
+    fixed: Mapping[str, Any]
+    source: Any
+
+    def columns(self) -> list[Any]:
+        """The fixed columns, in order, then the source column, copied for one table."""
+        return [*(self.fixed[name].copy() for name in _FIXED), self.source.copy()]
+
+
+@functools.lru_cache(maxsize=64)
+def _source_column(source: str, rows: int) -> Any:
+    """The column of a table that gives ``source`` on each of its ``rows``, as pandas holds
+    a text broadcast to every row (read only)."""
+    return pd.DataFrame({"row": np.zeros(rows), "source": source})["source"].array
 
 
 @functools.lru_cache(maxsize=64)
 def _published_at(electrolyte: Electrolyte, temperature_K: float, molality: tuple[float, ...]
                   ) -> _Published | None:
-    """The published mean, its u and the table layout at ``molality``, or None without a
-    table; kept once worked out (read only), since the runs of a batch share their
-    molalities."""
-    table = published_gamma(electrolyte.formula, temperature_K, all_sources=True)
-    if table is None:
+    """The published mean, its u and the columns at ``molality`` that depend on nothing else,
+    or None without a table; kept once worked out (read only), since the runs of a batch often
+    share their molalities (the tables themselves are prepared once per electrolyte and
+    temperature, :func:`~activolt.activity.published.published_tables`)."""
+    tables = published_tables(electrolyte, temperature_K)
+    if tables is None:
         return None
-    m = np.asarray(molality, dtype=float)
-    consensus = published_consensus(table, m, electrolyte, temperature_K)
-    published = consensus["gamma_pm"].to_numpy(float)
-    u_published = consensus["u_published"].to_numpy(float)
-    nothing = np.full(m.size, np.nan)
-    # the table of a run with no γ± (NaN): only its fixed columns are taken
-    reference = pd.DataFrame({
-        "molality_mol_kg": m,
-        "gamma_pm": nothing,
-        "u_gamma_pm": nothing,
-        "gamma_pm_published": published,
-        "interpolated": consensus["interpolated"].to_numpy(bool),
-        "n_sources": consensus["n_sources"].to_numpy(int),
-        "published_values": consensus["values"].tolist(),
-        "spread_published": consensus["spread"].to_numpy(float),
-        "u_published": u_published,
-        "difference": nothing,
-        "u_difference": nothing,
-        "difference_over_u": nothing,
-        "source": "; ".join(dict.fromkeys(table["source"])),
-    })
+    consensus = tables.consensus(np.asarray(molality, dtype=float))
+    values = np.empty(len(consensus.values), dtype=object)
+    for i, value in enumerate(consensus.values):
+        values[i] = value
+    fixed = {"gamma_pm_published": consensus.gamma_pm.copy(),
+             "interpolated": consensus.interpolated.copy(),
+             "n_sources": consensus.n_sources.astype(int),
+             "published_values": values,
+             "spread_published": consensus.spread.copy(),
+             "u_published": consensus.u_published.copy()}
+    for array in fixed.values():
+        array.flags.writeable = False
+    published, u_published = consensus.gamma_pm.copy(), consensus.u_published.copy()
     for array in (published, u_published):
         array.flags.writeable = False
     return _Published(published=published, u_published=u_published,
-                      layout=TableLayout.of(reference, (
-                          "gamma_pm_published", "interpolated", "n_sources",
-                          "published_values", "spread_published", "u_published", "source")))
+                      fixed=MappingProxyType(fixed),
+                      source=_source_column("; ".join(tables.sources), values.size))
