@@ -255,3 +255,32 @@ def test_hueckel_sigma_skips_the_series_without_changing_a_digit(y):
     got = sigma(y)
     assert got.shape == expected.shape and isinstance(got, np.ndarray)
     assert np.array_equal(got, expected)
+
+
+@settings(max_examples=60, deadline=None)
+@given(data=st.data(), n_sources=st.integers(1, 9))
+def test_the_mean_of_several_tables_is_that_of_their_values_one_molality_at_a_time(
+        data, n_sources):
+    from activolt.activity.published import PublishedTables
+
+    grid = [0.001, 0.005, 0.01, 0.05, 0.1, 0.5, 1.0]
+    rows = []
+    for k in range(n_sources):
+        printed = data.draw(st.lists(st.sampled_from(grid), min_size=1, unique=True),
+                            label=f"molalities of table {k}")
+        for m in printed:
+            rows.append({"molality_mol_kg": m, "gamma_pm": data.draw(st.floats(0.3, 1.2)),
+                         "decimals": data.draw(st.integers(2, 4)), "source": f"table {k}"})
+    table = pd.DataFrame(rows)
+    c = PublishedTables.of(table).consensus(grid)
+    for i, here in enumerate(c.values):
+        if not here:
+            assert np.isnan(c.gamma_pm[i]) and c.n_sources[i] == 0
+            continue
+        values = np.array([v for _, v, _ in here])
+        assert c.gamma_pm[i] == values.mean()  # the same sum, in the same order
+        assert c.spread[i] == values.max() - values.min()
+        assert c.n_sources[i] == len(here)
+        decimals = table[table["source"].isin([s for s, _, _ in here])].groupby("source")[
+            "decimals"].max()
+        assert c.u_rounding[i] == max(0.5 * 10.0 ** -float(d) for d in decimals)

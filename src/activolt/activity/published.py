@@ -340,10 +340,21 @@ class PublishedTables:
         speaking = ~np.isnan(values)
         n_sources = speaking.sum(axis=0)
         mean, spread, u_rounding = (np.full(m.size, np.nan) for _ in range(3))
-        for i in np.flatnonzero(n_sources):
-            here = values[speaking[:, i], i]
-            mean[i], spread[i] = here.mean(), here.max() - here.min()
-            u_rounding[i] = half_digit[speaking[:, i]].max()
+        if len(sources) < 8:
+            # at once for every molality: a sum over fewer than 8 values adds them in order,
+            # as the mean of those that speak does (a 0 added for a silent table changes
+            # nothing); the largest and smallest are exact in any order
+            some = n_sources > 0
+            total = np.where(speaking, values, 0.0).sum(axis=0)
+            mean[some] = total[some] / n_sources[some]
+            spread[some] = (np.where(speaking, values, -np.inf).max(axis=0)[some]
+                            - np.where(speaking, values, np.inf).min(axis=0)[some])
+            u_rounding[some] = np.where(speaking, half_digit[:, None], -np.inf).max(axis=0)[some]
+        else:
+            for i in np.flatnonzero(n_sources):
+                here = values[speaking[:, i], i]
+                mean[i], spread[i] = here.mean(), here.max() - here.min()
+                u_rounding[i] = half_digit[speaking[:, i]].max()
         silent = np.flatnonzero(n_sources == 0)
         curve = self.mean_curve
         if silent.size and curve is not None:
