@@ -479,8 +479,8 @@ def record_document(text: str | bytes) -> Any:
 
     For the very text :func:`record_json` last returned in this thread (the same object, as
     an output set passes it from the record to its HTML report), the record it was written
-    from is given instead of parsing the text again: the same content (``json_text`` writes
-    the record exactly), read only by the caller.
+    from is given instead of parsing the text again, once: the same content (``json_text``
+    writes the record exactly), which nothing else holds; asked again, the text is parsed.
 
     Parameters
     ----------
@@ -498,7 +498,9 @@ def record_document(text: str | bytes) -> Any:
     {'a': [1, 2.5]}
     """
     if text is getattr(_LAST_WRITTEN, "text", None):
-        return _LAST_WRITTEN.document
+        document = _LAST_WRITTEN.document
+        _LAST_WRITTEN.text = _LAST_WRITTEN.document = None
+        return document
     return json.loads(text)
 
 
