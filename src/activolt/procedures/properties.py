@@ -33,6 +33,10 @@ _PROPERTY_COLUMNS = pd.Index([
     "u_excess_gibbs_J_kg"])
 
 
+#: Most readings of a series whose Debye–Hückel constants are kept for the next series.
+_KEPT_READINGS = 1000
+
+
 @functools.lru_cache(maxsize=64)
 def _constants_at(temperature: bytes) -> DebyeHueckelConstants:
     """The Debye–Hückel constants at the temperatures packed in ``temperature`` (float64
@@ -174,7 +178,8 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     model = reduction.model
     molality = run.arrays["molality_mol_kg"][usable]
     temperature = run.arrays["temperature_K"][usable]
-    constants = _constants_at(np.ascontiguousarray(temperature, dtype=float).tobytes())
+    constants = (_constants_at(np.ascontiguousarray(temperature, dtype=float).tobytes())
+                 if temperature.size <= _KEPT_READINGS else debye_hueckel_constants(temperature))
     values = reduction.model_parameter_values
     names = reduction.uncertain_names or reduction.free_names
     matrix = (reduction.covariance if reduction.uncertain_covariance is None

@@ -115,12 +115,12 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     properties = derived.properties
     # a_w is within 10⁻⁴ of 1 at the dilute end: 1 − a_w shows the digits that carry
     # information, as many as its uncertainty supports (u(1 − a_w) = u(a_w)).
+    columns = [plain_values(properties, name) for name in (
+        "molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient", "water_activity",
+        "u_water_activity", "excess_gibbs_rt_mol_kg", "u_excess_gibbs_rt_mol_kg")]
     cells = [[f"{m:.6g}", format_with_uncertainty(phi, u_phi),
               format_compact(1.0 - a_w, u_a_w), format_compact(g_rt, u_g_rt)]
-             for m, phi, u_phi, a_w, u_a_w, g_rt, u_g_rt in zip(*(plain_values(properties, name)
-                 for name in ("molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient",
-                              "water_activity", "u_water_activity", "excess_gibbs_rt_mol_kg",
-                              "u_excess_gibbs_rt_mol_kg")), strict=True)]
+             for m, phi, u_phi, a_w, u_a_w, g_rt, u_g_rt in zip(*columns, strict=True)]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
     lines += ["", "  derived from the fitted model (k = 1)", *aligned_lines([header, *cells])]
     if reduction.budget:
