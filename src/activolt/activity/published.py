@@ -15,6 +15,7 @@ import functools
 import math
 import re
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -71,6 +72,11 @@ def published_gamma(formula: str, temperature_K: float,
     t_K = table["temperature_C"] + ZERO_CELSIUS_K
     rows = table[(table["electrolyte"] == formula)
                  & ((t_K - temperature_K).abs() <= TEMPERATURE_TOLERANCE_K)]
+    return _ordered(rows, all_sources)
+
+
+def _ordered(rows: pd.DataFrame, all_sources: bool) -> pd.DataFrame | None:
+    """The rows of the reference table as :func:`published_gamma` gives them."""
     if not all_sources:
         rows = rows[rows["principal"]]
     if rows.empty:
@@ -78,6 +84,15 @@ def published_gamma(formula: str, temperature_K: float,
     rows = rows.sort_values(["molality_mol_kg", "principal"], ascending=[True, False],
                             kind="stable")
     return rows[["molality_mol_kg", "gamma_pm", "decimals", "source"]].reset_index(drop=True)
+
+
+@functools.lru_cache(maxsize=64)
+def _rows_of(formula: str) -> tuple[np.ndarray, np.ndarray]:
+    """(positions in the reference table, temperatures [K]) of the rows of ``formula``."""
+    table = load_table("mean_activity_coefficients")
+    t_K = (table["temperature_C"] + ZERO_CELSIUS_K).to_numpy(float)
+    rows = (table["electrolyte"] == formula).to_numpy(bool)
+    return np.flatnonzero(rows), t_K[rows]
 
 
 def source_label(source: str) -> str:
@@ -200,25 +215,30 @@ class GammaCurve:
 
     Parameters
     ----------
-    table : pandas.DataFrame
-        Rows of :func:`published_gamma` (one or several sources).
+    means : tuple of numpy.ndarray
+        The table's molalities and ln of the mean γ± there (:meth:`means_of`).
     electrolyte : Electrolyte
         The electrolyte (its extended Debye–Hückel term).
     temperature_K : float
         Temperature of the Debye–Hückel term [K].
     """
 
-    def __init__(self, table: pd.DataFrame, electrolyte: Electrolyte,
+    def __init__(self, means: tuple[np.ndarray, np.ndarray], electrolyte: Electrolyte,
                  temperature_K: float) -> None:
         from scipy.interpolate import PchipInterpolator
 
         self.electrolyte = electrolyte
         self.a_gamma = float(debye_hueckel_constants(temperature_K).agamma[0])
-        mean = table.groupby("molality_mol_kg", sort=True)["gamma_pm"].mean()  # several sources
-        m_table = mean.index.to_numpy(float)
-        deviation = np.log(mean.to_numpy(float)) - self._extended_dh(m_table)
+        m_table, ln_mean = means
+        deviation = ln_mean - self._extended_dh(m_table)
         self.curve = PchipInterpolator(np.concatenate([[0.0], m_table]),
                                        np.concatenate([[0.0], deviation]), extrapolate=False)
+
+    @staticmethod
+    def means_of(table: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+        """(the molalities of ``table``, ln of the mean γ± of its rows at each), sorted."""
+        mean = table.groupby("molality_mol_kg", sort=True)["gamma_pm"].mean()  # several sources
+        return mean.index.to_numpy(float), np.log(mean.to_numpy(float))
 
     def _extended_dh(self, m: np.ndarray) -> np.ndarray:
         return extended_debye_hueckel(self.electrolyte, m, self.a_gamma)
@@ -237,6 +257,7 @@ class _Source:
     molality: np.ndarray
     gamma_pm: np.ndarray
     half_digit: float
+    means: tuple[np.ndarray, np.ndarray]
     curve: GammaCurve | None
     first_ionic_strength: float
 
@@ -293,6 +314,8 @@ class PublishedTables:
     electrolyte: Electrolyte | None
     temperature_K: float
     prepared: tuple[_Source, ...]
+    #: what does not depend on the temperature, worked out once for every :meth:`at`
+    kept: dict[str, Any] = dataclasses.field(default_factory=dict, repr=False)
 
     @classmethod
     def of(cls, table: pd.DataFrame, electrolyte: Electrolyte | None = None,
@@ -306,26 +329,39 @@ class PublishedTables:
             prepared.append(_Source(
                 name=source, molality=printed_m, gamma_pm=rows["gamma_pm"].to_numpy(float),
                 half_digit=0.5 * 10.0 ** -float(rows["decimals"].max()),
-                curve=None if electrolyte is None else GammaCurve(rows, electrolyte,
-                                                                   temperature_K),
+                means=GammaCurve.means_of(rows), curve=None,
                 first_ionic_strength=(math.nan if electrolyte is None else
                                       float(electrolyte.ionic_strength(printed_m[0])))))
         return cls(table=table, sources=sources, electrolyte=electrolyte,
-                   temperature_K=temperature_K, prepared=tuple(prepared))
+                   temperature_K=temperature_K, prepared=tuple(prepared)).at(temperature_K)
+
+    def at(self, temperature_K: float) -> PublishedTables:
+        """The same tables, interpolated with the Debye–Hückel term at ``temperature_K`` [K]
+        (what depends on the temperature only is worked out again)."""
+        electrolyte = self.electrolyte
+        return dataclasses.replace(self, temperature_K=temperature_K, prepared=tuple(
+            dataclasses.replace(s, curve=None if electrolyte is None else GammaCurve(
+                s.means, electrolyte, temperature_K)) for s in self.prepared))
 
     @functools.cached_property
     def mean_curve(self) -> GammaCurve | None:
         """The interpolant of the mean of all tables (None without an electrolyte)."""
         if self.electrolyte is None:
             return None
-        return GammaCurve(self.table, self.electrolyte, self.temperature_K)
+        if "means" not in self.kept:
+            self.kept["means"] = GammaCurve.means_of(self.table)
+        return GammaCurve(self.kept["means"], self.electrolyte, self.temperature_K)
 
-    @functools.cached_property
+    @property
     def printed(self) -> Consensus:
         """The consensus at every molality a table prints, read without interpolation."""
-        printed_m = np.unique(self.table["molality_mol_kg"].to_numpy(float))
-        return dataclasses.replace(self, electrolyte=None, prepared=tuple(
-            dataclasses.replace(s, curve=None) for s in self.prepared)).consensus(printed_m)
+        if "printed" not in self.kept:
+            printed_m = np.unique(self.table["molality_mol_kg"].to_numpy(float))
+            self.kept["printed"] = dataclasses.replace(
+                self, electrolyte=None, kept={},
+                prepared=tuple(dataclasses.replace(s, curve=None) for s in self.prepared),
+            ).consensus(printed_m)
+        return self.kept["printed"]
 
     def consensus(self, molality: npt.ArrayLike) -> Consensus:
         """What the tables say at ``molality`` [mol kg⁻¹], as :func:`published_consensus`."""
@@ -378,7 +414,9 @@ class PublishedTables:
 @functools.lru_cache(maxsize=32)
 def published_tables(electrolyte: Electrolyte, temperature_K: float) -> PublishedTables | None:
     """Every published table of ``electrolyte`` at ``temperature_K`` [K], prepared once (read
-    only) for :meth:`PublishedTables.consensus`; None when there is none.
+    only) for :meth:`PublishedTables.consensus`; None when there is none. The rows are prepared
+    once for every temperature that selects them; only the interpolants are made again for
+    another temperature.
 
     Examples
     --------
@@ -387,10 +425,24 @@ def published_tables(electrolyte: Electrolyte, temperature_K: float) -> Publishe
     >>> float(tables.consensus([0.1]).gamma_pm[0])  # Robinson & Stokes; Hamer & Wu
     0.7965
     """
-    table = published_gamma(electrolyte.formula, temperature_K, all_sources=True)
-    if table is None:
+    positions, t_K = _rows_of(electrolyte.formula)
+    selected = tuple(int(k) for k in positions[np.abs(t_K - temperature_K)
+                                               <= TEMPERATURE_TOLERANCE_K])
+    if not selected:
         return None
-    return PublishedTables.of(table, electrolyte, temperature_K)
+    tables = _tables_of(electrolyte, selected)
+    return tables if tables.temperature_K == temperature_K else tables.at(temperature_K)
+
+
+@functools.lru_cache(maxsize=32)
+def _tables_of(electrolyte: Electrolyte, selected: tuple[int, ...]) -> PublishedTables:
+    """The tables of the reference rows ``selected``, prepared (at the temperature of their
+    first row)."""
+    rows = load_table("mean_activity_coefficients").iloc[list(selected)]
+    table = _ordered(rows, all_sources=True)
+    assert table is not None  # selected is not empty
+    return PublishedTables.of(table, electrolyte,
+                              float(rows["temperature_C"].iloc[0]) + ZERO_CELSIUS_K)
 
 
 def interpolate_gamma(table: pd.DataFrame, molality: npt.ArrayLike, electrolyte: Electrolyte,
@@ -410,4 +462,4 @@ def interpolate_gamma(table: pd.DataFrame, molality: npt.ArrayLike, electrolyte:
     >>> [round(float(v), 3) for v in g[:2]], bool(np.isnan(g[2]))
     ([0.796, 0.767], True)
     """
-    return GammaCurve(table, electrolyte, temperature_K)(molality)
+    return GammaCurve(GammaCurve.means_of(table), electrolyte, temperature_K)(molality)
