@@ -25,10 +25,9 @@ from synthetic import emf_from_gamma
 
 from activolt.cli import main
 from activolt.data.runs import read_run, read_runs, runs_from_frame
-from activolt.errors import InputError
+from activolt.errors import FitError, InputError
 from activolt.io.summary import summary_csv
 from activolt.physics.water import debye_hueckel_constants
-from activolt.errors import FitError
 from activolt.procedures.dilution import Reduction, reduce_run, reduce_runs
 from activolt.procedures.many import SUMMARY_COLUMNS, reduce_many, series_name
 

@@ -202,7 +202,7 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
             written: list[Path] | None = None) -> list[Path]:
     from .data.runs import Exclusion, exclude_points, read_run
     from .io.files import check_outputs
-    from .io.record import points_csv, record_json
+    from .io.record import points_csv, written_record
     from .procedures.dilution import reduce_run
     from .procedures.properties import derive_results
     from .report.text import format_report
@@ -248,8 +248,9 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
     report = format_report(reduction, comparison=comparison, monte_carlo=monte, derived=derived)
     report = escape_controls(report if report.endswith("\n") else report + "\n", keep="\n")
     record_folder = (record_elsewhere or out / record_name).parent
-    record = record_json(reduction, comparison=comparison, monte_carlo=monte,
-                         record_folder=record_folder, derived=derived)
+    written_as = written_record(reduction, comparison=comparison, monte_carlo=monte,
+                                record_folder=record_folder, derived=derived)
+    record = written_as.text
     contents: dict[str, bytes | str] = {record_name: record} if record_name else {}
     contents[f"{base}.points.csv"] = points_csv(reduction)
     contents[f"{base}.report.txt"] = report
@@ -261,7 +262,8 @@ def _reduce(run_path: Path, meta: Path | None, model: str, fixed: dict[str, floa
         for name, png in drawn.items():
             contents[f"{base}.{name}.png"] = png
     contents[f"{base}.report.html"] = _html_report(
-        record, drawn, record_name or (record_elsewhere.name if record_elsewhere else None))
+        record, drawn, record_name or (record_elsewhere.name if record_elsewhere else None),
+        written_as.document)
     return _write_set(out, contents, owned, inputs, record_elsewhere, record, report, written)
 
 
@@ -303,18 +305,18 @@ def _write_set(out: Path, contents: dict, owned: list[str], inputs: list[Path],
     return done
 
 
-def _html_report(record: str | bytes, figures: dict[str, bytes], record_name: str | None
-                 ) -> str:
-    """``RUN.report.html`` from the record's JSON text as written and the set's figures (the
-    record read back by :func:`activolt.io.record.record_document`)."""
+def _html_report(record: str | bytes, figures: dict[str, bytes], record_name: str | None,
+                 document: dict[str, Any] | None = None) -> str:
+    """``RUN.report.html`` from the record's JSON text as written and the set's figures;
+    ``document``: the record that text holds, when known (else the text is read back)."""
     import hashlib
+    import json
 
-    from .io.record import record_document
     from .report.html import report_html
 
     data = record.encode("utf-8") if isinstance(record, str) else record
-    return report_html(record_document(record), figures, record_name,
-                       hashlib.sha256(data).hexdigest())
+    return report_html(json.loads(data) if document is None else document, figures,
+                       record_name, hashlib.sha256(data).hexdigest())
 
 
 def _record_place(base: str, out: Path, json_path: Path | None) -> tuple[str | None, Path | None]:
@@ -494,7 +496,7 @@ class _SeriesJob:
     def _written(self, index: int, outcome: SeriesReduction, staged: StagedFolder
                  ) -> _SeriesDone:
         """Series ``index``'s outputs written into ``staged``."""
-        from .io.record import points_csv, record_json
+        from .io.record import points_csv, written_record
         from .procedures.many import summary_row
         from .procedures.properties import derive_results
         from .report.text import format_report
@@ -520,8 +522,9 @@ class _SeriesJob:
         derived = derive_results(reduction)  # once, for the report and the record alike
         report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
                                derived=derived)
-        record = record_json(reduction, comparison=outcome.comparison, monte_carlo=monte,
-                             record_folder=self.out, derived=derived)
+        written_as = written_record(reduction, comparison=outcome.comparison,
+                                    monte_carlo=monte, record_folder=self.out, derived=derived)
+        record = written_as.text
         contents: dict[str, str | bytes] = {
             f"{base}.record.json": record, f"{base}.points.csv": points_csv(reduction),
             f"{base}.report.txt": escape_controls(
@@ -532,7 +535,8 @@ class _SeriesJob:
 
             drawn = render_figures(reduction)
             contents.update({f"{base}.{kind}.png": png for kind, png in drawn.items()})
-        contents[f"{base}.report.html"] = _html_report(record, drawn, f"{base}.record.json")
+        contents[f"{base}.report.html"] = _html_report(record, drawn, f"{base}.record.json",
+                                                       written_as.document)
         for name, content in contents.items():
             staged.write(name, content)
         e0 = reduction.standard_potential

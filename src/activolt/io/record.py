@@ -13,9 +13,9 @@ import json.encoder
 import math
 import os
 import platform
-import threading
 from collections.abc import Mapping
 from contextvars import ContextVar
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from importlib.metadata import PackageNotFoundError
 from importlib.metadata import version as package_version
@@ -463,45 +463,29 @@ def record_json(reduction: Reduction, created: datetime | None = None,
     With ``record_folder`` (where the record is written), the input files are named relative
     to it.
     """
+    return written_record(reduction, created, comparison, monte_carlo, record_folder,
+                          derived).text
+
+
+@dataclass(frozen=True)
+class WrittenRecord:
+    """A record's JSON text and the record it holds (``json.loads(text)``, the same content:
+    :func:`json_text` writes the record exactly), for outputs made from both, such as the HTML
+    report, without reading the text back."""
+
+    text: str
+    document: dict[str, Any]
+
+
+def written_record(reduction: Reduction, created: datetime | None = None,
+                   comparison: ModelComparison | None = None,
+                   monte_carlo: MonteCarloResult | None = None,
+                   record_folder: Path | None = None,
+                   derived: DerivedResults | None = None) -> WrittenRecord:
+    """The record of a reduction as text and as the document it holds (arguments as for
+    :func:`record_json`)."""
     document = build_record(reduction, created, comparison, monte_carlo, record_folder, derived)
-    text = json_text(document)
-    _LAST_WRITTEN.text, _LAST_WRITTEN.document = text, document
-    return text
-
-
-#: The text :func:`record_json` last returned in this thread and the record it was written
-#: from (which nothing else holds), for :func:`record_document`.
-_LAST_WRITTEN = threading.local()
-
-
-def record_document(text: str | bytes) -> Any:
-    """The record a record's JSON text holds: ``json.loads(text)``.
-
-    For the very text :func:`record_json` last returned in this thread (the same object, as
-    an output set passes it from the record to its HTML report), the record it was written
-    from is given instead of parsing the text again, once: the same content (``json_text``
-    writes the record exactly), which nothing else holds; asked again, the text is parsed.
-
-    Parameters
-    ----------
-    text : str or bytes
-        A record's JSON text.
-
-    Returns
-    -------
-    Any
-        The record (a dict for an activolt record).
-
-    Examples
-    --------
-    >>> record_document('{"a": [1, 2.5]}')
-    {'a': [1, 2.5]}
-    """
-    if text is getattr(_LAST_WRITTEN, "text", None):
-        document = _LAST_WRITTEN.document
-        _LAST_WRITTEN.text = _LAST_WRITTEN.document = None
-        return document
-    return json.loads(text)
+    return WrittenRecord(json_text(document), document)
 
 
 def load_record(source: str | Path) -> dict[str, Any]:
