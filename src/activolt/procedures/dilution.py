@@ -784,7 +784,7 @@ def _within_range(run: Run, family: ActivityModel) -> tuple[Run, str | None]:
 
 
 def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
-                       fit: _Fit) -> np.ndarray | None:
+                       fit: _Fit, sensitivity: np.ndarray) -> np.ndarray | None:
     """How (E°, free parameters) would move if the readings followed the model plus the term it
     leaves out (:attr:`ActivityModel.truncation`): δp = S δE, δE = −σ s k Δln γ± (first order);
     None for models without such a term."""
@@ -793,8 +793,7 @@ def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: Se
     model_values = {name: fit.values[name] for name in family.parameter_names}
     delta = family.truncation(electrolyte, data.molality, data.constants, model_values)
     slope = fit.values.get(SLOPE, data.slope)
-    return sensitivity_matrix(fit.jacobian, data.weights) @ (
-        -data.sign * slope * data.nernst_V * delta)
+    return sensitivity @ (-data.sign * slope * data.nernst_V * delta)
 
 def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit) -> LackOfFit:
     """The lack-of-fit rule (:func:`activolt.fit.lack_of_fit.judge_lack_of_fit`) applied to the
@@ -1092,6 +1091,8 @@ class _Judged:
     chi2_p: float
     runs_p: float
     warning: str | None
+    #: S = (JᵀWJ)⁻¹JᵀW of the final fit (with the final weights), P × N
+    sensitivity: np.ndarray
 
 
 def _judge(held: _Held, family: ActivityModel) -> _Judged:
@@ -1112,7 +1113,8 @@ def _judge(held: _Held, family: ActivityModel) -> _Judged:
                       "replicate readings of one solution do")
                    + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
     return _Judged(held=held, data=data, fit=fit, birge=birge, birge_dof=birge_dof,
-                   chi2_p=chi2_p, runs_p=runs_p, warning=warning)
+                   chi2_p=chi2_p, runs_p=runs_p, warning=warning,
+                   sensitivity=sensitivity_matrix(fit.jacobian, data.weights))
 
 
 @dataclass(frozen=True)
@@ -1137,7 +1139,7 @@ def _covariance_components(judged: _Judged, start: _Start) -> _Components:
     covariance = fit.covariance
     notes = []
     effects = _held_parameter_effects(
-        family, electrolyte, data, fit,
+        family, electrolyte, data, fit, judged.sensitivity,
         [n for n in judged.held.reasons if n not in start.fixed or n in start.fixed_u],
         start.fixed_u)
     type_b = None
@@ -1150,13 +1152,14 @@ def _covariance_components(judged: _Judged, start: _Start) -> _Components:
         notes.append("u(E°) includes a component of "
                      f"{math.sqrt(type_b[0, 0]) * 1e3:.3g} mV from the uncertainty of the held "
                      "conventional value(s) (GUM Type B)")
-    truncation = _truncation_effect(family, electrolyte, data, fit)
+    truncation = _truncation_effect(family, electrolyte, data, fit, judged.sensitivity)
     if truncation is not None:
         covariance = covariance + np.outer(truncation, truncation)
         notes.append(f"u(E°) includes {abs(truncation[0]) * 1e3:.3g} mV for the terms the "
                      f"{family.title} leaves out (extended Debye–Hückel with Bå = 1.5; GUM "
                      "Type B)")
-    common = _common_input_effects(run, family, electrolyte, data, fit, start.data)
+    common = _common_input_effects(run, family, electrolyte, data, fit, start.data,
+                                   judged.sensitivity)
     for _, u, shift, _ in common:
         covariance = covariance + np.outer(shift, shift) * u**2
     if effects is None:
@@ -1177,15 +1180,15 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     data = judged.data
     fit = dataclasses.replace(judged.fit, covariance=parts.covariance)
     warnings = [*start.warnings, *([judged.warning] if judged.warning else [])]
-    budget = _budget(run, data, fit, parts.type_b, parts.common, judged.birge,
+    budget = _budget(run, data, fit, judged.sensitivity, parts.type_b, parts.common, judged.birge,
                      parts.truncation)
     stats = _statistics(fit, data, judged.birge, judged.birge_dof, judged.chi2_p,
                         judged.runs_p)
     if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
             MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
         warnings.append(MODEL_CHOICE_REMINDER)
-    columns, gamma_propagation = _points_columns(run, family, data, fit, parts.type_b,
-                                                 parts.uncertain_names,
+    columns, gamma_propagation = _points_columns(run, family, data, fit, judged.sensitivity,
+                                                 parts.type_b, parts.uncertain_names,
                                                  parts.uncertain_covariance, parts.common,
                                                  parts.truncation)
     diagnostics, diagnosed = _diagnose(run, data, fit)
@@ -1238,7 +1241,8 @@ SHARED_INPUTS = ("stock molality", "electrode offset")
 
 
 def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrolyte,
-                          data: SeriesData, fit: _Fit, plain: SeriesData
+                          data: SeriesData, fit: _Fit, plain: SeriesData,
+                          sensitivity: np.ndarray
                           ) -> list[tuple[str, float, np.ndarray, np.ndarray]]:
     """For each input shared by all readings with a stated uncertainty (the run temperature, the
     barometric pressure): (name, u, ∂(E°, free parameters)/∂input, ∂ ln γ±/∂input).
@@ -1279,7 +1283,6 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
                        dataclasses.replace(meta, barometric_pressure_Pa=barometric)))
     if not shifts:
         return []
-    sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     plain_residual = plain.emf_V - predict_emf(family, electrolyte, plain, fit.e0, fit.values)
     slope = fit.values.get(SLOPE, data.slope)
     ln_gamma = (fit.e0 - data.emf_V) * data.sign / (slope * data.nernst_V) - data.ln_mean_molality
@@ -1297,12 +1300,12 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     return effects
 
 
-def _budget(run: Run, data: SeriesData, fit: _Fit, type_b: np.ndarray | None,
-            common: list[tuple[str, float, np.ndarray, np.ndarray]],
+def _budget(run: Run, data: SeriesData, fit: _Fit, sensitivity: np.ndarray,
+            type_b: np.ndarray | None, common: list[tuple[str, float, np.ndarray, np.ndarray]],
             birge: float = 1.0, truncation: np.ndarray | None = None
             ) -> tuple[BudgetLine, ...]:
     """Contributions to u(E°), each as the standard uncertainty it alone gives E°."""
-    s = sensitivity_matrix(fit.jacobian, data.weights)[0]
+    s = sensitivity[0]
     lines = []
     if data.stated_uncertainty:
         reading = float(np.sqrt(np.sum(s**2 * data.u_emf_V**2)))
@@ -1464,13 +1467,13 @@ def _statistics(fit: _Fit, data: SeriesData, birge: float, birge_dof: int, chi2_
 
 
 def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
-                            fit: _Fit, held: list[str], given_u: Mapping[str, float]
+                            fit: _Fit, sensitivity: np.ndarray, held: list[str],
+                            given_u: Mapping[str, float]
                             ) -> tuple[list[str], np.ndarray, np.ndarray] | None:
     """Parameters held with an uncertainty — a convention's stated one, or one the user gave
     with the value (``given_u``): their names, how (E°, free parameters) move with each,
     M = −S ∂E/∂θ_h (P × H), and their variances u²(θ_h) (GUM 5.1.2, to first order); None
     when there are none."""
-    sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     names, columns, variances = [], [], []
     for name in held:
         spec = parameter_spec(model, name)
@@ -1491,7 +1494,8 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
 
 
 def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
-                    type_b: np.ndarray | None, uncertain_names: tuple[str, ...],
+                    sensitivity: np.ndarray, type_b: np.ndarray | None,
+                    uncertain_names: tuple[str, ...],
                     uncertain_covariance: np.ndarray,
                     common: list[tuple[str, float, np.ndarray, np.ndarray]],
                     truncation: np.ndarray | None = None
@@ -1500,7 +1504,6 @@ def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
     the budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
     electrolyte = run.metadata.electrolyte
     n = len(data.emf_V)
-    sensitivity = sensitivity_matrix(fit.jacobian, data.weights)
     reading_var = (1.0 / data.weights if data.stated_uncertainty
                    else np.full(n, fit.chi2 / fit.dof))
     usable = run.usable
