@@ -399,6 +399,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     # ln γ± at the current values of the series iterated (``base``, for the rows ``base_rows``)
     # and of every series (``lng``): each step's trial evaluates it, the next step reuses it.
     base, base_rows, lng_copy = lng, n_series, None  # (lng_copy: lng once it is our own)
+    sub = model  # the model of the series iterated (``rows``)
     # The Jacobian rows at the current values of those series (None: not yet known). A step
     # that is not taken leaves them as they were; for a small batch, each trial's model
     # evaluation gives them at the trial too (in the same call), ready if the step is taken.
@@ -411,8 +412,8 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             break
         # All series still iterating: views instead of copies of the rows.
         pick: slice | np.ndarray = slice(None) if rows.size == n_series else rows
-        sub = model if rows.size == n_series else _rows(model, rows)
         if rows.size != base_rows:  # (the rows only ever become fewer)
+            sub = model if rows.size == n_series else _rows(model, rows)
             base, base_rows, jac_rows = sub.ln_gamma(values[pick]), rows.size, None
         current = values[pick]
         if jac_rows is None:
