@@ -669,6 +669,27 @@ def _fitted(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
     return result
 
 
+def _first_fit(run: Run, model: ActivityModel, data: SeriesData, values: dict[str, float],
+               free: list[str]
+               ) -> Generator[list[_FitRequest], list[_Fit | FitError],
+                              tuple[_Fit, dict[str, _Fit | FitError] | None]]:
+    """The first fit as a step, and, when the readings will not be refined after it (no vapour
+    lowering, no u(m)), the fits that test holding each parameter (:func:`_not_supported`)
+    solved with it: the tests the fit would ask for next, started at the starting values
+    rather than at the fit's optimum (None when they are not solved ahead)."""
+    electrolyte = run.metadata.electrolyte
+    ahead = ([] if _lowers_vapour(run, data) or _weighs_molality(data)
+             else _bic_candidates(model, electrolyte, data, values, free))
+    if not ahead or any(request is None for _, request in ahead):
+        fit = yield from _fitted(model, electrolyte, data, values, free)
+        return fit, None
+    first, *others = yield [_fit_request(model, electrolyte, data, values, free),
+                            *(request for _, request in ahead if request is not None)]
+    if isinstance(first, FitError):
+        raise first
+    return first, {name: held for (name, _), held in zip(ahead, others, strict=True)}
+
+
 def _alone(steps: Generator[list[_FitRequest], list[_Fit | FitError], _T]) -> _T:
     """What a chain of steps returns, each fit it asks for solved as a batch of one."""
     try:
@@ -1033,19 +1054,8 @@ def _fit_and_hold(start: _Start
             reasons[name] = (f"too few readings to fit it ({n})" if n - 1 - len(free) < 0
                              else f"too few distinct molalities to fit it ({solutions})")
         tested: dict[str, _Fit | FitError] | None = None
-        ahead = ([] if first_fit is not None or _lowers_vapour(run, data)
-                 or _weighs_molality(data) else
-                 _bic_candidates(family, electrolyte, data, values, free))
-        if ahead and all(request is not None for _, request in ahead):
-            # The first fit and the fits that test holding a parameter, solved together: the
-            # readings will not be refined, so the tests are the ones the fit would ask for
-            # next, started at the starting values rather than at the fit's optimum.
-            first, *others = yield [_fit_request(family, electrolyte, data, values, free),
-                                    *(request for _, request in ahead if request is not None)]
-            if isinstance(first, FitError):
-                raise first
-            fit, tested = first, {name: held for (name, _), held in
-                                  zip(ahead, others, strict=True)}
+        if first_fit is None:
+            fit, tested = yield from _first_fit(run, family, data, values, free)
         else:
             fit = yield from _fitted(family, electrolyte, data, values, free)
         if first_fit is None:
