@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-import numpy as np
+import math
+
 import pandas as pd
 
 from ..procedures.published import column_values, plain_values
@@ -59,7 +60,7 @@ def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
                 "interpolated")), published_values,
             *(plain_values(comparison, name) for name in (
                 "spread_published", "difference", "difference_over_u")), strict=True):
-        if np.isnan(mean_value):
+        if math.isnan(mean_value):
             continue
         places = max(3, decimals_for(u_gamma))
         shown = " ".join((f"{value:.3f}" if printed else f"({value:.4f})") + letters[source]

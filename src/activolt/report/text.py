@@ -218,8 +218,10 @@ def _series(points: object) -> str | None:
 
 def _gamma_budget_lines(points: pd.DataFrame) -> list[str]:
     """u(γ±) by input at the most dilute, a middle and the most concentrated reading."""
-    with_gamma = np.flatnonzero(pd.notna(column_values(points, "gamma_pm")))
-    columns = [c for c in points.columns.tolist()
+    gamma = column_values(points, "gamma_pm")
+    plain_float = isinstance(gamma, np.ndarray) and gamma.dtype.kind == "f"
+    with_gamma = np.flatnonzero(~np.isnan(gamma) if plain_float else pd.notna(gamma))
+    columns = [c for c in points.columns.to_numpy(dtype=object).tolist()
                if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
     if not with_gamma.size or not columns:
         return []
