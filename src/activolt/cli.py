@@ -616,6 +616,11 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
 
     context = multiprocessing.get_context("fork")
     started: list[tuple[Any, Any]] = []
+    # The modules that write a series' outputs, imported once here for every worker to inherit
+    # (each worker would otherwise import them after the fork, about half a second each).
+    from .io import record  # noqa: F401
+    from .procedures import properties  # noqa: F401
+    from .report import html, text  # noqa: F401
     for stream in (sys.stdout, sys.stderr):  # not to be written again by a worker on its exit
         if stream is not None:
             stream.flush()
