@@ -51,6 +51,8 @@ def _water_state(temperature_K: float) -> tuple[float, float]:
 
 def _per_temperature(function, temperature: npt.ArrayLike) -> np.ndarray:
     values = np.asarray(temperature, dtype=float)
+    if values.size and bool((values == values.flat[0]).all()):  # one temperature (a run's)
+        return np.full(values.shape, float(function(float(values.flat[0]))))
     distinct, where = np.unique(values.ravel(), return_inverse=True)
     once = np.asarray([function(float(t)) for t in distinct], dtype=float)
     return once[where].reshape(values.shape)
