@@ -166,10 +166,11 @@ def test_prepared_tables_say_what_the_tables_say(formula, temperature, molality)
 def _stub(gamma):
     from types import SimpleNamespace
 
-    points = pd.DataFrame({"molality_mol_kg": [0.01, 0.05, 0.1, 0.2],
-                           "gamma_pm": gamma, "u_gamma_pm": [0.001, 0.001, 0.001, 0.001]})
+    # what compare_with_published reads of a reduction: the run's points and its own columns
+    run = SimpleNamespace(points=pd.DataFrame({"molality_mol_kg": [0.01, 0.05, 0.1, 0.2]}))
+    columns = {"gamma_pm": np.array(gamma), "u_gamma_pm": np.full(4, 0.001)}
     return SimpleNamespace(electrolyte=parse_electrolyte("HCl"), temperature_K=298.15,
-                           points=points)
+                           run=run, point_columns=columns)
 
 
 def test_runs_sharing_molalities_each_get_their_own_comparison():

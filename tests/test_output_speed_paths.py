@@ -32,7 +32,7 @@ from hypothesis import strategies as st
 
 from activolt.data.runs import Exclusion, exclude_points, read_run
 from activolt.io.record import build_record, json_text, record_json
-from activolt.procedures.dilution import reduce_run
+from activolt.procedures.dilution import OUT_OF_RANGE, reduce_run
 from activolt.procedures.many import series_reducer
 from activolt.report.certificate import text
 from activolt.report.html import report_html
@@ -326,3 +326,79 @@ def test_the_written_record_holds_what_its_text_reads_back_as(reductions, case):
     assert written.text == record_json(reduction, created, comparison=comparison)
     assert report_html(written.document, {}, "r.record.json", "0" * 64) == report_html(
         parsed, {}, "r.record.json", "0" * 64)
+
+
+# --- the points read column by column, with any flags ---------------------------------------
+
+_FLAG_VALUES = st.none() | st.just(math.nan) | st.sampled_from(
+    ["no reading", "excluded: bubbles", "excluded: drift", "excluded", OUT_OF_RANGE + " (I > 1)",
+     "other"]) | st.text(max_size=4)
+_DIAGNOSTIC_VALUES = st.none() | st.just(math.nan) | st.sampled_from(
+    ["studentized residual 3.2"]) | st.text(max_size=4)
+
+
+def _reference_flags(reduction) -> list[str]:
+    """The summary's flags read from the points table (the code the column reads replaced)."""
+    stats = reduction.statistics
+    flags = ["lack of fit"] if stats.stated_uncertainty and stats.birge_ratio > 1.0 else []
+    points = reduction.points
+    flag = [str(f) for f in points["flag"].to_numpy(object) if isinstance(f, str)]
+    stands_out = (int(points["diagnostic"].notna().to_numpy().sum())
+                  if "diagnostic" in points else 0)
+    for what, count in (
+        ("beyond the model's range", sum(f.startswith(OUT_OF_RANGE) for f in flag)),
+        ("excluded", sum(f.startswith("excluded") for f in flag)),
+        ("no reading", sum(f == "no reading" for f in flag)),
+        ("stands out", stands_out),
+    ):
+        if count:
+            flags.append(f"{what}: {count} reading(s)")
+    return flags
+
+
+def _reference_exclusion_lines(points) -> list[str]:
+    """The report's lines on excluded readings, grouped by pandas (the code replaced)."""
+    flags = points["flag"].astype(object)
+    excluded = points[flags.map(lambda f: isinstance(f, str) and f.startswith("excluded"))]
+    lines = []
+    for flag, group in excluded.groupby("flag", sort=False):
+        molalities = ", ".join(f"{m:.6g}" for m in dict.fromkeys(group["molality_mol_kg"]))
+        count = len(group)
+        where = (f" (line{'s' if count > 1 else ''} "
+                 + ", ".join(str(int(n)) for n in group["line"]) + ")")
+        reason = str(flag).removeprefix("excluded").lstrip(": ")
+        lines.append(f"  left out of the fit: {count} reading{'s' if count > 1 else ''} at "
+                     f"m = {molalities} mol/kg{where}" + (f" — {reason}" if reason else ""))
+    return lines
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.data())
+def test_outputs_read_from_columns_are_those_of_the_points_table(reductions, data):
+    """Summary flags, the report's readings and exclusions, the record's points and the points
+    CSV, read column by column, give what the points table gives, for any flags and
+    diagnostics (missing as None or NaN, text of any kind)."""
+    import dataclasses
+
+    from activolt.io.record import points_csv
+    from activolt.procedures.many import SeriesReduction, summary_row
+    from activolt.report.text import format_report
+
+    reduction = reductions[data.draw(st.sampled_from(["sample", "moved"]))][0]
+    n = len(reduction.run.points)
+    flags = data.draw(st.lists(_FLAG_VALUES, min_size=n, max_size=n))
+    diagnostic = np.empty(n, dtype=object)
+    diagnostic[:] = data.draw(st.lists(_DIAGNOSTIC_VALUES, min_size=n, max_size=n))
+    points = reduction.run.points.copy()
+    points["flag"] = pd.Series(flags, dtype=object, index=points.index)
+    changed = dataclasses.replace(
+        reduction, run=dataclasses.replace(reduction.run, points=points),
+        point_columns={**reduction.point_columns, "diagnostic": diagnostic})
+    row = summary_row(SeriesReduction("", changed.run, reduction=changed), "hueckel")
+    assert row["flags"] == "; ".join(_reference_flags(changed))
+    report = format_report(changed)
+    excluded = _reference_exclusion_lines(changed.points)
+    assert [line for line in report.splitlines()
+            if line.startswith("  left out of the fit: ")] == excluded
+    _identical(build_record(changed)["points"], _reference_points(changed), "points")
+    assert points_csv(changed) == _reference_points_csv(changed)

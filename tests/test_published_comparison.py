@@ -37,11 +37,13 @@ HCL_01 = (0.796, 0.797)
 
 
 def _stub(molality, gamma, u_gamma, formula="HCl"):
-    """What compare_with_published reads of a reduction: electrolyte, temperature, points."""
-    points = pd.DataFrame({"molality_mol_kg": molality, "gamma_pm": gamma,
-                           "u_gamma_pm": u_gamma})
+    """What compare_with_published reads of a reduction: electrolyte, temperature, the run's
+    points (molalities) and the reduction's own columns (γ± and its u)."""
+    run = SimpleNamespace(points=pd.DataFrame({"molality_mol_kg": molality}))
+    columns = {"gamma_pm": np.asarray(gamma, dtype=float),
+               "u_gamma_pm": np.asarray(u_gamma, dtype=float)}
     return SimpleNamespace(electrolyte=parse_electrolyte(formula), temperature_K=298.15,
-                           points=points)
+                           run=run, point_columns=columns)
 
 
 def test_two_tables_at_one_molality_give_mean_spread_and_combined_u():

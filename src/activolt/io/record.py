@@ -41,6 +41,7 @@ from ..procedures.model_choice import (
 from ..procedures.montecarlo import MonteCarloResult
 from ..procedures.ph import PhResult
 from ..procedures.properties import DerivedResults, derive_results
+from ..procedures.published import plain_values, point_lists, point_names, point_values
 from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
 from ..report.numbers import frame_columns, json_number, json_numbers
@@ -229,9 +230,10 @@ _POINT_KEYS = ("line", "molality_mol_kg", "u_molality_mol_kg", "emf_V", "u_emf_V
 
 def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
     """Every reading of ``reduction`` as the record's ``points`` entries (built column by
-    column: one conversion of the table, each column's numbers checked in one pass)."""
+    column: each column of the points converted once, without building the table, and its
+    numbers checked in one pass)."""
     k = reduction.statistics.coverage_factor
-    table = frame_columns(reduction.points)
+    table = point_lists(reduction, point_names(reduction))
     flags, diagnostics = table["flag"], table["diagnostic"]
     u_gamma = table["u_gamma_pm"]
     budget_columns = [name for name in table
@@ -540,7 +542,7 @@ def _path_from(path: Path, folder: Path | None) -> str:
 
 def run_series(points: Any) -> str | None:
     """The name of the series the points hold, or None (no name, or several)."""
-    names = {name for name in points["series"].tolist() if isinstance(name, str) and name}
+    names = {name for name in plain_values(points, "series") if isinstance(name, str) and name}
     return names.pop() if len(names) == 1 else None
 
 
@@ -549,26 +551,20 @@ def _points_columns(reduction: Reduction) -> dict[str, Any]:
     names, flagged rows included."""
     import numpy as np
 
-    table = reduction.points
-    values = frame_columns(table)  # one conversion of the table, then each column from it
-    dtypes = dict(zip(values, table.dtypes.tolist(), strict=True))
-
     def numbers(name: str) -> Any:
-        # the column's own type, as the DataFrame would keep it
-        dtype = dtypes[name]
-        if isinstance(dtype, np.dtype) and dtype.kind in "fiub":
-            return np.array(values[name], dtype=dtype)
-        return table[name].to_numpy()
+        # a copy in the column's own type, as the points table keeps it
+        values = point_values(reduction, name)
+        return values.copy() if isinstance(values, np.ndarray) else values.to_numpy()
 
     def text(name: str) -> list[Any]:
-        return [neutralise_formula(v) for v in values[name]]
+        return [neutralise_formula(v) for v in point_lists(reduction, [name])[name]]
 
     def filled(name: str) -> list[Any]:
         # pandas' where(notna, ""): every missing value (None, NaN, NA) becomes ""
         return [v if type(v) is str
                 else "" if v is None or (type(v) is float and v != v)
                 else v if type(v) is float or not _missing(v) else ""
-                for v in values[name]]
+                for v in point_lists(reduction, [name])[name]]
 
     return {
         "line": numbers("line"),

@@ -28,6 +28,7 @@ from ..fit.problem import SLOPE
 from .dilution import OUT_OF_RANGE, Reduction, reduce_run, reduce_runs
 from .display import html_table, value_with_uncertainty
 from .model_choice import ModelComparison, compare_models
+from .published import point_lists, point_names, point_values
 
 __all__ = ["BATCH_SIZE", "SUMMARY_COLUMNS", "ManyReductions", "SeriesReducer", "SeriesReduction",
            "reduce_many", "series_name", "series_reducer", "summary_frame", "summary_row"]
@@ -210,10 +211,11 @@ def _flags(reduction: Reduction) -> list[str]:
     flags = []
     if stats.stated_uncertainty and stats.birge_ratio > 1.0:
         flags.append("lack of fit")
-    points = reduction.points
-    flag = [str(f) for f in points["flag"].to_numpy(object) if isinstance(f, str)]
-    stands_out = (int(points["diagnostic"].notna().to_numpy().sum())
-                  if "diagnostic" in points else 0)
+    # read from the run's and the reduction's columns, without building the points table
+    names = point_names(reduction)
+    flag = [str(f) for f in point_lists(reduction, ["flag"])["flag"] if isinstance(f, str)]
+    stands_out = (int(np.count_nonzero(pd.notna(point_values(reduction, "diagnostic"))))
+                  if "diagnostic" in names else 0)
     for what, count in (
         ("beyond the model's range", sum(f.startswith(OUT_OF_RANGE) for f in flag)),
         ("excluded", sum(f.startswith("excluded") for f in flag)),

@@ -1,5 +1,7 @@
 """The run's γ± beside published values at the measured molalities, with the tables' own spread
-(science, computed here once; the report and the record only show it)."""
+(science, computed here once; the report and the record only show it). Also the readers of a
+reduction's tables that the outputs share: a column as the table holds it, as plain values,
+and the columns of a reduction's points read without building its ``points`` table."""
 
 from __future__ import annotations
 
@@ -16,7 +18,8 @@ from ..activity.published import published_tables
 from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
-__all__ = ["column_values", "compare_with_published", "plain_values", "table_of"]
+__all__ = ["column_values", "compare_with_published", "plain_values", "point_lists",
+           "point_names", "point_values", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -49,15 +52,14 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     about 2 says the run and the tables agree within what both can tell; a much larger one is a
     disagreement that the tables' own spread does not explain.
     """
-    points = reduction.points
-    gamma = np.asarray(column_values(points, "gamma_pm"), dtype=float)
+    gamma = np.asarray(point_values(reduction, "gamma_pm"), dtype=float)
     with_gamma = ~np.isnan(gamma)
-    m = np.asarray(column_values(points, "molality_mol_kg"), dtype=float)[with_gamma]
+    m = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[with_gamma]
     found = _published_at(reduction.electrolyte, float(reduction.temperature_K), tuple(m))
     if found is None:
         return None
     gamma = gamma[with_gamma]
-    u_gamma = np.asarray(column_values(points, "u_gamma_pm"), dtype=float)[with_gamma]
+    u_gamma = np.asarray(point_values(reduction, "u_gamma_pm"), dtype=float)[with_gamma]
     published, u_published = found.published, found.u_published
     difference = gamma - published
     u_difference = np.hypot(u_gamma, u_published)
@@ -132,6 +134,48 @@ def plain_values(frame: pd.DataFrame, name: str) -> list[Any]:
     if isinstance(values, np.ndarray):
         return values.tolist()
     return values.to_numpy(dtype=object).tolist()
+
+
+def point_names(reduction: Reduction) -> list[str]:
+    """The column names of ``reduction.points`` in order — the run's, then the reduction's
+    (:attr:`~activolt.procedures.dilution.Reduction.point_columns`) — without building the
+    table."""
+    return [*reduction.run.points.columns.to_numpy(dtype=object).tolist(),
+            *reduction.point_columns]
+
+
+def point_values(reduction: Reduction, name: str) -> Any:
+    """The column ``name`` of ``reduction.points`` as that table holds it (as
+    :func:`column_values` gives it), without building the table: a numpy array for a numpy
+    dtype, else pandas' extension array (the run's text columns). Not a copy: read only.
+    """
+    found = reduction.point_columns.get(name)
+    return found if found is not None else column_values(reduction.run.points, name)
+
+
+def point_lists(reduction: Reduction, names: Sequence[str]) -> dict[str, list[Any]]:
+    """The columns ``names`` of ``reduction.points`` as lists of plain Python values, as
+    :func:`plain_values` of the table gives them (floats, ints and strings as Python objects,
+    a missing string as NaN), without building the table.
+
+    Parameters
+    ----------
+    reduction : Reduction
+        The reduction whose points are read.
+    names : sequence of str
+        Columns of the points table (:func:`point_names`).
+
+    Returns
+    -------
+    dict of str to list
+        Column name → its values over every row, in the order of ``names``.
+    """
+    lists = {}
+    for name in names:
+        values = point_values(reduction, name)
+        lists[name] = (values.tolist() if isinstance(values, np.ndarray)
+                       else values.to_numpy(dtype=object).tolist())
+    return lists
 
 
 #: The columns of :func:`compare_with_published`, in order.

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -11,7 +12,7 @@ from ..procedures.dilution import Reduction
 from ..procedures.model_choice import ModelComparison
 from ..procedures.montecarlo import MonteCarloResult
 from ..procedures.properties import DerivedResults, derive_results
-from ..procedures.published import column_values, plain_values
+from ..procedures.published import plain_values, point_lists, point_names, point_values
 from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import aligned_lines, comparison_lines
@@ -57,7 +58,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     """
     run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
     t_C = reduction.temperature_K - 273.15
-    points = reduction.points
+    names = point_names(reduction)
     lines = [
         f"activolt reduction of {run.path.name}"
         + (f", series '{series}'" if (series := _series(run.points)) is not None else ""),
@@ -108,7 +109,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
                                       cross.u_standard_potential_V * 1e3, "mV")
             + f" ({difference * 1e3:+.3f} mV from the fit)"
         )
-    lines += _points_lines(points)
+    lines += _points_lines(reduction, names)
     derived = derived or derive_results(reduction)
     lines += comparison_lines(derived.published)
 
@@ -130,7 +131,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
             lines.append(f"  {b.component:<{width}}  {b.u_V * 1e3:8.4f} mV   {b.method}")
         lines.append(f"  {'combined':<{width}}  {reduction.standard_potential.std_dev * 1e3:8.4f}"
                      " mV")
-    lines += _gamma_budget_lines(points)
+    lines += _gamma_budget_lines(reduction, names)
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
@@ -152,22 +153,24 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     return escape_controls(text, keep="\n")
 
 
-def _points_lines(points: pd.DataFrame) -> list[str]:
+def _points_lines(reduction: Reduction, names: list[str]) -> list[str]:
     """The readings: molality, electrode (when the run names them), E, residual, γ± (u);
     a flagged reading keeps its value and says why it is out of the fit; readings left out
-    with --exclude are counted per reason. Each column is read once, as plain values."""
-    flags = plain_values(points, "flag")
-    electrode = plain_values(points, "electrode") if "electrode" in points else []
+    with --exclude are counted per reason. Each column of the points (``names``) is read once,
+    as plain values, without building the points table."""
+    table = point_lists(reduction, [name for name in (
+        "flag", "electrode", "diagnostic", "molality_mol_kg", "emf_V", "residual_V", "gamma_pm",
+        "u_gamma_pm", "line") if name in names])
+    flags = table["flag"]
+    electrode = table.get("electrode", [])
     electrodes = any(isinstance(e, str) and e.strip() for e in electrode)
-    diagnostic = (plain_values(points, "diagnostic") if "diagnostic" in points
-                  else [None] * len(flags))
+    diagnostic = table.get("diagnostic", [None] * len(flags))
     header = ["m / (mol/kg)", *(["electrode"] if electrodes else []), "E / mV",
               "residual / mV", "γ± (u)"]
     rows = []
     for m, emf, flag, note, residual, gamma, u_gamma, *named in zip(
-            plain_values(points, "molality_mol_kg"), plain_values(points, "emf_V"), flags,
-            diagnostic, plain_values(points, "residual_V"), plain_values(points, "gamma_pm"),
-            plain_values(points, "u_gamma_pm"), *([electrode] if electrodes else []),
+            table["molality_mol_kg"], table["emf_V"], flags, diagnostic, table["residual_V"],
+            table["gamma_pm"], table["u_gamma_pm"], *([electrode] if electrodes else []),
             strict=True):
         cells = [f"{m:.6g}"]
         if electrodes:
@@ -181,21 +184,27 @@ def _points_lines(points: pd.DataFrame) -> list[str]:
         rows.append(cells)
     lines = ["", *aligned_lines([header, *rows], pad_last=False)]
     if any(isinstance(flag, str) and flag.startswith("excluded") for flag in flags):
-        lines += _exclusion_lines(points)
+        lines += _exclusion_lines(table)
     return lines
 
 
-def _exclusion_lines(points: pd.DataFrame) -> list[str]:
-    """One line per reason given with --exclude: how many readings, at which molalities."""
-    flags = points["flag"].astype(object)
-    excluded = points[flags.map(lambda f: isinstance(f, str) and f.startswith("excluded"))]
+def _exclusion_lines(table: dict[str, list[Any]]) -> list[str]:
+    """One line per reason given with --exclude: how many readings, at which molalities
+    (``table``: the points' columns as plain values, ``flag`` and ``molality_mol_kg`` at
+    least)."""
+    groups: dict[str, list[int]] = {}  # the rows of each reason, reasons in order of appearance
+    for row, flag in enumerate(table["flag"]):
+        if isinstance(flag, str) and flag.startswith("excluded"):
+            groups.setdefault(flag, []).append(row)
     lines = []
-    for flag, group in excluded.groupby("flag", sort=False):
-        molalities = ", ".join(f"{m:.6g}" for m in dict.fromkeys(group["molality_mol_kg"]))
-        count = len(group)
-        where = ("" if "line" not in group else
+    for flag, rows in groups.items():
+        molalities = ", ".join(f"{m:.6g}" for m in dict.fromkeys(
+            table["molality_mol_kg"][row] for row in rows))
+        count = len(rows)
+        where = ("" if "line" not in table else
                  f" (line{'s' if count > 1 else ''} "
-                 + ", ".join(str(int(n)) for n in group["line"] if _finite(n)) + ")")
+                 + ", ".join(str(int(n)) for n in (table["line"][row] for row in rows)
+                             if _finite(n)) + ")")
         reason = str(flag).removeprefix("excluded").lstrip(": ")
         lines.append(f"  left out of the fit: {count} reading{'s' if count > 1 else ''} at "
                      f"m = {molalities} mol/kg{where}" + (f" — {reason}" if reason else ""))
@@ -216,19 +225,20 @@ def _series(points: object) -> str | None:
     return names.pop() if len(names) == 1 else None
 
 
-def _gamma_budget_lines(points: pd.DataFrame) -> list[str]:
-    """u(γ±) by input at the most dilute, a middle and the most concentrated reading."""
-    gamma = column_values(points, "gamma_pm")
+def _gamma_budget_lines(reduction: Reduction, names: list[str]) -> list[str]:
+    """u(γ±) by input at the most dilute, a middle and the most concentrated reading
+    (``names``: the columns of the points, read without building the table)."""
+    gamma = point_values(reduction, "gamma_pm")
     plain_float = isinstance(gamma, np.ndarray) and gamma.dtype.kind == "f"
     with_gamma = np.flatnonzero(~np.isnan(gamma) if plain_float else pd.notna(gamma))
-    columns = [c for c in points.columns.to_numpy(dtype=object).tolist()
-               if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
+    columns = [c for c in names if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
     if not with_gamma.size or not columns:
         return []
     chosen = [int(with_gamma[i]) for i in sorted({0, with_gamma.size // 2, with_gamma.size - 1})]
-    molality = plain_values(points, "molality_mol_kg")
-    u_gamma = plain_values(points, "u_gamma_pm")
-    each = [plain_values(points, c) for c in columns]
+    table = point_lists(reduction, ["molality_mol_kg", "u_gamma_pm", *columns])
+    molality = table["molality_mol_kg"]
+    u_gamma = table["u_gamma_pm"]
+    each = [table[c] for c in columns]
     names = [c.removeprefix("u_gamma_pm_") for c in columns]
     lines = ["", "  uncertainty budget of γ± (k = 1; each input alone)",
              "  m / (mol/kg)   " + "".join(f"{name:<14}" for name in names) + "combined"]
