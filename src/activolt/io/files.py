@@ -41,6 +41,7 @@ import signal
 import stat
 import sys
 import threading
+import unicodedata
 from collections.abc import Callable, Collection, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -355,7 +356,8 @@ def check_outputs(folder: Path | None = None, names: Collection[str] = (),
     """
     inputs = [Path(p) for p in inputs]
     known = _Inputs(inputs)
-    outputs = [*(Path(p) for p in files), *((folder / n) for n in names if folder is not None)]
+    outputs = [*(Path(p) for p in files),
+               *((folder / n) for n in _listed(folder, names) if folder is not None)]
     for path in outputs:
         if known.holds(path):
             raise InputError("this output is an input of the run (the run table or its "
@@ -388,6 +390,28 @@ def check_outputs(folder: Path | None = None, names: Collection[str] = (),
             if not (entry.is_file(follow_symlinks=False) or entry.is_symlink()):
                 raise InputError(f"the output folder holds '{entry.name}', which is not a "
                                  f"file; {whole}", file=str(folder))
+
+
+def _listed(folder: Path | None, names: Collection[str]) -> list[str]:
+    """The ``names`` that may stand for an entry of ``folder`` (the others name nothing, so
+    cannot be an input or a folder): those its listing holds, compared case-folded and in one
+    Unicode normal form (file systems that ignore case or normalise names); all of them when
+    the folder cannot be listed, none when it does not exist. One listing rather than a look-up
+    per name: a batch of ten thousand series owns seventy thousand names."""
+    if folder is None or not names:
+        return []
+    try:
+        listed = {_folded(entry) for entry in os.listdir(folder)}
+    except (FileNotFoundError, NotADirectoryError):
+        return []
+    except OSError:
+        return list(names)
+    return [name for name in names if _folded(name) in listed or os.sep in name
+            or (os.altsep is not None and os.altsep in name)]
+
+
+def _folded(name: str) -> str:
+    return unicodedata.normalize("NFC", name).casefold()
 
 
 def _make_folders(folder: Path) -> list[Path]:
