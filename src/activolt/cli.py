@@ -617,7 +617,10 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
     context = multiprocessing.get_context("fork")
     started: list[tuple[Any, Any]] = []
     # The modules that write a series' outputs, imported once here for every worker to inherit
-    # (each worker would otherwise import them after the fork, about half a second each).
+    # (each worker would otherwise import them after the fork, about half a second each), and
+    # scipy's interpolation, which the comparison with published γ± imports when first used.
+    import scipy.interpolate  # noqa: F401
+
     from .io import record  # noqa: F401
     from .procedures import properties  # noqa: F401
     from .report import html, text  # noqa: F401

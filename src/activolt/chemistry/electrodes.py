@@ -20,12 +20,15 @@ from collections import Counter
 from dataclasses import dataclass
 from fractions import Fraction
 from functools import lru_cache
+from typing import TYPE_CHECKING
 
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
-from scipy.interpolate import CubicSpline
 from uncertainties import UFloat
+
+if TYPE_CHECKING:
+    from scipy.interpolate import CubicSpline
 
 from ..constants import ATMOSPHERE_PA, ZERO_CELSIUS_K
 from ..physics.corrections import standard_pressure_basis_shift
@@ -246,6 +249,8 @@ def amalgam_couple(half: HalfReaction) -> HalfReaction | None:
 
 @lru_cache(maxsize=1)
 def _bates_bower() -> tuple[CubicSpline, np.ndarray, np.ndarray]:
+    from scipy.interpolate import CubicSpline  # (heavy: half a second, for this table only)
+
     table = electrode_table("bates_bower_1954").sort_values("temperature_K")
     temperature = table["temperature_K"].to_numpy(dtype=float)
     potential = table["standard_potential_V"].to_numpy(dtype=float)
