@@ -221,6 +221,27 @@ def test_the_report_shows_any_name_escaped_as_escape_controls_does(sample_reduct
     assert shown == plain.replace("PLACEHOLDER.csv", escape_controls(name + ".csv", keep="\n"))
 
 
+def test_derived_columns_read_as_their_tables(sample_reduction):
+    """The outputs read the derived tables' columns without building the tables: each column
+    must give, value for value and type for type, what the table built from them gives, and
+    the report's comparison lines must be those of the table."""
+    from activolt.report.comparison import comparison_lines
+
+    derived = derive_results(sample_reduction)
+    assert derived.published_columns is not None
+    for columns, table in ((derived.property_columns, derived.properties),
+                           (derived.published_columns, derived.published)):
+        assert list(columns) == table.columns.tolist()
+        for name in columns:
+            got, expected = plain_values(columns, name), plain_values(table, name)
+            assert [type(v) for v in got] == [type(v) for v in expected], name
+            assert all(g == e or (g != g and e != e)
+                       for g, e in zip(got, expected, strict=True)), name
+    assert derived.properties.attrs["notes"] == list(derived.property_notes)
+    assert comparison_lines(derived.published_columns) == comparison_lines(derived.published)
+    assert derived.published.equals(compare_with_published(sample_reduction))
+
+
 def _h_both_branches(x):
     """h(x) with the series worked out for every x and chosen where x is small."""
     x = np.asarray(x, dtype=float)

@@ -44,7 +44,7 @@ from ..procedures.properties import DerivedResults, derive_results
 from ..procedures.published import plain_values, point_lists, point_names, point_values
 from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
-from ..report.numbers import frame_columns, json_number, json_numbers
+from ..report.numbers import json_number, json_numbers
 from ..safe_text import neutralise_formula
 
 RECORD_SCHEMA = "activolt-record/1"
@@ -278,10 +278,11 @@ def _rows(keys: Any, columns: Any, n_rows: int) -> list[dict[str, Any]]:
     return [dict(zip(keys, row, strict=True)) for row in zip(*columns, strict=True)]
 
 
-def _published_records(published: Any) -> tuple[list[dict[str, Any]], Any]:
+def _published_records(derived: DerivedResults) -> tuple[list[dict[str, Any]], Any]:
     """The record's ``published_comparison`` entries and ``published_source`` (the first
-    row's source, the table's own when it has no row)."""
-    table = frame_columns(published)
+    row's source, the table's own when it has no row), read from the table's columns."""
+    columns = derived.published_columns
+    table = {name: plain_values(columns, name) for name in columns}
     molality = [float(v) for v in table["molality_mol_kg"]]
     rows = _rows(("molality_mol_kg", "gamma_pm_published", "interpolated", "difference",
                   "n_sources", "published_values", "spread_published", "u_published",
@@ -297,17 +298,18 @@ def _published_records(published: Any) -> tuple[list[dict[str, Any]], Any]:
         json_numbers(table["u_published"]),
         json_numbers(table["u_difference"]),
         json_numbers(table["difference_over_u"])), len(molality))
-    return rows, (table["source"][0] if rows else published["source"].iloc[0])
+    return rows, (table["source"][0] if rows else derived.published["source"].iloc[0])
 
 
-def _derived_records(properties: Any) -> list[dict[str, Any]]:
-    """The rows of the derived properties, every float a :func:`json_number`."""
-    table = frame_columns(properties)
+def _derived_records(properties: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """The rows of the derived properties (``properties``: the table's columns), every float a
+    :func:`json_number`."""
+    table = {name: plain_values(properties, name) for name in properties}
     isfinite = math.isfinite
     columns = [[v if type(v) is float and isfinite(v)
                 else json_number(v) if isinstance(v, float) else v for v in column]
                for column in table.values()]
-    return _rows(list(table), columns, len(properties))
+    return _rows(list(table), columns, len(next(iter(table.values()))))
 
 
 def build_record(reduction: Reduction, created: datetime | None = None,
@@ -333,9 +335,9 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     points = _point_records(reduction)
     cross = reduction.linear_extrapolation
     derived = derived or derive_results(reduction)
-    published = derived.published
+    published = derived.published_columns
     published_rows, published_source = ([], None) if published is None else (
-        _published_records(published))
+        _published_records(derived))
     other = reduction.standard_potential_other_basis_V
     e0_record = {**_with_u(e0, covariance_note),
                  "coverage_factor_95": stats.coverage_factor,
@@ -349,7 +351,6 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             method=covariance_note + ", combined with the model-choice component "
                    "(spread of E° among adequate models, rectangular)")
         warnings += [w for w in comparison.warnings if w not in warnings]
-    properties = derived.properties
     return {
         **_head(created),
         "input": {"file": _path_from(run.path, record_folder), "sha256": run.sha256,
@@ -426,8 +427,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
                       f"{INTERNATIONAL_VOLT_V:.6f} V (US international volt, NBS Circular 459, "
                       "1947)"},
         "derived_properties": {
-            "method": "; ".join(properties.attrs.get("notes", [])),
-            "points": _derived_records(properties),
+            "method": "; ".join(derived.property_notes),
+            "points": _derived_records(derived.property_columns),
         },
         "model_comparison": None if comparison is None else comparison_record(comparison),
         "uncertainty_budget": {

@@ -11,6 +11,7 @@ from __future__ import annotations
 import functools
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -21,7 +22,7 @@ from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
-from .published import column_values, compare_with_published, table_of
+from .published import column_values, published_columns, table_of
 
 __all__ = ["DerivedResults", "derive_results", "derived_properties", "model_sensitivities"]
 
@@ -171,6 +172,15 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     >>> round(float(props["osmotic_coefficient"].iloc[-1]), 2)
     0.94
     """
+    columns, notes = _property_columns(reduction)
+    frame = table_of(_PROPERTY_COLUMNS, list(columns.values()))
+    frame.attrs["notes"] = list(notes)
+    return frame
+
+
+def _property_columns(reduction: Reduction) -> tuple[dict[str, np.ndarray], tuple[str, ...]]:
+    """The columns of :func:`derived_properties` by name, in order (each a new array), and the
+    notes on them, without building the table."""
     run = reduction.run
     usable = run.usable  # the rows of usable_points(run), read from the run's arrays
     lines = np.asarray(column_values(run.points, "line"))[usable]
@@ -207,9 +217,9 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     u_g_rt = u(factor[:, None] * (d_ln - d_phi))
     rt = GAS_CONSTANT_J_MOL_K * temperature
 
-    frame = table_of(_PROPERTY_COLUMNS, [
+    columns = dict(zip(_PROPERTY_COLUMNS, [
         lines, molality, temperature, ln_g, u_ln_g, phi, u_phi, a_w, u_aw, g_rt, u_g_rt,
-        g_rt * rt, u_g_rt * rt])
+        g_rt * rt, u_g_rt * rt], strict=True))
     held = [p.symbol for p in reduction.parameters if p.fixed]
     notes = [f"from the {model.title} with the fitted parameters; uncertainties (k = 1) from the "
              "covariance of the free parameters"
@@ -217,22 +227,66 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     if held:
         notes.append("held parameter(s) " + ", ".join(held) + " enter at their held values; "
                      "their own uncertainty is not propagated here")
-    frame.attrs["notes"] = notes
-    return frame
+    return columns, tuple(notes)
 
 
 @dataclass(frozen=True)
 class DerivedResults:
     """What follows from a reduction beyond its fit, computed once for every output: φ, a_w and
-    G^E/RT with u at each usable molality (:func:`derived_properties`), and γ± beside the
-    published tables (:func:`activolt.procedures.published.compare_with_published`, None
-    without a table)."""
+    G^E/RT with u at each usable molality (:attr:`properties`, the table of
+    :func:`derived_properties`), and γ± beside the published tables (:attr:`published`, the
+    table of :func:`activolt.procedures.published.compare_with_published`, None without a
+    table).
 
-    properties: pd.DataFrame
-    published: pd.DataFrame | None
+    The tables are built when first asked for; the outputs read their columns
+    (``property_columns``, ``published_columns``: name → read-only array, in the tables'
+    order; ``property_notes``: the properties table's ``attrs["notes"]``) without building
+    them.
+    """
+
+    property_columns: Mapping[str, np.ndarray]
+    property_notes: tuple[str, ...]
+    published_columns: Mapping[str, Any] | None
+
+    @functools.cached_property
+    def properties(self) -> pd.DataFrame:
+        """The derived properties (:func:`derived_properties`)."""
+        frame = table_of(_PROPERTY_COLUMNS, [c.copy() for c in self.property_columns.values()])
+        frame.attrs["notes"] = list(self.property_notes)
+        return frame
+
+    @functools.cached_property
+    def published(self) -> pd.DataFrame | None:
+        """γ± beside the published tables
+        (:func:`activolt.procedures.published.compare_with_published`), or None."""
+        if self.published_columns is None:
+            return None
+        return table_of(pd.Index(list(self.published_columns)),
+                        [c.copy() for c in self.published_columns.values()])
+
+
+def _read_only(columns: dict[str, Any]) -> dict[str, Any]:
+    """``columns`` with their numpy arrays made read-only (extension arrays as they are)."""
+    for column in columns.values():
+        if isinstance(column, np.ndarray):
+            column.flags.writeable = False
+    return columns
 
 
 def derive_results(reduction: Reduction) -> DerivedResults:
-    """The derived properties and the published comparison of a reduction, once."""
-    return DerivedResults(properties=derived_properties(reduction),
-                          published=compare_with_published(reduction))
+    """The derived properties and the published comparison of a reduction, once.
+
+    Parameters
+    ----------
+    reduction : Reduction
+        From :func:`activolt.procedures.dilution.reduce_run`.
+
+    Returns
+    -------
+    DerivedResults
+        Their columns, and their tables when asked for.
+    """
+    columns, notes = _property_columns(reduction)
+    published = published_columns(reduction)
+    return DerivedResults(property_columns=_read_only(columns), property_notes=notes,
+                          published_columns=None if published is None else _read_only(published))

@@ -19,7 +19,7 @@ from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
 __all__ = ["column_values", "compare_with_published", "plain_values", "point_lists",
-           "point_names", "point_values", "table_of"]
+           "point_names", "point_values", "published_columns", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -52,6 +52,14 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     about 2 says the run and the tables agree within what both can tell; a much larger one is a
     disagreement that the tables' own spread does not explain.
     """
+    columns = published_columns(reduction)
+    return None if columns is None else table_of(_COLUMNS, list(columns.values()))
+
+
+def published_columns(reduction: Reduction) -> dict[str, Any] | None:
+    """The columns of :func:`compare_with_published`'s table, by name in the table's order
+    (each a new array, or pandas' extension array for ``source``), without building the table;
+    None when there is no published table."""
     gamma = np.asarray(point_values(reduction, "gamma_pm"), dtype=float)
     with_gamma = ~np.isnan(gamma)
     m = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[with_gamma]
@@ -66,8 +74,8 @@ def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
     fixed = found.columns()
-    return table_of(_COLUMNS, [m, gamma, u_gamma, *fixed[:-1], difference, u_difference, ratio,
-                               fixed[-1]])
+    return dict(zip(_COLUMNS, [m, gamma, u_gamma, *fixed[:-1], difference, u_difference, ratio,
+                               fixed[-1]], strict=True))
 
 
 def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
@@ -103,15 +111,19 @@ def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
                  verify_integrity=False)
 
 
-def column_values(frame: pd.DataFrame, name: str) -> Any:
+def column_values(frame: pd.DataFrame | Mapping[str, Any], name: str) -> Any:
     """The values of the column ``name`` as the table holds them, without building a Series:
     a numpy array for a numpy dtype, else pandas' extension array. Not a copy: read only.
+    ``frame`` may also be the columns a table is made of (name → array), read as the table
+    made of them would be.
 
     Examples
     --------
     >>> column_values(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2]}), "n")
     array([1, 2])
     """
+    if isinstance(frame, Mapping):
+        return frame[name]
     take = getattr(frame, "_get_column_array", None)
     if take is not None:
         where = frame.columns.get_loc(name)
@@ -121,7 +133,7 @@ def column_values(frame: pd.DataFrame, name: str) -> Any:
     return column.to_numpy() if isinstance(column.dtype, np.dtype) else column.array
 
 
-def plain_values(frame: pd.DataFrame, name: str) -> list[Any]:
+def plain_values(frame: pd.DataFrame | Mapping[str, Any], name: str) -> list[Any]:
     """The column ``name`` as a list of plain Python values, as ``frame.to_dict("records")``
     gives them (floats, ints, bools and strings as Python objects, a missing string as NaN).
 

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
+from typing import Any
 
 import pandas as pd
 
@@ -36,8 +38,9 @@ def aligned_lines(rows: list[list[str]], pad_last: bool = True) -> list[str]:
     return [template.format(*cells).rstrip() for cells in rows]
 
 
-def comparison_lines(comparison: pd.DataFrame | None) -> list[str]:
+def comparison_lines(comparison: pd.DataFrame | Mapping[str, Any] | None) -> list[str]:
     """The comparison with published γ± as lines of the text report (empty without a table).
+    ``comparison``: the table, or the columns it is made of (name → array).
 
     Each row shows the run's γ±, every published table's value (letters name the tables below
     the rows; a value in parentheses is interpolated within its table), their mean and spread,

@@ -111,9 +111,9 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
         )
     lines += _points_lines(reduction, names)
     derived = derived or derive_results(reduction)
-    lines += comparison_lines(derived.published)
+    lines += comparison_lines(derived.published_columns)
 
-    properties = derived.properties
+    properties = derived.property_columns  # the table's columns, without building it
     # a_w is within 10⁻⁴ of 1 at the dilute end: 1 − a_w shows the digits that carry
     # information, as many as its uncertainty supports (u(1 − a_w) = u(a_w)).
     columns = [plain_values(properties, name) for name in (
