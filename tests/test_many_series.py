@@ -106,21 +106,24 @@ def test_read_runs_reports_bad_input_with_file_line_and_column(tmp_path):
         str(path), 10, "molality_mol_kg")
 
 
-def _write_many(path: Path, n_series: int) -> None:
+def _write_many(path: Path, n_series: int, quoted: bool = False) -> None:
     rows = ["molality_mol_kg,emf_V,series"]
     emf = _emf(E0_V["A"])
     for s in range(n_series):
-        rows += [f"{float(m)!r},{float(e) + 1e-6 * s!r},S{s}"
+        name = f'"S{s}"' if quoted else f"S{s}"
+        rows += [f"{float(m)!r},{float(e) + 1e-6 * s!r},{name}"
                  for m, e in zip(MOLALITY, emf, strict=True)]
     path.write_text("\n".join(rows) + "\n", encoding="utf-8")
     path.with_suffix(".toml").write_text(TOML, encoding="utf-8")
 
 
-def test_reading_many_series_parses_each_line_once(tmp_path, monkeypatch):
+@pytest.mark.parametrize("quoted", [True, False])
+def test_reading_many_series_parses_each_line_once(tmp_path, monkeypatch, quoted):
     """A file of many series is read in one pass (the cost is linear in rows; timing itself
-    is measured in bench/, not here): the CSV parser sees the header and every row once."""
+    is measured in bench/, not here): with quotes the CSV parser sees the header and every row
+    once; a table of plain cells is split column by column, without it."""
     large = tmp_path / "s300.csv"
-    _write_many(large, 300)
+    _write_many(large, 300, quoted)
     parsed = []
     reader = csv.reader
 
@@ -129,8 +132,10 @@ def test_reading_many_series_parses_each_line_once(tmp_path, monkeypatch):
         return reader(*args, **kwargs)
 
     monkeypatch.setattr(csv, "reader", counting)
-    assert len(read_runs(large)) == 300
-    assert len(parsed) == 1 + 300 * len(MOLALITY)  # the header and every row, once
+    runs = read_runs(large)
+    assert [run.points["series"].iloc[0] for run in runs] == [f"S{s}" for s in range(300)]
+    # the header and every row, once; none for plain cells
+    assert len(parsed) == (1 + 300 * len(MOLALITY) if quoted else 0)
 
 
 # --- the library -----------------------------------------------------------------------------

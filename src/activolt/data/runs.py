@@ -324,6 +324,172 @@ def _rows(path: Path, text: str
     return header_line, names, rows, separator
 
 
+def _plain_rows(text: str
+                ) -> tuple[int, list[str], list[int], list[list[str]], str] | None:
+    """What :func:`_rows` gives, by splitting at the separator, for a table without quotes
+    whose rows all have as many fields as the header names (header line number, column
+    names, data line numbers, data rows, separator); None for any other table (quotes,
+    fields longer than the csv module takes, rows with other numbers of fields, too many
+    rows, no header), which :func:`_rows` then reads or refuses."""
+    if '"' in text or "\0" in text:
+        return None
+    lines = _LINE_END.split(text)
+    if max(map(len, lines)) > csv.field_size_limit():
+        return None
+    numbers = [n for n, line in enumerate(lines, start=1)
+               if line.strip() and not line.lstrip().startswith("#")]
+    if not numbers or len(numbers) > MAX_ROWS + 1:
+        return None
+    header_line = numbers[0]
+    header = lines[header_line - 1]
+    counts = {sep: header.count(sep) for sep in _SEPARATORS}
+    separator = max(_SEPARATORS, key=lambda sep: (counts[sep], sep == ","))
+    names = [name.strip() for name in header.split(separator)]
+    width = len(names)
+    while len(names) > 1 and names[-1] == "":
+        names.pop()
+    if len(names) != width:
+        return None
+    data = numbers[1:]
+    fields = [lines[n - 1].split(separator) for n in data]
+    if fields and set(map(len, fields)) != {width}:
+        return None
+    return header_line, names, data, fields, separator
+
+
+#: Characters of a column of plain numbers, one a line (a '-' cell or an empty one is
+#: told apart by float()).
+_NOT_IN_NUMBERS = re.compile(r"[^0-9.eE+\- \t\n]")
+
+
+def _number_column(cells: tuple[str, ...], decimal_comma: bool
+                   ) -> tuple[np.ndarray, np.ndarray] | None:
+    """The cells of one column as numbers, NaN where missing, and where they are missing;
+    None when a cell is neither a plain decimal number nor missing, or too large (what
+    :func:`_number` and :func:`_is_missing` would say of each cell, without their messages).
+
+    Within the characters of plain numbers (digits, ``.``, ``e``, ``E``, signs, spaces and
+    tabs) float() reads exactly the plain decimal numbers, with the spaces and tabs around
+    them: so a column float() reads whole, after those characters were checked, is a column
+    of plain numbers; any other column is looked at cell by cell."""
+    joined = "\n".join(cells)
+    if decimal_comma:
+        joined = joined.replace(",", ".")
+    missing = np.zeros(len(cells), dtype=bool)
+    values = None
+    if not _NOT_IN_NUMBERS.search(joined):
+        try:
+            values = np.fromiter(map(float, joined.split("\n")), dtype=float,
+                                 count=len(cells))
+        except ValueError:
+            values = None
+    if values is None:
+        values = np.empty(len(cells))
+        for i, text in enumerate(cells):
+            cleaned = text.strip()
+            if cleaned.lower() in _MISSING:
+                values[i] = math.nan
+                missing[i] = True
+                continue
+            if decimal_comma:
+                cleaned = cleaned.replace(",", ".")
+            if not _PLAIN_NUMBER.fullmatch(cleaned):
+                return None
+            values[i] = float(cleaned)
+    if np.isinf(values).any():
+        return None
+    return values, missing
+
+
+def _points_by_columns(layout: _Layout, line_numbers: list[int],
+                       fields: list[list[str]]) -> pd.DataFrame | None:
+    """The points of a table split by :func:`_plain_rows`, every column parsed and checked
+    at once; None when any cell is one :func:`_points_by_rows` refuses (it then says which).
+    The same points as :func:`_points_by_rows`, value for value and type for type."""
+    names = layout.names
+    columns = dict(zip(names, zip(*fields, strict=True), strict=True))
+
+    def read(column: str) -> tuple[np.ndarray, np.ndarray] | None:
+        return _number_column(columns[column], layout.decimal_comma)
+
+    found = read("molality_mol_kg")
+    if found is None or found[1].any():
+        return None
+    molality = found[0]
+    low_m, high_m = MOLALITY_RANGE_MOL_KG
+    if ((molality <= 0.0) | (molality > high_m) | (molality < low_m)).any():
+        return None
+
+    found = read(layout.emf_column)
+    if found is None:
+        return None
+    emf, no_reading = found[0] * layout.emf_scale, found[1]
+    with np.errstate(invalid="ignore"):
+        if (np.abs(emf) >= _LARGEST_EMF_V).any():
+            return None
+    n = len(line_numbers)
+    u_emf = np.full(n, math.nan)
+    if layout.u_emf_column is not None:
+        found = read(layout.u_emf_column)
+        if found is None:
+            return None
+        u_emf = found[0] * layout.u_emf_scale
+        low_u, high_u = U_EMF_RANGE_V
+        given = ~found[1]
+        if not ((u_emf[given] > 0.0) & (low_u <= u_emf[given])
+                & (u_emf[given] <= high_u)).all():
+            return None
+    u_molality = np.zeros(n)
+    if "u_molality_mol_kg" in columns:
+        found = read("u_molality_mol_kg")
+        if found is None:
+            return None
+        given = ~found[1]
+        if ((found[0][given] < 0.0) | (found[0][given] >= molality[given])).any():
+            return None
+        u_molality[given] = found[0][given]
+    temperature_K = np.full(n, math.nan)
+    if layout.temperature_column is not None:
+        found = read(layout.temperature_column)
+        if found is None:
+            return None
+        given = ~found[1]
+        value = found[0][given]
+        if layout.temperature_column.endswith("C"):
+            # _kelvin rounds with Python's round(); once per distinct value
+            distinct, where = np.unique(value, return_inverse=True)
+            value = np.array([_kelvin(t) for t in distinct.tolist()], dtype=float)[where]
+        low, high = _LIQUID_WATER_C
+        celsius = value - ZERO_CELSIUS_K
+        if not ((low - 1e-9 <= celsius) & (celsius <= high + 1e-9)).all():
+            return None
+        temperature_K[given] = np.minimum(np.maximum(value, low + ZERO_CELSIUS_K),
+                                          high + ZERO_CELSIUS_K)
+    pressure_Pa = np.full(n, math.nan)
+    if layout.pressure_column is not None:
+        found = read(layout.pressure_column)
+        if found is None:
+            return None
+        given = ~found[1]
+        pressure_kPa = found[0][given] * PRESSURE_COLUMNS[layout.pressure_column] / 1e3
+        low, high = _PRESSURE_RANGE_KPA
+        if not ((low <= pressure_kPa) & (pressure_kPa <= high)).all():
+            return None
+        pressure_Pa[given] = pressure_kPa * 1e3
+    flag: list[str | None] = [None] * n
+    for i in np.flatnonzero(no_reading).tolist():
+        flag[i] = "no reading"
+    points: dict[str, Any] = {
+        "line": np.array(line_numbers, dtype=np.int64), "flag": flag,
+        "molality_mol_kg": molality, "emf_V": emf, "u_emf_V": u_emf,
+        "u_molality_mol_kg": u_molality, "temperature_K": temperature_K,
+        "pressure_Pa": pressure_Pa}
+    for text_column in ("electrode", "series", "note"):
+        points[text_column] = ([cell.strip() for cell in columns[text_column]]
+                               if text_column in columns else [""] * n)
+    return pd.DataFrame(points)
+
+
 def _columns_found(names: list[str], separator: str) -> str:
     shown = ", ".join(f"'{name}'" for name in names[:12]) + (", …" if len(names) > 12 else "")
     return f"with {_SEPARATORS[separator]} as separator the header has {shown}"
@@ -383,24 +549,80 @@ def _check_columns(path: Path, header_line: int, names: list[str],
     return warnings
 
 
-def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
-    """The rows as points, and warnings; ``points.attrs`` keeps ``emf_column`` (as written in
-    the header) and ``pressure_like`` (columns that look like a barometric pressure in a unit
-    activolt does not read) for the checks that need the metadata."""
-    header_line, names, rows, separator = _rows(path, text)
-    decimal_comma = separator != ","
+class _Layout(NamedTuple):
+    """What the header of a run table says: where it is, its columns and how to read them."""
+
+    path: Path
+    header_line: int
+    names: list[str]
+    separator: str
+    emf_column: str
+    u_emf_column: str | None
+    temperature_column: str | None
+    pressure_column: str | None
+
+    @property
+    def decimal_comma(self) -> bool:
+        return self.separator != ","
+
+    @property
+    def emf_scale(self) -> float:
+        return 1.0 if self.emf_column == "emf_V" else 1e-3
+
+    @property
+    def u_emf_scale(self) -> float:
+        return 1.0 if self.u_emf_column == "u_emf_V" else 1e-3
+
+
+def _layout(path: Path, header_line: int, names: list[str], separator: str,
+            has_rows: bool) -> tuple[_Layout, list[str]]:
+    """The header's columns checked (InputError naming the problem), and the warnings."""
     canonical = {k.lower(): k for k in KNOWN_COLUMNS}  # documented names in any case
     names = [canonical.get(name.lower(), name) for name in names]
     warnings = _check_columns(path, header_line, names, separator)
-    if not rows:
+    if not has_rows:
         raise InputError("the run table has a header but no readings", file=str(path),
                          line=header_line)
-    emf_column = "emf_V" if "emf_V" in names else "emf_mV"
-    emf_scale = 1.0 if emf_column == "emf_V" else 1e-3
-    u_emf_column = next((c for c in ("u_emf_V", "u_emf_mV") if c in names), None)
-    u_emf_scale = 1.0 if u_emf_column == "u_emf_V" else 1e-3
-    temperature_column = next((c for c in ("temperature_C", "temperature_K") if c in names), None)
-    pressure_column = next((c for c in PRESSURE_COLUMNS if c in names), None)
+    layout = _Layout(
+        path=path, header_line=header_line, names=names, separator=separator,
+        emf_column="emf_V" if "emf_V" in names else "emf_mV",
+        u_emf_column=next((c for c in ("u_emf_V", "u_emf_mV") if c in names), None),
+        temperature_column=next((c for c in ("temperature_C", "temperature_K") if c in names),
+                                None),
+        pressure_column=next((c for c in PRESSURE_COLUMNS if c in names), None))
+    return layout, warnings
+
+
+def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
+    """The rows as points, and warnings; ``points.attrs`` keeps ``emf_column`` (as written in
+    the header) and ``pressure_like`` (columns that look like a barometric pressure in a unit
+    activolt does not read) for the checks that need the metadata.
+
+    A table of plain cells (no quotes; every row as many fields as the header names) is read
+    column by column (:func:`_points_by_columns`); when a cell is anything but a plain number
+    or a missing value within its column's range, the table is read again row by row
+    (:func:`_points_by_rows`), which raises the InputError naming the first bad row and cell.
+    Both give the same points."""
+    plain = _plain_rows(text)
+    points = None
+    if plain is not None:
+        header_line, names, line_numbers, fields, separator = plain
+        layout, warnings = _layout(path, header_line, names, separator, bool(line_numbers))
+        points = _points_by_columns(layout, line_numbers, fields)
+    if points is None:
+        header_line, names, rows, separator = _rows(path, text)
+        layout, warnings = _layout(path, header_line, names, separator, bool(rows))
+        points = _points_by_rows(layout, rows)
+    return _finish_points(layout, points, warnings), warnings
+
+
+def _points_by_rows(layout: _Layout, rows: list[tuple[int, list[str]]]) -> pd.DataFrame:
+    """The points, one row at a time; an InputError at the first bad row."""
+    path, names, separator = layout.path, layout.names, layout.separator
+    decimal_comma = layout.decimal_comma
+    emf_column, emf_scale = layout.emf_column, layout.emf_scale
+    u_emf_column, u_emf_scale = layout.u_emf_column, layout.u_emf_scale
+    temperature_column, pressure_column = layout.temperature_column, layout.pressure_column
     low_m, high_m = MOLALITY_RANGE_MOL_KG
     low_u, high_u = U_EMF_RANGE_V
 
@@ -501,8 +723,15 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
         for text_column in ("electrode", "series", "note"):
             record[text_column] = cells[text_column].strip() if text_column in cells else ""
         records.append(record)
+    return pd.DataFrame.from_records(records)
 
-    points = pd.DataFrame.from_records(records)
+
+def _finish_points(layout: _Layout, points: pd.DataFrame, warnings: list[str]) -> pd.DataFrame:
+    """The checks over every row (mV readings all small, u(EMF) given on some rows only) and
+    the reader's notes in ``points.attrs``; warnings are added to ``warnings``."""
+    path, names, header_line = layout.path, layout.names, layout.header_line
+    emf_column, u_emf_column = layout.emf_column, layout.u_emf_column
+    pressure_column = layout.pressure_column
     if emf_column == "emf_mV":
         usable = points["emf_V"].dropna()
         if len(usable) and (usable.abs() < 5e-3).all():
@@ -525,7 +754,7 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
     points.attrs["header_line"] = header_line
     points.attrs["pressure_like"] = tuple(n for n in names if n not in KNOWN_COLUMNS
                                           and _PRESSURE_LIKE.search(n))
-    return points, warnings
+    return points
 
 
 def _kelvin(temperature_C: float) -> float:
