@@ -402,3 +402,47 @@ def test_outputs_read_from_columns_are_those_of_the_points_table(reductions, dat
             if line.startswith("  left out of the fit: ")] == excluded
     _identical(build_record(changed)["points"], _reference_points(changed), "points")
     assert points_csv(changed) == _reference_points_csv(changed)
+
+
+def _reference_residuals_by_solution(reduction) -> np.ndarray:
+    points = reduction.points[reduction.points["flag"].isna()]
+    return points.groupby("molality_mol_kg", sort=True)["residual_V"].mean().to_numpy(float)
+
+
+def _reference_run_range(reduction) -> float:
+    points = reduction.points
+    flags = points["flag"]
+    kept = flags.isna() | flags.astype(str).str.startswith(OUT_OF_RANGE)
+    molality = points.loc[kept, "molality_mol_kg"].to_numpy(float)
+    return float(reduction.electrolyte.ionic_strength(molality).max())
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.data())
+def test_model_choice_reads_of_the_points_are_those_of_the_table(reductions, data):
+    """The solutions' mean residuals and the run's range, read column by column, are those
+    the points table gives (bit for bit), with solutions read once or several times, residuals
+    of either sign of zero or missing, and any flags."""
+    import dataclasses
+
+    from activolt.procedures.model_choice import residuals_by_solution, run_range_mol_kg
+
+    reduction = reductions["sample"][0]
+    n = len(reduction.run.points)
+    flags = data.draw(st.lists(_FLAG_VALUES, min_size=n, max_size=n).filter(
+        lambda f: any(v is None or v != v for v in f)))
+    points = reduction.run.points.copy()
+    points["flag"] = pd.Series(flags, dtype=object, index=points.index)
+    if data.draw(st.booleans()):  # solutions read more than once
+        points["molality_mol_kg"] = data.draw(st.lists(
+            st.sampled_from([0.001, 0.01, 0.1, 0.5]), min_size=n, max_size=n))
+    residual = np.array(data.draw(st.lists(
+        st.floats(-1e-3, 1e-3) | st.sampled_from([0.0, -0.0, math.nan, 1e-3 / 3]),
+        min_size=n, max_size=n)))
+    residual.flags.writeable = False
+    changed = dataclasses.replace(
+        reduction, run=dataclasses.replace(reduction.run, points=points),
+        point_columns={**reduction.point_columns, "residual_V": residual})
+    got, expected = residuals_by_solution(changed), _reference_residuals_by_solution(changed)
+    assert got.dtype == expected.dtype and got.tobytes() == expected.tobytes()
+    assert run_range_mol_kg(changed) == _reference_run_range(changed)

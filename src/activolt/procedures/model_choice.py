@@ -62,9 +62,10 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
+import pandas as pd
 
 from ..activity import MODELS, get_model
-from ..data.runs import Run, usable_points
+from ..data.runs import Run
 from ..errors import FitError, InputError
 from ..fit.diagnostics import RunsTest, runs_test
 from .dilution import (
@@ -76,6 +77,7 @@ from .dilution import (
     reduce_run,
     with_model_choice,
 )
+from .published import column_values, point_values
 
 __all__ = [
     "CHI2_P_MIN",
@@ -86,6 +88,8 @@ __all__ = [
     "RunsTest",
     "SkippedModel",
     "compare_models",
+    "residuals_by_solution",
+    "run_range_mol_kg",
     "runs_test",
 ]
 
@@ -281,19 +285,53 @@ def _p(p: float) -> str:
     return f"= {p:.2g}" if p >= 1e-300 else "< 1e-300"
 
 
-def _residuals_by_solution(reduction: Reduction) -> np.ndarray:
-    """Mean residual of each solution (readings at one molality), in order of molality."""
-    points = reduction.points[reduction.points["flag"].isna()]
-    return points.groupby("molality_mol_kg", sort=True)["residual_V"].mean().to_numpy(float)
+def residuals_by_solution(reduction: Reduction) -> np.ndarray:
+    """Mean residual of each solution (readings at one molality), in order of molality.
+
+    Parameters
+    ----------
+    reduction : Reduction
+        A reduction; its readings without a flag are taken.
+
+    Returns
+    -------
+    numpy.ndarray
+        The mean of ``residual_V`` [V] per molality, as a pandas grouping by molality gives it
+        (read from the points' columns, without building the points table).
+    """
+    used = np.asarray(pd.isna(point_values(reduction, "flag")), dtype=bool)
+    molality = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[used]
+    residual = np.asarray(point_values(reduction, "residual_V"), dtype=float)[used]
+    order = np.argsort(molality, kind="stable")
+    if np.all(np.isfinite(residual) & (residual != 0.0)) and (
+            molality.size < 2 or np.all(np.diff(molality[order]) > 0)):
+        # one reading per solution, finite and not zero: the grouping's mean of one value is
+        # that value (of a zero, pandas gives 0 or −0 depending on its path: left to it)
+        return residual[order]
+    table = pd.DataFrame({"molality_mol_kg": molality, "residual_V": residual})
+    return table.groupby("molality_mol_kg", sort=True)["residual_V"].mean().to_numpy(float)
 
 
-def _run_range_mol_kg(reduction: Reduction) -> float:
-    """Largest ionic strength among the run's readings the user left in [mol kg⁻¹] (those a
-    model left out as beyond its range included)."""
-    points = reduction.points
-    flags = points["flag"]
-    kept = flags.isna() | flags.astype(str).str.startswith(OUT_OF_RANGE)
-    molality = points.loc[kept, "molality_mol_kg"].to_numpy(float)
+def run_range_mol_kg(reduction: Reduction) -> float:
+    """Largest ionic strength among the run's readings the user left in.
+
+    Parameters
+    ----------
+    reduction : Reduction
+        A reduction; its readings without a flag and those the model left out as beyond its
+        range are taken.
+
+    Returns
+    -------
+    float
+        The largest ionic strength [mol kg⁻¹].
+    """
+    flags = point_values(reduction, "flag")
+    missing = np.asarray(pd.isna(flags), dtype=bool)
+    # a flag is read as its text (what astype(str) makes of it)
+    kept = missing | np.array([not gone and str(flag).startswith(OUT_OF_RANGE)
+                               for flag, gone in zip(flags, missing, strict=True)], dtype=bool)
+    molality = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[kept]
     return float(reduction.electrolyte.ionic_strength(molality).max())
 
 
@@ -311,7 +349,7 @@ def _assess(reduction: Reduction, stated: bool
         if chi2_p < CHI2_P_MIN:
             reasons.append(f"χ² = {st.chi2:.3g} with {st.dof} degrees of freedom is improbable "
                            f"for the stated reading uncertainties (p {_p(chi2_p)})")
-    runs = runs_test(_residuals_by_solution(reduction))
+    runs = runs_test(residuals_by_solution(reduction))
     if math.isfinite(runs.p_value_fewer) and runs.p_value_fewer < RUNS_P_MIN:
         reasons.append(f"the residuals run in {runs.runs} blocks of one sign where "
                        f"{runs.expected_runs:.1f} are expected (runs test p = "
@@ -321,7 +359,7 @@ def _assess(reduction: Reduction, stated: bool
         notes.append(f"the residual signs alternate more often than chance allows ({runs.runs} "
                      f"runs, {runs.expected_runs:.1f} expected, p = "
                      f"{runs.p_value_two_sided:.2g}); look at the order of the measurements")
-    max_ionic = _run_range_mol_kg(reduction)
+    max_ionic = run_range_mol_kg(reduction)
     if max_ionic > model.max_ionic_strength * (1.0 + 1e-9):
         reasons.append(f"the {model.title} stretched to I = {max_ionic:.3g} mol/kg (commonly "
                        f"adequate to {model.max_ionic_strength:g} mol/kg)")
@@ -478,8 +516,9 @@ def compare_models(run: Run, models: Sequence[str] | None = None,
                         "the molality range or check the readings")
     return ModelComparison(
         electrolyte=run.metadata.electrolyte.formula,
-        temperature_K=mean_temperature(usable_points(run)["temperature_K"].to_numpy(float)),
-        n_points=len(usable_points(run)), stated_uncertainty=stated,
+        temperature_K=mean_temperature(
+            np.asarray(column_values(run.points, "temperature_K"), dtype=float)[run.usable]),
+        n_points=int(np.count_nonzero(run.usable)), stated_uncertainty=stated,
         assessments=tuple(assessments), skipped=tuple(skipped), spread_V=spread,
         u_model_choice_V=u_model, recommended=recommended, standard_potential_V=e0,
         u_fit_V=u_fit, u_combined_V=u_combined, notes=tuple(notes), warnings=tuple(warnings),
