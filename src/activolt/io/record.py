@@ -228,16 +228,25 @@ _POINT_KEYS = ("line", "molality_mol_kg", "u_molality_mol_kg", "emf_V", "u_emf_V
                "leverage", "studentized_residual", "cooks_distance", "note")
 
 
+#: The columns of a reduction's points that its record's ``points`` are made of (with the
+#: budget columns ``u_gamma_pm_<input>``).
+_POINT_COLUMNS = ("line", "molality_mol_kg", "u_molality_mol_kg", "emf_V", "u_emf_V",
+                  "temperature_K", "pressure_correction_V", "gas_pressure_Pa", "electrode",
+                  "fitted_emf_V", "residual_V", "gamma_pm", "u_gamma_pm", "gamma_pm_model",
+                  "u_gamma_pm_model", "flag", "diagnostic", "leverage", "studentized_residual",
+                  "cooks_distance", "note")
+
+
 def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
     """Every reading of ``reduction`` as the record's ``points`` entries (built column by
     column: each column of the points converted once, without building the table, and its
     numbers checked in one pass)."""
     k = reduction.statistics.coverage_factor
-    table = point_lists(reduction, point_names(reduction))
+    budget_columns = [name for name in point_names(reduction)
+                      if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model"]
+    table = point_lists(reduction, [*_POINT_COLUMNS, *budget_columns])
     flags, diagnostics = table["flag"], table["diagnostic"]
     u_gamma = table["u_gamma_pm"]
-    budget_columns = [name for name in table
-                      if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model"]
     budget_keys = [name.removeprefix("u_gamma_pm_") for name in budget_columns]
     budgets = ([dict(zip(budget_keys, values, strict=True)) for values in zip(
         *(json_numbers(table[name]) for name in budget_columns), strict=True)]

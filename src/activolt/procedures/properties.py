@@ -32,6 +32,8 @@ _PROPERTY_COLUMNS = pd.Index([
     "osmotic_coefficient", "u_osmotic_coefficient", "water_activity", "u_water_activity",
     "excess_gibbs_rt_mol_kg", "u_excess_gibbs_rt_mol_kg", "excess_gibbs_J_kg",
     "u_excess_gibbs_J_kg"])
+#: Their names as plain text (iterating the Index reads its text storage one by one).
+_PROPERTY_NAMES: tuple[str, ...] = tuple(_PROPERTY_COLUMNS.tolist())
 
 
 #: Most readings of a series whose Debye–Hückel constants are kept for the next series.
@@ -217,7 +219,7 @@ def _property_columns(reduction: Reduction) -> tuple[dict[str, np.ndarray], tupl
     u_g_rt = u(factor[:, None] * (d_ln - d_phi))
     rt = GAS_CONSTANT_J_MOL_K * temperature
 
-    columns = dict(zip(_PROPERTY_COLUMNS, [
+    columns = dict(zip(_PROPERTY_NAMES, [
         lines, molality, temperature, ln_g, u_ln_g, phi, u_phi, a_w, u_aw, g_rt, u_g_rt,
         g_rt * rt, u_g_rt * rt], strict=True))
     held = [p.symbol for p in reduction.parameters if p.fixed]

@@ -74,7 +74,7 @@ def published_columns(reduction: Reduction) -> dict[str, Any] | None:
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
     fixed = found.columns()
-    return dict(zip(_COLUMNS, [m, gamma, u_gamma, *fixed[:-1], difference, u_difference, ratio,
+    return dict(zip(_COLUMN_NAMES, [m, gamma, u_gamma, *fixed[:-1], difference, u_difference, ratio,
                                fixed[-1]], strict=True))
 
 
@@ -195,6 +195,8 @@ _COLUMNS = pd.Index([
     "molality_mol_kg", "gamma_pm", "u_gamma_pm", "gamma_pm_published", "interpolated",
     "n_sources", "published_values", "spread_published", "u_published", "difference",
     "u_difference", "difference_over_u", "source"])
+#: Their names as plain text (iterating the Index reads its text storage one by one).
+_COLUMN_NAMES: tuple[str, ...] = tuple(_COLUMNS.tolist())
 #: The columns that depend on the molalities only, as they follow ``u_gamma_pm``.
 _FIXED = ("gamma_pm_published", "interpolated", "n_sources", "published_values",
           "spread_published", "u_published")
