@@ -336,9 +336,10 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     e0 = reduction.standard_potential
     covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
     metadata_info: dict[str, Any] = {}
+    real_folder = None if record_folder is None else os.path.realpath(record_folder)
     if run.metadata_path is not None:
         metadata_info = {
-            "metadata_file": _path_from(run.metadata_path, record_folder),
+            "metadata_file": _path_from(run.metadata_path, record_folder, real_folder),
             "metadata_sha256": hashlib.sha256(run.metadata_path.read_bytes()).hexdigest(),
         }
     points = _point_records(reduction)
@@ -362,7 +363,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         warnings += [w for w in comparison.warnings if w not in warnings]
     return {
         **_head(created),
-        "input": {"file": _path_from(run.path, record_folder), "sha256": run.sha256,
+        "input": {"file": _path_from(run.path, record_folder, real_folder),
+                  "sha256": run.sha256,
                   **metadata_info},
         "series": run_series(run.points),
         "run_info": dict(meta.info),
@@ -539,13 +541,16 @@ def load_record(source: str | Path) -> dict[str, Any]:
         raise InputError(f"the record lacks '{missing[0]}'", file=where)
     return record
 
-def _path_from(path: Path, folder: Path | None) -> str:
+def _path_from(path: Path, folder: Path | None, real_folder: str | None = None) -> str:
     """``path`` relative to ``folder`` (forward slashes), or as given without a folder or when
-    there is no relative path (another drive)."""
+    there is no relative path (another drive). ``real_folder``: ``os.path.realpath(folder)``,
+    when the caller has it already (a record names two files relative to one folder)."""
     if folder is None:
         return str(path)
+    if real_folder is None:
+        real_folder = os.path.realpath(folder)
     try:
-        return Path(os.path.relpath(os.path.realpath(path), os.path.realpath(folder))).as_posix()
+        return Path(os.path.relpath(os.path.realpath(path), real_folder)).as_posix()
     except ValueError:
         return str(Path(path).resolve())
 
