@@ -50,6 +50,7 @@ from ..fit.engine import MeasurementModel, solve
 from ..fit.problem import E0, parameter_spec, prepare_series
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction, reduce_run
+from .published import point_values
 
 __all__ = ["MonteCarloResult", "SampleSummary", "coverage_interval", "monte_carlo"]
 
@@ -376,8 +377,8 @@ def monte_carlo(run: Run, model: str = "hueckel", fixed: Mapping[str, float] | N
     summaries = [_summary(gamma[:, i], coverage) for i in range(n)]
     points = pd.DataFrame({
         "molality_mol_kg": data.molality,
-        "gamma_pm": reduction.points.loc[reduction.points["flag"].isna(), "gamma_pm"]
-        .to_numpy(float),
+        "gamma_pm": np.asarray(point_values(reduction, "gamma_pm"), dtype=float)[
+            np.asarray(pd.isna(point_values(reduction, "flag")), dtype=bool)],
         "gamma_pm_mean": [s.mean for s in summaries],
         "u_gamma_pm": [s.standard_deviation for s in summaries],
         "gamma_pm_low": [s.low for s in summaries],
