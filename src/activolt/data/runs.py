@@ -17,7 +17,7 @@ import itertools
 import math
 import re
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
@@ -1192,12 +1192,29 @@ def _check_response(path: Path, usable: _Rows, metadata: RunMetadata, emf_column
                 file=str(path), column=emf_column)
 
 
+@functools.lru_cache(maxsize=64)
+def _catalogue_potential(cell: str, temperature_K: float) -> tuple[float, float, bool] | None:
+    """The catalogue's E° of ``cell`` at ``temperature_K`` [V], its u [V], and whether it is
+    the 25 °C value used unchanged (from :func:`~activolt.chemistry.cells.cell_summary`, once
+    per diagram and temperature: the series of a table share them); None when the diagram
+    gives no E°."""
+    from ..chemistry.cells import cell_summary
+
+    try:
+        summary = cell_summary(cell, temperature_K)
+    except ValueError:
+        return None
+    standard = summary.get("standard_potential_V")
+    if standard is None:
+        return None
+    return (float(standard["value"]), float(standard["uncertainty"]),
+            any("used unchanged" in w for w in summary.get("warnings", ())))
+
+
 def _check_polarity(path: Path, usable: _Rows, metadata: RunMetadata, emf_column: str,
                     gas_term: np.ndarray, response: np.ndarray, x: np.ndarray) -> None:
     """Readings at I ≤ 0.1 mol/kg (and the most dilute) must have the sign that the catalogue
     E° and the Nernst term give, within a margin for what the estimate leaves out."""
-    from ..chemistry.cells import cell_summary
-
     assert metadata.cell is not None
     electrolyte = metadata.electrolyte
     molality, emf, temperature = usable.molality, usable.emf, usable.temperature
@@ -1206,20 +1223,17 @@ def _check_polarity(path: Path, usable: _Rows, metadata: RunMetadata, emf_column
 
     dilute = int(np.argmin(molality))
     reference_K = float(temperature[dilute])
-    try:
-        summary = cell_summary(metadata.cell, reference_K)
-    except ValueError:  # the check is skipped; the reduction says what is wrong
+    catalogue = _catalogue_potential(metadata.cell, reference_K)
+    if catalogue is None:  # the check is skipped; the reduction says what is wrong
         return
-    standard = summary.get("standard_potential_V")
-    if standard is None:
-        return
-    margin = (_POLARITY_MARGIN_V + 2.0 * float(standard["uncertainty"])
+    standard, u_standard, unchanged = catalogue
+    margin = (_POLARITY_MARGIN_V + 2.0 * u_standard
               + _UNKNOWN_DE0_DT_V_K * np.abs(temperature - reference_K))
-    if any("used unchanged" in w for w in summary.get("warnings", ())):
+    if unchanged:
         margin = margin + _UNKNOWN_DE0_DT_V_K * abs(reference_K - 298.15)
     ionic = electrolyte.ionic_strength(molality)
     margin = margin + np.where(ionic > 0.1, 3.0 * response, 0.0)  # |ln γ±| ≤ 3 beyond
-    expected = float(standard["value"]) - sign * response * x + gas_term
+    expected = standard - sign * response * x + gas_term
     candidates = (ionic <= 0.1) | (np.arange(len(x)) == dilute)
     opposite = (candidates & (emf * expected < 0) & (np.abs(emf) > margin)
                 & (np.abs(expected) > margin))
@@ -1228,7 +1242,7 @@ def _check_polarity(path: Path, usable: _Rows, metadata: RunMetadata, emf_column
         raise InputError(
             f"EMF {emf[i]:+.4f} V has the opposite sign to the cell's: '{metadata.cell}' gives "
             f"about {expected[i]:+.3f} V at {molality[i]:g} mol/kg (E° = "
-            f"{float(standard['value']):+.4f} V from the electrode catalogue, and the Nernst "
+            f"{standard:+.4f} V from the electrode catalogue, and the Nernst "
             "term); check the polarity of the leads (the right-hand electrode of the diagram is "
             "the positive terminal when E > 0), or write the diagram the other way round",
             file=str(path), line=int(lines[i]), column=emf_column)
@@ -1343,8 +1357,11 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
                   metadata: RunMetadata, warnings: list[str]) -> tuple[Run, ...]:
     """Every series of a parsed table as its own Run, in order of first appearance; one pass
     over the rows: one split of the row positions by series, and what is the same for every
-    series (the metadata's temperature where the table gives none, the reader's notes) done
-    once for the whole table."""
+    series (the metadata's temperature where the table gives none, the reader's notes, the
+    checks of :func:`_check_series` for the series sure to pass them) done once for the whole
+    table. Each series' points are built from its slice of the ordered columns; a series
+    that may fail a check goes through :func:`_series_run`, which raises the same error as
+    when the series is read alone."""
     notes = dict(points.attrs)
     points = points.copy(deep=False)
     points.attrs.clear()
@@ -1361,15 +1378,156 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     order = order[codes[order] >= 0]
     if not order.size:
         return ()
-    bounds = [0, *(np.flatnonzero(np.diff(codes[order])) + 1), order.size]
-    # the rows put in order of series once; each series is then a slice of them, and of the
-    # table's numeric columns
-    ordered = points.take(order)
-    columns = {name: ordered[name].to_numpy(float) for name in NUMERIC_COLUMNS}
-    return tuple(
-        _series_run(path, sha256, metadata_path, ordered.iloc[first:last], metadata, warnings,
-                    notes, {name: column[first:last] for name, column in columns.items()})
-        for first, last in itertools.pairwise(bounds))
+    bounds = np.array([0, *(np.flatnonzero(np.diff(codes[order])) + 1), order.size])
+    # the rows put in order of series once; each series is then a slice of every column
+    columns = {name: points[name].to_numpy(float)[order] for name in NUMERIC_COLUMNS}
+    flag = points["flag"].to_numpy(object)[order]
+    usable = pd.isna(flag)
+    cleared = _series_cleared(columns, usable, bounds, metadata, notes)
+    rows_of = _row_slicer(points, order)
+    runs = []
+    for k, (first, last) in enumerate(itertools.pairwise(bounds.tolist())):
+        frame = rows_of(first, last)
+        arrays = {name: column[first:last] for name, column in columns.items()}
+        if not cleared[k]:
+            runs.append(_series_run(path, sha256, metadata_path, frame, metadata, warnings,
+                                    notes, arrays))
+            continue
+        rows = usable[first:last]
+        missing = arrays["line"][~rows].astype(int).tolist()
+        run = Run(path=path, sha256=sha256, metadata_path=metadata_path, points=frame,
+                  metadata=metadata, warnings=tuple(warnings) + (
+                      (f"{len(missing)} row(s) have no reading (line(s) "
+                       f"{', '.join(map(str, missing))}); they are kept in the record, "
+                       "flagged, and left out of the fit",) if missing else ()))
+        for column in arrays.values():
+            column.flags.writeable = False
+        rows = rows.copy()
+        rows.flags.writeable = False
+        # what Run.arrays and Run.usable would take out of the points again
+        run.__dict__["arrays"] = MappingProxyType(arrays)
+        run.__dict__["usable"] = rows
+        runs.append(run)
+    return tuple(runs)
+
+
+def _row_slicer(points: pd.DataFrame, order: np.ndarray) -> Callable[[int, int], pd.DataFrame]:
+    """A function giving the rows ``first:last`` of ``points`` taken in ``order`` as a frame of
+    their own: the same columns and types, a RangeIndex, no attrs, nothing shared with another
+    frame it gave. The float columns are taken out of the table once, as one block, and each
+    frame is made of slices of them (pandas' block constructor where pandas has one, about
+    seven times faster than a DataFrame from a dict of columns)."""
+    names = points.columns
+    floats = [i for i, dtype in enumerate(points.dtypes) if dtype == np.float64]
+    blocks: list[tuple[Any, np.ndarray]] = []
+    if floats:
+        blocks.append((np.vstack([points.iloc[:, i].to_numpy()[order] for i in floats]),
+                       np.array(floats)))
+    for i, dtype in enumerate(points.dtypes):
+        if i in floats:
+            continue
+        column = points.iloc[:, i]
+        blocks.append((column.to_numpy()[order][np.newaxis] if isinstance(dtype, np.dtype)
+                       else column.array.take(order), np.array([i])))
+    try:
+        from pandas.api.internals import create_dataframe_from_blocks
+    except ImportError:  # pandas before 3.0
+        def rows_of(first: int, last: int) -> pd.DataFrame:
+            frame = {}
+            for values, where in blocks:
+                for row, i in enumerate(where.tolist()):
+                    frame[names[i]] = (values[row, first:last] if isinstance(values, np.ndarray)
+                                       else values[first:last])
+            return pd.DataFrame(frame, columns=names)
+        return rows_of
+
+    def made_of_blocks(first: int, last: int) -> pd.DataFrame:
+        return create_dataframe_from_blocks(
+            [(values[:, first:last].copy() if isinstance(values, np.ndarray)
+              else values[first:last], where) for values, where in blocks],
+            index=pd.RangeIndex(last - first), columns=names)
+    return made_of_blocks
+
+
+#: How far the whole-table screen of the EMF's response (:func:`_series_cleared`) keeps from
+#: the limits of :func:`_check_response`, relative to the scale of the slope: a series nearer
+#: a limit is checked on its own (sums taken in another order differ by some 1e-16).
+_SCREEN_MARGIN = 1e-6
+#: The narrowest span of ln m± whose slope the screen judges (molalities 0.1 % apart).
+_LEAST_SCREENED_SPAN = 1e-3
+
+
+def _series_cleared(columns: Mapping[str, np.ndarray], usable: np.ndarray, bounds: np.ndarray,
+                    metadata: RunMetadata, notes: Mapping[str, Any]) -> np.ndarray:
+    """Which series (rows ``bounds[k]:bounds[k+1]`` of the ordered ``columns``) are sure to
+    pass :func:`_series_run`'s checks — every temperature known, no two molalities within
+    1e-9 of each other, the EMF's change with molality within the Nernst limits by a margin
+    — worked out for every series at once. False for a series that may fail, and for every
+    series of a cell whose checks need the catalogue or the gas pressure: those are checked
+    one by one."""
+    n_series = len(bounds) - 1
+    if metadata.gas_coefficients or (metadata.cell is not None
+                                     and not metadata.fit_slope_factor):
+        return np.zeros(n_series, dtype=bool)
+    sizes = np.diff(bounds)
+    series = np.repeat(np.arange(n_series), sizes)
+    # a temperature missing from the table and the metadata: _series_run names the row
+    cleared = ~np.logical_or.reduceat(np.isnan(columns["temperature_K"]), bounds[:-1])
+    series = series[usable]
+    count = np.bincount(series, minlength=n_series)
+    molality = columns["molality_mol_kg"][usable]
+    # molalities in order within each series: no two apart by less than 1e-9 of their value
+    order = np.lexsort((molality, series))
+    ordered, within = molality[order], series[order]
+    gap = np.diff(ordered)
+    close = (within[1:] == within[:-1]) & (gap > 0) & (gap <= _SAME_MOLALITY_RELATIVE
+                                                       * ordered[1:])
+    cleared[within[1:][close]] = False
+    # the slope d E / d ln m± of every series with three readings at two molalities or more
+    least = np.full(n_series, np.inf)
+    most = np.full(n_series, -np.inf)
+    np.minimum.at(least, series, molality)
+    np.maximum.at(most, series, molality)
+    fitted = (count >= 3) & (most > least)
+    cleared[(count >= 3) & (most == least)] = False  # left to _check_response itself
+    electrolyte = metadata.electrolyte
+    from ..chemistry.electrolytes import nernst_factor
+
+    slope = 1.0 if metadata.fit_slope_factor else metadata.slope_factor
+    temperature = columns["temperature_K"][usable]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        response = slope * np.asarray(nernst_factor(electrolyte, metadata.electrons,
+                                                    temperature), dtype=float)
+        x = np.log(electrolyte.mean_molality(molality))
+        emf = columns["emf_V"][usable]
+        total = np.maximum(count, 1)
+        nernst = np.bincount(series, response, n_series) / total
+        centred = x - (np.bincount(series, x, n_series) / total)[series]
+        deviation = emf - (np.bincount(series, emf, n_series) / total)[series]
+        spread = np.bincount(series, centred * centred, n_series)
+        b = np.bincount(series, centred * deviation, n_series) / spread
+        residual = deviation - b[series] * centred
+        se = np.sqrt(np.bincount(series, residual * residual, n_series)
+                     / np.maximum(count - 2, 1) / spread)
+        scale = np.sqrt(np.bincount(series, deviation * deviation, n_series) / spread)
+        margin = _SCREEN_MARGIN * (scale + nernst)
+        sign = 1 if metadata.electrolyte_sign > 0 else -1
+        least_x = np.full(n_series, np.inf)
+        most_x = np.full(n_series, -np.inf)
+        np.minimum.at(least_x, series, x)
+        np.maximum.at(most_x, series, x)
+        span = most_x - least_x
+        # a narrow span of ln m± leaves the slope less certain than the margin: checked alone
+        cleared[fitted & ~(span >= _LEAST_SCREENED_SPAN)] = False
+        # the direction: refused when the slope exceeds both 3 se and a tenth of Nernst's
+        direction = (sign * b < 3.0 * se - margin) | (sign * b < _SLOPE_FRACTION * nernst
+                                                      - margin)
+        # the size: refused over a span of 5 mV or more when |b| + 3 se is below a tenth
+        size = ((nernst * span < 5e-3 * (1 - _SCREEN_MARGIN))
+                | (np.abs(b) + 3.0 * se > _SLOPE_FRACTION * nernst + margin))
+        passed = direction & size & np.isfinite(b) & np.isfinite(se) & np.isfinite(nernst)
+    cleared[fitted & ~passed] = False
+    return cleared
 
 
 def read_runs(
