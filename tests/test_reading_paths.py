@@ -153,15 +153,17 @@ def outcome(call):
         return (str(error), error.file, error.line, error.column)
 
 
-def same_runs(first: Run, second: Run, sha: bool = True) -> None:
+def same_runs(first: Run, second: Run, sha: bool = True, same_table: bool = True) -> None:
     """Every part of two runs is the same: points (values, types, index, columns, attrs),
-    arrays, usable rows, metadata and warnings."""
+    arrays, usable rows, metadata and warnings (of runs from different tables, a flag that
+    is no flag may be None or NaN: the flag column's type is the table's)."""
     pd.testing.assert_frame_equal(first.points, second.points, check_exact=True)
     assert [repr(d) for d in first.points.dtypes] == [repr(d) for d in second.points.dtypes]
     assert list(first.points.index) == list(second.points.index)
     assert first.points.attrs == second.points.attrs
     for a, b in zip(first.points["flag"].tolist(), second.points["flag"].tolist(), strict=True):
-        assert type(a) is type(b) and (a == b or (a != a and b != b))
+        assert (type(a) is type(b) or not same_table) and (
+            a == b or (pd.isna(a) and pd.isna(b)))
     assert list(first.arrays) == list(second.arrays)
     for name, column in first.arrays.items():
         assert column.dtype == second.arrays[name].dtype
@@ -228,28 +230,54 @@ def series_names(rows: list[str | list[str]]) -> list[str]:
     return list(dict.fromkeys(row[at].strip() for row in rows[1:] if not isinstance(row, str)))
 
 
-@pytest.mark.parametrize(("slope", "words"), [(+0.0514, "rises with molality"),
-                                              (0.0, "hardly changes with molality")])
-def test_a_bad_series_among_good_ones_is_refused_as_alone(tmp_path, slope, words):
-    """A series whose EMF rises with molality, or stays flat, is refused with the same error
-    among series that pass as when it is read alone (the whole-table check leaves it to the
-    series' own)."""
+#: A series that one check refuses: (what its rows are made of, the metadata, the words).
+BAD_SERIES = {
+    "rising": ({"slope": +0.0514}, {}, "rises with molality"),
+    "flat": ({"slope": 0.0}, {}, "hardly changes with molality"),
+    "close": ({"close": True}, {}, "no weighing tells them apart"),
+    "no temperature": ({"temperature": ""}, {"temperature_C": None}, "no temperature"),
+    "no temperature, no reading": ({"temperature": "", "no reading": True},
+                                   {"temperature_C": None}, "no temperature"),
+    "opposite sign": ({"offset": -1.0}, {"cell": HARNED}, "opposite sign"),
+    "no room for the gas": ({"temperature": "99.99"}, {"cell": HARNED, "pressure_kPa": 101.3},
+                            "leaves no room for H2"),
+}
+
+
+@pytest.mark.parametrize("case", list(BAD_SERIES))
+def test_a_bad_series_among_good_ones_is_refused_as_alone(tmp_path, case):
+    """A series that a check refuses is refused with the same error among series that pass
+    as when it is read alone (the whole-table checks leave it to the series' own); the others
+    read alike together and alone."""
+    bad, meta_change, words = BAD_SERIES[case]
     m = [0.001 * 2.0**i for i in range(6)]
-    lines = ["series,molality_mol_kg,emf_V"]
-    for name in ("A", "B"):
-        lines += [f"{name},{mi!r},{0.2224 - 0.0514 * math.log(mi)!r}" for mi in m]
-    lines += [f"C,{mi!r},{0.2224 + slope * math.log(mi) + 1e-5 * (-1) ** i!r}"
-              for i, mi in enumerate(m)]
-    lines += [f"D,{mi!r},{0.2224 - 0.0514 * math.log(mi)!r}" for mi in m]
+    lines = ["series,molality_mol_kg,emf_V,temperature_C"]
+    for name in ("A", "B", "D", "C"):
+        slope = bad.get("slope", -0.0514) if name == "C" else -0.0514
+        for i, mi in enumerate(m):
+            if name == "C" and bad.get("close") and i == 3:
+                mi = m[2] * (1 + 1e-11)
+            e = 0.2224 + slope * math.log(mi) + 1e-5 * (-1) ** i
+            e += bad.get("offset", 0.0) if name == "C" else 0.0
+            t = bad.get("temperature", "25.0") if name == "C" and i == 4 else "25.0"
+            reading = "" if name == "C" and i == 4 and bad.get("no reading") else repr(e)
+            lines.append(f"{name},{mi!r},{reading},{t}")
     path = tmp_path / "four.csv"
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    meta = {**HCL, "temperature_C": 25.0}
+    meta = {key: value for key, value in {**HCL, "temperature_C": 25.0, **meta_change}.items()
+            if value is not None}
+    if "cell" in meta:
+        del meta["electrolyte"], meta["electrons"]
     together = outcome(lambda: read_runs(path, overrides=meta))
     alone = outcome(lambda: read_run(path, overrides=meta, series="C"))
     assert isinstance(alone, tuple) and words in alone[0]
     assert together == alone
-    for name in ("A", "B", "D"):
-        assert isinstance(read_run(path, overrides=meta, series=name), Run)
+    # the good series: alone from this table as among themselves (C, last, left out)
+    alone_good = [read_run(path, overrides=meta, series=name) for name in "ABD"]
+    path.write_text("\n".join(line for line in lines if not line.startswith("C,")) + "\n",
+                    encoding="utf-8")
+    for first, second in zip(alone_good, read_runs(path, overrides=meta), strict=True):
+        same_runs(first, second, sha=False, same_table=False)
 
 
 def _one_cell_tables() -> list[tuple[str, str]]:

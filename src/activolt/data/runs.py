@@ -1461,14 +1461,13 @@ def _series_cleared(columns: Mapping[str, np.ndarray], usable: np.ndarray, bound
                     metadata: RunMetadata, notes: Mapping[str, Any]) -> np.ndarray:
     """Which series (rows ``bounds[k]:bounds[k+1]`` of the ordered ``columns``) are sure to
     pass :func:`_series_run`'s checks — every temperature known, no two molalities within
-    1e-9 of each other, the EMF's change with molality within the Nernst limits by a margin
-    — worked out for every series at once. False for a series that may fail, and for every
-    series of a cell whose checks need the catalogue or the gas pressure: those are checked
-    one by one."""
+    1e-9 of each other, room for the gas of a gas electrode, the sign of the readings that
+    the catalogue E° gives, the EMF's change with molality within the Nernst limits, each by
+    a margin — worked out for every series at once. False for a series that may fail: it is
+    checked on its own."""
     n_series = len(bounds) - 1
-    if metadata.gas_coefficients or (metadata.cell is not None
-                                     and not metadata.fit_slope_factor):
-        return np.zeros(n_series, dtype=bool)
+    if notes.get("pressure_like") and metadata.gas_coefficients:
+        return np.zeros(n_series, dtype=bool)  # every series is refused: the first says so
     sizes = np.diff(bounds)
     series = np.repeat(np.arange(n_series), sizes)
     # a temperature missing from the table and the metadata: _series_run names the row
@@ -1527,7 +1526,90 @@ def _series_cleared(columns: Mapping[str, np.ndarray], usable: np.ndarray, bound
                 | (np.abs(b) + 3.0 * se > _SLOPE_FRACTION * nernst + margin))
         passed = direction & size & np.isfinite(b) & np.isfinite(se) & np.isfinite(nernst)
     cleared[fitted & ~passed] = False
+    if metadata.gas_coefficients:
+        gas_term, low = _gas_screen(columns["pressure_Pa"][usable], temperature, metadata)
+        cleared[series[low]] = False
+    else:
+        gas_term = np.zeros(series.size)
+    if metadata.cell is not None and not metadata.fit_slope_factor:
+        # the most dilute reading of each series (the first of them, as np.argmin takes)
+        lowest = np.flatnonzero(molality == least[series])
+        _, first = np.unique(series[lowest], return_index=True)
+        dilute = lowest[first]
+        reference = np.full(n_series, np.nan)
+        reference[series[dilute]] = temperature[dilute]
+        wrong = _polarity_screen(series, dilute, reference, molality, emf, temperature,
+                                 response, x, gas_term, metadata)
+        if wrong is None:
+            return np.zeros(n_series, dtype=bool)
+        cleared[series[wrong]] = False
     return cleared
+
+
+#: How near a limit the screens of the gas pressure and the readings' sign look [V, or Pa
+#: for the gas]: far above the differences of sums and functions taken in another order.
+_SCREEN_TOLERANCE_V = 1e-9
+
+
+def _gas_screen(pressure: np.ndarray, temperature: np.ndarray, metadata: RunMetadata
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`_check_gas_pressure` over the usable rows of every series: the gas term per
+    row [V], and the rows that may leave no room for the gas."""
+    from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
+    from ..physics.corrections import water_vapour_pressure
+
+    fallback = math.nan if metadata.barometric_pressure_Pa is None else (
+        metadata.barometric_pressure_Pa)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        barometric = np.where(np.isnan(pressure), fallback, pressure)
+        vapour = water_vapour_pressure(temperature)
+        gas = (barometric + _WATER_DENSITY_KG_M3 * _STANDARD_GRAVITY_M_S2
+               * metadata.bubbler_depth_m - vapour)
+        low = ~(gas >= _LEAST_GAS_PRESSURE_PA * (1 + _SCREEN_MARGIN)) & ~np.isnan(barometric)
+        ln_ratio = np.log(gas / metadata.standard_pressure_Pa)
+        per_volt = GAS_CONSTANT_J_MOL_K * temperature / (metadata.electrons * FARADAY_C_MOL)
+        term = -per_volt * sum(ln_ratio * nu for nu in metadata.gas_coefficients.values())
+    return np.where(np.isfinite(term), term, 0.0), low
+
+
+def _polarity_screen(series: np.ndarray, dilute: np.ndarray, reference: np.ndarray,
+                     molality: np.ndarray, emf: np.ndarray, temperature: np.ndarray,
+                     response: np.ndarray, x: np.ndarray, gas_term: np.ndarray,
+                     metadata: RunMetadata) -> np.ndarray | None:
+    """:func:`_check_polarity` over the usable rows of every series (``series`` names each
+    row's, ``dilute`` the rows of the most dilute readings, ``reference`` each series'
+    temperature there): the rows that may have the sign opposite to the cell's; None when
+    the catalogue cannot be asked (every series is then checked on its own)."""
+    assert metadata.cell is not None
+    standard = np.full(reference.size, np.nan)
+    u_standard = np.zeros(reference.size)
+    unchanged = np.zeros(reference.size, dtype=bool)
+    try:
+        for reference_K in np.unique(reference[~np.isnan(reference)]).tolist():
+            catalogue = _catalogue_potential(metadata.cell, reference_K)
+            if catalogue is not None:
+                at = reference == reference_K
+                standard[at], u_standard[at], unchanged[at] = catalogue
+    except Exception:  # the series' own checks raise it, in their order
+        return None
+    electrolyte = metadata.electrolyte
+    sign = 1 if metadata.electrolyte_sign > 0 else -1
+    with np.errstate(invalid="ignore"):
+        margin = (_POLARITY_MARGIN_V + 2.0 * u_standard[series]
+                  + _UNKNOWN_DE0_DT_V_K * np.abs(temperature - reference[series]))
+        margin = margin + np.where(unchanged[series],
+                                   _UNKNOWN_DE0_DT_V_K * np.abs(reference[series] - 298.15), 0.0)
+        ionic = electrolyte.ionic_strength(molality)
+        margin = margin + np.where(ionic > 0.1, 3.0 * response, 0.0)
+        expected = standard[series] - sign * response * x + gas_term
+        candidates = ionic <= 0.1
+        candidates[dilute] = True
+        tolerance = _SCREEN_TOLERANCE_V
+        opposite = (candidates & ~(emf * expected >= tolerance)
+                    & ~(np.abs(emf) <= margin - tolerance)
+                    & ~(np.abs(expected) <= margin - tolerance))
+    # a series without a catalogue E° is not checked (standard NaN: expected NaN, cleared)
+    return opposite & ~np.isnan(standard[series])
 
 
 def read_runs(
