@@ -83,6 +83,8 @@ _MISSING = {"", "nan", "-nan", "+nan", "na", "n/a", "#n/a", "-"}
 _PLAIN_NUMBER = re.compile(r"[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?")
 #: Line ends: LF, CRLF and CR only (the csv module's own), never the other Unicode breaks.
 _LINE_END = re.compile(r"\r\n|\r|\n")
+#: What str.splitlines breaks lines at besides LF, CRLF and CR.
+_OTHER_LINE_BREAKS = "\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029"
 #: Separators recognised in the header, with the names used in messages.
 _SEPARATORS = {",": "comma", ";": "semicolon", "\t": "tab"}
 #: Column names that look like a pressure but are none activolt reads.
@@ -327,17 +329,24 @@ def _rows(path: Path, text: str
 def _plain_rows(text: str
                 ) -> tuple[int, list[str], list[int], list[list[str]], str] | None:
     """What :func:`_rows` gives, by splitting at the separator, for a table without quotes
-    whose rows all have as many fields as the header names (header line number, column
-    names, data line numbers, data rows, separator); None for any other table (quotes,
-    fields longer than the csv module takes, rows with other numbers of fields, too many
-    rows, no header), which :func:`_rows` then reads or refuses."""
+    whose rows all have as many fields as the header names — the header line number, the
+    column names, the data lines' numbers, the cells column by column, the separator; None
+    for any other table (quotes, fields longer than the csv module takes, rows with other
+    numbers of fields, too many rows), which :func:`_rows` then reads or refuses."""
     if '"' in text or "\0" in text:
         return None
-    lines = _LINE_END.split(text)
-    if max(map(len, lines)) > csv.field_size_limit():
+    # str.splitlines breaks at LF, CRLF and CR, and at other characters the reader keeps
+    # within a line; without those it gives the same lines (but no empty last one)
+    lines = (_LINE_END.split(text) if any(c in text for c in _OTHER_LINE_BREAKS)
+             else text.splitlines())
+    if not lines or max(map(len, lines)) > csv.field_size_limit():
         return None
-    numbers = [n for n, line in enumerate(lines, start=1)
-               if line.strip() and not line.lstrip().startswith("#")]
+    stripped = list(map(str.strip, lines))  # a line is blank when this is empty
+    if "#" in text:
+        kept = [bool(line) and line[0] != "#" for line in stripped]
+    else:
+        kept = list(map(bool, stripped))
+    numbers = list(itertools.compress(range(1, len(lines) + 1), kept))
     if not numbers or len(numbers) > MAX_ROWS + 1:
         return None
     header_line = numbers[0]
@@ -350,11 +359,12 @@ def _plain_rows(text: str
         names.pop()
     if len(names) != width:
         return None
-    data = numbers[1:]
-    fields = [lines[n - 1].split(separator) for n in data]
-    if fields and set(map(len, fields)) != {width}:
+    data = list(itertools.compress(lines, kept))[1:]
+    if data and set(map(str.count, data, itertools.repeat(separator))) != {width - 1}:
         return None
-    return header_line, names, data, fields, separator
+    # every row has width fields: the cells of all rows, one after the other
+    cells = separator.join(data).split(separator) if data else []
+    return header_line, names, numbers[1:], [cells[j::width] for j in range(width)], separator
 
 
 #: Characters of a column of plain numbers, one a line (a '-' cell or an empty one is
@@ -362,7 +372,7 @@ def _plain_rows(text: str
 _NOT_IN_NUMBERS = re.compile(r"[^0-9.eE+\- \t\n]")
 
 
-def _number_column(cells: tuple[str, ...], decimal_comma: bool
+def _number_column(cells: list[str], decimal_comma: bool
                    ) -> tuple[np.ndarray, np.ndarray] | None:
     """The cells of one column as numbers, NaN where missing, and where they are missing;
     None when a cell is neither a plain decimal number nor missing, or too large (what
@@ -379,8 +389,8 @@ def _number_column(cells: tuple[str, ...], decimal_comma: bool
     values = None
     if not _NOT_IN_NUMBERS.search(joined):
         try:
-            values = np.fromiter(map(float, joined.split("\n")), dtype=float,
-                                 count=len(cells))
+            values = np.fromiter(map(float, joined.split("\n") if decimal_comma else cells),
+                                 dtype=float, count=len(cells))
         except ValueError:
             values = None
     if values is None:
@@ -402,12 +412,12 @@ def _number_column(cells: tuple[str, ...], decimal_comma: bool
 
 
 def _points_by_columns(layout: _Layout, line_numbers: list[int],
-                       fields: list[list[str]]) -> pd.DataFrame | None:
+                       cells: list[list[str]]) -> pd.DataFrame | None:
     """The points of a table split by :func:`_plain_rows`, every column parsed and checked
     at once; None when any cell is one :func:`_points_by_rows` refuses (it then says which).
     The same points as :func:`_points_by_rows`, value for value and type for type."""
     names = layout.names
-    columns = dict(zip(names, zip(*fields, strict=True), strict=True))
+    columns = dict(zip(names, cells, strict=True))
 
     def read(column: str) -> tuple[np.ndarray, np.ndarray] | None:
         return _number_column(columns[column], layout.decimal_comma)
@@ -485,7 +495,7 @@ def _points_by_columns(layout: _Layout, line_numbers: list[int],
         "u_molality_mol_kg": u_molality, "temperature_K": temperature_K,
         "pressure_Pa": pressure_Pa}
     for text_column in ("electrode", "series", "note"):
-        points[text_column] = ([cell.strip() for cell in columns[text_column]]
+        points[text_column] = (list(map(str.strip, columns[text_column]))
                                if text_column in columns else [""] * n)
     return pd.DataFrame(points)
 
@@ -606,9 +616,9 @@ def _read_table(path: Path, text: str) -> tuple[pd.DataFrame, list[str]]:
     plain = _plain_rows(text)
     points = None
     if plain is not None:
-        header_line, names, line_numbers, fields, separator = plain
+        header_line, names, line_numbers, cells, separator = plain
         layout, warnings = _layout(path, header_line, names, separator, bool(line_numbers))
-        points = _points_by_columns(layout, line_numbers, fields)
+        points = _points_by_columns(layout, line_numbers, cells)
     if points is None:
         header_line, names, rows, separator = _rows(path, text)
         layout, warnings = _layout(path, header_line, names, separator, bool(rows))
