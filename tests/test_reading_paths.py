@@ -20,6 +20,7 @@ each side is the other's reference.
 
 from __future__ import annotations
 
+import gc
 import math
 import tempfile
 from pathlib import Path
@@ -325,3 +326,25 @@ def test_one_odd_cell_reads_alike_plain_and_quoted(tmp_path, column, text):
     for a, b in zip(plain, quoted, strict=True):
         pd.testing.assert_frame_equal(a.points, b.points, check_exact=True)
         assert a.warnings == b.warnings
+
+
+@pytest.mark.parametrize("enabled", [True, False])
+def test_reading_leaves_the_garbage_collector_as_it_was(tmp_path, enabled):
+    """Series are made with the cyclic collector paused; it is as before afterwards, after a
+    refused series too."""
+    path = tmp_path / "two.csv"
+    path.write_text("series,molality_mol_kg,emf_V\nA,0.01,0.46\nA,0.02,0.43\nB,0.01,0.46\n"
+                    "B,0.010000000001,0.45\n", encoding="utf-8")
+    meta = {**HCL, "temperature_C": 25.0}
+    was = gc.isenabled()
+    try:
+        (gc.enable if enabled else gc.disable)()
+        refused = outcome(lambda: read_runs(path, overrides=meta))
+        assert isinstance(refused, tuple) and "no weighing tells them apart" in refused[0]
+        assert gc.isenabled() is enabled
+        path.write_text("series,molality_mol_kg,emf_V\nA,0.01,0.46\nA,0.02,0.43\n",
+                        encoding="utf-8")
+        assert len(read_runs(path, overrides=meta)) == 1
+        assert gc.isenabled() is enabled
+    finally:
+        (gc.enable if was else gc.disable)()

@@ -12,6 +12,7 @@ import csv
 import dataclasses
 import difflib
 import functools
+import gc
 import hashlib
 import itertools
 import math
@@ -1395,7 +1396,27 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     usable = pd.isna(flag)
     cleared = _series_cleared(columns, usable, bounds, metadata, notes)
     rows_of = _row_slicer(points, order)
-    runs = []
+    runs: list[Run] = []
+    # Some sixty objects a series, none of them garbage: the cyclic collector's passes over
+    # the whole heap while they pile up would take as long as making them (10 000 series).
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        _add_series(runs, path, sha256, metadata_path, metadata, warnings, notes, rows_of,
+                    columns, usable, bounds, cleared)
+    finally:
+        if collecting:
+            gc.enable()
+    return tuple(runs)
+
+
+def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | None,
+                metadata: RunMetadata, warnings: list[str], notes: Mapping[str, Any],
+                rows_of: Callable[[int, int], pd.DataFrame],
+                columns: Mapping[str, np.ndarray], usable: np.ndarray, bounds: np.ndarray,
+                cleared: np.ndarray) -> None:
+    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ordered table) as a Run added to
+    ``runs``: built directly when ``cleared[k]``, else through :func:`_series_run`."""
     for k, (first, last) in enumerate(itertools.pairwise(bounds.tolist())):
         frame = rows_of(first, last)
         arrays = {name: column[first:last] for name, column in columns.items()}
@@ -1418,7 +1439,6 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
         run.__dict__["arrays"] = MappingProxyType(arrays)
         run.__dict__["usable"] = rows
         runs.append(run)
-    return tuple(runs)
 
 
 def _row_slicer(points: pd.DataFrame, order: np.ndarray) -> Callable[[int, int], pd.DataFrame]:
