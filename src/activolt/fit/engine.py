@@ -178,6 +178,25 @@ class MeasurementModel:
             rows[~fitted] = 0.0
         return rows, base
 
+    def curvature_rows(self, values: np.ndarray, columns: np.ndarray, base: np.ndarray
+                       ) -> np.ndarray:
+        """∂²E/∂θ_c² for the model parameters ``columns``, one row per parameter, shape
+        (S, C, N), by central second differences over 10⁻³ max(1, |θ|) (wide enough that
+        rounding stays below 10⁻⁹ of the result); ``base`` is ln γ± at ``values``
+        (:meth:`ln_gamma`). The model is evaluated once, at every shifted value together."""
+        blocks, steps = [], []
+        for index in columns:
+            step = 1e-3 * np.maximum(1.0, np.abs(values[:, index]))
+            up, down = values.copy(), values.copy()
+            up[:, index] += step
+            down[:, index] -= step
+            blocks += [up, down]
+            steps.append(step[:, None])
+        shifted = self._ln_gamma_of(blocks)
+        factor = -self.sign * values[:, -1:] * self.nernst_V
+        return np.stack([factor * (shifted[2 * k] - 2.0 * base + shifted[2 * k + 1]) / step**2
+                         for k, step in enumerate(steps)], axis=1)
+
     def _ln_gamma_of(self, blocks: list[np.ndarray]) -> list[np.ndarray]:
         """ln γ± at each array of values in ``blocks``: for a small batch in one evaluation of
         the model on the stacked values (every model is elementwise, so the numbers are those
@@ -334,7 +353,12 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     by 10 after a step that lowers χ² and multiplied by 10 otherwise; a series stops when χ² no
     longer falls by more than 10⁻¹² relatively or its step is below 10⁻¹⁰ of its values, or
     when λ passes 10¹². A parameter at a bound that the step would push beyond it is held for
-    that step (projected Levenberg–Marquardt). The covariance is
+    that step (projected Levenberg–Marquardt). Once a series settles (its last step lowered χ²
+    by less than 1 %), the normal matrix of a parameter entering non-linearly (the Hückel å)
+    gains the second-order term −Σ w r ∂²E/∂θ², kept to at least −½ of its diagonal: Newton's
+    step in place of Gauss–Newton's, which would converge only linearly where the residuals
+    stay large, as when a held parameter leaves the model misfitting (Nocedal & Wright 2006,
+    *Numerical Optimization*, §10.3). The optimum is the same. The covariance is
     (AᵀA)⁻¹ at the optimum (Bevington & Robinson 2003, *Data Reduction and Error Analysis*,
     ch. 8; Press et al. 2007, *Numerical Recipes*, §15.5).
 
@@ -405,6 +429,13 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     # evaluation gives them at the trial too (in the same call), ready if the step is taken.
     jac_rows: np.ndarray | None = None
     shifted = sum(1 for index in columns if 0 < index < n_parameters - 1)
+    # The model parameters that enter non-linearly (their positions in ``columns``), and which
+    # series are settling (their last step taken, lowering χ² by less than 1 %).
+    curved = [] if only_linear else [
+        position for position, index in enumerate(columns)
+        if 0 < index < n_parameters - 1 and not model.activity.parameters[index - 1].linear]
+    curved_columns = columns[curved]
+    settling = np.zeros(n_series, dtype=bool)
     tiny = np.finfo(float).tiny
     rows = np.flatnonzero(active)
     for _ in range(iterations):
@@ -421,6 +452,18 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         at = jac_rows * sqrt_w[pick, None, :]
         normal = np.matmul(at, np.swapaxes(at, 1, 2))
         gradient = np.matmul(at, residual[pick, :, None])[..., 0]
+        if curved and settling[pick].any():
+            # Near the optimum, the Hessian's second-order part −Σ w r ∂²E/∂θ² for the
+            # parameters that enter non-linearly (Newton's step rather than Gauss–Newton's):
+            # where a model misfits (a parameter held) the residuals stay large, and without it
+            # the steps overshoot and converge only linearly. Kept to at least −½ of the
+            # diagonal, so that the matrix stays positive definite.
+            second = np.sum(sub.curvature_rows(current, curved_columns, base)
+                            * (residual[pick] * sqrt_w[pick])[:, None, :], axis=2)
+            diagonal = normal[:, curved, curved]
+            normal[:, curved, curved] = diagonal + np.where(
+                settling[pick, None] & np.isfinite(second),
+                np.maximum(-second, -0.5 * diagonal), 0.0)
         # A parameter at a bound that the descent would push beyond it is held for this step
         # (projected Levenberg–Marquardt), so that the others can settle.
         used = free_columns[pick]
@@ -481,6 +524,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             converged[rows] = True
             break
         damping[pick] = np.where(better, damping[pick] / 10.0, damping[pick] * 10.0)
+        settling[pick] = better & (drop < 1e-2)
         done = (better & ((drop <= 1e-12) | small)) | (~better & small)
         finished = done | (damping[pick] > 1e12)
         if finished.any():
