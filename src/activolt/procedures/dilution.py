@@ -30,7 +30,7 @@ from typing import Any, NamedTuple, TypeVar
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
-from uncertainties import correlated_values
+from uncertainties import correlated_values, ufloat
 from uncertainties.core import AffineScalarFunc
 
 from ..activity import ActivityModel, Parameter, get_model
@@ -1217,7 +1217,7 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
         )
         for p in start.specs
     )
-    e0_value = correlated_values([fit.e0], fit.covariance[:1, :1])[0]
+    e0_value = ufloat(fit.e0, math.sqrt(fit.covariance[0, 0]))
     corrections, other_basis = _corrections_summary(run, data, start.temperature_K)
     return Reduction(
         run=run, model=family, temperature_K=start.temperature_K,
@@ -1611,7 +1611,7 @@ def with_model_choice(reduction: Reduction, u_model_V: float, rule: str) -> Redu
     if uncertain is not None:
         uncertain = uncertain.copy()
         uncertain[0, 0] += u_model_V**2
-    e0 = correlated_values([reduction.standard_potential.nominal_value], covariance[:1, :1])[0]
+    e0 = ufloat(reduction.standard_potential.nominal_value, math.sqrt(covariance[0, 0]))
     propagation = reduction.gamma_propagation
     step = propagation.parameter_gradient[:, 0] * u_model_V
     used = reduction.run.usable
