@@ -533,9 +533,10 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             rows = np.flatnonzero(active)
             # The series left keep their ln γ± and Jacobian rows (every model is elementwise:
             # the same numbers as evaluating the smaller batch again).
-            kept = ~finished
-            sub, base, base_rows = _rows(model, rows), base[kept], rows.size
-            jac_rows = None if jac_rows is None else jac_rows[kept]
+            if rows.size:
+                kept = ~finished
+                sub, base, base_rows = _rows(model, rows), base[kept], rows.size
+                jac_rows = None if jac_rows is None else jac_rows[kept]
     for index in np.flatnonzero(~converged):
         if failures[index] is None:
             failures[index] = f"the fit did not converge in {iterations} iterations"
