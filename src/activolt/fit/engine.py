@@ -416,6 +416,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     iterations = 1 if only_linear else _MAX_ITERATIONS
     columns = np.flatnonzero(free.any(axis=0))
     free_columns = free[:, columns]
+    diagonal_index = np.arange(columns.size)
     # Every series fits every parameter of ``columns``: the masks below change nothing.
     all_free = bool(free_columns.all())
     bounded = bool(np.any(np.isfinite(limits[columns])))
@@ -462,29 +463,31 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
                             * (residual[pick] * sqrt_w[pick])[:, None, :], axis=2)
             diagonal = normal[:, curved, curved]
             normal[:, curved, curved] = diagonal + np.where(
-                settling[pick, None] & np.isfinite(second),
+                settling[pick, None] & np.isfinite(second) & free_columns[pick][:, curved],
                 np.maximum(-second, -0.5 * diagonal), 0.0)
         # A parameter at a bound that the descent would push beyond it is held for this step
-        # (projected Levenberg–Marquardt), so that the others can settle.
+        # (projected Levenberg–Marquardt), so that the others can settle. (A held parameter's
+        # Jacobian row is 0, and so are its row and column of the normal matrix.)
         used = free_columns[pick]
         if bounded:
             at_values = current[:, columns]
             at_low, at_high = at_values <= low_columns, at_values >= high_columns
             if at_low.any() or at_high.any():
                 pinned = (at_low & (gradient < 0.0)) | (at_high & (gradient > 0.0))
-                used = used & ~pinned
+                if pinned.any():
+                    used = used & ~pinned
+                    normal = normal * used[:, :, None] * used[:, None, :]
+                    gradient = gradient * used
         all_used = bool(used.all())
-        if not all_used:
-            normal = normal * used[:, :, None] * used[:, None, :]
-            gradient = gradient * used
         # (the diagonal as a strided view of the fresh, contiguous normal matrices)
         normal.reshape(rows.size, -1)[:, ::columns.size + 1] *= 1.0 + damping[pick, None]
-        regular = normal if all_used else _regularised(normal, used)
+        if not all_used:  # 1 on the diagonal of the parameters left out: their step is 0
+            normal[:, diagonal_index, diagonal_index] += ~used
         try:
-            compact = np.linalg.solve(regular, gradient[..., None])[..., 0]
+            compact = np.linalg.solve(normal, gradient[..., None])[..., 0]
         except np.linalg.LinAlgError:
             compact = np.stack([_safe_step(d, g, f) for d, g, f in
-                                zip(regular, gradient, used, strict=True)])
+                                zip(normal, gradient, used, strict=True)])
         step = np.zeros((rows.size, n_parameters))
         step[:, columns] = compact
         trial = np.minimum(np.maximum(current + (step if all_free else step * free[pick]), low),
@@ -525,7 +528,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             break
         damping[pick] = np.where(better, damping[pick] / 10.0, damping[pick] * 10.0)
         settling[pick] = better & (drop < 1e-2)
-        done = (better & ((drop <= 1e-12) | small)) | (~better & small)
+        done = small | (better & (drop <= 1e-12))
         finished = done | (damping[pick] > 1e12)
         if finished.any():
             converged[rows[finished]] = True
