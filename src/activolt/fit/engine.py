@@ -129,11 +129,13 @@ class MeasurementModel:
         return self._gradient(values, free, columns, central, base)[0]
 
     def _gradient(self, values: np.ndarray, free: np.ndarray, columns: np.ndarray,
-                  central: bool, base: np.ndarray | None = None
-                  ) -> tuple[np.ndarray, np.ndarray]:
-        """(:meth:`gradient_rows`, ln γ± at ``values``): every evaluation of the model that
-        they need (ln γ± itself unless ``base`` gives it, and each shifted parameter) is made
-        in one call for a small batch."""
+                  central: bool, base: np.ndarray | None = None,
+                  curved: np.ndarray | None = None
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+        """(:meth:`gradient_rows`, ln γ± at ``values``, :meth:`curvature_rows` of the
+        parameters ``curved``, None without): every evaluation of the model that they need
+        (ln γ± itself unless ``base`` gives it, and each shifted parameter) is made in one call
+        for a small batch."""
         last = values.shape[1] - 1
         blocks = [values if base is None else base]  # the model at ``values`` first
         shifts: list[tuple[int, np.ndarray | None, int]] = []  # (position, step, block)
@@ -154,6 +156,9 @@ class MeasurementModel:
                 down = values.copy()
                 down[:, index] -= step
                 blocks.append(down)
+        first_curved = len(blocks)
+        curvature_steps = [] if curved is None else self._curvature_blocks(values, curved,
+                                                                           blocks)
         if base is None:
             out = self._ln_gamma_of(blocks)
             base = out[0]
@@ -176,7 +181,9 @@ class MeasurementModel:
         fitted = free[:, columns]
         if not fitted.all():
             rows[~fitted] = 0.0
-        return rows, base
+        curvature = (None if curved is None else
+                     self._curvature(out[first_curved:], base, curvature_steps, factor))
+        return rows, base, curvature
 
     def curvature_rows(self, values: np.ndarray, columns: np.ndarray, base: np.ndarray
                        ) -> np.ndarray:
@@ -184,7 +191,17 @@ class MeasurementModel:
         (S, C, N), by central second differences over 10⁻³ max(1, |θ|) (wide enough that
         rounding stays below 10⁻⁹ of the result); ``base`` is ln γ± at ``values``
         (:meth:`ln_gamma`). The model is evaluated once, at every shifted value together."""
-        blocks, steps = [], []
+        blocks: list[np.ndarray] = []
+        steps = self._curvature_blocks(values, columns, blocks)
+        return self._curvature(self._ln_gamma_of(blocks), base, steps,
+                               -self.sign * values[:, -1:] * self.nernst_V)
+
+    @staticmethod
+    def _curvature_blocks(values: np.ndarray, columns: np.ndarray, blocks: list[np.ndarray]
+                          ) -> list[np.ndarray]:
+        """Appends to ``blocks`` the values shifted up and down for :meth:`curvature_rows`;
+        returns the steps, shape (S, 1) each."""
+        steps = []
         for index in columns:
             step = 1e-3 * np.maximum(1.0, np.abs(values[:, index]))
             up, down = values.copy(), values.copy()
@@ -192,8 +209,12 @@ class MeasurementModel:
             down[:, index] -= step
             blocks += [up, down]
             steps.append(step[:, None])
-        shifted = self._ln_gamma_of(blocks)
-        factor = -self.sign * values[:, -1:] * self.nernst_V
+        return steps
+
+    @staticmethod
+    def _curvature(shifted: list[np.ndarray], base: np.ndarray, steps: list[np.ndarray],
+                   factor: np.ndarray) -> np.ndarray:
+        """:meth:`curvature_rows` from ln γ± at the values of :meth:`_curvature_blocks`."""
         return np.stack([factor * (shifted[2 * k] - 2.0 * base + shifted[2 * k + 1]) / step**2
                          for k, step in enumerate(steps)], axis=1)
 
@@ -429,6 +450,8 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
     # that is not taken leaves them as they were; for a small batch, each trial's model
     # evaluation gives them at the trial too (in the same call), ready if the step is taken.
     jac_rows: np.ndarray | None = None
+    # Likewise ∂²E/∂θ² of the parameters ``curved`` at the current values (None: not known).
+    curvature: np.ndarray | None = None
     shifted = sum(1 for index in columns if 0 < index < n_parameters - 1)
     # The model parameters that enter non-linearly (their positions in ``columns``), and which
     # series are settling (their last step taken, lowering χ² by less than 1 %).
@@ -446,7 +469,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         pick: slice | np.ndarray = slice(None) if rows.size == n_series else rows
         if rows.size != base_rows:  # (the rows only ever become fewer)
             sub = model if rows.size == n_series else _rows(model, rows)
-            base, base_rows, jac_rows = sub.ln_gamma(values[pick]), rows.size, None
+            base, base_rows, jac_rows, curvature = sub.ln_gamma(values[pick]), rows.size, None, None
         current = values[pick]
         if jac_rows is None:
             jac_rows = sub.gradient_rows(current, free[pick], columns, central=False, base=base)
@@ -459,8 +482,9 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             # where a model misfits (a parameter held) the residuals stay large, and without it
             # the steps overshoot and converge only linearly. Kept to at least −½ of the
             # diagonal, so that the matrix stays positive definite.
-            second = np.sum(sub.curvature_rows(current, curved_columns, base)
-                            * (residual[pick] * sqrt_w[pick])[:, None, :], axis=2)
+            if curvature is None:
+                curvature = sub.curvature_rows(current, curved_columns, base)
+            second = np.sum(curvature * (residual[pick] * sqrt_w[pick])[:, None, :], axis=2)
             diagonal = normal[:, curved, curved]
             normal[:, curved, curved] = diagonal + np.where(
                 settling[pick, None] & np.isfinite(second) & free_columns[pick][:, curved],
@@ -493,11 +517,16 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         trial = np.minimum(np.maximum(current + (step if all_free else step * free[pick]), low),
                            high)  # (np.clip, without its dispatch)
         step = trial - current
-        if (not only_linear and rows.size * (1 + shifted) <= _STACK_LIMIT
-                and np.isfinite(trial).all()):
-            trial_rows, trial_lng = sub._gradient(trial, free[pick], columns, central=False)
+        # A series settling now most likely settles at the trial too: its curvature there is
+        # worked out in the same evaluation of the model.
+        bend = curved_columns if curved and settling[pick].any() else None
+        if (not only_linear
+                and rows.size * (1 + shifted + (0 if bend is None else 2 * bend.size))
+                <= _STACK_LIMIT and np.isfinite(trial).all()):
+            trial_rows, trial_lng, trial_curvature = sub._gradient(
+                trial, free[pick], columns, central=False, curved=bend)
         else:
-            trial_rows, trial_lng = None, sub.ln_gamma(trial)
+            trial_rows, trial_lng, trial_curvature = None, sub.ln_gamma(trial), None
         trial_residual = masked(emf[pick] - sub.predict(trial, trial_lng),
                                 read[pick]) * sqrt_w[pick]
         trial_chi2 = np.sum(trial_residual**2, axis=1)
@@ -509,7 +538,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
         taken = int(np.count_nonzero(better))
         if taken == rows.size:  # every step taken (the np.where below, without its work)
             values[pick], residual[pick], chi2[pick] = trial, trial_residual, trial_chi2
-            base, jac_rows = trial_lng, trial_rows
+            base, jac_rows, curvature = trial_lng, trial_rows, trial_curvature
         elif taken:
             values[pick] = np.where(better[:, None], trial, current)
             residual[pick] = np.where(better[:, None], trial_residual, residual[pick])
@@ -517,6 +546,8 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
             base = np.where(better[:, None], trial_lng, base)
             jac_rows = (None if trial_rows is None
                         else np.where(better[:, None, None], trial_rows, jac_rows))
+            curvature = (None if trial_curvature is None or curvature is None
+                         else np.where(better[:, None, None], trial_curvature, curvature))
         if rows.size == n_series:
             lng = base
         else:
@@ -540,6 +571,7 @@ def solve(model: MeasurementModel, emf_V: np.ndarray, weights: np.ndarray,
                 kept = ~finished
                 sub, base, base_rows = _rows(model, rows), base[kept], rows.size
                 jac_rows = None if jac_rows is None else jac_rows[kept]
+                curvature = None if curvature is None else curvature[kept]
     for index in np.flatnonzero(~converged):
         if failures[index] is None:
             failures[index] = f"the fit did not converge in {iterations} iterations"
