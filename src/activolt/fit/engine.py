@@ -233,22 +233,35 @@ class MeasurementModel:
         return {}
 
     def _tiled(self, copies: int) -> MeasurementModel:
-        """The model with its series repeated ``copies`` times (block after block)."""
+        """The model with its series repeated ``copies`` times (block after block): the
+        first rows of one model repeated as often as the stacks of a fit need (the widest
+        asked for, and at least 8 while that stays within the stacking limit), so that the
+        model's arrays are copied once for every size of stack."""
         tiled = self._tiles.get(copies)
-        if tiled is None:
-            shape = self.molality.shape
+        if tiled is not None:
+            return tiled
+        shape = self.molality.shape
+        widest = max(self._tiles, default=0)
+        if widest < copies:
+            widest = max(copies, min(8, _STACK_LIMIT // max(shape[0], 1)))
 
             def repeat(x: np.ndarray) -> np.ndarray:
                 return np.concatenate([x if np.shape(x) == shape
-                                       else np.broadcast_to(x, shape)] * copies)
+                                       else np.broadcast_to(x, shape)] * widest)
 
             c = self.constants
-            tiled = MeasurementModel(
+            self._tiles[widest] = MeasurementModel(
                 self.activity, self.electrolyte, self.sign, repeat(self.molality),
                 repeat(self.nernst_V), DebyeHueckelConstants(
                     repeat(c.temperature), repeat(c.aphi), repeat(c.b)))
-            self._tiles[copies] = tiled
-        return tiled
+        if copies != widest:
+            wide, n = self._tiles[widest], copies * shape[0]
+            c = wide.constants
+            self._tiles[copies] = MeasurementModel(
+                self.activity, self.electrolyte, self.sign, wide.molality[:n],
+                wide.nernst_V[:n], DebyeHueckelConstants(c.temperature[:n], c.aphi[:n],
+                                                         c.b[:n]))
+        return self._tiles[copies]
 
 
 @dataclass(frozen=True)
