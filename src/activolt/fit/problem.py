@@ -25,6 +25,7 @@ from ..activity import ActivityModel, Parameter
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..data.runs import Run, RunMetadata
 from ..errors import InputError
+from ..physics.corrections import gas_pressure_correction, hydrogen_partial_pressure
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .engine import E0, SLOPE, MeasurementModel
 
@@ -106,7 +107,6 @@ def gas_correction_arrays(run: Run, temperature_K: np.ndarray, pressure_Pa: np.n
         raise InputError("no barometric pressure for this row while others have one; fill the "
                          "column or give pressure_kPa in the metadata", file=str(run.path),
                          line=int(line[np.isnan(pressure)][0]), column="pressure_kPa")
-    from ..physics.corrections import gas_pressure_correction, hydrogen_partial_pressure
 
     partial = hydrogen_partial_pressure(temperature_K, pressure, water_activity=water_activity,
                                         bubbler_depth_m=meta.bubbler_depth_m)

@@ -35,10 +35,13 @@ from uncertainties.core import AffineScalarFunc
 
 from ..activity import ActivityModel, Parameter, get_model
 from ..activity.hueckel import extended_debye_hueckel
+from ..activity.properties import water_activity
+from ..chemistry.cells import cell_summary
 from ..chemistry.electrolytes import Electrolyte, nernst_factor
-from ..constants import ZERO_CELSIUS_K
+from ..constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
+from ..fit.diagnostics import point_diagnostics
 from ..fit.engine import BatchFit, MeasurementModel, solve
 from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
 from ..fit.least_squares import information_criteria, linear_least_squares
@@ -63,6 +66,7 @@ from ..fit.uncertainty import (
     sensitivity_matrix,
     student_t_factor,
 )
+from ..physics.corrections import standard_pressure_basis_shift
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .display import html_table, rounded_uncertainty, value_with_uncertainty
 
@@ -386,7 +390,6 @@ def _with_vapour_lowering(run: Run, model: ActivityModel, data: SeriesData,
     the metadata does not ask for it or no gas correction applies."""
     if not _lowers_vapour(run, data):
         return data
-    from ..activity.properties import water_activity
 
     model_values = {name: fit.values[name] for name in model.parameter_names}
     phi = model.osmotic_coefficient(run.metadata.electrolyte, data.molality, data.constants,
@@ -1364,7 +1367,6 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit
               ) -> tuple[dict[str, np.ndarray], list[str]]:
     """Columns over every row of the run: leverage, studentized residuals and Cook's distance of
     the used readings, and a ``diagnostic`` reason where one stands out; warnings naming them."""
-    from ..fit.diagnostics import point_diagnostics
 
     used = run.usable
     scaled = not data.stated_uncertainty
@@ -1397,7 +1399,6 @@ def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
     meta = run.metadata
     if meta.cell is None:
         return None
-    from ..physics.corrections import standard_pressure_basis_shift
 
     found = _catalogue_entry(meta.cell, float(temperature_K))
     if found is None:
@@ -1415,7 +1416,6 @@ def _catalogue_entry(cell: str, temperature_K: float
                      ) -> tuple[float, float, float, str] | None:
     """(E° [V], u [V], its pressure basis [Pa], the couples) of a cell from the catalogue, or
     None; kept once worked out, since a batch reduces many runs of one cell."""
-    from ..chemistry.cells import cell_summary
 
     summary = cell_summary(cell, temperature_K)
     e0 = summary.get("standard_potential_V")
@@ -1449,8 +1449,6 @@ def _corrections_summary(run: Run, data: SeriesData, temperature_K: float
                if meta.solute_vapour_lowering else
                "(vapour-pressure lowering by the solute not applied; set "
                "solute_vapour_lowering = true to apply it)"))
-    from ..constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA
-    from ..physics.corrections import standard_pressure_basis_shift
 
     other = (ATMOSPHERE_PA if math.isclose(meta.standard_pressure_Pa, STANDARD_PRESSURE_PA)
              else STANDARD_PRESSURE_PA)
