@@ -446,3 +446,28 @@ def test_model_choice_reads_of_the_points_are_those_of_the_table(reductions, dat
     got, expected = residuals_by_solution(changed), _reference_residuals_by_solution(changed)
     assert got.dtype == expected.dtype and got.tobytes() == expected.tobytes()
     assert run_range_mol_kg(changed) == _reference_run_range(changed)
+
+
+# --- a batch's input entry, worked out once ------------------------------------------------
+
+@pytest.mark.parametrize("depth", [0, 2])
+def test_a_shared_input_entry_gives_the_record_of_each_series(reductions, tmp_path, depth):
+    """A batch names and hashes its table and metadata once (``input_record``) and gives the
+    entry to every series' record: the record is the one built without it."""
+    from activolt.io.record import input_record, written_record
+
+    reduction, comparison = reductions["moved"]
+    folder = tmp_path.joinpath(*(["deeper"] * depth), "out")
+    created = datetime(2025, 1, 2, 3, 4, 5, tzinfo=UTC)
+    entry = input_record(reduction.run, folder)
+    assert entry["metadata_file"].endswith("moved.toml") and len(entry["metadata_sha256"]) == 64
+    alone = written_record(reduction, created, comparison=comparison, record_folder=folder)
+    shared = written_record(reduction, created, comparison=comparison, record_folder=folder,
+                            input_entry=entry)
+    assert shared.text == alone.text
+    _identical(shared.document, alone.document)
+    assert shared.document["input"] is not entry  # each record holds its own entry
+    # an entry for a folder at another depth names the files otherwise
+    other = input_record(reduction.run, tmp_path.joinpath(*(["elsewhere"] * (depth + 3))))
+    assert written_record(reduction, created, record_folder=folder,
+                          input_entry=other).text != alone.text

@@ -14,7 +14,7 @@ import signal
 import sys
 import threading
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from importlib import import_module
 from importlib.resources import files
 from pathlib import Path
@@ -484,6 +484,8 @@ class _SeriesJob:
     figures: str
     trials: int | None
     seed: int
+    #: The records' ``input`` of each table, once worked out (:meth:`_input_entry`).
+    inputs: dict[tuple[Any, ...], dict[str, Any]] = field(default_factory=dict, compare=False)
 
     def __call__(self, indices: Sequence[int], staged: StagedFolder
                  ) -> Iterator[tuple[int, _SeriesDone]]:
@@ -492,6 +494,17 @@ class _SeriesJob:
         outcomes = self.reducer.batch([self.runs[index] for index in indices])
         for index, outcome in zip(indices, outcomes, strict=True):
             yield index, self._written(index, outcome, staged)
+
+    def _input_entry(self, run: Run) -> dict[str, Any]:
+        """The records' ``input`` of ``run``'s table, resolved and hashed once for every
+        series of the table (in each process)."""
+        from .io.record import input_record
+
+        key = (run.path, run.metadata_path, run.sha256)
+        entry = self.inputs.get(key)
+        if entry is None:
+            entry = self.inputs[key] = input_record(run, self.out)
+        return entry
 
     def _written(self, index: int, outcome: SeriesReduction, staged: StagedFolder
                  ) -> _SeriesDone:
@@ -523,7 +536,8 @@ class _SeriesJob:
         report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
                                derived=derived)
         written_as = written_record(reduction, comparison=outcome.comparison,
-                                    monte_carlo=monte, record_folder=self.out, derived=derived)
+                                    monte_carlo=monte, record_folder=self.out, derived=derived,
+                                    input_entry=self._input_entry(reduction.run))
         record = written_as.text
         contents: dict[str, str | bytes] = {
             f"{base}.record.json": record, f"{base}.points.csv": points_csv(reduction),

@@ -92,7 +92,7 @@ def _run_part(run: Any, record_folder: Path | None) -> dict[str, Any]:
     """``input`` and ``run_info`` of a record made from one table (none: an empty input)."""
     if run is None:
         return {"input": {"file": "", "sha256": "0" * 64}, "run_info": {}}
-    return {"input": _input_record(run, record_folder), "run_info": dict(run.metadata.info)}
+    return {"input": input_record(run, record_folder), "run_info": dict(run.metadata.info)}
 
 
 def _with_u(value: Any, method: str) -> dict[str, Any]:
@@ -325,8 +325,13 @@ def build_record(reduction: Reduction, created: datetime | None = None,
                  comparison: ModelComparison | None = None,
                  monte_carlo: MonteCarloResult | None = None,
                  record_folder: Path | None = None,
-                 derived: DerivedResults | None = None) -> dict[str, Any]:
+                 derived: DerivedResults | None = None,
+                 input_entry: Mapping[str, Any] | None = None) -> dict[str, Any]:
     """The JSON-ready record of ``reduction`` (see ``record_schema.json``).
+
+    ``input_entry``: the record's ``input`` (:func:`input_record` of the run and
+    ``record_folder``) when the caller has it already — the series of a batch share their
+    table and metadata, which are then resolved and hashed once rather than once a series.
 
     With a model ``comparison`` (``--model all``), ``reduction`` is the recommended model's, the
     comparison is kept under ``model_comparison`` and the stated u(E°) includes the
@@ -335,13 +340,6 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
     e0 = reduction.standard_potential
     covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
-    metadata_info: dict[str, Any] = {}
-    real_folder = None if record_folder is None else os.path.realpath(record_folder)
-    if run.metadata_path is not None:
-        metadata_info = {
-            "metadata_file": _path_from(run.metadata_path, record_folder, real_folder),
-            "metadata_sha256": hashlib.sha256(run.metadata_path.read_bytes()).hexdigest(),
-        }
     points = _point_records(reduction)
     cross = reduction.linear_extrapolation
     derived = derived or derive_results(reduction)
@@ -363,9 +361,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         warnings += [w for w in comparison.warnings if w not in warnings]
     return {
         **_head(created),
-        "input": {"file": _path_from(run.path, record_folder, real_folder),
-                  "sha256": run.sha256,
-                  **metadata_info},
+        "input": dict(input_entry) if input_entry is not None else input_record(
+            run, record_folder),
         "series": run_series(run.points),
         "run_info": dict(meta.info),
         "electrolyte": meta.electrolyte.formula,
@@ -495,10 +492,12 @@ def written_record(reduction: Reduction, created: datetime | None = None,
                    comparison: ModelComparison | None = None,
                    monte_carlo: MonteCarloResult | None = None,
                    record_folder: Path | None = None,
-                   derived: DerivedResults | None = None) -> WrittenRecord:
+                   derived: DerivedResults | None = None,
+                   input_entry: Mapping[str, Any] | None = None) -> WrittenRecord:
     """The record of a reduction as text and as the document it holds (arguments as for
-    :func:`record_json`)."""
-    document = build_record(reduction, created, comparison, monte_carlo, record_folder, derived)
+    :func:`build_record`)."""
+    document = build_record(reduction, created, comparison, monte_carlo, record_folder, derived,
+                            input_entry)
     return WrittenRecord(json_text(document), document)
 
 
@@ -776,11 +775,26 @@ def comparison_record(comparison: ModelComparison) -> dict:
 # Temperature studies
 # --------------------------------------------------------------------------------------------
 
-def _input_record(run: Any, record_folder: Path | None) -> dict[str, Any]:
-    """``{file, sha256[, metadata_file, metadata_sha256]}`` of one run table."""
-    out = {"file": _path_from(run.path, record_folder), "sha256": run.sha256}
+def input_record(run: Any, record_folder: Path | None) -> dict[str, Any]:
+    """A record's ``input``: the run table and its metadata file, each named relative to
+    ``record_folder`` (where the record is written; as given without one) with its SHA-256.
+
+    Parameters
+    ----------
+    run : Run
+        The run read (its table's hash is the one taken when it was read).
+    record_folder : pathlib.Path or None
+        The folder the record is written to.
+
+    Returns
+    -------
+    dict
+        ``{file, sha256[, metadata_file, metadata_sha256]}``.
+    """
+    real_folder = None if record_folder is None else os.path.realpath(record_folder)
+    out = {"file": _path_from(run.path, record_folder, real_folder), "sha256": run.sha256}
     if run.metadata_path is not None:
-        out["metadata_file"] = _path_from(run.metadata_path, record_folder)
+        out["metadata_file"] = _path_from(run.metadata_path, record_folder, real_folder)
         out["metadata_sha256"] = hashlib.sha256(run.metadata_path.read_bytes()).hexdigest()
     return out
 
@@ -816,7 +830,7 @@ def build_study_record(study: TemperatureStudy, created: datetime | None = None,
     meta = first.run.metadata
     ref = study.reference
     runs = list({iso.run.path: iso.run for iso in isotherms}.values())
-    inputs = [_input_record(run, record_folder) for run in runs]
+    inputs = [input_record(run, record_folder) for run in runs]
     points = []
     for iso in isotherms:
         measured = dict(zip(iso.run.points["line"], iso.run.points["emf_V"], strict=True))
