@@ -253,7 +253,6 @@ class Reduction:
     statistics: FitStatistics
     point_columns: Mapping[str, np.ndarray] = field(repr=False, compare=False)
     gamma_propagation: GammaPropagation = field(repr=False, compare=False)
-    linear_extrapolation: LinearExtrapolation | None
     warnings: tuple[str, ...] = ()
     notes: tuple[str, ...] = field(default=())
     corrections: tuple[str, ...] = field(default=())
@@ -271,6 +270,14 @@ class Reduction:
         reduction adds (:attr:`point_columns`), built when first asked for."""
         return pd.concat([self.run.points, pd.DataFrame(dict(self.point_columns),
                                                         index=self.run.points.index)], axis=1)
+
+    @functools.cached_property
+    def linear_extrapolation(self) -> LinearExtrapolation | None:
+        """The straight-line cross-check of E° (see :class:`LinearExtrapolation`), worked out
+        when first asked for; None when fewer than three molalities lie within its range."""
+        if self.data is None:
+            return None
+        return _linear_extrapolation(self.run, self.data, self.slope_factor)
 
     def point_column(self, name: str) -> np.ndarray:
         """One column of :attr:`points` as an array over every row, without building the
@@ -1227,7 +1234,6 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
         standard_potential=e0_value, parameters=parameters,
         free_names=(E0, *fit.free), covariance=fit.covariance, statistics=stats,
         point_columns=point_columns, gamma_propagation=gamma_propagation,
-        linear_extrapolation=_linear_extrapolation(run, data, fit.values.get(SLOPE, data.slope)),
         warnings=tuple(warnings), notes=(*judged.held.notes, *parts.notes),
         corrections=corrections, other_basis=other_basis,
         catalogue=_catalogue_value(run, start.temperature_K),
