@@ -70,8 +70,34 @@ def anchor_multiple(target_s: float) -> float:
     return target_s / ANCHOR_WHEN_SET_S
 
 
+def interleaved_medians_s(functions: list[Callable[[], object]], repeats: int,
+                          warm_up: int = 2, block: int = 10) -> list[float]:
+    """Median wall time of each of ``functions`` [s] over ``repeats`` calls, measured in turns:
+    each round calls every function ``block + 1`` times in a row and keeps the times of the last
+    ``block`` (the first warms the caches again after the others), so that a change in the
+    machine's load (other processes, frequency) falls on all of them alike rather than on
+    whichever was being measured while it lasted; each is still timed in a warm loop."""
+    for function in functions:
+        for _ in range(warm_up):
+            function()
+    times: list[list[float]] = [[] for _ in functions]
+    for _ in range(max(1, -(-repeats // block))):
+        for function, kept in zip(functions, times, strict=True):
+            function()
+            for _ in range(block):
+                start = time.perf_counter()
+                function()
+                kept.append(time.perf_counter() - start)
+    return [statistics.median(kept) for kept in times]
+
+
 def lmfit_anchor_s(molality: np.ndarray, emf_V: np.ndarray, repeats: int = 200) -> float:
-    r"""Median time of the anchor: one plain lmfit fit of a Hückel series [s].
+    """Median time of the anchor (:func:`lmfit_anchor_fit`) [s]."""
+    return median_time_s(lmfit_anchor_fit(molality, emf_V), repeats, warm_up=5)
+
+
+def lmfit_anchor_fit(molality: np.ndarray, emf_V: np.ndarray) -> Callable[[], object]:
+    r"""The anchor: one plain lmfit fit of a Hückel series, as a function to time.
 
     E = E° − k [ln m + ln γ±], ln γ± = −A_γ √m/(1 + B å √m) + b m (1:1 electrolyte, k = 2RT/F
     at 25 °C), E°, å and b free, unit weights — the fit the per-series lmfit loop does, with
@@ -103,7 +129,7 @@ def lmfit_anchor_s(molality: np.ndarray, emf_V: np.ndarray, repeats: int = 200) 
     result = fit()
     if not (result.success and abs(result.params["a"].value - 4.3) < 1.0):
         raise AssertionError("the anchor fit did not find the series' å; the anchor is wrong")
-    return median_time_s(fit, repeats, warm_up=5)
+    return fit
 
 
 def seconds_text(seconds: float) -> str:
