@@ -27,14 +27,18 @@ from typing import Any, NamedTuple
 import numpy as np
 import pandas as pd
 
-from ..chemistry.electrolytes import Electrolyte, parse_electrolyte
+from ..chemistry.cells import DiagramError, cell_from_diagram, cell_summary
+from ..chemistry.electrolytes import Electrolyte, nernst_factor, parse_electrolyte
 from ..constants import (
     ATMOSPHERE_PA,
+    FARADAY_C_MOL,
+    GAS_CONSTANT_J_MOL_K,
     INTERNATIONAL_VOLT_V,
     STANDARD_PRESSURE_PA,
     ZERO_CELSIUS_K,
 )
 from ..errors import InputError
+from ..physics.corrections import water_vapour_pressure
 
 #: Columns the reader understands, each with its unit as written in the name.
 KNOWN_COLUMNS: tuple[str, ...] = (
@@ -979,7 +983,6 @@ def _calibration(merged: Mapping[str, Any], fail: Any) -> dict[str, Any]:
 
 def _cell_stoichiometry(cell: str, fail: Any) -> Any:
     """What the reduction needs from a cell diagram; an InputError pointing into it otherwise."""
-    from ..chemistry.cells import DiagramError, cell_from_diagram
 
     try:
         stoichiometry = cell_from_diagram(cell)
@@ -1129,8 +1132,6 @@ def _check_gas_pressure(path: Path, usable: _Rows, metadata: RunMetadata,
     zero = np.zeros(usable.line.size)
     if not metadata.gas_coefficients:
         return zero
-    from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
-    from ..physics.corrections import water_vapour_pressure
 
     fallback = math.nan if metadata.barometric_pressure_Pa is None else (
         metadata.barometric_pressure_Pa)
@@ -1163,7 +1164,6 @@ def _check_response(path: Path, usable: _Rows, metadata: RunMetadata, emf_column
                     gas_term: np.ndarray) -> None:
     """The EMF must change with ln m± the Nernst way (sign σ, size about s νRT/nF), and where
     the cell diagram gives a catalogue E°, readings must have the sign it predicts."""
-    from ..chemistry.electrolytes import nernst_factor
 
     electrolyte = metadata.electrolyte
     molality, emf, temperature = usable.molality, usable.emf, usable.temperature
@@ -1209,7 +1209,6 @@ def _catalogue_potential(cell: str, temperature_K: float) -> tuple[float, float,
     the 25 °C value used unchanged (from :func:`~activolt.chemistry.cells.cell_summary`, once
     per diagram and temperature: the series of a table share them); None when the diagram
     gives no E°."""
-    from ..chemistry.cells import cell_summary
 
     try:
         summary = cell_summary(cell, temperature_K)
@@ -1520,7 +1519,6 @@ def _series_cleared(columns: Mapping[str, np.ndarray], usable: np.ndarray, bound
     fitted = (count >= 3) & (most > least)
     cleared[(count >= 3) & (most == least)] = False  # left to _check_response itself
     electrolyte = metadata.electrolyte
-    from ..chemistry.electrolytes import nernst_factor
 
     slope = 1.0 if metadata.fit_slope_factor else metadata.slope_factor
     temperature = columns["temperature_K"][usable]
@@ -1585,8 +1583,6 @@ def _gas_screen(pressure: np.ndarray, temperature: np.ndarray, metadata: RunMeta
                 ) -> tuple[np.ndarray, np.ndarray]:
     """:func:`_check_gas_pressure` over the usable rows of every series: the gas term per
     row [V], and the rows that may leave no room for the gas."""
-    from ..constants import FARADAY_C_MOL, GAS_CONSTANT_J_MOL_K
-    from ..physics.corrections import water_vapour_pressure
 
     fallback = math.nan if metadata.barometric_pressure_Pa is None else (
         metadata.barometric_pressure_Pa)

@@ -41,6 +41,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from ..chemistry.cells import cell_summary
 from ..chemistry.electrolytes import nernst_factor
 from ..data.runs import Run, read_run
 from ..errors import FitError, InputError
@@ -689,7 +690,6 @@ def _acceptance(run: Run, calibration: Mapping[str, Any], values: np.ndarray,
             raise InputError('acceptance_reference = "catalogue" needs the hydrogen route and a '
                              "cell diagram; give nominal_potential_mV with acceptance_reference "
                              '= "nominal" instead', file=path, column="acceptance_reference")
-        from ..chemistry.cells import cell_summary
 
         standard = cell_summary(cell, temperature_K, run.metadata.standard_pressure_Pa).get(
             "standard_potential_V")

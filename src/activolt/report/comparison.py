@@ -9,6 +9,7 @@ from typing import Any
 import pandas as pd
 
 from ..procedures.published import column_values, plain_values
+from .numbers import decimals_for
 
 
 def aligned_lines(rows: list[list[str]], pad_last: bool = True) -> list[str]:
@@ -47,7 +48,6 @@ def comparison_lines(comparison: pd.DataFrame | Mapping[str, Any] | None) -> lis
     the run's difference from the mean and that difference in units of the combined standard
     uncertainty u_c (see :func:`activolt.procedures.published.compare_with_published`).
     """
-    from .numbers import decimals_for
 
     if comparison is None or pd.isna(column_values(comparison, "gamma_pm_published")).all():
         return []
