@@ -164,3 +164,26 @@ def test_the_check_finds_an_upward_import(tmp_path):
     """The check itself can fail: a module of the physics layer importing a procedure."""
     assert layer_of("activolt.physics.water") < layer_of("activolt.procedures.dilution")
     assert layer_of("activolt.activity.hueckel") == layer_of("activolt.activity")
+
+
+def test_own_modules_imported_at_module_level():
+    """A function-level import of one of the package's modules hides a dependency (or a cycle)
+    from the reader; only the command line (start-up time) may defer its own modules."""
+    deferred = []
+    for module, path in modules().items():
+        if layer_of(module) == len(LAYERS) - 1:
+            continue
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for function in ast.walk(tree):
+            if not isinstance(function, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                continue
+            for node in ast.walk(function):
+                if isinstance(node, ast.ImportFrom) and (
+                        node.level or (node.module or "").split(".")[0] == "activolt"):
+                    deferred.append(f"{module} (line {node.lineno}) imports "
+                                    f"{'.' * node.level}{node.module or ''} in a function")
+                elif isinstance(node, ast.Import) and any(
+                        a.name.split(".")[0] == "activolt" for a in node.names):
+                    deferred.append(f"{module} (line {node.lineno}) imports activolt in a "
+                                    "function")
+    assert not deferred, "\n".join(deferred)
