@@ -352,6 +352,28 @@ def test_all_series_reduced_is_exit_status_0(tmp_path, capsys):
     assert _summary(tmp_path / "two_activolt" / "two.summary.csv")["failure"].isna().all()
 
 
+def test_a_batch_sets_aside_what_exists_from_the_collector_and_puts_it_back(tmp_path,
+                                                                             monkeypatch):
+    """The runs are frozen out of the cyclic collector while the series are written (they
+    live as long as the batch), and the collector is left as it was."""
+    import gc
+
+    import activolt.procedures.many as many
+
+    frozen: list[int] = []
+    batch = many.SeriesReducer.batch
+
+    def watched(self, runs):
+        frozen.append(gc.get_freeze_count())
+        return batch(self, runs)
+
+    monkeypatch.setattr(many.SeriesReducer, "batch", watched)
+    before = gc.get_freeze_count()
+    assert main(["reduce", str(_three_series(tmp_path)), "--no-figures", "--workers", "1"]) == 1
+    assert frozen and all(count > before for count in frozen)
+    assert gc.get_freeze_count() == before
+
+
 @pytest.mark.parametrize("args, says", [
     (["--json", "r.json"], "--json"),
     (["--exclude", "line=2:bubble"], "--exclude"),
