@@ -471,3 +471,42 @@ def test_a_shared_input_entry_gives_the_record_of_each_series(reductions, tmp_pa
     other = input_record(reduction.run, tmp_path.joinpath(*(["elsewhere"] * (depth + 3))))
     assert written_record(reduction, created, record_folder=folder,
                           input_entry=other).text != alone.text
+
+
+# --- rounded numbers remembered between the text report and the page -------------------------
+
+_ANY_FLOAT = st.floats(allow_subnormal=True) | st.sampled_from(
+    [0.0, -0.0, 5e-324, -5e-324, math.inf, -math.inf, math.nan, 1e-300, 0.00097, 2.5e-10])
+
+
+@settings(max_examples=400, deadline=None)
+@given(_ANY_FLOAT, _ANY_FLOAT, st.sampled_from(["", "mV", "Å"]), st.integers(1, 3))
+def test_remembered_rounding_writes_what_the_rule_writes(value, u, unit, significant):
+    """``report.numbers`` remembers what it has rounded: each call, first or repeated, and
+    the same numbers with the other sign of zero, write what the rule itself writes."""
+    from activolt import rounding
+    from activolt.report.numbers import format_compact, format_with_uncertainty
+
+    def plain_compact(v, w):
+        if v != 0.0 and math.isfinite(v) and abs(v) < 0.01:
+            from activolt.report.numbers import format_scaled
+
+            return format_scaled(v, w, significant)
+        return rounding.format_with_uncertainty(v, w, significant=significant)
+
+    for v, w in [(value, u), (value, u), (-value, u), (value, -u), (0.0, u), (-0.0, u),
+                 (value, 0.0), (value, -0.0)]:
+        try:
+            expected = rounding.format_with_uncertainty(v, w, unit, significant)
+        except (ArithmeticError, ValueError) as error:
+            with pytest.raises(type(error)):
+                format_with_uncertainty(v, w, unit, significant)
+        else:
+            assert format_with_uncertainty(v, w, unit, significant) == expected
+        try:
+            expected = plain_compact(v, w)
+        except (ArithmeticError, ValueError) as error:
+            with pytest.raises(type(error)):
+                format_compact(v, w, significant)
+        else:
+            assert format_compact(v, w, significant) == expected

@@ -4,11 +4,13 @@
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Iterable
 from typing import Any
 
-from ..rounding import decimals_for, format_with_uncertainty
+from .. import rounding
+from ..rounding import decimals_for
 
 __all__ = ["decimals_for", "format_compact", "format_scaled", "format_with_uncertainty",
            "frame_columns", "frame_records", "json_number", "json_numbers"]
@@ -123,7 +125,8 @@ def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str
         return f"{value:.4g} (held)"
     exponent = math.floor(math.log10(abs(value)))
     scale = 10.0 ** exponent
-    inner = format_with_uncertainty(value / scale, uncertainty / scale, significant=significant)
+    inner = rounding.format_with_uncertainty(value / scale, uncertainty / scale,
+                                             significant=significant)
     return f"({inner}) × 10{str(exponent).translate(_SUPERSCRIPT)}"
 
 
@@ -131,11 +134,44 @@ def format_compact(value: float, uncertainty: float, significant: int = 2) -> st
     """:func:`format_with_uncertainty`, or :func:`format_scaled` when |value| < 0.01 (where
     fixed-point notation would begin with a row of zeros).
 
+    Remembered as :func:`format_with_uncertainty` is.
+
     Examples
     --------
     >>> format_compact(0.4972, 0.00097), format_compact(-4.76031e-05, 9.2e-10)
     ('0.49720 ± 0.00097', '(-4.760310 ± 0.000092) × 10⁻⁵')
     """
+    if type(value) is float and type(uncertainty) is float and value and uncertainty:
+        return _remembered_compact(value, uncertainty, significant)
+    return _compact(value, uncertainty, significant)
+
+
+def _compact(value: float, uncertainty: float, significant: int) -> str:
     if value != 0.0 and math.isfinite(value) and abs(value) < 0.01:
         return format_scaled(value, uncertainty, significant)
-    return format_with_uncertainty(value, uncertainty, significant=significant)
+    return rounding.format_with_uncertainty(value, uncertainty, significant=significant)
+
+
+def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
+                            significant: int = 2) -> str:
+    """``value ± u unit`` as :func:`activolt.rounding.format_with_uncertainty` writes it,
+    remembered for the last few thousand pairs of non-zero floats: the text report and the
+    HTML page of a series show many of the same numbers (γ± and the derived properties at
+    each reading), the page from the record, which holds the same floats.
+
+    Zeros are written each time (0.0 and -0.0 are equal as keys, not as text).
+
+    Examples
+    --------
+    >>> format_with_uncertainty(222.35216, 0.0061, "mV")
+    '222.3522 ± 0.0061 mV'
+    >>> format_with_uncertainty(-0.0, 0.0012)
+    '-0.0000 ± 0.0012'
+    """
+    if type(value) is float and type(uncertainty) is float and value and uncertainty:
+        return _remembered(value, uncertainty, unit, significant)
+    return rounding.format_with_uncertainty(value, uncertainty, unit, significant)
+
+
+_remembered = functools.lru_cache(maxsize=4096)(rounding.format_with_uncertainty)
+_remembered_compact = functools.lru_cache(maxsize=4096)(_compact)
