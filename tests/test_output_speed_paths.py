@@ -510,3 +510,31 @@ def test_remembered_rounding_writes_what_the_rule_writes(value, u, unit, signifi
                 format_compact(v, w, significant)
         else:
             assert format_compact(v, w, significant) == expected
+
+
+# --- control characters escaped, some kept ----------------------------------------------------
+
+_CONTROLS = "".join(chr(c) for c in (*range(0x20), *range(0x7f, 0xa0))) + (
+    "\u2028\u2029\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069\u200e\u200f")
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet=st.sampled_from(_CONTROLS) | st.characters(), max_size=40),
+       st.text(alphabet=st.sampled_from(_CONTROLS + "ab"), max_size=4))
+def test_escaping_with_kept_characters_is_escaping_and_putting_them_back(value, keep):
+    """``escape_controls(text, keep)`` leaves the kept characters out of what it matches: the
+    same text as matching every control and putting the kept ones back."""
+    import re
+
+    from activolt.safe_text import escape_controls
+
+    def escaped(match):
+        code = ord(match.group())
+        return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}"
+
+    every = re.compile("[" + re.escape(_CONTROLS) + "]")
+    expected = every.sub(lambda m: m.group() if m.group() in keep else escaped(m), value)
+    assert escape_controls(value, keep=keep) == expected
+    assert escape_controls(value + "\n", keep="\n") == every.sub(
+        lambda m: m.group() if m.group() == "\n" else escaped(m), value) + "\n"
+    assert escape_controls(value, keep=_CONTROLS) == value

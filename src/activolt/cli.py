@@ -538,7 +538,7 @@ class _SeriesJob:
         written_as = written_record(reduction, comparison=outcome.comparison,
                                     monte_carlo=monte, record_folder=self.out, derived=derived,
                                     input_entry=self._input_entry(reduction.run))
-        record = written_as.text
+        record = written_as.text.encode("utf-8")  # written, and named by its hash, as bytes
         contents: dict[str, str | bytes] = {
             f"{base}.record.json": record, f"{base}.points.csv": points_csv(reduction),
             f"{base}.report.txt": escape_controls(

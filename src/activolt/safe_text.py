@@ -12,6 +12,7 @@ Two rules, applied at the output edges only (the library keeps user text as give
 
 from __future__ import annotations
 
+import functools
 import re
 
 __all__ = ["escape_controls", "neutralise_formula"]
@@ -49,8 +50,18 @@ def escape_controls(text: str, keep: str = "") -> str:
     'two\nlines\\x0d'
     """
     if keep:
-        return _CONTROL.sub(lambda m: m.group() if m.group() in keep else _escape(m), text)
+        return _control_except(keep).sub(_escape, text)
     return _CONTROL.sub(_escape, text)
+
+
+@functools.lru_cache(maxsize=16)
+def _control_except(keep: str) -> re.Pattern[str]:
+    """:data:`_CONTROL` without the characters ``keep``: they are never matched, rather than
+    matched and put back one by one (a report's every line break)."""
+    characters = [chr(code) for code in (*range(0x20), *range(0x7f, 0xa0))] + list(
+        _INVISIBLE_LAYOUT)
+    left = "".join(re.escape(c) for c in characters if c not in keep)
+    return re.compile(f"[{left}]" if left else "(?!)")
 
 
 #: What a spreadsheet reads as the start of a formula (OWASP, CSV injection), with the

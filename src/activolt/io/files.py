@@ -225,9 +225,15 @@ def write_file(path: Path, data: bytes, mode: int) -> None:
         view = memoryview(data)
         while view:
             view = view[os.write(handle, view):]
+        if _FCHMOD is not None:  # through the open file: no second look-up of the path
+            _FCHMOD(handle, mode)
     finally:
         os.close(handle)
-    os.chmod(path, mode)
+    if _FCHMOD is None:
+        os.chmod(path, mode)
+
+
+_FCHMOD = getattr(os, "fchmod", None)
 
 
 def _flush_to_disk(paths: Sequence[Path], folder: Path | None = None) -> None:
