@@ -633,7 +633,7 @@ def _chunks(indices: range, first: int, step: int) -> Iterator[range]:
 def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
                 ) -> Iterator[tuple[int, _SeriesDone]]:
     """(index, result) of every series as the worker processes finish them. Worker k takes the
-    chunks k, k + P, k + 2P, … (:func:`_chunks`) and sends each series' result through its own
+    chunks k, k + P, k + 2P, … (:func:`_chunks`) and sends each chunk's results through its own
     pipe. A worker that ends
     without finishing (killed, out of memory) stops the batch with an InputError rather than
     leaving it waiting; on any exit the workers still running are stopped."""
@@ -678,7 +678,7 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
                     continue
                 if isinstance(message, str):
                     raise RuntimeError(f"in a worker process: {message}")
-                yield message
+                yield from message
     finally:
         for process, receiver in started:
             if process.is_alive():
@@ -689,15 +689,15 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
 
 def _worker(job: _SeriesJob, staged: StagedFolder, first: int, step: int, sender: Any
             ) -> None:
-    """A worker process: its chunks of series (:func:`_chunks`), each series' result sent as
-    it is done. It leaves Ctrl-C to the main process, which stops the batch and the workers;
-    a failure is sent as its traceback."""
+    """A worker process: its chunks of series (:func:`_chunks`), the results of each chunk
+    sent together when it is done (one message, not one a series). It leaves Ctrl-C to the
+    main process, which stops the batch and the workers; a failure is sent as its
+    traceback."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     try:
         for chunk in _chunks(range(len(job.runs)), first, step):
-            for done in job(chunk, staged):
-                sender.send(done)
+            sender.send(list(job(chunk, staged)))
     except Exception:  # a defect: shown by the main process, which stops the batch
         import traceback
 
