@@ -538,3 +538,59 @@ def test_escaping_with_kept_characters_is_escaping_and_putting_them_back(value, 
     assert escape_controls(value + "\n", keep="\n") == every.sub(
         lambda m: m.group() if m.group() == "\n" else escaped(m), value) + "\n"
     assert escape_controls(value, keep=_CONTROLS) == value
+
+
+# --- the page's rows written directly --------------------------------------------------------
+
+class _Float(float):
+    """A float the page's direct rows do not take (not exactly ``float``): its rows go the
+    general way, value by value, and must come out the same."""
+
+
+def _general(value):
+    if isinstance(value, dict):
+        return {k: _general(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_general(v) for v in value]
+    return _Float(value) if type(value) is float else value
+
+
+_CELL = (st.floats(allow_subnormal=True, width=64) | st.none()
+         | st.sampled_from([0.0, -0.0, 5e-324, 1e300, math.inf, math.nan]))
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.tuples(*[_CELL] * 11, st.sampled_from([True, False]),
+                          st.sampled_from([None, "", "studentized residual 3.1", "no reading"]),
+                          st.sampled_from([None, "", "KB-1", "<b>"]), st.integers(1, 99)),
+                min_size=1, max_size=4))
+def test_the_pages_direct_rows_are_its_rows_value_by_value(rows):
+    """The points, published and derived tables of the page are written directly for rows of
+    finite floats; a record whose floats take the general way gives the same page."""
+    points, published, derived = [], [], []
+    for (m, emf, residual, gamma, u_gamma, mean, difference, ratio, phi, a_w, u, used, flag,
+         electrode, line) in rows:
+        points.append({"line": line, "molality_mol_kg": 0.01 if m is None else m, "emf_V": emf,
+                       "residual_V": residual, "gamma_pm": gamma, "u_gamma_pm": u_gamma,
+                       "used_in_fit": used, "flag": flag, "electrode": electrode})
+        published.append({"molality_mol_kg": 0.01 if m is None else m,
+                          "gamma_pm_published": mean, "interpolated": used,
+                          "difference": difference, "difference_over_u": ratio,
+                          "published_values": [{"source": "a", "gamma_pm": mean,
+                                                "interpolated": used},
+                                               {"source": electrode, "gamma_pm": gamma,
+                                                "interpolated": not used}]})
+        derived.append({"molality_mol_kg": 0.01 if m is None else m,
+                        "osmotic_coefficient": phi, "u_osmotic_coefficient": u,
+                        "water_activity": a_w, "u_water_activity": u_gamma,
+                        "excess_gibbs_rt_mol_kg": residual, "u_excess_gibbs_rt_mol_kg": u})
+    record = {"points": points, "published_comparison": published,
+              "derived_properties": {"points": derived}}
+    try:
+        direct = report_html(record)
+    except (ArithmeticError, ValueError) as error:  # a number the rounding itself refuses
+        with pytest.raises(type(error)):
+            report_html(_general(record))
+        return
+    assert direct == report_html(_general(record))
+    assert direct.count("<tr>") + direct.count("<tr class=out>") >= 3 * len(rows)

@@ -362,6 +362,11 @@ def _points(record: Mapping[str, Any]) -> str:
     for p in points:
         get = p.get
         used = get("used_in_fit", True)
+        if used is True and not isotherms and not get("flag"):
+            row = _plain_point(p, q_molality, q_emf, q_residual, q_gamma, electrodes)
+            if row is not None:
+                rows.append(row)
+                continue
         emf = _number_value(get("emf_V"))
         cells = [f'<tr{"" if used else " class=out"}><td>{_text(get("line", ""))}</td>',
                  _rounded_cell(f"{p['molality_mol_kg']:.6g}", get("molality_mol_kg"),
@@ -396,6 +401,26 @@ def _points(record: Mapping[str, Any]) -> str:
             + "</section>")
 
 
+def _plain_point(p: Mapping[str, Any], q_molality: str, q_emf: str, q_residual: str,
+                 q_gamma: str, electrodes: bool) -> str | None:
+    """The row of a reading in the fit and not flagged whose line is a whole number and whose
+    numbers are finite floats (a row of :func:`_points`, written directly); None otherwise."""
+    get = p.get
+    line, m, emf = get("line", ""), get("molality_mol_kg"), get("emf_V")
+    residual, gamma, u_gamma = get("residual_V"), get("gamma_pm"), get("u_gamma_pm")
+    if not (type(line) is int and type(m) is float and type(emf) is float
+            and type(residual) is float and type(gamma) is float and type(u_gamma) is float
+            and m - m == 0.0 and emf - emf == 0.0 and residual - residual == 0.0
+            and gamma - gamma == 0.0 and u_gamma - u_gamma == 0.0):
+        return None
+    electrode = f"<td>{_text(get('electrode') or '')}</td>" if electrodes else ""
+    return (f'<tr><td>{line}</td><td class="num" data-value="{m!r}"{q_molality}>{m:.6g}</td>'
+            f'{electrode}<td class="num" data-value="{emf!r}"{q_emf}>{emf * 1e3:.3f}</td>'
+            f'<td class="num" data-value="{residual!r}"{q_residual}>{residual * 1e3:+.4f}</td>'
+            f'<td class="num" data-value="{gamma!r}"{q_gamma}>'
+            f"{format_with_uncertainty(gamma, u_gamma)}</td><td></td></tr>")
+
+
 def _published(record: Mapping[str, Any]) -> str:
     rows_in = list(record.get("published_comparison") or [])
     if not rows_in:
@@ -407,14 +432,32 @@ def _published(record: Mapping[str, Any]) -> str:
     for r in rows_in:
         marks = []
         for entry in r.get("published_values") or []:
-            letter = sources.setdefault(str(entry.get("source")), chr(ord("a") + len(sources)))
-            value = _number_value(entry.get("gamma_pm"))
-            shown = _NOT_GIVEN if value is None else f"{value:.4f}"
+            source = str(entry.get("source"))
+            letter = sources.get(source) or sources.setdefault(source,
+                                                               chr(ord("a") + len(sources)))
+            value = entry.get("gamma_pm")
+            shown = (f"{value:.4f}" if type(value) is float and value - value == 0.0
+                     else _NOT_GIVEN if (value := _number_value(value)) is None
+                     else f"{value:.4f}")
             marks.append(f"({shown}){letter}" if entry.get("interpolated") else
                          f"{shown}{letter}")
-        mean = _number_value(r.get("gamma_pm_published"))
-        difference = _number_value(r.get("difference"))
-        ratio = _number_value(r.get("difference_over_u"))
+        m, mean = r.get("molality_mol_kg"), r.get("gamma_pm_published")
+        difference, ratio = r.get("difference"), r.get("difference_over_u")
+        if (type(m) is float and type(mean) is float and type(difference) is float
+                and type(ratio) is float and m - m == 0.0 and mean - mean == 0.0
+                and difference - difference == 0.0 and ratio - ratio == 0.0):
+            rows.append(
+                f'<tr><td class="num" data-value="{m!r}">{m:.6g}</td>'
+                f"<td>{_shown(' '.join(marks))}</td>"
+                f'<td class="num" data-value="{mean!r}"{q_mean}>{mean:.4f}'
+                f'{"i" if r.get("interpolated") else ""}</td>'
+                f'<td class="num" data-value="{difference!r}"{q_difference}>'
+                f"{difference:+.5f}</td>"
+                f'<td class="num" data-value="{ratio!r}"{q_ratio}>{ratio:+.1f}</td></tr>')
+            continue
+        mean = _number_value(mean)
+        difference = _number_value(difference)
+        ratio = _number_value(ratio)
         rows.append(
             f'<tr><td class="num"{_value_attribute(r.get("molality_mol_kg"))}>'
             f"{r['molality_mol_kg']:.6g}</td><td>{_shown(' '.join(marks))}</td>"
@@ -443,6 +486,25 @@ def _derived(record: Mapping[str, Any]) -> str:
     rows = []
     for p in points:
         get = p.get
+        m, phi, u_phi = (get("molality_mol_kg"), get("osmotic_coefficient"),
+                         get("u_osmotic_coefficient"))
+        a_w, u_a_w = get("water_activity"), get("u_water_activity")
+        excess, u_excess = get("excess_gibbs_rt_mol_kg"), get("u_excess_gibbs_rt_mol_kg")
+        if (type(m) is float and type(phi) is float and type(u_phi) is float
+                and type(a_w) is float and type(u_a_w) is float and type(excess) is float
+                and type(u_excess) is float and m - m == 0.0 and phi - phi == 0.0
+                and u_phi - u_phi == 0.0 and a_w - a_w == 0.0 and u_a_w - u_a_w == 0.0
+                and excess - excess == 0.0 and u_excess - u_excess == 0.0
+                and (1.0 - a_w) - (1.0 - a_w) == 0.0):
+            rows.append(
+                f'<tr><td class="num" data-value="{m!r}">{m:.6g}</td>'
+                f'<td class="num" data-value="{phi!r}"{q_phi}>'
+                f"{format_with_uncertainty(phi, u_phi)}</td>"
+                f'<td class="num" data-value="{a_w!r}"{q_a_w}>'
+                f"{format_compact(1.0 - a_w, u_a_w)}</td>"
+                f'<td class="num" data-value="{excess!r}"{q_excess}>'
+                f"{format_compact(excess, u_excess)}</td></tr>")
+            continue
         a_w = _number_value(get("water_activity"))
         phi, excess = get("osmotic_coefficient"), get("excess_gibbs_rt_mol_kg")
         rows.append(
