@@ -368,10 +368,23 @@ def test_a_batch_sets_aside_what_exists_from_the_collector_and_puts_it_back(tmp_
         return batch(self, runs)
 
     monkeypatch.setattr(many.SeriesReducer, "batch", watched)
-    before = gc.get_freeze_count()
+    gc.unfreeze()  # nothing frozen by anyone else
     assert main(["reduce", str(_three_series(tmp_path)), "--no-figures", "--workers", "1"]) == 1
-    assert frozen and all(count > before for count in frozen)
-    assert gc.get_freeze_count() == before
+    assert frozen and all(count > 0 for count in frozen)
+    assert gc.get_freeze_count() == 0
+    # objects frozen by the process itself stay frozen, and nothing else is frozen with them
+    gc.freeze()
+    try:
+        mine = gc.get_freeze_count()
+        frozen.clear()
+        again = tmp_path / "again"
+        again.mkdir()
+        assert main(["reduce", str(_three_series(again)), "--no-figures", "--workers", "1"]) == 1
+        # (frozen objects may be freed meanwhile; none is added)
+        assert frozen and all(count <= mine for count in frozen)
+        assert 0 < gc.get_freeze_count() <= mine
+    finally:
+        gc.unfreeze()
 
 
 @pytest.mark.parametrize("args, says", [

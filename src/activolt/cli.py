@@ -605,8 +605,11 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
     # collector leaves it aside (gc.freeze) instead of going over it in each full collection
     # — ten thousand runs are about a million objects — and, in the worker processes, of
     # writing to the pages they share with this one. The young objects of each series are
-    # collected as before.
-    gc.freeze()
+    # collected as before. A process that froze objects of its own is left as it is (the
+    # collector has one permanent generation, which cannot be unfrozen in part).
+    freezing = gc.get_freeze_count() == 0
+    if freezing:
+        gc.freeze()
     try:
         with _progress(count, "reducing") as bar:
             finished = ((done for chunk in _chunks(range(count), 0, 1)
@@ -616,7 +619,8 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
                 done[index] = result
                 bar.update(1)
     finally:
-        gc.unfreeze()
+        if freezing:
+            gc.unfreeze()
     return [result for result in done if result is not None]
 
 
