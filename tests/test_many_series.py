@@ -503,3 +503,25 @@ def test_a_worker_that_dies_stops_the_batch_with_nothing_written(tmp_path, capsy
     assert len(err) == 1 and "worker process ended unexpectedly" in err[0], err
     assert "--workers" in err[0]
     assert sorted(p.name for p in tmp_path.iterdir()) == ["many.csv", "many.toml"]
+
+
+def test_a_batchs_reports_show_control_characters_escaped(tmp_path):
+    """A series name and metadata holding control and layout characters: each report of the
+    batch shows them escaped (written as format_report gives it) — never raw — as the report
+    of the series reduced alone does."""
+    from activolt.safe_text import escape_controls
+
+    path = tmp_path / "odd.csv"
+    names = ["A\x1b[2J", "B\u202eC"]
+    path.write_text("\n".join(["molality_mol_kg,emf_V,u_emf_V,series",
+                               *_rows(names[0], E0_V["A"]), *_rows(names[1], E0_V["B"])])
+                    + "\n", encoding="utf-8")
+    (tmp_path / "odd.toml").write_text(TOML + '\n[info]\noperator = "X\\u0007Y"\n',
+                                       encoding="utf-8")
+    assert main(["reduce", str(path), "--no-figures", "--workers", "1"]) == 0
+    reports = sorted((tmp_path / "odd_activolt").glob("*.report.txt"))
+    assert len(reports) == 2
+    for report, shown in zip(reports, ["A\\x1b[2J", "B\\u202eC"], strict=True):
+        text = report.read_text(encoding="utf-8")
+        assert shown in text and "\x1b" not in text and "\u202e" not in text
+        assert text == escape_controls(text, keep="\n")

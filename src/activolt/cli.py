@@ -539,10 +539,11 @@ class _SeriesJob:
                                     monte_carlo=monte, record_folder=self.out, derived=derived,
                                     input_entry=self._input_entry(reduction.run))
         record = written_as.text.encode("utf-8")  # written, and named by its hash, as bytes
+        # format_report escapes user text itself (its text is printable but for line breaks),
+        # so the report is written as it comes rather than escaped a second time
         contents: dict[str, str | bytes] = {
             f"{base}.record.json": record, f"{base}.points.csv": points_csv(reduction),
-            f"{base}.report.txt": escape_controls(
-                report if report.endswith("\n") else report + "\n", keep="\n")}
+            f"{base}.report.txt": report if report.endswith("\n") else report + "\n"}
         drawn: dict[str, bytes] = {}
         if self.figures == "all":
             from .report.figures import render_figures
