@@ -336,9 +336,10 @@ def flag_points(jacobian: npt.ArrayLike, weights: npt.ArrayLike, residuals: npt.
 
 def _flags(a: np.ndarray, e: np.ndarray, covariance_scaled: bool, outlier_limit: float | None,
            cooks_limit: float, level: float, influence_level: float, max_flags: int | None,
-           first: np.ndarray | None = None) -> list[str | None]:
+           first: tuple[np.ndarray, np.ndarray] | None = None) -> list[str | None]:
     """:func:`flag_points` on the weighted design and residuals (``first``: the studentized
-    residuals of every point, when known)."""
+    residuals and the clipped leverages of every point, as :func:`_studentized` gives them,
+    when known)."""
     from scipy.special import ndtri, stdtrit
 
     n, p = a.shape
@@ -351,7 +352,7 @@ def _flags(a: np.ndarray, e: np.ndarray, covariance_scaled: bool, outlier_limit:
     current = e.copy()
     while keep.sum() - p - extra >= 1 and (~keep).sum() < most:
         index = np.flatnonzero(keep)
-        t = (first if first is not None and keep.all()
+        t = (first[0] if first is not None and keep.all()
              else _studentized(a[keep], current[keep], covariance_scaled)[0])
         worst = int(np.argmax(np.abs(t)))
         if not abs(t[worst]) > limit:
@@ -363,8 +364,8 @@ def _flags(a: np.ndarray, e: np.ndarray, covariance_scaled: bool, outlier_limit:
 
     if keep.sum() - p - extra >= 1:
         index = np.flatnonzero(keep)
-        t, h = (_studentized(a, e, covariance_scaled) if keep.all()
-                else _studentized(a[keep], current[keep], covariance_scaled))
+        t, h = ((first if first is not None else _studentized(a, e, covariance_scaled))
+                if keep.all() else _studentized(a[keep], current[keep], covariance_scaled))
         s2 = (float(np.sum(current[keep] ** 2)) / (keep.sum() - p) if covariance_scaled
               else 1.0)
         distance = current[keep] ** 2 * h / (p * s2 * (1.0 - h) ** 2)
@@ -412,7 +413,7 @@ def point_diagnostics(jacobian: npt.ArrayLike, weights: npt.ArrayLike,
         leverage=_hat_diagonal(a), studentized_residual=t,
         cooks_distance=e**2 * h / (p * s2 * (1.0 - h) ** 2),
         flags=_flags(a, e, covariance_scaled, None, COOKS_DISTANCE_THRESHOLD, FAMILY_LEVEL,
-                     INFLUENCE_LEVEL, None, first=t))
+                     INFLUENCE_LEVEL, None, first=(t, h)))
 
 
 @dataclass(frozen=True)
