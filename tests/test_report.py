@@ -9,6 +9,8 @@ from __future__ import annotations
 import re
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from synthetic import emf_from_gamma, write_run
 
 from activolt.activity.published import published_gamma
@@ -59,3 +61,31 @@ def test_report_text(tmp_path):
     assert reduction.statistics.covariance_note in text
     assert "against published values" in text and "Robinson & Stokes" in text
     assert "Hydrogen gas is flammable" in text
+
+
+_SUPERSCRIPT_DIGITS = str.maketrans("⁻⁰¹²³⁴⁵⁶⁷⁸⁹", "-0123456789")
+
+
+@settings(max_examples=500, deadline=None)
+@given(st.floats(min_value=-1e300, max_value=1e300, allow_subnormal=True),
+       st.floats(min_value=0.0, max_value=1e300, allow_subnormal=True, exclude_min=True))
+def test_scaled_numbers_are_never_longer_than_their_uncertainty_supports(value, u):
+    """A number written as (m ± u) × 10ⁿ keeps m and u below ten units of its decade — also
+    where the value is far below its uncertainty or subnormal, which once printed a row of
+    several hundred digits or raised ZeroDivisionError — and the written value stays within
+    the written uncertainty of the value (GUM, JCGM 100:2008, 7.2.6; common practice)."""
+    from activolt.report.numbers import format_scaled
+
+    if value == 0.0:
+        return
+    text = format_scaled(value, u)
+    assert len(text) <= 60, text
+    scaled = re.fullmatch(r"\((\S+) ± (\S+)\) × 10(\S+)", text)
+    if scaled is None:  # a decade beyond the normal floats: exponent notation
+        written, written_u = (float(part) for part in text.split(" ± "))
+        scale = 1.0
+    else:
+        written, written_u = float(scaled[1]), float(scaled[2])
+        assert abs(written) <= 10.0 and written_u <= 10.0, text
+        scale = 10.0 ** int(scaled[3].translate(_SUPERSCRIPT_DIGITS))
+    assert abs(written * scale - value) <= 1.01 * written_u * scale + 1e-3 * abs(value), text

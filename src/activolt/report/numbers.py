@@ -104,11 +104,15 @@ _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 
 
 def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str:
-    """``(mantissa ± u) × 10ⁿ`` with n the value's decade and the digits set by u.
+    """``(mantissa ± u) × 10ⁿ`` with n the decade of the value, or of u where u is the larger,
+    and the digits set by u.
 
     For quantities far from 1 whose uncertainty is tiny (1 − a_w ≈ 4 × 10⁻⁵ known to
     2 × 10⁻¹⁰), where fixed-point notation would print a row of zeros. Rounding as in
-    :func:`format_with_uncertainty` (GUM, JCGM 100:2008, 7.2.6).
+    :func:`format_with_uncertainty` (GUM, JCGM 100:2008, 7.2.6). A value below its
+    uncertainty takes u's decade, so that neither number is written with more digits than u
+    supports; a decade beyond the range of normal floats falls back to ``value ± u`` in
+    exponent notation.
 
     Examples
     --------
@@ -116,6 +120,8 @@ def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str
     '(3.561764 ± 0.000016) × 10⁻⁵'
     >>> format_scaled(-0.0497, 0.00097)
     '(-4.970 ± 0.097) × 10⁻²'
+    >>> format_scaled(3e-08, 2.4e-05)
+    '(0.0 ± 2.4) × 10⁻⁵'
     >>> format_scaled(0.0, 1e-9)
     '0 ± 1e-09'
     """
@@ -123,11 +129,25 @@ def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str
         return f"{value:g} ± {uncertainty:.{significant}g}"
     if not math.isfinite(uncertainty):
         return f"{value:.4g} (held)"
-    exponent = math.floor(math.log10(abs(value)))
+    exponent = math.floor(math.log10(max(abs(value), uncertainty)))
+    if (not -300 <= exponent <= 300  # (10ⁿ would leave the normal floats)
+            or 0.0 < uncertainty < abs(value) * 1e-15):  # (finer than the value's resolution)
+        return _exponent_notation(value, uncertainty, significant)
     scale = 10.0 ** exponent
     inner = rounding.format_with_uncertainty(value / scale, uncertainty / scale,
                                              significant=significant)
     return f"({inner}) × 10{str(exponent).translate(_SUPERSCRIPT)}"
+
+
+def _exponent_notation(value: float, uncertainty: float, significant: int) -> str:
+    """``value ± u`` in exponent notation, the value to u's decade (at most the 17 significant
+    digits a float holds)."""
+    places = 16
+    if uncertainty > 0.0:
+        places = (math.floor(math.log10(abs(value))) - math.floor(math.log10(uncertainty))
+                  + significant - 1)
+    places = min(max(places, significant - 1), 16)
+    return f"{value:.{places}e} ± {uncertainty:.{significant}g}"
 
 
 def format_compact(value: float, uncertainty: float, significant: int = 2) -> str:
