@@ -983,7 +983,6 @@ def _calibration(merged: Mapping[str, Any], fail: Any) -> dict[str, Any]:
 
 def _cell_stoichiometry(cell: str, fail: Any) -> Any:
     """What the reduction needs from a cell diagram; an InputError pointing into it otherwise."""
-
     try:
         stoichiometry = cell_from_diagram(cell)
     except DiagramError as error:
@@ -1164,7 +1163,6 @@ def _check_response(path: Path, usable: _Rows, metadata: RunMetadata, emf_column
                     gas_term: np.ndarray) -> None:
     """The EMF must change with ln m± the Nernst way (sign σ, size about s νRT/nF), and where
     the cell diagram gives a catalogue E°, readings must have the sign it predicts."""
-
     electrolyte = metadata.electrolyte
     molality, emf, temperature = usable.molality, usable.emf, usable.temperature
     sign = 1 if metadata.electrolyte_sign > 0 else -1
@@ -1209,7 +1207,6 @@ def _catalogue_potential(cell: str, temperature_K: float) -> tuple[float, float,
     the 25 °C value used unchanged (from :func:`~activolt.chemistry.cells.cell_summary`, once
     per diagram and temperature: the series of a table share them); None when the diagram
     gives no E°."""
-
     try:
         summary = cell_summary(cell, temperature_K)
     except ValueError:
@@ -1583,7 +1580,6 @@ def _gas_screen(pressure: np.ndarray, temperature: np.ndarray, metadata: RunMeta
                 ) -> tuple[np.ndarray, np.ndarray]:
     """:func:`_check_gas_pressure` over the usable rows of every series: the gas term per
     row [V], and the rows that may leave no room for the gas."""
-
     fallback = math.nan if metadata.barometric_pressure_Pa is None else (
         metadata.barometric_pressure_Pa)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):

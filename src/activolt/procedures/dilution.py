@@ -1373,7 +1373,6 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit
               ) -> tuple[dict[str, np.ndarray], list[str]]:
     """Columns over every row of the run: leverage, studentized residuals and Cook's distance of
     the used readings, and a ``diagnostic`` reason where one stands out; warnings naming them."""
-
     used = run.usable
     scaled = not data.stated_uncertainty
     n, p = fit.jacobian.shape
@@ -1422,7 +1421,6 @@ def _catalogue_entry(cell: str, temperature_K: float
                      ) -> tuple[float, float, float, str] | None:
     """(E° [V], u [V], its pressure basis [Pa], the couples) of a cell from the catalogue, or
     None; kept once worked out, since a batch reduces many runs of one cell."""
-
     summary = cell_summary(cell, temperature_K)
     e0 = summary.get("standard_potential_V")
     if e0 is None or e0.get("value") is None:

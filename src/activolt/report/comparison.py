@@ -48,7 +48,6 @@ def comparison_lines(comparison: pd.DataFrame | Mapping[str, Any] | None) -> lis
     the run's difference from the mean and that difference in units of the combined standard
     uncertainty u_c (see :func:`activolt.procedures.published.compare_with_published`).
     """
-
     if comparison is None or pd.isna(column_values(comparison, "gamma_pm_published")).all():
         return []
     published_values = plain_values(comparison, "published_values")
