@@ -401,6 +401,14 @@ def _points(record: Mapping[str, Any]) -> str:
             + "</section>")
 
 
+def _finite_floats(*values: Any) -> bool:
+    """Whether every value is a finite Python float (x − x is 0 only for finite x)."""
+    for value in values:
+        if type(value) is not float or value - value != 0.0:
+            return False
+    return True
+
+
 def _plain_point(p: Mapping[str, Any], q_molality: str, q_emf: str, q_residual: str,
                  q_gamma: str, electrodes: bool) -> str | None:
     """The row of a reading in the fit and not flagged whose line is a whole number and whose
@@ -408,10 +416,7 @@ def _plain_point(p: Mapping[str, Any], q_molality: str, q_emf: str, q_residual: 
     get = p.get
     line, m, emf = get("line", ""), get("molality_mol_kg"), get("emf_V")
     residual, gamma, u_gamma = get("residual_V"), get("gamma_pm"), get("u_gamma_pm")
-    if not (type(line) is int and type(m) is float and type(emf) is float
-            and type(residual) is float and type(gamma) is float and type(u_gamma) is float
-            and m - m == 0.0 and emf - emf == 0.0 and residual - residual == 0.0
-            and gamma - gamma == 0.0 and u_gamma - u_gamma == 0.0):
+    if not (type(line) is int and _finite_floats(m, emf, residual, gamma, u_gamma)):
         return None
     electrode = f"<td>{_text(get('electrode') or '')}</td>" if electrodes else ""
     return (f'<tr><td>{line}</td><td class="num" data-value="{m!r}"{q_molality}>{m:.6g}</td>'
@@ -443,9 +448,7 @@ def _published(record: Mapping[str, Any]) -> str:
                          f"{shown}{letter}")
         m, mean = r.get("molality_mol_kg"), r.get("gamma_pm_published")
         difference, ratio = r.get("difference"), r.get("difference_over_u")
-        if (type(m) is float and type(mean) is float and type(difference) is float
-                and type(ratio) is float and m - m == 0.0 and mean - mean == 0.0
-                and difference - difference == 0.0 and ratio - ratio == 0.0):
+        if _finite_floats(m, mean, difference, ratio):
             rows.append(
                 f'<tr><td class="num" data-value="{m!r}">{m:.6g}</td>'
                 f"<td>{_shown(' '.join(marks))}</td>"
@@ -490,11 +493,7 @@ def _derived(record: Mapping[str, Any]) -> str:
                          get("u_osmotic_coefficient"))
         a_w, u_a_w = get("water_activity"), get("u_water_activity")
         excess, u_excess = get("excess_gibbs_rt_mol_kg"), get("u_excess_gibbs_rt_mol_kg")
-        if (type(m) is float and type(phi) is float and type(u_phi) is float
-                and type(a_w) is float and type(u_a_w) is float and type(excess) is float
-                and type(u_excess) is float and m - m == 0.0 and phi - phi == 0.0
-                and u_phi - u_phi == 0.0 and a_w - a_w == 0.0 and u_a_w - u_a_w == 0.0
-                and excess - excess == 0.0 and u_excess - u_excess == 0.0
+        if (_finite_floats(m, phi, u_phi, a_w, u_a_w, excess, u_excess)
                 and (1.0 - a_w) - (1.0 - a_w) == 0.0):
             rows.append(
                 f'<tr><td class="num" data-value="{m!r}">{m:.6g}</td>'
