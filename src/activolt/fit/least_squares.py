@@ -34,8 +34,9 @@ import numpy.typing as npt
 
 from ..errors import FitError
 
-__all__ = ["LeastSquaresResult", "central_difference_jacobian", "information_criteria",
-           "linear_least_squares", "weighted_least_squares"]
+__all__ = ["LeastSquaresResult", "StraightLines", "central_difference_jacobian",
+           "information_criteria", "linear_least_squares", "straight_lines",
+           "weighted_least_squares"]
 
 #: Relative step of the central-difference Jacobian, ≈ ε^(1/3) for float64 (Press et al. 2007,
 #: §5.7: it balances truncation and rounding errors of a central difference).
@@ -434,6 +435,110 @@ def weighted_least_squares(
     jac = central_difference_jacobian(evaluate, current, names)
     values = np.array([current[n] for n in names])
     return _result(names, values, jac, observations - fitted, w, scale)
+
+
+@dataclass(frozen=True)
+class StraightLines:
+    """Many weighted straight lines y ≈ p₀ + p₁ x fitted at once (:func:`straight_lines`).
+
+    Attributes
+    ----------
+    values : numpy.ndarray
+        (S, 2): intercept p₀ [unit of y] and slope p₁ [unit of y per unit of x] of each line;
+        NaN where the line is not determined.
+    covariance : numpy.ndarray
+        (S, 2, 2): their covariance; NaN where the line is not determined.
+    points : numpy.ndarray
+        (S,): how many points (positive weights) each line was fitted to.
+    determined : numpy.ndarray
+        (S,) bool: False where the points do not determine a line (fewer than two distinct x,
+        or, when its covariance is to be scaled, no degree of freedom left).
+    """
+
+    values: np.ndarray
+    covariance: np.ndarray
+    points: np.ndarray
+    determined: np.ndarray
+
+
+def straight_lines(x: npt.ArrayLike, y: npt.ArrayLike, weights: npt.ArrayLike,
+                   scale_covariance: npt.ArrayLike) -> StraightLines:
+    r"""Fit many weighted straight lines y ≈ p₀ + p₁ x at once, one per row, by the method of
+    :func:`linear_least_squares` (equilibrated QR, one step of iterative refinement), every
+    line in the same array operations.
+
+    Parameters
+    ----------
+    x, y : array_like
+        (S, N): the points of each line, a row each [units of x and y].
+    weights : array_like
+        (S, N): w = 1/u² [1/(unit of y)²]; 0 leaves a point out (rows of fewer points are
+        padded with weight 0; their x and y are not read).
+    scale_covariance : array_like of bool
+        (S,): per line, whether its covariance is scaled by χ²/(N − 2) (unit or relative
+        weights) or not (weights from stated uncertainties).
+
+    Returns
+    -------
+    StraightLines
+
+    Notes
+    -----
+    With A = W^½ X D⁻¹ (X = [1, x], D its weighted column norms) and A = QR, the line solves
+    R q = Qᵀ W^½ y, p = D⁻¹ q, refined once on the residual; the covariance is
+    D⁻¹ R⁻¹ R⁻ᵀ D⁻¹ [× χ²/(N − 2)] (Björck 1996, §1.3 and §2.4), R⁻¹ of the 2 × 2 triangle
+    written out. A line is not determined when R is singular to working precision, as
+    :func:`linear_least_squares` refuses it.
+
+    Examples
+    --------
+    >>> lines = straight_lines([[0.0, 1.0, 2.0], [0.0, 1.0, 0.0]], [[1.0, 3.0, 5.0],
+    ...                        [2.0, 1.0, 0.0]], [[1.0, 1.0, 1.0], [1.0, 1.0, 0.0]],
+    ...                        [True, False])
+    >>> lines.values[0].round(12).tolist(), lines.determined.tolist()
+    ([1.0, 2.0], [True, True])
+    >>> lines.values[1].round(12).tolist(), float(lines.covariance[1, 1, 1].round(12))
+    ([2.0, -1.0], 2.0)
+    """
+    w = np.asarray(weights, dtype=float)
+    used = w > 0.0
+    x = np.where(used, np.asarray(x, dtype=float), 0.0)
+    y = np.where(used, np.asarray(y, dtype=float), 0.0)
+    scale = np.asarray(scale_covariance, dtype=bool)
+    points = used.sum(axis=1)
+    sqrt_w = np.sqrt(np.where(used, w, 0.0))
+    a = np.stack([sqrt_w, x * sqrt_w], axis=-1)
+    b = y * sqrt_w
+    norms = np.sqrt(np.add.reduce(a * a, axis=1))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a_scaled = a / norms[:, None, :]
+        a_scaled[~np.isfinite(a_scaled)] = 0.0
+        q, r = np.linalg.qr(a_scaled)
+        r00, r01, r11 = r[:, 0, 0], r[:, 0, 1], r[:, 1, 1]
+        diagonal = np.abs(np.stack([r00, r11], axis=-1))
+        determined = ((norms > 0.0).all(axis=1) & (diagonal.min(axis=1) > diagonal.max(axis=1)
+                      * points * np.finfo(float).eps) & (~scale | (points > 2)))
+
+        def upper_solve(c: np.ndarray) -> np.ndarray:
+            second = c[:, 1] / r11
+            return np.stack([(c[:, 0] - r01 * second) / r00, second], axis=-1)
+
+        solution = upper_solve(np.einsum("snk,sn->sk", q, b))
+        residual = b - np.einsum("snk,sk->sn", a_scaled, solution)
+        solution = solution + upper_solve(np.einsum("snk,sn->sk", q, residual))
+        values = solution / norms
+        inverse = np.zeros_like(r)
+        inverse[:, 0, 0], inverse[:, 1, 1] = 1.0 / r00, 1.0 / r11
+        inverse[:, 0, 1] = -r01 / (r00 * r11)
+        covariance = (inverse @ inverse.transpose(0, 2, 1)) / (norms[:, :, None]
+                                                               * norms[:, None, :])
+        chi2 = np.add.reduce(w * used * (y - values[:, :1] - values[:, 1:] * x) ** 2, axis=1)
+        factor = np.where(scale, chi2 / (points - 2), 1.0)
+    covariance = covariance * factor[:, None, None]
+    values[~determined] = np.nan
+    covariance[~determined] = np.nan
+    return StraightLines(values=values, covariance=covariance, points=points,
+                         determined=determined)
 
 
 def linear_least_squares(

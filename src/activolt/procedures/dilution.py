@@ -44,7 +44,7 @@ from ..errors import FitError, InputError
 from ..fit.diagnostics import point_diagnostics
 from ..fit.engine import BatchFit, MeasurementModel, solve
 from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
-from ..fit.least_squares import information_criteria, linear_least_squares
+from ..fit.least_squares import information_criteria, straight_lines
 from ..fit.problem import (
     E0,
     SLOPE,
@@ -277,7 +277,7 @@ class Reduction:
         when first asked for; None when fewer than three molalities lie within its range."""
         if self.data is None:
             return None
-        return _linear_extrapolation(self.run, self.data, self.slope_factor)
+        return _linear_extrapolations([(self.run, self.data, self.slope_factor)])[0]
 
     def point_column(self, name: str) -> np.ndarray:
         """One column of :attr:`points` as an array over every row, without building the
@@ -743,28 +743,49 @@ def _together(chains: Sequence[Generator[list[_FitRequest], list[_Fit | FitError
     return outcomes
 
 
-def _linear_extrapolation(run: Run, data: SeriesData, slope: float) -> LinearExtrapolation | None:
-    electrolyte = run.metadata.electrolyte
-    ionic = electrolyte.ionic_strength(data.molality)
-    use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
-    if np.unique(data.molality[use]).size < 3:
-        return None
-    ln_gamma_dh = extended_debye_hueckel(electrolyte, data.molality[use],
-                                         data.constants.agamma[use])
-    k = data.sign * slope * data.nernst_V[use]
-    y = data.emf_V[use] + k * (data.ln_mean_molality[use] + ln_gamma_dh)
-    x = data.molality[use]
-    try:
-        line = linear_least_squares(np.column_stack([np.ones_like(x), x]), y, data.weights[use],
-                                    scale_covariance=not data.stated_uncertainty)
-    except FitError:
-        return None  # molalities too close together for a straight line
-    coef, cov = line.value_array, line.covariance
-    return LinearExtrapolation(
-        standard_potential_V=float(coef[0]), u_standard_potential_V=float(math.sqrt(cov[0, 0])),
-        slope_V_kg_mol=float(coef[1]), n_points=int(use.sum()),
-        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH,
-    )
+def _linear_extrapolations(problems: Sequence[tuple[Run, SeriesData, float]]
+                           ) -> list[LinearExtrapolation | None]:
+    r"""The straight-line cross-check (:class:`LinearExtrapolation`) of each (run, readings as
+    fitted, slope factor), the lines of all of them fitted together
+    (:func:`~activolt.fit.least_squares.straight_lines`); None for a run with fewer than three
+    molalities within range or whose molalities do not determine a line.
+
+    Notes
+    -----
+    .. math:: E + s k (\ln m_± + \ln γ_{DH}) = E° + b\,m
+
+    at I ≤ :data:`LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH`, ln γ_DH the extended Debye–Hückel
+    term with Bå = 1.5 (Bates–Guggenheim); the intercept is E° (the Hitchcock extrapolation).
+    """
+    if not problems:
+        return []
+    width = max(2, *(data.molality.size for _, data, _ in problems))
+    m, y, w = (np.zeros((len(problems), width)) for _ in range(3))
+    scale = np.zeros(len(problems), dtype=bool)
+    for row, (run, data, slope) in enumerate(problems):
+        electrolyte = run.metadata.electrolyte
+        ionic = electrolyte.ionic_strength(data.molality)
+        use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
+        n = int(np.count_nonzero(use))
+        m[row, :n] = molality = data.molality[use]
+        ln_gamma_dh = extended_debye_hueckel(electrolyte, molality, data.constants.agamma[use])
+        y[row, :n] = data.emf_V[use] + data.sign * slope * data.nernst_V[use] * (
+            data.ln_mean_molality[use] + ln_gamma_dh)
+        w[row, :n] = data.weights[use]
+        scale[row] = not data.stated_uncertainty
+    ordered = np.sort(np.where(w > 0.0, m, np.inf), axis=1)  # the padding last
+    with np.errstate(invalid="ignore"):  # (∞ − ∞ between two paddings)
+        steps = np.diff(ordered, axis=1) > 0.0
+    distinct = (np.count_nonzero(steps & np.isfinite(ordered[:, 1:]), axis=1)
+                + np.isfinite(ordered[:, 0]))
+    lines = straight_lines(m, y, w, scale)
+    return [LinearExtrapolation(
+        standard_potential_V=float(lines.values[row, 0]),
+        u_standard_potential_V=float(math.sqrt(lines.covariance[row, 0, 0])),
+        slope_V_kg_mol=float(lines.values[row, 1]), n_points=int(lines.points[row]),
+        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH)
+        if distinct[row] >= 3 and lines.determined[row] else None
+        for row in range(len(problems))]
 
 
 def mean_temperature(temperature_K: np.ndarray) -> float:
@@ -953,6 +974,14 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
                 results.append(_finish(start, held, remind_model_choice))
             except (FitError, InputError) as error:
                 results.append(error)
+    # The straight-line cross-checks of all of them together, kept as each reduction's own
+    # (the slot of its cached property, which a reduction alone fills when first read).
+    fitted = [result for result in results
+              if isinstance(result, Reduction) and result.data is not None]
+    lines = _linear_extrapolations([(result.run, result.data, result.slope_factor)
+                                    for result in fitted])
+    for result, line in zip(fitted, lines, strict=True):
+        result.__dict__["linear_extrapolation"] = line
     return results
 
 
