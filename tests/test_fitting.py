@@ -12,12 +12,15 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from activolt.errors import FitError
 from activolt.fit.least_squares import (
     central_difference_jacobian,
     information_criteria,
     linear_least_squares,
+    straight_lines,
     weighted_least_squares,
 )
 
@@ -99,6 +102,65 @@ def test_norris_nonlinear_path_reproduces_certified_values():
     np.testing.assert_allclose(list(fit.standard_errors.values()), NORRIS_ERRORS, rtol=1e-10)
     assert fit.residual_sd == pytest.approx(NORRIS_RESIDUAL_SD, rel=1e-12)
     assert fit.covariance_scaled
+
+
+@pytest.mark.literature
+def test_batched_straight_lines_reproduce_norris_certified_values():
+    # The Norris line three times in one call: alone, padded with points of weight 0 (their
+    # x and y not read) and given in reverse order; each row must give the certified values.
+    n = NORRIS_X.size
+    x = np.stack([np.append(NORRIS_X, [0.0, 0.0]), np.append(NORRIS_X, [np.nan, 1e9]),
+                  np.append(NORRIS_X[::-1], [0.0, 0.0])])
+    y = np.stack([np.append(NORRIS_Y, [0.0, 0.0]), np.append(NORRIS_Y, [5.0, np.nan]),
+                  np.append(NORRIS_Y[::-1], [0.0, 0.0])])
+    w = np.zeros_like(x)
+    w[:, :n] = 1.0
+    lines = straight_lines(x, y, w, [True, True, True])
+    assert lines.determined.all() and lines.points.tolist() == [n, n, n]
+    for row in range(3):
+        np.testing.assert_allclose(lines.values[row], NORRIS_ESTIMATES, rtol=1e-12)
+        np.testing.assert_allclose(np.sqrt(np.diag(lines.covariance[row])), NORRIS_ERRORS,
+                                   rtol=1e-12)
+
+
+_LINE_POINTS = st.integers(3, 12)
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(_LINE_POINTS, st.integers(0, 2**32 - 1), st.booleans()),
+                min_size=1, max_size=6))
+def test_batched_straight_lines_agree_with_the_fit_of_each_line_alone(specs):
+    # Each row of the batch against linear_least_squares on that row's points alone (the QR
+    # core checked on NIST StRD above); rows of different lengths, weights and scales.
+    width = max(n for n, _, _ in specs)
+    x, y, w = (np.zeros((len(specs), width)) for _ in range(3))
+    for row, (n, seed, _) in enumerate(specs):
+        rng = np.random.default_rng(seed)
+        x[row, :n] = np.sort(rng.uniform(0.0, 1.0, n)) + np.arange(n) * 1e-3
+        y[row, :n] = 0.2 + rng.normal(0.0, 0.05) * x[row, :n] + rng.normal(0.0, 1e-4, n)
+        w[row, :n] = rng.uniform(0.5, 2.0, n) * 1e8
+    scale = [s for _, _, s in specs]
+    lines = straight_lines(x, y, w, scale)
+    for row, (n, _, scaled) in enumerate(specs):
+        alone = linear_least_squares(np.column_stack([np.ones(n), x[row, :n]]), y[row, :n],
+                                     w[row, :n], scale_covariance=scaled)
+        assert lines.determined[row]
+        np.testing.assert_allclose(lines.values[row], alone.value_array, rtol=1e-9,
+                                   atol=1e-13)
+        np.testing.assert_allclose(lines.covariance[row], alone.covariance, rtol=1e-9,
+                                   atol=1e-30)
+
+
+def test_batched_straight_lines_refuse_what_does_not_determine_a_line():
+    # One distinct x (rank deficient), a single point, and two points whose scale would need
+    # a degree of freedom: not determined, NaN; a good line beside them is unaffected.
+    x = np.array([[1.0, 1.0, 1.0], [0.5, 0.0, 0.0], [0.0, 1.0, 0.0], [0.0, 1.0, 2.0]])
+    y = np.array([[1.0, 2.0, 3.0], [1.0, 0.0, 0.0], [1.0, 2.0, 0.0], [1.0, 3.0, 5.0]])
+    w = np.array([[1.0, 1.0, 1.0], [1.0, 0.0, 0.0], [1.0, 1.0, 0.0], [1.0, 1.0, 1.0]])
+    lines = straight_lines(x, y, w, [False, False, True, True])
+    assert lines.determined.tolist() == [False, False, False, True]
+    assert np.isnan(lines.values[:3]).all() and np.isnan(lines.covariance[:3]).all()
+    np.testing.assert_allclose(lines.values[3], [1.0, 2.0], atol=1e-12)
 
 
 @pytest.mark.literature

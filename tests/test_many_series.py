@@ -196,7 +196,7 @@ def _random_series(draw: st.DrawFn) -> pd.DataFrame:
 def test_reducing_runs_together_equals_reducing_each_alone(frame, model):
     """The fits of many series solved in one engine batch give each series what it gives
     alone: E° to 1e-9 V, γ± to 1e-9, u to 1e-6 relative, the same held parameters, the same
-    refusal (regression pin: the code against itself)."""
+    refusal, the same straight-line cross-check (regression pin: the code against itself)."""
     runs = runs_from_frame(frame, METADATA)
     together = reduce_runs(runs, model)
     for run, batch in zip(runs, together, strict=True):
@@ -215,6 +215,14 @@ def test_reducing_runs_together_equals_reducing_each_alone(frame, model):
                                    rtol=1e-9, atol=0)
         np.testing.assert_allclose(batch.points["u_gamma_pm"], alone.points["u_gamma_pm"],
                                    rtol=1e-6, atol=0)
+        # the straight-line cross-check, fitted with the batch's other lines or alone
+        line, line_alone = batch.linear_extrapolation, alone.linear_extrapolation
+        assert (line is None) == (line_alone is None)
+        if line is not None:
+            assert line.n_points == line_alone.n_points
+            assert abs(line.standard_potential_V - line_alone.standard_potential_V) <= 1e-9
+            assert line.u_standard_potential_V == pytest.approx(
+                line_alone.u_standard_potential_V, rel=1e-6)
 
 
 def test_reduce_many_on_runs_and_the_truth_is_covered(tmp_path):
