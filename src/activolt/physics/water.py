@@ -226,6 +226,20 @@ def debye_hueckel_constants(temperature: npt.ArrayLike) -> DebyeHueckelConstants
     [0.5098, 0.5098]
     """
     t = np.atleast_1d(np.asarray(temperature, dtype=float))
+    if t.ndim == 1 and t.size and bool((t == t[0]).all()):  # one temperature (a run's)
+        return _constants_at(float(t[0]), t.size)
     return DebyeHueckelConstants(
         temperature=t, aphi=debye_hueckel_aphi(t), b=debye_hueckel_b(t)
     )
+
+
+@lru_cache(maxsize=256)
+def _constants_at(temperature_K: float, points: int) -> DebyeHueckelConstants:
+    """The constants at ``points`` points of one temperature, kept once worked out (read
+    only): the series of a batch are mostly measured at one temperature and length."""
+    t = np.full(points, temperature_K)
+    constants = DebyeHueckelConstants(temperature=t, aphi=debye_hueckel_aphi(t),
+                                      b=debye_hueckel_b(t))
+    for array in (constants.temperature, constants.aphi, constants.b):
+        array.flags.writeable = False
+    return constants
