@@ -18,7 +18,7 @@ import itertools
 import math
 import re
 import tomllib
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
@@ -232,6 +232,13 @@ class Run:
             column.flags.writeable = False
             found[name] = column
         return MappingProxyType(found)
+
+    @functools.cached_property
+    def series(self) -> str:
+        """The name of the series the run holds (``""`` for an unnamed series or a table
+        without a ``series`` column)."""
+        names = self.points["series"]
+        return str(names.iloc[0]) if len(names) else ""
 
     @functools.cached_property
     def emf_uncertainty_given(self) -> bool:
@@ -1380,7 +1387,7 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     if points["flag"].dtype != object:
         points["flag"] = points["flag"].astype(object)
     # codes in order of first appearance (a missing name, -1, is no series, as in a grouping)
-    codes, _ = pd.factorize(points["series"])
+    codes, names = pd.factorize(points["series"])
     order = np.argsort(codes, kind="stable")
     order = order[codes[order] >= 0]
     if not order.size:
@@ -1399,7 +1406,7 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     gc.disable()
     try:
         _add_series(runs, path, sha256, metadata_path, metadata, warnings, notes, rows_of,
-                    columns, usable, bounds, cleared)
+                    columns, usable, bounds, cleared, [str(name) for name in names])
     finally:
         if collecting:
             gc.enable()
@@ -1410,9 +1417,10 @@ def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | 
                 metadata: RunMetadata, warnings: list[str], notes: Mapping[str, Any],
                 rows_of: Callable[[int, int], pd.DataFrame],
                 columns: Mapping[str, np.ndarray], usable: np.ndarray, bounds: np.ndarray,
-                cleared: np.ndarray) -> None:
-    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ordered table) as a Run added to
-    ``runs``: built directly when ``cleared[k]``, else through :func:`_series_run`."""
+                cleared: np.ndarray, names: Sequence[str]) -> None:
+    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ordered table, named ``names[k]``)
+    as a Run added to ``runs``: built directly when ``cleared[k]``, else through
+    :func:`_series_run`."""
     for k, (first, last) in enumerate(itertools.pairwise(bounds.tolist())):
         frame = rows_of(first, last)
         arrays = {name: column[first:last] for name, column in columns.items()}
@@ -1434,6 +1442,7 @@ def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | 
         # what Run.arrays and Run.usable would take out of the points again
         run.__dict__["arrays"] = MappingProxyType(arrays)
         run.__dict__["usable"] = rows
+        run.__dict__["series"] = names[k]
         runs.append(run)
 
 

@@ -57,8 +57,7 @@ def series_name(run: Run) -> str:
     ...     "electrolyte": "HCl", "electrons": 1, "temperature_C": 25.0})]
     ['cell 2']
     """
-    names = run.points["series"]
-    return str(names.iloc[0]) if len(names) else ""
+    return run.series
 
 
 @dataclass(frozen=True)
