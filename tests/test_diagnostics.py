@@ -27,6 +27,7 @@ from activolt.fit.diagnostics import (
     log_run_probabilities,
     outlier_threshold,
     point_diagnostics,
+    point_diagnostics_of_many,
     runs_test,
     serial_correlation_test,
     serial_moments,
@@ -287,3 +288,32 @@ def test_point_diagnostics_equal_the_four_functions(n, p, scaled, seed, outlier)
                                   studentized_residuals(j, w, r, scaled))
     np.testing.assert_array_equal(found.cooks_distance, cooks_distance(j, w, r, scaled))
     assert found.flags == flag_points(j, w, r, scaled)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.integers(5, 9), st.integers(1, 3), st.booleans(), st.booleans(),
+                          st.sampled_from([0.0, 8.0, 40.0]), st.integers(0, 2**32 - 1)),
+                min_size=1, max_size=12))
+def test_diagnostics_of_many_fits_equal_each_fit_alone(specs):
+    # Fits of several shapes, weights stated or scaled, designs in row- or column-major order,
+    # some with a reading far off: each fit's leverages, studentized residuals, Cook's
+    # distances and flags worked out with the others must be those of point_diagnostics alone,
+    # bit for bit (regression pin: the batched path against the one-fit path).
+    jacobians, weights, residuals, scaled = [], [], [], []
+    for n, p, column_major, scale, offset, seed in specs:
+        rng = np.random.default_rng(seed)
+        x = np.sort(rng.uniform(0.0, 1.0, n))
+        jacobian = np.column_stack([x**k for k in range(p)])
+        jacobians.append(np.asfortranarray(jacobian) if column_major else jacobian)
+        weights.append(rng.uniform(0.5, 2.0, n))
+        r = rng.normal(0.0, 1.0, n)
+        r[n // 2] += offset
+        residuals.append(r - jacobian @ np.linalg.lstsq(jacobian, r, rcond=None)[0])
+        scaled.append(scale)
+    many = point_diagnostics_of_many(jacobians, weights, residuals, scaled)
+    for k, found in enumerate(many):
+        alone = point_diagnostics(jacobians[k], weights[k], residuals[k], scaled[k])
+        assert np.array_equal(found.leverage, alone.leverage)
+        assert np.array_equal(found.studentized_residual, alone.studentized_residual)
+        assert np.array_equal(found.cooks_distance, alone.cooks_distance)
+        assert found.flags == alone.flags

@@ -31,6 +31,7 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -40,7 +41,7 @@ import numpy.typing as npt
 __all__ = [
     "COOKS_DISTANCE_THRESHOLD", "FAMILY_LEVEL", "INFLUENCE_LEVEL", "PointDiagnostics",
     "RunsTest", "cooks_distance", "flag_points", "leverage", "log_run_probability",
-    "outlier_threshold", "point_diagnostics", "runs_test",
+    "outlier_threshold", "point_diagnostics", "point_diagnostics_of_many", "runs_test",
     "serial_correlation_test",
     "studentized_residuals",
 ]
@@ -414,6 +415,92 @@ def point_diagnostics(jacobian: npt.ArrayLike, weights: npt.ArrayLike,
         cooks_distance=e**2 * h / (p * s2 * (1.0 - h) ** 2),
         flags=_flags(a, e, covariance_scaled, None, COOKS_DISTANCE_THRESHOLD, FAMILY_LEVEL,
                      INFLUENCE_LEVEL, None, first=(t, h)))
+
+
+def point_diagnostics_of_many(jacobians: Sequence[npt.ArrayLike],
+                              weights: Sequence[npt.ArrayLike],
+                              residuals: Sequence[npt.ArrayLike],
+                              covariance_scaled: Sequence[bool]) -> list[PointDiagnostics]:
+    """:func:`point_diagnostics` of many fits: the same numbers, the fits of one shape (N, P)
+    and one kind of weights worked out together.
+
+    Their weighted designs are factorised by one stacked QR (the same LAPACK factorisation of
+    each as alone), their leverages, studentized residuals and Cook's distances computed in
+    the same array operations, and only a fit with a point beyond the outlier threshold, or
+    beyond Cook's threshold with its studentized residual beyond the influence quantile, goes
+    through the flagging of :func:`flag_points`; the others have no flag, as it would find.
+
+    Parameters
+    ----------
+    jacobians, weights, residuals : sequence of array_like
+        Per fit, as in :func:`point_diagnostics`.
+    covariance_scaled : sequence of bool
+        Per fit, as in :func:`point_diagnostics`.
+
+    Returns
+    -------
+    list of PointDiagnostics
+        Per fit, in order.
+    """
+    from scipy.special import ndtri, stdtrit
+
+    found: dict[int, PointDiagnostics] = {}
+    groups: dict[tuple[tuple[int, ...], bool, str], list[int]] = {}
+    for index, (jacobian, scaled) in enumerate(zip(jacobians, covariance_scaled, strict=True)):
+        layout = (("F" if jacobian.flags.f_contiguous and not jacobian.flags.c_contiguous
+                   else "C" if jacobian.flags.c_contiguous else str(index))
+                  if isinstance(jacobian, np.ndarray) else "C")
+        groups.setdefault((np.shape(jacobian), bool(scaled), layout), []).append(index)
+    for (shape, scaled, layout), members in groups.items():
+        column_major = layout == "F"
+        n, p = shape if len(shape) == 2 else (0, 0)
+        together = (len(members) > 1 and layout in ("C", "F") and n > p
+                    and not (scaled and n - p - 1 < 1)
+                    and all(np.shape(weights[i]) == (n,) == np.shape(residuals[i])
+                            for i in members))
+        if together:
+            j = np.stack([np.asarray(jacobians[i], dtype=float) for i in members])
+            w = np.stack([np.asarray(weights[i], dtype=float) for i in members])
+            r = np.stack([np.asarray(residuals[i], dtype=float) for i in members])
+            together = bool(np.isfinite(j).all() and np.isfinite(w).all() and (w > 0.0).all()
+                            and np.isfinite(r).all())
+        if not together:
+            for i in members:  # alone, with its own checks and messages
+                found[i] = point_diagnostics(jacobians[i], weights[i], residuals[i], scaled)
+            continue
+        sqrt_w = np.sqrt(w)
+        a = j * sqrt_w[:, :, None]
+        e = r * sqrt_w
+        # each column's norm summed in the order its design alone is laid out in (a design in
+        # column-major order sums along its contiguous columns, pairwise)
+        along = np.ascontiguousarray(a.transpose(0, 2, 1)) if column_major else a
+        norms = np.sqrt(np.add.reduce(along * along, axis=2 if column_major else 1))
+        q, _ = np.linalg.qr(a / np.where(norms > 0.0, norms, 1.0)[:, None, :])
+        hat = np.sum(q**2, axis=2)
+        h = np.minimum(hat, 1.0 - 1e-15)
+        squares = e**2
+        if scaled:
+            variance = ((np.sum(squares, axis=1)[:, None] - squares / (1.0 - h))
+                        / (n - p - 1))
+            scale = np.sqrt(np.maximum(variance, np.finfo(float).tiny))
+            s2 = np.sum(squares, axis=1)[:, None] / (n - p)
+        else:
+            scale, s2 = np.ones_like(e), np.ones((len(members), 1))
+        t = e / (scale * np.sqrt(1.0 - h))
+        distance = squares * h / (p * s2 * (1.0 - h) ** 2)
+        limit = outlier_threshold(n, p, scaled, FAMILY_LEVEL)
+        quantile = (float(stdtrit(n - p - 1, 1.0 - INFLUENCE_LEVEL / 2.0)) if scaled
+                    else float(ndtri(1.0 - INFLUENCE_LEVEL / 2.0)))
+        size = np.abs(t)
+        screened = ((size > limit).any(axis=1)
+                    | ((distance > COOKS_DISTANCE_THRESHOLD) & (size > quantile)).any(axis=1))
+        for k, i in enumerate(members):
+            flags: list[str | None] = (
+                _flags(a[k], e[k], scaled, None, COOKS_DISTANCE_THRESHOLD, FAMILY_LEVEL,
+                       INFLUENCE_LEVEL, None, first=(t[k], h[k])) if screened[k] else [None] * n)
+            found[i] = PointDiagnostics(leverage=hat[k], studentized_residual=t[k],
+                                        cooks_distance=distance[k], flags=flags)
+    return [found[index] for index in range(len(jacobians))]
 
 
 @dataclass(frozen=True)

@@ -41,7 +41,7 @@ from ..chemistry.electrolytes import Electrolyte, nernst_factor
 from ..constants import ATMOSPHERE_PA, STANDARD_PRESSURE_PA, ZERO_CELSIUS_K
 from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
-from ..fit.diagnostics import point_diagnostics
+from ..fit.diagnostics import PointDiagnostics, point_diagnostics, point_diagnostics_of_many
 from ..fit.engine import BatchFit, MeasurementModel, solve
 from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
 from ..fit.least_squares import information_criteria, straight_lines
@@ -962,18 +962,39 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
             starts.append(error)
     helds = _together([_fit_and_hold(start) if isinstance(start, _Start) else None
                        for start in starts])
-    results: list[Reduction | FitError | InputError] = []
+    # Steps 3 and 4 of each run (_finish), then the point diagnostics of all the judged fits
+    # together, then step 5 of each.
+    staged: list[tuple[_Start, _Judged, _Components] | FitError | InputError] = []
     for start, held in zip(starts, helds, strict=True):
         if not isinstance(start, _Start):
-            results.append(start)
+            staged.append(start)
         elif not isinstance(held, _Held):
             assert held is not None
-            results.append(held)
+            staged.append(held)
         else:
             try:
-                results.append(_finish(start, held, remind_model_choice))
+                judged = _judge(held, start.family)
+                staged.append((start, judged, _covariance_components(judged, start)))
             except (FitError, InputError) as error:
-                results.append(error)
+                staged.append(error)
+    judged_fits = [stage[1] for stage in staged
+                   if isinstance(stage, tuple) and _diagnosable(stage[1].data, stage[1].fit)]
+    diagnosed = dict(zip(map(id, judged_fits), point_diagnostics_of_many(
+        [judged.fit.jacobian for judged in judged_fits],
+        [judged.data.weights for judged in judged_fits],
+        [judged.fit.residual_V for judged in judged_fits],
+        [not judged.data.stated_uncertainty for judged in judged_fits]), strict=True))
+    results: list[Reduction | FitError | InputError] = []
+    for stage in staged:
+        if not isinstance(stage, tuple):
+            results.append(stage)
+            continue
+        start, judged, parts = stage
+        try:
+            results.append(_assemble(start, judged, parts, remind_model_choice,
+                                     diagnosed.get(id(judged))))
+        except (FitError, InputError) as error:
+            results.append(error)
     # The straight-line cross-checks of all of them together, kept as each reduction's own
     # (the slot of its cached property, which a reduction alone fills when first read).
     fitted = [result for result in results
@@ -1222,8 +1243,10 @@ def _covariance_components(judged: _Judged, start: _Start) -> _Components:
 
 
 def _assemble(start: _Start, judged: _Judged, parts: _Components,
-              remind_model_choice: bool) -> Reduction:
-    """Step 5: the points table with γ± and its budget, diagnostics, and the result."""
+              remind_model_choice: bool, diagnosed: PointDiagnostics | None = None
+              ) -> Reduction:
+    """Step 5: the points table with γ± and its budget, diagnostics (``diagnosed``: the point
+    diagnostics of the judged fit, when already worked out), and the result."""
     run, family = start.run, start.family
     electrolyte = run.metadata.electrolyte
     data = judged.data
@@ -1240,11 +1263,11 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
                                                  parts.type_b, parts.uncertain_names,
                                                  parts.uncertain_covariance, parts.common,
                                                  parts.truncation)
-    diagnostics, diagnosed = _diagnose(run, data, fit)
+    diagnostics, stand_out = _diagnose(run, data, fit, diagnosed)
     point_columns = {**columns, **diagnostics}
     for column in point_columns.values():
         column.flags.writeable = False
-    warnings += diagnosed
+    warnings += stand_out
     reasons = judged.held.reasons
     parameters = tuple(
         FittedParameter(
@@ -1398,20 +1421,21 @@ def _budget(run: Run, data: SeriesData, fit: _Fit, sensitivity: np.ndarray,
     return tuple(lines)
 
 
-def _diagnose(run: Run, data: SeriesData, fit: _Fit
+def _diagnose(run: Run, data: SeriesData, fit: _Fit, found: PointDiagnostics | None = None
               ) -> tuple[dict[str, np.ndarray], list[str]]:
     """Columns over every row of the run: leverage, studentized residuals and Cook's distance of
-    the used readings, and a ``diagnostic`` reason where one stands out; warnings naming them."""
+    the used readings, and a ``diagnostic`` reason where one stands out; warnings naming them.
+    ``found``: the fit's point diagnostics when already worked out (with a batch's others)."""
     used = run.usable
     scaled = not data.stated_uncertainty
-    n, p = fit.jacobian.shape
-    if scaled and n - p - 1 < 1:
+    if found is None and not _diagnosable(data, fit):
         nan = np.full(used.size, np.nan)
         return {"leverage": nan, "studentized_residual": nan, "cooks_distance": nan,
                 "diagnostic": np.full(used.size, None, dtype=object)}, [
             "too few readings for leave-one-out diagnostics (they need N − P − 1 ≥ 1 when "
             "the scatter is estimated from the fit)"]
-    found = point_diagnostics(fit.jacobian, data.weights, fit.residual_V, scaled)
+    if found is None:
+        found = point_diagnostics(fit.jacobian, data.weights, fit.residual_V, scaled)
     columns = {"leverage": found.leverage, "studentized_residual": found.studentized_residual,
                "cooks_distance": found.cooks_distance}
     full: dict[str, np.ndarray] = {}
@@ -1426,6 +1450,13 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
                 "reason if it is faulty" for i in np.flatnonzero(diagnostic != None)]  # noqa: E711
     return full, warnings
+
+
+def _diagnosable(data: SeriesData, fit: _Fit) -> bool:
+    """Whether the fit leaves the leave-one-out diagnostics a degree of freedom (N − P − 1 ≥ 1
+    when the scatter is estimated from the fit)."""
+    n, p = fit.jacobian.shape
+    return data.stated_uncertainty or n - p - 1 >= 1
 
 
 def _catalogue_value(run: Run, temperature_K: float) -> CatalogueValue | None:
