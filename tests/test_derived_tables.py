@@ -83,6 +83,26 @@ def test_model_sensitivities_are_the_one_by_one_numbers(model, formula, molality
         assert np.array_equal(g, e, equal_nan=True)
 
 
+@pytest.mark.parametrize("size", [12, 1500])
+def test_model_sensitivities_are_the_same_when_asked_again(size):
+    """The readings repeated for the shifted parameters are kept per molalities and
+    temperatures (runs up to a thousand readings): asked again, or for a longer run that is not
+    kept, the numbers are the one-by-one numbers; the kept readings are read only, and stay as
+    they were."""
+    electrolyte = parse_electrolyte("NaCl")
+    m = np.linspace(0.001, 2.0, size)
+    constants = debye_hueckel_constants(np.linspace(288.15, 308.15, size))
+    for model in ("hueckel", "pitzer", "sit"):
+        activity = MODELS[model]
+        values = {p.name: 4.0 if p.name == "a_angstrom" else 0.1 for p in activity.parameters}
+        free = tuple(sorted(values))
+        expected = _one_by_one(activity, electrolyte, m, constants, values, free)
+        for _ in range(2):
+            got = model_sensitivities(activity, electrolyte, m, constants, values, free)
+            for g, e in zip(got, expected, strict=True):
+                assert np.array_equal(g, e, equal_nan=True)
+
+
 def test_derived_properties_are_those_worked_out_step_by_step():
     reduction = reduce_run(read_run(SAMPLE), "pitzer")
     props = derived_properties(reduction)

@@ -404,6 +404,33 @@ def test_outputs_read_from_columns_are_those_of_the_points_table(reductions, dat
     assert points_csv(changed) == _reference_points_csv(changed)
 
 
+_TEXT_VALUES = st.none() | st.just(math.nan) | st.sampled_from(
+    ["", "KB-AgCl-08", "=1+2", " @SUM(A1)", "-0.5", "a,b", 'say "x"', "two\nlines"]) | st.text(
+    st.characters(codec="utf-8", exclude_categories=("Cs",)), max_size=5)
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.data())
+def test_points_csv_of_any_text_is_the_table_written_by_pandas(reductions, data):
+    """The points CSV, its text columns read through pyarrow and checked once per distinct
+    text, and its rows joined when nothing needs quoting, is what pandas writes of the points
+    table, for text of any kind (missing, a formula, a comma, a quote, a line break)."""
+    import dataclasses
+
+    from activolt.io.record import points_csv
+
+    reduction = reductions[data.draw(st.sampled_from(["sample", "compared"]))][0]
+    points = reduction.run.points.copy()
+    n = len(points)
+    for name in ("electrode", "series", "note"):
+        if data.draw(st.booleans(), label=f"change {name}"):
+            cells = data.draw(st.lists(_TEXT_VALUES, min_size=n, max_size=n), label=name)
+            points[name] = pd.Series(cells, index=points.index, dtype="str")
+    changed = dataclasses.replace(reduction, run=dataclasses.replace(reduction.run,
+                                                                     points=points))
+    assert points_csv(changed) == _reference_points_csv(changed)
+
+
 def _reference_residuals_by_solution(reduction) -> np.ndarray:
     points = reduction.points[reduction.points["flag"].isna()]
     return points.groupby("molality_mol_kg", sort=True)["residual_V"].mean().to_numpy(float)

@@ -571,7 +571,7 @@ def _points_columns(reduction: Reduction) -> dict[str, Any]:
         return values.copy() if isinstance(values, np.ndarray) else values.to_numpy()
 
     def text(name: str) -> list[Any]:
-        return [neutralise_formula(v) for v in point_lists(reduction, [name])[name]]
+        return _neutralised(_text_values(point_values(reduction, name)))
 
     def filled(name: str) -> list[Any]:
         # pandas' where(notna, ""): every missing value (None, NaN, NA) becomes ""
@@ -602,6 +602,30 @@ def _points_columns(reduction: Reduction) -> dict[str, Any]:
         "diagnostic": filled("diagnostic"),
         "note": text("note"),
     }
+
+
+def _text_values(values: Any) -> list[Any]:
+    """A column of text (as :func:`point_values` gives it) as a list, a missing text None or
+    NaN: pandas' text held by Arrow is read by pyarrow, a few times quicker than pandas'
+    ``to_numpy``."""
+    import numpy as np
+    import pandas as pd
+    import pyarrow as pa
+
+    if isinstance(values, np.ndarray):
+        return values.tolist()
+    if isinstance(values, pd.arrays.ArrowStringArray):
+        return pa.array(values).to_pylist()
+    return values.to_numpy(dtype=object).tolist()
+
+
+def _neutralised(cells: list[Any]) -> list[Any]:
+    """:func:`neutralise_formula` of each cell, worked out once for each distinct text (a
+    column of text usually repeats one or two)."""
+    if not all(type(cell) is str for cell in cells):
+        return [neutralise_formula(cell) for cell in cells]
+    forms = {cell: neutralise_formula(cell) for cell in set(cells)}
+    return [forms[cell] for cell in cells]
 
 
 def _missing(value: Any) -> bool:
@@ -635,10 +659,16 @@ def _csv_cells(column: Any) -> list[str]:
         kind = column.dtype.kind
         values = column.tolist()
         if kind == "f":
-            if np.isinf(column).any():
+            if not values:
+                return []
+            # printf-style, as pandas applies float_format: the column in one format, its
+            # cells then split at the commas (a formatted number has none)
+            text = _float_format(len(values)) % tuple(values)
+            if "n" not in text:  # no "nan" and no "inf"
+                return text.split(",")
+            if "inf" in text:
                 raise _NotPlainTable
-            # printf-style, as pandas applies float_format
-            return ["" if v != v else "%.10g" % v for v in values]  # noqa: UP031
+            return ["" if cell == "nan" else cell for cell in text.split(",")]
         if kind in "iub":
             return [str(v) for v in values]
         raise _NotPlainTable
@@ -653,6 +683,22 @@ def _csv_cells(column: Any) -> list[str]:
         else:
             raise _NotPlainTable
     return cells
+
+
+@functools.lru_cache(maxsize=16)
+def _float_format(n: int) -> str:
+    """The printf format of ``n`` floats written ``%.10g``, separated by commas."""
+    return ",".join(["%.10g"] * n)
+
+
+def _csv_row(fields: list[Any]) -> str:
+    """One row as the csv writer writes it (comma separated, quoted only where needed)."""
+    import csv
+    import io
+
+    buffer = io.StringIO()
+    csv.writer(buffer, lineterminator="\n").writerow(fields)
+    return buffer.getvalue()
 
 
 def table_csv(columns: dict[str, Any]) -> str:
@@ -680,6 +726,8 @@ def table_csv(columns: dict[str, Any]) -> str:
     import csv
     import io
 
+    import numpy as np
+
     try:
         cells = [_csv_cells(column) for column in columns.values()]
     except _NotPlainTable:
@@ -687,9 +735,20 @@ def table_csv(columns: dict[str, Any]) -> str:
 
         return pd.DataFrame(columns).to_csv(index=False, float_format="%.10g",
                                             lineterminator="\n")
+    names = list(columns)
+    if len(names) > 1 and all(type(name) is str for name in names):
+        # Rows joined with commas, when the csv writer quotes none of the names and texts (it
+        # quotes a field for what the field holds; numbers and empty cells never, but the
+        # single empty field of a one-column row): asked of the writer itself, in one row.
+        texts = {cell for column, column_cells in zip(columns.values(), cells, strict=True)
+                 if not isinstance(column, np.ndarray) for cell in column_cells}
+        fields = [*names, *texts]
+        if _csv_row(fields) == ",".join(fields) + "\n":
+            return "".join([",".join(names) + "\n",
+                            *[",".join(row) + "\n" for row in zip(*cells, strict=True)]])
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(list(columns))
+    writer.writerow(names)
     writer.writerows(zip(*cells, strict=True))
     return buffer.getvalue()
 

@@ -98,31 +98,79 @@ def model_sensitivities(model: ActivityModel, electrolyte: Electrolyte, molality
     >>> d_ln.shape, bool((d_ln == one_by_one).all())
     ((3, 1), True)
     """
-    steps = [1e-6 * max(1.0, abs(values[name])) for name in free]
     rows = 1 + 2 * len(free)
+    if molality.size <= _KEPT_READINGS:
+        tiled_m, tiled_c = _tiled_at(*(_packed(array) for array in (
+            molality, constants.temperature, constants.aphi, constants.b)), rows)
+    else:
+        tiled_m, tiled_c = _tiled(molality, constants, rows)
+    return _sensitivities(model, electrolyte, tiled_m, tiled_c, values, free)
+
+
+def _packed(array: np.ndarray) -> tuple[str, tuple[int, ...], bytes]:
+    """``array`` as a key that gives it back exactly: its type, shape and bytes."""
+    return array.dtype.str, array.shape, array.tobytes()
+
+
+def _unpacked(packed: tuple[str, tuple[int, ...], bytes]) -> np.ndarray:
+    """The array of :func:`_packed`, read only."""
+    dtype, shape, data = packed
+    return np.frombuffer(data, dtype=dtype).reshape(shape)
+
+
+def _tiled(molality: np.ndarray, constants: DebyeHueckelConstants, rows: int
+           ) -> tuple[np.ndarray, DebyeHueckelConstants]:
+    """The readings and their constants repeated on ``rows`` rows, each row contiguous."""
+    shape = (rows, molality.size)
+
+    def tiled(array: np.ndarray) -> np.ndarray:
+        return np.broadcast_to(array, shape).copy()
+
+    return tiled(molality), DebyeHueckelConstants(tiled(constants.temperature),
+                                                  tiled(constants.aphi), tiled(constants.b))
+
+
+@functools.lru_cache(maxsize=64)
+def _tiled_at(molality: tuple[str, tuple[int, ...], bytes],
+              temperature: tuple[str, tuple[int, ...], bytes],
+              aphi: tuple[str, tuple[int, ...], bytes], b: tuple[str, tuple[int, ...], bytes],
+              rows: int) -> tuple[np.ndarray, DebyeHueckelConstants]:
+    """:func:`_tiled` of the packed arrays (:func:`_packed`), read only: worked out once for
+    the runs of a batch, which share their molalities and temperatures."""
+    tiled_m, tiled_c = _tiled(_unpacked(molality), DebyeHueckelConstants(
+        _unpacked(temperature), _unpacked(aphi), _unpacked(b)), rows)
+    for array in (tiled_m, tiled_c.temperature, tiled_c.aphi, tiled_c.b):
+        array.flags.writeable = False
+    return tiled_m, tiled_c
+
+
+def _sensitivities(model: ActivityModel, electrolyte: Electrolyte, tiled_m: np.ndarray,
+                   tiled_c: DebyeHueckelConstants, values: Mapping[str, float],
+                   free: tuple[str, ...]
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """:func:`model_sensitivities` of the readings tiled by :func:`_tiled`."""
+    steps = [1e-6 * max(1.0, abs(values[name])) for name in free]
+    shape = tiled_m.shape
+    rows = shape[0]
     columns = {name: np.full((rows, 1), values[name], dtype=float) for name in values}
     for k, (name, step) in enumerate(zip(free, steps, strict=True)):
         columns[name][1 + 2 * k, 0] = values[name] + step
         columns[name][2 + 2 * k, 0] = values[name] - step
-    shape = (rows, molality.size)
-
-    def tiled(array: np.ndarray) -> np.ndarray:  # the readings once per row, contiguous
-        return np.broadcast_to(array, shape).copy()
-
-    tiled_m = tiled(molality)
-    tiled_c = DebyeHueckelConstants(tiled(constants.temperature), tiled(constants.aphi),
-                                    tiled(constants.b))
-    out_phi = np.broadcast_to(np.asarray(
-        model.osmotic_coefficient(electrolyte, tiled_m, tiled_c, columns), dtype=float), shape)
-    out_ln = np.broadcast_to(np.asarray(
-        model.ln_gamma(electrolyte, tiled_m, tiled_c, columns), dtype=float), shape)
+    out_phi = _full(model.osmotic_coefficient(electrolyte, tiled_m, tiled_c, columns), shape)
+    out_ln = _full(model.ln_gamma(electrolyte, tiled_m, tiled_c, columns), shape)
     if not free:
-        empty = np.zeros((molality.size, 0))
+        empty = np.zeros((shape[1], 0))
         return out_phi[0].copy(), out_ln[0].copy(), empty, empty.copy()
     twice = 2.0 * np.array(steps)[:, None]
     d_phi = np.ascontiguousarray(((out_phi[1::2] - out_phi[2::2]) / twice).T)
     d_ln = np.ascontiguousarray(((out_ln[1::2] - out_ln[2::2]) / twice).T)
     return out_phi[0].copy(), out_ln[0].copy(), d_phi, d_ln
+
+
+def _full(values: Any, shape: tuple[int, int]) -> np.ndarray:
+    """A model's values as floats of ``shape`` (broadcast when the model gave fewer)."""
+    values = np.asarray(values, dtype=float)
+    return values if values.shape == shape else np.broadcast_to(values, shape)
 
 
 def derived_properties(reduction: Reduction) -> pd.DataFrame:
@@ -204,7 +252,12 @@ def _property_columns(reduction: Reduction) -> tuple[dict[str, np.ndarray], tupl
     a_w = water_activity(electrolyte, molality, phi)
     g_rt = excess_gibbs_energy_rt(electrolyte, molality, phi, ln_g)
 
-    cov = np.asarray(matrix, dtype=float)[np.ix_(keep, keep)]
+    cov = np.asarray(matrix, dtype=float)
+    first = keep[0] if keep else 0
+    if keep == list(range(first, first + len(keep))):  # a block: np.ix_'s copy, without it
+        cov = cov[first:first + len(keep), first:first + len(keep)].copy()
+    else:
+        cov = cov[np.ix_(keep, keep)]
     factor = electrolyte.nu * molality
 
     def u(gradient: np.ndarray) -> np.ndarray:
@@ -271,7 +324,7 @@ def _read_only(columns: dict[str, Any]) -> dict[str, Any]:
     """``columns`` with their numpy arrays made read-only (extension arrays as they are)."""
     for column in columns.values():
         if isinstance(column, np.ndarray):
-            column.flags.writeable = False
+            column.setflags(write=False)
     return columns
 
 
