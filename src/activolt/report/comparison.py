@@ -34,9 +34,11 @@ def aligned_lines(rows: list[list[str]], pad_last: bool = True) -> list[str]:
     ['  m       γ±', '  0.001   0.965']
     """
     widths = [max(map(len, column)) for column in zip(*rows, strict=True)]
-    template = "  " + "   ".join([f"{{:<{w}}}" for w in widths[:-1]]
-                                  + [f"{{:<{widths[-1]}}}" if pad_last else "{}"])
-    return [template.format(*cells).rstrip() for cells in rows]
+    # one %-template for every row (%-Ns pads a text to N characters, as {:<N} does, and
+    # is read faster than a str.format template)
+    template = "  " + "   ".join([f"%-{w}s" for w in widths[:-1]]
+                                  + [f"%-{widths[-1]}s" if pad_last else "%s"])
+    return [(template % tuple(cells)).rstrip() for cells in rows]
 
 
 def comparison_lines(comparison: pd.DataFrame | Mapping[str, Any] | None) -> list[str]:
