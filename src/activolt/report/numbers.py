@@ -101,6 +101,8 @@ def json_number(value: float | None) -> float | None:
 
 
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+#: The exponents format_scaled writes (−300 to 300), as superscripts.
+_EXPONENTS = {n: str(n).translate(_SUPERSCRIPT) for n in range(-300, 301)}
 
 
 def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str:
@@ -136,7 +138,7 @@ def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str
     scale = 10.0 ** exponent
     inner = rounding.format_with_uncertainty(value / scale, uncertainty / scale,
                                              significant=significant)
-    return f"({inner}) × 10{str(exponent).translate(_SUPERSCRIPT)}"
+    return f"({inner}) × 10{_EXPONENTS[exponent]}"
 
 
 def _exponent_notation(value: float, uncertainty: float, significant: int) -> str:
