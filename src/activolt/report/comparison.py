@@ -6,6 +6,7 @@ import math
 from collections.abc import Mapping
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from ..procedures.published import column_values, plain_values
@@ -50,7 +51,7 @@ def comparison_lines(comparison: pd.DataFrame | Mapping[str, Any] | None) -> lis
     the run's difference from the mean and that difference in units of the combined standard
     uncertainty u_c (see :func:`activolt.procedures.published.compare_with_published`).
     """
-    if comparison is None or pd.isna(column_values(comparison, "gamma_pm_published")).all():
+    if comparison is None or not _any_number(column_values(comparison, "gamma_pm_published")):
         return []
     published_values = plain_values(comparison, "published_values")
     sources = list(dict.fromkeys(
@@ -81,3 +82,10 @@ def comparison_lines(comparison: pd.DataFrame | Mapping[str, Any] | None) -> lis
     lines.append("  spread: largest − smallest of the tables' values (what the tables themselves "
                  "disagree by); u_c = √(u²(γ±) + (spread/2)² + (half the last printed digit)²)")
     return lines
+
+
+def _any_number(values: Any) -> bool:
+    """Whether a column holds a value that is not missing (NaN or None)."""
+    if isinstance(values, np.ndarray) and values.dtype.kind == "f":
+        return not np.isnan(values).all()
+    return not pd.isna(values).all()
