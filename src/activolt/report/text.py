@@ -17,7 +17,7 @@ from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import aligned_lines, comparison_lines
 from .model_table import format_model_comparison
-from .numbers import decimals_for, format_compact, format_with_uncertainty
+from .numbers import decimals_for, format_compact, format_molality, format_with_uncertainty
 
 
 def _e0_line(reduction: Reduction) -> str:
@@ -126,7 +126,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     columns = [plain_values(properties, name) for name in (
         "molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient", "water_activity",
         "u_water_activity", "excess_gibbs_rt_mol_kg", "u_excess_gibbs_rt_mol_kg")]
-    cells = [[f"{m:.6g}", format_with_uncertainty(phi, u_phi),
+    cells = [[format_molality(m), format_with_uncertainty(phi, u_phi),
               format_compact(1.0 - a_w, u_a_w), format_compact(g_rt, u_g_rt)]
              for m, phi, u_phi, a_w, u_a_w, g_rt, u_g_rt in zip(*columns, strict=True)]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
@@ -176,7 +176,7 @@ def _points_lines(table: dict[str, list[Any]]) -> list[str]:
             table["molality_mol_kg"], table["emf_V"], flags, diagnostic, table["residual_V"],
             table["gamma_pm"], table["u_gamma_pm"], *([electrode] if electrodes else []),
             strict=True):
-        cells = [f"{m:.6g}"]
+        cells = [format_molality(m)]
         if electrodes:
             cells.append(named[0] if isinstance(named[0], str) else "")
         cells.append(f"{emf * 1e3:.3f}" if _finite(emf) else "—")
