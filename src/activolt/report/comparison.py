@@ -105,5 +105,5 @@ def _published_cells(values: tuple[tuple[str, float, bool], ...], mean: float,
 def _any_number(values: Any) -> bool:
     """Whether a column holds a value that is not missing (NaN or None)."""
     if isinstance(values, np.ndarray) and values.dtype.kind == "f":
-        return not np.isnan(values).all()
+        return np.count_nonzero(~np.isnan(values)) > 0  # (a count sets up less than all())
     return not pd.isna(values).all()
