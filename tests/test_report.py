@@ -6,6 +6,7 @@ place (GUM, JCGM 100:2008, 7.2.6).
 
 from __future__ import annotations
 
+import math
 import re
 
 import pytest
@@ -18,8 +19,10 @@ from activolt.chemistry.electrolytes import parse_electrolyte
 from activolt.data.runs import read_run
 from activolt.procedures.dilution import reduce_run
 from activolt.report.cautions import ACID, HYDROGEN, MERCURY, cautions_for
-from activolt.report.numbers import format_with_uncertainty
+from activolt.report.comparison import aligned_lines
+from activolt.report.numbers import format_molality, format_with_uncertainty
 from activolt.report.text import format_report
+from activolt.rounding import decimals_for
 
 
 @pytest.mark.parametrize(("value", "u", "expected"), [
@@ -89,3 +92,27 @@ def test_scaled_numbers_are_never_longer_than_their_uncertainty_supports(value, 
         assert abs(written) <= 10.0 and written_u <= 10.0, text
         scale = 10.0 ** int(scaled[3].translate(_SUPERSCRIPT_DIGITS))
     assert abs(written * scale - value) <= 1.01 * written_u * scale + 1e-3 * abs(value), text
+
+
+@given(st.floats(allow_nan=True, allow_infinity=True))
+def test_remembered_molalities_are_written_as_six_significant_digits(m):
+    # twice: the second is remembered (a zero never is: 0.0 and -0.0 are equal keys)
+    assert format_molality(m) == format_molality(m) == f"{m:.6g}"
+
+
+def test_a_remembered_zero_keeps_its_sign():
+    assert [format_molality(m) for m in (0.0, -0.0, 0.0)] == ["0", "-0", "0"]
+
+
+@given(st.floats(allow_nan=True, allow_infinity=True), st.integers(1, 4))
+def test_decimals_follow_the_uncertainty_s_decade(u, significant):
+    expected = (6 if not math.isfinite(u) or u <= 0.0
+                else max(0, significant - 1 - math.floor(math.log10(u))))
+    assert decimals_for(u, significant) == expected
+
+
+def test_aligned_lines_pad_by_characters():
+    rows = [["m", "1 − a_w", "γ±"], ["0.001", "(3.56 ± 0.01) × 10⁻⁵", "0.965 ± 0.001"]]
+    assert aligned_lines(rows) == ["  m       1 − a_w                γ±",
+                                   "  0.001   (3.56 ± 0.01) × 10⁻⁵   0.965 ± 0.001"]
+    assert aligned_lines([["a", "b "], ["cc", "d"]], pad_last=False) == ["  a    b", "  cc   d"]

@@ -16,9 +16,10 @@ def decimals_for(uncertainty: float, significant: int = 2) -> int:
     >>> decimals_for(0.0123), decimals_for(4.5), decimals_for(250.0)
     (3, 1, 0)
     """
-    if not math.isfinite(uncertainty) or uncertainty <= 0.0:
-        return 6
-    return max(0, significant - 1 - math.floor(math.log10(uncertainty)))
+    if 0.0 < uncertainty < math.inf:  # (false for NaN)
+        places = significant - 1 - math.floor(math.log10(uncertainty))
+        return places if places > 0 else 0
+    return 6
 
 
 def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",

@@ -152,8 +152,24 @@ def point_names(reduction: Reduction) -> list[str]:
     """The column names of ``reduction.points`` in order — the run's, then the reduction's
     (:attr:`~activolt.procedures.dilution.Reduction.point_columns`) — without building the
     table."""
-    return [*reduction.run.points.columns.to_numpy(dtype=object).tolist(),
-            *reduction.point_columns]
+    return [*_names_of(reduction.run.points.columns), *reduction.point_columns]
+
+
+#: The last Index whose labels :func:`_names_of` read, with those labels (one pair, read and
+#: replaced whole).
+_last_names: list[tuple[Any, tuple[str, ...]]] = [(None, ())]
+
+
+def _names_of(columns: pd.Index) -> tuple[str, ...]:
+    """The labels of ``columns`` as plain text, remembered for the last Index read: the runs
+    of a table share their columns' Index (which cannot be changed), and reading the labels of
+    a text Index is slow. The Index is kept with its labels, so that no other Index can be
+    found at its address."""
+    index, names = _last_names[0]
+    if index is not columns:
+        names = tuple(columns.to_numpy(dtype=object).tolist())
+        _last_names[0] = (columns, names)
+    return names
 
 
 def point_values(reduction: Reduction, name: str) -> Any:

@@ -191,10 +191,16 @@ def _fields(rows: Sequence[tuple[str, str]]) -> str:
 
 def _table(header: Sequence[str], rows: Sequence[str], ident: str, long: bool = False) -> str:
     """A table with an escaped header; ``rows`` are ``<tr>`` HTML already."""
-    head = "".join(f"<th>{_text(h)}</th>" for h in header)
+    head = _header(tuple(header))
     kind = ' class="long"' if long else ""
     return (f'<table id="{ident}"{kind}><thead><tr>{head}</tr></thead><tbody>\n'
             + "\n".join(rows) + "\n</tbody></table>")
+
+
+@functools.lru_cache(maxsize=64)
+def _header(header: tuple[str, ...]) -> str:
+    """The escaped header cells of a table (the same few headers on every page)."""
+    return "".join(f"<th>{_text(h)}</th>" for h in header)
 
 
 def _list(items: Sequence[Any], ident: str) -> str:
@@ -419,11 +425,30 @@ def _plain_point(p: Mapping[str, Any], q_molality: str, q_emf: str, q_residual: 
     if not (type(line) is int and _finite_floats(m, emf, residual, gamma, u_gamma)):
         return None
     electrode = f"<td>{_text(get('electrode') or '')}</td>" if electrodes else ""
-    return (f'<tr><td>{line}</td><td class="num" data-value="{m!r}"{q_molality}>{m:.6g}</td>'
-            f'{electrode}<td class="num" data-value="{emf!r}"{q_emf}>{emf * 1e3:.3f}</td>'
+    return (f"<tr><td>{line}</td>{_shared_cell(m, '.6g', q_molality)}{electrode}"
+            f'<td class="num" data-value="{emf!r}"{q_emf}>{emf * 1e3:.3f}</td>'
             f'<td class="num" data-value="{residual!r}"{q_residual}>{residual * 1e3:+.4f}</td>'
             f'<td class="num" data-value="{gamma!r}"{q_gamma}>'
             f"{format_with_uncertainty(gamma, u_gamma)}</td><td></td></tr>")
+
+
+def _shared_cell(value: float, spec: str, quantity_attribute: str = "", suffix: str = ""
+                 ) -> str:
+    """The cell of a finite float that the pages of a batch often share (a molality, shown
+    in three tables of a page, and the published mean at it): its value in ``data-value``
+    (with the ``data-quantity`` attribute given), shown with the format ``spec``, then
+    ``suffix``; remembered for non-zero values. Zeros are written each time (0.0 and -0.0 are
+    equal as keys, not as text)."""
+    if value:
+        return _remembered_cell(value, spec, quantity_attribute, suffix)
+    return (f'<td class="num" data-value="{value!r}"{quantity_attribute}>'
+            f"{value:{spec}}{suffix}</td>")
+
+
+@functools.lru_cache(maxsize=2048)
+def _remembered_cell(value: float, spec: str, quantity_attribute: str, suffix: str) -> str:
+    return (f'<td class="num" data-value="{value!r}"{quantity_attribute}>'
+            f"{value:{spec}}{suffix}</td>")
 
 
 def _published(record: Mapping[str, Any]) -> str:
@@ -450,11 +475,9 @@ def _published(record: Mapping[str, Any]) -> str:
         difference, ratio = r.get("difference"), r.get("difference_over_u")
         if _finite_floats(m, mean, difference, ratio):
             rows.append(
-                f'<tr><td class="num" data-value="{m!r}">{m:.6g}</td>'
-                f"<td>{_shown(' '.join(marks))}</td>"
-                f'<td class="num" data-value="{mean!r}"{q_mean}>{mean:.4f}'
-                f'{"i" if r.get("interpolated") else ""}</td>'
-                f'<td class="num" data-value="{difference!r}"{q_difference}>'
+                f"<tr>{_shared_cell(m, '.6g')}<td>{_shown(' '.join(marks))}</td>"
+                + _shared_cell(mean, ".4f", q_mean, "i" if r.get("interpolated") else "")
+                + f'<td class="num" data-value="{difference!r}"{q_difference}>'
                 f"{difference:+.5f}</td>"
                 f'<td class="num" data-value="{ratio!r}"{q_ratio}>{ratio:+.1f}</td></tr>')
             continue
@@ -496,8 +519,7 @@ def _derived(record: Mapping[str, Any]) -> str:
         if (_finite_floats(m, phi, u_phi, a_w, u_a_w, excess, u_excess)
                 and (1.0 - a_w) - (1.0 - a_w) == 0.0):
             rows.append(
-                f'<tr><td class="num" data-value="{m!r}">{m:.6g}</td>'
-                f'<td class="num" data-value="{phi!r}"{q_phi}>'
+                f'<tr>{_shared_cell(m, ".6g")}<td class="num" data-value="{phi!r}"{q_phi}>'
                 f"{format_with_uncertainty(phi, u_phi)}</td>"
                 f'<td class="num" data-value="{a_w!r}"{q_a_w}>'
                 f"{format_compact(1.0 - a_w, u_a_w)}</td>"

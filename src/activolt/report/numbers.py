@@ -12,8 +12,9 @@ from typing import Any
 from .. import rounding
 from ..rounding import decimals_for
 
-__all__ = ["decimals_for", "format_compact", "format_scaled", "format_with_uncertainty",
-           "frame_columns", "frame_records", "json_number", "json_numbers"]
+__all__ = ["decimals_for", "format_compact", "format_molality", "format_scaled",
+           "format_with_uncertainty", "frame_columns", "frame_records", "json_number",
+           "json_numbers"]
 
 
 def frame_records(frame: Any) -> list[dict[str, Any]]:
@@ -101,6 +102,8 @@ def json_number(value: float | None) -> float | None:
 
 
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+#: The exponents format_scaled writes (−300 to 300), as superscripts.
+_EXPONENTS = {n: str(n).translate(_SUPERSCRIPT) for n in range(-300, 301)}
 
 
 def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str:
@@ -136,7 +139,7 @@ def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str
     scale = 10.0 ** exponent
     inner = rounding.format_with_uncertainty(value / scale, uncertainty / scale,
                                              significant=significant)
-    return f"({inner}) × 10{str(exponent).translate(_SUPERSCRIPT)}"
+    return f"({inner}) × 10{_EXPONENTS[exponent]}"
 
 
 def _exponent_notation(value: float, uncertainty: float, significant: int) -> str:
@@ -195,3 +198,23 @@ def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
 
 _remembered = functools.lru_cache(maxsize=4096)(rounding.format_with_uncertainty)
 _remembered_compact = functools.lru_cache(maxsize=4096)(_compact)
+
+
+def format_molality(molality: float) -> str:
+    """A molality as the reports write it, to six significant digits (``f"{m:.6g}"``),
+    remembered for the last thousand non-zero floats: the tables of a report show each
+    molality several times, and the series of a batch often share theirs.
+
+    Examples
+    --------
+    >>> format_molality(0.0015587755), format_molality(0.5)
+    ('0.00155878', '0.5')
+    """
+    if type(molality) is float and molality:
+        return _remembered_molality(molality)
+    return f"{molality:.6g}"
+
+
+@functools.lru_cache(maxsize=1024)
+def _remembered_molality(molality: float) -> str:
+    return f"{molality:.6g}"

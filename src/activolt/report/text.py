@@ -17,7 +17,7 @@ from ..safe_text import escape_controls
 from .cautions import cautions_for
 from .comparison import aligned_lines, comparison_lines
 from .model_table import format_model_comparison
-from .numbers import decimals_for, format_compact, format_with_uncertainty
+from .numbers import decimals_for, format_compact, format_molality, format_with_uncertainty
 
 
 def _e0_line(reduction: Reduction) -> str:
@@ -59,6 +59,13 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     run, stats, meta = reduction.run, reduction.statistics, reduction.run.metadata
     t_C = reduction.temperature_K - 273.15
     names = point_names(reduction)
+    # u(γ±) of each input at each reading, for the budget of γ±
+    budget_columns = [c for c in names if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
+    # the columns of the points that the report shows, each read once, as plain values,
+    # without building the points table
+    points = point_lists(reduction, [name for name in (
+        "flag", "electrode", "diagnostic", "molality_mol_kg", "emf_V", "residual_V", "gamma_pm",
+        "u_gamma_pm", "line") if name in names] + budget_columns)
     lines = [
         f"activolt reduction of {run.path.name}"
         + (f", series '{series}'" if (series := _series(run.points)) is not None else ""),
@@ -109,7 +116,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
                                       cross.u_standard_potential_V * 1e3, "mV")
             + f" ({difference * 1e3:+.3f} mV from the fit)"
         )
-    lines += _points_lines(reduction, names)
+    lines += _points_lines(points)
     derived = derived or derive_results(reduction)
     lines += comparison_lines(derived.published_columns)
 
@@ -119,7 +126,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     columns = [plain_values(properties, name) for name in (
         "molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient", "water_activity",
         "u_water_activity", "excess_gibbs_rt_mol_kg", "u_excess_gibbs_rt_mol_kg")]
-    cells = [[f"{m:.6g}", format_with_uncertainty(phi, u_phi),
+    cells = [[format_molality(m), format_with_uncertainty(phi, u_phi),
               format_compact(1.0 - a_w, u_a_w), format_compact(g_rt, u_g_rt)]
              for m, phi, u_phi, a_w, u_a_w, g_rt, u_g_rt in zip(*columns, strict=True)]
     header = ["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"]
@@ -131,7 +138,7 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
             lines.append(f"  {b.component:<{width}}  {b.u_V * 1e3:8.4f} mV   {b.method}")
         lines.append(f"  {'combined':<{width}}  {reduction.standard_potential.std_dev * 1e3:8.4f}"
                      " mV")
-    lines += _gamma_budget_lines(reduction, names)
+    lines += _gamma_budget_lines(reduction, points, budget_columns)
     if reduction.corrections:
         lines += [""] + [f"  correction: {c}" for c in reduction.corrections]
     if reduction.notes:
@@ -153,14 +160,11 @@ def format_report(reduction: Reduction, comparison: ModelComparison | None = Non
     return escape_controls(text, keep="\n")
 
 
-def _points_lines(reduction: Reduction, names: list[str]) -> list[str]:
+def _points_lines(table: dict[str, list[Any]]) -> list[str]:
     """The readings: molality, electrode (when the run names them), E, residual, γ± (u);
     a flagged reading keeps its value and says why it is out of the fit; readings left out
-    with --exclude are counted per reason. Each column of the points (``names``) is read once,
-    as plain values, without building the points table."""
-    table = point_lists(reduction, [name for name in (
-        "flag", "electrode", "diagnostic", "molality_mol_kg", "emf_V", "residual_V", "gamma_pm",
-        "u_gamma_pm", "line") if name in names])
+    with --exclude are counted per reason (``table``: the points' columns as plain values,
+    ``electrode``, ``diagnostic`` and ``line`` where the points have them)."""
     flags = table["flag"]
     electrode = table.get("electrode", [])
     electrodes = any(isinstance(e, str) and e.strip() for e in electrode)
@@ -172,7 +176,7 @@ def _points_lines(reduction: Reduction, names: list[str]) -> list[str]:
             table["molality_mol_kg"], table["emf_V"], flags, diagnostic, table["residual_V"],
             table["gamma_pm"], table["u_gamma_pm"], *([electrode] if electrodes else []),
             strict=True):
-        cells = [f"{m:.6g}"]
+        cells = [format_molality(m)]
         if electrodes:
             cells.append(named[0] if isinstance(named[0], str) else "")
         cells.append(f"{emf * 1e3:.3f}" if _finite(emf) else "—")
@@ -225,17 +229,17 @@ def _series(points: object) -> str | None:
     return names.pop() if len(names) == 1 else None
 
 
-def _gamma_budget_lines(reduction: Reduction, names: list[str]) -> list[str]:
+def _gamma_budget_lines(reduction: Reduction, table: dict[str, list[Any]],
+                        columns: list[str]) -> list[str]:
     """u(γ±) by input at the most dilute, a middle and the most concentrated reading
-    (``names``: the columns of the points, read without building the table)."""
+    (``table``: the points' columns as plain values, ``molality_mol_kg``, ``u_gamma_pm`` and
+    the inputs' ``columns`` at least)."""
     gamma = point_values(reduction, "gamma_pm")
     plain_float = isinstance(gamma, np.ndarray) and gamma.dtype.kind == "f"
     with_gamma = np.flatnonzero(~np.isnan(gamma) if plain_float else pd.notna(gamma))
-    columns = [c for c in names if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
     if not with_gamma.size or not columns:
         return []
     chosen = [int(with_gamma[i]) for i in sorted({0, with_gamma.size // 2, with_gamma.size - 1})]
-    table = point_lists(reduction, ["molality_mol_kg", "u_gamma_pm", *columns])
     molality = table["molality_mol_kg"]
     u_gamma = table["u_gamma_pm"]
     each = [table[c] for c in columns]
