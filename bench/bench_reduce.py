@@ -264,11 +264,23 @@ def write_many_series(folder: Path, n_series: int, seed: int = 11) -> Path:
 
 
 def many_series_s(folder: Path, n_series: int) -> float:
-    """Wall time of ``activolt reduce many.csv --figures none`` on ``n_series`` series [s]."""
+    """Wall time of ``activolt reduce many.csv --figures none`` on ``n_series`` series [s].
+
+    Exit status 1 is accepted: among thousands of noisy series the lack-of-fit test refuses an
+    occasional one at its stated false-alarm rate (its reason in the summary); every other
+    series must have its record."""
     activolt = str(Path(sys.executable).with_name("activolt"))
     table = write_many_series(folder, n_series)
-    return _timed([activolt, "reduce", str(table), "--out", str(folder / "out"),
-                   "--figures", "none"])
+    start = time.perf_counter()
+    done = subprocess.run([activolt, "reduce", str(table), "--out", str(folder / "out"),
+                           "--figures", "none"], stdout=subprocess.DEVNULL,
+                          stderr=subprocess.PIPE, text=True)
+    seconds = time.perf_counter() - start
+    refused = done.stderr.count("not reduced")
+    assert done.returncode in (0, 1) and refused <= max(1, n_series // 100), done.stderr[-2000:]
+    records = len(list((folder / "out").glob("*.record.json")))
+    assert records == n_series - refused, f"{records} records for {n_series} series"
+    return seconds
 
 
 @pytest.mark.bench

@@ -236,10 +236,12 @@ def write_file(path: Path, data: bytes, mode: int) -> None:
 _FCHMOD = getattr(os, "fchmod", None)
 
 
-def _flush_to_disk(paths: Sequence[Path], folder: Path | None = None) -> None:
+def _flush_to_disk(paths: Sequence[Path] | Callable[[], Sequence[Path]],
+                   folder: Path | None = None) -> None:
     """Make written files durable before they are renamed into place: one ``syncfs`` of the
     file system holding ``folder`` on Linux (all of a staged folder's files at once), else an
-    ``fsync`` of each file (and of ``folder``'s own entry)."""
+    ``fsync`` of each file (and of ``folder``'s own entry). ``paths`` may be a function that
+    lists them, called only when they are synced one by one."""
     if folder is not None and sys.platform.startswith("linux"):
         try:
             syncfs = ctypes.CDLL(None, use_errno=True).syncfs
@@ -252,7 +254,7 @@ def _flush_to_disk(paths: Sequence[Path], folder: Path | None = None) -> None:
                     return
             finally:
                 os.close(handle)
-    for path in paths:
+    for path in paths() if callable(paths) else paths:
         handle = os.open(path, os.O_RDONLY)
         try:
             os.fsync(handle)
@@ -501,8 +503,8 @@ class OutputTransaction:
 
     def seal_folder(self, new: Path) -> None:
         """Make the staged folder's files durable and give it the output folder's mode."""
-        _flush_to_disk([Path(entry.path) for entry in os.scandir(new)
-                        if entry.is_file(follow_symlinks=False)], new)
+        _flush_to_disk(lambda: [Path(entry.path) for entry in os.scandir(new)
+                                if entry.is_file(follow_symlinks=False)], new)
         os.chmod(new, self.folder_modes[new])
         _fsync_folder(new)
 
