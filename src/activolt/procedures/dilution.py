@@ -977,22 +977,22 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
                 staged.append((start, judged, _covariance_components(judged, start)))
             except (FitError, InputError) as error:
                 staged.append(error)
-    judged_fits = [stage[1] for stage in staged
-                   if isinstance(stage, tuple) and _diagnosable(stage[1].data, stage[1].fit)]
-    diagnosed = dict(zip(map(id, judged_fits), point_diagnostics_of_many(
-        [judged.fit.jacobian for judged in judged_fits],
-        [judged.data.weights for judged in judged_fits],
-        [judged.fit.residual_V for judged in judged_fits],
-        [not judged.data.stated_uncertainty for judged in judged_fits]), strict=True))
+    judged_fits = {k: stage[1] for k, stage in enumerate(staged)
+                   if isinstance(stage, tuple) and _diagnosable(stage[1].data, stage[1].fit)}
+    diagnosed = dict(zip(judged_fits, point_diagnostics_of_many(
+        [judged.fit.jacobian for judged in judged_fits.values()],
+        [judged.data.weights for judged in judged_fits.values()],
+        [judged.fit.residual_V for judged in judged_fits.values()],
+        [not judged.data.stated_uncertainty for judged in judged_fits.values()]), strict=True))
     results: list[Reduction | FitError | InputError] = []
-    for stage in staged:
+    for k, stage in enumerate(staged):
         if not isinstance(stage, tuple):
             results.append(stage)
             continue
         start, judged, parts = stage
         try:
             results.append(_assemble(start, judged, parts, remind_model_choice,
-                                     diagnosed.get(id(judged))))
+                                     diagnosed.get(k)))
         except (FitError, InputError) as error:
             results.append(error)
     # The straight-line cross-checks of all of them together, kept as each reduction's own
