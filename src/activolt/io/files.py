@@ -212,24 +212,26 @@ def _fsync_folder(folder: Path) -> None:
             os.close(handle)
 
 
-def write_file(path: Path, data: bytes, mode: int) -> None:
-    """Write ``data`` to a new file ``path`` (never an existing one) with permission ``mode``.
+def write_file(path: Path, data: bytes, mode: int | None) -> None:
+    """Write ``data`` to a new file ``path`` (never an existing one) with permission ``mode``;
+    None: a new file's, 0o666 less the umask, set by the creation itself (in a staged folder,
+    which only its owner can enter until it is committed).
 
     The data reach the disk when the set is committed (:func:`_flush_to_disk`), once for all
     its files rather than once per file: a set of ten thousand series writes tens of
     thousands of files.
     """
     handle = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0),
-                     0o600)
+                     0o600 if mode is not None else 0o666)
     try:
         view = memoryview(data)
         while view:
             view = view[os.write(handle, view):]
-        if _FCHMOD is not None:  # through the open file: no second look-up of the path
+        if mode is not None and _FCHMOD is not None:  # through the open file: no look-up
             _FCHMOD(handle, mode)
     finally:
         os.close(handle)
-    if _FCHMOD is None:
+    if mode is not None and _FCHMOD is None:
         os.chmod(path, mode)
 
 
@@ -450,18 +452,16 @@ class StagedFolder:
     path : pathlib.Path
         The staged folder (``.NAME.activolt-PID-TOKEN.new`` beside the output folder).
     modes : mapping of str to int
-        Permission bits of the files of the set that the new ones replace, by name.
-    mode : int
-        Permission bits of a new file (0o666 less the umask).
+        Permission bits of the files of the set that the new ones replace, by name (a new
+        file has 0o666 less the umask).
     """
 
     path: Path
     modes: Mapping[str, int]
-    mode: int
 
     def write(self, name: str, content: bytes | str) -> None:
         """Write one file of the set (text as UTF-8); it appears when the set is committed."""
-        write_file(self.path / name, _data(content), self.modes.get(name, self.mode))
+        write_file(self.path / name, _data(content), self.modes.get(name))
 
 
 class OutputTransaction:
@@ -499,7 +499,7 @@ class OutputTransaction:
                 except OSError:
                     shutil.copy2(entry.path, new / entry.name, follow_symlinks=False)
         self.folder_modes[new] = folder_mode
-        return StagedFolder(new, modes, self.file_mode)
+        return StagedFolder(new, modes)
 
     def seal_folder(self, new: Path) -> None:
         """Make the staged folder's files durable and give it the output folder's mode."""
