@@ -31,6 +31,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from activolt.data.runs import Exclusion, exclude_points, read_run
+from activolt.io.json_layout import json_texts
 from activolt.io.record import build_record, json_text, record_json
 from activolt.procedures.dilution import OUT_OF_RANGE, reduce_run
 from activolt.procedures.many import series_reducer
@@ -106,6 +107,71 @@ def test_json_text_layout():
         "  }",
         "}",
     ]
+
+
+# --- json_texts: several documents, their tables written column by column --------------------
+
+#: Floats of every kind the two spellings could differ on: both sides of 10⁻⁴ and 10⁹ (where
+#: Arrow's shortest formatting places the exponent unlike ``repr``), integral values (``1.0``),
+#: signed zeros, the extremes, and random bit patterns.
+_FLOATS = (st.floats(allow_nan=False, allow_infinity=False)
+           | st.floats(min_value=1e-6, max_value=1e-2) | st.floats(min_value=1e7, max_value=1e11)
+           | st.integers(-10**6, 10**6).map(float) | st.sampled_from(
+               [0.0, -0.0, 1e-4, -1e-4, 9.999999999999999e-05, 1e9, 999999999.9999999,
+                5e-324, 1.7976931348623157e308, 0.1, 2 / 3]))
+_CELLS = (_FLOATS | st.none() | st.booleans() | st.integers(-10**20, 10**20)
+          | st.text(max_size=6) | st.dictionaries(st.text(max_size=3), _FLOATS, max_size=2))
+
+
+@st.composite
+def _tables(draw):
+    """A list of rows sharing their keys; each column of one kind (floats with gaps, or any
+    cell), as a record's tables are; long enough, often, to be written by Arrow."""
+    keys = draw(st.lists(st.text(max_size=4) | st.sampled_from(["%s", "a%%", 'q"']),
+                         max_size=5, unique=True))
+    size = draw(st.sampled_from([0, 1, 3, 60, 130]))
+    columns = [draw(st.lists(draw(st.sampled_from([_FLOATS | st.none(), _FLOATS, _CELLS])),
+                             min_size=size, max_size=size)) for _ in keys]
+    return [dict(zip(keys, row, strict=True)) for row in zip(*columns, strict=True)] if keys \
+        else [{} for _ in range(size)]
+
+
+_TABLE_DOCUMENTS = st.lists(st.fixed_dictionaries(
+    {"n": _CELLS, "rows": _tables(), "more": st.fixed_dictionaries({"rows": _tables()})}),
+    min_size=1, max_size=4)
+
+
+@settings(max_examples=120, deadline=None)
+@given(_TABLE_DOCUMENTS)
+def test_json_texts_writes_each_document_as_json_text(documents):
+    assert json_texts(documents) == [json_text(document) for document in documents]
+
+
+def test_json_texts_floats_as_repr_writes_them():
+    # 20 000 random doubles in one column, across the magnitudes a record holds and beyond
+    # (reference: the standard library's encoder, which writes ``float.__repr__``)
+    rng = np.random.default_rng(9)
+    values = np.concatenate([rng.normal(size=10_000) * 10.0 ** rng.uniform(-12, 14, 10_000),
+                             rng.integers(0, 2**63, 10_000, dtype=np.uint64).view(np.float64)])
+    values = values[np.isfinite(values)].tolist()
+    document = {"rows": [{"x": x, "y": None if k % 7 == 0 else x} for k, x in enumerate(values)]}
+    (written,) = json_texts([document])
+    assert written == json_text(document)
+    assert [row["x"] for row in json.loads(written)["rows"]] == values
+
+
+@pytest.mark.parametrize("bad, error", [
+    ([{"x": 0.5}] * 99 + [{"x": float("nan")}], ValueError),
+    ([{"x": 0.5}] * 99 + [{"x": -float("inf")}], ValueError),
+    ([{"x": 0.5}] * 3 + [{"x": float("inf")}], ValueError),
+    ([{"x": {1, 2}}] * 60, TypeError),
+    ([{(1, 2): 1.0}] * 60, TypeError),
+])
+def test_json_texts_refuses_what_json_dumps_refuses(bad, error):
+    with pytest.raises(error):
+        json.dumps({"rows": bad}, allow_nan=False)
+    with pytest.raises(error):
+        json_texts([{"rows": bad}])
 
 
 # --- the record's tables, built column by column -------------------------------------------

@@ -490,10 +490,19 @@ class _SeriesJob:
     def __call__(self, indices: Sequence[int], staged: StagedFolder
                  ) -> Iterator[tuple[int, _SeriesDone]]:
         """Reduce the series ``indices`` together and write each one's outputs into
-        ``staged``, yielding (index, result) as each is written."""
+        ``staged``, yielding (index, result) as each is written. The chunk's records are
+        written to text together (:func:`~activolt.io.json_layout.json_texts`)."""
+        from .io.json_layout import json_texts
+
         outcomes = self.reducer.batch([self.runs[index] for index in indices])
-        for index, outcome in zip(indices, outcomes, strict=True):
-            yield index, self._written(index, outcome, staged)
+        made = [self._made(index, outcome) for index, outcome in zip(indices, outcomes,
+                                                                     strict=True)]
+        texts = iter(json_texts([outputs.document for _done, outputs in made
+                                 if outputs is not None]))
+        for index, (done, outputs) in zip(indices, made, strict=True):
+            if outputs is not None:
+                outputs.write(next(texts), staged)
+            yield index, done
 
     def _input_entry(self, run: Run) -> dict[str, Any]:
         """The records' ``input`` of ``run``'s table, resolved and hashed once for every
@@ -506,10 +515,11 @@ class _SeriesJob:
             entry = self.inputs[key] = input_record(run, self.out)
         return entry
 
-    def _written(self, index: int, outcome: SeriesReduction, staged: StagedFolder
-                 ) -> _SeriesDone:
-        """Series ``index``'s outputs written into ``staged``."""
-        from .io.record import points_csv, written_record
+    def _made(self, index: int, outcome: SeriesReduction
+              ) -> tuple[_SeriesDone, _SeriesOutputs | None]:
+        """Series ``index``'s result, and its outputs but for the record's text (None when the
+        series was not reduced)."""
+        from .io.record import build_record, points_csv
         from .procedures.many import summary_row
         from .procedures.properties import derive_results
         from .report.text import format_report
@@ -523,7 +533,7 @@ class _SeriesJob:
             return _SeriesDone(row, f"{label}: not reduced — {outcome.failure}", (
                 f"activolt: {outcome.run.path}"
                 + (f", series '{outcome.series}'" if outcome.series else "")
-                + f": not reduced: {outcome.failure}"), ())
+                + f": not reduced: {outcome.failure}"), ()), None
         monte = None
         if self.trials is not None:
             from .procedures.montecarlo import monte_carlo
@@ -535,14 +545,13 @@ class _SeriesJob:
         derived = derive_results(reduction)  # once, for the report and the record alike
         report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
                                derived=derived)
-        written_as = written_record(reduction, comparison=outcome.comparison,
-                                    monte_carlo=monte, record_folder=self.out, derived=derived,
-                                    input_entry=self._input_entry(reduction.run))
-        record = written_as.text.encode("utf-8")  # written, and named by its hash, as bytes
+        document = build_record(reduction, comparison=outcome.comparison, monte_carlo=monte,
+                                record_folder=self.out, derived=derived,
+                                input_entry=self._input_entry(reduction.run))
         # format_report escapes user text itself (its text is printable but for line breaks),
         # so the report is written as it comes rather than escaped a second time
         contents: dict[str, str | bytes] = {
-            f"{base}.record.json": record, f"{base}.points.csv": points_csv(reduction),
+            f"{base}.points.csv": points_csv(reduction),
             f"{base}.report.txt": report if report.endswith("\n") else report + "\n"}
         drawn: dict[str, bytes] = {}
         if self.figures == "all":
@@ -550,14 +559,33 @@ class _SeriesJob:
 
             drawn = render_figures(reduction)
             contents.update({f"{base}.{kind}.png": png for kind, png in drawn.items()})
-        contents[f"{base}.report.html"] = _html_report(record, drawn, f"{base}.record.json",
-                                                       written_as.document)
-        for name, content in contents.items():
-            staged.write(name, content)
         e0 = reduction.standard_potential
+        names = (f"{base}.record.json", *contents, f"{base}.report.html")
         return _SeriesDone(row, (f"{label}: E° = {e0.nominal_value * 1e3:.4f} ± "
                                  f"{e0.std_dev * 1e3:.4f} mV (k = 1, {reduction.model.name})"),
-                           None, tuple(contents))
+                           None, names), _SeriesOutputs(base, document, contents, drawn)
+
+
+@dataclass(frozen=True)
+class _SeriesOutputs:
+    """A reduced series' outputs before its record is written to text: the record, the files
+    as they are written (points table, text report, figures) and the figures by kind."""
+
+    base: str
+    document: dict[str, Any]
+    contents: dict[str, str | bytes]
+    figures: dict[str, bytes]
+
+    def write(self, record_text: str, staged: StagedFolder) -> None:
+        """Write the record (``record_text``: its JSON text), the other outputs and the HTML
+        report, made from the record as written and the figures, into ``staged``."""
+        record = record_text.encode("utf-8")  # written, and named by its hash, as bytes
+        name = f"{self.base}.record.json"
+        staged.write(name, record)
+        for file_name, content in self.contents.items():
+            staged.write(file_name, content)
+        staged.write(f"{self.base}.report.html",
+                     _html_report(record, self.figures, name, self.document))
 
 
 @dataclass(frozen=True)

@@ -46,6 +46,7 @@ from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
 from ..report.numbers import json_number, json_numbers
 from ..safe_text import neutralise_formula
+from .json_layout import json_text
 
 RECORD_SCHEMA = "activolt-record/1"
 #: ``record_kind`` of the record of a calibrated batch of reference electrodes.
@@ -98,120 +99,6 @@ def _run_part(run: Any, record_folder: Path | None) -> dict[str, Any]:
 def _with_u(value: Any, method: str) -> dict[str, Any]:
     return {"value": json_number(value.nominal_value), "uncertainty": json_number(value.std_dev),
             "method": method}
-
-
-def _not_json(value: Any) -> Any:
-    """What ``json.JSONEncoder.default`` does: refuse a value JSON cannot hold."""
-    raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
-
-
-def _chunk_encoder() -> Any:
-    """The pieces of ``json.dumps(value, ensure_ascii=False, allow_nan=False)`` (one line,
-    ``", "`` and ``": "`` between members): the standard library's C encoder made once, else
-    the encoder itself."""
-    from json.encoder import c_make_encoder, encode_basestring
-
-    encode = json.JSONEncoder(ensure_ascii=False, allow_nan=False).encode
-    try:
-        # the arguments JSONEncoder.iterencode gives it (no check for circular references:
-        # a record is a tree)
-        return c_make_encoder(None, _not_json, encode_basestring, None, ": ", ", ", False,
-                              False, False)
-    except TypeError:  # no C encoder (None), or one that takes other arguments
-        return lambda value, _level: (encode(value),)
-
-
-_CHUNKS = _chunk_encoder()
-_ENCODE_TEXT = json.encoder.encode_basestring  # a string as JSON, UTF-8 kept (C when built)
-_CONTAINERS = (dict, list, tuple)
-
-
-def _one_line(value: Any) -> str:
-    """``value`` as JSON on one line."""
-    return "".join(_CHUNKS(value, 0))
-
-
-def json_text(document: Any) -> str:
-    r"""A record as its file's text — one format for every record kind, whose bytes the archive
-    and the HTML report name by their SHA-256.
-
-    The text is JSON (UTF-8 characters as they are, ``ensure_ascii=False``) laid out for
-    reading: an object or an array holding no object or array is written on one line, and so
-    is every object inside an array (a row of a table: a reading, a model, an electrode);
-    every other object or array is indented by two spaces, one member a line. A final newline
-    ends the text. ``json.loads`` of it gives what ``json.dumps(document)`` would.
-
-    Raises
-    ------
-    ValueError
-        A non-finite number.
-    TypeError
-        A value JSON cannot hold.
-
-    Examples
-    --------
-    >>> print(json_text({"a": [1, 2.5, None], "b": {}, "c": "γ±",
-    ...                  "rows": [{"m": 0.1, "u": {"x": 1}}, {"m": 0.2, "u": {}}],
-    ...                  "d": {"e": [[1, 0], [0, 1]]}}), end="")
-    {
-      "a": [1, 2.5, null],
-      "b": {},
-      "c": "γ±",
-      "rows": [
-        {"m": 0.1, "u": {"x": 1}},
-        {"m": 0.2, "u": {}}
-      ],
-      "d": {
-        "e": [
-          [1, 0],
-          [0, 1]
-        ]
-      }
-    }
-    """
-    pieces: list[str] = []
-    _lay_out(document, "\n", pieces)
-    pieces.append("\n")
-    return "".join(pieces)
-
-
-def _lay_out(value: Any, newline: str, pieces: list[str]) -> None:
-    """Append ``value`` as :func:`json_text` lays it out to ``pieces``, ``newline`` being the
-    line break and the indentation of the line it starts on."""
-    if isinstance(value, dict):
-        if not any(isinstance(v, _CONTAINERS) for v in value.values()):
-            pieces += _CHUNKS(value, 0)
-            return
-        inner = newline + "  "
-        opening = "{" + inner
-        for key, member in value.items():
-            pieces += (opening, _key(key), ": ")
-            _lay_out(member, inner, pieces)
-            opening = "," + inner
-        pieces.append(newline + "}")
-    elif isinstance(value, (list, tuple)):
-        if not any(isinstance(v, _CONTAINERS) for v in value):
-            pieces += _CHUNKS(value, 0)
-            return
-        inner = newline + "  "
-        opening = "[" + inner
-        for member in value:
-            pieces.append(opening)
-            if isinstance(member, dict):
-                pieces += _CHUNKS(member, 0)
-            else:
-                _lay_out(member, inner, pieces)
-            opening = "," + inner
-        pieces.append(newline + "]")
-    else:
-        pieces += _CHUNKS(value, 0)
-
-
-def _key(key: Any) -> str:
-    """An object's key as JSON writes it (a number, true, false or null as a string)."""
-    if type(key) is str:
-        return _ENCODE_TEXT(key)
-    return _one_line({key: 0})[1:-4]  # the key of {key: 0} as the encoder converts it
 
 
 def record_schema() -> dict[str, Any]:
