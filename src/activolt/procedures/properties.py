@@ -9,7 +9,7 @@ propagated to each quantity by numerical gradients (GUM, JCGM 100:2008, 5.2).
 from __future__ import annotations
 
 import functools
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -22,9 +22,10 @@ from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
-from .published import column_values, published_columns, table_of
+from .published import column_values, published_columns_of_many, table_of
 
-__all__ = ["DerivedResults", "derive_results", "derived_properties", "model_sensitivities"]
+__all__ = ["DerivedResults", "derive_results", "derive_results_of_many", "derived_properties",
+           "model_sensitivities"]
 
 #: The columns of :func:`derived_properties`, in order.
 _PROPERTY_COLUMNS = pd.Index([
@@ -222,59 +223,35 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     >>> round(float(props["osmotic_coefficient"].iloc[-1]), 2)
     0.94
     """
-    columns, notes = _property_columns(reduction)
-    frame = table_of(_PROPERTY_COLUMNS, list(columns.values()))
-    frame.attrs["notes"] = list(notes)
-    return frame
+    return derive_results(reduction).properties
 
 
-def _property_columns(reduction: Reduction) -> tuple[dict[str, np.ndarray], tuple[str, ...]]:
-    """The columns of :func:`derived_properties` by name, in order (each a new array), and the
-    notes on them, without building the table."""
+@dataclass(frozen=True)
+class _Inputs:
+    """What :func:`_property_columns_of_many` reads from one reduction."""
+
+    lines: np.ndarray
+    molality: np.ndarray
+    temperature: np.ndarray
+    values: tuple[float, ...]
+    matrix: np.ndarray
+    notes: tuple[str, ...]
+
+
+def _inputs_of(reduction: Reduction) -> tuple[tuple[Any, ...], _Inputs]:
+    """The group of a reduction (the reductions evaluated together: same model, electrolyte,
+    parameters, uncertain parameters and number of usable readings) and its own inputs."""
     run = reduction.run
     usable = run.usable  # the rows of usable_points(run), read from the run's arrays
     lines = np.asarray(column_values(run.points, "line"))[usable]
-    electrolyte = reduction.electrolyte
-    model = reduction.model
     molality = run.arrays["molality_mol_kg"][usable]
     temperature = run.arrays["temperature_K"][usable]
-    constants = (_constants_at(np.ascontiguousarray(temperature, dtype=float).tobytes())
-                 if temperature.size <= _KEPT_READINGS else debye_hueckel_constants(temperature))
+    model = reduction.model
     values = reduction.model_parameter_values
     names = reduction.uncertain_names or reduction.free_names
     matrix = (reduction.covariance if reduction.uncertain_covariance is None
               else reduction.uncertain_covariance)
-    keep = [i for i, name in enumerate(names) if name in values]
-    free = tuple(names[i] for i in keep)
-
-    phi, ln_g, d_phi, d_ln = model_sensitivities(model, electrolyte, molality, constants,
-                                                 values, free)
-    a_w = water_activity(electrolyte, molality, phi)
-    g_rt = excess_gibbs_energy_rt(electrolyte, molality, phi, ln_g)
-
-    cov = np.asarray(matrix, dtype=float)
-    first = keep[0] if keep else 0
-    if keep == list(range(first, first + len(keep))):  # a block: np.ix_'s copy, without it
-        cov = cov[first:first + len(keep), first:first + len(keep)].copy()
-    else:
-        cov = cov[np.ix_(keep, keep)]
-    factor = electrolyte.nu * molality
-
-    def u(gradient: np.ndarray) -> np.ndarray:
-        if not free:
-            return np.zeros(molality.size)
-        return np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", gradient, cov, gradient), 0.0))
-
-    u_phi = u(d_phi)
-    u_ln_g = u(d_ln)
-    # a_w = exp(−ν m M_w φ): ∂a_w/∂θ = −a_w ν m M_w ∂φ/∂θ.
-    u_aw = a_w * factor * MOLAR_MASS_WATER_KG_MOL * u_phi
-    u_g_rt = u(factor[:, None] * (d_ln - d_phi))
-    rt = GAS_CONSTANT_J_MOL_K * temperature
-
-    columns = dict(zip(_PROPERTY_NAMES, [
-        lines, molality, temperature, ln_g, u_ln_g, phi, u_phi, a_w, u_aw, g_rt, u_g_rt,
-        g_rt * rt, u_g_rt * rt], strict=True))
+    free = tuple(name for name in names if name in values)
     held = [p.symbol for p in reduction.parameters if p.fixed]
     notes = [f"from the {model.title} with the fitted parameters; uncertainties (k = 1) from the "
              "covariance of the free parameters"
@@ -282,7 +259,119 @@ def _property_columns(reduction: Reduction) -> tuple[dict[str, np.ndarray], tupl
     if held:
         notes.append("held parameter(s) " + ", ".join(held) + " enter at their held values; "
                      "their own uncertainty is not propagated here")
-    return columns, tuple(notes)
+    key = (model, reduction.electrolyte, tuple(values), names, molality.size)
+    return key, _Inputs(lines=lines, molality=molality, temperature=temperature,
+                        values=tuple(values.values()), matrix=matrix, notes=tuple(notes))
+
+
+def _property_columns_of_many(reductions: Sequence[Reduction]
+                              ) -> list[tuple[dict[str, np.ndarray], tuple[str, ...]]]:
+    """The columns of :func:`derived_properties` of each reduction by name, in order (read
+    only), and the notes on them, without building the tables; in the order of
+    ``reductions``."""
+    groups: dict[tuple[Any, ...], list[tuple[int, _Inputs]]] = {}
+    for position, reduction in enumerate(reductions):
+        key, inputs = _inputs_of(reduction)
+        groups.setdefault(key, []).append((position, inputs))
+    found: list[Any] = [None] * len(reductions)
+    for (model, electrolyte, value_names, names, _), members in groups.items():
+        inputs = [member for _, member in members]
+        for (position, _), columns in zip(members, _group_columns(
+                model, electrolyte, value_names, names, inputs), strict=True):
+            found[position] = columns
+    return found
+
+
+def _group_constants(temperature: np.ndarray, inputs: Sequence[_Inputs]
+                     ) -> DebyeHueckelConstants:
+    """The Debye–Hückel constants at the temperatures ``temperature`` (G, N) of a group,
+    shape (G, 1, N), or (1, 1, N) when its runs share their temperatures (the usual batch)."""
+    kept = temperature.shape[1] <= _KEPT_READINGS
+    first = inputs[0].temperature.tobytes()
+    if kept and all(item.temperature.tobytes() == first for item in inputs[1:]):
+        once = _constants_at(np.ascontiguousarray(temperature[0], dtype=float).tobytes())
+        return DebyeHueckelConstants(once.temperature[None, None], once.aphi[None, None],
+                                     once.b[None, None])
+    each = [_constants_at(np.ascontiguousarray(row, dtype=float).tobytes()) if kept
+            else debye_hueckel_constants(row) for row in temperature]
+    return DebyeHueckelConstants(*(np.stack([getattr(c, name) for c in each])[:, None]
+                                   for name in ("temperature", "aphi", "b")))
+
+
+def _group_columns(model: ActivityModel, electrolyte: Electrolyte, value_names: tuple[str, ...],
+                   names: tuple[str, ...], inputs: Sequence[_Inputs]
+                   ) -> list[tuple[dict[str, np.ndarray], tuple[str, ...]]]:
+    """The columns and notes of :func:`derived_properties` for the reductions of one group
+    (:func:`_inputs_of`), worked out together: one evaluation of each of φ and ln γ± on the
+    readings of every run, broadcast against the parameter values of every run, each
+    repeated for the point and each shifted parameter (as :func:`_sensitivities` does for
+    one run), and one contraction with the covariances of all of them."""
+    count = len(inputs)
+    keep = [i for i, name in enumerate(names) if name in value_names]
+    free_at = [value_names.index(names[i]) for i in keep]
+    rows = 1 + 2 * len(keep)
+    molality = np.stack([item.molality for item in inputs])
+    temperature = np.stack([item.temperature for item in inputs])
+    constants = _group_constants(temperature, inputs)
+    shape = (count, rows, molality.shape[1])
+
+    values = np.array([item.values for item in inputs], dtype=float).reshape(
+        count, len(value_names))
+    # h_k = 1e-6 max(1, |θ_k|), as fit.uncertainty.sensitivity_coefficients steps
+    steps = 1e-6 * np.fmax(1.0, np.abs(values[:, free_at]))
+    table = np.empty((len(value_names), count, rows, 1))
+    table[...] = values.T[:, :, None, None]
+    for k, at in enumerate(free_at):
+        table[at, :, 1 + 2 * k, 0] = values[:, at] + steps[:, k]
+        table[at, :, 2 + 2 * k, 0] = values[:, at] - steps[:, k]
+    columns = dict(zip(value_names, table, strict=True))
+    readings = molality[:, None]
+    out_phi = _full(model.osmotic_coefficient(electrolyte, readings, constants, columns), shape)
+    out_ln = _full(model.ln_gamma(electrolyte, readings, constants, columns), shape)
+    phi = np.ascontiguousarray(out_phi[:, 0])
+    ln_g = np.ascontiguousarray(out_ln[:, 0])
+    a_w = water_activity(electrolyte, molality, phi)
+    g_rt = excess_gibbs_energy_rt(electrolyte, molality, phi, ln_g)
+    factor = electrolyte.nu * molality
+    if keep:
+        twice = 2.0 * steps[:, :, None]
+        d_phi = np.ascontiguousarray(
+            ((out_phi[:, 1::2] - out_phi[:, 2::2]) / twice).transpose(0, 2, 1))
+        d_ln = np.ascontiguousarray(
+            ((out_ln[:, 1::2] - out_ln[:, 2::2]) / twice).transpose(0, 2, 1))
+        matrices = np.stack([np.asarray(item.matrix, dtype=float) for item in inputs])
+        cov = np.ascontiguousarray(matrices[:, keep][:, :, keep])
+        u_phi = _u(d_phi, cov)
+        u_ln_g = _u(d_ln, cov)
+        u_g_rt = _u(factor[:, :, None] * (d_ln - d_phi), cov)
+    else:
+        u_phi, u_ln_g, u_g_rt = (np.zeros(molality.shape) for _ in range(3))
+    # a_w = exp(−ν m M_w φ): ∂a_w/∂θ = −a_w ν m M_w ∂φ/∂θ.
+    u_aw = a_w * factor * MOLAR_MASS_WATER_KG_MOL * u_phi
+    rt = GAS_CONSTANT_J_MOL_K * temperature
+    shared = [molality, temperature, ln_g, u_ln_g, phi, u_phi, a_w, u_aw, g_rt, u_g_rt,
+              g_rt * rt, u_g_rt * rt]
+    for array in shared:
+        array.flags.writeable = False  # each run's columns are rows of these: read only too
+    found = []
+    for item, row in zip(inputs, zip(*shared, strict=True), strict=True):
+        lines = item.lines
+        lines.flags.writeable = False
+        found.append((dict(zip(_PROPERTY_NAMES, (lines, *row), strict=True)), item.notes))
+    return found
+
+
+def _u(gradient: np.ndarray, cov: np.ndarray) -> np.ndarray:
+    """u = √(g V gᵀ) at each reading of each run: ``gradient`` (G, N, k), ``cov`` (G, k, k)
+    [the quantity's unit]. Summed as one run's contraction sums (``ij,jk,ik->i``), which the
+    stacked contraction does except for one reading a run, where numpy orders the sum
+    otherwise: there each run is contracted alone."""
+    if gradient.shape[1] == 1:
+        total = np.stack([np.einsum("ij,jk,ik->i", g, c, g)
+                          for g, c in zip(gradient, cov, strict=True)])
+    else:
+        total = np.einsum("gij,gjk,gik->gi", gradient, cov, gradient)
+    return np.sqrt(np.maximum(total, 0.0))
 
 
 @dataclass(frozen=True)
@@ -320,14 +409,6 @@ class DerivedResults:
                         [c.copy() for c in self.published_columns.values()])
 
 
-def _read_only(columns: dict[str, Any]) -> dict[str, Any]:
-    """``columns`` with their numpy arrays made read-only (extension arrays as they are)."""
-    for column in columns.values():
-        if isinstance(column, np.ndarray):
-            column.setflags(write=False)
-    return columns
-
-
 def derive_results(reduction: Reduction) -> DerivedResults:
     """The derived properties and the published comparison of a reduction, once.
 
@@ -341,7 +422,53 @@ def derive_results(reduction: Reduction) -> DerivedResults:
     DerivedResults
         Their columns, and their tables when asked for.
     """
-    columns, notes = _property_columns(reduction)
-    published = published_columns(reduction)
-    return DerivedResults(property_columns=_read_only(columns), property_notes=notes,
-                          published_columns=None if published is None else _read_only(published))
+    return derive_results_of_many([reduction])[0]
+
+
+def derive_results_of_many(reductions: Sequence[Reduction]) -> list[DerivedResults]:
+    r"""The derived properties and the published comparison of many reductions, worked out
+    together: each what :func:`derive_results` gives for it alone.
+
+    Parameters
+    ----------
+    reductions : sequence of Reduction
+        From :func:`activolt.procedures.dilution.reduce_run` or
+        :func:`~activolt.procedures.dilution.reduce_runs`, of any models, electrolytes and
+        lengths.
+
+    Returns
+    -------
+    list of DerivedResults
+        One for each reduction, in the order of ``reductions``; their columns are read only
+        (rows of arrays that the reductions of a group share).
+
+    Notes
+    -----
+    The reductions are grouped by model, electrolyte, parameters, uncertain parameters and
+    number of usable readings. For each group, φ and ln γ± are evaluated once on the readings
+    of every run, broadcast against each run's parameter values θ, at the values and at
+    θ_k ± h_k, h_k = 10⁻⁶ max(1, |θ_k|) (the central differences of
+    :func:`activolt.fit.uncertainty.sensitivity_coefficients`); every model is elementwise in
+    the readings and the parameters. Then, as :func:`derived_properties` states,
+
+    .. math:: a_w = \exp(−ν m M_w φ), \qquad G^E/(RT) = ν m (1 − φ + \ln γ_±)
+
+    (Robinson & Stokes 1959, ch. 2; Pitzer 1991, ch. 3), and u²(y) = gᵀ V g with g = ∂y/∂θ
+    and V each run's ``uncertain_covariance`` (GUM, JCGM 100:2008, 5.2), contracted for the
+    whole group at once. The published comparison is that of
+    :func:`activolt.procedures.published.published_columns_of_many`.
+
+    Every column equals, bit for bit, what the run alone gives: the model evaluation and what
+    follows are elementwise, and the contraction sums each reading's terms in the order of one
+    run's.
+
+    Examples
+    --------
+    >>> derive_results_of_many([])
+    []
+    """
+    properties = _property_columns_of_many(reductions)
+    published = published_columns_of_many(reductions)
+    return [DerivedResults(property_columns=columns, property_notes=notes,
+                           published_columns=comparison)
+            for (columns, notes), comparison in zip(properties, published, strict=True)]
