@@ -11,7 +11,7 @@ from __future__ import annotations
 import functools
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -226,8 +226,7 @@ def derived_properties(reduction: Reduction) -> pd.DataFrame:
     return derive_results(reduction).properties
 
 
-@dataclass(frozen=True)
-class _Inputs:
+class _Inputs(NamedTuple):
     """What :func:`_property_columns_of_many` reads from one reduction."""
 
     lines: np.ndarray
@@ -238,30 +237,40 @@ class _Inputs:
     notes: tuple[str, ...]
 
 
+@functools.lru_cache(maxsize=64)
+def _notes(title: str, free: tuple[str, ...], held: tuple[str, ...]) -> tuple[str, ...]:
+    """The notes on the derived properties of a model ``title`` with the parameters ``free``
+    free and ``held`` (symbols) held."""
+    notes = [f"from the {title} with the fitted parameters; uncertainties (k = 1) from the "
+             "covariance of the free parameters"
+             + (f" ({', '.join(free)})" if free else " (none free: uncertainties 0)")]
+    if held:
+        notes.append("held parameter(s) " + ", ".join(held) + " enter at their held values; "
+                     "their own uncertainty is not propagated here")
+    return tuple(notes)
+
+
 def _inputs_of(reduction: Reduction) -> tuple[tuple[Any, ...], _Inputs]:
     """The group of a reduction (the reductions evaluated together: same model, electrolyte,
-    parameters, uncertain parameters and number of usable readings) and its own inputs."""
+    parameters, uncertain parameters and number of usable readings; the model by identity,
+    which the reductions being grouped keep alive) and its own inputs."""
     run = reduction.run
     usable = run.usable  # the rows of usable_points(run), read from the run's arrays
     lines = np.asarray(column_values(run.points, "line"))[usable]
     molality = run.arrays["molality_mol_kg"][usable]
     temperature = run.arrays["temperature_K"][usable]
     model = reduction.model
-    values = reduction.model_parameter_values
+    value_names = model.parameter_names
+    parameter_values = reduction.parameter_values  # model_parameter_values, without the dict
     names = reduction.uncertain_names or reduction.free_names
     matrix = (reduction.covariance if reduction.uncertain_covariance is None
               else reduction.uncertain_covariance)
-    free = tuple(name for name in names if name in values)
-    held = [p.symbol for p in reduction.parameters if p.fixed]
-    notes = [f"from the {model.title} with the fitted parameters; uncertainties (k = 1) from the "
-             "covariance of the free parameters"
-             + (f" ({', '.join(free)})" if free else " (none free: uncertainties 0)")]
-    if held:
-        notes.append("held parameter(s) " + ", ".join(held) + " enter at their held values; "
-                     "their own uncertainty is not propagated here")
-    key = (model, reduction.electrolyte, tuple(values), names, molality.size)
+    free = tuple(name for name in names if name in value_names)
+    held = tuple(p.symbol for p in reduction.parameters if p.fixed)
+    key = (id(model), reduction.electrolyte, value_names, names, molality.size)
     return key, _Inputs(lines=lines, molality=molality, temperature=temperature,
-                        values=tuple(values.values()), matrix=matrix, notes=tuple(notes))
+                        values=tuple(parameter_values[name] for name in value_names),
+                        matrix=matrix, notes=_notes(model.title, free, held))
 
 
 def _property_columns_of_many(reductions: Sequence[Reduction]
@@ -269,33 +278,50 @@ def _property_columns_of_many(reductions: Sequence[Reduction]
     """The columns of :func:`derived_properties` of each reduction by name, in order (read
     only), and the notes on them, without building the tables; in the order of
     ``reductions``."""
-    groups: dict[tuple[Any, ...], list[tuple[int, _Inputs]]] = {}
+    groups: dict[tuple[Any, ...], tuple[Reduction, list[int], list[_Inputs]]] = {}
     for position, reduction in enumerate(reductions):
         key, inputs = _inputs_of(reduction)
-        groups.setdefault(key, []).append((position, inputs))
+        group = groups.get(key)
+        if group is None:
+            groups[key] = (reduction, [position], [inputs])
+        else:
+            group[1].append(position)
+            group[2].append(inputs)
     found: list[Any] = [None] * len(reductions)
-    for (model, electrolyte, value_names, names, _), members in groups.items():
-        inputs = [member for _, member in members]
-        for (position, _), columns in zip(members, _group_columns(
-                model, electrolyte, value_names, names, inputs), strict=True):
+    for (_, electrolyte, value_names, names, _), (first, positions, inputs) in groups.items():
+        for position, columns in zip(positions, _group_columns(
+                first.model, electrolyte, value_names, names, inputs), strict=True):
             found[position] = columns
     return found
 
 
-def _group_constants(temperature: np.ndarray, inputs: Sequence[_Inputs]
-                     ) -> DebyeHueckelConstants:
-    """The Debye–Hückel constants at the temperatures ``temperature`` (G, N) of a group,
-    shape (G, 1, N), or (1, 1, N) when its runs share their temperatures (the usual batch)."""
-    kept = temperature.shape[1] <= _KEPT_READINGS
-    first = inputs[0].temperature.tobytes()
-    if kept and all(item.temperature.tobytes() == first for item in inputs[1:]):
-        once = _constants_at(np.ascontiguousarray(temperature[0], dtype=float).tobytes())
-        return DebyeHueckelConstants(once.temperature[None, None], once.aphi[None, None],
-                                     once.b[None, None])
-    each = [_constants_at(np.ascontiguousarray(row, dtype=float).tobytes()) if kept
-            else debye_hueckel_constants(row) for row in temperature]
-    return DebyeHueckelConstants(*(np.stack([getattr(c, name) for c in each])[:, None]
-                                   for name in ("temperature", "aphi", "b")))
+def _group_readings(inputs: Sequence[_Inputs], rows: int
+                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, DebyeHueckelConstants]:
+    """The molalities and temperatures of the runs of a group, (G, N) each, and the readings
+    with their Debye–Hückel constants tiled as :func:`model_sensitivities` tiles one run's,
+    the ``rows`` rows of each run after those of the run before: (G × rows, N). When the runs
+    share their readings (the usual batch), the tiled arrays are those of :func:`_tiled_at`
+    (kept, read only)."""
+    molality = np.array([item.molality for item in inputs])
+    temperature = np.array([item.temperature for item in inputs])
+    count, size = molality.shape
+    first_m, first_t = inputs[0].molality.tobytes(), inputs[0].temperature.tobytes()
+    if size <= _KEPT_READINGS and all(
+            item.molality.tobytes() == first_m and item.temperature.tobytes() == first_t
+            for item in inputs[1:]):
+        constants = _constants_at(np.ascontiguousarray(temperature[0], dtype=float).tobytes())
+        tiled_m, tiled_c = _tiled_at(*(_packed(array) for array in (
+            molality[0], constants.temperature, constants.aphi, constants.b)), count * rows)
+        return molality, temperature, tiled_m, tiled_c
+    each = [_constants_at(np.ascontiguousarray(row, dtype=float).tobytes())
+            if size <= _KEPT_READINGS else debye_hueckel_constants(row) for row in temperature]
+    shape = (count, rows, size)
+
+    def tiled(arrays: Sequence[np.ndarray]) -> np.ndarray:
+        return np.broadcast_to(np.array(arrays)[:, None], shape).reshape(count * rows, size)
+
+    return molality, temperature, tiled(molality), DebyeHueckelConstants(
+        *(tiled([getattr(c, name) for c in each]) for name in ("temperature", "aphi", "b")))
 
 
 def _group_columns(model: ActivityModel, electrolyte: Electrolyte, value_names: tuple[str, ...],
@@ -303,71 +329,85 @@ def _group_columns(model: ActivityModel, electrolyte: Electrolyte, value_names: 
                    ) -> list[tuple[dict[str, np.ndarray], tuple[str, ...]]]:
     """The columns and notes of :func:`derived_properties` for the reductions of one group
     (:func:`_inputs_of`), worked out together: one evaluation of each of φ and ln γ± on the
-    readings of every run, broadcast against the parameter values of every run, each
-    repeated for the point and each shifted parameter (as :func:`_sensitivities` does for
-    one run), and one contraction with the covariances of all of them."""
+    readings of every run, each repeated for the point and each shifted parameter, with each
+    run's parameter values on its rows (as :func:`_sensitivities` does for one run), and one
+    contraction with the covariances of all of them."""
     count = len(inputs)
     keep = [i for i, name in enumerate(names) if name in value_names]
     free_at = [value_names.index(names[i]) for i in keep]
     rows = 1 + 2 * len(keep)
-    molality = np.stack([item.molality for item in inputs])
-    temperature = np.stack([item.temperature for item in inputs])
-    constants = _group_constants(temperature, inputs)
-    shape = (count, rows, molality.shape[1])
+    molality, temperature, tiled_m, tiled_c = _group_readings(inputs, rows)
+    shape = tiled_m.shape
 
-    values = np.array([item.values for item in inputs], dtype=float).reshape(
-        count, len(value_names))
-    # h_k = 1e-6 max(1, |θ_k|), as fit.uncertainty.sensitivity_coefficients steps
-    steps = 1e-6 * np.fmax(1.0, np.abs(values[:, free_at]))
-    table = np.empty((len(value_names), count, rows, 1))
-    table[...] = values.T[:, :, None, None]
-    for k, at in enumerate(free_at):
-        table[at, :, 1 + 2 * k, 0] = values[:, at] + steps[:, k]
-        table[at, :, 2 + 2 * k, 0] = values[:, at] - steps[:, k]
-    columns = dict(zip(value_names, table, strict=True))
-    readings = molality[:, None]
-    out_phi = _full(model.osmotic_coefficient(electrolyte, readings, constants, columns), shape)
-    out_ln = _full(model.ln_gamma(electrolyte, readings, constants, columns), shape)
+    # each run's parameter values on its rows: at the values, then θ_k + h_k and θ_k − h_k
+    # for each free θ_k, h_k = 1e-6 max(1, |θ_k|) (fit.uncertainty.sensitivity_coefficients'
+    # steps, worked out as it works them out)
+    table: list[list[float]] = []
+    steps = []
+    for item in inputs:
+        point = list(item.values)
+        table.append(point)
+        run_steps = []
+        for at in free_at:
+            value = point[at]
+            step = 1e-6 * max(1.0, abs(value))
+            run_steps.append(step)
+            table.append([*point[:at], value + step, *point[at + 1:]])
+            table.append([*point[:at], value - step, *point[at + 1:]])
+        steps.append(run_steps)
+    by_parameter = np.array(table, dtype=float).reshape(count * rows, len(value_names)).T
+    columns = {name: by_parameter[at][:, None] for at, name in enumerate(value_names)}
+    out_phi = _full(model.osmotic_coefficient(electrolyte, tiled_m, tiled_c, columns),
+                    shape).reshape(count, rows, shape[1])
+    out_ln = _full(model.ln_gamma(electrolyte, tiled_m, tiled_c, columns),
+                   shape).reshape(count, rows, shape[1])
     phi = np.ascontiguousarray(out_phi[:, 0])
     ln_g = np.ascontiguousarray(out_ln[:, 0])
     a_w = water_activity(electrolyte, molality, phi)
     g_rt = excess_gibbs_energy_rt(electrolyte, molality, phi, ln_g)
     factor = electrolyte.nu * molality
     if keep:
-        twice = 2.0 * steps[:, :, None]
+        twice = 2.0 * np.array(steps)[:, :, None]
         d_phi = np.ascontiguousarray(
             ((out_phi[:, 1::2] - out_phi[:, 2::2]) / twice).transpose(0, 2, 1))
         d_ln = np.ascontiguousarray(
             ((out_ln[:, 1::2] - out_ln[:, 2::2]) / twice).transpose(0, 2, 1))
-        matrices = np.stack([np.asarray(item.matrix, dtype=float) for item in inputs])
-        cov = np.ascontiguousarray(matrices[:, keep][:, :, keep])
-        u_phi = _u(d_phi, cov)
-        u_ln_g = _u(d_ln, cov)
+        matrices = np.array([item.matrix for item in inputs], dtype=float)
+        first = keep[0]
+        if keep == list(range(first, first + len(keep))):  # a block: a slice, no fancy index
+            cov = matrices[:, first:first + len(keep), first:first + len(keep)]
+        else:
+            cov = matrices[:, keep][:, :, keep]
+        cov = np.ascontiguousarray(cov)
+        u_phi, u_ln_g = _u(d_phi, cov), _u(d_ln, cov)
         u_g_rt = _u(factor[:, :, None] * (d_ln - d_phi), cov)
     else:
-        u_phi, u_ln_g, u_g_rt = (np.zeros(molality.shape) for _ in range(3))
+        u_phi, u_ln_g, u_g_rt = np.zeros((3, *molality.shape))
     # a_w = exp(−ν m M_w φ): ∂a_w/∂θ = −a_w ν m M_w ∂φ/∂θ.
     u_aw = a_w * factor * MOLAR_MASS_WATER_KG_MOL * u_phi
     rt = GAS_CONSTANT_J_MOL_K * temperature
     shared = [molality, temperature, ln_g, u_ln_g, phi, u_phi, a_w, u_aw, g_rt, u_g_rt,
               g_rt * rt, u_g_rt * rt]
     for array in shared:
-        array.flags.writeable = False  # each run's columns are rows of these: read only too
+        array.setflags(write=False)  # each run's columns are rows of these: read only too
     found = []
-    for item, row in zip(inputs, zip(*shared, strict=True), strict=True):
+    # (a strict zip of arrays checks their ends slowly; they have a row for each run)
+    for item, row in zip(inputs, zip(*shared, strict=False), strict=False):
         lines = item.lines
-        lines.flags.writeable = False
+        lines.setflags(write=False)
         found.append((dict(zip(_PROPERTY_NAMES, (lines, *row), strict=True)), item.notes))
     return found
 
 
 def _u(gradient: np.ndarray, cov: np.ndarray) -> np.ndarray:
     """u = √(g V gᵀ) at each reading of each run: ``gradient`` (G, N, k), ``cov`` (G, k, k)
-    [the quantity's unit]. Summed as one run's contraction sums (``ij,jk,ik->i``), which the
-    stacked contraction does except for one reading a run, where numpy orders the sum
-    otherwise: there each run is contracted alone."""
+    [the quantity's unit]; (G, N).
+
+    Summed as one run's contraction ``ij,jk,ik->i`` sums, which the stacked contraction of
+    the same layout does, except for one reading a run, where numpy orders the sum otherwise:
+    there each run is contracted alone."""
     if gradient.shape[1] == 1:
-        total = np.stack([np.einsum("ij,jk,ik->i", g, c, g)
+        total = np.array([np.einsum("ij,jk,ik->i", g, c, g)
                           for g, c in zip(gradient, cov, strict=True)])
     else:
         total = np.einsum("gij,gjk,gik->gi", gradient, cov, gradient)

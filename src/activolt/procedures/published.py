@@ -126,19 +126,21 @@ def _group_columns(found: _Published,
     """The columns of the runs of a group (same electrolyte, temperature and molalities) of
     :func:`published_columns_of_many`: the differences for all of them at once, the columns
     that depend on the molalities only repeated for each (every array read only)."""
-    m = np.stack([member[1] for member in members])
-    gamma = np.stack([member[2] for member in members])
-    u_gamma = np.stack([member[3] for member in members])
+    count = len(members)
+    m = np.array([member[1] for member in members])
+    gamma = np.array([member[2] for member in members])
+    u_gamma = np.array([member[3] for member in members])
     difference = gamma - found.published
     u_difference = np.hypot(u_gamma, found.u_published)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
-    fixed = [np.broadcast_to(found.fixed[name], m.shape).copy() for name in _FIXED]
+    fixed = [found.fixed[name][None].repeat(count, axis=0) for name in _FIXED]
     shared = [m, gamma, u_gamma, *fixed, difference, u_difference, ratio]
     for array in shared:
-        array.flags.writeable = False  # each run's columns are rows of these: read only too
+        array.setflags(write=False)  # each run's columns are rows of these: read only too
     return [dict(zip(_COLUMN_NAMES, (*row, found.source.copy()), strict=True))
-            for row in zip(*shared, strict=True)]
+            for row in zip(*shared, strict=False)]  # a row for each run (a strict zip of
+    # arrays checks their ends slowly)
 
 
 def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
