@@ -126,21 +126,28 @@ def _group_columns(found: _Published,
     """The columns of the runs of a group (same electrolyte, temperature and molalities) of
     :func:`published_columns_of_many`: the differences for all of them at once, the columns
     that depend on the molalities only repeated for each (every array read only)."""
-    count = len(members)
-    m = np.array([member[1] for member in members])
-    gamma = np.array([member[2] for member in members])
-    u_gamma = np.array([member[3] for member in members])
+    m, gamma, u_gamma = (_stacked([member[i] for member in members]) for i in (1, 2, 3))
     difference = gamma - found.published
     u_difference = np.hypot(u_gamma, found.u_published)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
-    fixed = [found.fixed[name][None].repeat(count, axis=0) for name in _FIXED]
-    shared = [m, gamma, u_gamma, *fixed, difference, u_difference, ratio]
+    shared = [m, gamma, u_gamma, difference, u_difference, ratio]
     for array in shared:
         array.setflags(write=False)  # each run's columns are rows of these: read only too
-    return [dict(zip(_COLUMN_NAMES, (*row, found.source.copy()), strict=True))
-            for row in zip(*shared, strict=False)]  # a row for each run (a strict zip of
-    # arrays checks their ends slowly)
+    # the columns of the molalities alone are the kept ones (read only), seen through a view
+    # each run, which cannot be made writable
+    fixed = found.fixed
+    return [dict(zip(_COLUMN_NAMES, (
+        m_row, gamma_row, u_row, *(fixed[name].view() for name in _FIXED), difference_row,
+        u_difference_row, ratio_row, found.source.copy()), strict=True))
+        for m_row, gamma_row, u_row, difference_row, u_difference_row, ratio_row
+        in zip(*shared, strict=False)]  # a row for each run (a strict zip of arrays checks
+    # their ends slowly)
+
+
+def _stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
+    """The equal-length ``arrays`` as the rows of one array; one array seen as a row."""
+    return arrays[0][None] if len(arrays) == 1 else np.array(arrays)
 
 
 def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
