@@ -4,6 +4,10 @@ The formulas are those of :mod:`activolt.activity.properties`; here they are eva
 usable molality of a :class:`~activolt.procedures.dilution.Reduction`, and the covariance of the
 free model parameters (and of parameters held at a convention with a stated uncertainty) is
 propagated to each quantity by numerical gradients (GUM, JCGM 100:2008, 5.2).
+
+:func:`derive_results_of_many` works out those of many reductions together (a batch's), a
+model evaluation and a contraction for each group of alike reductions, giving each reduction,
+bit for bit, what :func:`derive_results` gives it alone.
 """
 
 from __future__ import annotations
@@ -302,13 +306,10 @@ def _group_readings(inputs: Sequence[_Inputs], rows: int
     the ``rows`` rows of each run after those of the run before: (G × rows, N). When the runs
     share their readings (the usual batch), the tiled arrays are those of :func:`_tiled_at`
     (kept, read only)."""
-    molality = np.array([item.molality for item in inputs])
-    temperature = np.array([item.temperature for item in inputs])
+    molality = _stacked([item.molality for item in inputs])
+    temperature = _stacked([item.temperature for item in inputs])
     count, size = molality.shape
-    first_m, first_t = inputs[0].molality.tobytes(), inputs[0].temperature.tobytes()
-    if size <= _KEPT_READINGS and all(
-            item.molality.tobytes() == first_m and item.temperature.tobytes() == first_t
-            for item in inputs[1:]):
+    if size <= _KEPT_READINGS and (count == 1 or _all_alike(inputs)):
         constants = _constants_at(np.ascontiguousarray(temperature[0], dtype=float).tobytes())
         tiled_m, tiled_c = _tiled_at(*(_packed(array) for array in (
             molality[0], constants.temperature, constants.aphi, constants.b)), count * rows)
@@ -322,6 +323,18 @@ def _group_readings(inputs: Sequence[_Inputs], rows: int
 
     return molality, temperature, tiled(molality), DebyeHueckelConstants(
         *(tiled([getattr(c, name) for c in each]) for name in ("temperature", "aphi", "b")))
+
+
+def _stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
+    """The equal-length ``arrays`` as the rows of one array; one array seen as a row."""
+    return arrays[0][None] if len(arrays) == 1 else np.array(arrays)
+
+
+def _all_alike(inputs: Sequence[_Inputs]) -> bool:
+    """Whether the runs of a group share their molalities and temperatures, bit for bit."""
+    first_m, first_t = inputs[0].molality.tobytes(), inputs[0].temperature.tobytes()
+    return all(item.molality.tobytes() == first_m and item.temperature.tobytes() == first_t
+               for item in inputs[1:])
 
 
 def _group_columns(model: ActivityModel, electrolyte: Electrolyte, value_names: tuple[str, ...],
@@ -372,7 +385,7 @@ def _group_columns(model: ActivityModel, electrolyte: Electrolyte, value_names: 
             ((out_phi[:, 1::2] - out_phi[:, 2::2]) / twice).transpose(0, 2, 1))
         d_ln = np.ascontiguousarray(
             ((out_ln[:, 1::2] - out_ln[:, 2::2]) / twice).transpose(0, 2, 1))
-        matrices = np.array([item.matrix for item in inputs], dtype=float)
+        matrices = _stacked([np.asarray(item.matrix, dtype=float) for item in inputs])
         first = keep[0]
         if keep == list(range(first, first + len(keep))):  # a block: a slice, no fancy index
             cov = matrices[:, first:first + len(keep), first:first + len(keep)]
