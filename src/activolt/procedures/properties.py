@@ -368,7 +368,8 @@ def _group_columns(model: ActivityModel, electrolyte: Electrolyte, value_names: 
             table.append([*point[:at], value + step, *point[at + 1:]])
             table.append([*point[:at], value - step, *point[at + 1:]])
         steps.append(run_steps)
-    by_parameter = np.array(table, dtype=float).reshape(count * rows, len(value_names)).T
+    by_parameter = np.ascontiguousarray(
+        np.array(table, dtype=float).reshape(count * rows, len(value_names)).T)
     columns = {name: by_parameter[at][:, None] for at, name in enumerate(value_names)}
     out_phi = _full(model.osmotic_coefficient(electrolyte, tiled_m, tiled_c, columns),
                     shape).reshape(count, rows, shape[1])
