@@ -266,3 +266,17 @@ def test_results_come_back_in_the_order_given_whatever_the_groups():
                            reduction.run.arrays["molality_mol_kg"][usable])
         assert got.property_notes[0].startswith(f"from the {reduction.model.title} ")
     assert derive_results_of_many([]) == []
+
+
+def test_a_large_group_gives_each_reduction_what_it_gives_alone():
+    """A group of more readings in all than the tiled readings kept for the next series
+    (90 series of 12 readings, of two temperatures), worked out anew: the same numbers."""
+    frame = pd.DataFrame([*_run_frame("a", 12, 0.5, 25.0), *_run_frame("b", 12, 0.5, 26.0)])
+    runs = runs_from_frame(frame, {"electrolyte": "HCl", "electrons": 1, "temperature_C": 25.0})
+    a, b = (reduce_run(run, "pitzer") for run in runs)
+    reductions = [a] * 60 + [b] * 30
+    for reduction, got in zip(reductions, derive_results_of_many(reductions), strict=True):
+        _assert_same(got, reduction)
+    alike = derive_results_of_many([a] * 90)
+    for got in alike:
+        _assert_same(got, a)

@@ -305,14 +305,18 @@ def _group_readings(inputs: Sequence[_Inputs], rows: int
     with their Debye–Hückel constants tiled as :func:`model_sensitivities` tiles one run's,
     the ``rows`` rows of each run after those of the run before: (G × rows, N). When the runs
     share their readings (the usual batch), the tiled arrays are those of :func:`_tiled_at`
-    (kept, read only)."""
+    (kept, read only) while the group holds at most ``_KEPT_READINGS`` readings in all (the
+    kept arrays stay small), else tiled anew."""
     molality = _stacked([item.molality for item in inputs])
     temperature = _stacked([item.temperature for item in inputs])
     count, size = molality.shape
     if size <= _KEPT_READINGS and (count == 1 or _all_alike(inputs)):
         constants = _constants_at(np.ascontiguousarray(temperature[0], dtype=float).tobytes())
-        tiled_m, tiled_c = _tiled_at(*(_packed(array) for array in (
-            molality[0], constants.temperature, constants.aphi, constants.b)), count * rows)
+        if count * size > _KEPT_READINGS:
+            tiled_m, tiled_c = _tiled(molality[0], constants, count * rows)
+        else:
+            tiled_m, tiled_c = _tiled_at(*(_packed(array) for array in (
+                molality[0], constants.temperature, constants.aphi, constants.b)), count * rows)
         return molality, temperature, tiled_m, tiled_c
     each = [_constants_at(np.ascontiguousarray(row, dtype=float).tobytes())
             if size <= _KEPT_READINGS else debye_hueckel_constants(row) for row in temperature]
