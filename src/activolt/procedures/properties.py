@@ -479,6 +479,10 @@ def derive_results(reduction: Reduction) -> DerivedResults:
     -------
     DerivedResults
         Their columns, and their tables when asked for.
+
+    Notes
+    -----
+    :func:`derive_results_of_many` of the one reduction (one code path for one run and many).
     """
     return derive_results_of_many([reduction])[0]
 
@@ -503,11 +507,12 @@ def derive_results_of_many(reductions: Sequence[Reduction]) -> list[DerivedResul
     Notes
     -----
     The reductions are grouped by model, electrolyte, parameters, uncertain parameters and
-    number of usable readings. For each group, φ and ln γ± are evaluated once on the readings
-    of every run, broadcast against each run's parameter values θ, at the values and at
-    θ_k ± h_k, h_k = 10⁻⁶ max(1, |θ_k|) (the central differences of
-    :func:`activolt.fit.uncertainty.sensitivity_coefficients`); every model is elementwise in
-    the readings and the parameters. Then, as :func:`derived_properties` states,
+    number of usable readings. For each group, φ and ln γ± are evaluated once, on the readings
+    of every run repeated on a row for its parameter values θ and one for each θ_k ± h_k,
+    h_k = 10⁻⁶ max(1, |θ_k|) (the central differences of
+    :func:`activolt.fit.uncertainty.sensitivity_coefficients`), as
+    :func:`model_sensitivities` lays out one run; every model is elementwise in the readings
+    and the parameters. Then, as :func:`derived_properties` states,
 
     .. math:: a_w = \exp(−ν m M_w φ), \qquad G^E/(RT) = ν m (1 − φ + \ln γ_±)
 
@@ -516,9 +521,11 @@ def derive_results_of_many(reductions: Sequence[Reduction]) -> list[DerivedResul
     whole group at once. The published comparison is that of
     :func:`activolt.procedures.published.published_columns_of_many`.
 
-    Every column equals, bit for bit, what the run alone gives: the model evaluation and what
-    follows are elementwise, and the contraction sums each reading's terms in the order of one
-    run's.
+    Every column equals, bit for bit, what the one-series computation gives the run alone:
+    the model evaluation and what follows are elementwise, and the stacked contraction
+    (``einsum("gij,gjk,gik->gi")``) sums each reading's terms in the order of one run's
+    ``einsum("ij,jk,ik->i")``; for runs of one usable reading, where numpy orders the stacked
+    sum otherwise, each run is contracted alone.
 
     Examples
     --------
