@@ -19,7 +19,8 @@ from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
 __all__ = ["column_values", "compare_with_published", "plain_values", "point_lists",
-           "point_names", "point_values", "published_columns", "table_of"]
+           "point_names", "point_values", "published_columns", "published_columns_of_many",
+           "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -60,22 +61,93 @@ def published_columns(reduction: Reduction) -> dict[str, Any] | None:
     """The columns of :func:`compare_with_published`'s table, by name in the table's order
     (each a new array, or pandas' extension array for ``source``), without building the table;
     None when there is no published table."""
-    gamma = np.asarray(point_values(reduction, "gamma_pm"), dtype=float)
-    with_gamma = ~np.isnan(gamma)
-    m = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[with_gamma]
-    found = _published_at(reduction.electrolyte, float(reduction.temperature_K), tuple(m))
-    if found is None:
+    columns = published_columns_of_many([reduction])[0]
+    if columns is None:
         return None
-    gamma = gamma[with_gamma]
-    u_gamma = np.asarray(point_values(reduction, "u_gamma_pm"), dtype=float)[with_gamma]
-    published, u_published = found.published, found.u_published
-    difference = gamma - published
-    u_difference = np.hypot(u_gamma, u_published)
+    return {name: column.copy() for name, column in columns.items()}
+
+
+def published_columns_of_many(reductions: Sequence[Reduction]) -> list[dict[str, Any] | None]:
+    r"""The columns of :func:`compare_with_published`'s table for each of many reductions,
+    worked out together, without building the tables.
+
+    Parameters
+    ----------
+    reductions : sequence of Reduction
+        Reductions of any electrolytes, temperatures and molalities.
+
+    Returns
+    -------
+    list of (dict of str to array, or None)
+        For each reduction, in the order of ``reductions``: its columns by name in the table's
+        order, None when there is no published table. The numpy columns are read only (rows
+        of arrays that the reductions of a group share); ``source`` is pandas' extension array,
+        the reduction's own.
+
+    Notes
+    -----
+    The reductions are grouped by electrolyte, temperature and the molalities with γ±: the
+    published values there (:func:`~activolt.activity.published.published_consensus`) are
+    looked up once a group, and
+
+    .. math:: u_c = \sqrt{u^2(γ_±) + u_{pub}^2}
+
+    and the difference and its ratio to u_c are worked out for the whole group at once,
+    elementwise: each column equals, bit for bit, what :func:`published_columns` gives the
+    reduction alone.
+
+    Examples
+    --------
+    >>> published_columns_of_many([])
+    []
+    """
+    groups: dict[tuple[Any, ...], list[tuple[int, np.ndarray, np.ndarray, np.ndarray]]] = {}
+    for position, reduction in enumerate(reductions):
+        gamma = np.asarray(point_values(reduction, "gamma_pm"), dtype=float)
+        with_gamma = ~np.isnan(gamma)
+        m = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[with_gamma]
+        u_gamma = np.asarray(point_values(reduction, "u_gamma_pm"), dtype=float)[with_gamma]
+        key = (reduction.electrolyte, float(reduction.temperature_K), m.tobytes())
+        groups.setdefault(key, []).append((position, m, gamma[with_gamma], u_gamma))
+    found: list[dict[str, Any] | None] = [None] * len(reductions)
+    for (electrolyte, temperature_K, _), members in groups.items():
+        published = _published_at(electrolyte, temperature_K, tuple(members[0][1]))
+        if published is None:
+            continue
+        for (position, *_), columns in zip(members, _group_columns(published, members),
+                                           strict=True):
+            found[position] = columns
+    return found
+
+
+def _group_columns(found: _Published,
+                   members: Sequence[tuple[int, np.ndarray, np.ndarray, np.ndarray]]
+                   ) -> list[dict[str, Any]]:
+    """The columns of the runs of a group (same electrolyte, temperature and molalities) of
+    :func:`published_columns_of_many`: the differences for all of them at once, the columns
+    that depend on the molalities only repeated for each (every array read only)."""
+    m, gamma, u_gamma = (_stacked([member[i] for member in members]) for i in (1, 2, 3))
+    difference = gamma - found.published
+    u_difference = np.hypot(u_gamma, found.u_published)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(u_difference > 0, difference / u_difference, np.nan)
-    fixed = found.columns()
-    return dict(zip(_COLUMN_NAMES, [m, gamma, u_gamma, *fixed[:-1], difference, u_difference, ratio,
-                               fixed[-1]], strict=True))
+    shared = [m, gamma, u_gamma, difference, u_difference, ratio]
+    for array in shared:
+        array.setflags(write=False)  # each run's columns are rows of these: read only too
+    # the columns of the molalities alone are the kept ones (read only), seen through a view
+    # each run, which cannot be made writable
+    fixed = found.fixed
+    return [dict(zip(_COLUMN_NAMES, (
+        m_row, gamma_row, u_row, *(fixed[name].view() for name in _FIXED), difference_row,
+        u_difference_row, ratio_row, found.source.copy()), strict=True))
+        for m_row, gamma_row, u_row, difference_row, u_difference_row, ratio_row
+        in zip(*shared, strict=False)]  # a row for each run (a strict zip of arrays checks
+    # their ends slowly)
+
+
+def _stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
+    """The equal-length ``arrays`` as the rows of one array; one array seen as a row."""
+    return arrays[0][None] if len(arrays) == 1 else np.array(arrays)
 
 
 def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
@@ -227,10 +299,6 @@ class _Published:
     u_published: np.ndarray
     fixed: Mapping[str, Any]
     source: Any
-
-    def columns(self) -> list[Any]:
-        """The fixed columns, in order, then the source column, copied for one table."""
-        return [*(self.fixed[name].copy() for name in _FIXED), self.source.copy()]
 
 
 @functools.lru_cache(maxsize=64)
