@@ -28,6 +28,7 @@ if TYPE_CHECKING:
     from .data.runs import Run
     from .io.files import StagedFolder
     from .procedures.many import SeriesReducer, SeriesReduction
+    from .procedures.properties import DerivedResults
 
 # The command line solves many small least-squares problems, where BLAS threads cost more than
 # they give and contend with each other on a busy machine: one thread unless the user set one
@@ -491,12 +492,17 @@ class _SeriesJob:
                  ) -> Iterator[tuple[int, _SeriesDone]]:
         """Reduce the series ``indices`` together and write each one's outputs into
         ``staged``, yielding (index, result) as each is written. The chunk's records are
-        written to text together (:func:`~activolt.io.json_layout.json_texts`)."""
+        written to text together (:func:`~activolt.io.json_layout.json_texts`), after their
+        derived properties are worked out together
+        (:func:`~activolt.procedures.properties.derive_results_of_many`)."""
         from .io.json_layout import json_texts
+        from .procedures.properties import derive_results_of_many
 
         outcomes = self.reducer.batch([self.runs[index] for index in indices])
-        made = [self._made(index, outcome) for index, outcome in zip(indices, outcomes,
-                                                                     strict=True)]
+        derived = iter(derive_results_of_many([outcome.reduction for outcome in outcomes
+                                               if outcome.reduction is not None]))
+        made = [self._made(index, outcome, None if outcome.reduction is None else next(derived))
+                for index, outcome in zip(indices, outcomes, strict=True)]
         texts = iter(json_texts([outputs.document for _done, outputs in made
                                  if outputs is not None]))
         for index, (done, outputs) in zip(indices, made, strict=True):
@@ -515,13 +521,13 @@ class _SeriesJob:
             entry = self.inputs[key] = input_record(run, self.out)
         return entry
 
-    def _made(self, index: int, outcome: SeriesReduction
+    def _made(self, index: int, outcome: SeriesReduction, derived: DerivedResults | None
               ) -> tuple[_SeriesDone, _SeriesOutputs | None]:
         """Series ``index``'s result, and its outputs but for the record's text (None when the
-        series was not reduced)."""
+        series was not reduced; ``derived``: its derived results, for the report and the
+        record alike)."""
         from .io.record import build_record, points_csv
         from .procedures.many import summary_row
-        from .procedures.properties import derive_results
         from .report.text import format_report
 
         base = self.bases[index]
@@ -529,7 +535,7 @@ class _SeriesJob:
         label = f"{outcome.run.path.name}" + (f", series '{outcome.series}'"
                                               if outcome.series else "")
         reduction = outcome.reduction
-        if reduction is None:
+        if reduction is None or derived is None:
             return _SeriesDone(row, f"{label}: not reduced — {outcome.failure}", (
                 f"activolt: {outcome.run.path}"
                 + (f", series '{outcome.series}'" if outcome.series else "")
@@ -542,7 +548,6 @@ class _SeriesJob:
                                 reduction=reduction,
                                 temperature_u_K=reduction.run.metadata.u_temperature_K,
                                 progress=False)
-        derived = derive_results(reduction)  # once, for the report and the record alike
         report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
                                derived=derived)
         document = build_record(reduction, comparison=outcome.comparison, monte_carlo=monte,
