@@ -454,10 +454,9 @@ def _original_command_line(record: dict[str, Any]) -> list[str] | None:
 def _rereduce_reduction(record: dict[str, Any], folder: Path, names: dict[str, str]
                         ) -> tuple[dict[str, Any], dict[str, bytes | str]]:
     from ..data.runs import Exclusion, exclude_points, read_run
-    from ..io.record import json_text, points_csv, record_json
+    from ..io.outputs import reduction_output_files
+    from ..io.record import json_text
     from ..procedures.dilution import reduce_run
-    from ..procedures.properties import derive_results
-    from ..report.text import format_report
 
     source = record["input"]
     table = folder / names[Path(source["file"]).name]
@@ -504,14 +503,10 @@ def _rereduce_reduction(record: dict[str, Any], folder: Path, names: dict[str, s
         monte = monte_carlo(reduction.run, trials=int(record["monte_carlo"]["trials"]),
                             seed=int(record["monte_carlo"]["seed"]), reduction=reduction,
                             temperature_u_K=run.metadata.u_temperature_K, progress=False)
-    derived = derive_results(reduction)
-    text = record_json(reduction, comparison=comparison, monte_carlo=monte, record_folder=folder,
-                       derived=derived)
     base = table.stem
-    report = format_report(reduction, comparison=comparison, monte_carlo=monte, derived=derived)
-    outputs: dict[str, bytes | str] = {
-        f"{base}.record.json": text, f"{base}.points.csv": points_csv(reduction),
-        f"{base}.report.txt": escape_controls(report, keep="\n")}
+    outputs = reduction_output_files(reduction, base, folder, comparison, monte)
+    text = outputs[f"{base}.record.json"]
+    assert isinstance(text, str)
     new = json.loads(text)
     original = _original_command_line(record)
     if original and isinstance(new.get("provenance"), dict):

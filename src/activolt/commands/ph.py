@@ -18,7 +18,6 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
-from ..safe_text import escape_controls
 from .archive import add_archive_option
 
 NAME = "ph"
@@ -62,12 +61,9 @@ def add_parser(commands: Any) -> argparse.ArgumentParser:
 
 def run(args: argparse.Namespace, written: list[Path]) -> int:
     """Compute, build the output set in memory, write it atomically, print the report."""
-    import hashlib
-
     from ..io.files import check_outputs, write_outputs
-    from ..io.record import ph_points_csv, ph_record_json
+    from ..io.outputs import ph_output_files
     from ..procedures.ph import primary_ph
-    from ..report.ph import format_ph_report, ph_report_html, render_ph_figure
 
     table: Path = args.table
     if args.ionic_strength_mol_kg is not None and not args.ionic_strength_mol_kg >= 0:
@@ -83,20 +79,9 @@ def run(args: argparse.Namespace, written: list[Path]) -> int:
     check_outputs(out, owned, [], inputs)
     result = primary_ph(table, meta, ionic_strength_mol_kg=args.ionic_strength_mol_kg,
                         buffer=args.buffer)
-    import json
-
-    record_name = f"{name}.record.json"
-    record = ph_record_json(result, record_folder=out)
-    report = escape_controls(format_ph_report(result), keep="\n")
-    figure = None if args.no_figures else render_ph_figure(result)
-    contents: dict[str, bytes | str] = {record_name: record,
-                                        f"{name}.points.csv": ph_points_csv(result),
-                                        f"{name}.report.txt": report}
-    if figure is not None:
-        contents[f"{name}.acidity.png"] = figure
-    contents[f"{name}.report.html"] = ph_report_html(
-        json.loads(record), figure,
-        f"{record_name} (SHA-256 {hashlib.sha256(record.encode('utf-8')).hexdigest()[:16]}…)")
+    contents = ph_output_files(result, name, out, figures=not args.no_figures)
+    report = contents[f"{name}.report.txt"]
+    assert isinstance(report, str)
     done = write_outputs(folder=out, contents=contents, owned=owned,
                          inputs=[*inputs, *result.source_files])
     written.extend(done)
