@@ -9,6 +9,7 @@ named on stderr and in the summary with its reason; the others are written); ``c
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import signal
 import sys
@@ -451,24 +452,25 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
     reducer = series_reducer(model, fixed)
     job = _SeriesJob(tuple(runs), tuple(bases), reducer, out, figures, trials, seed)
     done: list[_SeriesDone] = []
-    with output_set(folder=out, owned=owned, inputs=inputs) as staged:
-        assert staged is not None
-        done.extend(_each_series(job, staged, workers))
-        summary = summary_frame([d.row for d in done])
-        staged.write(summary_names[0], summary_csv(summary))
-        if figures != "none":
-            from .report.figures import render_summary_figure
+    with _heap_set_aside():
+        with output_set(folder=out, owned=owned, inputs=inputs) as staged:
+            assert staged is not None
+            done.extend(_each_series(job, staged, workers))
+            summary = summary_frame([d.row for d in done])
+            staged.write(summary_names[0], summary_csv(summary))
+            if figures != "none":
+                from .report.figures import render_summary_figure
 
-            staged.write(summary_names[1], render_summary_figure(summary))
-    rows, lines = [d.row for d in done], [d.line for d in done]
-    failed = [d.failure for d in done if d.failure is not None]
-    if written is not None:
-        written.extend(out / name for d in done for name in d.names)
-        written.extend(out / name for name in summary_names[:1 if figures == "none" else 2])
-    sys.stdout.write(escape_controls(
-        f"activolt: {len(rows) - len(failed)} of {len(rows)} series reduced "
-        f"(model {reducer.model}); summary in {out / summary_names[0]}\n"
-        + "".join(f"  {line}\n" for line in lines), keep="\n"))
+                staged.write(summary_names[1], render_summary_figure(summary))
+        rows, lines = [d.row for d in done], [d.line for d in done]
+        failed = [d.failure for d in done if d.failure is not None]
+        if written is not None:
+            written.extend(out / name for d in done for name in d.names)
+            written.extend(out / name for name in summary_names[:1 if figures == "none" else 2])
+        sys.stdout.write(escape_controls(
+            f"activolt: {len(rows) - len(failed)} of {len(rows)} series reduced "
+            f"(model {reducer.model}); summary in {out / summary_names[0]}\n"
+            + "".join(f"  {line}\n" for line in lines), keep="\n"))
     for failure in failed:
         print(escape_controls(failure), file=sys.stderr)
     return 1 if failed else 0
@@ -629,33 +631,40 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
     """Every series done, in order, with a progress bar on a terminal; reduced in worker
     processes (forked, so that the runs are not copied) when the batch is large and the
     machine has several CPUs. The result of a series does not depend on where it was
-    reduced."""
-    import gc
-
+    reduced. Called with the batch's heap set aside (:func:`_heap_set_aside`)."""
     count = len(job.runs)
     processes = _worker_count(workers, count)
     done: list[_SeriesDone | None] = [None] * count
-    # What exists now (the runs, the modules) lives as long as the batch: the cyclic garbage
-    # collector leaves it aside (gc.freeze) instead of going over it in each full collection
-    # — ten thousand runs are about a million objects — and, in the worker processes, of
-    # writing to the pages they share with this one. The young objects of each series are
-    # collected as before. A process that froze objects of its own is left as it is (the
-    # collector has one permanent generation, which cannot be unfrozen in part).
+    with _progress(count, "reducing") as bar:
+        finished = ((done for chunk in _chunks(range(count), 0, 1)
+                     for done in job(chunk, staged))
+                    if processes == 1 else _in_workers(job, staged, processes))
+        for index, result in finished:
+            done[index] = result
+            bar.update(1)
+    return [result for result in done if result is not None]
+
+
+@contextlib.contextmanager
+def _heap_set_aside() -> Iterator[None]:
+    """What exists on entry (the runs, the modules) lives as long as the batch: the cyclic
+    garbage collector leaves it aside (gc.freeze) instead of going over it in each full
+    collection — ten thousand runs are about a million objects — and, in the worker
+    processes, of writing to the pages they share with this one. The young objects of each
+    series are collected as before. It stays set aside until the batch's summary, file names
+    and lines are made: the first full collection after it is put back would go over all of
+    it. A process that froze objects of its own is left as it is (the collector has one
+    permanent generation, which cannot be unfrozen in part)."""
+    import gc
+
     freezing = gc.get_freeze_count() == 0
     if freezing:
         gc.freeze()
     try:
-        with _progress(count, "reducing") as bar:
-            finished = ((done for chunk in _chunks(range(count), 0, 1)
-                         for done in job(chunk, staged))
-                        if processes == 1 else _in_workers(job, staged, processes))
-            for index, result in finished:
-                done[index] = result
-                bar.update(1)
+        yield
     finally:
         if freezing:
             gc.unfreeze()
-    return [result for result in done if result is not None]
 
 
 def _chunks(indices: range, first: int, step: int) -> Iterator[range]:
