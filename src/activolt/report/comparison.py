@@ -173,22 +173,21 @@ def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, A
     if not shown:
         return found
 
+    keep = np.concatenate([rows for *_, rows in shown])
+
     def kept(name: str) -> np.ndarray:
-        return np.concatenate([np.asarray(columns[name])[rows]
-                               for _, columns, _, rows in shown])
+        return np.concatenate([columns[name] for _, columns, _, _ in shown])[keep]
 
     gamma, u_gamma, mean, spread, difference, ratio = (kept(name) for name in (
         "gamma_pm", "u_gamma_pm", "gamma_pm_published", "spread_published", "difference",
         "difference_over_u"))
     places = np.maximum(3, decimals_for_column(u_gamma)).tolist()
     counts = [int(np.count_nonzero(rows)) for _, _, _, rows in shown]
-    published = [_published_cells(*row) for row in zip(
-        [values for _, columns, _, rows in shown
-         for values, keep in zip(columns["published_values"], rows.tolist(), strict=True)
-         if keep],
-        mean.tolist(), kept("interpolated").tolist(), spread.tolist(),
-        [sources for (_, _, sources, _), count in zip(shown, counts, strict=True)
-         for _ in range(count)], strict=True)]
+    values = [row for _, columns, _, _ in shown for row in columns["published_values"]]
+    named = [sources for _, columns, sources, _ in shown for _ in columns["published_values"]]
+    published = [_published_cells(values[row], m, i, s, named[row]) for row, m, i, s in zip(
+        np.flatnonzero(keep).tolist(), mean.tolist(), kept("interpolated").tolist(),
+        spread.tolist(), strict=True)]
     cells = [format_molality_column(kept("molality_mol_kg")),
              fill_rows("%.*f", [places, gamma.tolist()]),
              [p[0] for p in published], [p[1] for p in published], [p[2] for p in published],

@@ -144,6 +144,8 @@ _EXPONENTS = {n: str(n).translate(_SUPERSCRIPT) for n in range(-300, 301)}
 
 #: 10ⁿ for the exponents of :data:`_EXPONENTS`, as format_scaled computes them (index n + 300).
 _POWERS = np.array([10.0 ** n for n in range(-300, 301)])
+#: What follows the mantissa and its uncertainty written scaled by 10ⁿ (index n + 300).
+_SCALES = np.array([f") × 10{_EXPONENTS[n]}" for n in range(-300, 301)], dtype=object)
 
 
 def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str:
@@ -311,8 +313,7 @@ def _uncertain_column(values: Any, uncertainties: Any, significant: int, compact
     if scaled.any():
         cells = fill_rows("%s%.*f ± %.*f%s", [
             np.where(scaled, "(", "").tolist(), places, value.tolist(), places, u.tolist(),
-            [") × 10" + _EXPONENTS[n] if s else "" for n, s in zip(
-                exponent.tolist(), scaled.tolist(), strict=True)]])
+            np.where(scaled, _SCALES[np.clip(exponent, -300, 300) + 300], "").tolist()])
     else:
         cells = fill_rows("%.*f ± %.*f", [places, value.tolist(), places, u.tolist()])
     scalar = _compact if compact else rounding.format_with_uncertainty

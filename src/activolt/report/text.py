@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Sequence
 from typing import Any, NamedTuple
@@ -102,8 +103,14 @@ _DERIVED_HEADER = ("m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)")
 
 
 def _budget_columns(names: list[str]) -> list[str]:
-    """The points' columns of u(γ±) of each input (of the budget of γ±)."""
-    return [c for c in names if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model"]
+    """The points' columns of u(γ±) of each input (of the budget of γ±), remembered for the
+    last few sets of columns (the reductions of a batch share theirs)."""
+    return list(_budget_columns_of(tuple(names)))
+
+
+@functools.lru_cache(maxsize=16)
+def _budget_columns_of(names: tuple[str, ...]) -> tuple[str, ...]:
+    return tuple(c for c in names if c.startswith("u_gamma_pm_") and c != "u_gamma_pm_model")
 
 
 def _derived_lines(table: list[str]) -> list[str]:
@@ -276,8 +283,8 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
     for index, reduction in enumerate(reductions):
         names = point_names(reduction)
         numbers = [point_values(reduction, name) for name in _POINT_NUMBERS]
-        if "flag" not in names or not all(isinstance(c, np.ndarray) and c.dtype.kind == "f"
-                                          for c in numbers):
+        if "flag" not in names or not all([isinstance(c, np.ndarray) and c.dtype.kind == "f"
+                                           for c in numbers]):
             continue
         texts = point_lists(reduction, [name for name in ("flag", "diagnostic", "electrode")
                                         if name in names])
@@ -297,6 +304,7 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
     residual_cells = fill_rows("%+.4f", [(residual * 1e3).tolist()])
     gamma_cells = format_with_uncertainty_column(gamma, u_gamma)
     user_text: list[list[str]] = [[] for _ in taken]
+    excluded = [False] * len(taken)
     for k, (start, (_, _, _, texts, _)) in enumerate(zip(starts, taken, strict=True)):
         flags, notes = texts["flag"], texts.get("diagnostic", ())
         for row in [row for row, flag in enumerate(flags) if flag is not None]:
@@ -304,6 +312,7 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
                 residual_cells[start + row] = ""
                 gamma_cells[start + row] = f"out of the fit — {flags[row]}"
                 user_text[k].append(flags[row])
+                excluded[k] = excluded[k] or flags[row].startswith("excluded")
         for row in [row for row, note in enumerate(notes) if note is not None]:
             if isinstance(notes[row], str) and not isinstance(flags[row], str):
                 gamma_cells[start + row] += "  ← stands out"
@@ -327,14 +336,14 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
     budgets = _gamma_budgets_of_many([reductions[t[0]] for t in taken],
                                      [t[1] for t in taken], gamma, molality, u_gamma, starts,
                                      sizes)
-    for (index, names, _, texts, named), budget, user in zip(taken, budgets, user_text,
-                                                              strict=True):
+    for (index, names, _, _, named), budget, user, exclusions in zip(
+            taken, budgets, user_text, excluded, strict=True):
         lines = ["", *next(blocks[named])]
-        if any(isinstance(f, str) and f.startswith("excluded") for f in texts["flag"]):
-            exclusions = _exclusion_lines(point_lists(reductions[index], [
+        if exclusions:
+            left_out = _exclusion_lines(point_lists(reductions[index], [
                 name for name in ("flag", "molality_mol_kg", "line") if name in names]))
-            lines += exclusions
-            user += exclusions
+            lines += left_out
+            user += left_out
         found[index] = _PointsLines(lines, budget, user)
     return found
 
@@ -352,7 +361,7 @@ def _gamma_budgets_of_many(reductions: Sequence[Reduction], names: Sequence[list
     high = np.searchsorted(with_gamma, ends).tolist()
     groups: dict[tuple[str, ...], list[tuple[int, list[int]]]] = {}
     for k, (lo, hi) in enumerate(zip(low, high, strict=True)):
-        columns = tuple(_budget_columns(names[k]))
+        columns = _budget_columns_of(tuple(names[k]))
         if hi > lo and columns:
             count = hi - lo
             chosen = [int(with_gamma[lo + i]) for i in sorted({0, count // 2, count - 1})]
