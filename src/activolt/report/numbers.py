@@ -299,7 +299,7 @@ def _uncertain_column(values: Any, uncertainties: Any, significant: int, compact
     u = np.asarray(uncertainties, dtype=float)
     common = np.isfinite(u)  # the rows written here; the others by the scalar rule
     scaled = np.zeros(value.shape, dtype=bool)
-    with np.errstate(invalid="ignore"):
+    with np.errstate(invalid="ignore", over="ignore"):
         if compact:
             scaled = (value != 0.0) & (np.abs(value) < 0.01)  # (false for NaN and ±inf)
         if scaled.any():
@@ -309,6 +309,8 @@ def _uncertain_column(values: Any, uncertainties: Any, significant: int, compact
             scaled &= common
             scale = np.where(scaled, _POWERS[np.clip(exponent, -300, 300) + 300], 1.0)
             value, u = value / scale, u / scale
+            common &= np.isfinite(u)  # (a negative u scaled beyond the floats: held, as alone)
+            scaled &= common
     places = decimals_for_column(u, significant).tolist()
     if scaled.any():
         cells = fill_rows("%s%.*f ± %.*f%s", [
