@@ -141,7 +141,7 @@ def _framed(table: list[str], sources: tuple[str, ...]) -> list[str]:
 
 
 def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, Any] | None]
-                             ) -> list[list[str]]:
+                             ) -> list[tuple[list[str], list[str]]]:
     """:func:`comparison_lines` of each comparison, the cells of all the tables written a
     column at a time (:func:`~activolt.report.numbers.fill_rows`) and the tables aligned
     together (:func:`aligned_blocks`).
@@ -153,18 +153,22 @@ def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, A
 
     Returns
     -------
-    list of list of str
-        The lines of each, in order.
+    list of (list of str, list of str)
+        The lines of each, in order, and the text in them that is not made of numbers and the
+        layout's own words (the published tables' names; all the lines where a comparison is
+        written alone).
     """
-    found: list[list[str]] = [[] for _ in comparisons]
+    found: list[tuple[list[str], list[str]]] = [([], []) for _ in comparisons]
     shown: list[tuple[int, dict[str, Any], tuple[str, ...], np.ndarray]] = []
     for index, comparison in enumerate(comparisons):
         if comparison is None or not _any_number(column_values(comparison,
                                                                "gamma_pm_published")):
             continue
         columns = {name: column_values(comparison, name) for name in _NUMBERS}
-        if not all(isinstance(c, np.ndarray) and c.dtype.kind == "f" for c in columns.values()):
-            found[index] = comparison_lines(comparison)  # (numbers of another kind: one alone)
+        if not all([isinstance(c, np.ndarray) and c.dtype.kind == "f"
+                    for c in columns.values()]):
+            alone = comparison_lines(comparison)  # (numbers of another kind: one alone)
+            found[index] = alone, alone
             continue
         columns["interpolated"] = column_values(comparison, "interpolated")
         values = columns["published_values"] = plain_values(comparison, "published_values")
@@ -203,7 +207,7 @@ def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, A
         start += count
     for (index, _, sources, _), table in zip(shown, aligned_blocks(
             columns_with_headers, [count + 1 for count in counts]), strict=True):
-        found[index] = _framed(table, sources)
+        found[index] = _framed(table, sources), list(sources)
     return found
 
 

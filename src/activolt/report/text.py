@@ -102,6 +102,10 @@ _PROPERTIES = ("molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient"
 _DERIVED_HEADER = ("m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)")
 
 
+#: Whether a text is printable, remembered for the few texts every report shows (cautions).
+_printable = functools.lru_cache(maxsize=64)(str.isprintable)
+
+
 def _budget_columns(names: list[str]) -> list[str]:
     """The points' columns of u(γ±) of each input (of the budget of γ±), remembered for the
     last few sets of columns (the reductions of a batch share theirs)."""
@@ -199,17 +203,17 @@ def _report(reduction: Reduction, tables: list[str], gamma_budget: list[str],
         after.append("\n" + format_model_comparison(comparison).rstrip("\n") + "\n")
     if monte_carlo is not None:
         after.append("\n" + format_monte_carlo(monte_carlo, reduction))
+    text = "\n".join(lines) + "\n" + "".join(after)
     cautions = cautions_for(meta.electrolyte, meta.cell)
     if cautions:
-        after.append("\n" + "\n".join(["  safety:", *[f"  - {c}" for c in cautions]]) + "\n")
-    text = "\n".join(lines) + "\n" + "".join(after)
+        text += "\n" + "\n".join(["  safety:", *[f"  - {c}" for c in cautions]]) + "\n"
     # user text (file, series, electrolyte and cell names, reasons, warnings) shown as printable
     # (a report whose lines are all printable already has nothing to escape); with the tables'
-    # text that is not numbers given (``checked``), the lines around the tables and that text
-    # are all that may not be
-    if checked is not None and all(map(str.isprintable, [
+    # text that is not numbers given (``checked``), the lines around the tables, that text
+    # and the cautions are all that may not be
+    if (checked is not None and all(map(_printable, cautions)) and all(map(str.isprintable, [
             *lines[:first], *lines[last:], *checked,
-            *(part.replace("\n", "") for part in after)])):
+            *(part.replace("\n", "") for part in after)]))):
         return text
     if text.replace("\n", "").isprintable():
         return text
@@ -254,9 +258,10 @@ def format_reports(reductions: Sequence[Reduction],
     properties = _derived_lines_of_many(results)
     return [format_report(reduction, comparison, derived=d) if shown is None else
             _report(reduction, [*shown.lines, *published_lines, *property_lines],
-                    shown.gamma_budget, comparison, None, [*shown.user_text, *published_lines])
-            for reduction, comparison, d, shown, published_lines, property_lines
-            in zip(reductions, comparisons, results, points, published, properties, strict=True)]
+                    shown.gamma_budget, comparison, None, [*shown.user_text, *published_text])
+            for reduction, comparison, d, shown, (published_lines, published_text),
+            property_lines in zip(reductions, comparisons, results, points, published,
+                                  properties, strict=True)]
 
 
 #: The points' columns that the report shows as numbers, read as float arrays.
