@@ -137,7 +137,7 @@ def _report(reduction: Reduction, tables: list[str], gamma_budget: list[str],
         *([f"  cell: {meta.cell}"] if meta.cell else []),
         f"  electrolyte {meta.electrolyte.formula} ({meta.electrolyte.charge_type}), "
         f"n = {meta.electrons}, t = {t_C:.2f} °C, {stats.n_points} readings used"
-        + (f" of {len(run.points)}" if len(run.points) != stats.n_points else ""),
+        + (f" of {rows}" if (rows := len(run.points)) != stats.n_points else ""),
         f"  model: {reduction.model.title}",
         "",
         "  " + _e0_line(reduction),
@@ -293,8 +293,10 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
             continue
         texts = point_lists(reduction, [name for name in ("flag", "diagnostic", "electrode")
                                         if name in names])
-        named = any(isinstance(e, str) and e.strip() for e in texts.get("electrode", ()))
-        taken.append((index, names, numbers, texts, named))
+        # (whether a name is not blank: whether their names joined are not)
+        named = "".join([e for e in texts.get("electrode", ()) if isinstance(e, str)]).strip()
+
+        taken.append((index, names, numbers, texts, bool(named)))
     if not taken:
         return found
     sizes = [len(numbers[0]) for _, _, numbers, _, _ in taken]
