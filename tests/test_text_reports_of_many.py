@@ -134,6 +134,7 @@ def test_a_report_of_many_can_differ(cases):
     reductions = [r for r, _ in cases[:2]]
     first, second = format_reports(reductions)
     assert first != second and first == format_report(reductions[0])
+    assert format_reports([]) == []
 
 
 # --- the column formatters against the scalar ones ----------------------------------------

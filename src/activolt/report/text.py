@@ -246,6 +246,8 @@ def format_reports(reductions: Sequence[Reduction],
         Each reduction's report, as :func:`format_report` writes it, in order.
     """
     count = len(reductions)
+    if not count:
+        return []
     comparisons = list(comparisons) if comparisons is not None else [None] * count
     given = list(derived) if derived is not None else [None] * count
     missing = [i for i, d in enumerate(given) if d is None]
