@@ -72,14 +72,17 @@ def aligned_blocks(columns: Sequence[Sequence[str]], rows: Sequence[int]) -> lis
         return []
     total = len(columns[0])
     starts = np.cumsum([0, *rows[:-1]])
-    counts = np.asarray(rows)
-    widths = [np.repeat(np.maximum.reduceat(np.fromiter(map(len, column), np.int64, total),
-                                            starts), counts).tolist()
-              for column in columns[:-1]]
-    pairs = [part for width, column in zip(widths, columns, strict=False)
-             for part in (width, column)]
-    template = "  " + "   ".join(["%-*s"] * (len(columns) - 1) + ["%s"])
-    lines = fill_rows(template, [*pairs, columns[-1]])
+    # each table's row template (its widths written in), repeated for its rows
+    widths = [np.maximum.reduceat(np.fromiter(map(len, column), np.int64, total),
+                                  starts).tolist() for column in columns[:-1]]
+    tables = zip(*widths, strict=True) if widths else [()] * len(rows)
+    template = "".join([("  " + "   ".join([*[f"%-{w}s" for w in table], "%s"]) + "\n") * count
+                        for table, count in zip(tables, rows, strict=True)])
+    width = len(columns)
+    args: list[str] = [""] * (total * width)
+    for j, column in enumerate(columns):
+        args[j::width] = column
+    lines = (template % tuple(args)).split("\n")[:-1]
     if len(lines) != total:  # (a cell with a line break of its own)
         return [aligned_lines([list(row) for row in zip(*(column[start:start + count]
                                                           for column in columns), strict=True)])

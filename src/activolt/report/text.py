@@ -289,12 +289,19 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
     taken = []  # (index, names, number columns, text columns, whether electrodes are named)
     for index, reduction in enumerate(reductions):
         names = point_names(reduction)
-        numbers = [point_values(reduction, name) for name in _POINT_NUMBERS]
+        run, own = reduction.run, reduction.point_columns
+        # the run's numeric columns as it keeps them, taken out of its table once (the same
+        # values: a float column, or integers that print as its floats do)
+        numbers = [point_values(reduction, name) if name in own or name not in run.arrays
+                   else run.arrays[name] for name in _POINT_NUMBERS]
         if "flag" not in names or not all([isinstance(c, np.ndarray) and c.dtype.kind == "f"
                                            for c in numbers]):
             continue
+        # (without a flag, a run's flags are all missing: none is a reason to show)
         texts = point_lists(reduction, [name for name in ("flag", "diagnostic", "electrode")
-                                        if name in names])
+                                        if name in names and (name != "flag"
+                                                              or not run.usable.all())])
+        texts.setdefault("flag", [None] * len(numbers[0]))
         # (whether a name is not blank: whether their names joined are not)
         named = "".join([e for e in texts.get("electrode", ()) if isinstance(e, str)]).strip()
 
