@@ -194,7 +194,7 @@ def column_values(frame: pd.DataFrame | Mapping[str, Any], name: str) -> Any:
     >>> column_values(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2]}), "n")
     array([1, 2])
     """
-    if isinstance(frame, dict) or isinstance(frame, Mapping):  # (a dict told apart at once)
+    if isinstance(frame, Mapping):
         return frame[name]
     take = getattr(frame, "_get_column_array", None)
     if take is not None:
