@@ -163,6 +163,7 @@ def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, A
     """
     found: list[tuple[list[str], list[str]]] = [([], []) for _ in comparisons]
     shown: list[tuple[int, dict[str, Any], tuple[str, ...], np.ndarray]] = []
+    named_by_rows: dict[tuple[int, ...], tuple[str, ...]] = {}
     for index, comparison in enumerate(comparisons):
         if comparison is None or not _any_number(column_values(comparison,
                                                                "gamma_pm_published")):
@@ -175,7 +176,13 @@ def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, A
             continue
         columns["interpolated"] = column_values(comparison, "interpolated")
         values = columns["published_values"] = plain_values(comparison, "published_values")
-        sources = tuple(dict.fromkeys(source for row in values for source, _, _ in row))
+        # (the comparisons of a chunk at the same molalities share their rows' objects: their
+        # tables named once; the rows are kept in ``shown`` while their addresses are keys)
+        rows_key = tuple(map(id, values))
+        sources = named_by_rows.get(rows_key)
+        if sources is None:
+            sources = named_by_rows[rows_key] = tuple(dict.fromkeys(
+                source for row in values for source, _, _ in row))
         shown.append((index, columns, sources, ~np.isnan(columns["gamma_pm_published"])))
     if not shown:
         return found

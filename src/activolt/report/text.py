@@ -375,18 +375,24 @@ def _gamma_budgets_of_many(reductions: Sequence[Reduction], names: Sequence[list
     ends = np.asarray(starts) + np.asarray(sizes, dtype=np.int64)
     low = np.searchsorted(with_gamma, starts).tolist()
     high = np.searchsorted(with_gamma, ends).tolist()
+    rows_with_gamma = with_gamma.tolist()
     groups: dict[tuple[str, ...], list[tuple[int, list[int]]]] = {}
     for k, (lo, hi) in enumerate(zip(low, high, strict=True)):
         columns = _budget_columns_of(tuple(names[k]))
         if hi > lo and columns:
             count = hi - lo
-            chosen = [int(with_gamma[lo + i]) for i in sorted({0, count // 2, count - 1})]
+            chosen = [rows_with_gamma[lo + i] for i in sorted({0, count // 2, count - 1})]
             groups.setdefault(columns, []).append((k, chosen))
     found: list[list[str]] = [[] for _ in reductions]
     for columns, members in groups.items():
         chosen = [row for _, rows in members for row in rows]
-        each = [np.concatenate([point_values(reductions[k], column)[np.asarray(rows) - starts[k]]
-                                for k, rows in members]).tolist() for column in columns]
+        # the chosen rows among the group's own rows, one reduction after the other
+        at, offset = [], 0
+        for k, rows in members:
+            at += [row - starts[k] + offset for row in rows]
+            offset += sizes[k]
+        each = [np.concatenate([point_values(reductions[k], column) for k, _ in members])[at]
+                .tolist() for column in columns]
         lines = fill_rows(_gamma_budget_row(len(columns)),
                           [molality[chosen].tolist(), *each, u_gamma[chosen].tolist()])
         head = _gamma_budget_head(list(columns))
