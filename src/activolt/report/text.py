@@ -297,14 +297,13 @@ def _points_lines_of_many(reductions: Sequence[Reduction]) -> list[_PointsLines 
         if "flag" not in names or not all([isinstance(c, np.ndarray) and c.dtype.kind == "f"
                                            for c in numbers]):
             continue
-        # (without a flag, a run's flags are all missing: none is a reason to show)
+        # (a run whose readings are all usable has no flag: none is a reason to show)
         texts = point_lists(reduction, [name for name in ("flag", "diagnostic", "electrode")
-                                        if name in names and (name != "flag"
+                                        if name in names and (name != "flag" or name in own
                                                               or not run.usable.all())])
         texts.setdefault("flag", [None] * len(numbers[0]))
         # (whether a name is not blank: whether their names joined are not)
         named = "".join([e for e in texts.get("electrode", ()) if isinstance(e, str)]).strip()
-
         taken.append((index, names, numbers, texts, bool(named)))
     if not taken:
         return found
