@@ -499,11 +499,18 @@ class _SeriesJob:
         (:func:`~activolt.procedures.properties.derive_results_of_many`)."""
         from .io.json_layout import json_texts
         from .procedures.properties import derive_results_of_many
+        from .report.text import format_reports
 
         outcomes = self.reducer.batch([self.runs[index] for index in indices])
-        derived = iter(derive_results_of_many([outcome.reduction for outcome in outcomes
-                                               if outcome.reduction is not None]))
-        made = [self._made(index, outcome, None if outcome.reduction is None else next(derived))
+        reduced = [outcome for outcome in outcomes if outcome.reduction is not None]
+        results = derive_results_of_many([outcome.reduction for outcome in reduced])
+        # the text reports written together (with a Monte Carlo, each with its own)
+        reports = iter(format_reports([outcome.reduction for outcome in reduced],
+                                      [outcome.comparison for outcome in reduced], results)
+                       if self.trials is None else [None] * len(reduced))
+        derived = iter(results)
+        made = [self._made(index, outcome, *((None, None) if outcome.reduction is None
+                                             else (next(derived), next(reports))))
                 for index, outcome in zip(indices, outcomes, strict=True)]
         texts = iter(json_texts([outputs.document for _done, outputs in made
                                  if outputs is not None]))
@@ -523,11 +530,11 @@ class _SeriesJob:
             entry = self.inputs[key] = input_record(run, self.out)
         return entry
 
-    def _made(self, index: int, outcome: SeriesReduction, derived: DerivedResults | None
-              ) -> tuple[_SeriesDone, _SeriesOutputs | None]:
+    def _made(self, index: int, outcome: SeriesReduction, derived: DerivedResults | None,
+              report: str | None = None) -> tuple[_SeriesDone, _SeriesOutputs | None]:
         """Series ``index``'s result, and its outputs but for the record's text (None when the
         series was not reduced; ``derived``: its derived results, for the report and the
-        record alike)."""
+        record alike; ``report``: its text report, when already written)."""
         from .io.record import build_record, points_csv
         from .procedures.many import summary_row
         from .report.text import format_report
@@ -550,8 +557,9 @@ class _SeriesJob:
                                 reduction=reduction,
                                 temperature_u_K=reduction.run.metadata.u_temperature_K,
                                 progress=False)
-        report = format_report(reduction, comparison=outcome.comparison, monte_carlo=monte,
-                               derived=derived)
+        if report is None:
+            report = format_report(reduction, comparison=outcome.comparison,
+                                   monte_carlo=monte, derived=derived)
         document = build_record(reduction, comparison=outcome.comparison, monte_carlo=monte,
                                 record_folder=self.out, derived=derived,
                                 input_entry=self._input_entry(reduction.run))

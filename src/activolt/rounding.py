@@ -5,7 +5,10 @@ from __future__ import annotations
 
 import math
 
-__all__ = ["decimals_for", "format_potential", "format_with_uncertainty"]
+import numpy as np
+
+__all__ = ["decades", "decimals_for", "decimals_for_column", "format_potential",
+           "format_with_uncertainty"]
 
 
 def decimals_for(uncertainty: float, significant: int = 2) -> int:
@@ -20,6 +23,63 @@ def decimals_for(uncertainty: float, significant: int = 2) -> int:
         places = significant - 1 - math.floor(math.log10(uncertainty))
         return places if places > 0 else 0
     return 6
+
+
+def decades(values: np.ndarray) -> np.ndarray:
+    """The decade of each positive finite value, ``math.floor(math.log10(v))`` as the scalar
+    rules compute it (:func:`decimals_for`), for a column at once; 0 elsewhere.
+
+    numpy's ``log10`` may differ from the C library's in the last bit, which moves the floor
+    only where the logarithm is within a hair of an integer: those few values are worked out
+    with :func:`math.log10` itself.
+
+    Parameters
+    ----------
+    values : numpy.ndarray
+        Floats, of any shape.
+
+    Returns
+    -------
+    numpy.ndarray
+        Integers (int64), of the shape of ``values``.
+
+    Examples
+    --------
+    >>> decades(np.array([0.0123, 4.5, 250.0, 0.001, 0.0, np.nan])).tolist()
+    [-2, 0, 2, -3, 0, 0]
+    """
+    values = np.asarray(values, dtype=float)
+    usable = (values > 0.0) & (values < math.inf)
+    logs = np.log10(np.where(usable, values, 1.0))
+    floors = np.floor(logs)
+    for i in np.flatnonzero(usable & (np.abs(logs - np.rint(logs)) < 1e-9)):
+        floors.flat[i] = math.floor(math.log10(values.flat[i]))
+    return floors.astype(np.int64)
+
+
+def decimals_for_column(uncertainties: np.ndarray, significant: int = 2) -> np.ndarray:
+    """:func:`decimals_for` of each uncertainty of a column, at once.
+
+    Parameters
+    ----------
+    uncertainties : numpy.ndarray
+        Floats, of any shape.
+    significant : int
+        Significant digits kept of each uncertainty.
+
+    Returns
+    -------
+    numpy.ndarray
+        Integers (int64), of the shape of ``uncertainties``.
+
+    Examples
+    --------
+    >>> decimals_for_column(np.array([0.0123, 4.5, 250.0, np.nan])).tolist()
+    [3, 1, 0, 6]
+    """
+    uncertainties = np.asarray(uncertainties, dtype=float)
+    usable = (uncertainties > 0.0) & (uncertainties < math.inf)
+    return np.where(usable, np.maximum(significant - 1 - decades(uncertainties), 0), 6)
 
 
 def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",

@@ -6,15 +6,18 @@ from __future__ import annotations
 
 import functools
 import math
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from typing import Any
 
-from .. import rounding
-from ..rounding import decimals_for
+import numpy as np
 
-__all__ = ["decimals_for", "format_compact", "format_molality", "format_scaled",
-           "format_with_uncertainty", "frame_columns", "frame_records", "json_number",
-           "json_numbers"]
+from .. import rounding
+from ..rounding import decades, decimals_for, decimals_for_column
+
+__all__ = ["decimals_for", "fill_rows", "format_compact", "format_compact_column",
+           "format_molality", "format_molality_column", "format_scaled",
+           "format_with_uncertainty", "format_with_uncertainty_column", "frame_columns",
+           "frame_records", "json_number", "json_numbers"]
 
 
 def frame_records(frame: Any) -> list[dict[str, Any]]:
@@ -101,9 +104,48 @@ def json_number(value: float | None) -> float | None:
     return value if math.isfinite(value) else None
 
 
+def fill_rows(template: str, columns: Sequence[Sequence[Any]]) -> list[str]:
+    """``template % row`` for each row of ``columns``, in one ``%`` of the whole column set
+    (a template repeated once per row, split at the line breaks it ends with): the cells of a
+    table's column written at once rather than one call each.
+
+    Parameters
+    ----------
+    template : str
+        A %-template taking one value of each column in turn (``*`` takes a column of its own),
+        whose rows write no line break.
+    columns : sequence of sequences
+        The values, each column as long as the first.
+
+    Returns
+    -------
+    list of str
+        One text per row.
+
+    Examples
+    --------
+    >>> fill_rows("%.*f|%+.1f", [[2, 0], [0.125, 2.5], [1.0, -1.0]])
+    ['0.12|+1.0', '2|-1.0']
+    """
+    rows = len(columns[0]) if columns else 0
+    if not rows:
+        return []
+    width = len(columns)
+    args: list[Any] = [None] * (rows * width)
+    for j, column in enumerate(columns):
+        args[j::width] = column
+    return ((template + "\n") * rows % tuple(args)).split("\n")[:-1]
+
+
 _SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
 #: The exponents format_scaled writes (−300 to 300), as superscripts.
 _EXPONENTS = {n: str(n).translate(_SUPERSCRIPT) for n in range(-300, 301)}
+
+
+#: 10ⁿ for the exponents of :data:`_EXPONENTS`, as format_scaled computes them (index n + 300).
+_POWERS = np.array([10.0 ** n for n in range(-300, 301)])
+#: What follows the mantissa and its uncertainty written scaled by 10ⁿ (index n + 300).
+_SCALES = np.array([f") × 10{_EXPONENTS[n]}" for n in range(-300, 301)], dtype=object)
 
 
 def format_scaled(value: float, uncertainty: float, significant: int = 2) -> str:
@@ -198,6 +240,105 @@ def format_with_uncertainty(value: float, uncertainty: float, unit: str = "",
 
 _remembered = functools.lru_cache(maxsize=4096)(rounding.format_with_uncertainty)
 _remembered_compact = functools.lru_cache(maxsize=4096)(_compact)
+
+
+def format_with_uncertainty_column(values: Any, uncertainties: Any, significant: int = 2
+                                   ) -> list[str]:
+    """:func:`format_with_uncertainty` (without a unit) of each value with its uncertainty, a
+    column at once: the decimal places of the column worked out with numpy
+    (:func:`activolt.rounding.decimals_for_column`), the texts in one ``%``
+    (:func:`fill_rows`); a held value (u not finite) is written by the scalar rule.
+
+    Parameters
+    ----------
+    values, uncertainties : array_like
+        Floats, one dimension, of the same length.
+    significant : int
+        Significant digits of each uncertainty.
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
+    >>> format_with_uncertainty_column([222.35216, 4.31], [0.0061, float("nan")])
+    ['222.3522 ± 0.0061', '4.31 (held)']
+    """
+    return _uncertain_column(values, uncertainties, significant, compact=False)
+
+
+def format_compact_column(values: Any, uncertainties: Any, significant: int = 2) -> list[str]:
+    """:func:`format_compact` of each value with its uncertainty, a column at once, as
+    :func:`format_with_uncertainty_column` writes its column; the powers of ten of the values
+    written scaled (:func:`format_scaled`) found with numpy too. A held value, and a value
+    beyond the scaled notation's range, is written by the scalar rule.
+
+    Parameters
+    ----------
+    values, uncertainties : array_like
+        Floats, one dimension, of the same length.
+    significant : int
+        Significant digits of each uncertainty.
+
+    Returns
+    -------
+    list of str
+
+    Examples
+    --------
+    >>> format_compact_column([0.4972, -4.76031e-05], [0.00097, 9.2e-10])
+    ['0.49720 ± 0.00097', '(-4.760310 ± 0.000092) × 10⁻⁵']
+    """
+    return _uncertain_column(values, uncertainties, significant, compact=True)
+
+
+def _uncertain_column(values: Any, uncertainties: Any, significant: int, compact: bool
+                      ) -> list[str]:
+    value = np.asarray(values, dtype=float)
+    u = np.asarray(uncertainties, dtype=float)
+    common = np.isfinite(u)  # the rows written here; the others by the scalar rule
+    scaled = np.zeros(value.shape, dtype=bool)
+    with np.errstate(invalid="ignore", over="ignore"):
+        if compact:
+            scaled = (value != 0.0) & (np.abs(value) < 0.01)  # (false for NaN and ±inf)
+        if scaled.any():
+            exponent = decades(np.maximum(np.abs(value), u))
+            common &= ~scaled | ((-300 <= exponent) & (exponent <= 300)
+                                 & ~((0.0 < u) & (u < np.abs(value) * 1e-15)))
+            scaled &= common
+            scale = np.where(scaled, _POWERS[np.clip(exponent, -300, 300) + 300], 1.0)
+            value, u = value / scale, u / scale
+            common &= np.isfinite(u)  # (a negative u scaled beyond the floats: held, as alone)
+            scaled &= common
+    places = decimals_for_column(u, significant).tolist()
+    if scaled.any():
+        cells = fill_rows("%s%.*f ± %.*f%s", [
+            np.where(scaled, "(", "").tolist(), places, value.tolist(), places, u.tolist(),
+            np.where(scaled, _SCALES[np.clip(exponent, -300, 300) + 300], "").tolist()])
+    else:
+        cells = fill_rows("%.*f ± %.*f", [places, value.tolist(), places, u.tolist()])
+    scalar = _compact if compact else rounding.format_with_uncertainty
+    for i in np.flatnonzero(~common).tolist():
+        cells[i] = scalar(float(values[i]), float(uncertainties[i]), significant=significant)
+    return cells
+
+
+def format_molality_column(molalities: Any) -> list[str]:
+    """:func:`format_molality` of each molality of a column, at once: each distinct value
+    (bit for bit) written once, in one ``%``.
+
+    Examples
+    --------
+    >>> format_molality_column([0.0015587755, 0.5, 0.0015587755, -0.0])
+    ['0.00155878', '0.5', '0.00155878', '-0']
+    """
+    molality = np.ascontiguousarray(molalities, dtype=float)
+    if not molality.size:
+        return []
+    bits, inverse = np.unique(molality.view(np.int64), return_inverse=True)
+    texts = np.array(fill_rows("%.6g", [bits.view(np.float64).tolist()]), dtype=object)
+    return texts[inverse.reshape(-1)].tolist()
 
 
 def format_molality(molality: float) -> str:
