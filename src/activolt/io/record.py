@@ -43,9 +43,7 @@ from ..procedures.ph import PhResult
 from ..procedures.properties import DerivedResults, derive_results
 from ..procedures.published import (
     plain_values,
-    point_lists,
     point_names,
-    point_values,
     point_values_of_many,
 )
 from ..procedures.temperature import TemperatureStudy
@@ -144,9 +142,14 @@ def _joined(columns: Sequence[Any]) -> Any:
     of one dtype, else the list of their plain values (:func:`_plain`)."""
     import numpy as np
 
-    if columns and all(isinstance(c, np.ndarray) for c in columns) and len(
-            {c.dtype for c in columns}) == 1:
-        return columns[0] if len(columns) == 1 else np.concatenate(columns)
+    if columns and all(isinstance(c, np.ndarray) for c in columns):
+        dtype = columns[0].dtype
+        if all(c.dtype is dtype or c.dtype == dtype for c in columns):
+            return columns[0] if len(columns) == 1 else np.concatenate(columns)
+    arrow = _arrow_texts(columns)
+    if arrow is not None:  # a missing text as pandas gives it (NaN, or NA)
+        na = columns[0].dtype.na_value
+        return [na if v is None else v for v in arrow]
     return [v for column in columns for v in _plain(column)]
 
 
@@ -217,14 +220,10 @@ def _budget_tables(reductions: Sequence[Reduction], lengths: Sequence[int]
     found: list[list[dict[str, Any]]] = [[] for _ in reductions]
     for names, members in groups.items():
         sizes = [lengths[i] for i in members]
-        if names:
-            keys = [name.removeprefix("u_gamma_pm_") for name in names]
-            columns = [_json_column(_joined(point_values_of_many(
-                [reductions[i] for i in members], name))) for name in names]
-            rows = [dict(zip(keys, values, strict=True)) for values in zip(*columns,
-                                                                          strict=True)]
-        else:
-            rows = [{} for _ in range(sum(sizes))]
+        keys = [name.removeprefix("u_gamma_pm_") for name in names]
+        columns = [_json_column(_joined(point_values_of_many(
+            [reductions[i] for i in members], name))) for name in names]
+        rows = _rows(keys, columns, sum(sizes))
         for i, piece in zip(members, _split(rows, sizes), strict=True):
             found[i] = piece
     return found
@@ -284,6 +283,10 @@ def _rows(keys: Any, columns: Any, n_rows: int) -> list[dict[str, Any]]:
     """Rows as dicts from columns (lists of one length ``n_rows``), keys in order."""
     if not keys:
         return [{} for _ in range(n_rows)]
+    if len(keys) == 1:
+        key, = keys
+        column, = columns
+        return [{key: value} for value in column]
     return [dict(zip(keys, row, strict=True)) for row in zip(*columns, strict=True)]
 
 
@@ -323,9 +326,13 @@ def _first_source(derived: DerivedResults, rows: list[dict[str, Any]]
                   ) -> tuple[list[dict[str, Any]], Any]:
     """``rows`` and the source of the first of them (the published table's own when there is
     no row)."""
+    import numpy as np
+
     if not rows:
         return rows, derived.published["source"].iloc[0]
-    return rows, _plain(derived.published_columns["source"][:1])[0]
+    source = derived.published_columns["source"]
+    # pandas' text gives its first text, or its missing value, as plain_values reads it
+    return rows, source[:1].tolist()[0] if isinstance(source, np.ndarray) else source[0]
 
 
 def _derived_tables(derived: Sequence[DerivedResults]) -> list[list[dict[str, Any]]]:
@@ -402,11 +409,12 @@ def build_records(reductions: Sequence[Reduction], created: datetime | None = No
     derived = [d or derive_results(r) for r, d in zip(reductions, derived or nothing,
                                                        strict=True)]
     return [_record(reduction, created, comparison, monte_carlo, record_folder, d, entry,
-                    points, published, properties)
-            for reduction, comparison, monte_carlo, d, entry, points, published, properties
-            in zip(reductions, comparisons or nothing, monte_carlos or nothing, derived,
-                   input_entries or nothing, _point_tables(reductions),
-                   _published_tables(derived), _derived_tables(derived), strict=True)]
+                    points, published, properties, series)
+            for reduction, comparison, monte_carlo, d, entry, points, published, properties,
+            series in zip(reductions, comparisons or nothing, monte_carlos or nothing, derived,
+                          input_entries or nothing, _point_tables(reductions),
+                          _published_tables(derived), _derived_tables(derived),
+                          _series_of_many(reductions), strict=True)]
 
 
 def _record(reduction: Reduction, created: datetime | None,
@@ -414,9 +422,10 @@ def _record(reduction: Reduction, created: datetime | None,
             record_folder: Path | None, derived: DerivedResults,
             input_entry: Mapping[str, Any] | None, points: list[dict[str, Any]],
             published: tuple[list[dict[str, Any]], Any],
-            properties: list[dict[str, Any]]) -> dict[str, Any]:
-    """The record of ``reduction`` (:func:`build_record`), its tables given: ``points``,
-    ``published`` (the comparison's rows and source) and the derived ``properties``' rows."""
+            properties: list[dict[str, Any]], series: str | None) -> dict[str, Any]:
+    """The record of ``reduction`` (:func:`build_record`), its tables and series given:
+    ``points``, ``published`` (the comparison's rows and source), the derived ``properties``'
+    rows and the name of the ``series`` (:func:`run_series`)."""
     run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
     e0 = reduction.standard_potential
     covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
@@ -440,7 +449,7 @@ def _record(reduction: Reduction, created: datetime | None,
         **_head(created),
         "input": dict(input_entry) if input_entry is not None else input_record(
             run, record_folder),
-        "series": run_series(run.points),
+        "series": series,
         "run_info": dict(meta.info),
         "electrolyte": meta.electrolyte.formula,
         "electrons": meta.electrons,
@@ -633,29 +642,46 @@ def _path_from(path: Path, folder: Path | None, real_folder: str | None = None) 
 
 def run_series(points: Any) -> str | None:
     """The name of the series the points hold, or None (no name, or several)."""
-    names = {name for name in plain_values(points, "series") if isinstance(name, str) and name}
-    return names.pop() if len(names) == 1 else None
+    return _only_name(plain_values(points, "series"))
 
 
 def _points_columns(reduction: Reduction) -> dict[str, Any]:
     """The columns of the points table (numpy arrays; text columns as lists), units in the
     names, flagged rows included."""
+    return _points_columns_of_many([reduction])
+
+
+def _points_columns_of_many(reductions: Sequence[Reduction]) -> dict[str, Any]:
+    """The columns of the points tables of ``reductions`` (at least one), one table after
+    another, as :func:`_points_columns` gives each (numpy arrays, each a new one; text columns
+    as lists).
+
+    Raises
+    ------
+    _NotPlainTable
+        A column that is not of one type in every table (each is then written on its own).
+    """
     import numpy as np
 
     def numbers(name: str) -> Any:
-        # a copy in the column's own type, as the points table keeps it
-        values = point_values(reduction, name)
-        return values.copy() if isinstance(values, np.ndarray) else values.to_numpy()
+        # a new array in the column's own type, as the points table keeps it
+        columns = [values if isinstance(values, np.ndarray) else values.to_numpy()
+                   for values in point_values_of_many(reductions, name)]
+        if len(columns) == 1:
+            return columns[0].copy()
+        if len({column.dtype for column in columns}) > 1:
+            raise _NotPlainTable
+        return np.concatenate(columns)
 
     def text(name: str) -> list[Any]:
-        return _neutralised(_text_values(point_values(reduction, name)))
+        return _neutralised(_texts(point_values_of_many(reductions, name)))
 
     def filled(name: str) -> list[Any]:
         # pandas' where(notna, ""): every missing value (None, NaN, NA) becomes ""
         return [v if type(v) is str
                 else "" if v is None or (type(v) is float and v != v)
                 else v if type(v) is float or not _missing(v) else ""
-                for v in point_lists(reduction, [name])[name]]
+                for v in _listed(_joined(point_values_of_many(reductions, name)))]
 
     return {
         "line": numbers("line"),
@@ -694,6 +720,49 @@ def _text_values(values: Any) -> list[Any]:
     if isinstance(values, pd.arrays.ArrowStringArray):
         return pa.array(values).to_pylist()
     return values.to_numpy(dtype=object).tolist()
+
+
+def _texts(columns: Sequence[Any]) -> list[Any]:
+    """Text columns one after another, as :func:`_text_values` reads each (a missing text
+    None or NaN): text held by Arrow read by pyarrow at once."""
+    arrow = _arrow_texts(columns)
+    return arrow if arrow is not None else [v for column in columns for v in _text_values(
+        column)]
+
+
+def _arrow_texts(columns: Sequence[Any]) -> list[Any] | None:
+    """The texts of several of pandas' text columns held by Arrow, of one type, one after
+    another (a missing text None), read by pyarrow at once; None for other columns."""
+    import pandas as pd
+    import pyarrow as pa
+
+    text = pd.arrays.ArrowStringArray
+    if len(columns) < 2 or not all(isinstance(c, text) for c in columns):
+        return None
+    dtype = columns[0].dtype
+    if not all(c.dtype is dtype or c.dtype == dtype for c in columns):
+        return None
+    arrays = [column.__arrow_array__() for column in columns]
+    chunks = [chunk for array in arrays for chunk in (
+        array.chunks if isinstance(array, pa.ChunkedArray) else [array])]
+    if not all(chunk.type == chunks[0].type for chunk in chunks):
+        return None
+    return pa.chunked_array(chunks, type=chunks[0].type).to_pylist() if chunks else []
+
+
+def _series_of_many(reductions: Sequence[Reduction]) -> list[str | None]:
+    """:func:`run_series` of the points of each of ``reductions``, their series columns read
+    together."""
+    columns = point_values_of_many(reductions, "series")
+    names = _split(_texts(columns), [len(column) for column in columns])
+    return [_only_name(piece) for piece in names]
+
+
+def _only_name(names: list[Any]) -> str | None:
+    """The one name among ``names`` (texts; a missing one None or NaN, an empty one ignored),
+    or None (no name, or several)."""
+    found = {name for name in names if isinstance(name, str) and name}
+    return found.pop() if len(found) == 1 else None
 
 
 def _neutralised(cells: list[Any]) -> list[Any]:
@@ -803,26 +872,16 @@ def table_csv(columns: dict[str, Any]) -> str:
     import csv
     import io
 
-    import numpy as np
-
-    try:
-        cells = [_csv_cells(column) for column in columns.values()]
-    except _NotPlainTable:
+    cells = _table_cells(columns)
+    if cells is None:
         import pandas as pd
 
         return pd.DataFrame(columns).to_csv(index=False, float_format="%.10g",
                                             lineterminator="\n")
     names = list(columns)
-    if len(names) > 1 and all(type(name) is str for name in names):
-        # Rows joined with commas, when the csv writer quotes none of the names and texts (it
-        # quotes a field for what the field holds; numbers and empty cells never, but the
-        # single empty field of a one-column row): asked of the writer itself, in one row.
-        texts = {cell for column, column_cells in zip(columns.values(), cells, strict=True)
-                 if not isinstance(column, np.ndarray) for cell in column_cells}
-        fields = [*names, *texts]
-        if _csv_row(fields) == ",".join(fields) + "\n":
-            return "".join([",".join(names) + "\n",
-                            *[",".join(row) + "\n" for row in zip(*cells, strict=True)]])
+    if _joinable(columns, cells):
+        return "".join([",".join(names) + "\n",
+                        *[",".join(row) + "\n" for row in zip(*cells, strict=True)]])
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(names)
@@ -830,9 +889,70 @@ def table_csv(columns: dict[str, Any]) -> str:
     return buffer.getvalue()
 
 
+def _table_cells(columns: Mapping[str, Any]) -> list[list[str]] | None:
+    """Each column's cells (:func:`_csv_cells`), or None when a column is left to pandas."""
+    try:
+        return [_csv_cells(column) for column in columns.values()]
+    except _NotPlainTable:
+        return None
+
+
+def _joinable(columns: Mapping[str, Any], cells: list[list[str]]) -> bool:
+    """Whether the table's rows are its cells joined with commas: when the csv writer quotes
+    none of the names and texts (it quotes a field for what the field holds; numbers and empty
+    cells never, but the single empty field of a one-column row) — asked of the writer
+    itself, in one row."""
+    import numpy as np
+
+    names = list(columns)
+    if len(names) < 2 or not all(type(name) is str for name in names):
+        return False
+    texts = {cell for column, column_cells in zip(columns.values(), cells, strict=True)
+             if not isinstance(column, np.ndarray) for cell in column_cells}
+    fields = [*names, *texts]
+    return _csv_row(fields) == ",".join(fields) + "\n"
+
+
 def points_csv(reduction: Reduction) -> str:
     """The points table as CSV text, units in the column names, flagged rows included."""
     return table_csv(_points_columns(reduction))
+
+
+def points_csvs(reductions: Sequence[Reduction]) -> list[str]:
+    """The points tables of many reductions (a chunk of a batch) as CSV text, each what
+    :func:`points_csv` writes for it alone: the columns of all the tables read and their
+    cells formatted together, one format a column.
+
+    Parameters
+    ----------
+    reductions : sequence of Reduction
+        The reductions, of any models and lengths.
+
+    Returns
+    -------
+    list of str
+        One table for each reduction, in the order of ``reductions``. When a cell must be
+        quoted, or a column is left to pandas (an infinity, an unusual type), each table is
+        written on its own.
+
+    Examples
+    --------
+    >>> points_csvs([])
+    []
+    """
+    if len(reductions) < 2:
+        return [points_csv(reduction) for reduction in reductions]
+    try:
+        columns = _points_columns_of_many(reductions)
+    except _NotPlainTable:
+        columns = None
+    cells = None if columns is None else _table_cells(columns)
+    if columns is None or cells is None or not _joinable(columns, cells):
+        return [points_csv(reduction) for reduction in reductions]
+    header = ",".join(columns) + "\n"
+    rows = [",".join(row) + "\n" for row in zip(*cells, strict=True)]
+    lengths = [len(line) for line in point_values_of_many(reductions, "line")]
+    return ["".join([header, *piece]) for piece in _split(rows, lengths)]
 
 
 def comparison_record(comparison: ModelComparison) -> dict:
