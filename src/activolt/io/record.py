@@ -146,10 +146,6 @@ def _joined(columns: Sequence[Any]) -> Any:
         dtype = columns[0].dtype
         if all(c.dtype is dtype or c.dtype == dtype for c in columns):
             return columns[0] if len(columns) == 1 else np.concatenate(columns)
-    arrow = _arrow_texts(columns)
-    if arrow is not None:  # a missing text as pandas gives it (NaN, or NA)
-        na = columns[0].dtype.na_value
-        return [na if v is None else v for v in arrow]
     return [v for column in columns for v in _plain(column)]
 
 
@@ -248,7 +244,8 @@ def _point_tables(reductions: Sequence[Reduction]) -> list[list[dict[str, Any]]]
             _listed(u_gamma), [k_i for k_i, n in zip(k, lengths, strict=True)
                                for _ in range(n)], strict=True)])
     else:
-        expanded = _json_column(u_gamma * np.repeat(k, lengths))
+        with np.errstate(over="ignore", invalid="ignore"):  # inf and NaN, as Python makes them
+            expanded = _json_column(u_gamma * np.repeat(k, lengths))
     budgets = [row for rows in _budget_tables(reductions, lengths) for row in rows]
     columns = (
         _int_column(table["line"]),
@@ -724,30 +721,8 @@ def _text_values(values: Any) -> list[Any]:
 
 def _texts(columns: Sequence[Any]) -> list[Any]:
     """Text columns one after another, as :func:`_text_values` reads each (a missing text
-    None or NaN): text held by Arrow read by pyarrow at once."""
-    arrow = _arrow_texts(columns)
-    return arrow if arrow is not None else [v for column in columns for v in _text_values(
-        column)]
-
-
-def _arrow_texts(columns: Sequence[Any]) -> list[Any] | None:
-    """The texts of several of pandas' text columns held by Arrow, of one type, one after
-    another (a missing text None), read by pyarrow at once; None for other columns."""
-    import pandas as pd
-    import pyarrow as pa
-
-    text = pd.arrays.ArrowStringArray
-    if len(columns) < 2 or not all(isinstance(c, text) for c in columns):
-        return None
-    dtype = columns[0].dtype
-    if not all(c.dtype is dtype or c.dtype == dtype for c in columns):
-        return None
-    arrays = [column.__arrow_array__() for column in columns]
-    chunks = [chunk for array in arrays for chunk in (
-        array.chunks if isinstance(array, pa.ChunkedArray) else [array])]
-    if not all(chunk.type == chunks[0].type for chunk in chunks):
-        return None
-    return pa.chunked_array(chunks, type=chunks[0].type).to_pylist() if chunks else []
+    None or NaN)."""
+    return [v for column in columns for v in _text_values(column)]
 
 
 def _series_of_many(reductions: Sequence[Reduction]) -> list[str | None]:
@@ -949,10 +924,20 @@ def points_csvs(reductions: Sequence[Reduction]) -> list[str]:
     cells = None if columns is None else _table_cells(columns)
     if columns is None or cells is None or not _joinable(columns, cells):
         return [points_csv(reduction) for reduction in reductions]
+    # every cell followed by its separator (a comma, a line break after a row's last cell),
+    # laid out column by column; each table is then one join
+    width, n_rows = 2 * len(cells), len(cells[0])
+    fields = [","] * (width * n_rows)
+    fields[width - 1::width] = ["\n"] * n_rows
+    for i, column_cells in enumerate(cells):
+        fields[2 * i::width] = column_cells
     header = ",".join(columns) + "\n"
-    rows = [",".join(row) + "\n" for row in zip(*cells, strict=True)]
-    lengths = [len(line) for line in point_values_of_many(reductions, "line")]
-    return ["".join([header, *piece]) for piece in _split(rows, lengths)]
+    texts, start = [], 0
+    for line in point_values_of_many(reductions, "line"):
+        end = start + width * len(line)
+        texts.append(header + "".join(fields[start:end]))
+        start = end
+    return texts
 
 
 def comparison_record(comparison: ModelComparison) -> dict:
