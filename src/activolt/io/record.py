@@ -210,9 +210,7 @@ def _budget_tables(reductions: Sequence[Reduction], lengths: Sequence[int]
     have the same components."""
     groups: dict[tuple[str, ...], list[int]] = {}
     for position, reduction in enumerate(reductions):
-        names = tuple(name for name in point_names(reduction)
-                      if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model")
-        groups.setdefault(names, []).append(position)
+        groups.setdefault(_budget_names(tuple(point_names(reduction))), []).append(position)
     found: list[list[dict[str, Any]]] = [[] for _ in reductions]
     for names, members in groups.items():
         sizes = [lengths[i] for i in members]
@@ -223,6 +221,13 @@ def _budget_tables(reductions: Sequence[Reduction], lengths: Sequence[int]
         for i, piece in zip(members, _split(rows, sizes), strict=True):
             found[i] = piece
     return found
+
+
+@functools.lru_cache(maxsize=16)
+def _budget_names(names: tuple[str, ...]) -> tuple[str, ...]:
+    """The budget columns (``u_gamma_pm_<input>``) among the points' column ``names``."""
+    return tuple(name for name in names
+                 if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model")
 
 
 def _point_tables(reductions: Sequence[Reduction]) -> list[list[dict[str, Any]]]:
@@ -308,8 +313,7 @@ def _published_tables(derived: Sequence[DerivedResults]
         [bool(v) for v in _listed(table["interpolated"])],
         _json_column(table["difference"]),
         _int_column(table["n_sources"]),
-        [[{"source": source, "gamma_pm": json_number(value), "interpolated": not printed}
-          for source, value, printed in values] for values in _listed(table["published_values"])],
+        _published_values(_listed(table["published_values"])),
         _json_column(table["spread_published"]),
         _json_column(table["u_published"]),
         _json_column(table["u_difference"]),
@@ -317,6 +321,23 @@ def _published_tables(derived: Sequence[DerivedResults]
     found = iter(zip(compared, rows, strict=True))
     return [([], None) if d.published_columns is None else _first_source(*next(found))
             for d in derived]
+
+
+def _published_values(cells: list[Any]) -> list[list[dict[str, Any]]]:
+    """Each row's ``published_values`` entries (its cell: a tuple of (source, γ±, printed)),
+    each distinct cell converted once: the runs of a chunk at the same molalities share their
+    cells."""
+    converted: dict[int, list[tuple[Any, float | None, bool]]] = {}  # by the id of a cell,
+    # every cell held by ``cells`` meanwhile
+    rows = []
+    for values in cells:
+        entries = converted.get(id(values))
+        if entries is None:
+            entries = converted[id(values)] = [(source, json_number(value), not printed)
+                                               for source, value, printed in values]
+        rows.append([{"source": source, "gamma_pm": value, "interpolated": interpolated}
+                     for source, value, interpolated in entries])
+    return rows
 
 
 def _first_source(derived: DerivedResults, rows: list[dict[str, Any]]
