@@ -202,6 +202,7 @@ def _changed(reduction, data, label):
                                point_columns=columns)
 
 
+@pytest.mark.filterwarnings("ignore:overflow encountered:RuntimeWarning")  # huge γ± drawn
 @settings(max_examples=40, deadline=None)
 @given(st.data())
 def test_any_floats_and_texts_of_a_chunk_are_each_series_own(cases, data):
