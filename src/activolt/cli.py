@@ -28,8 +28,9 @@ from .safe_text import escape_controls
 if TYPE_CHECKING:
     from .data.runs import Run
     from .io.files import StagedFolder
+    from .procedures.dilution import Reduction
     from .procedures.many import SeriesReducer, SeriesReduction
-    from .procedures.properties import DerivedResults
+    from .procedures.montecarlo import MonteCarloResult
 
 # The command line solves many small least-squares problems, where BLAS threads cost more than
 # they give and contend with each other on a busy machine: one thread unless the user set one
@@ -493,24 +494,36 @@ class _SeriesJob:
     def __call__(self, indices: Sequence[int], staged: StagedFolder
                  ) -> Iterator[tuple[int, _SeriesDone]]:
         """Reduce the series ``indices`` together and write each one's outputs into
-        ``staged``, yielding (index, result) as each is written. The chunk's records are
-        written to text together (:func:`~activolt.io.json_layout.json_texts`), after their
-        derived properties are worked out together
-        (:func:`~activolt.procedures.properties.derive_results_of_many`)."""
+        ``staged``, yielding (index, result) as each is written. The chunk's derived
+        properties are worked out together
+        (:func:`~activolt.procedures.properties.derive_results_of_many`), then its records and
+        points tables and text reports are made together
+        (:func:`~activolt.io.record.build_records`, :func:`~activolt.io.record.points_csvs`,
+        :func:`~activolt.report.text.format_reports`) and the records written to text together
+        (:func:`~activolt.io.json_layout.json_texts`)."""
         from .io.json_layout import json_texts
+        from .io.record import build_records, points_csvs
         from .procedures.properties import derive_results_of_many
-        from .report.text import format_reports
+        from .report.text import format_report, format_reports
 
         outcomes = self.reducer.batch([self.runs[index] for index in indices])
         reduced = [outcome for outcome in outcomes if outcome.reduction is not None]
-        results = derive_results_of_many([outcome.reduction for outcome in reduced])
+        reductions = [outcome.reduction for outcome in reduced]
+        comparisons = [outcome.comparison for outcome in reduced]
+        derived = derive_results_of_many(reductions)
+        montes = [self._monte_carlo(reduction) for reduction in reductions]
+        documents = build_records(
+            reductions, comparisons=comparisons, monte_carlos=montes, record_folder=self.out,
+            derived=derived,
+            input_entries=[self._input_entry(reduction.run) for reduction in reductions])
         # the text reports written together (with a Monte Carlo, each with its own)
-        reports = iter(format_reports([outcome.reduction for outcome in reduced],
-                                      [outcome.comparison for outcome in reduced], results)
-                       if self.trials is None else [None] * len(reduced))
-        derived = iter(results)
-        made = [self._made(index, outcome, *((None, None) if outcome.reduction is None
-                                             else (next(derived), next(reports))))
+        reports = (format_reports(reductions, comparisons, derived) if self.trials is None
+                   else [format_report(reduction, comparison=comparison, monte_carlo=monte,
+                                       derived=results)
+                         for reduction, comparison, monte, results
+                         in zip(reductions, comparisons, montes, derived, strict=True)])
+        parts = iter(zip(documents, points_csvs(reductions), reports, strict=True))
+        made = [self._made(index, outcome, None if outcome.reduction is None else next(parts))
                 for index, outcome in zip(indices, outcomes, strict=True)]
         texts = iter(json_texts([outputs.document for _done, outputs in made
                                  if outputs is not None]))
@@ -530,43 +543,40 @@ class _SeriesJob:
             entry = self.inputs[key] = input_record(run, self.out)
         return entry
 
-    def _made(self, index: int, outcome: SeriesReduction, derived: DerivedResults | None,
-              report: str | None = None) -> tuple[_SeriesDone, _SeriesOutputs | None]:
+    def _monte_carlo(self, reduction: Reduction) -> MonteCarloResult | None:
+        """The Monte Carlo result of ``reduction`` when the batch asks for one (``--trials``)."""
+        if self.trials is None:
+            return None
+        from .procedures.montecarlo import monte_carlo
+
+        return monte_carlo(reduction.run, trials=self.trials, seed=self.seed,
+                           reduction=reduction,
+                           temperature_u_K=reduction.run.metadata.u_temperature_K,
+                           progress=False)
+
+    def _made(self, index: int, outcome: SeriesReduction,
+              parts: tuple[dict[str, Any], str, str] | None
+              ) -> tuple[_SeriesDone, _SeriesOutputs | None]:
         """Series ``index``'s result, and its outputs but for the record's text (None when the
-        series was not reduced; ``derived``: its derived results, for the report and the
-        record alike; ``report``: its text report, when already written)."""
-        from .io.record import build_record, points_csv
+        series was not reduced; ``parts``: its record, points table and text report, made with
+        the chunk's)."""
         from .procedures.many import summary_row
-        from .report.text import format_report
 
         base = self.bases[index]
         row = summary_row(outcome, self.reducer.model)
         label = f"{outcome.run.path.name}" + (f", series '{outcome.series}'"
                                               if outcome.series else "")
         reduction = outcome.reduction
-        if reduction is None or derived is None:
+        if reduction is None or parts is None:
             return _SeriesDone(row, f"{label}: not reduced — {outcome.failure}", (
                 f"activolt: {outcome.run.path}"
                 + (f", series '{outcome.series}'" if outcome.series else "")
                 + f": not reduced: {outcome.failure}"), ()), None
-        monte = None
-        if self.trials is not None:
-            from .procedures.montecarlo import monte_carlo
-
-            monte = monte_carlo(reduction.run, trials=self.trials, seed=self.seed,
-                                reduction=reduction,
-                                temperature_u_K=reduction.run.metadata.u_temperature_K,
-                                progress=False)
-        if report is None:
-            report = format_report(reduction, comparison=outcome.comparison,
-                                   monte_carlo=monte, derived=derived)
-        document = build_record(reduction, comparison=outcome.comparison, monte_carlo=monte,
-                                record_folder=self.out, derived=derived,
-                                input_entry=self._input_entry(reduction.run))
+        document, points, report = parts
         # format_report escapes user text itself (its text is printable but for line breaks),
         # so the report is written as it comes rather than escaped a second time
         contents: dict[str, str | bytes] = {
-            f"{base}.points.csv": points_csv(reduction),
+            f"{base}.points.csv": points,
             f"{base}.report.txt": report if report.endswith("\n") else report + "\n"}
         drawn: dict[str, bytes] = {}
         if self.figures == "all":

@@ -13,7 +13,7 @@ import json.encoder
 import math
 import os
 import platform
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from contextvars import ContextVar
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -41,7 +41,11 @@ from ..procedures.model_choice import (
 from ..procedures.montecarlo import MonteCarloResult
 from ..procedures.ph import PhResult
 from ..procedures.properties import DerivedResults, derive_results
-from ..procedures.published import plain_values, point_lists, point_names, point_values
+from ..procedures.published import (
+    plain_values,
+    point_names,
+    point_values_of_many,
+)
 from ..procedures.temperature import TemperatureStudy
 from ..report.cautions import cautions_for
 from ..report.numbers import json_number, json_numbers
@@ -124,88 +128,246 @@ _POINT_COLUMNS = ("line", "molality_mol_kg", "u_molality_mol_kg", "emf_V", "u_em
                   "cooks_distance", "note")
 
 
-def _point_records(reduction: Reduction) -> list[dict[str, Any]]:
-    """Every reading of ``reduction`` as the record's ``points`` entries (built column by
-    column: each column of the points converted once, without building the table, and its
-    numbers checked in one pass)."""
-    k = reduction.statistics.coverage_factor
-    budget_columns = [name for name in point_names(reduction)
-                      if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model"]
-    table = point_lists(reduction, [*_POINT_COLUMNS, *budget_columns])
-    flags, diagnostics = table["flag"], table["diagnostic"]
+def _plain(values: Any) -> list[Any]:
+    """A column as plain Python values, as :func:`plain_values` reads a table's column."""
+    import numpy as np
+
+    if isinstance(values, np.ndarray):
+        return values.tolist()
+    return values.to_numpy(dtype=object).tolist()
+
+
+def _joined(columns: Sequence[Any]) -> Any:
+    """The columns of many tables one after another: one numpy array when they are numpy arrays
+    of one dtype, else the list of their plain values (:func:`_plain`)."""
+    import numpy as np
+
+    if columns and all(isinstance(c, np.ndarray) for c in columns):
+        dtype = columns[0].dtype
+        if all(c.dtype is dtype or c.dtype == dtype for c in columns):
+            return columns[0] if len(columns) == 1 else np.concatenate(columns)
+    return [v for column in columns for v in _plain(column)]
+
+
+def _listed(values: Any) -> list[Any]:
+    """:func:`_joined`'s values as a list of plain values."""
+    return values if isinstance(values, list) else values.tolist()
+
+
+def _json_column(values: Any) -> list[float | None]:
+    """:func:`json_numbers` of :func:`_joined`'s values: a float array converted at once, its
+    non-finite numbers then set to None."""
+    import numpy as np
+
+    if isinstance(values, list) or values.dtype.kind != "f":
+        return json_numbers(_listed(values))
+    cells = values.tolist()
+    for i in np.flatnonzero(~np.isfinite(values)).tolist():
+        cells[i] = None
+    return cells
+
+
+def _float_column(values: Any) -> list[Any]:
+    """``float`` of each of :func:`_joined`'s values."""
+    if isinstance(values, list) or values.dtype.kind != "f":
+        return [float(v) for v in _listed(values)]
+    return values.tolist()
+
+
+def _int_column(values: Any) -> list[Any]:
+    """``int`` of each of :func:`_joined`'s values."""
+    if isinstance(values, list) or values.dtype.kind not in "iu":
+        return [int(v) for v in _listed(values)]
+    return values.tolist()
+
+
+def _kept_column(values: Any) -> list[Any]:
+    """:func:`_joined`'s values as a derived table's row keeps them: a float a
+    :func:`json_number`, any other value as it is."""
+    if not isinstance(values, list):
+        if values.dtype.kind == "f":
+            return _json_column(values)
+        if values.dtype.kind in "iub":
+            return values.tolist()
+    isfinite = math.isfinite
+    return [v if type(v) is float and isfinite(v) else json_number(v) if isinstance(v, float)
+            else v for v in _listed(values)]
+
+
+def _split(rows: list[Any], lengths: Sequence[int]) -> list[list[Any]]:
+    """``rows`` cut into consecutive pieces of ``lengths``."""
+    pieces, start = [], 0
+    for n in lengths:
+        pieces.append(rows[start:start + n])
+        start += n
+    return pieces
+
+
+def _budget_tables(reductions: Sequence[Reduction], lengths: Sequence[int]
+                   ) -> list[list[dict[str, Any]]]:
+    """Each reading's ``u_gamma_pm_budget`` of each of ``reductions``: the components of u(γ±)
+    (the points' ``u_gamma_pm_<input>`` columns), worked out together for the reductions that
+    have the same components."""
+    groups: dict[tuple[str, ...], list[int]] = {}
+    for position, reduction in enumerate(reductions):
+        groups.setdefault(_budget_names(tuple(point_names(reduction))), []).append(position)
+    found: list[list[dict[str, Any]]] = [[] for _ in reductions]
+    for names, members in groups.items():
+        sizes = [lengths[i] for i in members]
+        keys = [name.removeprefix("u_gamma_pm_") for name in names]
+        columns = [_json_column(_joined(point_values_of_many(
+            [reductions[i] for i in members], name))) for name in names]
+        rows = _rows(keys, columns, sum(sizes))
+        for i, piece in zip(members, _split(rows, sizes), strict=True):
+            found[i] = piece
+    return found
+
+
+@functools.lru_cache(maxsize=16)
+def _budget_names(names: tuple[str, ...]) -> tuple[str, ...]:
+    """The budget columns (``u_gamma_pm_<input>``) among the points' column ``names``."""
+    return tuple(name for name in names
+                 if name.startswith("u_gamma_pm_") and name != "u_gamma_pm_model")
+
+
+def _point_tables(reductions: Sequence[Reduction]) -> list[list[dict[str, Any]]]:
+    """Every reading of each of ``reductions`` as its record's ``points`` entries, the columns
+    of all of them read and converted together (each column once, without building the
+    tables)."""
+    import numpy as np
+
+    lines = point_values_of_many(reductions, "line")
+    lengths = [len(column) for column in lines]
+    table = {name: _joined(lines if name == "line" else point_values_of_many(reductions, name))
+             for name in _POINT_COLUMNS}
+    flags, diagnostics = _listed(table["flag"]), _listed(table["diagnostic"])
     u_gamma = table["u_gamma_pm"]
-    budget_keys = [name.removeprefix("u_gamma_pm_") for name in budget_columns]
-    budgets = ([dict(zip(budget_keys, values, strict=True)) for values in zip(
-        *(json_numbers(table[name]) for name in budget_columns), strict=True)]
-        if budget_columns else [{} for _ in u_gamma])
+    k = [reduction.statistics.coverage_factor for reduction in reductions]
+    if isinstance(u_gamma, list) or u_gamma.dtype.kind != "f" or not all(
+            type(v) is float for v in k):
+        expanded = json_numbers([u * k_i for u, k_i in zip(
+            _listed(u_gamma), [k_i for k_i, n in zip(k, lengths, strict=True)
+                               for _ in range(n)], strict=True)])
+    else:
+        with np.errstate(over="ignore", invalid="ignore"):  # inf and NaN, as Python makes them
+            expanded = _json_column(u_gamma * np.repeat(k, lengths))
+    budgets = [row for rows in _budget_tables(reductions, lengths) for row in rows]
     columns = (
-        [int(v) for v in table["line"]],
-        [float(v) for v in table["molality_mol_kg"]],
-        json_numbers(table["u_molality_mol_kg"]),
-        json_numbers(table["emf_V"]),
-        json_numbers(table["u_emf_V"]),
-        [float(v) for v in table["temperature_K"]],
-        json_numbers(table["pressure_correction_V"]),
-        json_numbers(table["gas_pressure_Pa"]),
-        [v or None for v in table["electrode"]],
-        json_numbers(table["fitted_emf_V"]),
-        json_numbers(table["residual_V"]),
-        json_numbers(table["gamma_pm"]),
-        json_numbers(u_gamma),
-        json_numbers(table["gamma_pm_model"]),
-        json_numbers(table["u_gamma_pm_model"]),
+        _int_column(table["line"]),
+        _float_column(table["molality_mol_kg"]),
+        _json_column(table["u_molality_mol_kg"]),
+        _json_column(table["emf_V"]),
+        _json_column(table["u_emf_V"]),
+        _float_column(table["temperature_K"]),
+        _json_column(table["pressure_correction_V"]),
+        _json_column(table["gas_pressure_Pa"]),
+        [v or None for v in _listed(table["electrode"])],
+        _json_column(table["fitted_emf_V"]),
+        _json_column(table["residual_V"]),
+        _json_column(table["gamma_pm"]),
+        _json_column(u_gamma),
+        _json_column(table["gamma_pm_model"]),
+        _json_column(table["u_gamma_pm_model"]),
         [flag if isinstance(flag, str) else diagnostic if isinstance(diagnostic, str) else None
          for flag, diagnostic in zip(flags, diagnostics, strict=True)],
         [not isinstance(flag, str) for flag in flags],
-        json_numbers([u * k for u in u_gamma]),
+        expanded,
         budgets,
-        json_numbers(table["leverage"]),
-        json_numbers(table["studentized_residual"]),
-        json_numbers(table["cooks_distance"]),
-        [v or None for v in table["note"]],
+        _json_column(table["leverage"]),
+        _json_column(table["studentized_residual"]),
+        _json_column(table["cooks_distance"]),
+        [v or None for v in _listed(table["note"])],
     )
-    return [dict(zip(_POINT_KEYS, row, strict=True)) for row in zip(*columns, strict=True)]
+    return _split(_rows(_POINT_KEYS, columns, sum(lengths)), lengths)
 
 
 def _rows(keys: Any, columns: Any, n_rows: int) -> list[dict[str, Any]]:
     """Rows as dicts from columns (lists of one length ``n_rows``), keys in order."""
     if not keys:
         return [{} for _ in range(n_rows)]
+    if len(keys) == 1:
+        key, = keys
+        column, = columns
+        return [{key: value} for value in column]
     return [dict(zip(keys, row, strict=True)) for row in zip(*columns, strict=True)]
 
 
-def _published_records(derived: DerivedResults) -> tuple[list[dict[str, Any]], Any]:
-    """The record's ``published_comparison`` entries and ``published_source`` (the first
-    row's source, the table's own when it has no row), read from the table's columns."""
-    columns = derived.published_columns
-    table = {name: plain_values(columns, name) for name in columns}
-    molality = [float(v) for v in table["molality_mol_kg"]]
-    rows = _rows(("molality_mol_kg", "gamma_pm_published", "interpolated", "difference",
-                  "n_sources", "published_values", "spread_published", "u_published",
-                  "u_difference", "difference_over_u"), (
-        molality,
-        json_numbers(table["gamma_pm_published"]),
-        [bool(v) for v in table["interpolated"]],
-        json_numbers(table["difference"]),
-        [int(v) for v in table["n_sources"]],
-        [[{"source": source, "gamma_pm": json_number(value), "interpolated": not printed}
-          for source, value, printed in values] for values in table["published_values"]],
-        json_numbers(table["spread_published"]),
-        json_numbers(table["u_published"]),
-        json_numbers(table["u_difference"]),
-        json_numbers(table["difference_over_u"])), len(molality))
-    return rows, (table["source"][0] if rows else derived.published["source"].iloc[0])
+#: The keys of each entry of a record's ``published_comparison``, in order.
+_PUBLISHED_KEYS = ("molality_mol_kg", "gamma_pm_published", "interpolated", "difference",
+                   "n_sources", "published_values", "spread_published", "u_published",
+                   "u_difference", "difference_over_u")
 
 
-def _derived_records(properties: Mapping[str, Any]) -> list[dict[str, Any]]:
-    """The rows of the derived properties (``properties``: the table's columns), every float a
-    :func:`json_number`."""
-    table = {name: plain_values(properties, name) for name in properties}
-    isfinite = math.isfinite
-    columns = [[v if type(v) is float and isfinite(v)
-                else json_number(v) if isinstance(v, float) else v for v in column]
-               for column in table.values()]
-    return _rows(list(table), columns, len(next(iter(table.values()))))
+def _published_tables(derived: Sequence[DerivedResults]
+                      ) -> list[tuple[list[dict[str, Any]], Any]]:
+    """Each record's ``published_comparison`` entries and ``published_source`` (the first
+    row's source, the table's own when it has no row; no rows and None without a published
+    table), the columns of all the tables read and converted together."""
+    compared = [d for d in derived if d.published_columns is not None]
+    tables = [d.published_columns for d in compared]
+    table = {name: _joined([t[name] for t in tables]) for name in _PUBLISHED_KEYS}
+    lengths = [len(t["molality_mol_kg"]) for t in tables]
+    rows = _split(_rows(_PUBLISHED_KEYS, (
+        _float_column(table["molality_mol_kg"]),
+        _json_column(table["gamma_pm_published"]),
+        [bool(v) for v in _listed(table["interpolated"])],
+        _json_column(table["difference"]),
+        _int_column(table["n_sources"]),
+        _published_values(_listed(table["published_values"])),
+        _json_column(table["spread_published"]),
+        _json_column(table["u_published"]),
+        _json_column(table["u_difference"]),
+        _json_column(table["difference_over_u"])), sum(lengths)), lengths)
+    found = iter(zip(compared, rows, strict=True))
+    return [([], None) if d.published_columns is None else _first_source(*next(found))
+            for d in derived]
+
+
+def _published_values(cells: list[Any]) -> list[list[dict[str, Any]]]:
+    """Each row's ``published_values`` entries (its cell: a tuple of (source, γ±, printed)),
+    each distinct cell converted once: the runs of a chunk at the same molalities share their
+    cells."""
+    converted: dict[int, list[tuple[Any, float | None, bool]]] = {}  # by the id of a cell,
+    # every cell held by ``cells`` meanwhile
+    rows = []
+    for values in cells:
+        entries = converted.get(id(values))
+        if entries is None:
+            entries = converted[id(values)] = [(source, json_number(value), not printed)
+                                               for source, value, printed in values]
+        rows.append([{"source": source, "gamma_pm": value, "interpolated": interpolated}
+                     for source, value, interpolated in entries])
+    return rows
+
+
+def _first_source(derived: DerivedResults, rows: list[dict[str, Any]]
+                  ) -> tuple[list[dict[str, Any]], Any]:
+    """``rows`` and the source of the first of them (the published table's own when there is
+    no row)."""
+    import numpy as np
+
+    if not rows:
+        return rows, derived.published["source"].iloc[0]
+    source = derived.published_columns["source"]
+    # pandas' text gives its first text, or its missing value, as plain_values reads it
+    return rows, source[:1].tolist()[0] if isinstance(source, np.ndarray) else source[0]
+
+
+def _derived_tables(derived: Sequence[DerivedResults]) -> list[list[dict[str, Any]]]:
+    """The rows of each one's derived properties (the table's columns), every float a
+    :func:`json_number`, the columns of tables with the same columns converted together."""
+    groups: dict[tuple[str, ...], list[int]] = {}
+    for position, d in enumerate(derived):
+        groups.setdefault(tuple(d.property_columns), []).append(position)
+    found: list[list[dict[str, Any]]] = [[] for _ in derived]
+    for names, members in groups.items():
+        tables = [derived[i].property_columns for i in members]
+        lengths = [len(next(iter(t.values()))) for t in tables] if names else [0] * len(tables)
+        columns = [_kept_column(_joined([t[name] for t in tables])) for name in names]
+        for i, piece in zip(members, _split(_rows(names, columns, sum(lengths)), lengths),
+                            strict=True):
+            found[i] = piece
+    return found
 
 
 def build_record(reduction: Reduction, created: datetime | None = None,
@@ -224,15 +386,70 @@ def build_record(reduction: Reduction, created: datetime | None = None,
     comparison is kept under ``model_comparison`` and the stated u(E°) includes the
     model-choice component.
     """
+    return build_records([reduction], created, [comparison], [monte_carlo], record_folder,
+                         [derived], [input_entry])[0]
+
+
+def build_records(reductions: Sequence[Reduction], created: datetime | None = None,
+                  comparisons: Sequence[ModelComparison | None] | None = None,
+                  monte_carlos: Sequence[MonteCarloResult | None] | None = None,
+                  record_folder: Path | None = None,
+                  derived: Sequence[DerivedResults | None] | None = None,
+                  input_entries: Sequence[Mapping[str, Any] | None] | None = None
+                  ) -> list[dict[str, Any]]:
+    """The JSON-ready records of many reductions (a chunk of a batch), each what
+    :func:`build_record` gives for it alone, their tables (readings, published comparison,
+    derived properties) built together, column by column.
+
+    Parameters
+    ----------
+    reductions : sequence of Reduction
+        The reductions, of any models, electrolytes and lengths.
+    created : datetime, optional
+        The records' time stamp; now (as each record is made) by default.
+    comparisons, monte_carlos, derived, input_entries : sequence, optional
+        For each reduction, as :func:`build_record` takes them (each None by default; a
+        missing ``derived`` is worked out with :func:`derive_results`).
+    record_folder : pathlib.Path, optional
+        Where the records are written; the input files are named relative to it.
+
+    Returns
+    -------
+    list of dict
+        One record for each reduction, in the order of ``reductions``.
+
+    Examples
+    --------
+    >>> build_records([])
+    []
+    """
+    nothing = [None] * len(reductions)
+    derived = [d or derive_results(r) for r, d in zip(reductions, derived or nothing,
+                                                       strict=True)]
+    return [_record(reduction, created, comparison, monte_carlo, record_folder, d, entry,
+                    points, published, properties, series)
+            for reduction, comparison, monte_carlo, d, entry, points, published, properties,
+            series in zip(reductions, comparisons or nothing, monte_carlos or nothing, derived,
+                          input_entries or nothing, _point_tables(reductions),
+                          _published_tables(derived), _derived_tables(derived),
+                          _series_of_many(reductions), strict=True)]
+
+
+def _record(reduction: Reduction, created: datetime | None,
+            comparison: ModelComparison | None, monte_carlo: MonteCarloResult | None,
+            record_folder: Path | None, derived: DerivedResults,
+            input_entry: Mapping[str, Any] | None, points: list[dict[str, Any]],
+            published: tuple[list[dict[str, Any]], Any],
+            properties: list[dict[str, Any]], series: str | None) -> dict[str, Any]:
+    """The record of ``reduction`` (:func:`build_record`), its tables and series given:
+    ``points``, ``published`` (the comparison's rows and source), the derived ``properties``'
+    rows and the name of the ``series`` (:func:`run_series`)."""
     run, meta, stats = reduction.run, reduction.run.metadata, reduction.statistics
     e0 = reduction.standard_potential
     covariance_note = "linear propagation of the fit covariance: " + stats.covariance_note
-    points = _point_records(reduction)
     cross = reduction.linear_extrapolation
-    derived = derived or derive_results(reduction)
-    published = derived.published_columns
-    published_rows, published_source = ([], None) if published is None else (
-        _published_records(derived))
+    published_rows, published_source = published
+    compared = derived.published_columns is not None
     other = reduction.standard_potential_other_basis_V
     e0_record = {**_with_u(e0, covariance_note),
                  "coverage_factor_95": stats.coverage_factor,
@@ -250,7 +467,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
         **_head(created),
         "input": dict(input_entry) if input_entry is not None else input_record(
             run, record_folder),
-        "series": run_series(run.points),
+        "series": series,
         "run_info": dict(meta.info),
         "electrolyte": meta.electrolyte.formula,
         "electrons": meta.electrons,
@@ -310,8 +527,8 @@ def build_record(reduction: Reduction, created: datetime | None = None,
             "max_ionic_strength_mol_kg": cross.max_ionic_strength,
         },
         "published_comparison": published_rows,
-        "published_source": None if published is None else published_source,
-        "published_comparison_method": None if published is None else (
+        "published_source": published_source if compared else None,
+        "published_comparison_method": None if not compared else (
             "gamma_pm_published is the mean of every published table at the molality (each "
             "printed there or interpolated within the table); spread_published = largest − "
             "smallest of them; u_published = sqrt((spread/2)^2 + (half a unit of the last "
@@ -323,7 +540,7 @@ def build_record(reduction: Reduction, created: datetime | None = None,
                       "1947)"},
         "derived_properties": {
             "method": "; ".join(derived.property_notes),
-            "points": _derived_records(derived.property_columns),
+            "points": properties,
         },
         "model_comparison": None if comparison is None else comparison_record(comparison),
         "uncertainty_budget": {
@@ -443,29 +660,46 @@ def _path_from(path: Path, folder: Path | None, real_folder: str | None = None) 
 
 def run_series(points: Any) -> str | None:
     """The name of the series the points hold, or None (no name, or several)."""
-    names = {name for name in plain_values(points, "series") if isinstance(name, str) and name}
-    return names.pop() if len(names) == 1 else None
+    return _only_name(plain_values(points, "series"))
 
 
 def _points_columns(reduction: Reduction) -> dict[str, Any]:
     """The columns of the points table (numpy arrays; text columns as lists), units in the
     names, flagged rows included."""
+    return _points_columns_of_many([reduction])
+
+
+def _points_columns_of_many(reductions: Sequence[Reduction]) -> dict[str, Any]:
+    """The columns of the points tables of ``reductions`` (at least one), one table after
+    another, as :func:`_points_columns` gives each (numpy arrays, each a new one; text columns
+    as lists).
+
+    Raises
+    ------
+    _NotPlainTable
+        A column that is not of one type in every table (each is then written on its own).
+    """
     import numpy as np
 
     def numbers(name: str) -> Any:
-        # a copy in the column's own type, as the points table keeps it
-        values = point_values(reduction, name)
-        return values.copy() if isinstance(values, np.ndarray) else values.to_numpy()
+        # a new array in the column's own type, as the points table keeps it
+        columns = [values if isinstance(values, np.ndarray) else values.to_numpy()
+                   for values in point_values_of_many(reductions, name)]
+        if len(columns) == 1:
+            return columns[0].copy()
+        if len({column.dtype for column in columns}) > 1:
+            raise _NotPlainTable
+        return np.concatenate(columns)
 
     def text(name: str) -> list[Any]:
-        return _neutralised(_text_values(point_values(reduction, name)))
+        return _neutralised(_texts(point_values_of_many(reductions, name)))
 
     def filled(name: str) -> list[Any]:
         # pandas' where(notna, ""): every missing value (None, NaN, NA) becomes ""
         return [v if type(v) is str
                 else "" if v is None or (type(v) is float and v != v)
                 else v if type(v) is float or not _missing(v) else ""
-                for v in point_lists(reduction, [name])[name]]
+                for v in _listed(_joined(point_values_of_many(reductions, name)))]
 
     return {
         "line": numbers("line"),
@@ -504,6 +738,27 @@ def _text_values(values: Any) -> list[Any]:
     if isinstance(values, pd.arrays.ArrowStringArray):
         return pa.array(values).to_pylist()
     return values.to_numpy(dtype=object).tolist()
+
+
+def _texts(columns: Sequence[Any]) -> list[Any]:
+    """Text columns one after another, as :func:`_text_values` reads each (a missing text
+    None or NaN)."""
+    return [v for column in columns for v in _text_values(column)]
+
+
+def _series_of_many(reductions: Sequence[Reduction]) -> list[str | None]:
+    """:func:`run_series` of the points of each of ``reductions``, their series columns read
+    together."""
+    columns = point_values_of_many(reductions, "series")
+    names = _split(_texts(columns), [len(column) for column in columns])
+    return [_only_name(piece) for piece in names]
+
+
+def _only_name(names: list[Any]) -> str | None:
+    """The one name among ``names`` (texts; a missing one None or NaN, an empty one ignored),
+    or None (no name, or several)."""
+    found = {name for name in names if isinstance(name, str) and name}
+    return found.pop() if len(found) == 1 else None
 
 
 def _neutralised(cells: list[Any]) -> list[Any]:
@@ -613,26 +868,16 @@ def table_csv(columns: dict[str, Any]) -> str:
     import csv
     import io
 
-    import numpy as np
-
-    try:
-        cells = [_csv_cells(column) for column in columns.values()]
-    except _NotPlainTable:
+    cells = _table_cells(columns)
+    if cells is None:
         import pandas as pd
 
         return pd.DataFrame(columns).to_csv(index=False, float_format="%.10g",
                                             lineterminator="\n")
     names = list(columns)
-    if len(names) > 1 and all(type(name) is str for name in names):
-        # Rows joined with commas, when the csv writer quotes none of the names and texts (it
-        # quotes a field for what the field holds; numbers and empty cells never, but the
-        # single empty field of a one-column row): asked of the writer itself, in one row.
-        texts = {cell for column, column_cells in zip(columns.values(), cells, strict=True)
-                 if not isinstance(column, np.ndarray) for cell in column_cells}
-        fields = [*names, *texts]
-        if _csv_row(fields) == ",".join(fields) + "\n":
-            return "".join([",".join(names) + "\n",
-                            *[",".join(row) + "\n" for row in zip(*cells, strict=True)]])
+    if _joinable(columns, cells):
+        return "".join([",".join(names) + "\n",
+                        *[",".join(row) + "\n" for row in zip(*cells, strict=True)]])
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(names)
@@ -640,9 +885,80 @@ def table_csv(columns: dict[str, Any]) -> str:
     return buffer.getvalue()
 
 
+def _table_cells(columns: Mapping[str, Any]) -> list[list[str]] | None:
+    """Each column's cells (:func:`_csv_cells`), or None when a column is left to pandas."""
+    try:
+        return [_csv_cells(column) for column in columns.values()]
+    except _NotPlainTable:
+        return None
+
+
+def _joinable(columns: Mapping[str, Any], cells: list[list[str]]) -> bool:
+    """Whether the table's rows are its cells joined with commas: when the csv writer quotes
+    none of the names and texts (it quotes a field for what the field holds; numbers and empty
+    cells never, but the single empty field of a one-column row) — asked of the writer
+    itself, in one row."""
+    import numpy as np
+
+    names = list(columns)
+    if len(names) < 2 or not all(type(name) is str for name in names):
+        return False
+    texts = {cell for column, column_cells in zip(columns.values(), cells, strict=True)
+             if not isinstance(column, np.ndarray) for cell in column_cells}
+    fields = [*names, *texts]
+    return _csv_row(fields) == ",".join(fields) + "\n"
+
+
 def points_csv(reduction: Reduction) -> str:
     """The points table as CSV text, units in the column names, flagged rows included."""
     return table_csv(_points_columns(reduction))
+
+
+def points_csvs(reductions: Sequence[Reduction]) -> list[str]:
+    """The points tables of many reductions (a chunk of a batch) as CSV text, each what
+    :func:`points_csv` writes for it alone: the columns of all the tables read and their
+    cells formatted together, one format a column.
+
+    Parameters
+    ----------
+    reductions : sequence of Reduction
+        The reductions, of any models and lengths.
+
+    Returns
+    -------
+    list of str
+        One table for each reduction, in the order of ``reductions``. When a cell must be
+        quoted, or a column is left to pandas (an infinity, an unusual type), each table is
+        written on its own.
+
+    Examples
+    --------
+    >>> points_csvs([])
+    []
+    """
+    if len(reductions) < 2:
+        return [points_csv(reduction) for reduction in reductions]
+    try:
+        columns = _points_columns_of_many(reductions)
+    except _NotPlainTable:
+        columns = None
+    cells = None if columns is None else _table_cells(columns)
+    if columns is None or cells is None or not _joinable(columns, cells):
+        return [points_csv(reduction) for reduction in reductions]
+    # every cell followed by its separator (a comma, a line break after a row's last cell),
+    # laid out column by column; each table is then one join
+    width, n_rows = 2 * len(cells), len(cells[0])
+    fields = [","] * (width * n_rows)
+    fields[width - 1::width] = ["\n"] * n_rows
+    for i, column_cells in enumerate(cells):
+        fields[2 * i::width] = column_cells
+    header = ",".join(columns) + "\n"
+    texts, start = [], 0
+    for line in point_values_of_many(reductions, "line"):
+        end = start + width * len(line)
+        texts.append(header + "".join(fields[start:end]))
+        start = end
+    return texts
 
 
 def comparison_record(comparison: ModelComparison) -> dict:
@@ -778,9 +1094,10 @@ def build_study_record(study: TemperatureStudy, created: datetime | None = None,
     runs = list({iso.run.path: iso.run for iso in isotherms}.values())
     inputs = [input_record(run, record_folder) for run in runs]
     points = []
-    for iso in isotherms:
+    for iso, entries in zip(isotherms, _point_tables([iso.reduction for iso in isotherms]),
+                            strict=True):
         measured = dict(zip(iso.run.points["line"], iso.run.points["emf_V"], strict=True))
-        for entry in _point_records(iso.reduction):
+        for entry in entries:
             raw = measured.get(entry["line"])
             entry["isotherm_temperature_K"] = iso.setpoint_K
             entry["source"] = _path_from(iso.run.path, record_folder)

@@ -19,8 +19,8 @@ from ..chemistry.electrolytes import Electrolyte
 from .dilution import Reduction
 
 __all__ = ["column_values", "compare_with_published", "plain_values", "point_lists",
-           "point_names", "point_values", "published_columns", "published_columns_of_many",
-           "table_of"]
+           "point_names", "point_values", "point_values_of_many", "published_columns",
+           "published_columns_of_many", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -251,6 +251,31 @@ def point_values(reduction: Reduction, name: str) -> Any:
     """
     found = reduction.point_columns.get(name)
     return found if found is not None else column_values(reduction.run.points, name)
+
+
+def point_values_of_many(reductions: Sequence[Reduction], name: str) -> list[Any]:
+    """:func:`point_values` of each of ``reductions``: the column ``name`` of each one's points
+    as that table holds it (read only), the column's place among the runs' columns looked up
+    once for runs that share their columns' Index (the runs of a table do).
+
+    Examples
+    --------
+    >>> point_values_of_many([], "gamma_pm")
+    []
+    """
+    found = []
+    index, where = None, None
+    for reduction in reductions:
+        values = reduction.point_columns.get(name)
+        if values is None:
+            frame = reduction.run.points
+            take = getattr(frame, "_get_column_array", None)
+            if frame.columns is not index:
+                index, where = frame.columns, frame.columns.get_loc(name)
+            values = (take(where) if take is not None and isinstance(where, int)
+                      else column_values(frame, name))
+        found.append(values)
+    return found
 
 
 def point_lists(reduction: Reduction, names: Sequence[str]) -> dict[str, list[Any]]:
