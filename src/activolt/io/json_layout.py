@@ -15,6 +15,7 @@ import json
 import json.encoder
 import math
 from collections.abc import Callable, Sequence
+from itertools import chain
 from typing import Any
 
 __all__ = ["json_text", "json_texts"]
@@ -139,13 +140,16 @@ def json_texts(documents: Sequence[Any]) -> list[str]:
     document at a time when the documents share their shape (as a batch's records do).
 
     The documents are walked together, place by place. Where they all hold objects with the
-    same keys, or arrays of the same length, the place is laid out once for all of them as a
-    ``%`` template, and each scalar place becomes a column of texts written in one go (the
-    floats of every column in one call, :func:`_float_texts`); the rows of the tables (the
-    objects of an array laid out over lines) of all the documents are written together the
-    same way. Where the documents differ, they are written in groups of one shape; what is
-    not plain JSON (a subclass of a container, a key that is not a string) is written one
-    value at a time, as :func:`json_text` writes it.
+    same keys, or arrays of the same length, the place is laid out once for all of them — a
+    template of fixed text and columns, one text per document each — and each scalar place
+    is a column written in one go: the floats of all the columns in one call
+    (:func:`_float_array`), the other scalars in one list; the rows of the tables (the objects
+    of an array laid out over lines) of all the documents are written together the same way.
+    The texts are put together by Arrow, a column at a time. Where the documents differ,
+    they are written in groups of one shape; what is not plain JSON (a subclass of a
+    container, a key that is not a string) is written one value at a time, as
+    :func:`json_text` writes it. Fewer than ``_TOGETHER_FROM`` documents are written one at a
+    time.
 
     Raises
     ------
@@ -157,39 +161,53 @@ def json_texts(documents: Sequence[Any]) -> list[str]:
     Examples
     --------
     >>> documents = [{"rows": [{"m": 0.1, "ok": True}, {"m": 2e-05, "ok": None}]},
-    ...              {"rows": [{"m": 1.0, "ok": False}], "n": 3}]
+    ...              {"rows": [{"m": 1.0, "ok": False}], "n": 3}] * 4
     >>> json_texts(documents) == [json_text(d) for d in documents]
     True
     """
     documents = list(documents)
+    if len(documents) < _TOGETHER_FROM:
+        return list(map(json_text, documents))
     chunk = _Chunk()
-    template, columns = chunk.template(documents, "\n")
+    pieces = chunk.template(documents, "\n")
     chunk.fill()
-    return _filled(template + "\n", columns, len(documents))
+    return chunk.joined([*pieces, "\n"], len(documents)).to_pylist()
 
 
+#: Below this many documents, :func:`json_texts` writes them one at a time (the calls on
+#: columns cost more than they save).
+_TOGETHER_FROM = 4
 #: The types of the scalars written a column at a time (exactly these: a subclass is written
 #: one value at a time, as the standard library's encoder writes it).
 _NONE = type(None)
 _SCALARS = frozenset({str, int, float, bool, _NONE})
 _FLOATS = frozenset({float, _NONE})
-_LITERAL_KINDS = frozenset({bool, _NONE})
 _DICTS = frozenset({dict})
 _ARRAYS = frozenset({list, tuple})
 _PLAIN_CONTAINERS = _DICTS | _ARRAYS
 #: The JSON of True, False and None.
 _LITERALS = {True: "true", False: "false", None: "null"}
+#: How the standard library's encoder writes a scalar of each type.
+_SCALAR_TEXTS: dict[type, Callable[[Any], str]] = {
+    str: _ENCODE_TEXT, int: int.__repr__, bool: _LITERALS.__getitem__,
+    _NONE: _LITERALS.__getitem__, float: lambda value: _float_text(value)}
 
-#: A template of one place of several documents and its columns of texts, one text per
-#: document each (in the order of the template's ``%s``).
-_Shaped = tuple[str, list[list[Any]]]
+#: A piece of a template: fixed text, or what gives a column of texts (an Arrow array),
+#: called once the chunk is filled (:meth:`_Chunk.fill`).
+_Piece = str | Callable[[], Any]
 
 
-def _filled(template: str, columns: list[list[Any]], count: int) -> list[str]:
-    """The ``count`` texts of ``template`` over ``columns``."""
-    if not columns:
-        return [template % ()] * count
-    return [template % cells for cells in zip(*columns, strict=True)]
+def _common_keys(objects: Sequence[dict[Any, Any]]) -> tuple[str, ...] | None:
+    """The keys of every object, in the same order, when they are strings; else None."""
+    keys = tuple(objects[0])
+    if not all(type(key) is str for key in keys) or not all(
+            map(len(keys).__eq__, map(len, objects))):
+        return None
+    count = len(objects)
+    for key, column in zip(keys, zip(*objects, strict=True), strict=True):
+        if column.count(key) != count:
+            return None
+    return keys
 
 
 def _holds_containers(kinds: set[type]) -> bool:
@@ -210,7 +228,7 @@ def _shape(value: Any, laid_out: bool) -> Any:
     kind = type(value)
     if kind in _SCALARS:
         return "scalar"
-    if kind is dict and all(type(key) is str for key in value):
+    if kind is dict:
         return dict, tuple(value), laid_out and _flat(value)
     if kind in _ARRAYS:
         return list, len(value), laid_out and _flat(value)
@@ -218,18 +236,18 @@ def _shape(value: Any, laid_out: bool) -> Any:
 
 
 class _Chunk:
-    """Several documents written together: their layout as ``%`` templates over columns of
-    texts (:meth:`template`), some columns filled in later (:meth:`fill`)."""
+    """Several documents written together: their layout as templates (lists of pieces:
+    :meth:`template`), whose columns are made once the scalars are written (:meth:`fill`) and
+    put together by :meth:`joined`."""
 
     def __init__(self) -> None:
-        #: The columns of floats (and None), written together by :meth:`fill`.
-        self.floats: list[list[Any]] = []
-        #: What fills in the columns of texts made from templates, in order (each template's
-        #: columns filled before).
-        self.later: list[Callable[[], None]] = []
+        #: The scalars of all the columns, one column after another: the floats (and None of
+        #: float columns), and the texts of the other scalars; then (:meth:`fill`) each list's
+        #: texts as an Arrow array.
+        self.scalars: dict[str, Any] = {"floats": [], "texts": []}
 
     def template(self, values: Sequence[Any], newline: str | None, row: bool = False,
-                 kinds: set[type] | None = None) -> _Shaped:
+                 kinds: set[type] | None = None) -> list[_Piece]:
         """The template of ``values`` (one value of each document, at one place of it) as
         :func:`json_text` lays them out.
 
@@ -239,42 +257,38 @@ class _Chunk:
         if kinds is None:
             kinds = set(map(type, values))
         if kinds <= _SCALARS:
-            return "%s", [self.scalars(values, kinds)]
+            return [self.column(values, kinds)]
         if kinds == _DICTS:
-            keys = tuple(values[0])
-            if all(type(key) is str for key in keys) and all(
-                    map(keys.__eq__, map(tuple, values))):
+            keys = _common_keys(values)
+            if keys is not None:
                 if not keys:
-                    return "{}", []
-                shaped = self.members(
-                    values, list(zip(*[value.values() for value in values], strict=True)),
-                    [_key(key).replace("%", "%%") + ": " for key in keys], "{}",
-                    None if row else newline)
-                if shaped is not None:
-                    return shaped
+                    return ["{}"]
+                pieces = self.members(values, list(zip(*map(dict.values, values), strict=True)),
+                                      [_ENCODE_TEXT(key) + ": " for key in keys], "{}",
+                                      None if row else newline)
+                if pieces is not None:
+                    return pieces
         elif kinds <= _ARRAYS:
-            if newline is not None and set(map(type, (member for value in values
-                                                       for member in value))) == _DICTS:
-                return "%s", [self.table(values, newline)]
+            if newline is not None and set(map(type, chain.from_iterable(values))) == _DICTS:
+                return self.table(values, newline)
             size = len(values[0])
             if all(len(value) == size for value in values):
                 if not size:
-                    return "[]", []
-                shaped = self.members(values, list(zip(*values, strict=True)), [""] * size,
+                    return ["[]"]
+                pieces = self.members(values, list(zip(*values, strict=True)), [""] * size,
                                       "[]", newline)
-                if shaped is not None:
-                    return shaped
-        return "%s", [self.split(values, newline, row)]
+                if pieces is not None:
+                    return pieces
+        return [self.split(values, newline, row)]
 
     def members(self, values: Sequence[Any], columns: list[tuple[Any, ...]], heads: list[str],
-                brackets: str, newline: str | None) -> _Shaped | None:
+                brackets: str, newline: str | None) -> list[_Piece] | None:
         """The template of objects of the same keys, or of arrays of the same length, from
         their members' ``columns``, each member after its head (its key and ``": "``, or
         nothing) between ``brackets``; None if some are laid out over lines and others not."""
         kinds = [set(map(type, column)) for column in columns]
         if newline is not None:
-            held = [_holds_containers(column_kinds) for column_kinds in kinds]
-            if not any(held):
+            if not any(map(_holds_containers, kinds)):
                 newline = None
             elif not any(column_kinds <= _PLAIN_CONTAINERS for column_kinds in kinds):
                 flat = {_flat(value) for value in values}
@@ -282,57 +296,69 @@ class _Chunk:
                     return None
                 if flat.pop():
                     newline = None
-        inner = None if newline is None else newline + "  "
-        row = brackets == "[]"
-        templates: list[str] = []
-        cells: list[list[Any]] = []
-        for head, column, column_kinds in zip(heads, columns, kinds, strict=True):
-            template, more = self.template(column, inner, row, column_kinds)
-            templates.append(head + template)
-            cells += more
         opening, closing = brackets
-        if newline is None:
-            return opening + ", ".join(templates) + closing, cells
-        return opening + inner + ("," + inner).join(templates) + newline + closing, cells
+        inner = None if newline is None else newline + "  "
+        between = ", " if inner is None else "," + inner
+        row = opening == "["
+        pieces: list[_Piece] = [opening if inner is None else opening + inner]
+        for head, column, column_kinds in zip(heads, columns, kinds, strict=True):
+            pieces.append(head)
+            pieces += self.template(column, inner, row, column_kinds)
+            pieces.append(between)
+        pieces[-1] = closing if newline is None else newline + closing
+        return pieces
 
-    def scalars(self, values: Sequence[Any], kinds: set[type]) -> list[Any]:
-        """Scalars of the types ``kinds`` as JSON (floats filled in by :meth:`fill`)."""
-        if kinds <= _FLOATS and float in kinds:
-            column = list(values)
-            self.floats.append(column)
-            return column
-        if kinds == {str}:
-            return list(map(_ENCODE_TEXT, values))
-        if kinds <= _LITERAL_KINDS:
-            return list(map(_LITERALS.__getitem__, values))
-        if kinds == {int}:
-            return list(map(int.__repr__, values))
-        return list(map(_one_line, values))
+    def column(self, values: Sequence[Any], kinds: set[type]) -> _Piece:
+        """The column of texts of scalars of the types ``kinds`` (the floats written by
+        :meth:`fill`)."""
+        kind = "floats" if float in kinds and kinds <= _FLOATS else "texts"
+        scalars = self.scalars[kind]
+        start = len(scalars)
+        if kind == "floats":
+            scalars += values
+        elif len(kinds) == 1:
+            scalars += map(_SCALAR_TEXTS[kinds.pop()], values)
+        else:
+            scalars += [_SCALAR_TEXTS[type(value)](value) for value in values]
+        return functools.partial(self.written, kind, start, len(values))
 
-    def table(self, arrays: Sequence[Any], newline: str) -> list[Any]:
-        """The texts of arrays of objects laid out over lines (an object a line), the rows of
-        all of them written together (filled in by :meth:`fill`)."""
-        rows = [row for array in arrays for row in array]
-        template, columns = self.template(rows, None)
-        texts: list[Any] = [None] * len(arrays)
-        inner = newline + "  "
+    def written(self, kind: str, start: int, count: int) -> Any:
+        """A column of ``count`` texts of the scalars of a ``kind``, from ``start``."""
+        return self.scalars[kind].slice(start, count)
 
-        def fill() -> None:
-            lines = _filled(template, columns, len(rows))
-            start = 0
-            for i, array in enumerate(arrays):
-                end = start + len(array)
-                texts[i] = ("[" + inner + ("," + inner).join(lines[start:end]) + newline + "]"
-                            if end > start else "[]")
-                start = end
+    def table(self, arrays: Sequence[Any], newline: str) -> list[_Piece]:
+        """The template of arrays of objects laid out over lines (an object a line), the
+        rows of all of them written together."""
+        counts = list(map(len, arrays))
+        rows = functools.partial(self.rows, self.template(list(chain.from_iterable(arrays)),
+                                                          None), counts, "," + newline + "  ")
+        if all(counts):
+            return ["[" + newline + "  ", rows, newline + "]"]
+        return [functools.partial(self.tables, rows, counts, newline)]
 
-        self.later.append(fill)
-        return texts
+    def rows(self, rows: list[_Piece], counts: list[int], between: str) -> Any:
+        """The rows of each table, of the rows' template ``rows`` and ``counts`` rows each,
+        one after another with ``between`` between them."""
+        import numpy as np
+        import pyarrow as pa
+        import pyarrow.compute as pc
 
-    def split(self, values: Sequence[Any], newline: str | None, row: bool) -> list[Any]:
-        """The texts of values of different shapes: those of one shape from one template
-        (filled in by :meth:`fill`), those of none one at a time, as :func:`json_text`
-        writes them."""
+        lines = self.joined(rows, sum(counts))
+        ends = np.cumsum([0, *counts], dtype=np.int64)
+        return pc.binary_join(pa.LargeListArray.from_arrays(ends, lines), _text(between))
+
+    def tables(self, rows: Callable[[], Any], counts: list[int], newline: str) -> Any:
+        """The texts of tables, some empty: the ``rows`` of each between brackets."""
+        import numpy as np
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        return pc.if_else(pa.array(np.equal(counts, 0)), _text("[]"), self.joined(
+            ["[" + newline + "  ", rows, newline + "]"], len(counts)))
+
+    def split(self, values: Sequence[Any], newline: str | None, row: bool) -> _Piece:
+        """The column of texts of values of different shapes: those of one shape written
+        from one template, those of none one at a time, as :func:`json_text` writes them."""
         laid_out = newline is not None and not row
         groups: dict[Any, list[int]] = {}
         alone: list[int] = []
@@ -344,37 +370,66 @@ class _Chunk:
                 groups.setdefault(shape, []).append(i)
         if len(groups) == 1 and not alone:  # one shape, yet not written with one template
             groups, alone = {}, list(range(len(values)))
-        texts: list[Any] = [None] * len(values)
+        texts = []
         for i in alone:
             value = values[i]
             if newline is None or (row and isinstance(value, dict)):
-                texts[i] = _one_line(value)
+                texts.append(_one_line(value))
             else:
                 pieces: list[str] = []
                 _lay_out(value, newline, pieces)
-                texts[i] = "".join(pieces)
-        for at in groups.values():
-            self.later.append(functools.partial(
-                _put, texts, at, self.template([values[i] for i in at], newline, row)))
-        return texts
+                texts.append("".join(pieces))
+        parts = [(at, self.template([values[i] for i in at], newline, row))
+                 for at in groups.values()]
+        return functools.partial(self.split_texts, parts, alone, texts)
+
+    def split_texts(self, parts: list[tuple[list[int], list[_Piece]]], alone: list[int],
+                    texts: list[str]) -> Any:
+        """The texts of values written in groups: each group's ``parts`` (the places of its
+        values and their template) and the values ``alone`` (their places and texts), in
+        the order of their places."""
+        import numpy as np
+        import pyarrow as pa
+
+        places = [i for at, _pieces in parts for i in at] + alone
+        written = [self.joined(pieces, len(at)) for at, pieces in parts]
+        written.append(pa.array(texts, pa.large_string()))
+        return pa.concat_arrays(written).take(np.argsort(places))
 
     def fill(self) -> None:
-        """Fill in the columns: the floats, then the texts made from templates."""
-        if self.floats:
-            texts = _float_texts([value for column in self.floats for value in column])
-            start = 0
-            for column in self.floats:
-                end = start + len(column)
-                column[:] = texts[start:end]
-                start = end
-        for fill in self.later:
-            fill()
+        """Write the scalars: the floats in one call (:func:`_float_array`), the other
+        scalars' texts as one array."""
+        import pyarrow as pa
+
+        self.scalars["floats"] = _float_array(self.scalars["floats"])
+        self.scalars["texts"] = pa.array(self.scalars["texts"], pa.large_string())
+
+    def joined(self, pieces: list[_Piece], count: int) -> Any:
+        """The ``count`` texts of a template, as an Arrow array (once the chunk is filled)."""
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        parts: list[Any] = []
+        for piece in pieces:
+            if not isinstance(piece, str):
+                parts.append(piece())
+            elif parts and isinstance(parts[-1], str):
+                parts[-1] += piece
+            else:
+                parts.append(piece)
+        if len(parts) == 1:
+            part = parts[0]
+            return pa.array([part] * count, pa.large_string()) if isinstance(part, str) \
+                else part
+        return pc.binary_join_element_wise(
+            *[_text(part) if isinstance(part, str) else part for part in parts], _text(""))
 
 
-def _put(texts: list[Any], at: list[int], shaped: _Shaped) -> None:
-    """Put the texts of ``shaped`` at the places ``at`` of ``texts``."""
-    for i, text in zip(at, _filled(*shaped, len(at)), strict=True):
-        texts[i] = text
+def _text(text: str) -> Any:
+    """``text`` as an Arrow scalar of the type of the chunk's columns."""
+    import pyarrow as pa
+
+    return pa.scalar(text, pa.large_string())
 
 
 #: Below this many values, floats are written value by value (Arrow's calls cost more).
@@ -389,10 +444,10 @@ _ARROW_BELOW = 1e9
 #: ``-0.0``); 10⁻⁵ ≤ |x| < 10⁻⁴ and 10⁻⁶ ≤ |x| < 10⁻⁵ (Arrow positional ``0.000012``, repr
 #: ``1.2e-05``); |x| < 10⁻⁶ (Arrow ``1.2e-7``, repr ``1.2e-07``). Elsewhere they spell alike.
 _ARROW_REWRITES = (
-    (r"^(-?[0-9]+)$", r"\1.0"),
-    (r"^(-?)0\.0000([1-9])([0-9]*)$", r"\1\2.\3e-05"),
-    (r"^(-?)0\.00000([1-9])([0-9]*)$", r"\1\2.\3e-06"),
-    (r"e-([0-9])$", r"e-0\1"),
+    ((r"^(-?[0-9]+)$", r"\1.0"),),
+    ((r"^(-?)0\.0000([1-9])([0-9]*)$", r"\1\2.\3e-05"), (r"\.e", "e")),
+    ((r"^(-?)0\.00000([1-9])([0-9]*)$", r"\1\2.\3e-06"), (r"\.e", "e")),
+    ((r"e-([0-9])$", r"e-0\1"),),
 )
 
 
@@ -411,48 +466,60 @@ def _float_text(value: float | None) -> str:
     raise ValueError(f"Out of range float values are not JSON compliant: {value!r}")
 
 
-def _float_texts(values: Sequence[float | None]) -> list[str]:
-    """:func:`_float_text` of each value, most of them written by Arrow in one call
-    (:func:`_arrow_texts`).
+def _float_array(values: Sequence[float | None]) -> Any:
+    """:func:`_float_text` of each value, as an Arrow array of strings, most of them written
+    by Arrow in one call (:func:`_arrow_texts`).
 
     Raises
     ------
     ValueError
         A non-finite float (as the standard library's encoder with ``allow_nan=False``).
     """
-    if len(values) < _ARROW_FROM or not _arrow_spells_as_repr():
-        return list(map(_float_text, values))
     import numpy as np
+    import pyarrow as pa
 
+    if len(values) < _ARROW_FROM or not _arrow_spells_as_repr():
+        return pa.array(list(map(_float_text, values)), pa.large_string())
     x = np.array(values, dtype=np.float64)  # (None as NaN)
-    by_arrow = np.abs(x) < _ARROW_BELOW  # (False for NaN)
-    texts = np.empty(len(values), dtype=object)
-    texts[by_arrow] = _arrow_texts(x[by_arrow])
-    for i in np.flatnonzero(~by_arrow).tolist():
-        texts[i] = _float_text(values[i])
-    return texts.tolist()
+    texts = _arrow_texts(x)
+    by_repr = np.flatnonzero(~(np.abs(x) < _ARROW_BELOW)).tolist()  # (NaN too)
+    if by_repr:
+        texts = pa.concat_arrays([texts, pa.array([_float_text(values[i]) for i in by_repr],
+                                                  pa.large_string())])
+        places = np.arange(len(x))
+        places[by_repr] = len(x) + np.arange(len(by_repr))
+        texts = texts.take(places)
+    return texts
 
 
 def _arrow_texts(x: Any) -> Any:
-    """The ``repr`` of each float of the array ``x`` (finite, of magnitude below
-    ``_ARROW_BELOW``) as a NumPy array of strings, written by Arrow and put right where it
-    spells otherwise (``_ARROW_REWRITES``)."""
+    """The ``repr`` of each float of the array ``x`` whose magnitude is below
+    ``_ARROW_BELOW``, as an Arrow array of strings: written by Arrow, and put right where it
+    spells otherwise (``_ARROW_REWRITES``); the others as Arrow writes them."""
     import numpy as np
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    texts = pa.array(x).cast(pa.string())
     size = np.abs(x)
-    places = (x == np.trunc(x), (size >= 1e-5) & (size < 1e-4), (size >= 1e-6) & (size < 1e-5),
-              (size < 1e-6) & (x != 0))
-    for place, (pattern, rewrite) in zip(places, _ARROW_REWRITES, strict=True):
-        if place.any():
-            mask = pa.array(place)
-            put_right = pc.replace_substring_regex(texts.filter(mask), pattern, rewrite)
-            if rewrite.endswith(("e-05", "e-06")):  # one digit: 1e-05, not 1.e-05
-                put_right = pc.replace_substring(put_right, ".e", "e")
-            texts = pc.replace_with_mask(texts, mask, put_right)
-    return texts.to_numpy(zero_copy_only=False)
+    kinds = np.select([x == np.trunc(x), (size >= 1e-5) & (size < 1e-4),
+                       (size >= 1e-6) & (size < 1e-5), size < 1e-6],
+                      np.arange(1, 1 + len(_ARROW_REWRITES), dtype=np.int8), np.int8(0))
+    if not kinds.any():
+        return pa.array(x).cast(pa.large_string())
+    order = np.argsort(kinds, kind="stable")  # the floats of each kind together
+    texts = pa.array(x[order]).cast(pa.large_string())
+    parts = []
+    start = 0
+    for count, rewrites in zip(np.bincount(kinds, minlength=1 + len(_ARROW_REWRITES)).tolist(),
+                               ((), *_ARROW_REWRITES), strict=True):
+        part = texts.slice(start, count)
+        for pattern, rewrite in rewrites if count else ():
+            part = pc.replace_substring_regex(part, pattern, rewrite)
+        parts.append(part)
+        start += count
+    places = np.empty_like(order)
+    places[order] = np.arange(len(order))
+    return pa.concat_arrays(parts).take(places)
 
 
 @functools.lru_cache(maxsize=1)
@@ -475,7 +542,7 @@ def _arrow_spells_as_repr() -> bool:
             np.arange(96) % 24]])
     probes = probes[np.abs(probes) < _ARROW_BELOW]
     try:
-        texts = _arrow_texts(probes).tolist()
+        texts = _arrow_texts(probes).to_pylist()
     except (pa.ArrowException, ValueError):
         return False
     return texts == [float.__repr__(value) for value in probes.tolist()]
