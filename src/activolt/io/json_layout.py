@@ -197,17 +197,19 @@ _SCALAR_TEXTS: dict[type, Callable[[Any], str]] = {
 _Piece = str | Callable[[], Any]
 
 
-def _common_keys(objects: Sequence[dict[Any, Any]]) -> tuple[str, ...] | None:
+def _common_keys(objects: Sequence[dict[Any, Any]]) -> list[str] | None:
     """The keys of every object, in the same order, when they are strings; else None."""
-    keys = tuple(objects[0])
-    if not all(type(key) is str for key in keys) or not all(
-            map(len(keys).__eq__, map(len, objects))):
+    keys = list(objects[0])
+    if not all(type(key) is str for key in keys) or list(
+            chain.from_iterable(objects)) != keys * len(objects):
         return None
-    count = len(objects)
-    for key, column in zip(keys, zip(*objects, strict=True), strict=True):
-        if column.count(key) != count:
-            return None
     return keys
+
+
+def _columns(members: list[Any], size: int) -> list[list[Any]]:
+    """The columns of ``members``, the members of several objects or arrays of ``size``
+    members each, one after another."""
+    return [members[i::size] for i in range(size)]
 
 
 def _holds_containers(kinds: set[type]) -> bool:
@@ -263,7 +265,8 @@ class _Chunk:
             if keys is not None:
                 if not keys:
                     return ["{}"]
-                pieces = self.members(values, list(zip(*map(dict.values, values), strict=True)),
+                pieces = self.members(values, _columns(list(chain.from_iterable(
+                                          map(dict.values, values))), len(keys)),
                                       [_ENCODE_TEXT(key) + ": " for key in keys], "{}",
                                       None if row else newline)
                 if pieces is not None:
@@ -272,16 +275,16 @@ class _Chunk:
             if newline is not None and set(map(type, chain.from_iterable(values))) == _DICTS:
                 return self.table(values, newline)
             size = len(values[0])
-            if all(len(value) == size for value in values):
+            if all(map(size.__eq__, map(len, values))):
                 if not size:
                     return ["[]"]
-                pieces = self.members(values, list(zip(*values, strict=True)), [""] * size,
-                                      "[]", newline)
+                pieces = self.members(values, _columns(list(chain.from_iterable(values)), size),
+                                      [""] * size, "[]", newline)
                 if pieces is not None:
                     return pieces
         return [self.split(values, newline, row)]
 
-    def members(self, values: Sequence[Any], columns: list[tuple[Any, ...]], heads: list[str],
+    def members(self, values: Sequence[Any], columns: list[list[Any]], heads: list[str],
                 brackets: str, newline: str | None) -> list[_Piece] | None:
         """The template of objects of the same keys, or of arrays of the same length, from
         their members' ``columns``, each member after its head (its key and ``": "``, or
