@@ -273,7 +273,7 @@ class _Chunk:
                     return pieces
         elif kinds <= _ARRAYS:
             if newline is not None and set(map(type, chain.from_iterable(values))) == _DICTS:
-                return self.table(values, newline)
+                return [self.table(values, newline)]
             size = len(values[0])
             if all(map(size.__eq__, map(len, values))):
                 if not size:
@@ -319,6 +319,9 @@ class _Chunk:
         start = len(scalars)
         if kind == "floats":
             scalars += values
+        elif kinds == {str}:  # each string written once (a chunk's records share many)
+            texts = {value: _ENCODE_TEXT(value) for value in dict.fromkeys(values)}
+            scalars += map(texts.__getitem__, values)
         elif len(kinds) == 1:
             scalars += map(_SCALAR_TEXTS[kinds.pop()], values)
         else:
@@ -329,35 +332,37 @@ class _Chunk:
         """A column of ``count`` texts of the scalars of a ``kind``, from ``start``."""
         return self.scalars[kind].slice(start, count)
 
-    def table(self, arrays: Sequence[Any], newline: str) -> list[_Piece]:
-        """The template of arrays of objects laid out over lines (an object a line), the
-        rows of all of them written together."""
-        counts = list(map(len, arrays))
-        rows = functools.partial(self.rows, self.template(list(chain.from_iterable(arrays)),
-                                                          None), counts, "," + newline + "  ")
-        if all(counts):
-            return ["[" + newline + "  ", rows, newline + "]"]
-        return [functools.partial(self.tables, rows, counts, newline)]
+    def table(self, arrays: Sequence[Any], newline: str) -> _Piece:
+        """The column of texts of arrays of objects laid out over lines (an object a line),
+        the rows of all of them written together."""
+        return functools.partial(self.tables, self.template(list(chain.from_iterable(arrays)),
+                                                            None), list(map(len, arrays)),
+                                 newline)
 
-    def rows(self, rows: list[_Piece], counts: list[int], between: str) -> Any:
-        """The rows of each table, of the rows' template ``rows`` and ``counts`` rows each,
-        one after another with ``between`` between them."""
+    def tables(self, rows: list[_Piece], counts: list[int], newline: str) -> Any:
+        """The texts of tables of ``counts`` rows each, of the rows' template ``rows``: each
+        row written with what comes before it (the opening bracket, or a comma) and after it
+        (the closing bracket after the last), so that each table is its rows one after
+        another, the text of the rows taken as it is."""
         import numpy as np
         import pyarrow as pa
         import pyarrow.compute as pc
 
-        lines = self.joined(rows, sum(counts))
-        ends = np.cumsum([0, *counts], dtype=np.int64)
-        return pc.binary_join(pa.LargeListArray.from_arrays(ends, lines), _text(between))
-
-    def tables(self, rows: Callable[[], Any], counts: list[int], newline: str) -> Any:
-        """The texts of tables, some empty: the ``rows`` of each between brackets."""
-        import numpy as np
-        import pyarrow as pa
-        import pyarrow.compute as pc
-
-        return pc.if_else(pa.array(np.equal(counts, 0)), _text("[]"), self.joined(
-            ["[" + newline + "  ", rows, newline + "]"], len(counts)))
+        ends = np.cumsum(counts)
+        inner = newline + "  "
+        first = np.zeros(ends[-1], dtype=bool)
+        last = first.copy()
+        first[(ends - counts)[np.not_equal(counts, 0)]] = True
+        last[ends[np.not_equal(counts, 0)] - 1] = True
+        lines = self.joined([pc.if_else(pa.array(first), _text("[" + inner), _text("," + inner)),
+                             *rows, pc.if_else(pa.array(last), _text(newline + "]"), _text(""))],
+                            len(first))
+        _validity, offsets, text = lines.buffers()
+        starts = np.frombuffer(offsets, dtype=np.int64)[lines.offset + np.concatenate([[0], ends])]
+        tables = pa.LargeStringArray.from_buffers(len(counts), pa.py_buffer(starts), text)
+        if not all(counts):
+            tables = pc.if_else(pa.array(np.equal(counts, 0)), _text("[]"), tables)
+        return tables
 
     def split(self, values: Sequence[Any], newline: str | None, row: bool) -> _Piece:
         """The column of texts of values of different shapes: those of one shape written
@@ -415,7 +420,7 @@ class _Chunk:
         parts: list[Any] = []
         for piece in pieces:
             if not isinstance(piece, str):
-                parts.append(piece())
+                parts.append(piece() if callable(piece) else piece)
             elif parts and isinstance(parts[-1], str):
                 parts[-1] += piece
             else:
