@@ -161,7 +161,7 @@ def json_texts(documents: Sequence[Any]) -> list[str]:
     Examples
     --------
     >>> documents = [{"rows": [{"m": 0.1, "ok": True}, {"m": 2e-05, "ok": None}]},
-    ...              {"rows": [{"m": 1.0, "ok": False}], "n": 3}] * 4
+    ...              {"rows": [{"m": 1.0, "ok": False}], "n": 3}] * 6
     >>> json_texts(documents) == [json_text(d) for d in documents]
     True
     """
@@ -176,7 +176,7 @@ def json_texts(documents: Sequence[Any]) -> list[str]:
 
 #: Below this many documents, :func:`json_texts` writes them one at a time (the calls on
 #: columns cost more than they save).
-_TOGETHER_FROM = 4
+_TOGETHER_FROM = 12  # (the tests write 16 or more together)
 #: The types of the scalars written a column at a time (exactly these: a subclass is written
 #: one value at a time, as the standard library's encoder writes it).
 _NONE = type(None)
@@ -192,9 +192,9 @@ _SCALAR_TEXTS: dict[type, Callable[[Any], str]] = {
     str: _ENCODE_TEXT, int: int.__repr__, bool: _LITERALS.__getitem__,
     _NONE: _LITERALS.__getitem__, float: lambda value: _float_text(value)}
 
-#: A piece of a template: fixed text, or what gives a column of texts (an Arrow array),
+#: A piece of a template: fixed text, a column of texts (an Arrow array), or what gives one,
 #: called once the chunk is filled (:meth:`_Chunk.fill`).
-_Piece = str | Callable[[], Any]
+_Piece = Any  # str | pyarrow.Array | Callable[[], pyarrow.Array]
 
 
 def _common_keys(objects: Sequence[dict[Any, Any]]) -> list[str] | None:
@@ -323,7 +323,7 @@ class _Chunk:
             texts = {value: _ENCODE_TEXT(value) for value in dict.fromkeys(values)}
             scalars += map(texts.__getitem__, values)
         elif len(kinds) == 1:
-            scalars += map(_SCALAR_TEXTS[kinds.pop()], values)
+            scalars += map(_SCALAR_TEXTS[next(iter(kinds))], values)
         else:
             scalars += [_SCALAR_TEXTS[type(value)](value) for value in values]
         return functools.partial(self.written, kind, start, len(values))
