@@ -48,9 +48,9 @@ def _each_alone(documents):
 # --- floats: the column formatter against the scalar one ------------------------------------
 
 #: Floats the two spellings could differ on: the ends of each range the column formatter
-#: puts right (10⁻⁶, 10⁻⁵, 10⁻⁴, 10⁹), integral values and signed zeros, subnormals and the
+#: puts right (10⁻⁹, 10⁻⁶, 10⁻⁵, 10⁻⁴, 10⁹), integral values and signed zeros, subnormals and the
 #: extremes, the neighbours of round numbers, and random bit patterns.
-_EDGES = [0.0, -0.0, 1.0, -1.0, 1e-4, -1e-4, 1e-5, 1e-6, 1e-7, 1e9, 5e-324, -5e-324,
+_EDGES = [0.0, -0.0, 1.0, -1.0, 1e-4, -1e-4, 1e-5, 1e-6, 1e-7, 1e-9, -1e-10, 1e9, 5e-324, -5e-324,
           2.2250738585072014e-308, 1.7976931348623157e308, 0.1, 2 / 3, 0.5, 2.5e-5, 2e-05]
 _FLOATS = (st.floats(allow_nan=False, allow_infinity=False)
            | st.floats(min_value=1e-8, max_value=1e-3) | st.floats(min_value=-1e-3, max_value=1e-8)

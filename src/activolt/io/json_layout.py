@@ -448,15 +448,29 @@ _ARROW_FROM = 48
 _ARROW_BELOW = 1e9
 #: Arrow's shortest round-trip formatting has ``repr``'s digits (both the shortest that read
 #: back as the float, the nearest to it when several are as short); it places them otherwise
-#: in these ranges, put right by these rewrites (RE2): an integral float (Arrow ``-0``, repr
-#: ``-0.0``); 10⁻⁵ ≤ |x| < 10⁻⁴ and 10⁻⁶ ≤ |x| < 10⁻⁵ (Arrow positional ``0.000012``, repr
-#: ``1.2e-05``); |x| < 10⁻⁶ (Arrow ``1.2e-7``, repr ``1.2e-07``). Elsewhere they spell alike.
-_ARROW_REWRITES = (
-    ((r"^(-?[0-9]+)$", r"\1.0"),),
-    ((r"^(-?)0\.0000([1-9])([0-9]*)$", r"\1\2.\3e-05"), (r"\.e", "e")),
-    ((r"^(-?)0\.00000([1-9])([0-9]*)$", r"\1\2.\3e-06"), (r"\.e", "e")),
-    ((r"e-([0-9])$", r"e-0\1"),),
-)
+#: in these ranges of magnitude, put right as :func:`_put_right` says. Elsewhere they spell
+#: alike.
+_ARROW_PLACES = ("integral", "e-05", "e-06", "e-0")
+
+
+def _put_right(place: str, texts: Any, x: Any) -> Any:
+    """Arrow's ``texts`` of the floats ``x`` of one range (``_ARROW_PLACES``) spelled as
+    ``repr`` spells them: an integral float (Arrow ``-0``, repr ``-0.0``); 10⁻⁵ ≤ |x| < 10⁻⁴
+    and 10⁻⁶ ≤ |x| < 10⁻⁵ (Arrow ``0.0000123``, repr ``1.23e-05``); 10⁻⁹ ≤ |x| < 10⁻⁶
+    (Arrow ``1.2e-7``, repr ``1.2e-07``)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if place == "integral":
+        return pc.binary_join_element_wise(texts, _text(".0"), _text(""))
+    if place == "e-0":
+        return pc.replace_substring(texts, "e-", "e-0")
+    digits = pc.utf8_ltrim(texts, "-0.")  # the digits, from the first that is not 0
+    written = pc.binary_join_element_wise(
+        pc.if_else(pa.array(x < 0), _text("-"), _text("")),
+        pc.utf8_slice_codeunits(digits, 0, 1), _text("."), pc.utf8_slice_codeunits(digits, 1),
+        _text(place), _text(""))
+    return pc.replace_substring(written, ".e", "e")  # one digit: 1e-05, not 1.e-05
 
 
 def _float_text(value: float | None) -> str:
@@ -503,27 +517,26 @@ def _float_array(values: Sequence[float | None]) -> Any:
 def _arrow_texts(x: Any) -> Any:
     """The ``repr`` of each float of the array ``x`` whose magnitude is below
     ``_ARROW_BELOW``, as an Arrow array of strings: written by Arrow, and put right where it
-    spells otherwise (``_ARROW_REWRITES``); the others as Arrow writes them."""
+    places the digits otherwise (:func:`_put_right`); the others as Arrow writes them."""
     import numpy as np
     import pyarrow as pa
-    import pyarrow.compute as pc
 
     size = np.abs(x)
-    kinds = np.select([x == np.trunc(x), (size >= 1e-5) & (size < 1e-4),
-                       (size >= 1e-6) & (size < 1e-5), size < 1e-6],
-                      np.arange(1, 1 + len(_ARROW_REWRITES), dtype=np.int8), np.int8(0))
-    if not kinds.any():
+    ranges = np.select([x == np.trunc(x), (size >= 1e-5) & (size < 1e-4),
+                        (size >= 1e-6) & (size < 1e-5), (size >= 1e-9) & (size < 1e-6)],
+                       np.arange(1, 1 + len(_ARROW_PLACES), dtype=np.int8), np.int8(0))
+    if not ranges.any():
         return pa.array(x).cast(pa.large_string())
-    order = np.argsort(kinds, kind="stable")  # the floats of each kind together
-    texts = pa.array(x[order]).cast(pa.large_string())
+    order = np.argsort(ranges, kind="stable")  # the floats of each range together
+    x = x[order]
+    texts = pa.array(x).cast(pa.large_string())
     parts = []
     start = 0
-    for count, rewrites in zip(np.bincount(kinds, minlength=1 + len(_ARROW_REWRITES)).tolist(),
-                               ((), *_ARROW_REWRITES), strict=True):
+    for count, place in zip(np.bincount(ranges, minlength=1 + len(_ARROW_PLACES)).tolist(),
+                            (None, *_ARROW_PLACES), strict=True):
         part = texts.slice(start, count)
-        for pattern, rewrite in rewrites if count else ():
-            part = pc.replace_substring_regex(part, pattern, rewrite)
-        parts.append(part)
+        parts.append(part if place is None or not count else
+                     _put_right(place, part, x[start:start + count]))
         start += count
     places = np.empty_like(order)
     places[order] = np.arange(len(order))
@@ -541,7 +554,8 @@ def _arrow_spells_as_repr() -> bool:
 
     probes = np.concatenate([
         [0.0, -0.0, 1.0, -2.0, 100.0, 123456789.0, 999999999.0, 5e-324, -5e-324,
-         2.2250738585072014e-308, 1e-300, 1e-7, 9.99e-7, 1e-6, 1.0000000000000002e-06,
+         2.2250738585072014e-308, 1e-300, 1e-10, 9.999999999999999e-10, 1e-9, -1.5e-9, 1e-7,
+         9.99e-7, 1e-6, 1.0000000000000002e-06,
          9.999999999999999e-06, 1e-5, 2e-05, -3.5e-05, 1.2345e-06, 9.999999999999999e-05,
          1e-4, -1e-4, 0.1, 0.2, 0.3, 1 / 3, 2 / 3, 0.5, 1.5, 123.456, 298.15, 0.1 + 0.2,
          999999999.5, 999999999.9999999, 100000000.00000001, 0.00010000000000000002,
