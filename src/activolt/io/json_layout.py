@@ -1,11 +1,12 @@
 """The text of a JSON record: one layout for every record kind, written quickly.
 
 :func:`json_text` writes one document; :func:`json_texts` writes several — a batch's records —
-to the same text byte for byte, walking them together: a place they share is laid out once,
-and its scalars are written a column at a time. The floats of all the columns are written by
-Arrow's shortest round-trip formatting in one call, spelled as ``repr`` spells them (the same
-digits, placed as ``repr`` places them: checked on millions of random doubles, and again in
-each process before first use), as the standard library's encoder writes them.
+to the same texts byte for byte, walking them together: a place they share is laid out once,
+its scalars written a column at a time and the texts put together by Arrow. The floats of all
+the columns are written by one Arrow cast (its shortest round-trip formatting has ``repr``'s
+digits; where it places them otherwise — integral floats, magnitudes below 10⁻⁴ — they are put
+right), checked against ``repr`` once in each process before first use (``repr`` for every
+float if this pyarrow spells them otherwise), as the standard library's encoder writes them.
 """
 
 from __future__ import annotations
@@ -140,16 +141,17 @@ def json_texts(documents: Sequence[Any]) -> list[str]:
     document at a time when the documents share their shape (as a batch's records do).
 
     The documents are walked together, place by place. Where they all hold objects with the
-    same keys, or arrays of the same length, the place is laid out once for all of them — a
-    template of fixed text and columns, one text per document each — and each scalar place
-    is a column written in one go: the floats of all the columns in one call
-    (:func:`_float_array`), the other scalars in one list; the rows of the tables (the objects
-    of an array laid out over lines) of all the documents are written together the same way.
-    The texts are put together by Arrow, a column at a time. Where the documents differ,
-    they are written in groups of one shape; what is not plain JSON (a subclass of a
-    container, a key that is not a string) is written one value at a time, as
+    same keys in the same order, or arrays of the same length, the place is laid out once for
+    all of them — a template of fixed text and columns, one text per document each — and each
+    scalar place is a column written in one go: the floats of all the columns in one call
+    (:func:`_float_array`), each distinct string of a column encoded once. The rows of the
+    tables (the objects of an array laid out over lines) of all the documents are written
+    together, each with the bracket or comma before it, so that a table's text is its rows'
+    text as it is. The texts are put together by Arrow, a column at a time. Where the
+    documents differ, they are written in groups of one shape; what is not plain JSON (a
+    subclass of a container, a key that is not a string) is written one value at a time, as
     :func:`json_text` writes it. Fewer than ``_TOGETHER_FROM`` documents are written one at a
-    time.
+    time (the calls on columns would cost more than they save).
 
     Raises
     ------
