@@ -42,7 +42,7 @@ __all__ = [
     "COOKS_DISTANCE_THRESHOLD", "FAMILY_LEVEL", "INFLUENCE_LEVEL", "PointDiagnostics",
     "RunsTest", "cooks_distance", "flag_points", "leverage", "log_run_probability",
     "outlier_threshold", "point_diagnostics", "point_diagnostics_of_many", "runs_test",
-    "serial_correlation_test",
+    "runs_tests", "serial_correlation_test", "serial_correlation_tests",
     "studentized_residuals",
 ]
 
@@ -629,8 +629,55 @@ def runs_test(values: npt.ArrayLike) -> RunsTest:
     signs = np.sign(x[np.isfinite(x) & (x != 0.0)])
     n1 = int(np.sum(signs > 0))
     n2 = int(np.sum(signs < 0))
+    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n1 + n2 else 0
+    return _runs_test_of_counts(n1, n2, runs)
+
+
+def runs_tests(sequences: Sequence[npt.ArrayLike]) -> list[RunsTest]:
+    """:func:`runs_test` of each sequence: the same results, the signs of sequences of one
+    length without zeros or NaN counted together.
+
+    Examples
+    --------
+    >>> runs_tests([[1, 1, -1, -1], [1, -1, 1, -1]]) == [runs_test([1, 1, -1, -1]),
+    ...                                                  runs_test([1, -1, 1, -1])]
+    True
+    """
+    found: dict[int, RunsTest] = {}
+    for members, x in _stacked_rows(sequences):
+        if x is None or not (x != 0.0).all():
+            for i in members:
+                found[i] = runs_test(sequences[i])
+            continue
+        signs = np.sign(x)
+        n1 = np.count_nonzero(signs > 0, axis=1).tolist()
+        changes = np.count_nonzero(signs[:, 1:] != signs[:, :-1], axis=1).tolist()
+        for i, positive, changed in zip(members, n1, changes, strict=True):
+            found[i] = _runs_test_of_counts(positive, x.shape[1] - positive, 1 + changed)
+    return [found[i] for i in range(len(sequences))]
+
+
+def _stacked_rows(sequences: Sequence[npt.ArrayLike]
+                  ) -> list[tuple[list[int], np.ndarray | None]]:
+    """The sequences grouped by length, each group as (their indices, their values stacked
+    (G × J)); None in place of the values for a group with a NaN or infinite value or of
+    length 0."""
+    groups: dict[int, list[int]] = {}
+    arrays = [np.asarray(v, dtype=float).ravel() for v in sequences]
+    for index, x in enumerate(arrays):
+        groups.setdefault(x.size, []).append(index)
+    out: list[tuple[list[int], np.ndarray | None]] = []
+    for size, members in groups.items():
+        x = np.stack([arrays[i] for i in members]) if size else None
+        out.append((members, x if x is not None and np.isfinite(x).all() else None))
+    return out
+
+
+@lru_cache(maxsize=4096)
+def _runs_test_of_counts(n1: int, n2: int, runs: int) -> RunsTest:
+    """:func:`runs_test` of a sequence with ``n1`` positive and ``n2`` negative values in
+    ``runs`` runs; kept between calls (the same counts recur over many series)."""
     n = n1 + n2
-    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n else 0
     if n1 == 0 or n2 == 0:
         return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=float(runs),
                         sd_runs=0.0, z=math.nan, p_value_two_sided=math.nan,
@@ -769,6 +816,44 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
     products = np.multiply.outer(x, x).ravel()
     rho_random = np.sum(products[_adjacent_pairs(permutations, x.size)], axis=1) / denominator
     return rho, float((np.sum(rho_random >= rho - 1e-15) + 1) / (permutations + 1))
+
+
+def serial_correlation_tests(sequences: Sequence[npt.ArrayLike], permutations: int = 4000,
+                             exact_up_to: int = 1000) -> list[tuple[float, float]]:
+    """:func:`serial_correlation_test` of each sequence: the same numbers, the random orderings
+    of sequences of one length (finite, of 4 to ``exact_up_to`` values) summed together.
+
+    Examples
+    --------
+    >>> a, b = [-3.0, -2.0, -1.0, 1.0, 2.0], [1.0, -1.0, 1.0, -1.0, 1.0]
+    >>> serial_correlation_tests([a, b]) == [serial_correlation_test(a),
+    ...                                      serial_correlation_test(b)]
+    True
+    """
+    found: dict[int, tuple[float, float]] = {}
+    for members, x in _stacked_rows(sequences):
+        if (x is None or not 4 <= x.shape[1] <= exact_up_to
+                or not (x != 0.0).any(axis=1).all()):
+            for i in members:
+                found[i] = serial_correlation_test(sequences[i], permutations, exact_up_to)
+            continue
+        x = x - 0.0
+        denominator = np.sum(x**2, axis=1)
+        rho = np.sum(x[:, 1:] * x[:, :-1], axis=1) / denominator
+        pairs = _adjacent_pairs(permutations, x.shape[1])
+        # (as many sequences at a time as keep the gathered products near 16 MB)
+        step = max(1, 2_000_000 // pairs.size)
+        count = np.empty(len(members), dtype=np.intp)
+        for first in range(0, len(members), step):
+            block = slice(first, first + step)
+            products = (x[block, :, None] * x[block, None, :]).reshape(-1, x.shape[1] ** 2)
+            rho_random = (np.sum(products[:, pairs], axis=2)
+                          / denominator[block, None])
+            count[block] = np.count_nonzero(rho_random >= rho[block, None] - 1e-15, axis=1)
+        p = (count + 1) / (permutations + 1)
+        for k, i in enumerate(members):
+            found[i] = (float(rho[k]), float(p[k]))
+    return [found[i] for i in range(len(sequences))]
 
 
 def serial_moments(values: npt.ArrayLike) -> tuple[float, float]:

@@ -43,7 +43,7 @@ from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
 from ..fit.diagnostics import PointDiagnostics, point_diagnostics, point_diagnostics_of_many
 from ..fit.engine import BatchFit, MeasurementModel, solve
-from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
+from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit, judge_lack_of_fit_of_many
 from ..fit.least_squares import information_criteria, straight_lines
 from ..fit.problem import (
     E0,
@@ -756,9 +756,22 @@ def _linear_extrapolations(problems: Sequence[tuple[Run, SeriesData, float]]
 
     at I ≤ :data:`LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH`, ln γ_DH the extended Debye–Hückel
     term with Bå = 1.5 (Bates–Guggenheim); the intercept is E° (the Hitchcock extrapolation).
+    The lines of runs of one number of readings are fitted together (padded to that width, so
+    that each line's sums are those of its run alone).
     """
-    if not problems:
-        return []
+    groups: dict[int, list[int]] = {}
+    for index, (_, data, _) in enumerate(problems):
+        groups.setdefault(data.molality.size, []).append(index)
+    found: dict[int, LinearExtrapolation | None] = {}
+    for members in groups.values():
+        found.update(zip(members, _lines_of_one_width([problems[i] for i in members]),
+                         strict=True))
+    return [found[index] for index in range(len(problems))]
+
+
+def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
+                        ) -> list[LinearExtrapolation | None]:
+    """:func:`_linear_extrapolations` of runs of one number of readings."""
     width = max(2, *(data.molality.size for _, data, _ in problems))
     m, y, w = (np.zeros((len(problems), width)) for _ in range(3))
     scale = np.zeros(len(problems), dtype=bool)
@@ -847,11 +860,21 @@ def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: Se
     slope = fit.values.get(SLOPE, data.slope)
     return sensitivity @ (-data.sign * slope * data.nernst_V * delta)
 
-def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit) -> LackOfFit:
+def _lack_of_fit_arguments(held: _Held) -> tuple[Any, ...]:
+    """The arguments of :func:`activolt.fit.lack_of_fit.judge_lack_of_fit` for the held fit."""
+    data, fit = held.data, held.fit
+    return (data.molality, fit.residual_V, data.weights, fit.chi2, fit.dof, 1 + len(fit.free),
+            data.stated_uncertainty)
+
+
+def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit,
+               judged: LackOfFit | None = None) -> LackOfFit:
     """The lack-of-fit rule (:func:`activolt.fit.lack_of_fit.judge_lack_of_fit`) applied to the
-    final fit; a systematic misfit is refused with a FitError that says what to try."""
-    judged = judge_lack_of_fit(data.molality, fit.residual_V, data.weights, fit.chi2, fit.dof,
-                               1 + len(fit.free), data.stated_uncertainty)
+    final fit (``judged``: its verdict, when already worked out with a batch's others); a
+    systematic misfit is refused with a FitError that says what to try."""
+    if judged is None:
+        judged = judge_lack_of_fit(data.molality, fit.residual_V, data.weights, fit.chi2,
+                                   fit.dof, 1 + len(fit.free), data.stated_uncertainty)
     if judged.systematic:
         size = (f"reduced χ² = {judged.reduced_chi2:.3g} against the stated u(EMF)"
                 if data.stated_uncertainty else
@@ -964,6 +987,10 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
                        for start in starts])
     # Steps 3 and 4 of each run (_finish), then the point diagnostics of all the judged fits
     # together, then step 5 of each.
+    held_fits = [held for held in helds if isinstance(held, _Held)]
+    verdicts = dict(zip(map(id, held_fits), judge_lack_of_fit_of_many(
+        *zip(*map(_lack_of_fit_arguments, held_fits), strict=True)) if held_fits else [],
+        strict=True))
     staged: list[tuple[_Start, _Judged, _Components] | FitError | InputError] = []
     for start, held in zip(starts, helds, strict=True):
         if not isinstance(start, _Start):
@@ -973,7 +1000,7 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
             staged.append(held)
         else:
             try:
-                judged = _judge(held, start.family)
+                judged = _judge(held, start.family, verdicts[id(held)])
                 staged.append((start, judged, _covariance_components(judged, start)))
             except (FitError, InputError) as error:
                 staged.append(error)
@@ -1165,11 +1192,12 @@ class _Judged:
     sensitivity: np.ndarray
 
 
-def _judge(held: _Held, family: ActivityModel) -> _Judged:
-    """Step 3: the lack-of-fit rule (:func:`_judge_fit`): refuse a systematic misfit, scale
-    the readings' variances by the Birge ratio where they scatter more than stated."""
+def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None) -> _Judged:
+    """Step 3: the lack-of-fit rule (:func:`_judge_fit`; ``verdict``: its verdict when already
+    worked out): refuse a systematic misfit, scale the readings' variances by the Birge ratio
+    where they scatter more than stated."""
     data, fit = held.data, held.fit
-    judged = _judge_fit(family, data, fit)
+    judged = _judge_fit(family, data, fit, verdict)
     birge, birge_dof = judged.birge_ratio, judged.birge_dof
     chi2_p, runs_p = judged.chi2_p_value, judged.runs.p_value_fewer
     warning = None
