@@ -1011,6 +1011,9 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         [judged.data.weights for judged in judged_fits.values()],
         [judged.fit.residual_V for judged in judged_fits.values()],
         [not judged.data.stated_uncertainty for judged in judged_fits.values()]), strict=True))
+    assembled = {k: stage for k, stage in enumerate(staged) if isinstance(stage, tuple)}
+    points = dict(zip(assembled, _points_columns_of_many(
+        [_gamma_inputs(*stage) for stage in assembled.values()]), strict=True))
     results: list[Reduction | FitError | InputError] = []
     for k, stage in enumerate(staged):
         if not isinstance(stage, tuple):
@@ -1019,7 +1022,7 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         start, judged, parts = stage
         try:
             results.append(_assemble(start, judged, parts, remind_model_choice,
-                                     diagnosed.get(k)))
+                                     diagnosed.get(k), points[k]))
         except (FitError, InputError) as error:
             results.append(error)
     # The straight-line cross-checks of all of them together, kept as each reduction's own
@@ -1270,11 +1273,20 @@ def _covariance_components(judged: _Judged, start: _Start) -> _Components:
                        uncertain_covariance=uncertain_covariance, notes=tuple(notes))
 
 
+def _gamma_inputs(start: _Start, judged: _Judged, parts: _Components) -> _GammaInputs:
+    """What the points columns of the reduction are worked out from."""
+    return _GammaInputs(start.run, start.family, judged.data, judged.fit, judged.sensitivity,
+                        parts.type_b, parts.uncertain_names, parts.uncertain_covariance,
+                        parts.common, parts.truncation)
+
+
 def _assemble(start: _Start, judged: _Judged, parts: _Components,
-              remind_model_choice: bool, diagnosed: PointDiagnostics | None = None
+              remind_model_choice: bool, diagnosed: PointDiagnostics | None = None,
+              points: tuple[dict[str, np.ndarray], GammaPropagation] | None = None
               ) -> Reduction:
     """Step 5: the points table with γ± and its budget, diagnostics (``diagnosed``: the point
-    diagnostics of the judged fit, when already worked out), and the result."""
+    diagnostics of the judged fit, and ``points``: its points columns
+    (:func:`_points_columns_of_many`), when already worked out), and the result."""
     run, family = start.run, start.family
     electrolyte = run.metadata.electrolyte
     data = judged.data
@@ -1287,10 +1299,9 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
             MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
         warnings.append(MODEL_CHOICE_REMINDER)
-    columns, gamma_propagation = _points_columns(run, family, data, fit, judged.sensitivity,
-                                                 parts.type_b, parts.uncertain_names,
-                                                 parts.uncertain_covariance, parts.common,
-                                                 parts.truncation)
+    columns, gamma_propagation = (
+        _points_columns_of_many([_gamma_inputs(start, judged, parts)])[0] if points is None
+        else points)
     diagnostics, stand_out = _diagnose(run, data, fit, diagnosed)
     point_columns = {**columns, **diagnostics}
     for column in point_columns.values():
@@ -1593,29 +1604,80 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
     return names, np.column_stack(columns), np.asarray(variances)
 
 
-def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
-                    sensitivity: np.ndarray, type_b: np.ndarray | None,
-                    uncertain_names: tuple[str, ...],
-                    uncertain_covariance: np.ndarray,
-                    common: list[tuple[str, float, np.ndarray, np.ndarray]],
-                    truncation: np.ndarray | None = None
-                    ) -> tuple[dict[str, np.ndarray], GammaPropagation]:
-    """Columns over all rows of the run: fitted EMF, residual and γ± (measured and model), and
-    the budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
-    electrolyte = run.metadata.electrolyte
-    n = len(data.emf_V)
-    reading_var = (1.0 / data.weights if data.stated_uncertainty
-                   else np.full(n, fit.chi2 / fit.dof))
-    usable = run.usable
+class _GammaInputs(NamedTuple):
+    """What the points columns of one reduction are worked out from."""
+
+    run: Run
+    model: ActivityModel
+    data: SeriesData
+    fit: _Fit
+    sensitivity: np.ndarray
+    type_b: np.ndarray | None
+    uncertain_names: tuple[str, ...]
+    uncertain_covariance: np.ndarray
+    common: list[tuple[str, float, np.ndarray, np.ndarray]]
+    truncation: np.ndarray | None = None
+
+
+def _points_columns_of_many(items: Sequence[_GammaInputs]
+                            ) -> list[tuple[dict[str, np.ndarray], GammaPropagation]]:
+    """Per reduction, the columns over all rows of its run — fitted EMF, residual and γ±
+    (measured and model), and the budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the
+    part from one input alone — and what the covariance of ln γ± is made of. Reductions
+    alike (one model, electrolyte, number of readings and set of free, held and common
+    inputs) are worked out in the same array operations over a leading axis of series, each
+    series' numbers as alone (every step is elementwise, or a product or sum within one
+    series)."""
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, item in enumerate(items):
+        data, fit = item.data, item.fit
+        groups.setdefault((
+            id(item.model), item.run.metadata.electrolyte, data.sign, data.emf_V.size,
+            item.run.usable.size, tuple(fit.free), item.uncertain_names,
+            data.stated_uncertainty, item.type_b is None, item.truncation is None,
+            data.correction_V is None, data.gas_pressure_Pa is None,
+            tuple(name for name, *_ in item.common)), []).append(index)
+    found: dict[int, tuple[dict[str, np.ndarray], GammaPropagation]] = {}
+    for members in groups.values():
+        found.update(zip(members, _points_columns_alike([items[i] for i in members]),
+                         strict=True))
+    return [found[index] for index in range(len(items))]
+
+
+def _points_columns_alike(items: Sequence[_GammaInputs]
+                          ) -> list[tuple[dict[str, np.ndarray], GammaPropagation]]:
+    """:func:`_points_columns_of_many` of alike reductions."""
+    first = items[0]
+    model, electrolyte = first.model, first.run.metadata.electrolyte
+    free, uncertain_names = first.fit.free, first.uncertain_names
+    stated = first.data.stated_uncertainty
+    datas = [item.data for item in items]
+    fits = [item.fit for item in items]
+    n = datas[0].emf_V.size
+
+    def stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
+        return np.stack(arrays)
+
+    def column(values: Sequence[float]) -> np.ndarray:
+        """One number per series as a column, shape (S, 1)."""
+        return np.array(values, dtype=float)[:, None]
+
+    emf = stacked([d.emf_V for d in datas])
+    nernst = stacked([d.nernst_V for d in datas])
+    sensitivity = stacked([item.sensitivity for item in items])
+    reading_var = (1.0 / stacked([d.weights for d in datas]) if stated
+                   else np.repeat(column([f.chi2 / f.dof for f in fits]), n, axis=1))
 
     # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
-    slope = fit.values.get(SLOPE, data.slope)
-    scale = data.sign / (slope * data.nernst_V)
-    ln_gamma = (fit.e0 - data.emf_V) * scale - data.ln_mean_molality
-    parameter_gradient = np.zeros((n, 1 + len(fit.free)))
-    parameter_gradient[:, 0] = scale
-    if SLOPE in fit.free:
-        parameter_gradient[:, 1 + fit.free.index(SLOPE)] = -(fit.e0 - data.emf_V) * scale / slope
+    slope = column([f.values.get(SLOPE, d.slope) for f, d in zip(fits, datas, strict=True)])
+    e0 = column([f.e0 for f in fits])
+    scale = first.data.sign / (slope * nernst)
+    ln_gamma = (e0 - emf) * scale - stacked([d.ln_mean_molality for d in datas])
+    parameter_gradient = np.zeros((len(items), n, 1 + len(free)))
+    parameter_gradient[:, :, 0] = scale
+    if SLOPE in free:
+        parameter_gradient[:, :, 1 + free.index(SLOPE)] = -(e0 - emf) * scale / slope
+    type_b = None if first.type_b is None else stacked([item.type_b for item in items])
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     def part(variance: np.ndarray, with_type_b: bool = False) -> np.ndarray:
@@ -1624,48 +1686,74 @@ def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
 
     var_ln = part(reading_var, with_type_b=True)
     budget: dict[str, np.ndarray] = {}
-    if data.stated_uncertainty:
-        budget["readings"] = part(data.u_emf_V**2)
-        molality_var = np.maximum(reading_var - data.u_emf_V**2, 0.0)
-        if np.any(molality_var > 0):
+    molality_rows = np.zeros(len(items), dtype=bool)  # the series with a "molalities" part
+    if stated:
+        u_emf_squared = stacked([d.u_emf_V for d in datas]) ** 2
+        budget["readings"] = part(u_emf_squared)
+        molality_var = np.maximum(reading_var - u_emf_squared, 0.0)
+        molality_rows = np.any(molality_var > 0, axis=1)
+        if molality_rows.any():
             budget["molalities"] = part(molality_var)
     else:
         budget["readings"] = part(reading_var)
     if type_b is not None:
-        budget["conventions"] = np.einsum("ij,jk,ik->i", parameter_gradient, type_b,
+        budget["conventions"] = np.einsum("...ij,...jk,...ik->...i", parameter_gradient, type_b,
                                           parameter_gradient)
-    if truncation is not None:
-        budget["left-out terms"] = (parameter_gradient @ truncation) ** 2
+    left_out = None
+    if first.truncation is not None:
+        truncation = stacked([item.truncation for item in items])
+        left_out = np.matmul(parameter_gradient, truncation[:, :, None])[:, :, 0]
+        budget["left-out terms"] = left_out**2
         var_ln = var_ln + budget["left-out terms"]
-    for name, u, _, d in common:
-        var_ln = var_ln + (d * u) ** 2
-        budget[_COMMON_COLUMNS[name]] = (d * u) ** 2
+    common_parts = []
+    for position, (name, *_) in enumerate(first.common):
+        d_u = (stacked([item.common[position][3] for item in items])
+               * column([item.common[position][1] for item in items]))
+        var_ln = var_ln + d_u**2
+        budget[_COMMON_COLUMNS[name]] = d_u**2
+        common_parts.append(d_u)
     gamma = np.exp(ln_gamma)
     u_gamma = gamma * np.sqrt(var_ln)
 
     # Model γ± and its uncertainty from the parameter covariance.
-    model_values = {name: fit.values[name] for name in model.parameter_names}
-    ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
-    grad = np.zeros((n, len(uncertain_names)))
+    molality = stacked([d.molality for d in datas])
+    constants = DebyeHueckelConstants(*(stacked([getattr(d.constants, name) for d in datas])
+                                        for name in ("temperature", "aphi", "b")))
+    model_values = {name: column([f.values[name] for f in fits])
+                    for name in model.parameter_names}
+    ln_gamma_model = np.broadcast_to(
+        model.ln_gamma(electrolyte, molality, constants, model_values), molality.shape)
+    grad = np.zeros((len(items), n, len(uncertain_names)))
     in_model = [index for index, name in enumerate(uncertain_names) if name in model_values]
-    grad[:, in_model] = sensitivity_coefficients(
-        lambda v: model.ln_gamma(electrolyte, data.molality, data.constants, v), model_values,
+    grad[:, :, in_model] = sensitivity_coefficients(
+        lambda v: model.ln_gamma(electrolyte, molality, constants, v), model_values,
         [uncertain_names[index] for index in in_model])
-    var_model = np.einsum("ij,jk,ik->i", grad, uncertain_covariance, grad)
+    var_model = np.einsum("...ij,...jk,...ik->...i", grad,
+                          stacked([item.uncertain_covariance for item in items]), grad)
+    gamma_model = np.exp(ln_gamma_model)
+
+    rows = first.run.usable.size
+    masks = [item.run.usable for item in items]
+    every_row = rows == n  # (then every row is usable)
 
     def full(values: np.ndarray | None) -> np.ndarray:
-        """A column over every row of the run: the values at the usable rows, NaN elsewhere."""
-        column = np.full(usable.size, np.nan)
+        """Columns over every row of each run: the values at the usable rows, NaN elsewhere."""
+        if values is not None and every_row:
+            return values.copy()
+        out = np.full((len(items), rows), np.nan)
         if values is not None:
-            column[usable] = values
-        return column
+            for k, mask in enumerate(masks):
+                out[k, mask] = values[k]
+        return out
 
-    gamma_model = np.exp(ln_gamma_model)
+    def optional(arrays: Sequence[np.ndarray | None]) -> np.ndarray | None:
+        return None if arrays[0] is None else stacked(arrays)
+
     columns = {
-        "pressure_correction_V": full(data.correction_V),
-        "gas_pressure_Pa": full(data.gas_pressure_Pa),
-        "fitted_emf_V": full(data.emf_V - fit.residual_V),
-        "residual_V": full(fit.residual_V),
+        "pressure_correction_V": full(optional([d.correction_V for d in datas])),
+        "gas_pressure_Pa": full(optional([d.gas_pressure_Pa for d in datas])),
+        "fitted_emf_V": full(emf - stacked([f.residual_V for f in fits])),
+        "residual_V": full(stacked([f.residual_V for f in fits])),
         "ln_gamma_pm": full(ln_gamma),
         "gamma_pm": full(gamma),
         "u_gamma_pm": full(u_gamma),
@@ -1674,10 +1762,15 @@ def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
         **{f"u_gamma_pm_{name}": full(gamma * np.sqrt(variance))
            for name, variance in budget.items()},
     }
-    extra = tuple(d * u for _, u, _, d in common) + (
-        () if truncation is None else (parameter_gradient @ truncation,))
-    return columns, GammaPropagation(parameter_gradient, -scale, sensitivity, reading_var, type_b,
-                                   extra)
+    out = []
+    for k, item in enumerate(items):
+        extra = tuple(d_u[k] for d_u in common_parts) + (
+            () if left_out is None else (left_out[k],))
+        out.append(({name: values[k] for name, values in columns.items()
+                     if name != "u_gamma_pm_molalities" or molality_rows[k]},
+                    GammaPropagation(parameter_gradient[k], -scale[k], item.sensitivity,
+                                     reading_var[k], item.type_b, extra)))
+    return out
 
 
 def reduction_jacobian(reduction: Reduction) -> np.ndarray:
