@@ -200,12 +200,18 @@ def _sequences(seed: int) -> list[np.ndarray]:
     out = [rng.standard_normal(int(rng.integers(0, 20))) * 10.0 ** int(rng.integers(-8, 3))
            for _ in range(200)]
     out += [rng.standard_normal(12) for _ in range(50)]
+    out += [rng.standard_normal(15) * 10.0 ** int(rng.integers(-150, 150)) for _ in range(100)]
     out += [np.array([1.0, 0.0, -1.0, 2.0, 3.0]), np.array([np.nan, 1.0, 2.0, -3.0, 4.0]),
-            np.zeros(6), np.array([1.0, 2.0, 3.0, 4.0, 5.0]), np.array([-0.0, 1.0, -2.0, 3.0])]
+            np.zeros(6), np.array([1.0, 2.0, 3.0, 4.0, 5.0]), np.array([-0.0, 1.0, -2.0, 3.0]),
+            np.ones(8), -np.ones(15), np.r_[np.ones(7), -np.ones(8)], np.arange(15.0) ** 2,
+            np.sin(np.arange(15.0)), np.array([3.0, 1e-300, 2.0, 5e-310, 1.0]),
+            np.array([1e100, -1e99, 3e99, 1.0])]
     return out
 
 
 def test_the_order_tests_of_many_sequences_equal_each_alone():
+    """Including sequences whose orderings tie with the observed statistic (equal values:
+    every ordering summed exactly) and values near overflow or underflow."""
     sequences = _sequences(3)
     assert runs_tests(sequences) == [runs_test(x) for x in sequences]
     together = serial_correlation_tests(sequences)
