@@ -827,13 +827,13 @@ _SERIAL_MARGIN = 1e-4
 def _pair_counts(permutations: int, size: int) -> np.ndarray:
     """For each ordering of :func:`_shuffled_indices`, how often each pair of values a < b is
     adjacent in it (in either order), over the pairs of ``numpy.triu_indices(size, 1)``,
-    shape (permutations, size (size − 1)/2), single precision."""
+    shape (size (size − 1)/2, permutations), single precision."""
     pairs = _adjacent_pairs(permutations, size)
     low, high = np.minimum(pairs // size, pairs % size), np.maximum(pairs // size, pairs % size)
     column = np.full((size, size), -1)
     column[np.triu_indices(size, 1)] = np.arange(size * (size - 1) // 2)
-    counts = np.zeros((permutations, size * (size - 1) // 2), dtype=np.float32)
-    np.add.at(counts, (np.arange(permutations)[:, None], column[low, high]), 1.0)
+    counts = np.zeros((size * (size - 1) // 2, permutations), dtype=np.float32)
+    np.add.at(counts, (column[low, high], np.arange(permutations)[:, None]), 1.0)
     counts.flags.writeable = False
     return counts
 
@@ -884,13 +884,23 @@ def _serial_tests_together(x: np.ndarray, permutations: int) -> list[tuple[float
     # either way.
     upper = np.triu_indices(size, 1)
     scaled = (x / np.max(np.abs(x), axis=1)[:, None]).astype(np.float32)
-    estimate = ((scaled[:, upper[0]] * scaled[:, upper[1]]) @ _pair_counts(permutations, size).T
-                / np.sum(scaled.astype(float) ** 2, axis=1)[:, None])
-    near = ~(np.abs(estimate - threshold[:, None]) > _SERIAL_MARGIN)
-    count = np.count_nonzero((estimate >= threshold[:, None]) & ~near, axis=1)
-    for k in np.flatnonzero(near.any(axis=1)):
-        exact = np.sum(products[k][pairs[np.flatnonzero(near[k])]], axis=1) / denominator[k]
-        count[k] += np.count_nonzero(exact >= threshold[k])
+    squares = np.sum(scaled.astype(float) ** 2, axis=1)
+    # (the bounds on the sums, Σ x² ρ ± margin, in single precision)
+    low = ((threshold - _SERIAL_MARGIN) * squares).astype(np.float32)[:, None]
+    high = ((threshold + _SERIAL_MARGIN) * squares).astype(np.float32)[:, None]
+    counts = _pair_counts(permutations, size)
+    count = np.zeros(x.shape[0], dtype=np.intp)
+    for first in range(0, x.shape[0], 16):  # (a block's sums stay in the cache)
+        block = slice(first, first + 16)
+        sums = (scaled[block, upper[0]] * scaled[block, upper[1]]) @ counts
+        above = sums > high[block]
+        near = ~above & ~(sums < low[block])
+        count[block] = np.count_nonzero(above, axis=1)
+        for k in np.flatnonzero(near.any(axis=1)):
+            row = first + k
+            exact = (np.sum(products[row][pairs[np.flatnonzero(near[k])]], axis=1)
+                     / denominator[row])
+            count[row] += np.count_nonzero(exact >= threshold[row])
     p = (count + 1) / (permutations + 1)
     return [(float(r), float(q)) for r, q in zip(rho, p, strict=True)]
 
