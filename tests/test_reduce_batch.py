@@ -40,13 +40,15 @@ MODELS = ("limiting", "hueckel", "davies", "sit", "pitzer")
 
 
 def fingerprint(value: Any) -> Any:
-    """Everything a value holds, in plain comparable form: arrays as dtype, shape and bytes
-    (object arrays as lists), floats by repr (NaN and −0 told apart), dataclasses and
+    """Everything a value holds, in plain comparable form: arrays as dtype, shape, memory
+    order (which decides the order of some sums made from them later) and bytes (object
+    arrays as lists), floats by repr (NaN and −0 told apart), dataclasses and
     mappings field by field."""
     if isinstance(value, np.ndarray):
         if value.dtype == object:
             return ("object", value.shape, [fingerprint(v) for v in value.tolist()])
-        return (str(value.dtype), value.shape, value.tobytes())
+        return (str(value.dtype), value.shape, value.flags.c_contiguous,
+                value.flags.f_contiguous, value.tobytes())
     if isinstance(value, AffineScalarFunc):
         return ("ufloat", repr(value.nominal_value), repr(value.std_dev))
     if isinstance(value, ActivityModel):

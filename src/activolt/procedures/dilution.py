@@ -454,8 +454,8 @@ class _FitRequest:
     the engine takes it (a batch of one); :func:`_solve_requests` solves many at once."""
 
     model: ActivityModel
+    electrolyte: Electrolyte
     data: SeriesData
-    measurement: MeasurementModel
     values: dict[str, float]
     free: list[str]
     start: np.ndarray
@@ -465,22 +465,35 @@ class _FitRequest:
     def batch_key(self) -> tuple[Any, ...]:
         """Requests with equal keys are solved in one batch: one model, one electrolyte, one
         sign, one number of readings."""
-        m = self.measurement
-        return (id(self.model), m.electrolyte, m.sign, m.molality.shape[1])
+        return (id(self.model), self.electrolyte, self.data.sign, self.data.molality.size)
 
 
 def _fit_request(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                  values: dict[str, float], free: list[str]) -> _FitRequest:
     """The request for one fit (FitError when a starting value lies outside its bounds)."""
-    measurement = data.measurement_model(model, electrolyte)
-    names = measurement.names
+    names = _names(model)
     start = data.values_array(model, 0.0, values)
     low, high = _bounds(model, names)
     if not np.all((start[0] >= low) & (start[0] <= high)):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
                        "value within them")
+    return _FitRequest(model, electrolyte, data, values, list(free), start,
+                       _mask(names, tuple(free)))
+
+
+@functools.lru_cache(maxsize=64)
+def _names(model: ActivityModel) -> tuple[str, ...]:
+    """The quantities of the engine's order for a model (:attr:`MeasurementModel.names`)."""
+    return (E0, *model.parameter_names, SLOPE)
+
+
+@functools.lru_cache(maxsize=256)
+def _mask(names: tuple[str, ...], free: tuple[str, ...]) -> np.ndarray:
+    """Which quantities of the engine's order are fitted (E° and ``free``), shape (1, P),
+    read-only."""
     mask = np.array([[name == E0 or name in free for name in names]])
-    return _FitRequest(model, data, measurement, values, list(free), start, mask)
+    mask.flags.writeable = False
+    return mask
 
 
 @functools.lru_cache(maxsize=64)
@@ -508,13 +521,13 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
     for indices in groups.values():
         chosen = [requests[i] for i in indices]
         first = chosen[0]
-        names = first.measurement.names
+        names = _names(first.model)
         if len(chosen) == 1:
-            measurement = first.measurement
+            measurement = first.data.measurement_model(first.model, first.electrolyte)
             emf, weights = first.data.emf_V[None, :], first.data.weights[None, :]
             start, mask = first.start, first.mask
         else:
-            measurement = _stacked([r.measurement for r in chosen])
+            measurement = _stacked(first.model, first.electrolyte, [r.data for r in chosen])
             emf = np.stack([r.data.emf_V for r in chosen])
             weights = np.stack([r.data.weights for r in chosen])
             start = np.concatenate([r.start for r in chosen])
@@ -522,50 +535,74 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
         scaled = np.array([not r.data.stated_uncertainty for r in chosen])
         batch = solve(measurement, emf, weights, start, mask, _linear(first.model, names),
                       np.column_stack(_bounds(first.model, names)), scale_covariance=scaled)
-        for row, index in enumerate(indices):
-            try:
-                results[index] = _fit_from(requests[index], batch, row)
-            except FitError as error:
-                results[index] = error
+        for index, fit in zip(indices, _fits_from(chosen, batch), strict=True):
+            results[index] = fit
     return [r for r in results if r is not None]
 
 
-def _stacked(models: Sequence[MeasurementModel]) -> MeasurementModel:
+def _stacked(model: ActivityModel, electrolyte: Electrolyte, series: Sequence[SeriesData]
+             ) -> MeasurementModel:
     """One measurement model of several series of equal length (one model and electrolyte)."""
-    first = models[0]
     return MeasurementModel(
-        first.activity, first.electrolyte, first.sign,
-        np.concatenate([m.molality for m in models]),
-        np.concatenate([m.nernst_V for m in models]),
-        DebyeHueckelConstants(*(np.concatenate([getattr(m.constants, field) for m in models])
+        model, electrolyte, series[0].sign, np.stack([d.molality for d in series]),
+        np.stack([d.nernst_V for d in series]),
+        DebyeHueckelConstants(*(np.stack([getattr(d.constants, field) for d in series])
                                 for field in ("temperature", "aphi", "b"))))
 
 
-def _fit_from(request: _FitRequest, result: BatchFit, row: int) -> _Fit:
-    """The fit of one request from row ``row`` of the engine's batch, or FitError."""
+def _fits_from(requests: Sequence[_FitRequest], result: BatchFit) -> list[_Fit | FitError]:
+    """The fit of each request from its row of the engine's batch (the requests in the
+    batch's order), or the FitError that refuses it; the rows of requests with one set of
+    free parameters read together."""
+    names = result.names
+    out: list[_Fit | FitError | None] = [None] * len(requests)
+    alike: dict[tuple[str, ...], list[int]] = {}
+    for row, request in enumerate(requests):
+        alike.setdefault(tuple(request.free), []).append(row)
+    for free, rows in alike.items():
+        order = [names.index(name) for name in (E0, *free)]
+        picked = np.array(rows)
+        # (laid out as one row's alone: each covariance row-major, each Jacobian
+        # column-major, the transpose of a row-major P × N)
+        covariances = np.ascontiguousarray(result.covariance[picked][:, order][:, :, order])
+        jacobians = np.ascontiguousarray(
+            np.swapaxes(result.jacobian[picked][:, :, order], 1, 2)).transpose(0, 2, 1)
+        estimable = (np.isfinite(covariances).all(axis=(1, 2))
+                     & (np.diagonal(covariances, axis1=1, axis2=2) > 0.0).all(axis=1)).tolist()
+        values, chi2s, dofs = (result.values[picked].tolist(), result.chi2[picked].tolist(),
+                               result.dof[picked].tolist())
+        columns = [names.index(name) for name in free]
+        for k, row in enumerate(rows):
+            out[row] = _fit_of(requests[row], result, row, values[k], columns, covariances[k],
+                               estimable[k], chi2s[k], dofs[k], jacobians[k])
+    return [fit for fit in out if fit is not None]
+
+
+def _fit_of(request: _FitRequest, result: BatchFit, row: int, values: list[float],
+            columns: list[int], covariance: np.ndarray, estimable: bool, chi2: float, dof: int,
+            jacobian: np.ndarray) -> _Fit | FitError:
+    """The fit of one request from row ``row`` of the engine's batch (its values, the
+    positions of its free parameters among them, its covariance and Jacobian over E° and
+    those, whether that covariance is finite with a positive diagonal, χ² and ν), or the
+    FitError that refuses it."""
     model, data, free = request.model, request.data, request.free
     if not result.converged[row]:
-        raise FitError(f"{result.failures[row]}; hold a parameter at a given value")
-    names = result.names
-    order = [names.index(name) for name in (E0, *free)]
-    covariance = result.covariance[row][np.ix_(order, order)]
+        return FitError(f"{result.failures[row]}; hold a parameter at a given value")
     fitted = {**request.values,
-              **{name: float(result.values[row, names.index(name)]) for name in free}}
-    if ((not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0))
-            and not any(_at_bound(parameter_spec(model, name), fitted[name]) for name in free)):
+              **{name: values[column] for name, column in zip(free, columns, strict=True)}}
+    if not estimable and not any(_at_bound(parameter_spec(model, name), fitted[name])
+                                 for name in free):
         # (a parameter at a bound is held next, by _hard_failure, whatever its variance)
-        raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
-                       "independent for these data); hold a parameter at a given value")
-    n = data.emf_V.size
-    dof = int(result.dof[row])
+        return FitError("the covariance of the fit cannot be estimated (the parameters are not "
+                        "independent for these data); hold a parameter at a given value")
     if dof < 1 and not data.stated_uncertainty:
-        raise FitError("no degree of freedom is left to estimate the scatter; hold a parameter "
-                       "at a given value or state u(EMF)")
-    chi2 = float(result.chi2[row])
-    aic, bic = information_criteria(chi2, n, 1 + len(free), not data.stated_uncertainty)
-    return _Fit(e0=float(result.values[row, 0]), values=fitted, free=list(free),
-                covariance=covariance, chi2=chi2, dof=dof, aic=aic, bic=bic,
-                residual_V=result.residual_V[row], jacobian=result.jacobian[row][:, order])
+        return FitError("no degree of freedom is left to estimate the scatter; hold a "
+                        "parameter at a given value or state u(EMF)")
+    aic, bic = information_criteria(chi2, data.emf_V.size, 1 + len(free),
+                                    not data.stated_uncertainty)
+    return _Fit(e0=values[0], values=fitted, free=list(free), covariance=covariance, chi2=chi2,
+                dof=dof, aic=aic, bic=bic, residual_V=result.residual_V[row],
+                jacobian=jacobian)
 
 
 def _at_bound(spec: Parameter, value: float) -> bool:
