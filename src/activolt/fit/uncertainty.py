@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 import numpy.typing as npt
@@ -122,11 +123,13 @@ class BudgetLine:
     method: str
 
 
+@lru_cache(maxsize=1024)
 def student_t_factor(dof: int, coverage: float = 0.95) -> float:
     """Coverage factor k for a two-sided interval from a Student t distribution.
 
     Used when the covariance was scaled by the reduced χ² (GUM, JCGM 100:2008, Annex G); with
-    stated reading uncertainties the normal factor applies (``dof`` = 0 means infinite).
+    stated reading uncertainties the normal factor applies (``dof`` = 0 means infinite). Kept
+    between calls (the runs of a batch share a few degrees of freedom).
 
     Examples
     --------

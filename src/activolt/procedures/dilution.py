@@ -793,12 +793,12 @@ def _linear_extrapolations(problems: Sequence[tuple[Run, SeriesData, float]]
 
     at I ≤ :data:`LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH`, ln γ_DH the extended Debye–Hückel
     term with Bå = 1.5 (Bates–Guggenheim); the intercept is E° (the Hitchcock extrapolation).
-    The lines of runs of one number of readings are fitted together (padded to that width, so
-    that each line's sums are those of its run alone).
+    The lines of runs of one electrolyte and number of readings are fitted together (padded
+    to that width, so that each line's sums are those of its run alone).
     """
-    groups: dict[int, list[int]] = {}
-    for index, (_, data, _) in enumerate(problems):
-        groups.setdefault(data.molality.size, []).append(index)
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, (run, data, _) in enumerate(problems):
+        groups.setdefault((data.molality.size, run.metadata.electrolyte), []).append(index)
     found: dict[int, LinearExtrapolation | None] = {}
     for members in groups.values():
         found.update(zip(members, _lines_of_one_width([problems[i] for i in members]),
@@ -808,21 +808,28 @@ def _linear_extrapolations(problems: Sequence[tuple[Run, SeriesData, float]]
 
 def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
                         ) -> list[LinearExtrapolation | None]:
-    """:func:`_linear_extrapolations` of runs of one number of readings."""
-    width = max(2, *(data.molality.size for _, data, _ in problems))
+    """:func:`_linear_extrapolations` of runs of one electrolyte and number of readings: the
+    points within range of each moved to the front of its row, in order, zeros after."""
+    electrolyte = problems[0][0].metadata.electrolyte
+    size = problems[0][1].molality.size
+    width = max(2, size)
+
+    def stacked(name: str) -> np.ndarray:
+        return np.stack([getattr(data, name) for _, data, _ in problems])
+
+    molality = stacked("molality")
+    use = electrolyte.ionic_strength(molality) <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
+    ln_gamma_dh = extended_debye_hueckel(
+        electrolyte, molality, np.stack([data.constants.agamma for _, data, _ in problems]))
+    factor = np.array([data.sign * slope for _, data, slope in problems])[:, None]
+    y_all = stacked("emf_V") + factor * stacked("nernst_V") * (stacked("ln_mean_molality")
+                                                                + ln_gamma_dh)
+    order = np.argsort(~use, axis=1, kind="stable")  # the points within range first
+    within = np.arange(size) < np.count_nonzero(use, axis=1)[:, None]
     m, y, w = (np.zeros((len(problems), width)) for _ in range(3))
-    scale = np.zeros(len(problems), dtype=bool)
-    for row, (run, data, slope) in enumerate(problems):
-        electrolyte = run.metadata.electrolyte
-        ionic = electrolyte.ionic_strength(data.molality)
-        use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
-        n = int(np.count_nonzero(use))
-        m[row, :n] = molality = data.molality[use]
-        ln_gamma_dh = extended_debye_hueckel(electrolyte, molality, data.constants.agamma[use])
-        y[row, :n] = data.emf_V[use] + data.sign * slope * data.nernst_V[use] * (
-            data.ln_mean_molality[use] + ln_gamma_dh)
-        w[row, :n] = data.weights[use]
-        scale[row] = not data.stated_uncertainty
+    for padded, values in ((m, molality), (y, y_all), (w, stacked("weights"))):
+        padded[:, :size] = np.where(within, np.take_along_axis(values, order, axis=1), 0.0)
+    scale = np.array([not data.stated_uncertainty for _, data, _ in problems])
     ordered = np.sort(np.where(w > 0.0, m, np.inf), axis=1)  # the padding last
     with np.errstate(invalid="ignore"):  # (∞ − ∞ between two paddings)
         steps = np.diff(ordered, axis=1) > 0.0
@@ -1094,6 +1101,8 @@ class _Start:
     fixed_u: dict[str, float]
     temperature_K: float
     warnings: list[str]
+    #: How many distinct molalities (solutions) the usable readings have.
+    solutions: int
 
 
 def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> _Start:
@@ -1111,7 +1120,8 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
                          f"{_MIN_POINTS} to give E° with an uncertainty", file=str(run.path))
-    if np.unique(data.molality).size < 2:
+    solutions = int(np.unique(data.molality).size)
+    if solutions < 2:
         raise InputError(f"all {n} usable readings are at one molality (m = "
                          f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
                          "series (at least 3 molalities); a single solution gives E° only with "
@@ -1147,7 +1157,8 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
     free = [p.name for p in specs if p.name not in reasons]
     return _Start(run=run, family=family, specs=specs, data=data, values=values,
                   reasons=reasons, free=free, fixed=fixed_values, fixed_u=fixed_u,
-                  temperature_K=mean_temperature(temperature), warnings=warnings)
+                  temperature_K=mean_temperature(temperature), warnings=warnings,
+                  solutions=solutions)
 
 
 @dataclass(frozen=True)
@@ -1172,7 +1183,7 @@ def _fit_and_hold(start: _Start
     data, values, reasons, free = start.data, dict(start.values), dict(start.reasons), \
         list(start.free)
     n = len(data.emf_V)
-    solutions = int(np.unique(data.molality).size)
+    solutions = start.solutions
     first_fit: _Fit | None = None
     while True:
         while free and (n - 1 - len(free) < 1 or solutions - 1 - len(free) < 0):
