@@ -1526,12 +1526,18 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit, found: PointDiagnostics | N
     columns = {"leverage": found.leverage, "studentized_residual": found.studentized_residual,
                "cooks_distance": found.cooks_distance}
     full: dict[str, np.ndarray] = {}
+    every_row = len(found.flags) == used.size  # (every row used: the columns as they are)
     for name, values in columns.items():
-        full[name] = np.full(used.size, np.nan)
-        full[name][used] = values
+        if every_row:
+            full[name] = np.array(values, dtype=float)
+        else:
+            full[name] = np.full(used.size, np.nan)
+            full[name][used] = values
     diagnostic = np.full(used.size, None, dtype=object)
     diagnostic[used] = np.array(found.flags, dtype=object)
     full["diagnostic"] = diagnostic
+    if all(flag is None for flag in found.flags):
+        return full, []
     molality, lines = run.arrays["molality_mol_kg"], run.arrays["line"]
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
