@@ -123,19 +123,24 @@ class BudgetLine:
     method: str
 
 
-@lru_cache(maxsize=1024)
 def student_t_factor(dof: int, coverage: float = 0.95) -> float:
     """Coverage factor k for a two-sided interval from a Student t distribution.
 
     Used when the covariance was scaled by the reduced χ² (GUM, JCGM 100:2008, Annex G); with
-    stated reading uncertainties the normal factor applies (``dof`` = 0 means infinite). Kept
-    between calls (the runs of a batch share a few degrees of freedom).
+    stated reading uncertainties the normal factor applies (``dof`` = 0 means infinite).
 
     Examples
     --------
     >>> round(student_t_factor(0), 2), round(student_t_factor(10), 3)
     (1.96, 2.228)
     """
+    return _kept_t_factor(float(dof), float(coverage))
+
+
+@lru_cache(maxsize=1024)
+def _kept_t_factor(dof: float, coverage: float) -> float:
+    """:func:`student_t_factor`, kept between calls (the runs of a batch share a few degrees of
+    freedom)."""
     from scipy.special import ndtri, stdtrit
 
     if dof <= 0:
