@@ -42,7 +42,7 @@ __all__ = [
     "COOKS_DISTANCE_THRESHOLD", "FAMILY_LEVEL", "INFLUENCE_LEVEL", "PointDiagnostics",
     "RunsTest", "cooks_distance", "flag_points", "leverage", "log_run_probability",
     "outlier_threshold", "point_diagnostics", "point_diagnostics_of_many", "runs_test",
-    "serial_correlation_test",
+    "runs_tests", "serial_correlation_test", "serial_correlation_tests",
     "studentized_residuals",
 ]
 
@@ -629,8 +629,55 @@ def runs_test(values: npt.ArrayLike) -> RunsTest:
     signs = np.sign(x[np.isfinite(x) & (x != 0.0)])
     n1 = int(np.sum(signs > 0))
     n2 = int(np.sum(signs < 0))
+    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n1 + n2 else 0
+    return _runs_test_of_counts(n1, n2, runs)
+
+
+def runs_tests(sequences: Sequence[npt.ArrayLike]) -> list[RunsTest]:
+    """:func:`runs_test` of each sequence: the same results, the signs of sequences of one
+    length without zeros or NaN counted together.
+
+    Examples
+    --------
+    >>> runs_tests([[1, 1, -1, -1], [1, -1, 1, -1]]) == [runs_test([1, 1, -1, -1]),
+    ...                                                  runs_test([1, -1, 1, -1])]
+    True
+    """
+    found: dict[int, RunsTest] = {}
+    for members, x in _stacked_rows(sequences):
+        if x is None or not (x != 0.0).all():
+            for i in members:
+                found[i] = runs_test(sequences[i])
+            continue
+        signs = np.sign(x)
+        n1 = np.count_nonzero(signs > 0, axis=1).tolist()
+        changes = np.count_nonzero(signs[:, 1:] != signs[:, :-1], axis=1).tolist()
+        for i, positive, changed in zip(members, n1, changes, strict=True):
+            found[i] = _runs_test_of_counts(positive, x.shape[1] - positive, 1 + changed)
+    return [found[i] for i in range(len(sequences))]
+
+
+def _stacked_rows(sequences: Sequence[npt.ArrayLike]
+                  ) -> list[tuple[list[int], np.ndarray | None]]:
+    """The sequences grouped by length, each group as (their indices, their values stacked
+    (G × J)); None in place of the values for a group with a NaN or infinite value or of
+    length 0."""
+    groups: dict[int, list[int]] = {}
+    arrays = [np.asarray(v, dtype=float).ravel() for v in sequences]
+    for index, x in enumerate(arrays):
+        groups.setdefault(x.size, []).append(index)
+    out: list[tuple[list[int], np.ndarray | None]] = []
+    for size, members in groups.items():
+        x = np.stack([arrays[i] for i in members]) if size else None
+        out.append((members, x if x is not None and np.isfinite(x).all() else None))
+    return out
+
+
+@lru_cache(maxsize=4096)
+def _runs_test_of_counts(n1: int, n2: int, runs: int) -> RunsTest:
+    """:func:`runs_test` of a sequence with ``n1`` positive and ``n2`` negative values in
+    ``runs`` runs; kept between calls (the same counts recur over many series)."""
     n = n1 + n2
-    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n else 0
     if n1 == 0 or n2 == 0:
         return RunsTest(n_positive=n1, n_negative=n2, runs=runs, expected_runs=float(runs),
                         sd_runs=0.0, z=math.nan, p_value_two_sided=math.nan,
@@ -769,6 +816,93 @@ def serial_correlation_test(values: npt.ArrayLike, permutations: int = 4000,
     products = np.multiply.outer(x, x).ravel()
     rho_random = np.sum(products[_adjacent_pairs(permutations, x.size)], axis=1) / denominator
     return rho, float((np.sum(rho_random >= rho - 1e-15) + 1) / (permutations + 1))
+
+
+#: How far from the threshold an estimated statistic of the permutation test must lie to be
+#: counted without summing it again exactly (:func:`serial_correlation_tests`).
+_SERIAL_MARGIN = 1e-4
+
+
+@lru_cache(maxsize=4)
+def _pair_counts(permutations: int, size: int) -> np.ndarray:
+    """For each ordering of :func:`_shuffled_indices`, how often each pair of values a < b is
+    adjacent in it (in either order), over the pairs of ``numpy.triu_indices(size, 1)``,
+    shape (size (size − 1)/2, permutations), single precision."""
+    pairs = _adjacent_pairs(permutations, size)
+    low, high = np.minimum(pairs // size, pairs % size), np.maximum(pairs // size, pairs % size)
+    column = np.full((size, size), -1)
+    column[np.triu_indices(size, 1)] = np.arange(size * (size - 1) // 2)
+    counts = np.zeros((size * (size - 1) // 2, permutations), dtype=np.float32)
+    np.add.at(counts, (column[low, high], np.arange(permutations)[:, None]), 1.0)
+    counts.flags.writeable = False
+    return counts
+
+
+def serial_correlation_tests(sequences: Sequence[npt.ArrayLike], permutations: int = 4000,
+                             exact_up_to: int = 1000) -> list[tuple[float, float]]:
+    """:func:`serial_correlation_test` of each sequence: the same numbers, the random orderings
+    of sequences of one length (finite, of 4 to ``exact_up_to`` values, none beyond 10¹⁰⁰ or
+    all below 10⁻¹⁰⁰ in size) worked out together.
+
+    Examples
+    --------
+    >>> a, b = [-3.0, -2.0, -1.0, 1.0, 2.0], [1.0, -1.0, 1.0, -1.0, 1.0]
+    >>> serial_correlation_tests([a, b]) == [serial_correlation_test(a),
+    ...                                      serial_correlation_test(b)]
+    True
+    """
+    found: dict[int, tuple[float, float]] = {}
+    for members, x in _stacked_rows(sequences):
+        alone = members
+        if x is not None and 4 <= x.shape[1] <= exact_up_to:
+            size = np.max(np.abs(x), axis=1)
+            kept = (size > 1e-100) & (size < 1e100)  # (no overflow, no underflow below)
+            found.update(zip([members[k] for k in np.flatnonzero(kept)],
+                             _serial_tests_together(x[kept], permutations), strict=True))
+            alone = [members[k] for k in np.flatnonzero(~kept)]
+        for i in alone:
+            found[i] = serial_correlation_test(sequences[i], permutations, exact_up_to)
+    return [found[i] for i in range(len(sequences))]
+
+
+def _serial_tests_together(x: np.ndarray, permutations: int) -> list[tuple[float, float]]:
+    """:func:`serial_correlation_test` of the rows of ``x`` (S × J, finite, each with a value
+    of size between 10⁻¹⁰⁰ and 10¹⁰⁰ and none beyond)."""
+    x = x - 0.0
+    denominator = np.sum(x**2, axis=1)
+    rho = np.sum(x[:, 1:] * x[:, :-1], axis=1) / denominator
+    size = x.shape[1]
+    pairs = _adjacent_pairs(permutations, size)
+    products = (x[:, :, None] * x[:, None, :]).reshape(-1, size * size)
+    threshold = rho - 1e-15
+    # Each ordering's statistic estimated in single precision by one matrix product — its
+    # count of each pair a < b (they are never adjacent to themselves) times the pair's product,
+    # the values scaled to at most 1 — within about (J² + 4) 2⁻²⁴ of ρ's scale of the sum
+    # serial_correlation_test makes, in whatever order BLAS adds (the adjacent products of an
+    # ordering add up to at most Σ x² in size). Only orderings within _SERIAL_MARGIN of the
+    # threshold are summed again, exactly as there; the others fall on the same side of it
+    # either way.
+    upper = np.triu_indices(size, 1)
+    scaled = (x / np.max(np.abs(x), axis=1)[:, None]).astype(np.float32)
+    squares = np.sum(scaled.astype(float) ** 2, axis=1)
+    # (the bounds on the sums, Σ x² ρ ± margin, in single precision)
+    low = ((threshold - _SERIAL_MARGIN) * squares).astype(np.float32)[:, None]
+    high = ((threshold + _SERIAL_MARGIN) * squares).astype(np.float32)[:, None]
+    counts = _pair_counts(permutations, size)
+    count = np.zeros(x.shape[0], dtype=np.intp)
+    for first in range(0, x.shape[0], 16):  # (a block's sums stay in the cache)
+        block = slice(first, first + 16)
+        sums = (scaled[block, upper[0]] * scaled[block, upper[1]]) @ counts
+        above = sums > high[block]
+        near = ~above & ~(sums < low[block])
+        count[block] = np.count_nonzero(above, axis=1)
+        for k in np.flatnonzero(near.any(axis=1)):
+            row = first + k
+            exact = (np.sum(products[row][pairs[np.flatnonzero(near[k])]], axis=1)
+                     / denominator[row])
+            count[row] += np.count_nonzero(exact >= threshold[row])
+    p = (count + 1) / (permutations + 1)
+    return [(float(r), float(q)) for r, q in zip(rho, p, strict=True)]
 
 
 def serial_moments(values: npt.ArrayLike) -> tuple[float, float]:

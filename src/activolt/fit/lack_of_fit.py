@@ -14,16 +14,23 @@ test), together with a significant χ².
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
 
-from .diagnostics import RunsTest, runs_test, serial_correlation_test
+from .diagnostics import (
+    RunsTest,
+    runs_test,
+    runs_tests,
+    serial_correlation_test,
+    serial_correlation_tests,
+)
 
 __all__ = ["LACK_OF_FIT_P", "SYSTEMATIC_CHI2_P", "SYSTEMATIC_RUNS_P",
            "SYSTEMATIC_RUNS_P_UNIT_WEIGHTS", "LackOfFit", "judge_lack_of_fit",
-           "solution_means"]
+           "judge_lack_of_fit_of_many", "solution_means"]
 
 #: With stated reading uncertainties, a fit whose χ² has an upper-tail probability below this
 #: shows lack of fit: its covariance is scaled by the reduced χ² (the square of the Birge ratio
@@ -121,13 +128,84 @@ def judge_lack_of_fit(molality: npt.ArrayLike, residual_V: npt.ArrayLike,
     -------
     LackOfFit
     """
-    from scipy.special import chdtrc
-
     m = np.asarray(molality, dtype=float)
     _, mean, weight = solution_means(m, residual_V, weights)
-    runs = runs_test(mean)
+    return _verdict(m.size, mean, weight, runs_test(mean),
+                    serial_correlation_test(mean * np.sqrt(weight)), chi2, dof, n_free,
+                    stated_uncertainty)
+
+
+def judge_lack_of_fit_of_many(molality: Sequence[npt.ArrayLike],
+                              residual_V: Sequence[npt.ArrayLike],
+                              weights: Sequence[npt.ArrayLike], chi2: Sequence[float],
+                              dof: Sequence[int], n_free: Sequence[int],
+                              stated_uncertainty: Sequence[bool]) -> list[LackOfFit]:
+    """:func:`judge_lack_of_fit` of many fits (each argument one entry per fit): the same
+    results, the solutions' means of fits with one number of readings, and their runs and
+    serial-correlation tests, worked out together.
+
+    Examples
+    --------
+    >>> m, r, w = [0.1, 0.2, 0.3, 0.4, 0.5], [1.0, -2.0, 1.5, -1.0, 0.5], [1.0] * 5
+    >>> judge_lack_of_fit_of_many([m], [r], [w], [9.0], [3], [2], [True]) == [
+    ...     judge_lack_of_fit(m, r, w, 9.0, 3, 2, True)]
+    True
+    """
+    means = _solution_means_of_many(molality, residual_V, weights)
+    sizes = [np.size(m) for m in molality]
+    runs = runs_tests([mean for mean, _ in means])
+    serial = serial_correlation_tests([mean * np.sqrt(weight) for mean, weight in means])
+    return [_verdict(*arguments) for arguments in zip(
+        sizes, [mean for mean, _ in means], [weight for _, weight in means], runs, serial,
+        chi2, dof, n_free, stated_uncertainty, strict=True)]
+
+
+def _solution_means_of_many(molality: Sequence[npt.ArrayLike],
+                            residual_V: Sequence[npt.ArrayLike],
+                            weights: Sequence[npt.ArrayLike]
+                            ) -> list[tuple[np.ndarray, np.ndarray]]:
+    """(weighted mean residual, summed weight) of each fit's solutions, as
+    :func:`solution_means` gives them: the readings of fits of one size numbered by solution
+    together, and summed in the same order (one count of many bins)."""
+    found: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    groups: dict[int, list[int]] = {}
+    for index, m in enumerate(molality):
+        groups.setdefault(np.size(m), []).append(index)
+    for size, members in groups.items():
+        m = np.stack([np.asarray(molality[i], dtype=float).ravel() for i in members])
+        if size == 0 or len(members) == 1 or not np.isfinite(m).all():
+            for i in members:
+                _, mean, weight = solution_means(molality[i], residual_V[i], weights[i])
+                found[i] = (mean, weight)
+            continue
+        w = np.stack([np.asarray(weights[i], dtype=float).ravel() for i in members])
+        r = np.stack([np.asarray(residual_V[i], dtype=float).ravel() for i in members])
+        # each reading's solution: how many distinct molalities of its fit lie below it
+        order = np.argsort(m, axis=1, kind="stable")
+        ordered = np.take_along_axis(m, order, axis=1)
+        rank = np.zeros(m.shape, dtype=np.intp)
+        np.cumsum(ordered[:, 1:] != ordered[:, :-1], axis=1, out=rank[:, 1:])
+        group = np.empty_like(rank)
+        np.put_along_axis(group, order, rank, axis=1)
+        bins = (group + size * np.arange(len(members))[:, None]).ravel()
+        weight = np.bincount(bins, weights=w.ravel(), minlength=m.size)
+        total = np.bincount(bins, weights=(w * r).ravel(), minlength=m.size)
+        counts = rank[:, -1] + 1
+        for k, i in enumerate(members):
+            used = slice(k * size, k * size + int(counts[k]))
+            found[i] = (total[used] / weight[used], weight[used])
+    return [found[i] for i in range(len(molality))]
+
+
+def _verdict(n_readings: int, mean: np.ndarray, weight: np.ndarray, runs: RunsTest,
+             serial: tuple[float, float], chi2: float, dof: int, n_free: int,
+             stated_uncertainty: bool) -> LackOfFit:
+    """:func:`judge_lack_of_fit` from the solutions' means and weights and the tests of their
+    order."""
+    from scipy.special import chdtrc
+
     runs_p = runs.p_value_fewer
-    rho, serial_p = serial_correlation_test(mean * np.sqrt(weight))
+    rho, serial_p = serial
     order_p = min(runs_p if math.isfinite(runs_p) else 1.0,
                   serial_p if math.isfinite(serial_p) else 1.0)
     scale = 1.0 if stated_uncertainty else chi2 / dof
@@ -138,7 +216,7 @@ def judge_lack_of_fit(molality: npt.ArrayLike, residual_V: npt.ArrayLike,
         candidates.append((reduced, dof))
     dof_solutions = mean.size - n_free
     solutions_p = math.nan
-    if mean.size < m.size and dof_solutions >= 1:
+    if mean.size < n_readings and dof_solutions >= 1:
         chi2_solutions = float(np.sum(weight * mean**2)) / scale
         solutions_p = float(chdtrc(dof_solutions, chi2_solutions))
         if solutions_p < LACK_OF_FIT_P and chi2_solutions / dof_solutions > 1.0:

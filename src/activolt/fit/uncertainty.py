@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 import numpy.typing as npt
@@ -133,6 +134,13 @@ def student_t_factor(dof: int, coverage: float = 0.95) -> float:
     >>> round(student_t_factor(0), 2), round(student_t_factor(10), 3)
     (1.96, 2.228)
     """
+    return _kept_t_factor(float(dof), float(coverage))
+
+
+@lru_cache(maxsize=1024)
+def _kept_t_factor(dof: float, coverage: float) -> float:
+    """:func:`student_t_factor`, kept between calls (the runs of a batch share a few degrees of
+    freedom)."""
     from scipy.special import ndtri, stdtrit
 
     if dof <= 0:
@@ -165,7 +173,8 @@ def ln_gamma_variance(
     Returns
     -------
     numpy.ndarray
-        var(ln γ±) at each reading, shape (N,) [-].
+        var(ln γ±) at each reading, shape (N,) [-]; with a leading axis of series on every
+        argument (G_p (S, N, P), …), shape (S, N), each series' numbers as alone.
 
     Examples
     --------
@@ -180,11 +189,11 @@ def ln_gamma_variance(
     g_e = np.asarray(reading_gradient, dtype=float)
     s = np.asarray(sensitivity, dtype=float)
     v = np.asarray(reading_variance_V2, dtype=float)
-    c = (s * v) @ s.T
-    variance = (np.einsum("ip,pq,iq->i", g_p, c, g_p)
-                + 2.0 * g_e * v * np.einsum("ip,pi->i", g_p, s) + g_e**2 * v)
+    c = (s * v[..., None, :]) @ np.swapaxes(s, -1, -2)
+    variance = (np.einsum("...ip,...pq,...iq->...i", g_p, c, g_p)
+                + 2.0 * g_e * v * np.einsum("...ip,...pi->...i", g_p, s) + g_e**2 * v)
     if type_b_covariance is not None:
-        variance = variance + np.einsum("ip,pq,iq->i", g_p,
+        variance = variance + np.einsum("...ip,...pq,...iq->...i", g_p,
                                         np.asarray(type_b_covariance, dtype=float), g_p)
     return variance
 
@@ -205,7 +214,8 @@ def sensitivity_coefficients(function: Callable[[Mapping[str, float]], np.ndarra
     function : callable
         ``function(values) -> ndarray`` of shape (N,).
     values : mapping of str to float
-        The point [parameter units].
+        The point [parameter units]; or, for many points at once, arrays of shape (S, 1)
+        (f then of shape (S, N), the result (S, N, K)).
     names : sequence of str
         The parameters to differentiate by.
 
@@ -224,10 +234,10 @@ def sensitivity_coefficients(function: Callable[[Mapping[str, float]], np.ndarra
     """
     columns = []
     for name in names:
-        step = 1e-6 * max(1.0, abs(values[name]))
+        step = 1e-6 * np.maximum(1.0, np.abs(values[name]))
         up = np.asarray(function({**values, name: values[name] + step}), dtype=float)
         down = np.asarray(function({**values, name: values[name] - step}), dtype=float)
         columns.append((up - down) / (2.0 * step))
     if not columns:
-        return np.zeros((np.asarray(function(values)).size, 0))
-    return np.column_stack(columns)
+        return np.zeros((*np.shape(function(values)), 0))
+    return np.stack(columns, axis=-1)

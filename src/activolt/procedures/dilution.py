@@ -43,7 +43,7 @@ from ..data.runs import Exclusion, Run, exclude_points, usable_points
 from ..errors import FitError, InputError
 from ..fit.diagnostics import PointDiagnostics, point_diagnostics, point_diagnostics_of_many
 from ..fit.engine import BatchFit, MeasurementModel, solve
-from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit
+from ..fit.lack_of_fit import LackOfFit, judge_lack_of_fit, judge_lack_of_fit_of_many
 from ..fit.least_squares import information_criteria, straight_lines
 from ..fit.problem import (
     E0,
@@ -454,8 +454,8 @@ class _FitRequest:
     the engine takes it (a batch of one); :func:`_solve_requests` solves many at once."""
 
     model: ActivityModel
+    electrolyte: Electrolyte
     data: SeriesData
-    measurement: MeasurementModel
     values: dict[str, float]
     free: list[str]
     start: np.ndarray
@@ -465,22 +465,35 @@ class _FitRequest:
     def batch_key(self) -> tuple[Any, ...]:
         """Requests with equal keys are solved in one batch: one model, one electrolyte, one
         sign, one number of readings."""
-        m = self.measurement
-        return (id(self.model), m.electrolyte, m.sign, m.molality.shape[1])
+        return (id(self.model), self.electrolyte, self.data.sign, self.data.molality.size)
 
 
 def _fit_request(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
                  values: dict[str, float], free: list[str]) -> _FitRequest:
     """The request for one fit (FitError when a starting value lies outside its bounds)."""
-    measurement = data.measurement_model(model, electrolyte)
-    names = measurement.names
+    names = _names(model)
     start = data.values_array(model, 0.0, values)
     low, high = _bounds(model, names)
     if not np.all((start[0] >= low) & (start[0] <= high)):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
                        "value within them")
+    return _FitRequest(model, electrolyte, data, values, list(free), start,
+                       _mask(names, tuple(free)))
+
+
+@functools.lru_cache(maxsize=64)
+def _names(model: ActivityModel) -> tuple[str, ...]:
+    """The quantities of the engine's order for a model (:attr:`MeasurementModel.names`)."""
+    return (E0, *model.parameter_names, SLOPE)
+
+
+@functools.lru_cache(maxsize=256)
+def _mask(names: tuple[str, ...], free: tuple[str, ...]) -> np.ndarray:
+    """Which quantities of the engine's order are fitted (E° and ``free``), shape (1, P),
+    read-only."""
     mask = np.array([[name == E0 or name in free for name in names]])
-    return _FitRequest(model, data, measurement, values, list(free), start, mask)
+    mask.flags.writeable = False
+    return mask
 
 
 @functools.lru_cache(maxsize=64)
@@ -508,13 +521,13 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
     for indices in groups.values():
         chosen = [requests[i] for i in indices]
         first = chosen[0]
-        names = first.measurement.names
+        names = _names(first.model)
         if len(chosen) == 1:
-            measurement = first.measurement
+            measurement = first.data.measurement_model(first.model, first.electrolyte)
             emf, weights = first.data.emf_V[None, :], first.data.weights[None, :]
             start, mask = first.start, first.mask
         else:
-            measurement = _stacked([r.measurement for r in chosen])
+            measurement = _stacked(first.model, first.electrolyte, [r.data for r in chosen])
             emf = np.stack([r.data.emf_V for r in chosen])
             weights = np.stack([r.data.weights for r in chosen])
             start = np.concatenate([r.start for r in chosen])
@@ -522,50 +535,74 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
         scaled = np.array([not r.data.stated_uncertainty for r in chosen])
         batch = solve(measurement, emf, weights, start, mask, _linear(first.model, names),
                       np.column_stack(_bounds(first.model, names)), scale_covariance=scaled)
-        for row, index in enumerate(indices):
-            try:
-                results[index] = _fit_from(requests[index], batch, row)
-            except FitError as error:
-                results[index] = error
+        for index, fit in zip(indices, _fits_from(chosen, batch), strict=True):
+            results[index] = fit
     return [r for r in results if r is not None]
 
 
-def _stacked(models: Sequence[MeasurementModel]) -> MeasurementModel:
+def _stacked(model: ActivityModel, electrolyte: Electrolyte, series: Sequence[SeriesData]
+             ) -> MeasurementModel:
     """One measurement model of several series of equal length (one model and electrolyte)."""
-    first = models[0]
     return MeasurementModel(
-        first.activity, first.electrolyte, first.sign,
-        np.concatenate([m.molality for m in models]),
-        np.concatenate([m.nernst_V for m in models]),
-        DebyeHueckelConstants(*(np.concatenate([getattr(m.constants, field) for m in models])
+        model, electrolyte, series[0].sign, np.stack([d.molality for d in series]),
+        np.stack([d.nernst_V for d in series]),
+        DebyeHueckelConstants(*(np.stack([getattr(d.constants, field) for d in series])
                                 for field in ("temperature", "aphi", "b"))))
 
 
-def _fit_from(request: _FitRequest, result: BatchFit, row: int) -> _Fit:
-    """The fit of one request from row ``row`` of the engine's batch, or FitError."""
+def _fits_from(requests: Sequence[_FitRequest], result: BatchFit) -> list[_Fit | FitError]:
+    """The fit of each request from its row of the engine's batch (the requests in the
+    batch's order), or the FitError that refuses it; the rows of requests with one set of
+    free parameters read together."""
+    names = result.names
+    out: list[_Fit | FitError | None] = [None] * len(requests)
+    alike: dict[tuple[str, ...], list[int]] = {}
+    for row, request in enumerate(requests):
+        alike.setdefault(tuple(request.free), []).append(row)
+    for free, rows in alike.items():
+        order = [names.index(name) for name in (E0, *free)]
+        picked = np.array(rows)
+        # (laid out as one row's alone: each covariance row-major, each Jacobian
+        # column-major, the transpose of a row-major P × N)
+        covariances = np.ascontiguousarray(result.covariance[picked][:, order][:, :, order])
+        jacobians = np.ascontiguousarray(
+            np.swapaxes(result.jacobian[picked][:, :, order], 1, 2)).transpose(0, 2, 1)
+        estimable = (np.isfinite(covariances).all(axis=(1, 2))
+                     & (np.diagonal(covariances, axis1=1, axis2=2) > 0.0).all(axis=1)).tolist()
+        values, chi2s, dofs = (result.values[picked].tolist(), result.chi2[picked].tolist(),
+                               result.dof[picked].tolist())
+        columns = [names.index(name) for name in free]
+        for k, row in enumerate(rows):
+            out[row] = _fit_of(requests[row], result, row, values[k], columns, covariances[k],
+                               estimable[k], chi2s[k], dofs[k], jacobians[k])
+    return [fit for fit in out if fit is not None]
+
+
+def _fit_of(request: _FitRequest, result: BatchFit, row: int, values: list[float],
+            columns: list[int], covariance: np.ndarray, estimable: bool, chi2: float, dof: int,
+            jacobian: np.ndarray) -> _Fit | FitError:
+    """The fit of one request from row ``row`` of the engine's batch (its values, the
+    positions of its free parameters among them, its covariance and Jacobian over E° and
+    those, whether that covariance is finite with a positive diagonal, χ² and ν), or the
+    FitError that refuses it."""
     model, data, free = request.model, request.data, request.free
     if not result.converged[row]:
-        raise FitError(f"{result.failures[row]}; hold a parameter at a given value")
-    names = result.names
-    order = [names.index(name) for name in (E0, *free)]
-    covariance = result.covariance[row][np.ix_(order, order)]
+        return FitError(f"{result.failures[row]}; hold a parameter at a given value")
     fitted = {**request.values,
-              **{name: float(result.values[row, names.index(name)]) for name in free}}
-    if ((not np.all(np.isfinite(covariance)) or np.any(np.diag(covariance) <= 0.0))
-            and not any(_at_bound(parameter_spec(model, name), fitted[name]) for name in free)):
+              **{name: values[column] for name, column in zip(free, columns, strict=True)}}
+    if not estimable and not any(_at_bound(parameter_spec(model, name), fitted[name])
+                                 for name in free):
         # (a parameter at a bound is held next, by _hard_failure, whatever its variance)
-        raise FitError("the covariance of the fit cannot be estimated (the parameters are not "
-                       "independent for these data); hold a parameter at a given value")
-    n = data.emf_V.size
-    dof = int(result.dof[row])
+        return FitError("the covariance of the fit cannot be estimated (the parameters are not "
+                        "independent for these data); hold a parameter at a given value")
     if dof < 1 and not data.stated_uncertainty:
-        raise FitError("no degree of freedom is left to estimate the scatter; hold a parameter "
-                       "at a given value or state u(EMF)")
-    chi2 = float(result.chi2[row])
-    aic, bic = information_criteria(chi2, n, 1 + len(free), not data.stated_uncertainty)
-    return _Fit(e0=float(result.values[row, 0]), values=fitted, free=list(free),
-                covariance=covariance, chi2=chi2, dof=dof, aic=aic, bic=bic,
-                residual_V=result.residual_V[row], jacobian=result.jacobian[row][:, order])
+        return FitError("no degree of freedom is left to estimate the scatter; hold a "
+                        "parameter at a given value or state u(EMF)")
+    aic, bic = information_criteria(chi2, data.emf_V.size, 1 + len(free),
+                                    not data.stated_uncertainty)
+    return _Fit(e0=values[0], values=fitted, free=list(free), covariance=covariance, chi2=chi2,
+                dof=dof, aic=aic, bic=bic, residual_V=result.residual_V[row],
+                jacobian=jacobian)
 
 
 def _at_bound(spec: Parameter, value: float) -> bool:
@@ -756,23 +793,43 @@ def _linear_extrapolations(problems: Sequence[tuple[Run, SeriesData, float]]
 
     at I ≤ :data:`LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH`, ln γ_DH the extended Debye–Hückel
     term with Bå = 1.5 (Bates–Guggenheim); the intercept is E° (the Hitchcock extrapolation).
+    The lines of runs of one electrolyte and number of readings are fitted together (padded
+    to that width, so that each line's sums are those of its run alone).
     """
-    if not problems:
-        return []
-    width = max(2, *(data.molality.size for _, data, _ in problems))
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, (run, data, _) in enumerate(problems):
+        groups.setdefault((data.molality.size, run.metadata.electrolyte), []).append(index)
+    found: dict[int, LinearExtrapolation | None] = {}
+    for members in groups.values():
+        found.update(zip(members, _lines_of_one_width([problems[i] for i in members]),
+                         strict=True))
+    return [found[index] for index in range(len(problems))]
+
+
+def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
+                        ) -> list[LinearExtrapolation | None]:
+    """:func:`_linear_extrapolations` of runs of one electrolyte and number of readings: the
+    points within range of each moved to the front of its row, in order, zeros after."""
+    electrolyte = problems[0][0].metadata.electrolyte
+    size = problems[0][1].molality.size
+    width = max(2, size)
+
+    def stacked(name: str) -> np.ndarray:
+        return np.stack([getattr(data, name) for _, data, _ in problems])
+
+    molality = stacked("molality")
+    use = electrolyte.ionic_strength(molality) <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
+    ln_gamma_dh = extended_debye_hueckel(
+        electrolyte, molality, np.stack([data.constants.agamma for _, data, _ in problems]))
+    factor = np.array([data.sign * slope for _, data, slope in problems])[:, None]
+    y_all = stacked("emf_V") + factor * stacked("nernst_V") * (stacked("ln_mean_molality")
+                                                                + ln_gamma_dh)
+    order = np.argsort(~use, axis=1, kind="stable")  # the points within range first
+    within = np.arange(size) < np.count_nonzero(use, axis=1)[:, None]
     m, y, w = (np.zeros((len(problems), width)) for _ in range(3))
-    scale = np.zeros(len(problems), dtype=bool)
-    for row, (run, data, slope) in enumerate(problems):
-        electrolyte = run.metadata.electrolyte
-        ionic = electrolyte.ionic_strength(data.molality)
-        use = ionic <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
-        n = int(np.count_nonzero(use))
-        m[row, :n] = molality = data.molality[use]
-        ln_gamma_dh = extended_debye_hueckel(electrolyte, molality, data.constants.agamma[use])
-        y[row, :n] = data.emf_V[use] + data.sign * slope * data.nernst_V[use] * (
-            data.ln_mean_molality[use] + ln_gamma_dh)
-        w[row, :n] = data.weights[use]
-        scale[row] = not data.stated_uncertainty
+    for padded, values in ((m, molality), (y, y_all), (w, stacked("weights"))):
+        padded[:, :size] = np.where(within, np.take_along_axis(values, order, axis=1), 0.0)
+    scale = np.array([not data.stated_uncertainty for _, data, _ in problems])
     ordered = np.sort(np.where(w > 0.0, m, np.inf), axis=1)  # the padding last
     with np.errstate(invalid="ignore"):  # (∞ − ∞ between two paddings)
         steps = np.diff(ordered, axis=1) > 0.0
@@ -847,11 +904,21 @@ def _truncation_effect(family: ActivityModel, electrolyte: Electrolyte, data: Se
     slope = fit.values.get(SLOPE, data.slope)
     return sensitivity @ (-data.sign * slope * data.nernst_V * delta)
 
-def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit) -> LackOfFit:
+def _lack_of_fit_arguments(held: _Held) -> tuple[Any, ...]:
+    """The arguments of :func:`activolt.fit.lack_of_fit.judge_lack_of_fit` for the held fit."""
+    data, fit = held.data, held.fit
+    return (data.molality, fit.residual_V, data.weights, fit.chi2, fit.dof, 1 + len(fit.free),
+            data.stated_uncertainty)
+
+
+def _judge_fit(family: ActivityModel, data: SeriesData, fit: _Fit,
+               judged: LackOfFit | None = None) -> LackOfFit:
     """The lack-of-fit rule (:func:`activolt.fit.lack_of_fit.judge_lack_of_fit`) applied to the
-    final fit; a systematic misfit is refused with a FitError that says what to try."""
-    judged = judge_lack_of_fit(data.molality, fit.residual_V, data.weights, fit.chi2, fit.dof,
-                               1 + len(fit.free), data.stated_uncertainty)
+    final fit (``judged``: its verdict, when already worked out with a batch's others); a
+    systematic misfit is refused with a FitError that says what to try."""
+    if judged is None:
+        judged = judge_lack_of_fit(data.molality, fit.residual_V, data.weights, fit.chi2,
+                                   fit.dof, 1 + len(fit.free), data.stated_uncertainty)
     if judged.systematic:
         size = (f"reduced χ² = {judged.reduced_chi2:.3g} against the stated u(EMF)"
                 if data.stated_uncertainty else
@@ -964,6 +1031,10 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
                        for start in starts])
     # Steps 3 and 4 of each run (_finish), then the point diagnostics of all the judged fits
     # together, then step 5 of each.
+    held_fits = [held for held in helds if isinstance(held, _Held)]
+    verdicts = dict(zip(map(id, held_fits), judge_lack_of_fit_of_many(
+        *zip(*map(_lack_of_fit_arguments, held_fits), strict=True)) if held_fits else [],
+        strict=True))
     staged: list[tuple[_Start, _Judged, _Components] | FitError | InputError] = []
     for start, held in zip(starts, helds, strict=True):
         if not isinstance(start, _Start):
@@ -973,7 +1044,7 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
             staged.append(held)
         else:
             try:
-                judged = _judge(held, start.family)
+                judged = _judge(held, start.family, verdicts[id(held)])
                 staged.append((start, judged, _covariance_components(judged, start)))
             except (FitError, InputError) as error:
                 staged.append(error)
@@ -984,6 +1055,9 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         [judged.data.weights for judged in judged_fits.values()],
         [judged.fit.residual_V for judged in judged_fits.values()],
         [not judged.data.stated_uncertainty for judged in judged_fits.values()]), strict=True))
+    assembled = {k: stage for k, stage in enumerate(staged) if isinstance(stage, tuple)}
+    points = dict(zip(assembled, _points_columns_of_many(
+        [_gamma_inputs(*stage) for stage in assembled.values()]), strict=True))
     results: list[Reduction | FitError | InputError] = []
     for k, stage in enumerate(staged):
         if not isinstance(stage, tuple):
@@ -992,7 +1066,7 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         start, judged, parts = stage
         try:
             results.append(_assemble(start, judged, parts, remind_model_choice,
-                                     diagnosed.get(k)))
+                                     diagnosed.get(k), points[k]))
         except (FitError, InputError) as error:
             results.append(error)
     # The straight-line cross-checks of all of them together, kept as each reduction's own
@@ -1027,6 +1101,8 @@ class _Start:
     fixed_u: dict[str, float]
     temperature_K: float
     warnings: list[str]
+    #: How many distinct molalities (solutions) the usable readings have.
+    solutions: int
 
 
 def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> _Start:
@@ -1044,7 +1120,8 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
                          f"{_MIN_POINTS} to give E° with an uncertainty", file=str(run.path))
-    if np.unique(data.molality).size < 2:
+    solutions = int(np.unique(data.molality).size)
+    if solutions < 2:
         raise InputError(f"all {n} usable readings are at one molality (m = "
                          f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
                          "series (at least 3 molalities); a single solution gives E° only with "
@@ -1080,7 +1157,8 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
     free = [p.name for p in specs if p.name not in reasons]
     return _Start(run=run, family=family, specs=specs, data=data, values=values,
                   reasons=reasons, free=free, fixed=fixed_values, fixed_u=fixed_u,
-                  temperature_K=mean_temperature(temperature), warnings=warnings)
+                  temperature_K=mean_temperature(temperature), warnings=warnings,
+                  solutions=solutions)
 
 
 @dataclass(frozen=True)
@@ -1105,7 +1183,7 @@ def _fit_and_hold(start: _Start
     data, values, reasons, free = start.data, dict(start.values), dict(start.reasons), \
         list(start.free)
     n = len(data.emf_V)
-    solutions = int(np.unique(data.molality).size)
+    solutions = start.solutions
     first_fit: _Fit | None = None
     while True:
         while free and (n - 1 - len(free) < 1 or solutions - 1 - len(free) < 0):
@@ -1165,11 +1243,12 @@ class _Judged:
     sensitivity: np.ndarray
 
 
-def _judge(held: _Held, family: ActivityModel) -> _Judged:
-    """Step 3: the lack-of-fit rule (:func:`_judge_fit`): refuse a systematic misfit, scale
-    the readings' variances by the Birge ratio where they scatter more than stated."""
+def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None) -> _Judged:
+    """Step 3: the lack-of-fit rule (:func:`_judge_fit`; ``verdict``: its verdict when already
+    worked out): refuse a systematic misfit, scale the readings' variances by the Birge ratio
+    where they scatter more than stated."""
     data, fit = held.data, held.fit
-    judged = _judge_fit(family, data, fit)
+    judged = _judge_fit(family, data, fit, verdict)
     birge, birge_dof = judged.birge_ratio, judged.birge_dof
     chi2_p, runs_p = judged.chi2_p_value, judged.runs.p_value_fewer
     warning = None
@@ -1242,11 +1321,20 @@ def _covariance_components(judged: _Judged, start: _Start) -> _Components:
                        uncertain_covariance=uncertain_covariance, notes=tuple(notes))
 
 
+def _gamma_inputs(start: _Start, judged: _Judged, parts: _Components) -> _GammaInputs:
+    """What the points columns of the reduction are worked out from."""
+    return _GammaInputs(start.run, start.family, judged.data, judged.fit, judged.sensitivity,
+                        parts.type_b, parts.uncertain_names, parts.uncertain_covariance,
+                        parts.common, parts.truncation)
+
+
 def _assemble(start: _Start, judged: _Judged, parts: _Components,
-              remind_model_choice: bool, diagnosed: PointDiagnostics | None = None
+              remind_model_choice: bool, diagnosed: PointDiagnostics | None = None,
+              points: tuple[dict[str, np.ndarray], GammaPropagation] | None = None
               ) -> Reduction:
     """Step 5: the points table with γ± and its budget, diagnostics (``diagnosed``: the point
-    diagnostics of the judged fit, when already worked out), and the result."""
+    diagnostics of the judged fit, and ``points``: its points columns
+    (:func:`_points_columns_of_many`), when already worked out), and the result."""
     run, family = start.run, start.family
     electrolyte = run.metadata.electrolyte
     data = judged.data
@@ -1259,10 +1347,9 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
             MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
         warnings.append(MODEL_CHOICE_REMINDER)
-    columns, gamma_propagation = _points_columns(run, family, data, fit, judged.sensitivity,
-                                                 parts.type_b, parts.uncertain_names,
-                                                 parts.uncertain_covariance, parts.common,
-                                                 parts.truncation)
+    columns, gamma_propagation = (
+        _points_columns_of_many([_gamma_inputs(start, judged, parts)])[0] if points is None
+        else points)
     diagnostics, stand_out = _diagnose(run, data, fit, diagnosed)
     point_columns = {**columns, **diagnostics}
     for column in point_columns.values():
@@ -1439,12 +1526,18 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit, found: PointDiagnostics | N
     columns = {"leverage": found.leverage, "studentized_residual": found.studentized_residual,
                "cooks_distance": found.cooks_distance}
     full: dict[str, np.ndarray] = {}
+    every_row = len(found.flags) == used.size  # (every row used: the columns as they are)
     for name, values in columns.items():
-        full[name] = np.full(used.size, np.nan)
-        full[name][used] = values
+        if every_row:
+            full[name] = np.array(values, dtype=float)
+        else:
+            full[name] = np.full(used.size, np.nan)
+            full[name][used] = values
     diagnostic = np.full(used.size, None, dtype=object)
     diagnostic[used] = np.array(found.flags, dtype=object)
     full["diagnostic"] = diagnostic
+    if all(flag is None for flag in found.flags):
+        return full, []
     molality, lines = run.arrays["molality_mol_kg"], run.arrays["line"]
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
@@ -1565,29 +1658,80 @@ def _held_parameter_effects(model: ActivityModel, electrolyte: Electrolyte, data
     return names, np.column_stack(columns), np.asarray(variances)
 
 
-def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
-                    sensitivity: np.ndarray, type_b: np.ndarray | None,
-                    uncertain_names: tuple[str, ...],
-                    uncertain_covariance: np.ndarray,
-                    common: list[tuple[str, float, np.ndarray, np.ndarray]],
-                    truncation: np.ndarray | None = None
-                    ) -> tuple[dict[str, np.ndarray], GammaPropagation]:
-    """Columns over all rows of the run: fitted EMF, residual and γ± (measured and model), and
-    the budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the part from one input alone."""
-    electrolyte = run.metadata.electrolyte
-    n = len(data.emf_V)
-    reading_var = (1.0 / data.weights if data.stated_uncertainty
-                   else np.full(n, fit.chi2 / fit.dof))
-    usable = run.usable
+class _GammaInputs(NamedTuple):
+    """What the points columns of one reduction are worked out from."""
+
+    run: Run
+    model: ActivityModel
+    data: SeriesData
+    fit: _Fit
+    sensitivity: np.ndarray
+    type_b: np.ndarray | None
+    uncertain_names: tuple[str, ...]
+    uncertain_covariance: np.ndarray
+    common: list[tuple[str, float, np.ndarray, np.ndarray]]
+    truncation: np.ndarray | None = None
+
+
+def _points_columns_of_many(items: Sequence[_GammaInputs]
+                            ) -> list[tuple[dict[str, np.ndarray], GammaPropagation]]:
+    """Per reduction, the columns over all rows of its run — fitted EMF, residual and γ±
+    (measured and model), and the budget of u(γ±): ``u_gamma_pm_<input>`` columns, each the
+    part from one input alone — and what the covariance of ln γ± is made of. Reductions
+    alike (one model, electrolyte, number of readings and set of free, held and common
+    inputs) are worked out in the same array operations over a leading axis of series, each
+    series' numbers as alone (every step is elementwise, or a product or sum within one
+    series)."""
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, item in enumerate(items):
+        data, fit = item.data, item.fit
+        groups.setdefault((
+            id(item.model), item.run.metadata.electrolyte, data.sign, data.emf_V.size,
+            item.run.usable.size, tuple(fit.free), item.uncertain_names,
+            data.stated_uncertainty, item.type_b is None, item.truncation is None,
+            data.correction_V is None, data.gas_pressure_Pa is None,
+            tuple(name for name, *_ in item.common)), []).append(index)
+    found: dict[int, tuple[dict[str, np.ndarray], GammaPropagation]] = {}
+    for members in groups.values():
+        found.update(zip(members, _points_columns_alike([items[i] for i in members]),
+                         strict=True))
+    return [found[index] for index in range(len(items))]
+
+
+def _points_columns_alike(items: Sequence[_GammaInputs]
+                          ) -> list[tuple[dict[str, np.ndarray], GammaPropagation]]:
+    """:func:`_points_columns_of_many` of alike reductions."""
+    first = items[0]
+    model, electrolyte = first.model, first.run.metadata.electrolyte
+    free, uncertain_names = first.fit.free, first.uncertain_names
+    stated = first.data.stated_uncertainty
+    datas = [item.data for item in items]
+    fits = [item.fit for item in items]
+    n = datas[0].emf_V.size
+
+    def stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
+        return np.stack(arrays)
+
+    def column(values: Sequence[float]) -> np.ndarray:
+        """One number per series as a column, shape (S, 1)."""
+        return np.array(values, dtype=float)[:, None]
+
+    emf = stacked([d.emf_V for d in datas])
+    nernst = stacked([d.nernst_V for d in datas])
+    sensitivity = stacked([item.sensitivity for item in items])
+    reading_var = (1.0 / stacked([d.weights for d in datas]) if stated
+                   else np.repeat(column([f.chi2 / f.dof for f in fits]), n, axis=1))
 
     # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
-    slope = fit.values.get(SLOPE, data.slope)
-    scale = data.sign / (slope * data.nernst_V)
-    ln_gamma = (fit.e0 - data.emf_V) * scale - data.ln_mean_molality
-    parameter_gradient = np.zeros((n, 1 + len(fit.free)))
-    parameter_gradient[:, 0] = scale
-    if SLOPE in fit.free:
-        parameter_gradient[:, 1 + fit.free.index(SLOPE)] = -(fit.e0 - data.emf_V) * scale / slope
+    slope = column([f.values.get(SLOPE, d.slope) for f, d in zip(fits, datas, strict=True)])
+    e0 = column([f.e0 for f in fits])
+    scale = first.data.sign / (slope * nernst)
+    ln_gamma = (e0 - emf) * scale - stacked([d.ln_mean_molality for d in datas])
+    parameter_gradient = np.zeros((len(items), n, 1 + len(free)))
+    parameter_gradient[:, :, 0] = scale
+    if SLOPE in free:
+        parameter_gradient[:, :, 1 + free.index(SLOPE)] = -(e0 - emf) * scale / slope
+    type_b = None if first.type_b is None else stacked([item.type_b for item in items])
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     def part(variance: np.ndarray, with_type_b: bool = False) -> np.ndarray:
@@ -1596,48 +1740,74 @@ def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
 
     var_ln = part(reading_var, with_type_b=True)
     budget: dict[str, np.ndarray] = {}
-    if data.stated_uncertainty:
-        budget["readings"] = part(data.u_emf_V**2)
-        molality_var = np.maximum(reading_var - data.u_emf_V**2, 0.0)
-        if np.any(molality_var > 0):
+    molality_rows = np.zeros(len(items), dtype=bool)  # the series with a "molalities" part
+    if stated:
+        u_emf_squared = stacked([d.u_emf_V for d in datas]) ** 2
+        budget["readings"] = part(u_emf_squared)
+        molality_var = np.maximum(reading_var - u_emf_squared, 0.0)
+        molality_rows = np.any(molality_var > 0, axis=1)
+        if molality_rows.any():
             budget["molalities"] = part(molality_var)
     else:
         budget["readings"] = part(reading_var)
     if type_b is not None:
-        budget["conventions"] = np.einsum("ij,jk,ik->i", parameter_gradient, type_b,
+        budget["conventions"] = np.einsum("...ij,...jk,...ik->...i", parameter_gradient, type_b,
                                           parameter_gradient)
-    if truncation is not None:
-        budget["left-out terms"] = (parameter_gradient @ truncation) ** 2
+    left_out = None
+    if first.truncation is not None:
+        truncation = stacked([item.truncation for item in items])
+        left_out = np.matmul(parameter_gradient, truncation[:, :, None])[:, :, 0]
+        budget["left-out terms"] = left_out**2
         var_ln = var_ln + budget["left-out terms"]
-    for name, u, _, d in common:
-        var_ln = var_ln + (d * u) ** 2
-        budget[_COMMON_COLUMNS[name]] = (d * u) ** 2
+    common_parts = []
+    for position, (name, *_) in enumerate(first.common):
+        d_u = (stacked([item.common[position][3] for item in items])
+               * column([item.common[position][1] for item in items]))
+        var_ln = var_ln + d_u**2
+        budget[_COMMON_COLUMNS[name]] = d_u**2
+        common_parts.append(d_u)
     gamma = np.exp(ln_gamma)
     u_gamma = gamma * np.sqrt(var_ln)
 
     # Model γ± and its uncertainty from the parameter covariance.
-    model_values = {name: fit.values[name] for name in model.parameter_names}
-    ln_gamma_model = model.ln_gamma(electrolyte, data.molality, data.constants, model_values)
-    grad = np.zeros((n, len(uncertain_names)))
+    molality = stacked([d.molality for d in datas])
+    constants = DebyeHueckelConstants(*(stacked([getattr(d.constants, name) for d in datas])
+                                        for name in ("temperature", "aphi", "b")))
+    model_values = {name: column([f.values[name] for f in fits])
+                    for name in model.parameter_names}
+    ln_gamma_model = np.broadcast_to(
+        model.ln_gamma(electrolyte, molality, constants, model_values), molality.shape)
+    grad = np.zeros((len(items), n, len(uncertain_names)))
     in_model = [index for index, name in enumerate(uncertain_names) if name in model_values]
-    grad[:, in_model] = sensitivity_coefficients(
-        lambda v: model.ln_gamma(electrolyte, data.molality, data.constants, v), model_values,
+    grad[:, :, in_model] = sensitivity_coefficients(
+        lambda v: model.ln_gamma(electrolyte, molality, constants, v), model_values,
         [uncertain_names[index] for index in in_model])
-    var_model = np.einsum("ij,jk,ik->i", grad, uncertain_covariance, grad)
+    var_model = np.einsum("...ij,...jk,...ik->...i", grad,
+                          stacked([item.uncertain_covariance for item in items]), grad)
+    gamma_model = np.exp(ln_gamma_model)
+
+    rows = first.run.usable.size
+    masks = [item.run.usable for item in items]
+    every_row = rows == n  # (then every row is usable)
 
     def full(values: np.ndarray | None) -> np.ndarray:
-        """A column over every row of the run: the values at the usable rows, NaN elsewhere."""
-        column = np.full(usable.size, np.nan)
+        """Columns over every row of each run: the values at the usable rows, NaN elsewhere."""
+        if values is not None and every_row:
+            return values.copy()
+        out = np.full((len(items), rows), np.nan)
         if values is not None:
-            column[usable] = values
-        return column
+            for k, mask in enumerate(masks):
+                out[k, mask] = values[k]
+        return out
 
-    gamma_model = np.exp(ln_gamma_model)
+    def optional(arrays: Sequence[np.ndarray | None]) -> np.ndarray | None:
+        return None if arrays[0] is None else stacked(arrays)
+
     columns = {
-        "pressure_correction_V": full(data.correction_V),
-        "gas_pressure_Pa": full(data.gas_pressure_Pa),
-        "fitted_emf_V": full(data.emf_V - fit.residual_V),
-        "residual_V": full(fit.residual_V),
+        "pressure_correction_V": full(optional([d.correction_V for d in datas])),
+        "gas_pressure_Pa": full(optional([d.gas_pressure_Pa for d in datas])),
+        "fitted_emf_V": full(emf - stacked([f.residual_V for f in fits])),
+        "residual_V": full(stacked([f.residual_V for f in fits])),
         "ln_gamma_pm": full(ln_gamma),
         "gamma_pm": full(gamma),
         "u_gamma_pm": full(u_gamma),
@@ -1646,10 +1816,15 @@ def _points_columns(run: Run, model: ActivityModel, data: SeriesData, fit: _Fit,
         **{f"u_gamma_pm_{name}": full(gamma * np.sqrt(variance))
            for name, variance in budget.items()},
     }
-    extra = tuple(d * u for _, u, _, d in common) + (
-        () if truncation is None else (parameter_gradient @ truncation,))
-    return columns, GammaPropagation(parameter_gradient, -scale, sensitivity, reading_var, type_b,
-                                   extra)
+    out = []
+    for k, item in enumerate(items):
+        extra = tuple(d_u[k] for d_u in common_parts) + (
+            () if left_out is None else (left_out[k],))
+        out.append(({name: values[k] for name, values in columns.items()
+                     if name != "u_gamma_pm_molalities" or molality_rows[k]},
+                    GammaPropagation(parameter_gradient[k], -scale[k], item.sensitivity,
+                                     reading_var[k], item.type_b, extra)))
+    return out
 
 
 def reduction_jacobian(reduction: Reduction) -> np.ndarray:
