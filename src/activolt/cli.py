@@ -654,8 +654,7 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
     processes = _worker_count(workers, count)
     done: list[_SeriesDone | None] = [None] * count
     with _progress(count, "reducing") as bar:
-        finished = ((done for chunk in _chunks(range(count), 0, 1)
-                     for done in job(chunk, staged))
+        finished = ((done for chunk in _chunks(count) for done in job(chunk, staged))
                     if processes == 1 else _in_workers(job, staged, processes))
         for index, result in finished:
             done[index] = result
@@ -685,23 +684,37 @@ def _heap_set_aside() -> Iterator[None]:
             gc.unfreeze()
 
 
-def _chunks(indices: range, first: int, step: int) -> Iterator[range]:
-    """Chunks ``first``, ``first + step``, … of ``indices``, each of
+def _chunks(count: int, taken: Any = None) -> Iterator[range]:
+    """The chunks of series ``0 … count − 1``, each of
     :data:`~activolt.procedures.many.BATCH_SIZE` series reduced together (the result of a
-    series does not depend on its chunk)."""
+    series does not depend on its chunk): every chunk in order, or, with ``taken`` (a shared
+    count of the chunks the worker processes have taken), the next chunk no worker has taken
+    yet, until none is left — a worker slowed by the machine takes fewer."""
     from .procedures.many import BATCH_SIZE
 
-    for start in range(first * BATCH_SIZE, len(indices), step * BATCH_SIZE):
-        yield indices[start:start + BATCH_SIZE]
+    starts = range(0, count, BATCH_SIZE) if taken is None else iter(
+        lambda: _next_start(taken, BATCH_SIZE), None)
+    for start in starts:
+        if start >= count:
+            return
+        yield range(start, min(start + BATCH_SIZE, count))
+
+
+def _next_start(taken: Any, size: int) -> int:
+    """The first series of the next chunk not yet taken (``taken``: the shared count)."""
+    with taken.get_lock():
+        chunk = taken.value
+        taken.value = chunk + 1
+    return chunk * size
 
 
 def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
                 ) -> Iterator[tuple[int, _SeriesDone]]:
-    """(index, result) of every series as the worker processes finish them. Worker k takes the
-    chunks k, k + P, k + 2P, … (:func:`_chunks`) and sends each chunk's results through its own
-    pipe. A worker that ends
-    without finishing (killed, out of memory) stops the batch with an InputError rather than
-    leaving it waiting; on any exit the workers still running are stopped."""
+    """(index, result) of every series as the worker processes finish them. Each worker takes
+    the next chunk not yet taken (:func:`_chunks`) and sends each chunk's results through its
+    own pipe. A worker that ends without finishing (killed, out of memory) stops the batch
+    with an InputError rather than leaving it waiting; on any exit the workers still running
+    are stopped."""
     import multiprocessing
     from multiprocessing.connection import wait
 
@@ -718,11 +731,12 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
     for stream in (sys.stdout, sys.stderr):  # not to be written again by a worker on its exit
         if stream is not None:
             stream.flush()
+    taken = context.Value("q", 0)  # how many chunks the workers have taken
     try:
-        for first in range(processes):
+        for _ in range(processes):
             receiver, sender = context.Pipe(duplex=False)
             process = context.Process(
-                target=_worker, args=(job, staged, first, processes, sender), daemon=True)
+                target=_worker, args=(job, staged, taken, sender), daemon=True)
             process.start()
             sender.close()
             started.append((process, receiver))
@@ -752,16 +766,16 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
             receiver.close()
 
 
-def _worker(job: _SeriesJob, staged: StagedFolder, first: int, step: int, sender: Any
-            ) -> None:
-    """A worker process: its chunks of series (:func:`_chunks`), the results of each chunk
+def _worker(job: _SeriesJob, staged: StagedFolder, taken: Any, sender: Any) -> None:
+    """A worker process: chunks of series not yet taken (:func:`_chunks`; ``taken``: the
+    count of chunks taken, shared by the workers), the results of each chunk
     sent together when it is done (one message, not one a series). It leaves Ctrl-C to the
     main process, which stops the batch and the workers; a failure is sent as its
     traceback."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     try:
-        for chunk in _chunks(range(len(job.runs)), first, step):
+        for chunk in _chunks(len(job.runs), taken):
             sender.send(list(job(chunk, staged)))
     except Exception:  # a defect: shown by the main process, which stops the batch
         import traceback
