@@ -22,6 +22,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from activolt.data.runs import Exclusion, exclude_points, read_run
 from activolt.io.record import build_record
@@ -145,3 +147,37 @@ def test_the_rows_written_together_are_the_rows_written_value_by_value(records):
             derived["points"] = _numpy_floats(derived["points"])
         one_by_one.append(record)
     assert report_htmls(one_by_one) == report_htmls(records)
+
+
+#: Floats of every kind the rounding could differ on: tiny, huge, negative, integral, signed
+#: zeros, subnormals, non-finite, powers of ten and their neighbours, values near a tie.
+_FLOATS = (st.floats(allow_subnormal=True)
+           | st.floats(min_value=-1e-2, max_value=1e-2)
+           | st.floats(min_value=1e-12, max_value=1e3)
+           | st.integers(-10**6, 10**6).map(float)
+           | st.integers(-300, 300).map(lambda n: 10.0 ** n).flatmap(lambda p: st.sampled_from(
+               [p, -p, math.nextafter(p, 0.0), math.nextafter(p, math.inf)]))
+           | st.integers(-10**6, 10**6).map(lambda n: (n + 0.5) / 10 ** 4)
+           | st.sampled_from([0.0, -0.0, 5e-324, math.inf, math.nan, 0.00097, 9.5e-5]))
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.tuples(*[_FLOATS] * 7), min_size=1, max_size=12))
+def test_random_rows_written_together_are_the_rows_written_value_by_value(numbers):
+    """Rows of any floats (the readings, the published values, the derived properties) are
+    written with the column as value by value."""
+    points = [{"line": n, "molality_mol_kg": m, "emf_V": a, "residual_V": b, "gamma_pm": c,
+               "u_gamma_pm": d, "used_in_fit": True, "flag": None}
+              for n, (m, a, b, c, d, _e, _f) in enumerate(numbers)]
+    published = [{"molality_mol_kg": m, "gamma_pm_published": a, "difference": b,
+                  "difference_over_u": c, "interpolated": n % 2 == 0,
+                  "published_values": [{"source": "s", "gamma_pm": d, "interpolated": True}]}
+                 for n, (m, a, b, c, d, _e, _f) in enumerate(numbers)]
+    derived = [{"molality_mol_kg": m, "osmotic_coefficient": a, "u_osmotic_coefficient": b,
+                "water_activity": c, "u_water_activity": d, "excess_gibbs_rt_mol_kg": e,
+                "u_excess_gibbs_rt_mol_kg": f} for m, a, b, c, d, e, f in numbers]
+    record = {"points": points, "published_comparison": published,
+              "derived_properties": {"points": derived}}
+    alone = {"points": _numpy_floats(points), "published_comparison": _numpy_floats(published),
+             "derived_properties": {"points": _numpy_floats(derived)}}
+    assert report_htmls([record, record]) == report_htmls([alone, alone])

@@ -480,10 +480,12 @@ def _points_of_many(records: Sequence[Mapping[str, Any]]) -> list[str]:
         electrode_cells = [f"<td>{_text(e or '')}</td>" if electrodes[owner] else ""
                            for e, owner in zip(electrode, owners.tolist(), strict=True)]
     emf, residual = emf[direct], residual[direct]
+    with np.errstate(over="ignore"):  # (mV beyond the floats: inf, as alone)
+        emf_mV, residual_mV = (emf * 1e3).tolist(), (residual * 1e3).tolist()
     written = fill_rows(_POINT_ROW, (
         list(compress(lines, chosen)), _shared_cells(m[direct], _MOLALITY_CELL),
-        list(compress(electrode_cells, chosen)), emf.tolist(), (emf * 1e3).tolist(),
-        residual.tolist(), (residual * 1e3).tolist(), gamma[direct].tolist(),
+        list(compress(electrode_cells, chosen)), emf.tolist(), emf_mV,
+        residual.tolist(), residual_mV, gamma[direct].tolist(),
         format_with_uncertainty_column(gamma[direct], u_gamma[direct])))
     owner = owners.tolist()
     texts = _merged(direct, written, lambda index: _point_row(
