@@ -499,11 +499,15 @@ class _SeriesJob:
         (:func:`~activolt.procedures.properties.derive_results_of_many`), then its records and
         points tables and text reports are made together
         (:func:`~activolt.io.record.build_records`, :func:`~activolt.io.record.points_csvs`,
-        :func:`~activolt.report.text.format_reports`) and the records written to text together
-        (:func:`~activolt.io.json_layout.json_texts`)."""
+        :func:`~activolt.report.text.format_reports`), the records written to text together
+        (:func:`~activolt.io.json_layout.json_texts`) and their HTML reports made together
+        (:func:`~activolt.report.html.report_htmls`)."""
+        import hashlib
+
         from .io.json_layout import json_texts
         from .io.record import build_records, points_csvs
         from .procedures.properties import derive_results_of_many
+        from .report.html import report_htmls
         from .report.text import format_report, format_reports
 
         outcomes = self.reducer.batch([self.runs[index] for index in indices])
@@ -525,11 +529,16 @@ class _SeriesJob:
         parts = iter(zip(documents, points_csvs(reductions), reports, strict=True))
         made = [self._made(index, outcome, None if outcome.reduction is None else next(parts))
                 for index, outcome in zip(indices, outcomes, strict=True)]
-        texts = iter(json_texts([outputs.document for _done, outputs in made
-                                 if outputs is not None]))
+        kept = [outputs for _done, outputs in made if outputs is not None]
+        # written, and named by their hash, as bytes
+        records = [text.encode("utf-8") for text in json_texts([o.document for o in kept])]
+        pages = report_htmls([o.document for o in kept], [o.figures for o in kept],
+                             [f"{o.base}.record.json" for o in kept],
+                             [hashlib.sha256(record).hexdigest() for record in records])
+        written = iter(zip(records, pages, strict=True))
         for index, (done, outputs) in zip(indices, made, strict=True):
             if outputs is not None:
-                outputs.write(next(texts), staged)
+                outputs.write(*next(written), staged)
             yield index, done
 
     def _input_entry(self, run: Run) -> dict[str, Any]:
@@ -601,16 +610,14 @@ class _SeriesOutputs:
     contents: dict[str, str | bytes]
     figures: dict[str, bytes]
 
-    def write(self, record_text: str, staged: StagedFolder) -> None:
-        """Write the record (``record_text``: its JSON text), the other outputs and the HTML
-        report, made from the record as written and the figures, into ``staged``."""
-        record = record_text.encode("utf-8")  # written, and named by its hash, as bytes
-        name = f"{self.base}.record.json"
-        staged.write(name, record)
+    def write(self, record: bytes, page: str, staged: StagedFolder) -> None:
+        """Write the record (``record``: its JSON text as bytes), the other outputs and the
+        HTML report (``page``, made from the record as written and the figures) into
+        ``staged``."""
+        staged.write(f"{self.base}.record.json", record)
         for file_name, content in self.contents.items():
             staged.write(file_name, content)
-        staged.write(f"{self.base}.report.html",
-                     _html_report(record, self.figures, name, self.document))
+        staged.write(f"{self.base}.report.html", page)
 
 
 @dataclass(frozen=True)

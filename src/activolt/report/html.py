@@ -20,13 +20,24 @@ import base64
 import functools
 import math
 import re
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
+from itertools import accumulate, compress, pairwise
 from typing import Any
 
-from .certificate import text
-from .numbers import decimals_for, format_compact, format_with_uncertainty
+import numpy as np
+import numpy.typing as npt
 
-__all__ = ["FIGURE_CAPTIONS", "report_html"]
+from .certificate import text
+from .numbers import (
+    decimals_for,
+    fill_rows,
+    format_compact,
+    format_compact_column,
+    format_with_uncertainty,
+    format_with_uncertainty_column,
+)
+
+__all__ = ["FIGURE_CAPTIONS", "report_html", "report_htmls"]
 
 #: Captions of the figures of an output set, by the name the set gives them.
 FIGURE_CAPTIONS = {
@@ -353,194 +364,305 @@ def _figures(figures: Mapping[str, bytes] | None) -> str:
     return '<section id="figures"><h2>Figures</h2>' + "\n".join(blocks) + "</section>"
 
 
-def _points(record: Mapping[str, Any]) -> str:
-    points = list(record.get("points") or [])
-    if not points:
-        return ""
-    electrodes = any(p.get("electrode") for p in points)
-    isotherms = any(p.get("isotherm_temperature_K") is not None for p in points)
-    header = ["line", "m / (mol/kg)", *(["isotherm / °C"] if isotherms else []),
-              *(["electrode"] if electrodes else []), "E / mV", "residual / mV", "γ± ± u (k = 1)",
-              "remark"]
-    q_molality, q_setpoint, q_emf, q_residual, q_gamma = (_quantity(q) for q in (
-        "molality_mol_kg", "isotherm_temperature_K", "emf_V", "residual_V", "gamma_pm"))
-    rows = []
-    for p in points:
-        get = p.get
-        used = get("used_in_fit", True)
-        if used is True and not isotherms and not get("flag"):
-            row = _plain_point(p, q_molality, q_emf, q_residual, q_gamma, electrodes)
-            if row is not None:
-                rows.append(row)
-                continue
-        emf = _number_value(get("emf_V"))
-        cells = [f'<tr{"" if used else " class=out"}><td>{_text(get("line", ""))}</td>',
-                 _rounded_cell(f"{p['molality_mol_kg']:.6g}", get("molality_mol_kg"),
-                               q_molality)]
-        if isotherms:
-            setpoint = _number_value(get("isotherm_temperature_K"))
-            cells.append(_rounded_cell(
-                _NOT_GIVEN if setpoint is None else f"{setpoint - 273.15:.2f}", setpoint,
-                q_setpoint))
-        if electrodes:
-            cells.append(f"<td>{_text(get('electrode') or '')}</td>")
-        cells.append(_rounded_cell(_NOT_GIVEN if emf is None else f"{emf * 1e3:.3f}", emf,
-                                   q_emf))
-        if used:
-            residual = _number_value(get("residual_V"))
-            gamma = get("gamma_pm")
-            cells.append(_rounded_cell(
-                _NOT_GIVEN if residual is None else f"{residual * 1e3:+.4f}", residual,
-                q_residual))
-            cells.append(_rounded_cell(_with_u(gamma, get("u_gamma_pm")), gamma, q_gamma))
-        else:
-            cells.append("<td></td><td></td>")
-        flag = get("flag")
-        remark = (f"out of the fit — {flag}" if not used and flag
-                  else f"stands out — {flag}" if flag else "")
-        cells.append(f"<td>{_text(remark)}</td></tr>")
-        rows.append("".join(cells))
-    return ('<section id="points"><h2>Readings and γ±</h2>'
-            + _table(header, rows, "points-table", long=True)
-            + (f"<p>{_text(record['gamma_uncertainty_method'])}</p>"
-               if record.get("gamma_uncertainty_method") else "")
-            + "</section>")
+# --- the tables of many pages, worked column by column -----------------------------------------
+#
+# The rows of a table whose numbers are all finite Python floats (nearly every row of a
+# reduction) are written for all the pages of a batch at once: each column's numbers rounded by
+# the column formatters of :mod:`activolt.report.numbers`, then every row filled by one ``%``
+# of the row's template. Any other row is written value by value (``_point_row``,
+# ``_published_row``, ``_derived_row``), which handles missing and non-finite values.
+
+def _rows_of(records: Sequence[Mapping[str, Any]], table: Callable[[Mapping[str, Any]], Any]
+             ) -> tuple[list[Mapping[str, Any]], list[int]]:
+    """The rows of one table of every page in one list, and where each page's rows begin
+    (with the end of the last page's rows after them)."""
+    tables = [list(table(record) or []) for record in records]
+    return [row for rows in tables for row in rows], [0, *accumulate(map(len, tables))]
 
 
-def _finite_floats(*values: Any) -> bool:
-    """Whether every value is a finite Python float (x − x is 0 only for finite x)."""
-    for value in values:
-        if type(value) is not float or value - value != 0.0:
-            return False
-    return True
+def _columns(rows: list[Mapping[str, Any]], *keys: str, **defaults: Any) -> list[list[Any]]:
+    """The values of each key in the rows (``defaults[key]``, else None, where a row lacks
+    it)."""
+    return [[row.get(key, fallback) for row in rows]
+            for key, fallback in zip(keys, map(defaults.get, keys), strict=True)]
 
 
-def _plain_point(p: Mapping[str, Any], q_molality: str, q_emf: str, q_residual: str,
-                 q_gamma: str, electrodes: bool) -> str | None:
-    """The row of a reading in the fit and not flagged whose line is a whole number and whose
-    numbers are finite floats (a row of :func:`_points`, written directly); None otherwise."""
+def _finite(values: Sequence[Any]) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.bool_]]:
+    """A column as floats (NaN for what is not a float), and where it holds finite Python
+    floats (``float`` exactly: what the tables write directly)."""
+    if set(map(type, values)) <= {float}:
+        numbers = np.array(values, dtype=np.float64)
+        return numbers, np.isfinite(numbers)
+    floats = [type(value) is float for value in values]
+    numbers = np.array([value if is_float else math.nan
+                        for value, is_float in zip(values, floats, strict=True)],
+                       dtype=np.float64)
+    return numbers, np.array(floats, dtype=bool) & np.isfinite(numbers)
+
+
+def _shared_cells(values: npt.NDArray[np.float64], template: str) -> list[str]:
+    """``template % (repr(v), v)`` for each finite float of a column, each distinct non-zero
+    value written once: the pages of a batch share their molalities, and the published means
+    at them. Zeros are written each time (0.0 and -0.0 are equal as keys, not as text)."""
+    numbers = values.tolist()
+    cells = {value: template % (value, value) for value in set(numbers) if value}
+    return [cells[value] if value else template % (value, value) for value in numbers]
+
+
+def _merged(direct: npt.NDArray[np.bool_], written: list[str],
+            general: Callable[[int], str]) -> list[str]:
+    """The rows of a table: ``written`` where ``direct``, in order, ``general(i)`` for each
+    other row ``i``."""
+    if direct.all():
+        return written
+    texts = iter(written)
+    return [next(texts) if is_direct else general(index)
+            for index, is_direct in enumerate(direct.tolist())]
+
+
+def _sections(starts: list[int], rows: list[str], section: Callable[[int, list[str]], str]
+              ) -> list[str]:
+    """Each page's section from its rows ("" for a page without rows)."""
+    return [section(page, rows[start:end]) if end > start else ""
+            for page, (start, end) in enumerate(pairwise(starts))]
+
+
+_Q_MOLALITY, _Q_SETPOINT, _Q_EMF, _Q_RESIDUAL, _Q_GAMMA = (_quantity(q) for q in (
+    "molality_mol_kg", "isotherm_temperature_K", "emf_V", "residual_V", "gamma_pm"))
+_Q_MEAN, _Q_DIFFERENCE, _Q_RATIO = (_quantity(q) for q in (
+    "gamma_pm_published", "difference", "difference_over_u"))
+_Q_PHI, _Q_A_W, _Q_EXCESS = (_quantity(q) for q in (
+    "osmotic_coefficient", "water_activity", "excess_gibbs_rt_mol_kg"))
+
+#: A molality's cell (with and without its ``data-quantity``), to be filled with (m, m).
+_MOLALITY_CELL = '<td class="num" data-value="%r"' + _Q_MOLALITY + ">%.6g</td>"
+_PLAIN_MOLALITY_CELL = '<td class="num" data-value="%r">%.6g</td>'
+#: A reading in the fit, not flagged: line, molality cell, electrode cell, then E, the
+#: residual and γ±, each with the record's value (its ``repr``).
+_POINT_ROW = ('<tr><td>%d</td>%s%s<td class="num" data-value="%r"' + _Q_EMF + ">%.3f</td>"
+              '<td class="num" data-value="%r"' + _Q_RESIDUAL + ">%+.4f</td>"
+              '<td class="num" data-value="%r"' + _Q_GAMMA + ">%s</td><td></td></tr>")
+#: The published mean's cell but for its suffix and end, to be filled with (mean, mean).
+_MEAN_CELL = '<td class="num" data-value="%r"' + _Q_MEAN + ">%.4f"
+#: A published row: molality cell, marks, mean cell, its suffix, difference, difference / u.
+_PUBLISHED_ROW = ("<tr>%s<td>%s</td>%s%s</td>"
+                  '<td class="num" data-value="%r"' + _Q_DIFFERENCE + ">%+.5f</td>"
+                  '<td class="num" data-value="%r"' + _Q_RATIO + ">%+.1f</td></tr>")
+#: A derived row: molality cell, φ, 1 − a_w, G^E/(RT), each with the record's value.
+_DERIVED_ROW = ('<tr>%s<td class="num" data-value="%r"' + _Q_PHI + ">%s</td>"
+                '<td class="num" data-value="%r"' + _Q_A_W + ">%s</td>"
+                '<td class="num" data-value="%r"' + _Q_EXCESS + ">%s</td></tr>")
+
+
+def _points_of_many(records: Sequence[Mapping[str, Any]]) -> list[str]:
+    """The readings section of each page ("" for a record without points)."""
+    rows, starts = _rows_of(records, lambda record: record.get("points"))
+    (lines, used, flags, electrode, setpoints, m_values, emf_values, residual_values,
+     gamma_values, u_gamma_values) = _columns(
+        rows, "line", "used_in_fit", "flag", "electrode", "isotherm_temperature_K",
+        "molality_mol_kg", "emf_V", "residual_V", "gamma_pm", "u_gamma_pm", used_in_fit=True)
+    pages = list(pairwise(starts))
+    electrodes = [any(electrode[start:end]) for start, end in pages]
+    isotherms = [any(t is not None for t in setpoints[start:end]) for start, end in pages]
+    owners = np.repeat(np.arange(len(records)), np.diff(starts))
+    m, m_ok = _finite(m_values)
+    emf, emf_ok = _finite(emf_values)
+    residual, residual_ok = _finite(residual_values)
+    gamma, gamma_ok = _finite(gamma_values)
+    u_gamma, u_gamma_ok = _finite(u_gamma_values)
+    direct = (np.array([u is True and not f and type(line) is int
+                        for u, f, line in zip(used, flags, lines, strict=True)], dtype=bool)
+              & ~np.array(isotherms, dtype=bool)[owners]
+              & m_ok & emf_ok & residual_ok & gamma_ok & u_gamma_ok)
+    chosen = direct.tolist()
+    electrode_cells = [""] * len(rows)
+    if any(electrodes):
+        electrode_cells = [f"<td>{_text(e or '')}</td>" if electrodes[owner] else ""
+                           for e, owner in zip(electrode, owners.tolist(), strict=True)]
+    emf, residual = emf[direct], residual[direct]
+    with np.errstate(over="ignore"):  # (mV beyond the floats: inf, as alone)
+        emf_mV, residual_mV = (emf * 1e3).tolist(), (residual * 1e3).tolist()
+    written = fill_rows(_POINT_ROW, (
+        list(compress(lines, chosen)), _shared_cells(m[direct], _MOLALITY_CELL),
+        list(compress(electrode_cells, chosen)), emf.tolist(), emf_mV,
+        residual.tolist(), residual_mV, gamma[direct].tolist(),
+        format_with_uncertainty_column(gamma[direct], u_gamma[direct])))
+    owner = owners.tolist()
+    texts = _merged(direct, written, lambda index: _point_row(
+        rows[index], isotherms[owner[index]], electrodes[owner[index]]))
+
+    def section(page: int, page_rows: list[str]) -> str:
+        record = records[page]
+        header = ("line", "m / (mol/kg)", *(("isotherm / °C",) if isotherms[page] else ()),
+                  *(("electrode",) if electrodes[page] else ()), "E / mV", "residual / mV",
+                  "γ± ± u (k = 1)", "remark")
+        return ('<section id="points"><h2>Readings and γ±</h2>'
+                + _table(header, page_rows, "points-table", long=True)
+                + (f"<p>{_text(record['gamma_uncertainty_method'])}</p>"
+                   if record.get("gamma_uncertainty_method") else "")
+                + "</section>")
+
+    return _sections(starts, texts, section)
+
+
+def _point_row(p: Mapping[str, Any], isotherms: bool, electrodes: bool) -> str:
+    """A row of the readings table written value by value."""
     get = p.get
-    line, m, emf = get("line", ""), get("molality_mol_kg"), get("emf_V")
-    residual, gamma, u_gamma = get("residual_V"), get("gamma_pm"), get("u_gamma_pm")
-    if not (type(line) is int and _finite_floats(m, emf, residual, gamma, u_gamma)):
-        return None
-    electrode = f"<td>{_text(get('electrode') or '')}</td>" if electrodes else ""
-    return (f"<tr><td>{line}</td>{_shared_cell(m, '.6g', q_molality)}{electrode}"
-            f'<td class="num" data-value="{emf!r}"{q_emf}>{emf * 1e3:.3f}</td>'
-            f'<td class="num" data-value="{residual!r}"{q_residual}>{residual * 1e3:+.4f}</td>'
-            f'<td class="num" data-value="{gamma!r}"{q_gamma}>'
-            f"{format_with_uncertainty(gamma, u_gamma)}</td><td></td></tr>")
+    used = get("used_in_fit", True)
+    emf = _number_value(get("emf_V"))
+    cells = [f'<tr{"" if used else " class=out"}><td>{_text(get("line", ""))}</td>',
+             _rounded_cell(f"{p['molality_mol_kg']:.6g}", get("molality_mol_kg"), _Q_MOLALITY)]
+    if isotherms:
+        setpoint = _number_value(get("isotherm_temperature_K"))
+        cells.append(_rounded_cell(
+            _NOT_GIVEN if setpoint is None else f"{setpoint - 273.15:.2f}", setpoint,
+            _Q_SETPOINT))
+    if electrodes:
+        cells.append(f"<td>{_text(get('electrode') or '')}</td>")
+    cells.append(_rounded_cell(_NOT_GIVEN if emf is None else f"{emf * 1e3:.3f}", emf, _Q_EMF))
+    if used:
+        residual = _number_value(get("residual_V"))
+        gamma = get("gamma_pm")
+        cells.append(_rounded_cell(
+            _NOT_GIVEN if residual is None else f"{residual * 1e3:+.4f}", residual,
+            _Q_RESIDUAL))
+        cells.append(_rounded_cell(_with_u(gamma, get("u_gamma_pm")), gamma, _Q_GAMMA))
+    else:
+        cells.append("<td></td><td></td>")
+    flag = get("flag")
+    remark = (f"out of the fit — {flag}" if not used and flag
+              else f"stands out — {flag}" if flag else "")
+    cells.append(f"<td>{_text(remark)}</td></tr>")
+    return "".join(cells)
 
 
-def _shared_cell(value: float, spec: str, quantity_attribute: str = "", suffix: str = ""
-                 ) -> str:
-    """The cell of a finite float that the pages of a batch often share (a molality, shown
-    in three tables of a page, and the published mean at it): its value in ``data-value``
-    (with the ``data-quantity`` attribute given), shown with the format ``spec``, then
-    ``suffix``; remembered for non-zero values. Zeros are written each time (0.0 and -0.0 are
-    equal as keys, not as text)."""
-    if value:
-        return _remembered_cell(value, spec, quantity_attribute, suffix)
-    return (f'<td class="num" data-value="{value!r}"{quantity_attribute}>'
-            f"{value:{spec}}{suffix}</td>")
+def _published_value(value: Any) -> str:
+    """A published γ± as the published table shows it (four decimals, ``—`` for none)."""
+    number = _number_value(value)
+    return _NOT_GIVEN if number is None else f"{number:.4f}"
 
 
-@functools.lru_cache(maxsize=2048)
-def _remembered_cell(value: float, spec: str, quantity_attribute: str, suffix: str) -> str:
-    return (f'<td class="num" data-value="{value!r}"{quantity_attribute}>'
-            f"{value:{spec}}{suffix}</td>")
+def _marks_of_many(rows: list[Mapping[str, Any]], starts: list[int]
+                   ) -> tuple[list[str], list[dict[str, str]]]:
+    """The published values of each row as shown (each with its table's letter, interpolated
+    ones in brackets), and each page's letter of each table (in the order the page names
+    them). The pages of a batch show the same published values: each distinct non-zero
+    finite float is written once."""
+    entries, entry_starts = _rows_of(rows, lambda row: row.get("published_values"))
+    sources, values, interpolated = _columns(entries, "source", "gamma_pm", "interpolated")
+    sources = list(map(str, sources))
+    written = {value: f"{value:.4f}" for value in {v for v in values if type(v) is float}
+               if value and value - value == 0.0}
+    texts = [written[value] if type(value) is float and value in written
+             else _published_value(value) for value in values]
+    letters: list[str] = []
+    pages = []
+    for start, end in pairwise(starts):
+        named = sources[entry_starts[start]:entry_starts[end]]
+        letter = {source: chr(ord("a") + n) for n, source in enumerate(dict.fromkeys(named))}
+        letters += map(letter.__getitem__, named)
+        pages.append(letter)
+    marks = [f"({text}){letter}" if bracketed else text + letter
+             for text, letter, bracketed in zip(texts, letters, interpolated, strict=True)]
+    joined = [" ".join(marks[start:end]) for start, end in pairwise(entry_starts)]
+    escaped = {text: _shown(text) for text in set(joined)}
+    return [escaped[text] for text in joined], pages
 
 
-def _published(record: Mapping[str, Any]) -> str:
-    rows_in = list(record.get("published_comparison") or [])
-    if not rows_in:
-        return ""
-    q_mean, q_difference, q_ratio = (_quantity(q) for q in (
-        "gamma_pm_published", "difference", "difference_over_u"))
-    sources: dict[str, str] = {}
-    rows = []
-    for r in rows_in:
-        marks = []
-        for entry in r.get("published_values") or []:
-            source = str(entry.get("source"))
-            letter = sources.get(source) or sources.setdefault(source,
-                                                               chr(ord("a") + len(sources)))
-            value = entry.get("gamma_pm")
-            shown = (f"{value:.4f}" if type(value) is float and value - value == 0.0
-                     else _NOT_GIVEN if (value := _number_value(value)) is None
-                     else f"{value:.4f}")
-            marks.append(f"({shown}){letter}" if entry.get("interpolated") else
-                         f"{shown}{letter}")
-        m, mean = r.get("molality_mol_kg"), r.get("gamma_pm_published")
-        difference, ratio = r.get("difference"), r.get("difference_over_u")
-        if _finite_floats(m, mean, difference, ratio):
-            rows.append(
-                f"<tr>{_shared_cell(m, '.6g')}<td>{_shown(' '.join(marks))}</td>"
-                + _shared_cell(mean, ".4f", q_mean, "i" if r.get("interpolated") else "")
-                + f'<td class="num" data-value="{difference!r}"{q_difference}>'
-                f"{difference:+.5f}</td>"
-                f'<td class="num" data-value="{ratio!r}"{q_ratio}>{ratio:+.1f}</td></tr>')
-            continue
-        mean = _number_value(mean)
-        difference = _number_value(difference)
-        ratio = _number_value(ratio)
-        rows.append(
-            f'<tr><td class="num"{_value_attribute(r.get("molality_mol_kg"))}>'
-            f"{r['molality_mol_kg']:.6g}</td><td>{_shown(' '.join(marks))}</td>"
+def _published_of_many(records: Sequence[Mapping[str, Any]]) -> list[str]:
+    """The section comparing γ± with the published values, of each page ("" for none)."""
+    rows, starts = _rows_of(records, lambda record: record.get("published_comparison"))
+    marks, letters = _marks_of_many(rows, starts)
+    m_values, mean_values, difference_values, ratio_values, interpolated = _columns(
+        rows, "molality_mol_kg", "gamma_pm_published", "difference", "difference_over_u",
+        "interpolated")
+    m, m_ok = _finite(m_values)
+    mean, mean_ok = _finite(mean_values)
+    difference, difference_ok = _finite(difference_values)
+    ratio, ratio_ok = _finite(ratio_values)
+    direct = m_ok & mean_ok & difference_ok & ratio_ok
+    chosen = direct.tolist()
+    differences, ratios = difference[direct].tolist(), ratio[direct].tolist()
+    written = fill_rows(_PUBLISHED_ROW, (
+        _shared_cells(m[direct], _PLAIN_MOLALITY_CELL), list(compress(marks, chosen)),
+        _shared_cells(mean[direct], _MEAN_CELL),
+        ["i" if i else "" for i in compress(interpolated, chosen)],
+        differences, differences, ratios, ratios))
+    texts = _merged(direct, written, lambda index: _published_row(rows[index], marks[index]))
+
+    def section(page: int, page_rows: list[str]) -> str:
+        record = records[page]
+        legend = "".join(f"<li>{letter}: {_text(source)}</li>"
+                         for source, letter in letters[page].items())
+        return ('<section id="published"><h2>γ± against published values</h2>'
+                + _table(["m / (mol/kg)", "published (interpolated in brackets)", "mean",
+                          "difference", "difference / u"], page_rows, "published-table")
+                + f"<ul>{legend}</ul>"
+                + (f"<p>{_text(record['published_comparison_method'])}</p>"
+                   if record.get("published_comparison_method") else "") + "</section>")
+
+    return _sections(starts, texts, section)
+
+
+def _published_row(r: Mapping[str, Any], marks: str) -> str:
+    """A row of the published table written value by value (``marks``: its published values
+    as shown)."""
+    mean = _number_value(r.get("gamma_pm_published"))
+    difference = _number_value(r.get("difference"))
+    ratio = _number_value(r.get("difference_over_u"))
+    return (f'<tr><td class="num"{_value_attribute(r.get("molality_mol_kg"))}>'
+            f"{r['molality_mol_kg']:.6g}</td><td>{marks}</td>"
             + _rounded_cell(_NOT_GIVEN if mean is None else f"{mean:.4f}"
-                            + ("i" if r.get("interpolated") else ""), mean, q_mean)
+                            + ("i" if r.get("interpolated") else ""), mean, _Q_MEAN)
             + _rounded_cell(_NOT_GIVEN if difference is None else f"{difference:+.5f}",
-                            difference, q_difference)
-            + _rounded_cell(_NOT_GIVEN if ratio is None else f"{ratio:+.1f}", ratio, q_ratio)
+                            difference, _Q_DIFFERENCE)
+            + _rounded_cell(_NOT_GIVEN if ratio is None else f"{ratio:+.1f}", ratio, _Q_RATIO)
             + "</tr>")
-    legend = "".join(f"<li>{letter}: {_text(source)}</li>" for source, letter in sources.items())
-    return ('<section id="published"><h2>γ± against published values</h2>'
-            + _table(["m / (mol/kg)", "published (interpolated in brackets)", "mean",
-                      "difference", "difference / u"], rows, "published-table")
-            + f"<ul>{legend}</ul>"
-            + (f"<p>{_text(record['published_comparison_method'])}</p>"
-               if record.get("published_comparison_method") else "") + "</section>")
 
 
-def _derived(record: Mapping[str, Any]) -> str:
-    derived = record.get("derived_properties") or {}
-    points = list(derived.get("points") or [])
-    if not points:
-        return ""
-    q_phi, q_a_w, q_excess = (_quantity(q) for q in (
-        "osmotic_coefficient", "water_activity", "excess_gibbs_rt_mol_kg"))
-    rows = []
-    for p in points:
-        get = p.get
-        m, phi, u_phi = (get("molality_mol_kg"), get("osmotic_coefficient"),
-                         get("u_osmotic_coefficient"))
-        a_w, u_a_w = get("water_activity"), get("u_water_activity")
-        excess, u_excess = get("excess_gibbs_rt_mol_kg"), get("u_excess_gibbs_rt_mol_kg")
-        if (_finite_floats(m, phi, u_phi, a_w, u_a_w, excess, u_excess)
-                and (1.0 - a_w) - (1.0 - a_w) == 0.0):
-            rows.append(
-                f'<tr>{_shared_cell(m, ".6g")}<td class="num" data-value="{phi!r}"{q_phi}>'
-                f"{format_with_uncertainty(phi, u_phi)}</td>"
-                f'<td class="num" data-value="{a_w!r}"{q_a_w}>'
-                f"{format_compact(1.0 - a_w, u_a_w)}</td>"
-                f'<td class="num" data-value="{excess!r}"{q_excess}>'
-                f"{format_compact(excess, u_excess)}</td></tr>")
-            continue
-        a_w = _number_value(get("water_activity"))
-        phi, excess = get("osmotic_coefficient"), get("excess_gibbs_rt_mol_kg")
-        rows.append(
-            f'<tr><td class="num"{_value_attribute(get("molality_mol_kg"))}>'
+def _derived_of_many(records: Sequence[Mapping[str, Any]]) -> list[str]:
+    """The section of the properties derived from the fitted model, of each page ("" for
+    none)."""
+    rows, starts = _rows_of(records, lambda record: (record.get("derived_properties")
+                                                     or {}).get("points"))
+    m, phi, u_phi, a_w, u_a_w, excess, u_excess = (_finite(column) for column in _columns(
+        rows, "molality_mol_kg", "osmotic_coefficient", "u_osmotic_coefficient",
+        "water_activity", "u_water_activity", "excess_gibbs_rt_mol_kg",
+        "u_excess_gibbs_rt_mol_kg"))
+    direct = np.logical_and.reduce([ok for _numbers, ok in (
+        m, phi, u_phi, a_w, u_a_w, excess, u_excess)])
+    (m, phi, u_phi, a_w, u_a_w, excess, u_excess) = (numbers[direct] for numbers, _ok in (
+        m, phi, u_phi, a_w, u_a_w, excess, u_excess))
+    written = fill_rows(_DERIVED_ROW, (
+        _shared_cells(m, _PLAIN_MOLALITY_CELL),
+        phi.tolist(), format_with_uncertainty_column(phi, u_phi),
+        a_w.tolist(), format_compact_column(1.0 - a_w, u_a_w),
+        excess.tolist(), format_compact_column(excess, u_excess)))
+    texts = _merged(direct, written, lambda index: _derived_row(rows[index]))
+
+    def section(page: int, page_rows: list[str]) -> str:
+        derived = records[page].get("derived_properties") or {}
+        return ('<section id="derived"><h2>Derived from the fitted model (k = 1)</h2>'
+                + _table(["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"], page_rows,
+                         "derived-table")
+                + (f"<p>{_text(derived['method'])}</p>" if derived.get("method") else "")
+                + "</section>")
+
+    return _sections(starts, texts, section)
+
+
+def _derived_row(p: Mapping[str, Any]) -> str:
+    """A row of the derived table written value by value."""
+    get = p.get
+    a_w = _number_value(get("water_activity"))
+    phi, excess = get("osmotic_coefficient"), get("excess_gibbs_rt_mol_kg")
+    return (f'<tr><td class="num"{_value_attribute(get("molality_mol_kg"))}>'
             f"{p['molality_mol_kg']:.6g}</td>"
-            + _rounded_cell(_with_u(phi, get("u_osmotic_coefficient")), phi, q_phi)
+            + _rounded_cell(_with_u(phi, get("u_osmotic_coefficient")), phi, _Q_PHI)
             + _rounded_cell(_NOT_GIVEN if a_w is None
-                            else _compact(1.0 - a_w, get("u_water_activity")), a_w, q_a_w)
+                            else _compact(1.0 - a_w, get("u_water_activity")), a_w, _Q_A_W)
             + _rounded_cell(_compact(excess, get("u_excess_gibbs_rt_mol_kg")), excess,
-                            q_excess) + "</tr>")
-    return ('<section id="derived"><h2>Derived from the fitted model (k = 1)</h2>'
-            + _table(["m / (mol/kg)", "φ", "1 − a_w", "G^E/(RT) / (mol/kg)"], rows,
-                     "derived-table")
-            + (f"<p>{_text(derived['method'])}</p>" if derived.get("method") else "")
-            + "</section>")
+                            _Q_EXCESS) + "</tr>")
 
 
 def _budget(record: Mapping[str, Any]) -> str:
@@ -695,6 +817,53 @@ def report_html(record: Mapping[str, Any], figures: Mapping[str, bytes] | None =
     >>> "&lt;b&gt;A&lt;/b&gt;" in page, "<script" in page
     (True, False)
     """
+    return report_htmls([record], [figures], [record_name], [record_sha256])[0]
+
+
+def report_htmls(records: Sequence[Mapping[str, Any]],
+                 figures: Sequence[Mapping[str, bytes] | None] | None = None,
+                 record_names: Sequence[str | None] | None = None,
+                 record_sha256s: Sequence[str | None] | None = None) -> list[str]:
+    """The HTML reports of many records (the series of a batch): :func:`report_html` of each,
+    their tables written together, column by column.
+
+    Parameters
+    ----------
+    records : sequence of mappings
+        The records, as :func:`report_html` takes one.
+    figures : sequence of mappings of str to bytes, optional
+        Each record's figures (None or an empty mapping: none drawn); none by default.
+    record_names, record_sha256s : sequences of str, optional
+        Each record's file name and the SHA-256 of its JSON text; none by default.
+
+    Returns
+    -------
+    list of str
+        One HTML document per record, the text :func:`report_html` writes for it.
+
+    Examples
+    --------
+    >>> records = [{"electrolyte": "HCl", "series": name} for name in ("A", "B")]
+    >>> [page.count("series &#x27;") for page in report_htmls(records)]
+    [2, 2]
+    """
+    count = len(records)
+    results = [_results(record) for record in records]
+    points = _points_of_many(records)
+    published = _published_of_many(records)
+    derived = _derived_of_many(records)
+    return [_page(records[i], None if figures is None else figures[i],
+                  None if record_names is None else record_names[i],
+                  None if record_sha256s is None else record_sha256s[i],
+                  (results[i], points[i], published[i], derived[i])) for i in range(count)]
+
+
+def _page(record: Mapping[str, Any], figures: Mapping[str, bytes] | None,
+          record_name: str | None, record_sha256: str | None, tables: tuple[str, str, str, str]
+          ) -> str:
+    """One page, its result and its tables of readings, published values and derived
+    properties written already (``tables``, in that order)."""
+    results, points, published, derived = tables
     inputs = record.get("inputs") or [record.get("input") or {}]
     names = ", ".join(_file_name(i.get("file", "")) for i in inputs if i.get("file"))
     kind = "temperature study" if record.get("temperature_study") else "reduction"
@@ -704,12 +873,12 @@ def report_html(record: Mapping[str, Any], figures: Mapping[str, bytes] | None =
         f"<header><h1>{_text(title)}</h1></header>",
         _identification(record, record_name, record_sha256),
         _conditions(record),
-        _results(record),
+        results,
         _study(record),
         _figures(figures),
-        _points(record),
-        _published(record),
-        _derived(record),
+        points,
+        published,
+        derived,
         _budget(record),
         _comparison(record),
         _monte_carlo(record),
