@@ -500,11 +500,11 @@ class _SeriesJob:
         points tables and text reports are made together
         (:func:`~activolt.io.record.build_records`, :func:`~activolt.io.record.points_csvs`,
         :func:`~activolt.report.text.format_reports`), the records written to text together
-        (:func:`~activolt.io.json_layout.json_texts`) and their HTML reports made together
+        (:func:`~activolt.io.json_layout.json_bytes`) and their HTML reports made together
         (:func:`~activolt.report.html.report_htmls`)."""
         import hashlib
 
-        from .io.json_layout import json_texts
+        from .io.json_layout import json_bytes
         from .io.record import build_records, points_csvs
         from .procedures.properties import derive_results_of_many
         from .report.html import report_htmls
@@ -531,7 +531,7 @@ class _SeriesJob:
                 for index, outcome in zip(indices, outcomes, strict=True)]
         kept = [outputs for _done, outputs in made if outputs is not None]
         # written, and named by their hash, as bytes
-        records = [text.encode("utf-8") for text in json_texts([o.document for o in kept])]
+        records = json_bytes([o.document for o in kept])
         pages = report_htmls([o.document for o in kept], [o.figures for o in kept],
                              [f"{o.base}.record.json" for o in kept],
                              [hashlib.sha256(record).hexdigest() for record in records])

@@ -43,7 +43,7 @@ import sys
 import threading
 import unicodedata
 from collections.abc import Callable, Collection, Iterator, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import InputError
@@ -212,7 +212,7 @@ def _fsync_folder(folder: Path) -> None:
             os.close(handle)
 
 
-def write_file(path: Path, data: bytes, mode: int | None) -> None:
+def write_file(path: Path | str, data: bytes, mode: int | None) -> None:
     """Write ``data`` to a new file ``path`` (never an existing one) with permission ``mode``;
     None: a new file's, 0o666 less the umask, set by the creation itself (in a staged folder,
     which only its owner can enter until it is committed).
@@ -221,12 +221,13 @@ def write_file(path: Path, data: bytes, mode: int | None) -> None:
     its files rather than once per file: a set of ten thousand series writes tens of
     thousands of files.
     """
-    handle = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0),
-                     0o600 if mode is not None else 0o666)
+    handle = os.open(path, _NEW_FILE, 0o600 if mode is not None else 0o666)
     try:
-        view = memoryview(data)
-        while view:
-            view = view[os.write(handle, view):]
+        written = os.write(handle, data)
+        if written < len(data):  # rarely: the rest written until all of it is
+            view = memoryview(data)[written:]
+            while view:
+                view = view[os.write(handle, view):]
         if mode is not None and _FCHMOD is not None:  # through the open file: no look-up
             _FCHMOD(handle, mode)
     finally:
@@ -236,6 +237,8 @@ def write_file(path: Path, data: bytes, mode: int | None) -> None:
 
 
 _FCHMOD = getattr(os, "fchmod", None)
+#: How :func:`write_file` opens a file: a new one, for writing bytes.
+_NEW_FILE = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0)
 
 
 def _flush_to_disk(paths: Sequence[Path] | Callable[[], Sequence[Path]],
@@ -454,14 +457,22 @@ class StagedFolder:
     modes : mapping of str to int
         Permission bits of the files of the set that the new ones replace, by name (a new
         file has 0o666 less the umask).
+    prefix : str
+        ``path`` as text, ending with a separator.
     """
 
     path: Path
     modes: Mapping[str, int]
+    #: (a file's name completes it: tens of thousands of files are written without making a
+    #: path object for each)
+    prefix: str = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "prefix", os.path.join(self.path, ""))
 
     def write(self, name: str, content: bytes | str) -> None:
         """Write one file of the set (text as UTF-8); it appears when the set is committed."""
-        write_file(self.path / name, _data(content), self.modes.get(name))
+        write_file(self.prefix + name, _data(content), self.modes.get(name))
 
 
 class OutputTransaction:

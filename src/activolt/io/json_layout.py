@@ -1,12 +1,13 @@
 """The text of a JSON record: one layout for every record kind, written quickly.
 
 :func:`json_text` writes one document; :func:`json_texts` writes several — a batch's records —
-to the same texts byte for byte, walking them together: a place they share is laid out once,
-its scalars written a column at a time and the texts put together by Arrow. The floats of all
-the columns are written by one Arrow cast (its shortest round-trip formatting has ``repr``'s
-digits; where it places them otherwise — integral floats, magnitudes below 10⁻⁴ — they are put
-right), checked against ``repr`` once in each process before first use (``repr`` for every
-float if this pyarrow spells them otherwise), as the standard library's encoder writes them.
+to the same texts byte for byte (:func:`json_bytes`: to their UTF-8 bytes, as files are
+written), walking them together: a place they share is laid out once, its scalars written a
+column at a time and the texts put together by Arrow. The floats of all the columns are written
+by one Arrow cast (its shortest round-trip formatting has ``repr``'s digits; where it places
+them otherwise — integral floats, magnitudes below 10⁻⁴ — they are put right), checked against
+``repr`` once in each process before first use (``repr`` for every float if this pyarrow spells
+them otherwise), as the standard library's encoder writes them.
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ from collections.abc import Callable, Sequence
 from itertools import chain
 from typing import Any
 
-__all__ = ["json_text", "json_texts"]
+__all__ = ["json_bytes", "json_text", "json_texts"]
 
 
 def _not_json(value: Any) -> Any:
@@ -170,10 +171,41 @@ def json_texts(documents: Sequence[Any]) -> list[str]:
     documents = list(documents)
     if len(documents) < _TOGETHER_FROM:
         return list(map(json_text, documents))
+    return _written_together(documents).to_pylist()
+
+
+def json_bytes(documents: Sequence[Any]) -> list[bytes]:
+    """:func:`json_texts` of ``documents`` as UTF-8 bytes (as their files are written), taken
+    from the texts put together without making each a Python string first.
+
+    Raises
+    ------
+    ValueError
+        A non-finite number.
+    TypeError
+        A value JSON cannot hold.
+
+    Examples
+    --------
+    >>> documents = [{"name": "é", "m": [0.1, 2e-05]}] * 16
+    >>> json_bytes(documents) == [text.encode() for text in json_texts(documents)]
+    True
+    """
+    import pyarrow as pa
+
+    documents = list(documents)
+    if len(documents) < _TOGETHER_FROM:
+        return [json_text(document).encode("utf-8") for document in documents]
+    return _written_together(documents).cast(pa.large_binary()).to_pylist()
+
+
+def _written_together(documents: list[Any]) -> Any:
+    """The texts of :func:`json_texts` as an Arrow array of strings, ``documents`` walked
+    together."""
     chunk = _Chunk()
     pieces = chunk.template(documents, "\n")
     chunk.fill()
-    return chunk.joined([*pieces, "\n"], len(documents)).to_pylist()
+    return chunk.joined([*pieces, "\n"], len(documents))
 
 
 #: Below this many documents, :func:`json_texts` writes them one at a time (the calls on
