@@ -619,3 +619,22 @@ def test_pyproject_states_the_license_as_an_spdx_expression():
     assert any(r.replace(" ", "").startswith("setuptools>=") and
                int(r.split(">=")[1].split(".")[0]) >= 77 for r in requires)
     assert any(d.startswith("tqdm") for d in project["project"]["dependencies"])
+
+
+def test_a_staged_file_is_written_whole_when_the_system_writes_part_at_a_time(
+        tmp_path, monkeypatch):
+    real, sizes = os.write, []
+
+    def a_few_bytes(handle, data):
+        sizes.append(len(data))
+        return real(handle, bytes(data[:7]))
+
+    staged = output_files.StagedFolder(tmp_path, {"old.txt": 0o640})
+    monkeypatch.setattr(os, "write", a_few_bytes)
+    staged.write("new.txt", "γ± written in pieces\n" * 3)
+    staged.write("old.txt", b"0123456789" * 5)
+    monkeypatch.undo()
+    assert (tmp_path / "new.txt").read_text("utf-8") == "γ± written in pieces\n" * 3
+    assert (tmp_path / "old.txt").read_bytes() == b"0123456789" * 5
+    assert stat.S_IMODE((tmp_path / "old.txt").stat().st_mode) == 0o640
+    assert len(sizes) > 10

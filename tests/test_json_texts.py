@@ -30,7 +30,7 @@ from hypothesis import strategies as st
 from synthetic import emf_from_gamma
 
 from activolt.data.runs import Exclusion, exclude_points, read_run, read_runs
-from activolt.io.json_layout import json_text, json_texts
+from activolt.io.json_layout import json_bytes, json_text, json_texts
 from activolt.io.record import build_record
 from activolt.procedures.many import series_reducer
 from activolt.procedures.properties import derive_results_of_many
@@ -191,6 +191,20 @@ def test_objects_of_the_same_keys_in_another_order_are_written_in_their_order():
     documents += [{"b": "y", "a": 2.5, "rows": [{"n": True, "m": 0.3}]},
                   {"a": 3.5, "rows": [{"m": 0.4, "n": None}], "b": "z"}]
     assert json_texts(documents) == _each_alone(documents)
+
+
+@settings(max_examples=100, deadline=None)
+@given(_batches())
+def test_bytes_written_together_are_each_text_encoded(documents):
+    assert json_bytes(documents) == [text.encode("utf-8") for text in _each_alone(documents)]
+
+
+def test_bytes_of_a_few_documents_and_of_texts_beyond_ascii():
+    documents = [{"name": "γ± é 😀", "x": [0.1, 2e-05]}, {"name": "\u2028", "x": [3.0, None]}]
+    for count in (0, 2, MANY):
+        written = json_bytes(documents * (count // 2))
+        assert written == [text.encode("utf-8") for text in _each_alone(documents * (count // 2))]
+        assert all(type(data) is bytes for data in written)
 
 
 def test_a_few_documents_are_written_alone():
