@@ -467,8 +467,10 @@ class _Chunk:
             *[_text(part) if isinstance(part, str) else part for part in parts], _text(""))
 
 
+@functools.lru_cache(maxsize=1024)
 def _text(text: str) -> Any:
-    """``text`` as an Arrow scalar of the type of the chunk's columns."""
+    """``text`` as an Arrow scalar of the type of the chunk's columns (remembered: the chunks
+    of a batch share their templates' fixed text)."""
     import pyarrow as pa
 
     return pa.scalar(text, pa.large_string())
