@@ -773,10 +773,19 @@ def _only_name(names: list[Any]) -> str | None:
 def _neutralised(cells: list[Any]) -> list[Any]:
     """:func:`neutralise_formula` of each cell, worked out once for each distinct text (a
     column of text usually repeats one or two)."""
-    if not all(type(cell) is str for cell in cells):
+    if not _all_text(cells):
         return [neutralise_formula(cell) for cell in cells]
     forms = {cell: neutralise_formula(cell) for cell in set(cells)}
     return [forms[cell] for cell in cells]
+
+
+def _all_text(values: Any) -> bool:
+    """Whether every one of ``values`` is a ``str`` (not a subclass): their types gathered in
+    one call (a chunk's text columns are thousands of cells)."""
+    return set(map(type, values)) <= _STR
+
+
+_STR = frozenset({str})
 
 
 def _missing(value: Any) -> bool:
@@ -823,7 +832,7 @@ def _csv_cells(column: Any) -> list[str]:
         if kind in "iub":
             return [str(v) for v in values]
         raise _NotPlainTable
-    if all(type(v) is str for v in column):
+    if _all_text(column):
         return list(column)
     cells = []
     for v in column:
