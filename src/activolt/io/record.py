@@ -287,18 +287,10 @@ def _rows(keys: Any, columns: Any, n_rows: int) -> list[dict[str, Any]]:
         return [{} for _ in range(n_rows)]
     if any(len(column) != n_rows for column in columns) or len(columns) != len(keys):
         raise ValueError("the columns of a table differ in length")
-    if all(type(key) is str for key in keys):
-        return list(map(_row_maker(tuple(keys)), *columns))
-    return [dict(zip(keys, row, strict=True)) for row in zip(*columns, strict=True)]
-
-
-@functools.lru_cache(maxsize=64)
-def _row_maker(keys: tuple[str, ...]) -> Any:
-    """A function of one value per key giving the row with those ``keys``, in order: a dict
-    display, made at once at its size, rather than a dict grown key by key (the rows of a
-    chunk's tables are tens of thousands of dicts)."""
-    display = ", ".join(f"{key!r}: v{i}" for i, key in enumerate(keys))  # keys as literals
-    return eval(f"lambda {', '.join(f'v{i}' for i in range(len(keys)))}: {{{display}}}")
+    # each row a dict of the keys zipped with the row's values, by map rather than a loop
+    # (the rows of a chunk's tables are tens of thousands of dicts)
+    return list(map(dict, map(functools.partial(zip, keys, strict=True),
+                              zip(*columns, strict=True))))
 
 
 #: The keys of each entry of a record's ``published_comparison``, in order.
