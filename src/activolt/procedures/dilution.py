@@ -415,7 +415,7 @@ def _lowers_vapour(run: Run, data: SeriesData) -> bool:
 def _weighs_molality(data: SeriesData) -> bool:
     """Whether u(m) enters the weights (effective variance): stated u(E) and some u(m) > 0."""
     return bool(data.stated_uncertainty and data.u_molality_mol_kg is not None
-                and np.any(data.u_molality_mol_kg > 0))
+                and any(u > 0 for u in data.u_molality_mol_kg.tolist()))
 
 
 def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
@@ -473,8 +473,9 @@ def _fit_request(model: ActivityModel, electrolyte: Electrolyte, data: SeriesDat
     """The request for one fit (FitError when a starting value lies outside its bounds)."""
     names = _names(model)
     start = data.values_array(model, 0.0, values)
-    low, high = _bounds(model, names)
-    if not np.all((start[0] >= low) & (start[0] <= high)):
+    low, high = _bounds_lists(model, names)
+    if not all(lo <= value <= hi for value, lo, hi in zip(start[0].tolist(), low, high,
+                                                           strict=True)):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
                        "value within them")
     return _FitRequest(model, electrolyte, data, values, list(free), start,
@@ -502,6 +503,14 @@ def _bounds(model: ActivityModel, names: tuple[str, ...]) -> tuple[np.ndarray, n
     specs = [parameter_spec(model, name) if name != E0 else None for name in names]
     return (np.array([-math.inf if s is None else s.minimum for s in specs]),
             np.array([math.inf if s is None else s.maximum for s in specs]))
+
+
+@functools.lru_cache(maxsize=64)
+def _bounds_lists(model: ActivityModel, names: tuple[str, ...]
+                  ) -> tuple[list[float], list[float]]:
+    """:func:`_bounds` as lists of floats (to check one start without array calls)."""
+    low, high = _bounds(model, names)
+    return low.tolist(), high.tolist()
 
 
 @functools.lru_cache(maxsize=64)
@@ -848,6 +857,15 @@ def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
 def mean_temperature(temperature_K: np.ndarray) -> float:
     """The mean of the rows' temperatures [K], never outside their range by rounding (18 rows
     at 273.15 K must not average to 273.1499999999999 K, outside liquid water)."""
+    temperature_K = np.ascontiguousarray(temperature_K, dtype=float)
+    return _mean_temperature(temperature_K.shape, temperature_K.tobytes())
+
+
+@functools.lru_cache(maxsize=1024)
+def _mean_temperature(shape: tuple[int, ...], raw: bytes) -> float:
+    """:func:`mean_temperature` of the array of ``shape`` whose float64 values are ``raw``,
+    kept once worked out (the series of a batch are mostly at one temperature)."""
+    temperature_K = np.frombuffer(raw).reshape(shape)
     return float(np.clip(np.mean(temperature_K), temperature_K.min(), temperature_K.max()))
 
 
@@ -1120,7 +1138,7 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
                          f"{_MIN_POINTS} to give E° with an uncertainty", file=str(run.path))
-    solutions = int(np.unique(data.molality).size)
+    solutions = _distinct(data.molality)
     if solutions < 2:
         raise InputError(f"all {n} usable readings are at one molality (m = "
                          f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
@@ -1159,6 +1177,12 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
                   reasons=reasons, free=free, fixed=fixed_values, fixed_u=fixed_u,
                   temperature_K=mean_temperature(temperature), warnings=warnings,
                   solutions=solutions)
+
+
+def _distinct(values: np.ndarray) -> int:
+    """How many distinct values a 1-d array holds, NaNs counted as one (as
+    ``numpy.unique(values).size``)."""
+    return len({value if value == value else math.nan for value in values.tolist()})
 
 
 @dataclass(frozen=True)
