@@ -172,14 +172,14 @@ def _solution_means_of_many(molality: Sequence[npt.ArrayLike],
     for index, m in enumerate(molality):
         groups.setdefault(np.size(m), []).append(index)
     for size, members in groups.items():
-        m = np.stack([np.asarray(molality[i], dtype=float).ravel() for i in members])
+        m = np.array([np.asarray(molality[i], dtype=float).ravel() for i in members])
         if size == 0 or len(members) == 1 or not np.isfinite(m).all():
             for i in members:
                 _, mean, weight = solution_means(molality[i], residual_V[i], weights[i])
                 found[i] = (mean, weight)
             continue
-        w = np.stack([np.asarray(weights[i], dtype=float).ravel() for i in members])
-        r = np.stack([np.asarray(residual_V[i], dtype=float).ravel() for i in members])
+        w = np.array([np.asarray(weights[i], dtype=float).ravel() for i in members])
+        r = np.array([np.asarray(residual_V[i], dtype=float).ravel() for i in members])
         # each reading's solution: how many distinct molalities of its fit lie below it
         order = np.argsort(m, axis=1, kind="stable")
         ordered = np.take_along_axis(m, order, axis=1)

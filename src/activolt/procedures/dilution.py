@@ -415,7 +415,7 @@ def _lowers_vapour(run: Run, data: SeriesData) -> bool:
 def _weighs_molality(data: SeriesData) -> bool:
     """Whether u(m) enters the weights (effective variance): stated u(E) and some u(m) > 0."""
     return bool(data.stated_uncertainty and data.u_molality_mol_kg is not None
-                and any(u > 0 for u in data.u_molality_mol_kg.tolist()))
+                and any(map((0.0).__lt__, data.u_molality_mol_kg.tolist())))
 
 
 def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
@@ -537,8 +537,8 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
             start, mask = first.start, first.mask
         else:
             measurement = _stacked(first.model, first.electrolyte, [r.data for r in chosen])
-            emf = np.stack([r.data.emf_V for r in chosen])
-            weights = np.stack([r.data.weights for r in chosen])
+            emf = np.array([r.data.emf_V for r in chosen])
+            weights = np.array([r.data.weights for r in chosen])
             start = np.concatenate([r.start for r in chosen])
             mask = np.concatenate([r.mask for r in chosen])
         scaled = np.array([not r.data.stated_uncertainty for r in chosen])
@@ -553,9 +553,9 @@ def _stacked(model: ActivityModel, electrolyte: Electrolyte, series: Sequence[Se
              ) -> MeasurementModel:
     """One measurement model of several series of equal length (one model and electrolyte)."""
     return MeasurementModel(
-        model, electrolyte, series[0].sign, np.stack([d.molality for d in series]),
-        np.stack([d.nernst_V for d in series]),
-        DebyeHueckelConstants(*(np.stack([getattr(d.constants, field) for d in series])
+        model, electrolyte, series[0].sign, np.array([d.molality for d in series]),
+        np.array([d.nernst_V for d in series]),
+        DebyeHueckelConstants(*(np.array([getattr(d.constants, field) for d in series])
                                 for field in ("temperature", "aphi", "b"))))
 
 
@@ -824,12 +824,12 @@ def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
     width = max(2, size)
 
     def stacked(name: str) -> np.ndarray:
-        return np.stack([getattr(data, name) for _, data, _ in problems])
+        return np.array([getattr(data, name) for _, data, _ in problems])
 
     molality = stacked("molality")
     use = electrolyte.ionic_strength(molality) <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
     ln_gamma_dh = extended_debye_hueckel(
-        electrolyte, molality, np.stack([data.constants.agamma for _, data, _ in problems]))
+        electrolyte, molality, np.array([data.constants.agamma for _, data, _ in problems]))
     factor = np.array([data.sign * slope for _, data, slope in problems])[:, None]
     y_all = stacked("emf_V") + factor * stacked("nernst_V") * (stacked("ln_mean_molality")
                                                                 + ln_gamma_dh)
@@ -1039,10 +1039,14 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         family = get_model(model)
     except ValueError as error:
         raise InputError(str(error), column="model") from None
+    try:
+        split = _split_fixed(fixed)
+    except InputError:
+        split = None  # (each run's start refuses the held values, as alone)
     starts: list[_Start | FitError | InputError] = []
     for run in runs:
         try:
-            starts.append(_start(run, family, fixed))
+            starts.append(_start(run, family, fixed, split))
         except (FitError, InputError) as error:
             starts.append(error)
     helds = _together([_fit_and_hold(start) if isinstance(start, _Start) else None
@@ -1076,6 +1080,8 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
     assembled = {k: stage for k, stage in enumerate(staged) if isinstance(stage, tuple)}
     points = dict(zip(assembled, _points_columns_of_many(
         [_gamma_inputs(*stage) for stage in assembled.values()]), strict=True))
+    sums = dict(zip(assembled, _sums_of_many([stage[:2] for stage in assembled.values()]),
+                    strict=True))
     results: list[Reduction | FitError | InputError] = []
     for k, stage in enumerate(staged):
         if not isinstance(stage, tuple):
@@ -1084,7 +1090,7 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         start, judged, parts = stage
         try:
             results.append(_assemble(start, judged, parts, remind_model_choice,
-                                     diagnosed.get(k), points[k]))
+                                     diagnosed.get(k), points[k], sums[k]))
         except (FitError, InputError) as error:
             results.append(error)
     # The straight-line cross-checks of all of them together, kept as each reduction's own
@@ -1123,10 +1129,12 @@ class _Start:
     solutions: int
 
 
-def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> _Start:
+def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None,
+           split: tuple[dict[str, float], dict[str, float]] | None = None) -> _Start:
     """Step 1: check the run and the held values, leave out readings beyond the model's range,
-    prepare the readings, and start every parameter at its held or conventional value."""
-    fixed_values, fixed_u = _split_fixed(fixed)
+    prepare the readings, and start every parameter at its held or conventional value
+    (``split``: :func:`_split_fixed` of ``fixed``, when already worked out for a batch)."""
+    fixed_values, fixed_u = _split_fixed(fixed) if split is None else split
     specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
     for name in fixed_values:
         if name not in {p.name for p in specs}:
@@ -1354,22 +1362,23 @@ def _gamma_inputs(start: _Start, judged: _Judged, parts: _Components) -> _GammaI
 
 def _assemble(start: _Start, judged: _Judged, parts: _Components,
               remind_model_choice: bool, diagnosed: PointDiagnostics | None = None,
-              points: tuple[dict[str, np.ndarray], GammaPropagation] | None = None
-              ) -> Reduction:
+              points: tuple[dict[str, np.ndarray], GammaPropagation] | None = None,
+              sums: _Sums | None = None) -> Reduction:
     """Step 5: the points table with γ± and its budget, diagnostics (``diagnosed``: the point
-    diagnostics of the judged fit, and ``points``: its points columns
-    (:func:`_points_columns_of_many`), when already worked out), and the result."""
+    diagnostics of the judged fit, ``points``: its points columns
+    (:func:`_points_columns_of_many`), and ``sums``: its sums over the readings
+    (:func:`_sums_of_many`), when already worked out), and the result."""
     run, family = start.run, start.family
-    electrolyte = run.metadata.electrolyte
     data = judged.data
     fit = dataclasses.replace(judged.fit, covariance=parts.covariance)
+    if sums is None:
+        (sums,) = _sums_of_many([(start, judged)])
     warnings = [*start.warnings, *([judged.warning] if judged.warning else [])]
-    budget = _budget(run, data, fit, judged.sensitivity, parts.type_b, parts.common, judged.birge,
+    budget = _budget(run, data, fit, sums, parts.type_b, parts.common, judged.birge,
                      parts.truncation)
     stats = _statistics(fit, data, judged.birge, judged.birge_dof, judged.chi2_p,
-                        judged.runs_p)
-    if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
-            MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
+                        judged.runs_p, sums.residual_sd_V)
+    if remind_model_choice and sums.max_ionic_strength > MODEL_CHOICE_REMINDER_IONIC_STRENGTH:
         warnings.append(MODEL_CHOICE_REMINDER)
     columns, gamma_propagation = (
         _points_columns_of_many([_gamma_inputs(start, judged, parts)])[0] if points is None
@@ -1482,29 +1491,76 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     return effects
 
 
-def _budget(run: Run, data: SeriesData, fit: _Fit, sensitivity: np.ndarray,
+class _Sums(NamedTuple):
+    """Sums over the readings of a judged fit that its budget and statistics report."""
+
+    #: u(E°) from the readings: stated u(EMF) through the fit, or the scatter about it
+    readings: float
+    #: u(E°) from stated u(m) as effective reading variance; None when no u(m) enters
+    molalities: float | None
+    #: √(Σ r² / ν) [V]
+    residual_sd_V: float
+    #: the largest ionic strength of the readings [mol kg⁻¹]
+    max_ionic_strength: float
+
+
+def _sums_of_many(items: Sequence[tuple[_Start, _Judged]]) -> list[_Sums]:
+    """The :class:`_Sums` of each (start, judged fit), those of one electrolyte, number of
+    readings and kind of weights worked out together (each a sum within one row, so each
+    series' numbers are its own alone)."""
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, (start, judged) in enumerate(items):
+        groups.setdefault((start.run.metadata.electrolyte, judged.data.emf_V.size,
+                           judged.data.stated_uncertainty), []).append(index)
+    found: dict[int, _Sums] = {}
+    for (electrolyte, _, stated), members in groups.items():
+        datas = [items[i][1].data for i in members]
+        fits = [items[i][1].fit for i in members]
+        s_squared = np.array([items[i][1].sensitivity[0] for i in members]) ** 2
+        molalities: list[float | None] = [None] * len(members)
+        if stated:
+            u_squared = np.array([d.u_emf_V for d in datas]) ** 2
+            readings = np.sqrt(np.sum(s_squared * u_squared, axis=1))
+            molality_var = np.maximum(1.0 / np.array([d.weights for d in datas]) - u_squared,
+                                      0.0)
+            some = np.any(molality_var > 0, axis=1)
+            if some.any():
+                values = np.sqrt(np.sum(s_squared * molality_var, axis=1)).tolist()
+                molalities = [v if k else None for v, k in zip(values, some.tolist(),
+                                                                 strict=True)]
+        else:
+            readings = np.sqrt(np.sum(s_squared, axis=1)
+                               * np.array([f.chi2 / f.dof for f in fits]))
+        residual_sd = np.sqrt(np.sum(np.array([f.residual_V for f in fits]) ** 2, axis=1)
+                              / np.array([f.dof for f in fits]))
+        ionic = np.max(electrolyte.ionic_strength(np.array([d.molality for d in datas])),
+                       axis=1)
+        found.update(zip(members, map(_Sums._make, zip(
+            readings.tolist(), molalities, residual_sd.tolist(), ionic.tolist(), strict=True)),
+            strict=True))
+    return [found[index] for index in range(len(items))]
+
+
+def _budget(run: Run, data: SeriesData, fit: _Fit, sums: _Sums,
             type_b: np.ndarray | None, common: list[tuple[str, float, np.ndarray, np.ndarray]],
             birge: float = 1.0, truncation: np.ndarray | None = None
             ) -> tuple[BudgetLine, ...]:
-    """Contributions to u(E°), each as the standard uncertainty it alone gives E°."""
-    s = sensitivity[0]
+    """Contributions to u(E°), each as the standard uncertainty it alone gives E° (``sums``:
+    those of the readings, :func:`_sums_of_many`)."""
     lines = []
     if data.stated_uncertainty:
-        reading = float(np.sqrt(np.sum(s**2 * data.u_emf_V**2)))
-        lines.append(BudgetLine("readings", reading, "stated u(EMF) of each reading, through "
-                                "the fit (linear propagation)" + (
+        lines.append(BudgetLine("readings", sums.readings, "stated u(EMF) of each reading, "
+                                "through the fit (linear propagation)" + (
                                     f", scaled by the Birge ratio {birge:.3g} for lack of fit"
                                     if birge > 1.0 else "")))
-        molality_var = np.maximum(1.0 / data.weights - data.u_emf_V**2, 0.0)
-        if np.any(molality_var > 0):
-            lines.append(BudgetLine("molalities", float(np.sqrt(np.sum(s**2 * molality_var))),
+        if sums.molalities is not None:
+            lines.append(BudgetLine("molalities", sums.molalities,
                                     "stated u(m) as effective reading variance (∂E/∂m)² u²(m)"))
     else:
-        scatter = fit.chi2 / fit.dof
-        lines.append(BudgetLine("readings", float(np.sqrt(np.sum(s**2) * scatter)),
+        lines.append(BudgetLine("readings", sums.readings,
                                 "scatter of the readings about the fit (Type A, covariance "
                                 f"scaled by the reduced χ², {fit.dof} degrees of freedom)"))
-        if np.any(run.arrays["u_molality_mol_kg"] > 0):
+        if any(map((0.0).__lt__, run.arrays["u_molality_mol_kg"].tolist())):
             lines.append(BudgetLine("molalities", 0.0, "with no stated u(EMF) the scatter of "
                                     "the readings already carries u(m)"))
     if type_b is not None:
@@ -1641,13 +1697,13 @@ def _corrections_summary(run: Run, data: SeriesData, temperature_K: float
 
 
 def _statistics(fit: _Fit, data: SeriesData, birge: float, birge_dof: int, chi2_p: float,
-                runs_p: float) -> FitStatistics:
+                runs_p: float, residual_sd_V: float) -> FitStatistics:
     n = len(data.emf_V)
     scaled = not data.stated_uncertainty or birge > 1.0
     return FitStatistics(
         n_points=n, n_free=1 + len(fit.free), dof=fit.dof, chi2=fit.chi2,
         reduced_chi2=fit.chi2 / fit.dof, aic=fit.aic, bic=fit.bic,
-        residual_sd_V=float(math.sqrt(np.sum(fit.residual_V**2) / fit.dof)),
+        residual_sd_V=residual_sd_V,
         covariance_scaled=scaled,
         coverage_factor=student_t_factor(min(fit.dof, birge_dof) if scaled else 0),
         stated_uncertainty=data.stated_uncertainty, birge_ratio=birge, chi2_p_value=chi2_p,
@@ -1734,7 +1790,7 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     n = datas[0].emf_V.size
 
     def stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
-        return np.stack(arrays)
+        return np.array(arrays)
 
     def column(values: Sequence[float]) -> np.ndarray:
         """One number per series as a column, shape (S, 1)."""
