@@ -447,6 +447,10 @@ class _Fit:
     residual_V: np.ndarray
     jacobian: np.ndarray
 
+    def with_covariance(self, covariance: np.ndarray) -> _Fit:
+        """The fit with another covariance (as ``dataclasses.replace``, with less work)."""
+        return _Fit(**{**self.__dict__, "covariance": covariance})
+
 
 @dataclass(frozen=True)
 class _FitRequest:
@@ -1288,7 +1292,7 @@ def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None)
         data = dataclasses.replace(
             data, weights=data.weights / birge**2,
             u_emf_V=None if data.u_emf_V is None else data.u_emf_V * birge)
-        fit = dataclasses.replace(fit, covariance=fit.covariance * birge**2)
+        fit = fit.with_covariance(fit.covariance * birge**2)
         warning = (f"the readings or solutions scatter about the {family.title} more than "
                    + ("their stated u(EMF) allow" if data.stated_uncertainty else
                       "replicate readings of one solution do")
@@ -1370,7 +1374,7 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     (:func:`_sums_of_many`), when already worked out), and the result."""
     run, family = start.run, start.family
     data = judged.data
-    fit = dataclasses.replace(judged.fit, covariance=parts.covariance)
+    fit = judged.fit.with_covariance(parts.covariance)
     if sums is None:
         (sums,) = _sums_of_many([(start, judged)])
     warnings = [*start.warnings, *([judged.warning] if judged.warning else [])]
@@ -1384,9 +1388,9 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
         _points_columns_of_many([_gamma_inputs(start, judged, parts)])[0] if points is None
         else points)
     diagnostics, stand_out = _diagnose(run, data, fit, diagnosed)
-    point_columns = {**columns, **diagnostics}
-    for column in point_columns.values():
+    for column in diagnostics.values():  # (the points columns are read-only already)
         column.flags.writeable = False
+    point_columns = {**columns, **diagnostics}
     warnings += stand_out
     reasons = judged.held.reasons
     parameters = tuple(
@@ -1871,13 +1875,16 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     every_row = rows == n  # (then every row is usable)
 
     def full(values: np.ndarray | None) -> np.ndarray:
-        """Columns over every row of each run: the values at the usable rows, NaN elsewhere."""
+        """Columns over every row of each run: the values at the usable rows, NaN elsewhere
+        (read-only, and so each series' row of them)."""
         if values is not None and every_row:
-            return values.copy()
-        out = np.full((len(items), rows), np.nan)
-        if values is not None:
-            for k, mask in enumerate(masks):
-                out[k, mask] = values[k]
+            out = values.copy()
+        else:
+            out = np.full((len(items), rows), np.nan)
+            if values is not None:
+                for k, mask in enumerate(masks):
+                    out[k, mask] = values[k]
+        out.flags.writeable = False
         return out
 
     def optional(arrays: Sequence[np.ndarray | None]) -> np.ndarray | None:
