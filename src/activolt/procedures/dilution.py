@@ -63,6 +63,7 @@ from ..fit.uncertainty import (
     ln_gamma_covariance,
     ln_gamma_variance,
     sensitivity_coefficients,
+    sensitivity_matrices,
     sensitivity_matrix,
     student_t_factor,
 )
@@ -1062,7 +1063,8 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         *zip(*map(_lack_of_fit_arguments, held_fits), strict=True)) if held_fits else [],
         strict=True))
     staged: list[tuple[_Start, _Judged, _Components] | FitError | InputError] = []
-    for start, held in zip(starts, helds, strict=True):
+    judged_runs: dict[int, tuple[_Start, _Judged]] = {}
+    for k, (start, held) in enumerate(zip(starts, helds, strict=True)):
         if not isinstance(start, _Start):
             staged.append(start)
         elif not isinstance(held, _Held):
@@ -1070,10 +1072,23 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
             staged.append(held)
         else:
             try:
-                judged = _judge(held, start.family, verdicts[id(held)])
-                staged.append((start, judged, _covariance_components(judged, start)))
+                judged_runs[k] = (start, _judge(held, start.family, verdicts[id(held)]))
             except (FitError, InputError) as error:
                 staged.append(error)
+            else:
+                staged.append(FitError(""))  # (its place, staged below)
+    # The sensitivity matrices of all the judged fits together, kept as each one's own (the
+    # slot of its cached property, which a fit judged alone fills when first read).
+    judged_fits = [judged for _, judged in judged_runs.values()]
+    for judged, sensitivity in zip(judged_fits, sensitivity_matrices(
+            [judged.fit.jacobian for judged in judged_fits],
+            [judged.data.weights for judged in judged_fits]), strict=True):
+        judged.__dict__["sensitivity"] = sensitivity
+    for k, (start, judged) in judged_runs.items():
+        try:
+            staged[k] = (start, judged, _covariance_components(judged, start))
+        except (FitError, InputError) as error:
+            staged[k] = error
     judged_fits = {k: stage[1] for k, stage in enumerate(staged)
                    if isinstance(stage, tuple) and _diagnosable(stage[1].data, stage[1].fit)}
     diagnosed = dict(zip(judged_fits, point_diagnostics_of_many(
@@ -1275,8 +1290,11 @@ class _Judged:
     chi2_p: float
     runs_p: float
     warning: str | None
-    #: S = (JᵀWJ)⁻¹JᵀW of the final fit (with the final weights), P × N
-    sensitivity: np.ndarray
+
+    @functools.cached_property
+    def sensitivity(self) -> np.ndarray:
+        """S = (JᵀWJ)⁻¹JᵀW of the final fit (with the final weights), P × N."""
+        return sensitivity_matrix(self.fit.jacobian, self.data.weights)
 
 
 def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None) -> _Judged:
@@ -1298,8 +1316,7 @@ def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None)
                       "replicate readings of one solution do")
                    + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
     return _Judged(held=held, data=data, fit=fit, birge=birge, birge_dof=birge_dof,
-                   chi2_p=chi2_p, runs_p=runs_p, warning=warning,
-                   sensitivity=sensitivity_matrix(fit.jacobian, data.weights))
+                   chi2_p=chi2_p, runs_p=runs_p, warning=warning)
 
 
 @dataclass(frozen=True)
