@@ -850,13 +850,14 @@ def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
     distinct = (np.count_nonzero(steps & np.isfinite(ordered[:, 1:]), axis=1)
                 + np.isfinite(ordered[:, 0]))
     lines = straight_lines(m, y, w, scale)
+    found = (distinct >= 3) & lines.determined
     return [LinearExtrapolation(
-        standard_potential_V=float(lines.values[row, 0]),
-        u_standard_potential_V=float(math.sqrt(lines.covariance[row, 0, 0])),
-        slope_V_kg_mol=float(lines.values[row, 1]), n_points=int(lines.points[row]),
-        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH)
-        if distinct[row] >= 3 and lines.determined[row] else None
-        for row in range(len(problems))]
+        standard_potential_V=e0, u_standard_potential_V=math.sqrt(variance),
+        slope_V_kg_mol=slope, n_points=int(points),
+        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH) if ok else None
+        for (e0, slope), variance, points, ok in zip(
+            lines.values[:, :2].tolist(), lines.covariance[:, 0, 0].tolist(),
+            lines.points.tolist(), found.tolist(), strict=True)]
 
 
 def mean_temperature(temperature_K: np.ndarray) -> float:
@@ -1635,10 +1636,10 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit, found: PointDiagnostics | N
             full[name] = np.full(used.size, np.nan)
             full[name][used] = values
     diagnostic = np.full(used.size, None, dtype=object)
-    diagnostic[used] = np.array(found.flags, dtype=object)
     full["diagnostic"] = diagnostic
     if all(flag is None for flag in found.flags):
         return full, []
+    diagnostic[used] = np.array(found.flags, dtype=object)
     molality, lines = run.arrays["molality_mol_kg"], run.arrays["line"]
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
