@@ -1631,7 +1631,7 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit, found: PointDiagnostics | N
     every_row = len(found.flags) == used.size  # (every row used: the columns as they are)
     for name, values in columns.items():
         if every_row:
-            full[name] = np.array(values, dtype=float)
+            full[name] = np.asarray(values, dtype=float)  # (its own: made for this fit)
         else:
             full[name] = np.full(used.size, np.nan)
             full[name][used] = values
