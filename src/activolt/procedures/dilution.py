@@ -1050,9 +1050,9 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
     except InputError:
         split = None  # (each run's start refuses the held values, as alone)
     starts: list[_Start | FitError | InputError] = []
-    for run in runs:
+    for run, prepared in zip(runs, _prepared_of_many(runs), strict=True):
         try:
-            starts.append(_start(run, family, fixed, split))
+            starts.append(_start(run, family, fixed, split, prepared))
         except (FitError, InputError) as error:
             starts.append(error)
     helds = _together([_fit_and_hold(start) if isinstance(start, _Start) else None
@@ -1150,18 +1150,20 @@ class _Start:
 
 
 def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None,
-           split: tuple[dict[str, float], dict[str, float]] | None = None) -> _Start:
+           split: tuple[dict[str, float], dict[str, float]] | None = None,
+           prepared: SeriesData | None = None) -> _Start:
     """Step 1: check the run and the held values, leave out readings beyond the model's range,
     prepare the readings, and start every parameter at its held or conventional value
-    (``split``: :func:`_split_fixed` of ``fixed``, when already worked out for a batch)."""
+    (``split``: :func:`_split_fixed` of ``fixed``, and ``prepared``: the run's readings
+    prepared (:func:`_prepared_of_many`), when already worked out for a batch)."""
     fixed_values, fixed_u = _split_fixed(fixed) if split is None else split
     specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
     for name in fixed_values:
         if name not in {p.name for p in specs}:
             raise InputError(f"model '{family.name}' has no parameter '{name}'; it has: "
                              f"{', '.join(p.name for p in specs) or 'none'}", column="fixed")
-    run, range_warning = _within_range(run, family)
-    data = prepare_series(run)
+    read, (run, range_warning) = run, _within_range(run, family)
+    data = prepared if prepared is not None and run is read else prepare_series(run)
     n = len(data.emf_V)
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
@@ -1205,6 +1207,42 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None,
                   reasons=reasons, free=free, fixed=fixed_values, fixed_u=fixed_u,
                   temperature_K=mean_temperature(temperature), warnings=warnings,
                   solutions=solutions)
+
+
+def _prepared_of_many(runs: Sequence[Run]) -> list[SeriesData | None]:
+    """:func:`~activolt.fit.problem.prepare_series` of the runs that use every row and need no
+    gas correction, those of one length, electrolyte, number of electrons and kind of u(EMF)
+    in the same array operations (each run's readings a row of them, its numbers as alone);
+    None for the others, which :func:`_start` prepares alone."""
+    found: list[SeriesData | None] = [None] * len(runs)
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, run in enumerate(runs):
+        meta = run.metadata
+        if not meta.gas_coefficients and meta.electrons >= 1 and run.usable.all():
+            groups.setdefault((run.usable.size, meta.electrolyte, meta.electrons,
+                               run.emf_uncertainty_given), []).append(index)
+    for (size, electrolyte, electrons, stated), members in groups.items():
+        if len(members) == 1:
+            continue
+
+        def rows(name: str, members: list[int] = members) -> np.ndarray:
+            return np.array([runs[i].arrays[name] for i in members])
+
+        molality, temperature = rows("molality_mol_kg"), rows("temperature_K")
+        emf, u_molality = rows("emf_V"), rows("u_molality_mol_kg")
+        u = rows("u_emf_V") if stated else np.ones((len(members), size))
+        weights = 1.0 / u**2
+        nernst = nernst_factor(electrolyte, electrons, temperature)
+        ln_mean_molality = np.log(electrolyte.mean_molality(molality))
+        for k, i in enumerate(members):
+            meta = runs[i].metadata
+            found[i] = SeriesData(
+                molality=molality[k], emf_V=emf[k], weights=weights[k], nernst_V=nernst[k],
+                ln_mean_molality=ln_mean_molality[k],
+                constants=debye_hueckel_constants(temperature[k]), stated_uncertainty=stated,
+                sign=meta.electrolyte_sign, slope=meta.slope_factor,
+                u_emf_V=u[k] if stated else None, u_molality_mol_kg=u_molality[k])
+    return found
 
 
 def _distinct(values: np.ndarray) -> int:
