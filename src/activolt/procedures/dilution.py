@@ -463,7 +463,7 @@ class _FitRequest:
     data: SeriesData
     values: dict[str, float]
     free: list[str]
-    start: np.ndarray
+    start: tuple[float, ...]
     mask: np.ndarray
 
     @property
@@ -477,10 +477,9 @@ def _fit_request(model: ActivityModel, electrolyte: Electrolyte, data: SeriesDat
                  values: dict[str, float], free: list[str]) -> _FitRequest:
     """The request for one fit (FitError when a starting value lies outside its bounds)."""
     names = _names(model)
-    start = data.values_array(model, 0.0, values)
+    start = data.values_row(model, 0.0, values)
     low, high = _bounds_lists(model, names)
-    if not all(lo <= value <= hi for value, lo, hi in zip(start[0].tolist(), low, high,
-                                                           strict=True)):
+    if not all(lo <= value <= hi for value, lo, hi in zip(start, low, high, strict=True)):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
                        "value within them")
     return _FitRequest(model, electrolyte, data, values, list(free), start,
@@ -539,12 +538,12 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
         if len(chosen) == 1:
             measurement = first.data.measurement_model(first.model, first.electrolyte)
             emf, weights = first.data.emf_V[None, :], first.data.weights[None, :]
-            start, mask = first.start, first.mask
+            start, mask = np.array([first.start]), first.mask
         else:
             measurement = _stacked(first.model, first.electrolyte, [r.data for r in chosen])
             emf = np.array([r.data.emf_V for r in chosen])
             weights = np.array([r.data.weights for r in chosen])
-            start = np.concatenate([r.start for r in chosen])
+            start = np.array([r.start for r in chosen])
             mask = np.concatenate([r.mask for r in chosen])
         scaled = np.array([not r.data.stated_uncertainty for r in chosen])
         batch = solve(measurement, emf, weights, start, mask, _linear(first.model, names),
