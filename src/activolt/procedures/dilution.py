@@ -1448,13 +1448,12 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     point_columns = {**columns, **diagnostics}
     warnings += stand_out
     reasons = judged.held.reasons
+    variances = dict(zip(fit.free, np.diagonal(fit.covariance)[1:].tolist(), strict=True))
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
-            uncertainty=(math.sqrt(fit.covariance[fit.free.index(p.name) + 1,
-                                                   fit.free.index(p.name) + 1])
-                         if p.name in fit.free else math.nan),
-            fixed=p.name not in fit.free, reason=reasons.get(p.name),
+            uncertainty=(math.sqrt(variances[p.name]) if p.name in variances else math.nan),
+            fixed=p.name not in variances, reason=reasons.get(p.name),
         )
         for p in start.specs
     )
