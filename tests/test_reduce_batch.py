@@ -283,6 +283,34 @@ def test_weighed_series_at_spread_temperatures_reduce_bit_for_bit_as_alone(seed)
     assert "molalities" in lines
 
 
+def test_the_budget_and_statistics_of_a_chunk_follow_their_formulas_per_series():
+    """u(E°) from the readings and from u(m), and the residual s.d., as the per-series
+    formulas give them (Σ over one series' readings), to the last bit."""
+    runs = [*_weighed_runs(2), *_varied_runs(4)]
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        together = [r for r in reduce_runs(runs, "hueckel") if isinstance(r, Reduction)]
+    checked = set()
+    for reduction in together:
+        data, lines = reduction.data, {line.component: line for line in reduction.budget}
+        s = reduction.gamma_propagation.sensitivity[0]
+        stats = reduction.statistics
+        if data.stated_uncertainty:
+            expected = float(np.sqrt(np.sum(s**2 * data.u_emf_V**2)))
+            molality_var = np.maximum(1.0 / data.weights - data.u_emf_V**2, 0.0)
+            if np.any(molality_var > 0):
+                assert repr(lines["molalities"].u_V) == repr(
+                    float(np.sqrt(np.sum(s**2 * molality_var))))
+                checked.add("molalities")
+        else:
+            expected = float(np.sqrt(np.sum(s**2) * (stats.chi2 / stats.dof)))
+        assert repr(lines["readings"].u_V) == repr(expected)
+        residual = reduction.point_columns["residual_V"][reduction.run.usable]
+        assert repr(stats.residual_sd_V) == repr(
+            float(math.sqrt(np.sum(residual**2) / stats.dof)))
+        checked.add(data.stated_uncertainty)
+    assert checked == {"molalities", True, False}
+
+
 @given(st.lists(st.floats(allow_nan=True, allow_infinity=False, width=64), min_size=1,
                 max_size=40))
 def test_the_kept_mean_is_numpy_s(values):
