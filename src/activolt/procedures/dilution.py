@@ -435,8 +435,7 @@ def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, dat
     return dataclasses.replace(data, weights=1.0 / variance)
 
 
-@dataclass(frozen=True)
-class _Fit:
+class _Fit(NamedTuple):
     e0: float
     values: dict[str, float]
     free: list[str]
@@ -449,12 +448,11 @@ class _Fit:
     jacobian: np.ndarray
 
     def with_covariance(self, covariance: np.ndarray) -> _Fit:
-        """The fit with another covariance (as ``dataclasses.replace``, with less work)."""
-        return _Fit(**{**self.__dict__, "covariance": covariance})
+        """The fit with another covariance."""
+        return self._replace(covariance=covariance)
 
 
-@dataclass(frozen=True)
-class _FitRequest:
+class _FitRequest(NamedTuple):
     """One weighted fit of E° and the ``free`` parameters, the others held at ``values``, as
     the engine takes it (a batch of one); :func:`_solve_requests` solves many at once."""
 
@@ -1129,8 +1127,7 @@ def _finish(start: _Start, held: _Held, remind_model_choice: bool) -> Reduction:
     return _assemble(start, judged, _covariance_components(judged, start), remind_model_choice)
 
 
-@dataclass(frozen=True)
-class _Start:
+class _Start(NamedTuple):
     """The run checked and prepared, and where each parameter starts."""
 
     run: Run
@@ -1250,8 +1247,7 @@ def _distinct(values: np.ndarray) -> int:
     return len({value if value == value else math.nan for value in values.tolist()})
 
 
-@dataclass(frozen=True)
-class _Held:
+class _Held(NamedTuple):
     """The fit after holding what the data cannot determine."""
 
     data: SeriesData
@@ -1357,8 +1353,7 @@ def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None)
                    chi2_p=chi2_p, runs_p=runs_p, warning=warning)
 
 
-@dataclass(frozen=True)
-class _Components:
+class _Components(NamedTuple):
     """What the covariance of (E°, free parameters) is made of, and the total."""
 
     covariance: np.ndarray
