@@ -580,25 +580,26 @@ def _fits_from(requests: Sequence[_FitRequest], result: BatchFit) -> list[_Fit |
             np.swapaxes(result.jacobian[picked][:, :, order], 1, 2)).transpose(0, 2, 1)
         estimable = (np.isfinite(covariances).all(axis=(1, 2))
                      & (np.diagonal(covariances, axis1=1, axis2=2) > 0.0).all(axis=1)).tolist()
-        values, chi2s, dofs = (result.values[picked].tolist(), result.chi2[picked].tolist(),
-                               result.dof[picked].tolist())
+        values, chi2s, dofs, converged = (
+            result.values[picked].tolist(), result.chi2[picked].tolist(),
+            result.dof[picked].tolist(), result.converged[picked].tolist())
         columns = [names.index(name) for name in free]
         for k, row in enumerate(rows):
-            out[row] = _fit_of(requests[row], result, row, values[k], columns, covariances[k],
-                               estimable[k], chi2s[k], dofs[k], jacobians[k])
+            out[row] = (_fit_of(requests[row], result, row, values[k], columns, covariances[k],
+                                estimable[k], chi2s[k], dofs[k], jacobians[k])
+                        if converged[k] else
+                        FitError(f"{result.failures[row]}; hold a parameter at a given value"))
     return [fit for fit in out if fit is not None]
 
 
 def _fit_of(request: _FitRequest, result: BatchFit, row: int, values: list[float],
             columns: list[int], covariance: np.ndarray, estimable: bool, chi2: float, dof: int,
             jacobian: np.ndarray) -> _Fit | FitError:
-    """The fit of one request from row ``row`` of the engine's batch (its values, the
+    """The fit of one converged request from row ``row`` of the engine's batch (its values, the
     positions of its free parameters among them, its covariance and Jacobian over E° and
     those, whether that covariance is finite with a positive diagonal, χ² and ν), or the
     FitError that refuses it."""
     model, data, free = request.model, request.data, request.free
-    if not result.converged[row]:
-        return FitError(f"{result.failures[row]}; hold a parameter at a given value")
     fitted = {**request.values,
               **{name: values[column] for name, column in zip(free, columns, strict=True)}}
     if not estimable and not any(_at_bound(parameter_spec(model, name), fitted[name])
@@ -1443,7 +1444,7 @@ def _assemble(start: _Start, judged: _Judged, parts: _Components,
     point_columns = {**columns, **diagnostics}
     warnings += stand_out
     reasons = judged.held.reasons
-    variances = dict(zip(fit.free, np.diagonal(fit.covariance)[1:].tolist(), strict=True))
+    variances = dict(zip(fit.free, fit.covariance.diagonal()[1:].tolist(), strict=True))
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
@@ -1953,13 +1954,15 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
            for name, variance in budget.items()},
     }
     out = []
+    rows_of = {name: list(values) for name, values in columns.items()}  # (each series' row)
+    with_molalities, reading_gradient = molality_rows.tolist(), -scale
     for k, item in enumerate(items):
         extra = tuple(d_u[k] for d_u in common_parts) + (
             () if left_out is None else (left_out[k],))
-        out.append(({name: values[k] for name, values in columns.items()
-                     if name != "u_gamma_pm_molalities" or molality_rows[k]},
-                    GammaPropagation(parameter_gradient[k], -scale[k], item.sensitivity,
-                                     reading_var[k], item.type_b, extra)))
+        out.append(({name: values[k] for name, values in rows_of.items()
+                     if name != "u_gamma_pm_molalities" or with_molalities[k]},
+                    GammaPropagation(parameter_gradient[k], reading_gradient[k],
+                                     item.sensitivity, reading_var[k], item.type_b, extra)))
     return out
 
 
