@@ -1843,29 +1843,26 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     fits = [item.fit for item in items]
     n = datas[0].emf_V.size
 
-    def stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
-        return np.array(arrays)
-
     def column(values: Sequence[float]) -> np.ndarray:
         """One number per series as a column, shape (S, 1)."""
         return np.array(values, dtype=float)[:, None]
 
-    emf = stacked([d.emf_V for d in datas])
-    nernst = stacked([d.nernst_V for d in datas])
-    sensitivity = stacked([item.sensitivity for item in items])
-    reading_var = (1.0 / stacked([d.weights for d in datas]) if stated
+    emf = np.array([d.emf_V for d in datas])
+    nernst = np.array([d.nernst_V for d in datas])
+    sensitivity = np.array([item.sensitivity for item in items])
+    reading_var = (1.0 / np.array([d.weights for d in datas]) if stated
                    else np.repeat(column([f.chi2 / f.dof for f in fits]), n, axis=1))
 
     # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
     slope = column([f.values.get(SLOPE, d.slope) for f, d in zip(fits, datas, strict=True)])
     e0 = column([f.e0 for f in fits])
     scale = first.data.sign / (slope * nernst)
-    ln_gamma = (e0 - emf) * scale - stacked([d.ln_mean_molality for d in datas])
+    ln_gamma = (e0 - emf) * scale - np.array([d.ln_mean_molality for d in datas])
     parameter_gradient = np.zeros((len(items), n, 1 + len(free)))
     parameter_gradient[:, :, 0] = scale
     if SLOPE in free:
         parameter_gradient[:, :, 1 + free.index(SLOPE)] = -(e0 - emf) * scale / slope
-    type_b = None if first.type_b is None else stacked([item.type_b for item in items])
+    type_b = None if first.type_b is None else np.array([item.type_b for item in items])
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     def part(variance: np.ndarray, with_type_b: bool = False) -> np.ndarray:
@@ -1876,7 +1873,7 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     budget: dict[str, np.ndarray] = {}
     molality_rows = np.zeros(len(items), dtype=bool)  # the series with a "molalities" part
     if stated:
-        u_emf_squared = stacked([d.u_emf_V for d in datas]) ** 2
+        u_emf_squared = np.array([d.u_emf_V for d in datas]) ** 2
         budget["readings"] = part(u_emf_squared)
         molality_var = np.maximum(reading_var - u_emf_squared, 0.0)
         molality_rows = np.any(molality_var > 0, axis=1)
@@ -1889,13 +1886,13 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
                                           parameter_gradient)
     left_out = None
     if first.truncation is not None:
-        truncation = stacked([item.truncation for item in items])
+        truncation = np.array([item.truncation for item in items])
         left_out = np.matmul(parameter_gradient, truncation[:, :, None])[:, :, 0]
         budget["left-out terms"] = left_out**2
         var_ln = var_ln + budget["left-out terms"]
     common_parts = []
     for position, (name, *_) in enumerate(first.common):
-        d_u = (stacked([item.common[position][3] for item in items])
+        d_u = (np.array([item.common[position][3] for item in items])
                * column([item.common[position][1] for item in items]))
         var_ln = var_ln + d_u**2
         budget[_COMMON_COLUMNS[name]] = d_u**2
@@ -1904,8 +1901,8 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     u_gamma = gamma * np.sqrt(var_ln)
 
     # Model γ± and its uncertainty from the parameter covariance.
-    molality = stacked([d.molality for d in datas])
-    constants = DebyeHueckelConstants(*(stacked([getattr(d.constants, name) for d in datas])
+    molality = np.array([d.molality for d in datas])
+    constants = DebyeHueckelConstants(*(np.array([getattr(d.constants, name) for d in datas])
                                         for name in ("temperature", "aphi", "b")))
     model_values = {name: column([f.values[name] for f in fits])
                     for name in model.parameter_names}
@@ -1917,7 +1914,7 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
         lambda v: model.ln_gamma(electrolyte, molality, constants, v), model_values,
         [uncertain_names[index] for index in in_model])
     var_model = np.einsum("...ij,...jk,...ik->...i", grad,
-                          stacked([item.uncertain_covariance for item in items]), grad)
+                          np.array([item.uncertain_covariance for item in items]), grad)
     gamma_model = np.exp(ln_gamma_model)
 
     rows = first.run.usable.size
@@ -1938,13 +1935,13 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
         return out
 
     def optional(arrays: Sequence[np.ndarray | None]) -> np.ndarray | None:
-        return None if arrays[0] is None else stacked(arrays)
+        return None if arrays[0] is None else np.array(arrays)
 
     columns = {
         "pressure_correction_V": full(optional([d.correction_V for d in datas])),
         "gas_pressure_Pa": full(optional([d.gas_pressure_Pa for d in datas])),
-        "fitted_emf_V": full(emf - stacked([f.residual_V for f in fits])),
-        "residual_V": full(stacked([f.residual_V for f in fits])),
+        "fitted_emf_V": full(emf - np.array([f.residual_V for f in fits])),
+        "residual_V": full(np.array([f.residual_V for f in fits])),
         "ln_gamma_pm": full(ln_gamma),
         "gamma_pm": full(gamma),
         "u_gamma_pm": full(u_gamma),
