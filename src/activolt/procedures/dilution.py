@@ -1231,12 +1231,16 @@ def _prepared_of_many(runs: Sequence[Run]) -> list[SeriesData | None]:
         weights = 1.0 / u**2
         nernst = nernst_factor(electrolyte, electrons, temperature)
         ln_mean_molality = np.log(electrolyte.mean_molality(molality))
+        constants: dict[bytes, DebyeHueckelConstants] = {}  # (by the temperatures' bytes)
         for k, i in enumerate(members):
             meta = runs[i].metadata
+            at = temperature[k].tobytes()
+            if at not in constants:
+                constants[at] = debye_hueckel_constants(temperature[k])
             found[i] = SeriesData(
                 molality=molality[k], emf_V=emf[k], weights=weights[k], nernst_V=nernst[k],
                 ln_mean_molality=ln_mean_molality[k],
-                constants=debye_hueckel_constants(temperature[k]), stated_uncertainty=stated,
+                constants=constants[at], stated_uncertainty=stated,
                 sign=meta.electrolyte_sign, slope=meta.slope_factor,
                 u_emf_V=u[k] if stated else None, u_molality_mol_kg=u_molality[k])
     return found
