@@ -19,7 +19,11 @@ from synthetic import emf_from_gamma, write_run
 from activolt.activity.hueckel import ln_gamma
 from activolt.chemistry.electrolytes import nernst_factor, parse_electrolyte
 from activolt.data.runs import read_run
-from activolt.fit.uncertainty import ln_gamma_covariance, student_t_factor
+from activolt.fit.uncertainty import (
+    ln_gamma_covariance,
+    sensitivity_matrices,
+    student_t_factor,
+)
 from activolt.physics.water import debye_hueckel_constants
 from activolt.procedures.dilution import reduce_run, sensitivity_matrix
 
@@ -180,3 +184,31 @@ def test_u_gamma_is_the_diagonal_of_the_full_covariance(tmp_path):
     np.testing.assert_allclose(np.sqrt(np.diag(full)),
                                reduction.points.loc[used, "u_gamma_pm"], rtol=1e-10)
     assert full.shape == (MOLALITY.size, MOLALITY.size)
+
+
+def _layout(array: np.ndarray) -> tuple[bool, bool, bytes]:
+    return array.flags.c_contiguous, array.flags.f_contiguous, array.tobytes()
+
+
+def test_sensitivity_matrices_equal_each_alone_bit_for_bit():
+    """Jacobians laid out row-major, column-major (as the engine gives them) and strided, of
+    several shapes and scales, weights from 1 to 10¹⁰: each S as sensitivity_matrix gives it
+    alone, memory order too."""
+    rng = np.random.default_rng(21)
+    jacobians, weights = [], []
+    for k in range(300):
+        n, p = [(15, 3), (15, 2), (6, 4), (40, 3)][k % 4]
+        j = rng.standard_normal((n, p)) * 10.0 ** rng.integers(-6, 6, size=p)
+        if k % 3 == 1:
+            j = np.asfortranarray(j)
+        elif k % 7 == 2:
+            j = np.repeat(j, 2, axis=0)[::2]  # (neither row- nor column-major)
+        jacobians.append(j)
+        weights.append(10.0 ** rng.uniform(0.0, 10.0, n) if k % 2 else np.ones(n))
+    together = sensitivity_matrices(jacobians, weights)
+    alone = [sensitivity_matrix(j, w) for j, w in zip(jacobians, weights, strict=True)]
+    assert [_layout(s) for s in together] == [_layout(s) for s in alone]
+    # (the comparison can fail: one unit in the last place apart)
+    changed = alone[0].copy()
+    changed[0, 0] = np.nextafter(changed[0, 0], np.inf)
+    assert _layout(changed) != _layout(together[0])

@@ -134,3 +134,22 @@ def checked_values(model: str, names: tuple[str, ...],
         problem = f"unknown: {', '.join(unknown)}" if unknown else f"missing: {', '.join(missing)}"
         raise ValueError(f"model '{model}' parameters {problem}; valid names: {', '.join(names)}")
     return {name: np.asarray(parameters[name], dtype=float) for name in names}
+
+
+def mean_of(values: np.ndarray) -> float:
+    """``float(numpy.mean(values))``, kept once worked out for arrays of equal shape and values
+    (the constants of the series of a batch measured at one temperature are equal).
+
+    Examples
+    --------
+    >>> mean_of(np.array([298.15, 298.15, 298.16])) == float(np.mean([298.15, 298.15, 298.16]))
+    True
+    """
+    values = np.ascontiguousarray(values, dtype=float)
+    return _mean_of_bytes(values.shape, values.tobytes())
+
+
+@functools.lru_cache(maxsize=1024)
+def _mean_of_bytes(shape: tuple[int, ...], raw: bytes) -> float:
+    """:func:`mean_of` of the array of ``shape`` whose float64 values are ``raw``."""
+    return float(np.mean(np.frombuffer(raw).reshape(shape)))

@@ -20,7 +20,7 @@ import numpy.typing as npt
 
 from ..chemistry.electrolytes import Electrolyte
 from ..physics.water import DebyeHueckelConstants
-from .base import ActivityModel, Parameter
+from .base import ActivityModel, Parameter, mean_of
 
 #: Bates–Guggenheim convention, Bå = 1.5 kg^½ mol^-½ (IUPAC Gold Book).
 BATES_GUGGENHEIM_BA = 1.5
@@ -120,11 +120,11 @@ def osmotic_coefficient(
 
 
 def _bates_guggenheim_a(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
-    return float(BATES_GUGGENHEIM_BA / np.mean(constants.b))
+    return BATES_GUGGENHEIM_BA / mean_of(constants.b)
 
 
 def _bates_guggenheim_u_a(electrolyte: Electrolyte, constants: DebyeHueckelConstants) -> float:
-    return float(BATES_GUGGENHEIM_BA_UNCERTAINTY / np.mean(constants.b))
+    return BATES_GUGGENHEIM_BA_UNCERTAINTY / mean_of(constants.b)
 
 
 MODEL = ActivityModel(

@@ -459,9 +459,9 @@ def point_diagnostics_of_many(jacobians: Sequence[npt.ArrayLike],
                     and all(np.shape(weights[i]) == (n,) == np.shape(residuals[i])
                             for i in members))
         if together:
-            j = np.stack([np.asarray(jacobians[i], dtype=float) for i in members])
-            w = np.stack([np.asarray(weights[i], dtype=float) for i in members])
-            r = np.stack([np.asarray(residuals[i], dtype=float) for i in members])
+            j = np.array([np.asarray(jacobians[i], dtype=float) for i in members])
+            w = np.array([np.asarray(weights[i], dtype=float) for i in members])
+            r = np.array([np.asarray(residuals[i], dtype=float) for i in members])
             together = bool(np.isfinite(j).all() and np.isfinite(w).all() and (w > 0.0).all()
                             and np.isfinite(r).all())
         if not together:
@@ -668,7 +668,7 @@ def _stacked_rows(sequences: Sequence[npt.ArrayLike]
         groups.setdefault(x.size, []).append(index)
     out: list[tuple[list[int], np.ndarray | None]] = []
     for size, members in groups.items():
-        x = np.stack([arrays[i] for i in members]) if size else None
+        x = np.array([arrays[i] for i in members]) if size else None
         out.append((members, x if x is not None and np.isfinite(x).all() else None))
     return out
 

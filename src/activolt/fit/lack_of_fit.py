@@ -153,33 +153,33 @@ def judge_lack_of_fit_of_many(molality: Sequence[npt.ArrayLike],
     """
     means = _solution_means_of_many(molality, residual_V, weights)
     sizes = [np.size(m) for m in molality]
-    runs = runs_tests([mean for mean, _ in means])
-    serial = serial_correlation_tests([mean * np.sqrt(weight) for mean, weight in means])
+    runs = runs_tests([mean for mean, _, _ in means])
+    serial = serial_correlation_tests([scaled for _, _, scaled in means])
     return [_verdict(*arguments) for arguments in zip(
-        sizes, [mean for mean, _ in means], [weight for _, weight in means], runs, serial,
+        sizes, [mean for mean, _, _ in means], [weight for _, weight, _ in means], runs, serial,
         chi2, dof, n_free, stated_uncertainty, strict=True)]
 
 
 def _solution_means_of_many(molality: Sequence[npt.ArrayLike],
                             residual_V: Sequence[npt.ArrayLike],
                             weights: Sequence[npt.ArrayLike]
-                            ) -> list[tuple[np.ndarray, np.ndarray]]:
-    """(weighted mean residual, summed weight) of each fit's solutions, as
-    :func:`solution_means` gives them: the readings of fits of one size numbered by solution
-    together, and summed in the same order (one count of many bins)."""
-    found: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+                            ) -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
+    """(weighted mean residual, summed weight, the mean times √weight) of each fit's
+    solutions, as :func:`solution_means` gives them: the readings of fits of one size numbered
+    by solution together, and summed in the same order (one count of many bins)."""
+    found: dict[int, tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
     groups: dict[int, list[int]] = {}
     for index, m in enumerate(molality):
         groups.setdefault(np.size(m), []).append(index)
     for size, members in groups.items():
-        m = np.stack([np.asarray(molality[i], dtype=float).ravel() for i in members])
+        m = np.array([np.asarray(molality[i], dtype=float).ravel() for i in members])
         if size == 0 or len(members) == 1 or not np.isfinite(m).all():
             for i in members:
                 _, mean, weight = solution_means(molality[i], residual_V[i], weights[i])
-                found[i] = (mean, weight)
+                found[i] = (mean, weight, mean * np.sqrt(weight))
             continue
-        w = np.stack([np.asarray(weights[i], dtype=float).ravel() for i in members])
-        r = np.stack([np.asarray(residual_V[i], dtype=float).ravel() for i in members])
+        w = np.array([np.asarray(weights[i], dtype=float).ravel() for i in members])
+        r = np.array([np.asarray(residual_V[i], dtype=float).ravel() for i in members])
         # each reading's solution: how many distinct molalities of its fit lie below it
         order = np.argsort(m, axis=1, kind="stable")
         ordered = np.take_along_axis(m, order, axis=1)
@@ -190,10 +190,13 @@ def _solution_means_of_many(molality: Sequence[npt.ArrayLike],
         bins = (group + size * np.arange(len(members))[:, None]).ravel()
         weight = np.bincount(bins, weights=w.ravel(), minlength=m.size)
         total = np.bincount(bins, weights=(w * r).ravel(), minlength=m.size)
-        counts = rank[:, -1] + 1
+        counts = (rank[:, -1] + 1).tolist()
+        with np.errstate(invalid="ignore", divide="ignore"):  # (0/0 in the unused bins)
+            mean = total / weight
+        scaled = mean * np.sqrt(weight)
         for k, i in enumerate(members):
-            used = slice(k * size, k * size + int(counts[k]))
-            found[i] = (total[used] / weight[used], weight[used])
+            used = slice(k * size, k * size + counts[k])
+            found[i] = (mean[used], weight[used], scaled[used])
     return [found[i] for i in range(len(molality))]
 
 

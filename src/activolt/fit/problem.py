@@ -77,8 +77,13 @@ class SeriesData:
     def values_array(self, activity: ActivityModel, e0: float,
                      values: Mapping[str, float]) -> np.ndarray:
         """E°, the model's parameters and s as the engine's (1, P) array."""
-        return np.array([[e0, *[values[n] for n in activity.parameter_names],
-                          values.get(SLOPE, self.slope)]])
+        return np.array([self.values_row(activity, e0, values)])
+
+    def values_row(self, activity: ActivityModel, e0: float,
+                   values: Mapping[str, float]) -> tuple[float, ...]:
+        """E°, the model's parameters and s in the engine's order (a row of its array)."""
+        return (e0, *[values[n] for n in activity.parameter_names],
+                values.get(SLOPE, self.slope))
 
 
 def gas_correction(run: Run, points: pd.DataFrame, water_activity: npt.ArrayLike = 1.0

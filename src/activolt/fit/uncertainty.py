@@ -17,6 +17,7 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -48,6 +49,55 @@ def sensitivity_matrix(jacobian: np.ndarray, weights: np.ndarray) -> np.ndarray:
     weighted = jacobian * weights[:, None]
     normal = jacobian.T @ weighted
     return np.linalg.solve(normal, weighted.T)
+
+
+def sensitivity_matrices(jacobians: Sequence[np.ndarray], weights: Sequence[np.ndarray]
+                         ) -> list[np.ndarray]:
+    """:func:`sensitivity_matrix` of many fits: the same matrices, bit for bit, those of one
+    shape and memory layout worked out in stacked array operations (each fit's products and
+    solve laid out, and so made by BLAS and LAPACK, as for it alone).
+
+    Parameters
+    ----------
+    jacobians : sequence of numpy.ndarray
+        Per fit, ∂E/∂p at the optimum, shape (N, P).
+    weights : sequence of numpy.ndarray
+        Per fit, w_i, shape (N,).
+
+    Returns
+    -------
+    list of numpy.ndarray
+        Per fit, in order, S of shape (P, N).
+
+    Examples
+    --------
+    >>> j = np.array([[1.0, 0.0], [1.0, 1.0], [1.0, 2.0]])
+    >>> [np.array_equal(a, sensitivity_matrix(j, np.ones(3)))
+    ...  for a in sensitivity_matrices([j, j], [np.ones(3), np.ones(3)])]
+    [True, True]
+    """
+    found: dict[int, np.ndarray] = {}
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, (jacobian, w) in enumerate(zip(jacobians, weights, strict=True)):
+        layout = ("C" if jacobian.flags.c_contiguous else "F" if jacobian.flags.f_contiguous
+                  else index)  # (any other layout alone)
+        groups.setdefault((jacobian.shape, jacobian.dtype, w.shape, w.dtype, layout),
+                          []).append(index)
+    for (shape, dtype, _, w_dtype, layout), members in groups.items():
+        if (len(members) == 1 or len(shape) != 2 or layout not in ("C", "F")
+                or dtype != np.float64 or w_dtype != np.float64):
+            for i in members:
+                found[i] = sensitivity_matrix(jacobians[i], weights[i])
+            continue
+        # (S, N, P) with each fit's matrix laid out as its own
+        j = (np.array([jacobians[i] for i in members]) if layout == "C"
+             else np.array([jacobians[i].T for i in members]).transpose(0, 2, 1))
+        weighted = np.empty_like(j)  # (laid out as j, as jacobian * weights[:, None] is)
+        np.multiply(j, np.array([weights[i] for i in members])[:, :, None], out=weighted)
+        normal = np.matmul(np.swapaxes(j, 1, 2), weighted)
+        found.update(zip(members, np.linalg.solve(normal, np.swapaxes(weighted, 1, 2)),
+                         strict=True))
+    return [found[index] for index in range(len(jacobians))]
 
 
 def ln_gamma_covariance(

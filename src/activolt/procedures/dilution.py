@@ -63,6 +63,7 @@ from ..fit.uncertainty import (
     ln_gamma_covariance,
     ln_gamma_variance,
     sensitivity_coefficients,
+    sensitivity_matrices,
     sensitivity_matrix,
     student_t_factor,
 )
@@ -415,7 +416,7 @@ def _lowers_vapour(run: Run, data: SeriesData) -> bool:
 def _weighs_molality(data: SeriesData) -> bool:
     """Whether u(m) enters the weights (effective variance): stated u(E) and some u(m) > 0."""
     return bool(data.stated_uncertainty and data.u_molality_mol_kg is not None
-                and np.any(data.u_molality_mol_kg > 0))
+                and any(map((0.0).__lt__, data.u_molality_mol_kg.tolist())))
 
 
 def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, data: SeriesData,
@@ -434,8 +435,7 @@ def _with_effective_variance(model: ActivityModel, electrolyte: Electrolyte, dat
     return dataclasses.replace(data, weights=1.0 / variance)
 
 
-@dataclass(frozen=True)
-class _Fit:
+class _Fit(NamedTuple):
     e0: float
     values: dict[str, float]
     free: list[str]
@@ -447,9 +447,12 @@ class _Fit:
     residual_V: np.ndarray
     jacobian: np.ndarray
 
+    def with_covariance(self, covariance: np.ndarray) -> _Fit:
+        """The fit with another covariance."""
+        return self._replace(covariance=covariance)
 
-@dataclass(frozen=True)
-class _FitRequest:
+
+class _FitRequest(NamedTuple):
     """One weighted fit of E° and the ``free`` parameters, the others held at ``values``, as
     the engine takes it (a batch of one); :func:`_solve_requests` solves many at once."""
 
@@ -458,7 +461,7 @@ class _FitRequest:
     data: SeriesData
     values: dict[str, float]
     free: list[str]
-    start: np.ndarray
+    start: tuple[float, ...]
     mask: np.ndarray
 
     @property
@@ -472,9 +475,9 @@ def _fit_request(model: ActivityModel, electrolyte: Electrolyte, data: SeriesDat
                  values: dict[str, float], free: list[str]) -> _FitRequest:
     """The request for one fit (FitError when a starting value lies outside its bounds)."""
     names = _names(model)
-    start = data.values_array(model, 0.0, values)
-    low, high = _bounds(model, names)
-    if not np.all((start[0] >= low) & (start[0] <= high)):
+    start = data.values_row(model, 0.0, values)
+    low, high = _bounds_lists(model, names)
+    if not all(lo <= value <= hi for value, lo, hi in zip(start, low, high, strict=True)):
         raise FitError("a starting value lies outside its bounds; hold the parameter at a "
                        "value within them")
     return _FitRequest(model, electrolyte, data, values, list(free), start,
@@ -505,6 +508,14 @@ def _bounds(model: ActivityModel, names: tuple[str, ...]) -> tuple[np.ndarray, n
 
 
 @functools.lru_cache(maxsize=64)
+def _bounds_lists(model: ActivityModel, names: tuple[str, ...]
+                  ) -> tuple[list[float], list[float]]:
+    """:func:`_bounds` as lists of floats (to check one start without array calls)."""
+    low, high = _bounds(model, names)
+    return low.tolist(), high.tolist()
+
+
+@functools.lru_cache(maxsize=64)
 def _linear(model: ActivityModel, names: tuple[str, ...]) -> np.ndarray:
     """Whether E is linear in each quantity of the engine's order."""
     return np.array([name == E0 or parameter_spec(model, name).linear for name in names])
@@ -525,12 +536,12 @@ def _solve_requests(requests: Sequence[_FitRequest]) -> list[_Fit | FitError]:
         if len(chosen) == 1:
             measurement = first.data.measurement_model(first.model, first.electrolyte)
             emf, weights = first.data.emf_V[None, :], first.data.weights[None, :]
-            start, mask = first.start, first.mask
+            start, mask = np.array([first.start]), first.mask
         else:
             measurement = _stacked(first.model, first.electrolyte, [r.data for r in chosen])
-            emf = np.stack([r.data.emf_V for r in chosen])
-            weights = np.stack([r.data.weights for r in chosen])
-            start = np.concatenate([r.start for r in chosen])
+            emf = np.array([r.data.emf_V for r in chosen])
+            weights = np.array([r.data.weights for r in chosen])
+            start = np.array([r.start for r in chosen])
             mask = np.concatenate([r.mask for r in chosen])
         scaled = np.array([not r.data.stated_uncertainty for r in chosen])
         batch = solve(measurement, emf, weights, start, mask, _linear(first.model, names),
@@ -544,9 +555,9 @@ def _stacked(model: ActivityModel, electrolyte: Electrolyte, series: Sequence[Se
              ) -> MeasurementModel:
     """One measurement model of several series of equal length (one model and electrolyte)."""
     return MeasurementModel(
-        model, electrolyte, series[0].sign, np.stack([d.molality for d in series]),
-        np.stack([d.nernst_V for d in series]),
-        DebyeHueckelConstants(*(np.stack([getattr(d.constants, field) for d in series])
+        model, electrolyte, series[0].sign, np.array([d.molality for d in series]),
+        np.array([d.nernst_V for d in series]),
+        DebyeHueckelConstants(*(np.array([getattr(d.constants, field) for d in series])
                                 for field in ("temperature", "aphi", "b"))))
 
 
@@ -569,25 +580,26 @@ def _fits_from(requests: Sequence[_FitRequest], result: BatchFit) -> list[_Fit |
             np.swapaxes(result.jacobian[picked][:, :, order], 1, 2)).transpose(0, 2, 1)
         estimable = (np.isfinite(covariances).all(axis=(1, 2))
                      & (np.diagonal(covariances, axis1=1, axis2=2) > 0.0).all(axis=1)).tolist()
-        values, chi2s, dofs = (result.values[picked].tolist(), result.chi2[picked].tolist(),
-                               result.dof[picked].tolist())
+        values, chi2s, dofs, converged = (
+            result.values[picked].tolist(), result.chi2[picked].tolist(),
+            result.dof[picked].tolist(), result.converged[picked].tolist())
         columns = [names.index(name) for name in free]
         for k, row in enumerate(rows):
-            out[row] = _fit_of(requests[row], result, row, values[k], columns, covariances[k],
-                               estimable[k], chi2s[k], dofs[k], jacobians[k])
+            out[row] = (_fit_of(requests[row], result, row, values[k], columns, covariances[k],
+                                estimable[k], chi2s[k], dofs[k], jacobians[k])
+                        if converged[k] else
+                        FitError(f"{result.failures[row]}; hold a parameter at a given value"))
     return [fit for fit in out if fit is not None]
 
 
 def _fit_of(request: _FitRequest, result: BatchFit, row: int, values: list[float],
             columns: list[int], covariance: np.ndarray, estimable: bool, chi2: float, dof: int,
             jacobian: np.ndarray) -> _Fit | FitError:
-    """The fit of one request from row ``row`` of the engine's batch (its values, the
+    """The fit of one converged request from row ``row`` of the engine's batch (its values, the
     positions of its free parameters among them, its covariance and Jacobian over E° and
     those, whether that covariance is finite with a positive diagonal, χ² and ν), or the
     FitError that refuses it."""
     model, data, free = request.model, request.data, request.free
-    if not result.converged[row]:
-        return FitError(f"{result.failures[row]}; hold a parameter at a given value")
     fitted = {**request.values,
               **{name: values[column] for name, column in zip(free, columns, strict=True)}}
     if not estimable and not any(_at_bound(parameter_spec(model, name), fitted[name])
@@ -815,12 +827,12 @@ def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
     width = max(2, size)
 
     def stacked(name: str) -> np.ndarray:
-        return np.stack([getattr(data, name) for _, data, _ in problems])
+        return np.array([getattr(data, name) for _, data, _ in problems])
 
     molality = stacked("molality")
     use = electrolyte.ionic_strength(molality) <= LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH
     ln_gamma_dh = extended_debye_hueckel(
-        electrolyte, molality, np.stack([data.constants.agamma for _, data, _ in problems]))
+        electrolyte, molality, np.array([data.constants.agamma for _, data, _ in problems]))
     factor = np.array([data.sign * slope for _, data, slope in problems])[:, None]
     y_all = stacked("emf_V") + factor * stacked("nernst_V") * (stacked("ln_mean_molality")
                                                                 + ln_gamma_dh)
@@ -836,18 +848,28 @@ def _lines_of_one_width(problems: Sequence[tuple[Run, SeriesData, float]]
     distinct = (np.count_nonzero(steps & np.isfinite(ordered[:, 1:]), axis=1)
                 + np.isfinite(ordered[:, 0]))
     lines = straight_lines(m, y, w, scale)
+    found = (distinct >= 3) & lines.determined
     return [LinearExtrapolation(
-        standard_potential_V=float(lines.values[row, 0]),
-        u_standard_potential_V=float(math.sqrt(lines.covariance[row, 0, 0])),
-        slope_V_kg_mol=float(lines.values[row, 1]), n_points=int(lines.points[row]),
-        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH)
-        if distinct[row] >= 3 and lines.determined[row] else None
-        for row in range(len(problems))]
+        standard_potential_V=e0, u_standard_potential_V=math.sqrt(variance),
+        slope_V_kg_mol=slope, n_points=int(points),
+        max_ionic_strength=LINEAR_EXTRAPOLATION_MAX_IONIC_STRENGTH) if ok else None
+        for (e0, slope), variance, points, ok in zip(
+            lines.values[:, :2].tolist(), lines.covariance[:, 0, 0].tolist(),
+            lines.points.tolist(), found.tolist(), strict=True)]
 
 
 def mean_temperature(temperature_K: np.ndarray) -> float:
     """The mean of the rows' temperatures [K], never outside their range by rounding (18 rows
     at 273.15 K must not average to 273.1499999999999 K, outside liquid water)."""
+    temperature_K = np.ascontiguousarray(temperature_K, dtype=float)
+    return _mean_temperature(temperature_K.shape, temperature_K.tobytes())
+
+
+@functools.lru_cache(maxsize=1024)
+def _mean_temperature(shape: tuple[int, ...], raw: bytes) -> float:
+    """:func:`mean_temperature` of the array of ``shape`` whose float64 values are ``raw``,
+    kept once worked out (the series of a batch are mostly at one temperature)."""
+    temperature_K = np.frombuffer(raw).reshape(shape)
     return float(np.clip(np.mean(temperature_K), temperature_K.min(), temperature_K.max()))
 
 
@@ -1021,10 +1043,14 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         family = get_model(model)
     except ValueError as error:
         raise InputError(str(error), column="model") from None
+    try:
+        split = _split_fixed(fixed)
+    except InputError:
+        split = None  # (each run's start refuses the held values, as alone)
     starts: list[_Start | FitError | InputError] = []
-    for run in runs:
+    for run, prepared in zip(runs, _prepared_of_many(runs), strict=True):
         try:
-            starts.append(_start(run, family, fixed))
+            starts.append(_start(run, family, fixed, split, prepared))
         except (FitError, InputError) as error:
             starts.append(error)
     helds = _together([_fit_and_hold(start) if isinstance(start, _Start) else None
@@ -1036,7 +1062,8 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         *zip(*map(_lack_of_fit_arguments, held_fits), strict=True)) if held_fits else [],
         strict=True))
     staged: list[tuple[_Start, _Judged, _Components] | FitError | InputError] = []
-    for start, held in zip(starts, helds, strict=True):
+    judged_runs: dict[int, tuple[_Start, _Judged]] = {}
+    for k, (start, held) in enumerate(zip(starts, helds, strict=True)):
         if not isinstance(start, _Start):
             staged.append(start)
         elif not isinstance(held, _Held):
@@ -1044,10 +1071,23 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
             staged.append(held)
         else:
             try:
-                judged = _judge(held, start.family, verdicts[id(held)])
-                staged.append((start, judged, _covariance_components(judged, start)))
+                judged_runs[k] = (start, _judge(held, start.family, verdicts[id(held)]))
             except (FitError, InputError) as error:
                 staged.append(error)
+            else:
+                staged.append(FitError(""))  # (its place, staged below)
+    # The sensitivity matrices of all the judged fits together, kept as each one's own (the
+    # slot of its cached property, which a fit judged alone fills when first read).
+    judged_fits = [judged for _, judged in judged_runs.values()]
+    for judged, sensitivity in zip(judged_fits, sensitivity_matrices(
+            [judged.fit.jacobian for judged in judged_fits],
+            [judged.data.weights for judged in judged_fits]), strict=True):
+        judged.__dict__["sensitivity"] = sensitivity
+    for k, (start, judged) in judged_runs.items():
+        try:
+            staged[k] = (start, judged, _covariance_components(judged, start))
+        except (FitError, InputError) as error:
+            staged[k] = error
     judged_fits = {k: stage[1] for k, stage in enumerate(staged)
                    if isinstance(stage, tuple) and _diagnosable(stage[1].data, stage[1].fit)}
     diagnosed = dict(zip(judged_fits, point_diagnostics_of_many(
@@ -1058,6 +1098,8 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
     assembled = {k: stage for k, stage in enumerate(staged) if isinstance(stage, tuple)}
     points = dict(zip(assembled, _points_columns_of_many(
         [_gamma_inputs(*stage) for stage in assembled.values()]), strict=True))
+    sums = dict(zip(assembled, _sums_of_many([stage[:2] for stage in assembled.values()]),
+                    strict=True))
     results: list[Reduction | FitError | InputError] = []
     for k, stage in enumerate(staged):
         if not isinstance(stage, tuple):
@@ -1066,7 +1108,7 @@ def reduce_runs(runs: Sequence[Run], model: str = "hueckel",
         start, judged, parts = stage
         try:
             results.append(_assemble(start, judged, parts, remind_model_choice,
-                                     diagnosed.get(k), points[k]))
+                                     diagnosed.get(k), points[k], sums[k]))
         except (FitError, InputError) as error:
             results.append(error)
     # The straight-line cross-checks of all of them together, kept as each reduction's own
@@ -1086,8 +1128,7 @@ def _finish(start: _Start, held: _Held, remind_model_choice: bool) -> Reduction:
     return _assemble(start, judged, _covariance_components(judged, start), remind_model_choice)
 
 
-@dataclass(frozen=True)
-class _Start:
+class _Start(NamedTuple):
     """The run checked and prepared, and where each parameter starts."""
 
     run: Run
@@ -1105,22 +1146,26 @@ class _Start:
     solutions: int
 
 
-def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> _Start:
+def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None,
+           split: tuple[dict[str, float], dict[str, float]] | None = None,
+           prepared: SeriesData | None = None) -> _Start:
     """Step 1: check the run and the held values, leave out readings beyond the model's range,
-    prepare the readings, and start every parameter at its held or conventional value."""
-    fixed_values, fixed_u = _split_fixed(fixed)
+    prepare the readings, and start every parameter at its held or conventional value
+    (``split``: :func:`_split_fixed` of ``fixed``, and ``prepared``: the run's readings
+    prepared (:func:`_prepared_of_many`), when already worked out for a batch)."""
+    fixed_values, fixed_u = _split_fixed(fixed) if split is None else split
     specs = family.parameters + ((SLOPE_PARAMETER,) if run.metadata.fit_slope_factor else ())
     for name in fixed_values:
         if name not in {p.name for p in specs}:
             raise InputError(f"model '{family.name}' has no parameter '{name}'; it has: "
                              f"{', '.join(p.name for p in specs) or 'none'}", column="fixed")
-    run, range_warning = _within_range(run, family)
-    data = prepare_series(run)
+    read, (run, range_warning) = run, _within_range(run, family)
+    data = prepared if prepared is not None and run is read else prepare_series(run)
     n = len(data.emf_V)
     if n < _MIN_POINTS:
         raise InputError(f"only {n} usable reading(s); a dilution series needs at least "
                          f"{_MIN_POINTS} to give E° with an uncertainty", file=str(run.path))
-    solutions = int(np.unique(data.molality).size)
+    solutions = _distinct(data.molality)
     if solutions < 2:
         raise InputError(f"all {n} usable readings are at one molality (m = "
                          f"{data.molality[0]:g} mol/kg): E° by extrapolation needs a dilution "
@@ -1161,8 +1206,53 @@ def _start(run: Run, family: ActivityModel, fixed: Mapping[str, Any] | None) -> 
                   solutions=solutions)
 
 
-@dataclass(frozen=True)
-class _Held:
+def _prepared_of_many(runs: Sequence[Run]) -> list[SeriesData | None]:
+    """:func:`~activolt.fit.problem.prepare_series` of the runs that use every row and need no
+    gas correction, those of one length, electrolyte, number of electrons and kind of u(EMF)
+    in the same array operations (each run's readings a row of them, its numbers as alone);
+    None for the others, which :func:`_start` prepares alone."""
+    found: list[SeriesData | None] = [None] * len(runs)
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, run in enumerate(runs):
+        meta = run.metadata
+        if not meta.gas_coefficients and meta.electrons >= 1 and run.usable.all():
+            groups.setdefault((run.usable.size, meta.electrolyte, meta.electrons,
+                               run.emf_uncertainty_given), []).append(index)
+    for (size, electrolyte, electrons, stated), members in groups.items():
+        if len(members) == 1:
+            continue
+
+        def rows(name: str, members: list[int] = members) -> np.ndarray:
+            return np.array([runs[i].arrays[name] for i in members])
+
+        molality, temperature = rows("molality_mol_kg"), rows("temperature_K")
+        emf, u_molality = rows("emf_V"), rows("u_molality_mol_kg")
+        u = rows("u_emf_V") if stated else np.ones((len(members), size))
+        weights = 1.0 / u**2
+        nernst = nernst_factor(electrolyte, electrons, temperature)
+        ln_mean_molality = np.log(electrolyte.mean_molality(molality))
+        constants: dict[bytes, DebyeHueckelConstants] = {}  # (by the temperatures' bytes)
+        for k, i in enumerate(members):
+            meta = runs[i].metadata
+            at = temperature[k].tobytes()
+            if at not in constants:
+                constants[at] = debye_hueckel_constants(temperature[k])
+            found[i] = SeriesData(
+                molality=molality[k], emf_V=emf[k], weights=weights[k], nernst_V=nernst[k],
+                ln_mean_molality=ln_mean_molality[k],
+                constants=constants[at], stated_uncertainty=stated,
+                sign=meta.electrolyte_sign, slope=meta.slope_factor,
+                u_emf_V=u[k] if stated else None, u_molality_mol_kg=u_molality[k])
+    return found
+
+
+def _distinct(values: np.ndarray) -> int:
+    """How many distinct values a 1-d array holds, NaNs counted as one (as
+    ``numpy.unique(values).size``)."""
+    return len({value if value == value else math.nan for value in values.tolist()})
+
+
+class _Held(NamedTuple):
     """The fit after holding what the data cannot determine."""
 
     data: SeriesData
@@ -1239,8 +1329,11 @@ class _Judged:
     chi2_p: float
     runs_p: float
     warning: str | None
-    #: S = (JᵀWJ)⁻¹JᵀW of the final fit (with the final weights), P × N
-    sensitivity: np.ndarray
+
+    @functools.cached_property
+    def sensitivity(self) -> np.ndarray:
+        """S = (JᵀWJ)⁻¹JᵀW of the final fit (with the final weights), P × N."""
+        return sensitivity_matrix(self.fit.jacobian, self.data.weights)
 
 
 def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None) -> _Judged:
@@ -1256,18 +1349,16 @@ def _judge(held: _Held, family: ActivityModel, verdict: LackOfFit | None = None)
         data = dataclasses.replace(
             data, weights=data.weights / birge**2,
             u_emf_V=None if data.u_emf_V is None else data.u_emf_V * birge)
-        fit = dataclasses.replace(fit, covariance=fit.covariance * birge**2)
+        fit = fit.with_covariance(fit.covariance * birge**2)
         warning = (f"the readings or solutions scatter about the {family.title} more than "
                    + ("their stated u(EMF) allow" if data.stated_uncertainty else
                       "replicate readings of one solution do")
                    + f": u(E°) and u(γ±) are scaled by the Birge ratio {birge:.3g}")
     return _Judged(held=held, data=data, fit=fit, birge=birge, birge_dof=birge_dof,
-                   chi2_p=chi2_p, runs_p=runs_p, warning=warning,
-                   sensitivity=sensitivity_matrix(fit.jacobian, data.weights))
+                   chi2_p=chi2_p, runs_p=runs_p, warning=warning)
 
 
-@dataclass(frozen=True)
-class _Components:
+class _Components(NamedTuple):
     """What the covariance of (E°, free parameters) is made of, and the total."""
 
     covariance: np.ndarray
@@ -1330,39 +1421,39 @@ def _gamma_inputs(start: _Start, judged: _Judged, parts: _Components) -> _GammaI
 
 def _assemble(start: _Start, judged: _Judged, parts: _Components,
               remind_model_choice: bool, diagnosed: PointDiagnostics | None = None,
-              points: tuple[dict[str, np.ndarray], GammaPropagation] | None = None
-              ) -> Reduction:
+              points: tuple[dict[str, np.ndarray], GammaPropagation] | None = None,
+              sums: _Sums | None = None) -> Reduction:
     """Step 5: the points table with γ± and its budget, diagnostics (``diagnosed``: the point
-    diagnostics of the judged fit, and ``points``: its points columns
-    (:func:`_points_columns_of_many`), when already worked out), and the result."""
+    diagnostics of the judged fit, ``points``: its points columns
+    (:func:`_points_columns_of_many`), and ``sums``: its sums over the readings
+    (:func:`_sums_of_many`), when already worked out), and the result."""
     run, family = start.run, start.family
-    electrolyte = run.metadata.electrolyte
     data = judged.data
-    fit = dataclasses.replace(judged.fit, covariance=parts.covariance)
+    fit = judged.fit.with_covariance(parts.covariance)
+    if sums is None:
+        (sums,) = _sums_of_many([(start, judged)])
     warnings = [*start.warnings, *([judged.warning] if judged.warning else [])]
-    budget = _budget(run, data, fit, judged.sensitivity, parts.type_b, parts.common, judged.birge,
+    budget = _budget(run, data, fit, sums, parts.type_b, parts.common, judged.birge,
                      parts.truncation)
     stats = _statistics(fit, data, judged.birge, judged.birge_dof, judged.chi2_p,
-                        judged.runs_p)
-    if remind_model_choice and float(electrolyte.ionic_strength(data.molality).max()) > (
-            MODEL_CHOICE_REMINDER_IONIC_STRENGTH):
+                        judged.runs_p, sums.residual_sd_V)
+    if remind_model_choice and sums.max_ionic_strength > MODEL_CHOICE_REMINDER_IONIC_STRENGTH:
         warnings.append(MODEL_CHOICE_REMINDER)
     columns, gamma_propagation = (
         _points_columns_of_many([_gamma_inputs(start, judged, parts)])[0] if points is None
         else points)
     diagnostics, stand_out = _diagnose(run, data, fit, diagnosed)
-    point_columns = {**columns, **diagnostics}
-    for column in point_columns.values():
+    for column in diagnostics.values():  # (the points columns are read-only already)
         column.flags.writeable = False
+    point_columns = {**columns, **diagnostics}
     warnings += stand_out
     reasons = judged.held.reasons
+    variances = dict(zip(fit.free, fit.covariance.diagonal()[1:].tolist(), strict=True))
     parameters = tuple(
         FittedParameter(
             name=p.name, symbol=p.symbol, unit=p.unit, value=float(fit.values[p.name]),
-            uncertainty=(math.sqrt(fit.covariance[fit.free.index(p.name) + 1,
-                                                   fit.free.index(p.name) + 1])
-                         if p.name in fit.free else math.nan),
-            fixed=p.name not in fit.free, reason=reasons.get(p.name),
+            uncertainty=(math.sqrt(variances[p.name]) if p.name in variances else math.nan),
+            fixed=p.name not in variances, reason=reasons.get(p.name),
         )
         for p in start.specs
     )
@@ -1458,29 +1549,76 @@ def _common_input_effects(run: Run, family: ActivityModel, electrolyte: Electrol
     return effects
 
 
-def _budget(run: Run, data: SeriesData, fit: _Fit, sensitivity: np.ndarray,
+class _Sums(NamedTuple):
+    """Sums over the readings of a judged fit that its budget and statistics report."""
+
+    #: u(E°) from the readings: stated u(EMF) through the fit, or the scatter about it
+    readings: float
+    #: u(E°) from stated u(m) as effective reading variance; None when no u(m) enters
+    molalities: float | None
+    #: √(Σ r² / ν) [V]
+    residual_sd_V: float
+    #: the largest ionic strength of the readings [mol kg⁻¹]
+    max_ionic_strength: float
+
+
+def _sums_of_many(items: Sequence[tuple[_Start, _Judged]]) -> list[_Sums]:
+    """The :class:`_Sums` of each (start, judged fit), those of one electrolyte, number of
+    readings and kind of weights worked out together (each a sum within one row, so each
+    series' numbers are its own alone)."""
+    groups: dict[tuple[Any, ...], list[int]] = {}
+    for index, (start, judged) in enumerate(items):
+        groups.setdefault((start.run.metadata.electrolyte, judged.data.emf_V.size,
+                           judged.data.stated_uncertainty), []).append(index)
+    found: dict[int, _Sums] = {}
+    for (electrolyte, _, stated), members in groups.items():
+        datas = [items[i][1].data for i in members]
+        fits = [items[i][1].fit for i in members]
+        s_squared = np.array([items[i][1].sensitivity[0] for i in members]) ** 2
+        molalities: list[float | None] = [None] * len(members)
+        if stated:
+            u_squared = np.array([d.u_emf_V for d in datas]) ** 2
+            readings = np.sqrt(np.sum(s_squared * u_squared, axis=1))
+            molality_var = np.maximum(1.0 / np.array([d.weights for d in datas]) - u_squared,
+                                      0.0)
+            some = np.any(molality_var > 0, axis=1)
+            if some.any():
+                values = np.sqrt(np.sum(s_squared * molality_var, axis=1)).tolist()
+                molalities = [v if k else None for v, k in zip(values, some.tolist(),
+                                                                 strict=True)]
+        else:
+            readings = np.sqrt(np.sum(s_squared, axis=1)
+                               * np.array([f.chi2 / f.dof for f in fits]))
+        residual_sd = np.sqrt(np.sum(np.array([f.residual_V for f in fits]) ** 2, axis=1)
+                              / np.array([f.dof for f in fits]))
+        ionic = np.max(electrolyte.ionic_strength(np.array([d.molality for d in datas])),
+                       axis=1)
+        found.update(zip(members, map(_Sums._make, zip(
+            readings.tolist(), molalities, residual_sd.tolist(), ionic.tolist(), strict=True)),
+            strict=True))
+    return [found[index] for index in range(len(items))]
+
+
+def _budget(run: Run, data: SeriesData, fit: _Fit, sums: _Sums,
             type_b: np.ndarray | None, common: list[tuple[str, float, np.ndarray, np.ndarray]],
             birge: float = 1.0, truncation: np.ndarray | None = None
             ) -> tuple[BudgetLine, ...]:
-    """Contributions to u(E°), each as the standard uncertainty it alone gives E°."""
-    s = sensitivity[0]
+    """Contributions to u(E°), each as the standard uncertainty it alone gives E° (``sums``:
+    those of the readings, :func:`_sums_of_many`)."""
     lines = []
     if data.stated_uncertainty:
-        reading = float(np.sqrt(np.sum(s**2 * data.u_emf_V**2)))
-        lines.append(BudgetLine("readings", reading, "stated u(EMF) of each reading, through "
-                                "the fit (linear propagation)" + (
+        lines.append(BudgetLine("readings", sums.readings, "stated u(EMF) of each reading, "
+                                "through the fit (linear propagation)" + (
                                     f", scaled by the Birge ratio {birge:.3g} for lack of fit"
                                     if birge > 1.0 else "")))
-        molality_var = np.maximum(1.0 / data.weights - data.u_emf_V**2, 0.0)
-        if np.any(molality_var > 0):
-            lines.append(BudgetLine("molalities", float(np.sqrt(np.sum(s**2 * molality_var))),
+        if sums.molalities is not None:
+            lines.append(BudgetLine("molalities", sums.molalities,
                                     "stated u(m) as effective reading variance (∂E/∂m)² u²(m)"))
     else:
-        scatter = fit.chi2 / fit.dof
-        lines.append(BudgetLine("readings", float(np.sqrt(np.sum(s**2) * scatter)),
+        lines.append(BudgetLine("readings", sums.readings,
                                 "scatter of the readings about the fit (Type A, covariance "
                                 f"scaled by the reduced χ², {fit.dof} degrees of freedom)"))
-        if np.any(run.arrays["u_molality_mol_kg"] > 0):
+        if any(map((0.0).__lt__, run.arrays["u_molality_mol_kg"].tolist())):
             lines.append(BudgetLine("molalities", 0.0, "with no stated u(EMF) the scatter of "
                                     "the readings already carries u(m)"))
     if type_b is not None:
@@ -1529,15 +1667,15 @@ def _diagnose(run: Run, data: SeriesData, fit: _Fit, found: PointDiagnostics | N
     every_row = len(found.flags) == used.size  # (every row used: the columns as they are)
     for name, values in columns.items():
         if every_row:
-            full[name] = np.array(values, dtype=float)
+            full[name] = np.asarray(values, dtype=float)  # (its own: made for this fit)
         else:
             full[name] = np.full(used.size, np.nan)
             full[name][used] = values
     diagnostic = np.full(used.size, None, dtype=object)
-    diagnostic[used] = np.array(found.flags, dtype=object)
     full["diagnostic"] = diagnostic
     if all(flag is None for flag in found.flags):
         return full, []
+    diagnostic[used] = np.array(found.flags, dtype=object)
     molality, lines = run.arrays["molality_mol_kg"], run.arrays["line"]
     warnings = [f"reading at m = {molality[i]:g} mol/kg (line {int(lines[i])}) stands out: "
                 f"{diagnostic[i]}; it is kept in the fit — check it, and exclude it with a "
@@ -1617,13 +1755,13 @@ def _corrections_summary(run: Run, data: SeriesData, temperature_K: float
 
 
 def _statistics(fit: _Fit, data: SeriesData, birge: float, birge_dof: int, chi2_p: float,
-                runs_p: float) -> FitStatistics:
+                runs_p: float, residual_sd_V: float) -> FitStatistics:
     n = len(data.emf_V)
     scaled = not data.stated_uncertainty or birge > 1.0
     return FitStatistics(
         n_points=n, n_free=1 + len(fit.free), dof=fit.dof, chi2=fit.chi2,
         reduced_chi2=fit.chi2 / fit.dof, aic=fit.aic, bic=fit.bic,
-        residual_sd_V=float(math.sqrt(np.sum(fit.residual_V**2) / fit.dof)),
+        residual_sd_V=residual_sd_V,
         covariance_scaled=scaled,
         coverage_factor=student_t_factor(min(fit.dof, birge_dof) if scaled else 0),
         stated_uncertainty=data.stated_uncertainty, birge_ratio=birge, chi2_p_value=chi2_p,
@@ -1709,29 +1847,26 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     fits = [item.fit for item in items]
     n = datas[0].emf_V.size
 
-    def stacked(arrays: Sequence[np.ndarray]) -> np.ndarray:
-        return np.stack(arrays)
-
     def column(values: Sequence[float]) -> np.ndarray:
         """One number per series as a column, shape (S, 1)."""
         return np.array(values, dtype=float)[:, None]
 
-    emf = stacked([d.emf_V for d in datas])
-    nernst = stacked([d.nernst_V for d in datas])
-    sensitivity = stacked([item.sensitivity for item in items])
-    reading_var = (1.0 / stacked([d.weights for d in datas]) if stated
+    emf = np.array([d.emf_V for d in datas])
+    nernst = np.array([d.nernst_V for d in datas])
+    sensitivity = np.array([item.sensitivity for item in items])
+    reading_var = (1.0 / np.array([d.weights for d in datas]) if stated
                    else np.repeat(column([f.chi2 / f.dof for f in fits]), n, axis=1))
 
     # ln γ± = σ (E° − E)/(s k) − ln m±, from each reading.
     slope = column([f.values.get(SLOPE, d.slope) for f, d in zip(fits, datas, strict=True)])
     e0 = column([f.e0 for f in fits])
     scale = first.data.sign / (slope * nernst)
-    ln_gamma = (e0 - emf) * scale - stacked([d.ln_mean_molality for d in datas])
+    ln_gamma = (e0 - emf) * scale - np.array([d.ln_mean_molality for d in datas])
     parameter_gradient = np.zeros((len(items), n, 1 + len(free)))
     parameter_gradient[:, :, 0] = scale
     if SLOPE in free:
         parameter_gradient[:, :, 1 + free.index(SLOPE)] = -(e0 - emf) * scale / slope
-    type_b = None if first.type_b is None else stacked([item.type_b for item in items])
+    type_b = None if first.type_b is None else np.array([item.type_b for item in items])
     # u(m) enters through the effective reading variance 1/w (see _with_effective_variance):
     # γ± at the stated molality errs by σ(δE° − ε)/(s k), ε = δE − (∂E/∂m) δm.
     def part(variance: np.ndarray, with_type_b: bool = False) -> np.ndarray:
@@ -1742,7 +1877,7 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     budget: dict[str, np.ndarray] = {}
     molality_rows = np.zeros(len(items), dtype=bool)  # the series with a "molalities" part
     if stated:
-        u_emf_squared = stacked([d.u_emf_V for d in datas]) ** 2
+        u_emf_squared = np.array([d.u_emf_V for d in datas]) ** 2
         budget["readings"] = part(u_emf_squared)
         molality_var = np.maximum(reading_var - u_emf_squared, 0.0)
         molality_rows = np.any(molality_var > 0, axis=1)
@@ -1755,13 +1890,13 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
                                           parameter_gradient)
     left_out = None
     if first.truncation is not None:
-        truncation = stacked([item.truncation for item in items])
+        truncation = np.array([item.truncation for item in items])
         left_out = np.matmul(parameter_gradient, truncation[:, :, None])[:, :, 0]
         budget["left-out terms"] = left_out**2
         var_ln = var_ln + budget["left-out terms"]
     common_parts = []
     for position, (name, *_) in enumerate(first.common):
-        d_u = (stacked([item.common[position][3] for item in items])
+        d_u = (np.array([item.common[position][3] for item in items])
                * column([item.common[position][1] for item in items]))
         var_ln = var_ln + d_u**2
         budget[_COMMON_COLUMNS[name]] = d_u**2
@@ -1770,8 +1905,8 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     u_gamma = gamma * np.sqrt(var_ln)
 
     # Model γ± and its uncertainty from the parameter covariance.
-    molality = stacked([d.molality for d in datas])
-    constants = DebyeHueckelConstants(*(stacked([getattr(d.constants, name) for d in datas])
+    molality = np.array([d.molality for d in datas])
+    constants = DebyeHueckelConstants(*(np.array([getattr(d.constants, name) for d in datas])
                                         for name in ("temperature", "aphi", "b")))
     model_values = {name: column([f.values[name] for f in fits])
                     for name in model.parameter_names}
@@ -1783,7 +1918,7 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
         lambda v: model.ln_gamma(electrolyte, molality, constants, v), model_values,
         [uncertain_names[index] for index in in_model])
     var_model = np.einsum("...ij,...jk,...ik->...i", grad,
-                          stacked([item.uncertain_covariance for item in items]), grad)
+                          np.array([item.uncertain_covariance for item in items]), grad)
     gamma_model = np.exp(ln_gamma_model)
 
     rows = first.run.usable.size
@@ -1791,23 +1926,26 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
     every_row = rows == n  # (then every row is usable)
 
     def full(values: np.ndarray | None) -> np.ndarray:
-        """Columns over every row of each run: the values at the usable rows, NaN elsewhere."""
+        """Columns over every row of each run: the values at the usable rows, NaN elsewhere
+        (read-only, and so each series' row of them)."""
         if values is not None and every_row:
-            return values.copy()
-        out = np.full((len(items), rows), np.nan)
-        if values is not None:
-            for k, mask in enumerate(masks):
-                out[k, mask] = values[k]
+            out = values.copy()
+        else:
+            out = np.full((len(items), rows), np.nan)
+            if values is not None:
+                for k, mask in enumerate(masks):
+                    out[k, mask] = values[k]
+        out.flags.writeable = False
         return out
 
     def optional(arrays: Sequence[np.ndarray | None]) -> np.ndarray | None:
-        return None if arrays[0] is None else stacked(arrays)
+        return None if arrays[0] is None else np.array(arrays)
 
     columns = {
         "pressure_correction_V": full(optional([d.correction_V for d in datas])),
         "gas_pressure_Pa": full(optional([d.gas_pressure_Pa for d in datas])),
-        "fitted_emf_V": full(emf - stacked([f.residual_V for f in fits])),
-        "residual_V": full(stacked([f.residual_V for f in fits])),
+        "fitted_emf_V": full(emf - np.array([f.residual_V for f in fits])),
+        "residual_V": full(np.array([f.residual_V for f in fits])),
         "ln_gamma_pm": full(ln_gamma),
         "gamma_pm": full(gamma),
         "u_gamma_pm": full(u_gamma),
@@ -1817,13 +1955,15 @@ def _points_columns_alike(items: Sequence[_GammaInputs]
            for name, variance in budget.items()},
     }
     out = []
+    rows_of = {name: list(values) for name, values in columns.items()}  # (each series' row)
+    with_molalities, reading_gradient = molality_rows.tolist(), -scale
     for k, item in enumerate(items):
         extra = tuple(d_u[k] for d_u in common_parts) + (
             () if left_out is None else (left_out[k],))
-        out.append(({name: values[k] for name, values in columns.items()
-                     if name != "u_gamma_pm_molalities" or molality_rows[k]},
-                    GammaPropagation(parameter_gradient[k], -scale[k], item.sensitivity,
-                                     reading_var[k], item.type_b, extra)))
+        out.append(({name: values[k] for name, values in rows_of.items()
+                     if name != "u_gamma_pm_molalities" or with_molalities[k]},
+                    GammaPropagation(parameter_gradient[k], reading_gradient[k],
+                                     item.sensitivity, reading_var[k], item.type_b, extra)))
     return out
 
 
