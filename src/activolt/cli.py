@@ -723,7 +723,8 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
     with an InputError rather than leaving it waiting; on any exit the workers still running
     are stopped."""
     import multiprocessing
-    from multiprocessing.connection import wait
+
+    from .io.files import written_back_meanwhile
 
     context = multiprocessing.get_context("fork")
     started: list[tuple[Any, Any]] = []
@@ -748,29 +749,40 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
             sender.close()
             started.append((process, receiver))
         reading = {receiver: process for process, receiver in started}
-        while reading:
-            for receiver in wait(list(reading)):
-                try:
-                    message = receiver.recv()
-                except EOFError:  # the worker has sent everything, or ended early
-                    process = reading.pop(receiver)
-                    process.join()
-                    if process.exitcode != 0:
-                        raise InputError(
-                            f"a worker process ended unexpectedly (exit status "
-                            f"{process.exitcode}; killed, or out of memory?); nothing was "
-                            "written — run again, or with --workers 1",
-                            file="command line", column="--workers") from None
-                    continue
-                if isinstance(message, str):
-                    raise RuntimeError(f"in a worker process: {message}")
-                yield from message
+        # (the thread that writes the files back starts after the workers are forked)
+        with written_back_meanwhile(staged):
+            yield from _received(reading)
     finally:
         for process, receiver in started:
             if process.is_alive():
                 process.terminate()
             process.join()
             receiver.close()
+
+
+def _received(reading: dict[Any, Any]) -> Iterator[tuple[int, _SeriesDone]]:
+    """(index, result) of every series as the worker processes send them (``reading``: each
+    worker's pipe and process), until every worker has ended; a worker that ended with an
+    error stops the batch."""
+    from multiprocessing.connection import wait
+
+    while reading:
+        for receiver in wait(list(reading)):
+            try:
+                message = receiver.recv()
+            except EOFError:  # the worker has sent everything, or ended early
+                process = reading.pop(receiver)
+                process.join()
+                if process.exitcode != 0:
+                    raise InputError(
+                        f"a worker process ended unexpectedly (exit status "
+                        f"{process.exitcode}; killed, or out of memory?); nothing was "
+                        "written — run again, or with --workers 1",
+                        file="command line", column="--workers") from None
+                continue
+            if isinstance(message, str):
+                raise RuntimeError(f"in a worker process: {message}")
+            yield from message
 
 
 def _worker(job: _SeriesJob, staged: StagedFolder, taken: Any, sender: Any) -> None:

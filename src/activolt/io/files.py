@@ -49,7 +49,7 @@ from pathlib import Path
 from ..errors import InputError
 
 __all__ = ["StagedFolder", "check_outputs", "output_set", "write_atomically",
-           "write_outputs"]
+           "write_outputs", "written_back_meanwhile"]
 
 _TEMPORARY = re.compile(r"^\.(?P<target>.+)\.activolt-(?P<pid>\d+)-[0-9a-f]{8}\."
                         r"(?P<kind>new|old|tmp)$")
@@ -241,24 +241,30 @@ _FCHMOD = getattr(os, "fchmod", None)
 _NEW_FILE = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_BINARY", 0)
 
 
+def _syncfs(folder: Path) -> bool:
+    """``syncfs`` of the file system holding ``folder`` (Linux): every file written to it
+    reaches the disk; False where the system has no such call or it failed."""
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        syncfs = ctypes.CDLL(None, use_errno=True).syncfs
+    except (OSError, AttributeError):
+        return False
+    handle = os.open(folder, os.O_RDONLY)
+    try:
+        return bool(syncfs(handle) == 0)
+    finally:
+        os.close(handle)
+
+
 def _flush_to_disk(paths: Sequence[Path] | Callable[[], Sequence[Path]],
                    folder: Path | None = None) -> None:
     """Make written files durable before they are renamed into place: one ``syncfs`` of the
     file system holding ``folder`` on Linux (all of a staged folder's files at once), else an
     ``fsync`` of each file (and of ``folder``'s own entry). ``paths`` may be a function that
     lists them, called only when they are synced one by one."""
-    if folder is not None and sys.platform.startswith("linux"):
-        try:
-            syncfs = ctypes.CDLL(None, use_errno=True).syncfs
-        except (OSError, AttributeError):
-            syncfs = None
-        if syncfs is not None:
-            handle = os.open(folder, os.O_RDONLY)
-            try:
-                if syncfs(handle) == 0:
-                    return
-            finally:
-                os.close(handle)
+    if folder is not None and _syncfs(folder):
+        return
     for path in paths() if callable(paths) else paths:
         handle = os.open(path, os.O_RDONLY)
         try:
@@ -473,6 +479,29 @@ class StagedFolder:
     def write(self, name: str, content: bytes | str) -> None:
         """Write one file of the set (text as UTF-8); it appears when the set is committed."""
         write_file(self.prefix + name, _data(content), self.modes.get(name))
+
+
+@contextlib.contextmanager
+def written_back_meanwhile(staged: StagedFolder, every_s: float = 2.0) -> Iterator[None]:
+    """While the ``with`` block runs (a batch writing its files into ``staged``), a thread asks
+    the system every ``every_s`` seconds to take what has been written to the disk (Linux's
+    ``syncfs``), so that the writing overlaps the work and the flush that makes the set durable
+    when it is committed (:func:`output_set`) has only the last few seconds' files left. Where
+    the system has no ``syncfs`` the thread stops after its first try; the set is made durable
+    at its commit as before either way."""
+    done = threading.Event()
+
+    def write_back() -> None:
+        while not done.wait(every_s) and _syncfs(staged.path):
+            pass
+
+    thread = threading.Thread(target=write_back, name="activolt write-back", daemon=True)
+    thread.start()
+    try:
+        yield
+    finally:
+        done.set()
+        thread.join()
 
 
 class OutputTransaction:
