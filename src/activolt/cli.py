@@ -661,8 +661,9 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
     processes = _worker_count(workers, count)
     done: list[_SeriesDone | None] = [None] * count
     with _progress(count, "reducing") as bar:
-        finished = ((done for chunk in _chunks(count) for done in job(chunk, staged))
-                    if processes == 1 else _in_workers(job, staged, processes))
+        size = _chunk_size(count, processes)
+        finished = ((done for chunk in _chunks(count, size) for done in job(chunk, staged))
+                    if processes == 1 else _in_workers(job, staged, processes, size))
         for index, result in finished:
             done[index] = result
             bar.update(1)
@@ -691,20 +692,28 @@ def _heap_set_aside() -> Iterator[None]:
             gc.unfreeze()
 
 
-def _chunks(count: int, taken: Any = None) -> Iterator[range]:
-    """The chunks of series ``0 … count − 1``, each of
-    :data:`~activolt.procedures.many.BATCH_SIZE` series reduced together (the result of a
-    series does not depend on its chunk): every chunk in order, or, with ``taken`` (a shared
-    count of the chunks the worker processes have taken), the next chunk no worker has taken
-    yet, until none is left — a worker slowed by the machine takes fewer."""
+def _chunk_size(count: int, processes: int) -> int:
+    """How many series a chunk holds: :data:`~activolt.procedures.many.BATCH_SIZE`, up to four
+    times that in a batch large enough to give each process eight chunks or more (the
+    outputs of a chunk are made together, a larger chunk for less a series; enough chunks
+    a process that the last one ends soon after the others)."""
     from .procedures.many import BATCH_SIZE
 
-    starts = range(0, count, BATCH_SIZE) if taken is None else iter(
-        lambda: _next_start(taken, BATCH_SIZE), None)
+    return max(BATCH_SIZE, min(4 * BATCH_SIZE, count // (8 * processes)))
+
+
+def _chunks(count: int, size: int, taken: Any = None) -> Iterator[range]:
+    """The chunks of ``size`` series of ``0 … count − 1``, each reduced and written together
+    (the result of a series does not depend on its chunk): every chunk in order, or, with
+    ``taken`` (a shared count of the chunks the worker processes have taken), the next chunk
+    no worker has taken yet, until none is left — a worker slowed by the machine takes
+    fewer."""
+    starts = range(0, count, size) if taken is None else iter(
+        lambda: _next_start(taken, size), None)
     for start in starts:
         if start >= count:
             return
-        yield range(start, min(start + BATCH_SIZE, count))
+        yield range(start, min(start + size, count))
 
 
 def _next_start(taken: Any, size: int) -> int:
@@ -715,7 +724,7 @@ def _next_start(taken: Any, size: int) -> int:
     return chunk * size
 
 
-def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
+def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int, size: int
                 ) -> Iterator[tuple[int, _SeriesDone]]:
     """(index, result) of every series as the worker processes finish them. Each worker takes
     the next chunk not yet taken (:func:`_chunks`) and sends each chunk's results through its
@@ -744,7 +753,7 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int
         for _ in range(processes):
             receiver, sender = context.Pipe(duplex=False)
             process = context.Process(
-                target=_worker, args=(job, staged, taken, sender), daemon=True)
+                target=_worker, args=(job, staged, size, taken, sender), daemon=True)
             process.start()
             sender.close()
             started.append((process, receiver))
@@ -785,16 +794,17 @@ def _received(reading: dict[Any, Any]) -> Iterator[tuple[int, _SeriesDone]]:
             yield from message
 
 
-def _worker(job: _SeriesJob, staged: StagedFolder, taken: Any, sender: Any) -> None:
-    """A worker process: chunks of series not yet taken (:func:`_chunks`; ``taken``: the
-    count of chunks taken, shared by the workers), the results of each chunk
+def _worker(job: _SeriesJob, staged: StagedFolder, size: int, taken: Any, sender: Any
+            ) -> None:
+    """A worker process: chunks of ``size`` series not yet taken (:func:`_chunks`; ``taken``:
+    the count of chunks taken, shared by the workers), the results of each chunk
     sent together when it is done (one message, not one a series). It leaves Ctrl-C to the
     main process, which stops the batch and the workers; a failure is sent as its
     traceback."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     try:
-        for chunk in _chunks(len(job.runs), taken):
+        for chunk in _chunks(len(job.runs), size, taken):
             sender.send(list(job(chunk, staged)))
     except Exception:  # a defect: shown by the main process, which stops the batch
         import traceback
