@@ -369,17 +369,31 @@ def test_a_batch_sets_aside_what_exists_from_the_collector_and_puts_it_back(tmp_
     import activolt.procedures.many as many
 
     frozen: list[int] = []
+    collecting: list[bool] = []
     batch = many.SeriesReducer.batch
 
     def watched(self, runs):
         frozen.append(gc.get_freeze_count())
+        collecting.append(gc.isenabled())
         return batch(self, runs)
 
     monkeypatch.setattr(many.SeriesReducer, "batch", watched)
     gc.unfreeze()  # nothing frozen by anyone else
     assert main(["reduce", str(_three_series(tmp_path)), "--no-figures", "--workers", "1"]) == 1
     assert frozen and all(count > 0 for count in frozen)
+    # paused while the runs are read, the collector runs again while the series are reduced
+    assert collecting and all(collecting) and gc.isenabled()
     assert gc.get_freeze_count() == 0
+    # a collector the caller turned off stays off
+    gc.disable()
+    try:
+        off = tmp_path / "off"
+        off.mkdir()
+        collecting.clear()
+        assert main(["reduce", str(_three_series(off)), "--no-figures", "--workers", "1"]) == 1
+        assert collecting and not any(collecting) and not gc.isenabled()
+    finally:
+        gc.enable()
     # objects frozen by the process itself stay frozen, and nothing else is frozen with them
     gc.freeze()
     try:

@@ -14,7 +14,7 @@ import os
 import signal
 import sys
 import threading
-from collections.abc import Iterator, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from importlib import import_module
 from importlib.resources import files
@@ -425,35 +425,38 @@ def _reduce_batch(paths: Sequence[Path], meta: Path | None, model: str,
                          file="command line", column="--exclude")
     _check_monte_carlo_options(trials, seed)
     out = out if out is not None else default_out
-    if runs is None:
-        runs = []
-        for table in tables:
-            runs += ([read_run(table, meta, overrides=overrides, series=series)]
-                     if series is not None else list(read_runs(table, meta, overrides=overrides)))
-    # one set per series, named RUN (a table without series names) or RUN.SERIES
-    per_table: dict[Path, int] = {}
-    for run in runs:
-        per_table[run.path] = per_table.get(run.path, 0) + 1
-    bases: list[str] = []
-    seen: dict[str, Path] = {}
-    for run in runs:
-        label = series_name(run)
-        alone = per_table[run.path] == 1 and label == "" and series is None
-        base = run.path.stem if alone else f"{run.path.stem}.{series_file_name(label)}"
-        if base in seen:
-            raise InputError(f"two run tables give the output name '{base}' (also {seen[base]}); "
-                             "rename one or reduce them separately", file=str(run.path))
-        seen[base] = run.path
-        bases.append(base)
-    summary_names = [f"{name}.summary.csv", f"{name}.summary.png"]
-    owned = [f"{base}.{kind}" for base in bases for kind in OUTPUT_KINDS] + summary_names
-    inputs = list(dict.fromkeys(
-        p for run in runs for p in (run.path, run.metadata_path) if p is not None))
-    check_outputs(out, owned, [], inputs)
-    reducer = series_reducer(model, fixed)
-    job = _SeriesJob(tuple(runs), tuple(bases), reducer, out, figures, trials, seed)
-    done: list[_SeriesDone] = []
-    with _heap_set_aside():
+    with _heap_set_aside() as settle:
+        if runs is None:
+            runs = []
+            for table in tables:
+                runs += ([read_run(table, meta, overrides=overrides, series=series)]
+                         if series is not None
+                         else list(read_runs(table, meta, overrides=overrides)))
+        # one set per series, named RUN (a table without series names) or RUN.SERIES
+        per_table: dict[Path, int] = {}
+        for run in runs:
+            per_table[run.path] = per_table.get(run.path, 0) + 1
+        bases: list[str] = []
+        seen: dict[str, Path] = {}
+        for run in runs:
+            label = series_name(run)
+            alone = per_table[run.path] == 1 and label == "" and series is None
+            base = run.path.stem if alone else f"{run.path.stem}.{series_file_name(label)}"
+            if base in seen:
+                raise InputError(f"two run tables give the output name '{base}' (also "
+                                 f"{seen[base]}); rename one or reduce them separately",
+                                 file=str(run.path))
+            seen[base] = run.path
+            bases.append(base)
+        summary_names = [f"{name}.summary.csv", f"{name}.summary.png"]
+        owned = [f"{base}.{kind}" for base in bases for kind in OUTPUT_KINDS] + summary_names
+        inputs = list(dict.fromkeys(
+            p for run in runs for p in (run.path, run.metadata_path) if p is not None))
+        check_outputs(out, owned, [], inputs)
+        reducer = series_reducer(model, fixed)
+        job = _SeriesJob(tuple(runs), tuple(bases), reducer, out, figures, trials, seed)
+        done: list[_SeriesDone] = []
+        settle()  # the runs, read with the collector paused, set aside unscanned
         with output_set(folder=out, owned=owned, inputs=inputs) as staged:
             assert staged is not None
             done.extend(_each_series(job, staged, workers))
@@ -671,23 +674,35 @@ def _each_series(job: _SeriesJob, staged: StagedFolder, workers: int | None
 
 
 @contextlib.contextmanager
-def _heap_set_aside() -> Iterator[None]:
-    """What exists on entry (the runs, the modules) lives as long as the batch: the cyclic
-    garbage collector leaves it aside (gc.freeze) instead of going over it in each full
-    collection — ten thousand runs are about a million objects — and, in the worker
-    processes, of writing to the pages they share with this one. The young objects of each
-    series are collected as before. It stays set aside until the batch's summary, file names
-    and lines are made: the first full collection after it is put back would go over all of
-    it. A process that froze objects of its own is left as it is (the collector has one
-    permanent generation, which cannot be unfrozen in part)."""
+def _heap_set_aside() -> Iterator[Callable[[], None]]:
+    """The cyclic garbage collector paused while a batch's runs are made, and what exists when
+    the function given is called (``settle()``: the runs, the modules) set aside (gc.freeze)
+    for as long as the batch lasts, unscanned: ten thousand runs are about a million objects,
+    which each full collection would go over — and, in the worker processes, write to the
+    pages they share with this one. The young objects of each series are collected as
+    before. It stays set aside until the batch's summary, file names and lines are made: the
+    first full collection after it is put back would go over all of it. A process that froze
+    objects of its own is left as it is (the collector has one permanent generation, which
+    cannot be unfrozen in part)."""
     import gc
 
-    freezing = gc.get_freeze_count() == 0
-    if freezing:
-        gc.freeze()
+    freezing, collecting = gc.get_freeze_count() == 0, gc.isenabled()
+    gc.disable()
+    settled = False
+
+    def settle() -> None:
+        nonlocal settled
+        if not settled:
+            settled = True
+            if freezing:
+                gc.freeze()
+            if collecting:
+                gc.enable()
+
     try:
-        yield
+        yield settle
     finally:
+        settle()
         if freezing:
             gc.unfreeze()
 
