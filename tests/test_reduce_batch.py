@@ -4,7 +4,9 @@ bit for bit, every refusal word for word.
 
 The readings are synthetic (``tests/synthetic.py``: γ± of the Hückel equation with E° =
 0.2224 V, scattered by a seeded generator) and the bundled sample run; they are inputs for
-checking the mechanics, and every comparison is the code against itself.
+checking the mechanics, and every comparison is the code against itself: the expected values
+are each series reduced alone, a regression pin of the batch against the one-series path (no
+published value is checked here; the literature checks are marked ``literature``).
 """
 
 from __future__ import annotations

@@ -44,6 +44,26 @@ def aligned_lines(rows: list[list[str]], pad_last: bool = True) -> list[str]:
     return [(template % tuple(cells)).rstrip() for cells in rows]
 
 
+def headed_blocks(header: Sequence[str], cells: Sequence[Sequence[str]],
+                  counts: Sequence[int]) -> list[list[str]]:
+    """:func:`aligned_blocks` of tables under one ``header``: the cells of each column given
+    for every table, ``counts[k]`` rows of table k after the previous table's.
+
+    Examples
+    --------
+    >>> headed_blocks(["m", "γ±"], [["0.001", "0.5"], ["0.965", "0.75"]], [1, 1])
+    [['  m       γ±', '  0.001   0.965'], ['  m     γ±', '  0.5   0.75']]
+    """
+    columns: list[list[str]] = [[] for _ in header]
+    start = 0
+    for count in counts:
+        for column, head, texts in zip(columns, header, cells, strict=True):
+            column.append(head)
+            column += texts[start:start + count]
+        start += count
+    return aligned_blocks(columns, [count + 1 for count in counts])
+
+
 def aligned_blocks(columns: Sequence[Sequence[str]], rows: Sequence[int]) -> list[list[str]]:
     """:func:`aligned_lines` of many tables with the same number of columns, given by column:
     each column holds the cells of every table, a table's rows (header first) after the
@@ -208,15 +228,8 @@ def comparison_lines_of_many(comparisons: Sequence[pd.DataFrame | Mapping[str, A
              fill_rows("%+.*f", [places, difference.tolist()]),
              fill_rows("%+.1f%s", [ratio.tolist(), np.where(
                  np.abs(ratio) > 2.0, "  ← beyond 2 u_c", "").tolist()])]
-    columns_with_headers: list[list[str]] = [[] for _ in _HEADER]
-    start = 0
-    for count in counts:
-        for column, header, texts in zip(columns_with_headers, _HEADER, cells, strict=True):
-            column.append(header)
-            column += texts[start:start + count]
-        start += count
-    for (index, _, sources, _), table in zip(shown, aligned_blocks(
-            columns_with_headers, [count + 1 for count in counts]), strict=True):
+    for (index, _, sources, _), table in zip(shown, headed_blocks(_HEADER, cells, counts),
+                                             strict=True):
         found[index] = _framed(table, sources), list(sources)
     return found
 

@@ -17,7 +17,13 @@ from ..procedures.properties import DerivedResults, derive_results, derive_resul
 from ..procedures.published import plain_values, point_lists, point_names, point_values
 from ..safe_text import escape_controls
 from .cautions import cautions_for
-from .comparison import aligned_blocks, aligned_lines, comparison_lines, comparison_lines_of_many
+from .comparison import (
+    aligned_blocks,
+    aligned_lines,
+    comparison_lines,
+    comparison_lines_of_many,
+    headed_blocks,
+)
 from .model_table import format_model_comparison
 from .numbers import (
     decimals_for,
@@ -411,14 +417,7 @@ def _derived_lines_of_many(results: Sequence[DerivedResults]) -> list[list[str]]
     cells = [format_molality_column(molality), format_with_uncertainty_column(phi, u_phi),
              format_compact_column(1.0 - a_w, u_a_w), format_compact_column(g_rt, u_g_rt)]
     sizes = [len(r.property_columns["molality_mol_kg"]) for r in results]
-    tables: list[list[str]] = [[] for _ in _DERIVED_HEADER]
-    start = 0
-    for size in sizes:
-        for column, head, texts in zip(tables, _DERIVED_HEADER, cells, strict=True):
-            column.append(head)
-            column += texts[start:start + size]
-        start += size
-    return [_derived_lines(block) for block in aligned_blocks(tables, [s + 1 for s in sizes])]
+    return [_derived_lines(block) for block in headed_blocks(_DERIVED_HEADER, cells, sizes)]
 
 
 def _points_lines(table: dict[str, list[Any]]) -> list[str]:
