@@ -146,7 +146,13 @@ def mean_of(values: np.ndarray) -> float:
     True
     """
     values = np.ascontiguousarray(values, dtype=float)
+    if values.size > _KEPT_SIZE:  # a long series: worked out each time, not kept
+        return float(np.mean(values))
     return _mean_of_bytes(values.shape, values.tobytes())
+
+
+#: The largest array whose mean :func:`mean_of` keeps (the cache holds at most 1024 of them).
+_KEPT_SIZE = 1024
 
 
 @functools.lru_cache(maxsize=1024)

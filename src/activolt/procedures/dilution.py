@@ -862,15 +862,20 @@ def mean_temperature(temperature_K: np.ndarray) -> float:
     """The mean of the rows' temperatures [K], never outside their range by rounding (18 rows
     at 273.15 K must not average to 273.1499999999999 K, outside liquid water)."""
     temperature_K = np.ascontiguousarray(temperature_K, dtype=float)
+    if temperature_K.size > 1024:  # a long series: worked out each time, not kept
+        return _clipped_mean(temperature_K)
     return _mean_temperature(temperature_K.shape, temperature_K.tobytes())
+
+
+def _clipped_mean(temperature_K: np.ndarray) -> float:
+    return float(np.clip(np.mean(temperature_K), temperature_K.min(), temperature_K.max()))
 
 
 @functools.lru_cache(maxsize=1024)
 def _mean_temperature(shape: tuple[int, ...], raw: bytes) -> float:
     """:func:`mean_temperature` of the array of ``shape`` whose float64 values are ``raw``,
     kept once worked out (the series of a batch are mostly at one temperature)."""
-    temperature_K = np.frombuffer(raw).reshape(shape)
-    return float(np.clip(np.mean(temperature_K), temperature_K.min(), temperature_K.max()))
+    return _clipped_mean(np.frombuffer(raw).reshape(shape))
 
 
 def _split_fixed(fixed: Mapping[str, Any] | None
