@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from exact import identical
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -230,21 +231,6 @@ def _reference_published(published) -> list[dict]:
             for r in frame_records(published)]
 
 
-def _identical(a, b, where="record") -> None:
-    """Equal value for value, with the same types and the same order of keys."""
-    assert type(a) is type(b), f"{where}: {type(a).__name__} against {type(b).__name__}"
-    if isinstance(a, dict):
-        assert list(a) == list(b), where
-        for key in a:
-            _identical(a[key], b[key], f"{where}.{key}")
-    elif isinstance(a, list):
-        assert len(a) == len(b), where
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _identical(x, y, f"{where}[{i}]")
-    else:
-        assert a == b, f"{where}: {a!r} against {b!r}"
-
-
 @pytest.fixture(scope="module")
 def reductions(tmp_path_factory):
     """The sample as read, with two readings excluded, with one reading standing out (and
@@ -269,19 +255,19 @@ def reductions(tmp_path_factory):
 def test_record_tables_are_the_row_by_row_tables(reductions, case):
     reduction, comparison = reductions[case]
     record = build_record(reduction, comparison=comparison)
-    _identical(record["points"], _reference_points(reduction), "points")
+    identical(record["points"], _reference_points(reduction), "points")
     from activolt.procedures.properties import derive_results
 
     derived = derive_results(reduction)
-    _identical(record["derived_properties"]["points"],
+    identical(record["derived_properties"]["points"],
                [{k: json_number(v) if isinstance(v, float) else v for k, v in row.items()}
                 for row in frame_records(derived.properties)], "derived")
     if derived.published is not None:
-        _identical(record["published_comparison"], _reference_published(derived.published),
+        identical(record["published_comparison"], _reference_published(derived.published),
                    "published")
         assert record["published_source"] == derived.published["source"].iloc[0]
     # and the text holds the record exactly
-    _identical(json.loads(record_json(reduction, created=None, comparison=comparison))["points"],
+    identical(json.loads(record_json(reduction, created=None, comparison=comparison))["points"],
                record["points"], "points as written")
 
 
@@ -389,7 +375,7 @@ def test_the_written_record_holds_what_its_text_reads_back_as(reductions, case):
     created = datetime(2025, 1, 2, 3, 4, 5, tzinfo=UTC)
     written = written_record(reduction, created, comparison=comparison)
     parsed = json.loads(written.text)
-    _identical(written.document, parsed)
+    identical(written.document, parsed)
     assert written.text == record_json(reduction, created, comparison=comparison)
     assert report_html(written.document, {}, "r.record.json", "0" * 64) == report_html(
         parsed, {}, "r.record.json", "0" * 64)
@@ -467,7 +453,7 @@ def test_outputs_read_from_columns_are_those_of_the_points_table(reductions, dat
     excluded = _reference_exclusion_lines(changed.points)
     assert [line for line in report.splitlines()
             if line.startswith("  left out of the fit: ")] == excluded
-    _identical(build_record(changed)["points"], _reference_points(changed), "points")
+    identical(build_record(changed)["points"], _reference_points(changed), "points")
     assert points_csv(changed) == _reference_points_csv(changed)
 
 
@@ -559,7 +545,7 @@ def test_a_shared_input_entry_gives_the_record_of_each_series(reductions, tmp_pa
     shared = written_record(reduction, created, comparison=comparison, record_folder=folder,
                             input_entry=entry)
     assert shared.text == alone.text
-    _identical(shared.document, alone.document)
+    identical(shared.document, alone.document)
     assert shared.document["input"] is not entry  # each record holds its own entry
     # an entry for a folder at another depth names the files otherwise
     other = input_record(reduction.run, tmp_path.joinpath(*(["elsewhere"] * (depth + 3))))

@@ -26,6 +26,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from exact import identical
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from synthetic import emf_from_gamma
@@ -47,25 +48,6 @@ from activolt.procedures.properties import derive_results_of_many
 
 SAMPLE = Path(str(files("activolt") / "sample_data" / "kestrel_hcl_25C.csv"))
 CREATED = datetime(2025, 1, 2, 3, 4, 5, tzinfo=UTC)
-
-
-def _identical(a, b, where="record") -> None:
-    """Equal value for value, with the same types, the same order of keys and the same float
-    bits (NaN equal to NaN)."""
-    assert type(a) is type(b), f"{where}: {type(a).__name__} against {type(b).__name__}"
-    if isinstance(a, dict):
-        assert list(a) == list(b), where
-        for key in a:
-            _identical(a[key], b[key], f"{where}.{key}")
-    elif isinstance(a, list):
-        assert len(a) == len(b), where
-        for i, (x, y) in enumerate(zip(a, b, strict=True)):
-            _identical(x, y, f"{where}[{i}]")
-    elif isinstance(a, float):
-        assert (math.isnan(a) and math.isnan(b)) or (
-            a == b and math.copysign(1.0, a) == math.copysign(1.0, b)), f"{where}: {a!r} {b!r}"
-    else:
-        assert a == b, f"{where}: {a!r} against {b!r}"
 
 
 def _many_table(folder: Path) -> Path:
@@ -131,7 +113,7 @@ def _check_chunk(chunk, folder=None) -> None:
     assert len(records) == len(chunk)
     for record, (reduction, comparison, monte), d in zip(records, chunk, derived, strict=True):
         alone = build_record(reduction, CREATED, comparison, monte, folder, d)
-        _identical(record, alone)
+        identical(record, alone)
         # the record is its own: nothing in it is shared with another record of the chunk
         assert record["points"] is not alone["points"]
     texts = json_texts(records)
@@ -216,5 +198,5 @@ def test_any_floats_and_texts_of_a_chunk_are_each_series_own(cases, data):
     derived = derive_results_of_many(reductions)
     records = build_records(reductions, CREATED, [c for _, c, _ in chunk], derived=derived)
     for record, (reduction, comparison, _), d in zip(records, chunk, derived, strict=True):
-        _identical(record, build_record(reduction, CREATED, comparison, derived=d))
+        identical(record, build_record(reduction, CREATED, comparison, derived=d))
     assert points_csvs(reductions) == [points_csv(r) for r in reductions]
