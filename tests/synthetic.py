@@ -32,3 +32,17 @@ def emf_from_gamma(molality: np.ndarray, gamma: np.ndarray, e0_V: float,
     e = parse_electrolyte(electrolyte)
     k = nernst_factor(e, electrons, temperature_K)
     return e0_V - k * np.log(e.mean_molality(molality) * gamma)
+
+
+def write_moved_sample(sample: Path, folder: Path, electrode_cell: str) -> Path:
+    """The run ``sample`` copied into ``folder`` as ``moved.csv`` (with its metadata) with one
+    reading moved by +0.8 mV, so that it stands out, and the text ``KB-AgCl-08,`` (the
+    electrode's cell and the comma after it) written ``electrode_cell`` instead: text a report,
+    a spreadsheet or a page must not take as it is."""
+    lines = sample.read_text(encoding="utf-8").splitlines()
+    moved = [line.replace("429.811", "430.611").replace("KB-AgCl-08,", electrode_cell)
+             for line in lines]
+    path = folder / "moved.csv"
+    path.write_text("\n".join(moved) + "\n", encoding="utf-8")
+    path.with_suffix(".toml").write_bytes(sample.with_suffix(".toml").read_bytes())
+    return path

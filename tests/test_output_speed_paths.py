@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import json
 import math
-import shutil
 from datetime import UTC, datetime
 from importlib.resources import files
 from pathlib import Path
@@ -30,6 +29,7 @@ import pytest
 from exact import identical
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from synthetic import write_moved_sample
 
 from activolt.data.runs import Exclusion, exclude_points, read_run
 from activolt.io.json_layout import json_texts
@@ -237,11 +237,7 @@ def reductions(tmp_path_factory):
     text a spreadsheet or a page must not take as it is), and a compared series."""
     folder = tmp_path_factory.mktemp("fast_outputs")
     sample = read_run(SAMPLE)
-    lines = SAMPLE.read_text(encoding="utf-8").splitlines()
-    moved = [line.replace("429.811", "430.611").replace("KB-AgCl-08,", "KB-AgCl-08 é,=1+2")
-             for line in lines]
-    (folder / "moved.csv").write_text("\n".join(moved) + "\n", encoding="utf-8")
-    shutil.copy(SAMPLE.with_suffix(".toml"), folder / "moved.toml")
+    write_moved_sample(SAMPLE, folder, "KB-AgCl-08 é,=1+2")
     excluded = exclude_points(sample, [Exclusion("bubbles <b>", line=7),
                                        Exclusion("drift", molality_mol_kg=0.5)])
     compared = series_reducer("all", {})(sample)

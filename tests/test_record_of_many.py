@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import shutil
 from datetime import UTC, datetime
 from importlib.resources import files
 from pathlib import Path
@@ -29,7 +28,7 @@ import pytest
 from exact import identical
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from synthetic import emf_from_gamma
+from synthetic import emf_from_gamma, write_moved_sample
 
 from activolt.data.runs import Exclusion, exclude_points, read_run, read_runs
 from activolt.errors import FitError
@@ -78,11 +77,7 @@ def cases(tmp_path_factory):
     """(reduction, comparison, Monte Carlo result) of varied series, the order of a chunk."""
     folder = tmp_path_factory.mktemp("record_of_many")
     sample = read_run(SAMPLE)
-    lines = SAMPLE.read_text(encoding="utf-8").splitlines()
-    moved = [line.replace("429.811", "430.611").replace("KB-AgCl-08,", "KB-AgCl-08 é,=1+2")
-             for line in lines]
-    (folder / "moved.csv").write_text("\n".join(moved) + "\n", encoding="utf-8")
-    shutil.copy(SAMPLE.with_suffix(".toml"), folder / "moved.toml")
+    write_moved_sample(SAMPLE, folder, "KB-AgCl-08 é,=1+2")
     found = []
     for model in ("limiting", "hueckel", "davies", "sit", "pitzer"):
         try:

@@ -16,7 +16,6 @@ parameters; and synthetic series of the benchmarks' kind with odd names.
 from __future__ import annotations
 
 import math
-import shutil
 from importlib.resources import files
 from pathlib import Path
 
@@ -25,6 +24,7 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from synthetic import write_moved_sample
 
 from activolt import rounding
 from activolt.data.runs import Exclusion, exclude_points, read_run, runs_from_frame
@@ -73,11 +73,7 @@ def cases(tmp_path_factory):
     """(reduction, model comparison) of varied reductions, in one list."""
     folder = tmp_path_factory.mktemp("reports_of_many")
     sample = read_run(SAMPLE)
-    lines = SAMPLE.read_text(encoding="utf-8").splitlines()
-    moved = [line.replace("429.811", "430.611").replace("KB-AgCl-08,", "KB-AgCl-08 é\x07,")
-             for line in lines]
-    (folder / "moved.csv").write_text("\n".join(moved) + "\n", encoding="utf-8")
-    shutil.copy(SAMPLE.with_suffix(".toml"), folder / "moved.toml")
+    write_moved_sample(SAMPLE, folder, "KB-AgCl-08 é\x07,")
     excluded = exclude_points(sample, [Exclusion("bubbles <b>", line=7),
                                        Exclusion("drift", molality_mol_kg=0.5),
                                        Exclusion("odd\x1b[2J", line=9)])
