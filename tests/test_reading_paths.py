@@ -20,6 +20,7 @@ each side is the other's reference.
 
 from __future__ import annotations
 
+import dataclasses
 import gc
 import math
 import tempfile
@@ -170,6 +171,10 @@ def same_runs(first: Run, second: Run, sha: bool = True, same_table: bool = True
         assert column.dtype == second.arrays[name].dtype
         assert column.tobytes() == second.arrays[name].tobytes()
     assert first.usable.tobytes() == second.usable.tobytes()
+    assert first.lines.dtype == second.lines.dtype
+    assert first.lines.tobytes() == second.lines.tobytes()
+    assert first.lines.tobytes() == first.points["line"].to_numpy().tobytes()
+    assert not first.lines.flags.writeable
     assert (first.path, first.metadata_path, first.metadata, first.warnings) == (
         second.path, second.metadata_path, second.metadata, second.warnings)
     if sha:
@@ -220,6 +225,24 @@ def test_every_series_reads_as_alone(table, meta, quoted):
         for run in together:
             name = run.points["series"].iloc[0]
             same_runs(run, read_run(path, overrides=meta, series=name))
+
+
+def test_a_run_of_many_series_makes_its_points_once_and_copies_them(tmp_path):
+    """The points of a run of a table of many series are made when first asked for: the same
+    table every time after, the same in a copy made before or after, and as read alone."""
+    path = tmp_path / "run.csv"
+    path.write_text("series,molality_mol_kg,emf_V\n" + "".join(
+        f"{name},{m},{0.35 - 0.05 * i - 0.1 * k}\n" for k, name in enumerate("AB")
+        for i, m in enumerate((0.01, 0.02, 0.05))), encoding="utf-8")
+    meta = {**HCL, "temperature_C": 25.0}
+    first, second = read_runs(path, overrides=meta)
+    early = dataclasses.replace(second, warnings=("copied before",))
+    assert first.points is first.points
+    late = dataclasses.replace(first, warnings=("copied after",))
+    assert late.points is first.points
+    for run, name in ((first, "A"), (early, "B"), (second, "B")):
+        alone = read_run(path, overrides=meta, series=name)
+        pd.testing.assert_frame_equal(run.points, alone.points, check_exact=True)
 
 
 def series_names(rows: list[str | list[str]]) -> list[str]:

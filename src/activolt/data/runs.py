@@ -179,6 +179,34 @@ class RunMetadata:
     calibration: Mapping[str, Any] = field(default_factory=dict)
 
 
+class _PointsTable:
+    """The descriptor behind :attr:`Run.points`: the table a run was built with, or, for a
+    run of a table of many series (:func:`read_runs`), a :class:`_RowsToMake` of the table's
+    ordered columns, made into the run's own frame on first use. Ten thousand frames take
+    about 0.6 s to make; a batch makes each in the worker process that reduces its series,
+    and a series never asked for its table makes none."""
+
+    def __get__(self, run: Run | None, owner: type | None = None) -> pd.DataFrame:
+        if run is None:  # the class's attribute: no default for the field
+            raise AttributeError("points")
+        points = run.__dict__["points"]
+        if type(points) is _RowsToMake:
+            points = run.__dict__["points"] = points.rows_of(points.first, points.last)
+        return points
+
+    def __set__(self, run: Run, points: pd.DataFrame) -> None:
+        run.__dict__["points"] = points
+
+
+class _RowsToMake(NamedTuple):
+    """Rows ``first:last`` of a table's ordered columns, to be made into a frame by
+    ``rows_of`` (:func:`_row_slicer`) when first asked for."""
+
+    rows_of: Callable[[int, int], pd.DataFrame]
+    first: int
+    last: int
+
+
 #: The numeric columns of a run's points (:attr:`Run.arrays`).
 NUMERIC_COLUMNS = ("line", "molality_mol_kg", "emf_V", "u_emf_V", "u_molality_mol_kg",
                    "temperature_K", "pressure_Pa")
@@ -209,7 +237,7 @@ class Run:
     path: Path
     sha256: str
     metadata_path: Path | None
-    points: pd.DataFrame
+    points: pd.DataFrame = _PointsTable()  # type: ignore[assignment]
     metadata: RunMetadata
     warnings: tuple[str, ...] = ()
 
@@ -232,6 +260,14 @@ class Run:
             column.flags.writeable = False
             found[name] = column
         return MappingProxyType(found)
+
+    @functools.cached_property
+    def lines(self) -> np.ndarray:
+        """The ``line`` column of :attr:`points` as the table holds it (the file's line of
+        each row; integers for a table read from a file), read-only."""
+        column = self.points["line"].to_numpy(copy=True)
+        column.flags.writeable = False
+        return column
 
     @functools.cached_property
     def series(self) -> str:
@@ -1395,6 +1431,8 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     bounds = np.array([0, *(np.flatnonzero(np.diff(codes[order])) + 1), order.size])
     # the rows put in order of series once; each series is then a slice of every column
     columns = {name: points[name].to_numpy(float)[order] for name in NUMERIC_COLUMNS}
+    lines = points["line"].to_numpy()[order]
+    lines.flags.writeable = False
     flag = points["flag"].to_numpy(object)[order]
     usable = pd.isna(flag)
     cleared = _series_cleared(columns, usable, bounds, metadata, notes)
@@ -1406,7 +1444,7 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     gc.disable()
     try:
         _add_series(runs, path, sha256, metadata_path, metadata, warnings, notes, rows_of,
-                    columns, usable, bounds, cleared, [str(name) for name in names])
+                    columns, lines, usable, bounds, cleared, [str(name) for name in names])
     finally:
         if collecting:
             gc.enable()
@@ -1416,21 +1454,23 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
 def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | None,
                 metadata: RunMetadata, warnings: list[str], notes: Mapping[str, Any],
                 rows_of: Callable[[int, int], pd.DataFrame],
-                columns: Mapping[str, np.ndarray], usable: np.ndarray, bounds: np.ndarray,
-                cleared: np.ndarray, names: Sequence[str]) -> None:
-    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ordered table, named ``names[k]``)
-    as a Run added to ``runs``: built directly when ``cleared[k]``, else through
-    :func:`_series_run`."""
+                columns: Mapping[str, np.ndarray], lines: np.ndarray, usable: np.ndarray,
+                bounds: np.ndarray, cleared: np.ndarray, names: Sequence[str]) -> None:
+    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ordered table, named ``names[k]``;
+    ``lines``: the table's ``line`` column in that order) as a Run added to ``runs``: built
+    directly when ``cleared[k]``, else through
+    :func:`_series_run`. A run built directly makes its points table when first asked for
+    (:class:`_PointsTable`)."""
     for k, (first, last) in enumerate(itertools.pairwise(bounds.tolist())):
-        frame = rows_of(first, last)
         arrays = {name: column[first:last] for name, column in columns.items()}
         if not cleared[k]:
-            runs.append(_series_run(path, sha256, metadata_path, frame, metadata, warnings,
-                                    notes, arrays))
+            runs.append(_series_run(path, sha256, metadata_path, rows_of(first, last),
+                                    metadata, warnings, notes, arrays))
             continue
         rows = usable[first:last]
         missing = arrays["line"][~rows].astype(int).tolist()
-        run = Run(path=path, sha256=sha256, metadata_path=metadata_path, points=frame,
+        later = _RowsToMake(rows_of, first, last)
+        run = Run(path=path, sha256=sha256, metadata_path=metadata_path, points=later,
                   metadata=metadata, warnings=tuple(warnings) + (
                       (f"{len(missing)} row(s) have no reading (line(s) "
                        f"{', '.join(map(str, missing))}); they are kept in the record, "
@@ -1439,9 +1479,10 @@ def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | 
             column.flags.writeable = False
         rows = rows.copy()
         rows.flags.writeable = False
-        # what Run.arrays and Run.usable would take out of the points again
+        # what Run.arrays, Run.usable and Run.lines would take out of the points again
         run.__dict__["arrays"] = MappingProxyType(arrays)
         run.__dict__["usable"] = rows
+        run.__dict__["lines"] = lines[first:last]
         run.__dict__["series"] = names[k]
         runs.append(run)
 

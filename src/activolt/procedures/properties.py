@@ -26,7 +26,7 @@ from ..chemistry.electrolytes import Electrolyte
 from ..constants import GAS_CONSTANT_J_MOL_K
 from ..physics.water import DebyeHueckelConstants, debye_hueckel_constants
 from .dilution import Reduction
-from .published import column_values, published_columns_of_many, table_of
+from .published import published_columns_of_many, table_of
 
 __all__ = ["DerivedResults", "derive_results", "derive_results_of_many", "derived_properties",
            "model_sensitivities"]
@@ -260,7 +260,7 @@ def _inputs_of(reduction: Reduction) -> tuple[tuple[Any, ...], _Inputs]:
     which the reductions being grouped keep alive) and its own inputs."""
     run = reduction.run
     usable = run.usable  # the rows of usable_points(run), read from the run's arrays
-    lines = np.asarray(column_values(run.points, "line"))[usable]
+    lines = run.lines[usable]
     molality = run.arrays["molality_mol_kg"][usable]
     temperature = run.arrays["temperature_K"][usable]
     model = reduction.model

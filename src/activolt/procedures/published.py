@@ -16,11 +16,12 @@ import pandas as pd
 
 from ..activity.published import published_tables
 from ..chemistry.electrolytes import Electrolyte
+from ..data.runs import NUMERIC_COLUMNS
 from .dilution import Reduction
 
-__all__ = ["column_values", "compare_with_published", "plain_values", "point_lists",
-           "point_names", "point_values", "point_values_of_many", "published_columns",
-           "published_columns_of_many", "table_of"]
+__all__ = ["column_values", "compare_with_published", "plain_values", "point_floats",
+           "point_lists", "point_names", "point_values", "point_values_of_many",
+           "published_columns", "published_columns_of_many", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -105,7 +106,7 @@ def published_columns_of_many(reductions: Sequence[Reduction]) -> list[dict[str,
     for position, reduction in enumerate(reductions):
         gamma = np.asarray(point_values(reduction, "gamma_pm"), dtype=float)
         with_gamma = ~np.isnan(gamma)
-        m = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[with_gamma]
+        m = point_floats(reduction, "molality_mol_kg")[with_gamma]
         u_gamma = np.asarray(point_values(reduction, "u_gamma_pm"), dtype=float)[with_gamma]
         key = (reduction.electrolyte, float(reduction.temperature_K), m.tobytes())
         groups.setdefault(key, []).append((position, m, gamma[with_gamma], u_gamma))
@@ -251,6 +252,27 @@ def point_values(reduction: Reduction, name: str) -> Any:
     """
     found = reduction.point_columns.get(name)
     return found if found is not None else column_values(reduction.run.points, name)
+
+
+def point_floats(reduction: Reduction, name: str) -> np.ndarray:
+    """:func:`point_values` as floats: for a numeric column of the run
+    (:data:`~activolt.data.runs.NUMERIC_COLUMNS`), the run's arrays
+    (:attr:`~activolt.data.runs.Run.arrays`, the same values as floats), without building the
+    run's points table. Not a copy: read only.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from types import SimpleNamespace
+    >>> run = SimpleNamespace(arrays={"molality_mol_kg": np.array([0.01, 0.1])})
+    >>> point_floats(SimpleNamespace(point_columns={}, run=run), "molality_mol_kg")
+    array([0.01, 0.1 ])
+    """
+    found = reduction.point_columns.get(name)
+    if found is None and name in NUMERIC_COLUMNS:
+        return reduction.run.arrays[name]
+    return np.asarray(found if found is not None else point_values(reduction, name),
+                      dtype=float)
 
 
 def point_values_of_many(reductions: Sequence[Reduction], name: str) -> list[Any]:
