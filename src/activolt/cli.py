@@ -717,26 +717,34 @@ def _chunk_size(count: int, processes: int) -> int:
     return max(BATCH_SIZE, min(4 * BATCH_SIZE, count // (8 * processes)))
 
 
-def _chunks(count: int, size: int, taken: Any = None) -> Iterator[range]:
+def _chunks(count: int, size: int, taken: Any = None, processes: int = 1) -> Iterator[range]:
     """The chunks of ``size`` series of ``0 … count − 1``, each reduced and written together
     (the result of a series does not depend on its chunk): every chunk in order, or, with
-    ``taken`` (a shared count of the chunks the worker processes have taken), the next chunk
-    no worker has taken yet, until none is left — a worker slowed by the machine takes
-    fewer."""
-    starts = range(0, count, size) if taken is None else iter(
-        lambda: _next_start(taken, size), None)
-    for start in starts:
-        if start >= count:
-            return
-        yield range(start, min(start + size, count))
+    ``taken`` (a shared count of the series the ``processes`` worker processes have taken),
+    the next chunk no worker has taken yet (:func:`_next_chunk`), until none is left — a
+    worker slowed by the machine takes fewer."""
+    if taken is None:
+        for start in range(0, count, size):
+            yield range(start, min(start + size, count))
+        return
+    while chunk := _next_chunk(taken, count, size, processes):
+        yield chunk
 
 
-def _next_start(taken: Any, size: int) -> int:
-    """The first series of the next chunk not yet taken (``taken``: the shared count)."""
+def _next_chunk(taken: Any, count: int, size: int, processes: int) -> range:
+    """The next series not yet taken (``taken``: the shared count of series taken), empty
+    when none is left: ``size`` of them, fewer as the batch nears its end — no more than a
+    share of what is left, and no fewer than :data:`~activolt.procedures.many.BATCH_SIZE` —
+    so that the workers end close together rather than one idling through another's last
+    large chunk."""
+    from .procedures.many import BATCH_SIZE
+
     with taken.get_lock():
-        chunk = taken.value
-        taken.value = chunk + 1
-    return chunk * size
+        start = taken.value
+        share = -(-(count - start) // (2 * processes))
+        end = min(count, start + max(min(size, share), BATCH_SIZE))
+        taken.value = max(start, end)
+    return range(start, end)
 
 
 def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int, size: int
@@ -763,12 +771,13 @@ def _in_workers(job: _SeriesJob, staged: StagedFolder, processes: int, size: int
     for stream in (sys.stdout, sys.stderr):  # not to be written again by a worker on its exit
         if stream is not None:
             stream.flush()
-    taken = context.Value("q", 0)  # how many chunks the workers have taken
+    taken = context.Value("q", 0)  # how many series the workers have taken
     try:
         for _ in range(processes):
             receiver, sender = context.Pipe(duplex=False)
             process = context.Process(
-                target=_worker, args=(job, staged, size, taken, sender), daemon=True)
+                target=_worker, args=(job, staged, size, taken, processes, sender),
+                daemon=True)
             process.start()
             sender.close()
             started.append((process, receiver))
@@ -809,17 +818,18 @@ def _received(reading: dict[Any, Any]) -> Iterator[tuple[int, _SeriesDone]]:
             yield from message
 
 
-def _worker(job: _SeriesJob, staged: StagedFolder, size: int, taken: Any, sender: Any
-            ) -> None:
-    """A worker process: chunks of ``size`` series not yet taken (:func:`_chunks`; ``taken``:
-    the count of chunks taken, shared by the workers), the results of each chunk
+def _worker(job: _SeriesJob, staged: StagedFolder, size: int, taken: Any, processes: int,
+            sender: Any) -> None:
+    """A worker process (one of ``processes``): chunks of up to ``size`` series not yet taken
+    (:func:`_chunks`; ``taken``: the count of series taken, shared by the workers), the
+    results of each chunk
     sent together when it is done (one message, not one a series). It leaves Ctrl-C to the
     main process, which stops the batch and the workers; a failure is sent as its
     traceback."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     try:
-        for chunk in _chunks(len(job.runs), size, taken):
+        for chunk in _chunks(len(job.runs), size, taken, processes):
             sender.send(list(job(chunk, staged)))
     except Exception:  # a defect: shown by the main process, which stops the batch
         import traceback
