@@ -577,10 +577,31 @@ def test_an_unwritable_matplotlib_folder_says_nothing_on_stderr(tmp_path):
     env = {k: v for k, v in ENV.items()
            if k not in ("MPLCONFIGDIR", "XDG_CONFIG_HOME", "XDG_CACHE_HOME")}
     env["HOME"] = str(tmp_path / "file" / "home")
+    env["TMPDIR"] = str(tmp_path / "temporary")
+    (tmp_path / "temporary").mkdir()
     done = subprocess.run([sys.executable, "-m", "activolt.cli", "reduce", str(path)],
                           capture_output=True, text=True, env=env, timeout=60)
     assert done.returncode == 0 and done.stderr == ""
     assert (tmp_path / "run_activolt" / "run.gamma.png").exists()
+    # the private folder used instead is removed, though the command ends without Python's
+    # clean-up of its objects (cli.run_command)
+    assert list((tmp_path / "temporary").iterdir()) == []
+
+
+def test_the_command_ends_with_its_status_and_every_line_written(tmp_path):
+    # cli.run_command ends the process without Python's clean-up: what it printed into a
+    # pipe (buffered) is all there, and the exit status is main's
+    path = _table(tmp_path)
+    env = {k: v for k, v in ENV.items() if k != "PYTHONUNBUFFERED"}
+    command = [sys.executable, "-m", "activolt.cli", "reduce", str(path), "--no-figures"]
+    done = subprocess.run(command, capture_output=True, text=True, env=env, timeout=60)
+    assert done.returncode == 0 and done.stderr == ""
+    assert done.stdout.startswith("activolt reduction of run.csv")
+    assert done.stdout.endswith(f"  {tmp_path / 'run_activolt' / 'run.report.html'}\n")
+    done = subprocess.run([*command[:4], str(tmp_path / "missing.csv")], capture_output=True,
+                          text=True, env=env, timeout=60)
+    assert done.returncode == 2 and done.stdout == ""
+    assert done.stderr.startswith("activolt: error: ") and done.stderr.count("\n") == 1
 
 
 def test_input_file_in_the_record_is_relative_to_the_record(tmp_path, capsys, monkeypatch):

@@ -1230,5 +1230,34 @@ def main(argv: Sequence[str] | None = None) -> int:
     return status
 
 
+def run_command() -> NoReturn:
+    """The ``activolt`` command: :func:`main` with the process's arguments, then the exit.
+
+    The process ends as soon as Python's exit handlers have run and the standard streams are
+    flushed, without Python freeing, one by one, the objects of the modules imported (numpy,
+    scipy, pandas, matplotlib) and of the work done: 0.15–0.3 s at every exit, more after a
+    large batch. The handlers registered while :func:`main` runs (the removal of a private
+    Matplotlib folder, the clean-up of worker processes) run first, as the last registered
+    runs first. An exception that :func:`main` lets through ends it with status 1, after
+    its traceback, as Python would.
+    """
+    import atexit
+
+    status = [1]  # main's status once it returns
+    atexit.register(_end_now, status)
+    status[0] = main()
+    sys.exit(status[0])
+
+
+def _end_now(status: list[int]) -> NoReturn:
+    """End the process with ``status[0]``, the standard streams flushed (a stream that can no
+    longer be written, a closed pipe, is left)."""
+    for stream in (sys.stdout, sys.stderr):
+        if stream is not None:
+            with contextlib.suppress(OSError, ValueError):
+                stream.flush()
+    os._exit(status[0])
+
+
 if __name__ == "__main__":  # pragma: no cover
-    sys.exit(main())
+    run_command()
