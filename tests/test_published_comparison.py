@@ -37,8 +37,8 @@ HCL_01 = (0.796, 0.797)
 
 def _stub(molality, gamma, u_gamma, formula="HCl"):
     """What compare_with_published reads of a reduction: electrolyte, temperature, the run's
-    molalities (its arrays) and the reduction's own columns (γ± and its u)."""
-    run = SimpleNamespace(arrays={"molality_mol_kg": np.asarray(molality, dtype=float)})
+    column of molalities and the reduction's own columns (γ± and its u)."""
+    run = SimpleNamespace(column={"molality_mol_kg": np.asarray(molality, dtype=float)}.get)
     columns = {"gamma_pm": np.asarray(gamma, dtype=float),
                "u_gamma_pm": np.asarray(u_gamma, dtype=float)}
     return SimpleNamespace(electrolyte=parse_electrolyte(formula), temperature_K=298.15,

@@ -18,7 +18,7 @@ import itertools
 import math
 import re
 import tomllib
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
@@ -184,14 +184,15 @@ class _PointsTable:
     run of a table of many series (:func:`read_runs`), a :class:`_RowsToMake` of the table's
     ordered columns, made into the run's own frame on first use. Ten thousand frames take
     about 0.6 s to make; a batch makes each in the worker process that reduces its series,
-    and a series never asked for its table makes none."""
+    and a series never asked for its table makes none (:meth:`Run.column` reads a column
+    without it)."""
 
     def __get__(self, run: Run | None, owner: type | None = None) -> pd.DataFrame:
         if run is None:  # the class's attribute: no default for the field
             raise AttributeError("points")
         points = run.__dict__["points"]
         if type(points) is _RowsToMake:
-            points = run.__dict__["points"] = points.rows_of(points.first, points.last)
+            points = run.__dict__["points"] = points.table.frame(points.first, points.last)
         return points
 
     def __set__(self, run: Run, points: pd.DataFrame) -> None:
@@ -199,10 +200,10 @@ class _PointsTable:
 
 
 class _RowsToMake(NamedTuple):
-    """Rows ``first:last`` of a table's ordered columns, to be made into a frame by
-    ``rows_of`` (:func:`_row_slicer`) when first asked for."""
+    """Rows ``first:last`` of a table's ordered columns (:class:`_OrderedTable`), to be made
+    into a frame when first asked for."""
 
-    rows_of: Callable[[int, int], pd.DataFrame]
+    table: _OrderedTable
     first: int
     last: int
 
@@ -261,13 +262,22 @@ class Run:
             found[name] = column
         return MappingProxyType(found)
 
-    @functools.cached_property
-    def lines(self) -> np.ndarray:
-        """The ``line`` column of :attr:`points` as the table holds it (the file's line of
-        each row; integers for a table read from a file), read-only."""
-        column = self.points["line"].to_numpy(copy=True)
-        column.flags.writeable = False
-        return column
+    @property
+    def column_names(self) -> pd.Index:
+        """The labels of the columns of :attr:`points`, in order (without making the points
+        of a run of a table of many series)."""
+        points = self.__dict__["points"]
+        return points.table.names if type(points) is _RowsToMake else points.columns
+
+    def column(self, name: str) -> Any:
+        """The values of the column ``name`` of :attr:`points` as the table holds them
+        (:func:`column_values`: a numpy array for a numpy dtype, else pandas' extension
+        array), read only — for a run of a table of many series whose points are not made
+        yet, taken from the table's columns without making them."""
+        points = self.__dict__["points"]
+        if type(points) is _RowsToMake:
+            return points.table.column(name, points.first, points.last)
+        return column_values(points, name)
 
     @functools.cached_property
     def series(self) -> str:
@@ -281,6 +291,28 @@ class Run:
         """Whether every usable reading has a stated standard uncertainty."""
         usable = self.usable
         return bool(usable.any() and not np.isnan(self.arrays["u_emf_V"][usable]).any())
+
+
+def column_values(frame: pd.DataFrame | Mapping[str, Any], name: str) -> Any:
+    """The values of the column ``name`` as the table holds them, without building a Series:
+    a numpy array for a numpy dtype, else pandas' extension array. Not a copy: read only.
+    ``frame`` may also be the columns a table is made of (name → array), read as the table
+    made of them would be.
+
+    Examples
+    --------
+    >>> column_values(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2]}), "n")
+    array([1, 2])
+    """
+    if isinstance(frame, Mapping):
+        return frame[name]
+    take = getattr(frame, "_get_column_array", None)
+    if take is not None:
+        where = frame.columns.get_loc(name)
+        if isinstance(where, int):
+            return take(where)
+    column = frame[name]  # a pandas without it, or a name that several columns share
+    return column.to_numpy() if isinstance(column.dtype, np.dtype) else column.array
 
 
 def _decode(path: Path, raw: bytes) -> str:
@@ -1431,20 +1463,18 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
     bounds = np.array([0, *(np.flatnonzero(np.diff(codes[order])) + 1), order.size])
     # the rows put in order of series once; each series is then a slice of every column
     columns = {name: points[name].to_numpy(float)[order] for name in NUMERIC_COLUMNS}
-    lines = points["line"].to_numpy()[order]
-    lines.flags.writeable = False
     flag = points["flag"].to_numpy(object)[order]
     usable = pd.isna(flag)
     cleared = _series_cleared(columns, usable, bounds, metadata, notes)
-    rows_of = _row_slicer(points, order)
+    ordered = _OrderedTable(points, order)
     runs: list[Run] = []
     # Some sixty objects a series, none of them garbage: the cyclic collector's passes over
     # the whole heap while they pile up would take as long as making them (10 000 series).
     collecting = gc.isenabled()
     gc.disable()
     try:
-        _add_series(runs, path, sha256, metadata_path, metadata, warnings, notes, rows_of,
-                    columns, lines, usable, bounds, cleared, [str(name) for name in names])
+        _add_series(runs, path, sha256, metadata_path, metadata, warnings, notes, ordered,
+                    columns, usable, bounds, cleared, [str(name) for name in names])
     finally:
         if collecting:
             gc.enable()
@@ -1453,23 +1483,23 @@ def _every_series(path: Path, sha256: str, metadata_path: Path | None, points: p
 
 def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | None,
                 metadata: RunMetadata, warnings: list[str], notes: Mapping[str, Any],
-                rows_of: Callable[[int, int], pd.DataFrame],
-                columns: Mapping[str, np.ndarray], lines: np.ndarray, usable: np.ndarray,
-                bounds: np.ndarray, cleared: np.ndarray, names: Sequence[str]) -> None:
-    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ordered table, named ``names[k]``;
-    ``lines``: the table's ``line`` column in that order) as a Run added to ``runs``: built
-    directly when ``cleared[k]``, else through
+                ordered: _OrderedTable, columns: Mapping[str, np.ndarray],
+                usable: np.ndarray, bounds: np.ndarray, cleared: np.ndarray,
+                names: Sequence[str]) -> None:
+    """Each series (rows ``bounds[k]:bounds[k+1]`` of the ``ordered`` table, named
+    ``names[k]``; ``columns``: its numeric columns in that order) as a Run added to ``runs``:
+    built directly when ``cleared[k]``, else through
     :func:`_series_run`. A run built directly makes its points table when first asked for
     (:class:`_PointsTable`)."""
     for k, (first, last) in enumerate(itertools.pairwise(bounds.tolist())):
         arrays = {name: column[first:last] for name, column in columns.items()}
         if not cleared[k]:
-            runs.append(_series_run(path, sha256, metadata_path, rows_of(first, last),
+            runs.append(_series_run(path, sha256, metadata_path, ordered.frame(first, last),
                                     metadata, warnings, notes, arrays))
             continue
         rows = usable[first:last]
         missing = arrays["line"][~rows].astype(int).tolist()
-        later = _RowsToMake(rows_of, first, last)
+        later = _RowsToMake(ordered, first, last)
         run = Run(path=path, sha256=sha256, metadata_path=metadata_path, points=later,
                   metadata=metadata, warnings=tuple(warnings) + (
                       (f"{len(missing)} row(s) have no reading (line(s) "
@@ -1479,50 +1509,69 @@ def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | 
             column.flags.writeable = False
         rows = rows.copy()
         rows.flags.writeable = False
-        # what Run.arrays, Run.usable and Run.lines would take out of the points again
+        # what Run.arrays and Run.usable would take out of the points again
         run.__dict__["arrays"] = MappingProxyType(arrays)
         run.__dict__["usable"] = rows
-        run.__dict__["lines"] = lines[first:last]
         run.__dict__["series"] = names[k]
         runs.append(run)
 
 
-def _row_slicer(points: pd.DataFrame, order: np.ndarray) -> Callable[[int, int], pd.DataFrame]:
-    """A function giving the rows ``first:last`` of ``points`` taken in ``order`` as a frame of
-    their own: the same columns and types, a RangeIndex, no attrs, nothing shared with another
-    frame it gave. The float columns are taken out of the table once, as one block, and each
-    frame is made of slices of them (pandas' block constructor where pandas has one, about
-    seven times faster than a DataFrame from a dict of columns)."""
-    names = points.columns
-    floats = [i for i, dtype in enumerate(points.dtypes) if dtype == np.float64]
-    blocks: list[tuple[Any, np.ndarray]] = []
-    if floats:
-        blocks.append((np.vstack([points.iloc[:, i].to_numpy()[order] for i in floats]),
-                       np.array(floats)))
-    for i, dtype in enumerate(points.dtypes):
-        if i in floats:
-            continue
-        column = points.iloc[:, i]
-        blocks.append((column.to_numpy()[order][np.newaxis] if isinstance(dtype, np.dtype)
-                       else column.array.take(order), np.array([i])))
-    try:
-        from pandas.api.internals import create_dataframe_from_blocks
-    except ImportError:  # pandas before 3.0
-        def rows_of(first: int, last: int) -> pd.DataFrame:
-            frame = {}
-            for values, where in blocks:
-                for row, i in enumerate(where.tolist()):
-                    frame[names[i]] = (values[row, first:last] if isinstance(values, np.ndarray)
-                                       else values[first:last])
-            return pd.DataFrame(frame, columns=names)
-        return rows_of
+class _OrderedTable:
+    """A table's rows taken in ``order`` (the rows of each series together), from which the
+    rows ``first:last`` are made into a frame of their own (:meth:`frame`: the same columns
+    and types, a RangeIndex, no attrs, nothing shared with another frame it gave) or read a
+    column at a time (:meth:`column`). The float columns are taken out of the table once, as
+    one block, and each frame is made of slices of them (pandas' block constructor where
+    pandas has one, about seven times faster than a DataFrame from a dict of columns)."""
 
-    def made_of_blocks(first: int, last: int) -> pd.DataFrame:
+    def __init__(self, points: pd.DataFrame, order: np.ndarray) -> None:
+        self.names = points.columns
+        floats = [i for i, dtype in enumerate(points.dtypes) if dtype == np.float64]
+        #: (values, the columns' places): a 2-D numpy block (a row per column) or an
+        #: extension array (one column)
+        self.blocks: list[tuple[Any, np.ndarray]] = []
+        if floats:
+            self.blocks.append((np.vstack([points.iloc[:, i].to_numpy()[order]
+                                           for i in floats]), np.array(floats)))
+        for i, dtype in enumerate(points.dtypes):
+            if i not in floats:
+                column = points.iloc[:, i]
+                self.blocks.append((column.to_numpy()[order][np.newaxis]
+                                    if isinstance(dtype, np.dtype)
+                                    else column.array.take(order), np.array([i])))
+        #: each column's block and row in it, by name (a name that several columns share is
+        #: read from a frame)
+        self.places = {str(self.names[i]): (block, row)
+                       for block, (_values, where) in enumerate(self.blocks)
+                       for row, i in enumerate(where.tolist())
+                       if self.names.get_indexer_for([self.names[i]]).size == 1}
+
+    def column(self, name: str, first: int, last: int) -> Any:
+        """The values of the column ``name`` in the rows ``first:last``, as :meth:`frame`
+        holds them (:func:`column_values`), read only."""
+        place = self.places.get(name)
+        if place is None:
+            return column_values(self.frame(first, last), name)
+        values = self.blocks[place[0]][0]
+        return (values[place[1], first:last] if isinstance(values, np.ndarray)
+                else values[first:last])
+
+    def frame(self, first: int, last: int) -> pd.DataFrame:
+        """The rows ``first:last`` as a frame of their own."""
+        try:
+            from pandas.api.internals import create_dataframe_from_blocks
+        except ImportError:  # pandas before 3.0
+            frame = {}
+            for values, where in self.blocks:
+                for row, i in enumerate(where.tolist()):
+                    frame[self.names[i]] = (values[row, first:last]
+                                            if isinstance(values, np.ndarray)
+                                            else values[first:last])
+            return pd.DataFrame(frame, columns=self.names)
         return create_dataframe_from_blocks(
             [(values[:, first:last].copy() if isinstance(values, np.ndarray)
-              else values[first:last], where) for values, where in blocks],
-            index=pd.RangeIndex(last - first), columns=names)
-    return made_of_blocks
+              else values[first:last], where) for values, where in self.blocks],
+            index=pd.RangeIndex(last - first), columns=self.names)
 
 
 #: How far the whole-table screen of the EMF's response (:func:`_series_cleared`) keeps from
@@ -1890,5 +1939,6 @@ def usable_points(run: Run) -> pd.DataFrame:
 
 
 __all__ = ["KNOWN_COLUMNS", "KNOWN_METADATA_KEYS", "Exclusion", "Run", "RunMetadata",
-           "exclude_points", "read_run", "read_runs", "runs_from_frame", "usable_points"]
+           "column_values", "exclude_points", "read_run", "read_runs", "runs_from_frame",
+           "usable_points"]
 

@@ -260,7 +260,7 @@ def _inputs_of(reduction: Reduction) -> tuple[tuple[Any, ...], _Inputs]:
     which the reductions being grouped keep alive) and its own inputs."""
     run = reduction.run
     usable = run.usable  # the rows of usable_points(run), read from the run's arrays
-    lines = run.lines[usable]
+    lines = np.asarray(run.column("line"))[usable]
     molality = run.arrays["molality_mol_kg"][usable]
     temperature = run.arrays["temperature_K"][usable]
     model = reduction.model

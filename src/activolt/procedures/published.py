@@ -16,12 +16,12 @@ import pandas as pd
 
 from ..activity.published import published_tables
 from ..chemistry.electrolytes import Electrolyte
-from ..data.runs import NUMERIC_COLUMNS
+from ..data.runs import column_values
 from .dilution import Reduction
 
-__all__ = ["column_values", "compare_with_published", "plain_values", "point_floats",
-           "point_lists", "point_names", "point_values", "point_values_of_many",
-           "published_columns", "published_columns_of_many", "table_of"]
+__all__ = ["column_values", "compare_with_published", "plain_values", "point_lists",
+           "point_names", "point_values", "point_values_of_many", "published_columns",
+           "published_columns_of_many", "table_of"]
 
 
 def compare_with_published(reduction: Reduction) -> pd.DataFrame | None:
@@ -106,7 +106,7 @@ def published_columns_of_many(reductions: Sequence[Reduction]) -> list[dict[str,
     for position, reduction in enumerate(reductions):
         gamma = np.asarray(point_values(reduction, "gamma_pm"), dtype=float)
         with_gamma = ~np.isnan(gamma)
-        m = point_floats(reduction, "molality_mol_kg")[with_gamma]
+        m = np.asarray(point_values(reduction, "molality_mol_kg"), dtype=float)[with_gamma]
         u_gamma = np.asarray(point_values(reduction, "u_gamma_pm"), dtype=float)[with_gamma]
         key = (reduction.electrolyte, float(reduction.temperature_K), m.tobytes())
         groups.setdefault(key, []).append((position, m, gamma[with_gamma], u_gamma))
@@ -184,28 +184,6 @@ def table_of(names: pd.Index, columns: Sequence[Any]) -> pd.DataFrame:
                  verify_integrity=False)
 
 
-def column_values(frame: pd.DataFrame | Mapping[str, Any], name: str) -> Any:
-    """The values of the column ``name`` as the table holds them, without building a Series:
-    a numpy array for a numpy dtype, else pandas' extension array. Not a copy: read only.
-    ``frame`` may also be the columns a table is made of (name → array), read as the table
-    made of them would be.
-
-    Examples
-    --------
-    >>> column_values(pd.DataFrame({"m": [0.1, 0.2], "n": [1, 2]}), "n")
-    array([1, 2])
-    """
-    if isinstance(frame, Mapping):
-        return frame[name]
-    take = getattr(frame, "_get_column_array", None)
-    if take is not None:
-        where = frame.columns.get_loc(name)
-        if isinstance(where, int):
-            return take(where)
-    column = frame[name]  # a pandas without it, or a name that several columns share
-    return column.to_numpy() if isinstance(column.dtype, np.dtype) else column.array
-
-
 def plain_values(frame: pd.DataFrame | Mapping[str, Any], name: str) -> list[Any]:
     """The column ``name`` as a list of plain Python values, as ``frame.to_dict("records")``
     gives them (floats, ints, bools and strings as Python objects, a missing string as NaN).
@@ -225,7 +203,7 @@ def point_names(reduction: Reduction) -> list[str]:
     """The column names of ``reduction.points`` in order — the run's, then the reduction's
     (:attr:`~activolt.procedures.dilution.Reduction.point_columns`) — without building the
     table."""
-    return [*_names_of(reduction.run.points.columns), *reduction.point_columns]
+    return [*_names_of(reduction.run.column_names), *reduction.point_columns]
 
 
 #: The last Index whose labels :func:`_names_of` read, with those labels (one pair, read and
@@ -251,53 +229,19 @@ def point_values(reduction: Reduction, name: str) -> Any:
     dtype, else pandas' extension array (the run's text columns). Not a copy: read only.
     """
     found = reduction.point_columns.get(name)
-    return found if found is not None else column_values(reduction.run.points, name)
-
-
-def point_floats(reduction: Reduction, name: str) -> np.ndarray:
-    """:func:`point_values` as floats: for a numeric column of the run
-    (:data:`~activolt.data.runs.NUMERIC_COLUMNS`), the run's arrays
-    (:attr:`~activolt.data.runs.Run.arrays`, the same values as floats), without building the
-    run's points table. Not a copy: read only.
-
-    Examples
-    --------
-    >>> import pandas as pd
-    >>> from types import SimpleNamespace
-    >>> run = SimpleNamespace(arrays={"molality_mol_kg": np.array([0.01, 0.1])})
-    >>> point_floats(SimpleNamespace(point_columns={}, run=run), "molality_mol_kg")
-    array([0.01, 0.1 ])
-    """
-    found = reduction.point_columns.get(name)
-    if found is None and name in NUMERIC_COLUMNS:
-        return reduction.run.arrays[name]
-    return np.asarray(found if found is not None else point_values(reduction, name),
-                      dtype=float)
+    return found if found is not None else reduction.run.column(name)
 
 
 def point_values_of_many(reductions: Sequence[Reduction], name: str) -> list[Any]:
     """:func:`point_values` of each of ``reductions``: the column ``name`` of each one's points
-    as that table holds it (read only), the column's place among the runs' columns looked up
-    once for runs that share their columns' Index (the runs of a table do).
+    as that table holds it (read only).
 
     Examples
     --------
     >>> point_values_of_many([], "gamma_pm")
     []
     """
-    found = []
-    index, where = None, None
-    for reduction in reductions:
-        values = reduction.point_columns.get(name)
-        if values is None:
-            frame = reduction.run.points
-            take = getattr(frame, "_get_column_array", None)
-            if frame.columns is not index:
-                index, where = frame.columns, frame.columns.get_loc(name)
-            values = (take(where) if take is not None and isinstance(where, int)
-                      else column_values(frame, name))
-        found.append(values)
-    return found
+    return [point_values(reduction, name) for reduction in reductions]
 
 
 def point_lists(reduction: Reduction, names: Sequence[str]) -> dict[str, list[Any]]:

@@ -139,11 +139,11 @@ def _report(reduction: Reduction, tables: list[str], gamma_budget: list[str],
     t_C = reduction.temperature_K - 273.15
     lines = [
         f"activolt reduction of {run.path.name}"
-        + (f", series '{series}'" if (series := _series(run.points)) is not None else ""),
+        + (f", series '{series}'" if (series := _series(reduction)) is not None else ""),
         *([f"  cell: {meta.cell}"] if meta.cell else []),
         f"  electrolyte {meta.electrolyte.formula} ({meta.electrolyte.charge_type}), "
         f"n = {meta.electrons}, t = {t_C:.2f} °C, {stats.n_points} readings used"
-        + (f" of {rows}" if (rows := len(run.points)) != stats.n_points else ""),
+        + (f" of {rows}" if (rows := run.usable.size) != stats.n_points else ""),
         f"  model: {reduction.model.title}",
         "",
         "  " + _e0_line(reduction),
@@ -482,9 +482,9 @@ def _finite(value: object) -> bool:
         return False
 
 
-def _series(points: object) -> str | None:
-    """The one series named by the points, or None."""
-    names = {n for n in plain_values(points, "series")  # type: ignore[arg-type]
+def _series(reduction: Reduction) -> str | None:
+    """The one series named by the points of the reduction's run, or None."""
+    names = {n for n in point_lists(reduction, ["series"])["series"]
              if isinstance(n, str) and n}
     return names.pop() if len(names) == 1 else None
 
