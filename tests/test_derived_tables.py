@@ -186,8 +186,9 @@ def test_prepared_tables_say_what_the_tables_say(formula, temperature, molality)
 def _stub(gamma):
     from types import SimpleNamespace
 
-    # what compare_with_published reads of a reduction: the run's points and its own columns
-    run = SimpleNamespace(points=pd.DataFrame({"molality_mol_kg": [0.01, 0.05, 0.1, 0.2]}))
+    # what compare_with_published reads of a reduction: the run's column of molalities and
+    # its own columns
+    run = SimpleNamespace(column={"molality_mol_kg": np.array([0.01, 0.05, 0.1, 0.2])}.get)
     columns = {"gamma_pm": np.array(gamma), "u_gamma_pm": np.full(4, 0.001)}
     return SimpleNamespace(electrolyte=parse_electrolyte("HCl"), temperature_K=298.15,
                            run=run, point_columns=columns)
