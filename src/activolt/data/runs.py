@@ -1488,9 +1488,8 @@ def _add_series(runs: list[Run], path: Path, sha256: str, metadata_path: Path | 
                 names: Sequence[str]) -> None:
     """Each series (rows ``bounds[k]:bounds[k+1]`` of the ``ordered`` table, named
     ``names[k]``; ``columns``: its numeric columns in that order) as a Run added to ``runs``:
-    built directly when ``cleared[k]``, else through
-    :func:`_series_run`. A run built directly makes its points table when first asked for
-    (:class:`_PointsTable`)."""
+    built directly when ``cleared[k]``, else through :func:`_series_run`. A run built
+    directly makes its points table when first asked for (:class:`_PointsTable`)."""
     for k, (first, last) in enumerate(itertools.pairwise(bounds.tolist())):
         arrays = {name: column[first:last] for name, column in columns.items()}
         if not cleared[k]:
@@ -1539,6 +1538,9 @@ class _OrderedTable:
                 self.blocks.append((column.to_numpy()[order][np.newaxis]
                                     if isinstance(dtype, np.dtype)
                                     else column.array.take(order), np.array([i])))
+        for values, _where in self.blocks:  # read by every run: each frame takes a copy
+            if isinstance(values, np.ndarray):
+                values.flags.writeable = False
         #: each column's block and row in it, by name (a name that several columns share is
         #: read from a frame)
         self.places = {str(self.names[i]): (block, row)
