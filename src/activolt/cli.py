@@ -822,10 +822,9 @@ def _worker(job: _SeriesJob, staged: StagedFolder, size: int, taken: Any, proces
             sender: Any) -> None:
     """A worker process (one of ``processes``): chunks of up to ``size`` series not yet taken
     (:func:`_chunks`; ``taken``: the count of series taken, shared by the workers), the
-    results of each chunk
-    sent together when it is done (one message, not one a series). It leaves Ctrl-C to the
-    main process, which stops the batch and the workers; a failure is sent as its
-    traceback."""
+    results of each chunk sent together when it is done (one message, not one a series). It
+    leaves Ctrl-C to the main process, which stops the batch and the workers; a failure is
+    sent as its traceback."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     try:
